@@ -1,0 +1,17 @@
+// Public entry of the ranging core (ranging.md). Pure TypeScript: runs in the browser and on the server.
+export * from "./types.ts";
+export { DomainError } from "./errors.ts";
+export { AIR_DEFAULTS, AIR_LIMITS, airState, airGroupRefractivity, groupRefractivityIag, buckVapourPressure, firstVelocityCorrectionPpm } from "./air.ts";
+export { C0, rangeFromRoundTrip, correctReportedRange } from "./range.ts";
+export { phaseFromSamples, rangeFromPhase, unambiguousIntervalM, unwrapFrequencies, cwRepeatabilityMm, frequencyGcdHz } from "./phase.ts";
+export type { PhaseEstimate, UnwrapInput, UnwrapResult } from "./phase.ts";
+export { STEEL_ALPHA_PER_C, tapeCorrections, tapeTemperatureCorrection, tapeTensionCorrection, tapeSagCorrection, referenceDistance } from "./reference.ts";
+export type { TapeCorrections, ReferenceResult } from "./reference.ts";
+export { WGS84, GRS80, geodeticToGeocentric, gridDistance3d, geoChord } from "./geodesy.ts";
+export type { Ellipsoid, Xyz } from "./geodesy.ts";
+export { mean, sampleSd, rmse, quantileType7, quantileType7Sorted, median, mad, olsFit } from "./stats.ts";
+export type { OlsFit } from "./stats.ts";
+export { tQuantile, chiSquareQuantile, normalQuantile, incompleteBeta, incompleteGamma, logGamma } from "./quantiles.ts";
+export { computeShot, toleranceMm, isWrap, checkSensor, checkRule } from "./shot.ts";
+export { sensorReport, NSSDA_FACTOR } from "./report.ts";
+export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, COVERAGE_NEED } from "./coverage.ts";

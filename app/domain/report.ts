@@ -1,0 +1,273 @@
+// Per-sensor report (ranging.md §5–6): bias, SD (n − 1), RMSE, NSSDA 95 % accuracy 1.96·RMSE
+// (FGDC-STD-007.3-1998; valid for near-normal, near-unbiased errors), P95|e| (Hyndman–Fan
+// type 7), bias CI with Student t, OLS zero offset and scale, breakdowns, robust outlier flags
+// (median ± 3·1.4826·MAD), drift per session, and the four acceptance tests with a precision
+// bound in the manner of ISO 17123-4: s ≤ σ·√(χ²₀.₉₅(ν)/ν).
+import { DomainError } from "./errors.ts";
+import { chiSquareQuantile, tQuantile } from "./quantiles.ts";
+import { olsFit, quantileType7Sorted } from "./stats.ts";
+import { coverageChecklist, rangeBandIndex, rangeBandLabels } from "./coverage.ts";
+import { checkRule, checkSensor, toleranceMm } from "./shot.ts";
+import type {
+  AcceptanceTest,
+  BandStats,
+  DriftEntry,
+  IlluminanceBand,
+  ReflectanceClass,
+  ReportShot,
+  ReportShotRow,
+  SensorReport,
+  SensorReportInput,
+  ShotFlag,
+} from "./types.ts";
+
+/** NSSDA factor: 95 % accuracy = 1.9600 · RMSE. */
+export const NSSDA_FACTOR = 1.96;
+/** Outlier when |e − median| > OUTLIER_K · 1.4826 · MAD. */
+export const OUTLIER_K = 3;
+export const MAD_TO_SIGMA = 1.4826;
+
+/** Running figures of a band (Welford). */
+class Acc {
+  n = 0;
+  m = 0;
+  m2 = 0;
+  sq = 0;
+  within = 0;
+  add(e: number, w: boolean): void {
+    this.n++;
+    const d = e - this.m;
+    this.m += d / this.n;
+    this.m2 += d * (e - this.m);
+    this.sq += e * e;
+    if (w) this.within++;
+  }
+  stats<B extends string>(band: B): BandStats<B> {
+    const n = this.n;
+    return {
+      band,
+      n,
+      biasMm: n ? this.m : null,
+      sdMm: n > 1 ? Math.sqrt(Math.max(0, this.m2) / (n - 1)) : null,
+      rmseMm: n ? Math.sqrt(this.sq / n) : null,
+      withinPct: n ? (100 * this.within) / n : null,
+    };
+  }
+}
+
+const REFLECTANCE: ReflectanceClass[] = ["dark", "mid", "bright", "retro"];
+const ILLUMINANCE: IlluminanceBand[] = ["low", "moderate", "high"];
+
+function checkShot(s: ReportShot, i: number): void {
+  const p = `shots.${i}`;
+  if (!s || typeof s !== "object") throw new DomainError(p, "missing", "shot missing");
+  if (!(typeof s.referenceM === "number" && Number.isFinite(s.referenceM) && s.referenceM > 0)) {
+    throw new DomainError(`${p}.referenceM`, "not_positive", `reference distance must be a positive number (got ${s.referenceM})`);
+  }
+  if (!(typeof s.errorMm === "number" && Number.isFinite(s.errorMm))) {
+    throw new DomainError(`${p}.errorMm`, "not_finite", `range error must be a finite number (got ${s.errorMm})`);
+  }
+  if (!(typeof s.rangeM === "number" && Number.isFinite(s.rangeM))) {
+    throw new DomainError(`${p}.rangeM`, "not_finite", `range must be a finite number (got ${s.rangeM})`);
+  }
+  if (!(typeof s.reflectancePct === "number" && Number.isFinite(s.reflectancePct) && s.reflectancePct >= 0)) {
+    throw new DomainError(`${p}.reflectancePct`, "not_finite", `reflectance must be a number ≥ 0 (got ${s.reflectancePct})`);
+  }
+  const k = s.illuminanceKlux;
+  if (k != null && !(typeof k === "number" && Number.isFinite(k) && k >= 0)) {
+    throw new DomainError(`${p}.illuminanceKlux`, "not_finite", `illuminance must be a number ≥ 0 or null (got ${k})`);
+  }
+}
+
+type Session = { id: string; startedAt: string; t: number; n: number; sumE: number; sumD: number };
+
+export function sensorReport(input: SensorReportInput): SensorReport {
+  const { sensor, rule } = input;
+  checkSensor(sensor);
+  checkRule(rule);
+  const shots = input.shots;
+  if (!Array.isArray(shots)) throw new DomainError("shots", "not_list", "shots must be a list");
+  const N = shots.length;
+  const a = sensor.toleranceMm;
+  const b = sensor.tolerancePpm;
+  const k = rule.coverageK;
+  const edges = rule.rangeBandEdgesM;
+  const labels = rangeBandLabels(edges);
+
+  const e = new Float64Array(N); // included errors (first n used)
+  const d = new Float64Array(N); // included reference distances
+  const limits = new Float64Array(N);
+  const withinAll = new Uint8Array(N);
+  const included: ReportShot[] = [];
+  const refl = REFLECTANCE.map(() => new Acc());
+  const illu = ILLUMINANCE.map(() => new Acc());
+  const range = labels.map(() => new Acc());
+  const below = new Acc();
+  const sessions = new Map<string, Session>();
+  let n = 0;
+  let excluded = 0;
+  let sumD = 0;
+  let withinCount = 0;
+  let maxAbs = 0;
+
+  for (let i = 0; i < N; i++) {
+    const s = shots[i];
+    checkShot(s, i);
+    const lim = k * (a + (b * s.referenceM) / 1000);
+    limits[i] = lim;
+    const w = Math.abs(s.errorMm) <= lim;
+    withinAll[i] = w ? 1 : 0;
+    if (s.excluded) {
+      excluded++;
+      continue;
+    }
+    const err = s.errorMm;
+    e[n] = err;
+    d[n] = s.referenceM;
+    n++;
+    included.push(s);
+    sumD += s.referenceM;
+    if (w) withinCount++;
+    const ae = Math.abs(err);
+    if (ae > maxAbs) maxAbs = ae;
+    const rc = s.retro ? 3 : s.reflectancePct < 20 ? 0 : s.reflectancePct <= 60 ? 1 : 2;
+    refl[rc].add(err, w);
+    const lx = s.illuminanceKlux;
+    if (lx != null) illu[lx < 10 ? 0 : lx < 50 ? 1 : 2].add(err, w);
+    const rb = rangeBandIndex(s.referenceM, edges);
+    (rb < 0 ? below : range[rb]).add(err, w);
+    let ses = sessions.get(s.sessionId);
+    if (!ses) {
+      const t = Date.parse(s.sessionStartedAt);
+      ses = { id: s.sessionId, startedAt: s.sessionStartedAt, t, n: 0, sumE: 0, sumD: 0 };
+      sessions.set(s.sessionId, ses);
+    }
+    ses.n++;
+    ses.sumE += err;
+    ses.sumD += s.referenceM;
+  }
+
+  const ei = e.subarray(0, n);
+  const di = d.subarray(0, n);
+  let biasMm: number | null = null;
+  let sdMm: number | null = null;
+  let rmseMm: number | null = null;
+  let p95AbsMm: number | null = null;
+  let med = 0;
+  let madv = 0;
+  if (n > 0) {
+    let s1 = 0;
+    let sq = 0;
+    for (let i = 0; i < n; i++) {
+      s1 += ei[i];
+      sq += ei[i] * ei[i];
+    }
+    biasMm = s1 / n;
+    rmseMm = Math.sqrt(sq / n);
+    if (n > 1) {
+      let ss = 0;
+      for (let i = 0; i < n; i++) ss += (ei[i] - biasMm) ** 2;
+      sdMm = Math.sqrt(ss / (n - 1));
+    }
+    const sorted = Float64Array.from(ei).sort();
+    med = quantileType7Sorted(sorted, 0.5);
+    const dev = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      dev[i] = Math.abs(sorted[i] - med);
+    }
+    dev.sort();
+    madv = quantileType7Sorted(dev, 0.5);
+    // |e| sorted: reuse `sorted` (ascending e) → merge of the two halves by absolute value
+    const abs = new Float64Array(n);
+    for (let i = 0; i < n; i++) abs[i] = Math.abs(sorted[i]);
+    abs.sort();
+    p95AbsMm = quantileType7Sorted(abs, 0.95);
+  }
+  const withinPct = n ? (100 * withinCount) / n : null;
+  const biasCi95Mm: [number, number] | null =
+    n > 1 && biasMm != null && sdMm != null
+      ? (() => {
+          const h = (tQuantile(0.975, n - 1) * sdMm) / Math.sqrt(n);
+          return [biasMm - h, biasMm + h] as [number, number];
+        })()
+      : null;
+  const fit = n >= 3 ? olsFit(di, ei, "shots") : null;
+
+  // acceptance tests
+  const dMean = n ? sumD / n : 0;
+  const sigma = toleranceMm(sensor, dMean);
+  const precisionLimit = n > 1 ? sigma * Math.sqrt(chiSquareQuantile(0.95, n - 1) / (n - 1)) : sigma;
+  const tests: AcceptanceTest[] = [
+    { name: "count", pass: n >= rule.minShots, value: n, limit: rule.minShots },
+    { name: "within", pass: withinPct != null && withinPct >= rule.minWithinPct, value: withinPct, limit: rule.minWithinPct },
+    { name: "bias", pass: biasMm != null && Math.abs(biasMm) <= a, value: biasMm, limit: a },
+    { name: "precision", pass: sdMm != null && sdMm <= precisionLimit, value: sdMm, limit: precisionLimit },
+  ];
+  const failed = tests.filter((t) => !t.pass).map((t) => t.name);
+  const verdict: SensorReport["verdict"] = !tests[0].pass ? "insufficient" : failed.length === 0 ? "pass" : "fail";
+
+  // rows with flags
+  const outlierCut = OUTLIER_K * MAD_TO_SIGMA * madv;
+  const rows: ReportShotRow[] = new Array(N);
+  for (let i = 0; i < N; i++) {
+    const s = shots[i];
+    const flags: ShotFlag[] = [];
+    if (n > 0 && Math.abs(s.errorMm - med) > outlierCut) flags.push("outlier");
+    if (s.wrap) flags.push("wrap");
+    rows[i] = {
+      id: s.id,
+      takenAt: s.takenAt,
+      sessionId: s.sessionId,
+      referenceM: s.referenceM,
+      rangeM: s.rangeM,
+      errorMm: s.errorMm,
+      limitMm: limits[i],
+      within: withinAll[i] === 1,
+      repeatabilityMm: s.repeatabilityMm ?? null,
+      excluded: !!s.excluded,
+      flags,
+    };
+  }
+
+  // drift
+  const last = input.lastSignedOffBiasMm;
+  const drift: DriftEntry[] = [...sessions.values()]
+    .sort((x, y) => (Number.isNaN(x.t) || Number.isNaN(y.t) || x.t === y.t ? (x.startedAt < y.startedAt ? -1 : x.startedAt > y.startedAt ? 1 : x.id < y.id ? -1 : x.id > y.id ? 1 : 0) : x.t - y.t))
+    .map((s) => {
+      const bias = s.sumE / s.n;
+      const tol = toleranceMm(sensor, s.sumD / s.n);
+      return { sessionId: s.id, startedAt: s.startedAt, n: s.n, biasMm: bias, flag: last != null && Number.isFinite(last) && Math.abs(bias - last) > tol };
+    });
+
+  const byRange: BandStats<string>[] = [];
+  if (below.n) byRange.push(below.stats(`<${edges[0]}`));
+  range.forEach((acc, i) => acc.n && byRange.push(acc.stats(labels[i])));
+  const cov = coverageChecklist({ sensor, rule, shots: included });
+
+  return {
+    n,
+    excluded,
+    biasMm,
+    biasCi95Mm,
+    sdMm,
+    rmseMm,
+    accuracy95Mm: rmseMm == null ? null : NSSDA_FACTOR * rmseMm,
+    p95AbsMm,
+    maxAbsMm: n ? maxAbs : null,
+    withinPct,
+    zeroOffsetMm: fit ? fit.intercept : null,
+    zeroOffsetSeMm: fit ? fit.interceptSe : null,
+    scalePpm: fit ? fit.slope * 1000 : null,
+    scaleSePpm: fit ? fit.slopeSe * 1000 : null,
+    rSquared: fit ? fit.rSquared : null,
+    tests,
+    verdict,
+    failed,
+    byReflectance: REFLECTANCE.map((c, i) => refl[i].stats(c)).filter((x) => x.n > 0),
+    byIlluminance: ILLUMINANCE.map((c, i) => illu[i].stats(c)).filter((x) => x.n > 0),
+    byRange,
+    coverage: { complete: cov.complete, missing: cov.missing, needsBrightSun: cov.needsBrightSun },
+    drift,
+    shots: rows,
+  };
+}
