@@ -1,0 +1,350 @@
+// The whole Shotbook data model. Units are in the column names (…M, …Mm, …Ppm, …Klux).
+// Raw field observations are kept verbatim as JSON; computed columns are the server's,
+// recomputed from the raw inputs whenever a spec or rule changes.
+import { sql } from "drizzle-orm";
+import { index, integer, primaryKey, real, sqliteTable, text, uniqueIndex } from "drizzle-orm/sqlite-core";
+
+export const ROLES = ["admin", "qa", "crew", "viewer"] as const;
+export type Role = (typeof ROLES)[number];
+
+const id = () => text("id").primaryKey().$defaultFn(() => crypto.randomUUID());
+const createdAt = () =>
+  text("created_at")
+    .notNull()
+    .default(sql`(strftime('%Y-%m-%dT%H:%M:%fZ','now'))`);
+
+// ---------- people and sign-in ----------
+export const users = sqliteTable("users", {
+  id: id(),
+  email: text("email").notNull().unique(),
+  name: text("name").notNull().default(""),
+  role: text("role", { enum: ROLES }).notNull().default("viewer"),
+  active: integer("active", { mode: "boolean" }).notNull().default(true),
+  invitedBy: text("invited_by"),
+  createdAt: createdAt(),
+  lastSignInAt: text("last_sign_in_at"),
+});
+
+/** Server-side session rows: the cookie carries only the id, so an admin can revoke. */
+export const authSessions = sqliteTable(
+  "auth_sessions",
+  {
+    id: id(),
+    userId: text("user_id").notNull().references(() => users.id),
+    createdAt: createdAt(),
+    expiresAt: text("expires_at").notNull(),
+    lastSeenAt: text("last_seen_at"),
+    revokedAt: text("revoked_at"),
+    userAgent: text("user_agent"),
+    ip: text("ip"),
+  },
+  (t) => [index("auth_sessions_user").on(t.userId)],
+);
+
+/** One-time sign-in codes (hash only), with tries and use, for expiry and reuse checks. */
+export const loginCodes = sqliteTable(
+  "login_codes",
+  {
+    id: id(),
+    email: text("email").notNull(),
+    codeHash: text("code_hash").notNull(),
+    createdAt: createdAt(),
+    expiresAt: text("expires_at").notNull(),
+    attempts: integer("attempts").notNull().default(0),
+    usedAt: text("used_at"),
+    ip: text("ip"),
+  },
+  (t) => [index("login_codes_email").on(t.email)],
+);
+
+/** Fixed-window counters shared by every app instance (per address, per client IP…). */
+export const rateLimits = sqliteTable(
+  "rate_limits",
+  {
+    key: text("key").notNull(),
+    windowStart: text("window_start").notNull(),
+    count: integer("count").notNull().default(0),
+  },
+  (t) => [primaryKey({ columns: [t.key, t.windowStart] })],
+);
+
+export const apiTokens = sqliteTable("api_tokens", {
+  id: id(),
+  userId: text("user_id").notNull().references(() => users.id),
+  name: text("name").notNull(),
+  tokenHash: text("token_hash").notNull().unique(),
+  createdAt: createdAt(),
+  lastUsedAt: text("last_used_at"),
+  revokedAt: text("revoked_at"),
+});
+
+// ---------- registry ----------
+export const projects = sqliteTable("projects", {
+  id: id(),
+  name: text("name").notNull(),
+  client: text("client").notNull().default(""),
+  minShots: integer("min_shots").notNull().default(20),
+  coverageK: real("coverage_k").notNull().default(2),
+  minWithinPct: real("min_within_pct").notNull().default(95),
+  /** Lower edges of the range bands in metres, e.g. [0,10,30,100]. */
+  rangeBandEdgesM: text("range_band_edges_m", { mode: "json" }).$type<number[]>().notNull().default(sql`'[0,10,30,100]'`),
+  notes: text("notes").notNull().default(""),
+  createdAt: createdAt(),
+  updatedAt: text("updated_at"),
+  retiredAt: text("retired_at"),
+});
+
+export const projectSensors = sqliteTable(
+  "project_sensors",
+  {
+    projectId: text("project_id").notNull().references(() => projects.id),
+    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+  },
+  (t) => [primaryKey({ columns: [t.projectId, t.sensorId] })],
+);
+
+export const projectSites = sqliteTable(
+  "project_sites",
+  {
+    projectId: text("project_id").notNull().references(() => projects.id),
+    siteId: text("site_id").notNull().references(() => sites.id),
+  },
+  (t) => [primaryKey({ columns: [t.projectId, t.siteId] })],
+);
+
+export const sensors = sqliteTable("sensors", {
+  id: id(),
+  label: text("label").notNull(),
+  serial: text("serial").notNull(),
+  kind: text("kind", { enum: ["pulsed", "cw"] }).notNull(),
+  wavelengthNm: real("wavelength_nm").notNull(),
+  modulationHz: text("modulation_hz", { mode: "json" }).$type<number[]>().notNull().default(sql`'[]'`),
+  appliesAirCorrection: integer("applies_air_correction", { mode: "boolean" }).notNull(),
+  /** N_ref in ppm, (n−1)·10⁶ the sensor assumes; 0 = vacuum speed of light. */
+  assumedRefractivity: real("assumed_refractivity").notNull().default(0),
+  toleranceMm: real("tolerance_mm").notNull(),
+  tolerancePpm: real("tolerance_ppm").notNull(),
+  outdoor: integer("outdoor", { mode: "boolean" }).notNull().default(true),
+  calibrationDue: text("calibration_due"),
+  notes: text("notes").notNull().default(""),
+  createdAt: createdAt(),
+  updatedAt: text("updated_at"),
+  retiredAt: text("retired_at"),
+});
+
+export const tapes = sqliteTable("tapes", {
+  id: id(),
+  label: text("label").notNull(),
+  standardTempC: real("standard_temp_c").notNull(),
+  standardTensionN: real("standard_tension_n").notNull(),
+  areaMm2: real("area_mm2").notNull(),
+  modulusGPa: real("modulus_gpa").notNull(),
+  weightNPerM: real("weight_n_per_m").notNull(),
+  /** Certificate correction, positive when the tape is longer than nominal. */
+  calibrationPpm: real("calibration_ppm").notNull().default(0),
+  notes: text("notes").notNull().default(""),
+  createdAt: createdAt(),
+  updatedAt: text("updated_at"),
+  retiredAt: text("retired_at"),
+});
+
+export const sites = sqliteTable("sites", {
+  id: id(),
+  name: text("name").notNull(),
+  lat: real("lat"),
+  lon: real("lon"),
+  notes: text("notes").notNull().default(""),
+  createdAt: createdAt(),
+  updatedAt: text("updated_at"),
+  retiredAt: text("retired_at"),
+});
+
+export const stations = sqliteTable(
+  "stations",
+  {
+    id: id(),
+    siteId: text("site_id").notNull().references(() => sites.id),
+    label: text("label").notNull(),
+    gridE: real("grid_e"),
+    gridN: real("grid_n"),
+    gridH: real("grid_h"),
+    lat: real("lat"),
+    lon: real("lon"),
+    h: real("h"),
+    retiredAt: text("retired_at"),
+  },
+  (t) => [index("stations_site").on(t.siteId)],
+);
+
+export const targets = sqliteTable(
+  "targets",
+  {
+    id: id(),
+    siteId: text("site_id").notNull().references(() => sites.id),
+    label: text("label").notNull(),
+    reflectancePct: real("reflectance_pct").notNull(),
+    retro: integer("retro", { mode: "boolean" }).notNull().default(false),
+    /** Surveyed reference distance from the site's main station, when known. */
+    referenceM: real("reference_m"),
+    gridE: real("grid_e"),
+    gridN: real("grid_n"),
+    gridH: real("grid_h"),
+    lat: real("lat"),
+    lon: real("lon"),
+    h: real("h"),
+    retiredAt: text("retired_at"),
+  },
+  (t) => [index("targets_site").on(t.siteId)],
+);
+
+// ---------- field records (client-made UUIDs) ----------
+export const checkSessions = sqliteTable(
+  "check_sessions",
+  {
+    id: text("id").primaryKey(),
+    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+    siteId: text("site_id").notNull().references(() => sites.id),
+    projectId: text("project_id").references(() => projects.id),
+    startedAt: text("started_at").notNull(),
+    airTempC: real("air_temp_c"),
+    pressureHpa: real("pressure_hpa"),
+    humidityPct: real("humidity_pct"),
+    note: text("note"),
+    /** The record exactly as the tablet sent it (canonical JSON), for duplicate checks. */
+    raw: text("raw").notNull(),
+    deviceId: text("device_id").notNull(),
+    syncedBy: text("synced_by").references(() => users.id),
+    receivedAt: createdAt(),
+  },
+  (t) => [index("check_sessions_sensor").on(t.sensorId, t.startedAt)],
+);
+
+export const shots = sqliteTable(
+  "shots",
+  {
+    id: text("id").primaryKey(),
+    sessionId: text("session_id").notNull().references(() => checkSessions.id),
+    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+    takenAt: text("taken_at").notNull(),
+    targetId: text("target_id").references(() => targets.id),
+    raw: text("raw").notNull(),
+    referenceMethod: text("reference_method", { enum: ["tape", "edm", "coordinates"] }).notNull(),
+    reflectancePct: real("reflectance_pct").notNull(),
+    illuminanceKlux: real("illuminance_klux"),
+    incidenceDeg: real("incidence_deg"),
+    lat: real("lat"),
+    lon: real("lon"),
+    accuracyM: real("accuracy_m"),
+    note: text("note"),
+    deviceId: text("device_id").notNull(),
+    syncedBy: text("synced_by").references(() => users.id),
+    receivedAt: createdAt(),
+    // computed by the server from raw with app/domain
+    referenceM: real("reference_m").notNull(),
+    rangeM: real("range_m").notNull(),
+    errorMm: real("error_mm").notNull(),
+    toleranceMm: real("tolerance_mm").notNull(),
+    limitMm: real("limit_mm").notNull(),
+    within: integer("within", { mode: "boolean" }).notNull(),
+    repeatabilityMm: real("repeatability_mm"),
+    readingsCount: integer("readings_count").notNull().default(1),
+    wrap: integer("wrap", { mode: "boolean" }).notNull().default(false),
+    unambiguousM: real("unambiguous_m"),
+    retro: integer("retro", { mode: "boolean" }).notNull().default(false),
+    airDefaulted: integer("air_defaulted", { mode: "boolean" }).notNull().default(false),
+    excluded: integer("excluded", { mode: "boolean" }).notNull().default(false),
+    computedAt: text("computed_at").notNull(),
+  },
+  (t) => [
+    index("shots_sensor_taken").on(t.sensorId, t.takenAt),
+    index("shots_session").on(t.sessionId),
+  ],
+);
+
+/** QA exclusions: never deleted; a restore closes the row and both land in the audit trail. */
+export const exclusions = sqliteTable(
+  "exclusions",
+  {
+    id: id(),
+    shotId: text("shot_id").notNull().references(() => shots.id),
+    reason: text("reason").notNull(),
+    byUserId: text("by_user_id").notNull().references(() => users.id),
+    createdAt: createdAt(),
+    restoredAt: text("restored_at"),
+    restoredBy: text("restored_by").references(() => users.id),
+    restoreReason: text("restore_reason"),
+  },
+  (t) => [index("exclusions_shot").on(t.shotId)],
+);
+
+export const signOffs = sqliteTable(
+  "sign_offs",
+  {
+    id: id(),
+    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+    projectId: text("project_id").references(() => projects.id),
+    decision: text("decision", { enum: ["approved", "rejected"] }).notNull(),
+    periodFrom: text("period_from"),
+    periodTo: text("period_to"),
+    sessionIds: text("session_ids", { mode: "json" }).$type<string[]>().notNull().default(sql`'[]'`),
+    verdict: text("verdict", { enum: ["pass", "fail", "insufficient"] }).notNull(),
+    biasMm: real("bias_mm"),
+    /** The full report as it stood when signed, frozen. */
+    snapshot: text("snapshot", { mode: "json" }).notNull(),
+    note: text("note").notNull().default(""),
+    byUserId: text("by_user_id").notNull().references(() => users.id),
+    createdAt: createdAt(),
+  },
+  (t) => [index("sign_offs_sensor").on(t.sensorId, t.createdAt)],
+);
+
+export const auditLog = sqliteTable(
+  "audit_log",
+  {
+    id: id(),
+    at: createdAt(),
+    actorUserId: text("actor_user_id"),
+    action: text("action").notNull(),
+    entity: text("entity").notNull(),
+    entityId: text("entity_id"),
+    detail: text("detail", { mode: "json" }),
+  },
+  (t) => [index("audit_entity").on(t.entity, t.entityId)],
+);
+
+export const photos = sqliteTable(
+  "photos",
+  {
+    id: id(),
+    shotId: text("shot_id").notNull().references(() => shots.id),
+    contentType: text("content_type").notNull(),
+    bytes: integer("bytes").notNull(),
+    sha256: text("sha256").notNull(),
+    path: text("path").notNull(),
+    uploadedBy: text("uploaded_by").references(() => users.id),
+    createdAt: createdAt(),
+  },
+  (t) => [index("photos_shot").on(t.shotId), uniqueIndex("photos_shot_sha").on(t.shotId, t.sha256)],
+);
+
+export const mailLog = sqliteTable("mail_log", {
+  id: id(),
+  at: createdAt(),
+  to: text("to").notNull(),
+  subject: text("subject").notNull(),
+  template: text("template").notNull(),
+  status: text("status", { enum: ["sent", "failed", "pending"] }).notNull(),
+  attempts: integer("attempts").notNull().default(1),
+  error: text("error"),
+  messageId: text("message_id"),
+  /** Kept so a failed mail can be retried. */
+  payload: text("payload", { mode: "json" }),
+});
+
+/** Column mapping of a sensor's own CSV export, remembered once per sensor. */
+export const importMappings = sqliteTable("import_mappings", {
+  sensorId: text("sensor_id").primaryKey().references(() => sensors.id),
+  mapping: text("mapping", { mode: "json" }).$type<Record<string, string>>().notNull(),
+  updatedAt: text("updated_at").notNull(),
+  updatedBy: text("updated_by").references(() => users.id),
+});

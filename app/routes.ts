@@ -1,0 +1,31 @@
+import { type RouteConfig, index, layout, prefix, route } from "@react-router/dev/routes";
+
+// Every route is listed here; app/auth/access.ts says which roles may open each one,
+// and tests/integration/access-matrix.test.ts walks this list so none can skip the check.
+export default [
+  // ---- foundation ----
+  route("healthz", "routes/healthz.ts"),
+  route("theme", "routes/theme.ts"),
+
+  layout("routes/shell.tsx", [
+    index("routes/home.tsx"),
+
+    // ---- sign-in and users (auth) ----
+
+    // ---- registry (admin) ----
+
+    // ---- review (qa) ----
+
+    // ---- field (crew) ----
+  ]),
+
+  // ---- API resource routes ----
+  ...prefix("api", [
+    // auth
+    // registry
+    // sync and reports
+    // field
+  ]),
+
+  route("*", "routes/not-found.tsx"),
+] satisfies RouteConfig;

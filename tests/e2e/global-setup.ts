@@ -1,0 +1,102 @@
+// Starts the BUILT server (npm run build first) on 127.0.0.1 with a fresh database and the
+// mail fake, for browser tests driven by playwright-core through Debian's Chromium.
+import { spawn, type ChildProcess } from "node:child_process";
+import { existsSync, mkdirSync, rmSync } from "node:fs";
+import { createServer } from "node:net";
+import { resolve } from "node:path";
+import type { TestProject } from "vitest/node";
+import { startFakeSmtp, type FakeSmtp } from "../../app/mail/fake-smtp.server";
+import { CHROMIUM_PATH } from "./chromium";
+
+declare module "vitest" {
+  export interface ProvidedContext {
+    baseURL: string;
+    databaseUrl: string;
+    mailDir: string;
+    dataDir: string;
+  }
+}
+
+async function freePort() {
+  return new Promise<number>((res, rej) => {
+    const s = createServer();
+    s.once("error", rej);
+    s.listen(0, "127.0.0.1", () => {
+      const a = s.address();
+      const p = typeof a === "object" && a ? a.port : 0;
+      s.close(() => res(p));
+    });
+  });
+}
+
+let server: ChildProcess | undefined;
+let smtp: FakeSmtp | undefined;
+
+export default async function setup(project: TestProject) {
+  if (!existsSync(CHROMIUM_PATH)) {
+    throw new Error(`Chromium not found at ${CHROMIUM_PATH}. Install it with: apt-get install -y chromium`);
+  }
+  const root = process.cwd();
+  const buildDir = process.env.RR_BUILD_DIR ?? "build";
+  if (!existsSync(resolve(root, buildDir, "server/index.js"))) {
+    throw new Error("No build found: run `npm run build` before the browser tests (npm test does).");
+  }
+  const dir = resolve(root, `tests/.tmp/e2e-${process.pid}`);
+  rmSync(dir, { recursive: true, force: true });
+  mkdirSync(dir, { recursive: true });
+  const databaseUrl = `file:${resolve(dir, "e2e.db")}`;
+  const dataDir = resolve(dir, "data");
+  const mailDir = resolve(dataDir, "mail");
+
+  const [port, smtpPort] = [await freePort(), await freePort()];
+  smtp = await startFakeSmtp({ port: smtpPort, mailDir });
+
+  const env = {
+    ...process.env,
+    NODE_ENV: "production",
+    HOST: "127.0.0.1",
+    PORT: String(port),
+    DATABASE_URL: databaseUrl,
+    DATA_DIR: dataDir,
+    MAIL_DIR: mailDir,
+    SMTP_URL: `smtp://127.0.0.1:${smtpPort}`,
+    SESSION_SECRET: "e2e-secret",
+    COOKIE_SECURE: "false",
+    DEV_MAIL_VIEWER: "true",
+    APP_URL: `http://127.0.0.1:${port}`,
+  };
+  // Migrate and seed the test users with the same CLI code operators use.
+  await run(["tsx", "tests/e2e/prepare-db.ts"], env);
+
+  server = spawn("node", ["node_modules/@react-router/serve/bin.js", `${buildDir}/server/index.js`], {
+    env,
+    stdio: ["ignore", "inherit", "inherit"],
+  });
+  const baseURL = `http://127.0.0.1:${port}`;
+  const deadline = Date.now() + 30_000;
+  for (;;) {
+    try {
+      const r = await fetch(`${baseURL}/healthz`);
+      if (r.ok) break;
+    } catch {}
+    if (Date.now() > deadline) throw new Error("The built server did not answer /healthz within 30 s");
+    await new Promise((r) => setTimeout(r, 200));
+  }
+  project.provide("baseURL", baseURL);
+  project.provide("databaseUrl", databaseUrl);
+  project.provide("mailDir", mailDir);
+  project.provide("dataDir", dataDir);
+
+  return async () => {
+    server?.kill("SIGTERM");
+    await smtp?.close();
+    rmSync(dir, { recursive: true, force: true });
+  };
+}
+
+function run(cmd: string[], env: NodeJS.ProcessEnv) {
+  return new Promise<void>((res, rej) => {
+    const p = spawn("npx", cmd, { env, stdio: "inherit" });
+    p.on("exit", (code) => (code === 0 ? res() : rej(new Error(`${cmd.join(" ")} exited ${code}`))));
+  });
+}

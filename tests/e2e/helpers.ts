@@ -1,0 +1,77 @@
+// Browser-test helpers: Debian's Chromium through playwright-core, sessions minted in the
+// shared database (sign-in itself is tested through the real mail round trip elsewhere).
+import { readFileSync } from "node:fs";
+import { createRequire } from "node:module";
+import { chromium, type Browser, type BrowserContext, type Page } from "playwright-core";
+import { inject } from "vitest";
+import { CHROMIUM_PATH } from "./chromium";
+
+export const baseURL = () => inject("baseURL");
+
+/** Point this test process at the e2e server's database and secret before app code loads. */
+export function useServerEnv() {
+  process.env.DATABASE_URL = inject("databaseUrl");
+  process.env.DATA_DIR = inject("dataDir");
+  process.env.MAIL_DIR = inject("mailDir");
+  process.env.SESSION_SECRET = "e2e-secret";
+  process.env.COOKIE_SECURE = "false";
+  process.env.NODE_ENV = "production";
+}
+
+export async function launchBrowser(): Promise<Browser> {
+  return chromium.launch({
+    executablePath: CHROMIUM_PATH,
+    headless: true,
+    args: [
+      "--no-sandbox",
+      "--disable-gpu",
+      "--disable-quic",
+      "--no-first-run",
+      "--disable-background-networking",
+      "--disable-component-update",
+      "--disable-sync",
+    ],
+  });
+}
+
+export async function newContext(browser: Browser, opts: { viewport?: { width: number; height: number } } = {}) {
+  return browser.newContext({ baseURL: baseURL(), viewport: opts.viewport ?? { width: 1280, height: 900 } });
+}
+
+/** Signs a context in as the user with this e-mail by creating a real server-side session. */
+export async function signInAs(context: BrowserContext, email: string) {
+  useServerEnv();
+  const { getDb } = await import("~/db/client.server");
+  const { users } = await import("~/db/schema");
+  const { createAuthSession } = await import("~/auth/session.server");
+  const { eq } = await import("drizzle-orm");
+  const [user] = await getDb().select().from(users).where(eq(users.email, email));
+  if (!user) throw new Error(`No test user ${email}`);
+  const { cookie } = await createAuthSession(user);
+  const [pair] = cookie.split(";");
+  const [name, ...rest] = pair!.split("=");
+  const url = new URL(baseURL());
+  await context.addCookies([{ name: name!, value: rest.join("="), domain: url.hostname, path: "/", httpOnly: true, sameSite: "Lax" }]);
+  return user;
+}
+
+const require = createRequire(import.meta.url);
+const AXE_SOURCE = readFileSync(require.resolve("axe-core/axe.min.js"), "utf8");
+
+/** Runs axe-core on the page; returns the serious and critical violations. */
+export async function seriousA11yViolations(page: Page) {
+  await page.addScriptTag({ content: AXE_SOURCE });
+  const result = await page.evaluate(async () => {
+    // @ts-expect-error axe is injected above
+    const r = await window.axe.run(document, { resultTypes: ["violations"] });
+    return r.violations.map((v: { id: string; impact: string; help: string; nodes: { target: string[] }[] }) => ({
+      id: v.id,
+      impact: v.impact,
+      help: v.help,
+      targets: v.nodes.slice(0, 5).map((n) => n.target.join(" ")),
+    }));
+  });
+  return (result as { id: string; impact: string; help: string; targets: string[] }[]).filter(
+    (v) => v.impact === "serious" || v.impact === "critical",
+  );
+}
