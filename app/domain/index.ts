@@ -15,3 +15,5 @@ export { tQuantile, chiSquareQuantile, normalQuantile, incompleteBeta, incomplet
 export { computeShot, toleranceMm, isWrap, checkSensor, checkRule } from "./shot.ts";
 export { sensorReport, NSSDA_FACTOR } from "./report.ts";
 export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, COVERAGE_NEED } from "./coverage.ts";
+export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
+export type { CiddorInput } from "./ciddor.ts";
