@@ -16,17 +16,18 @@ export function phaseFromSamples(samples: number[], path = "readings.phase.0.sam
   let s = 0;
   let c = 0;
   let sum = 0;
+  let peak = 0;
   for (let k = 0; k < N; k++) {
     const I = requireFinite(samples[k], `${path}.${k}`, `sample ${k}`);
     const d = (2 * Math.PI * k) / N;
     s += I * Math.sin(d);
     c += I * Math.cos(d);
     sum += I;
+    if (Math.abs(I) > peak) peak = Math.abs(I);
   }
   const amplitude = (2 / N) * Math.hypot(s, c);
   // relative floor: a vanishing modulation leaves only rounding noise in s, c
-  const scale = Math.max(1, Math.abs(sum / N));
-  if (!(amplitude > 1e-12 * scale)) {
+  if (!(amplitude > 1e-12 * peak)) {
     throw new DomainError(path, "amplitude_not_positive", `the samples carry no modulation (amplitude ${amplitude} ≤ 0)`);
   }
   let phaseRad = Math.atan2(s, c);
