@@ -1,0 +1,170 @@
+// One nodemailer transport from SMTP_URL. Every mail lands in mail_log. A mail that cannot
+// be sent never fails the action that caused it (sendTemplateMail never throws); it stays
+// "failed" with its rendered message and is retried later (retryMails) with backoff.
+// Sign-in is the exception: sendSignInCodeStrict reports the failure so the page can say so,
+// and a sign-in code is never retried or stored (a late code is useless and a secret).
+import nodemailer from "nodemailer";
+import type { Transporter } from "nodemailer";
+import { and, asc, eq, inArray, lt } from "drizzle-orm";
+import { getDb } from "~/db/client.server";
+import { mailLog } from "~/db/schema";
+import { getEnv } from "~/env.server";
+import { renderMail, type MailTemplate, type RenderedMail } from "./templates.server";
+
+export type { MailTemplate };
+export type MailResult = { ok: boolean; error?: string };
+
+/** Attempts a failed mail gets in all before it is left as failed for good. */
+export const MAX_MAIL_ATTEMPTS = 5;
+const RETRY_INTERVAL_MS = 5 * 60_000;
+
+type Payload = RenderedMail & { to: string; lastAttemptAt: string };
+
+let transport: { url: string; t: Transporter } | undefined;
+
+export function getTransport(): Transporter {
+  const url = getEnv().SMTP_URL;
+  if (!transport || transport.url !== url) {
+    transport?.t.close();
+    transport = {
+      url,
+      // Short timeouts: a down mail server must not hold a request for minutes.
+      t: nodemailer.createTransport({ url, connectionTimeout: 5000, greetingTimeout: 5000, socketTimeout: 15000 } as never),
+    };
+  }
+  return transport.t;
+}
+
+function errorText(e: unknown) {
+  return e instanceof Error ? e.message : String(e);
+}
+
+async function deliver(to: string, m: RenderedMail) {
+  const info = await getTransport().sendMail({ from: getEnv().MAIL_FROM, to, subject: m.subject, text: m.text, html: m.html });
+  return String(info.messageId ?? "");
+}
+
+async function sendOne(template: MailTemplate, to: string, m: RenderedMail, keepPayload: boolean): Promise<MailResult> {
+  const db = getDb();
+  const now = new Date().toISOString();
+  const payload: Payload | null = keepPayload ? { ...m, to, lastAttemptAt: now } : null;
+  const [row] = await db
+    .insert(mailLog)
+    .values({ to, subject: m.subject, template, status: "pending", attempts: 1, payload })
+    .returning({ id: mailLog.id });
+  try {
+    const messageId = await deliver(to, m);
+    await db.update(mailLog).set({ status: "sent", messageId, error: null }).where(eq(mailLog.id, row!.id));
+    return { ok: true };
+  } catch (e) {
+    const error = errorText(e);
+    await db.update(mailLog).set({ status: "failed", error }).where(eq(mailLog.id, row!.id));
+    return { ok: false, error };
+  }
+}
+
+function recipients(to: string | string[]) {
+  const list = (Array.isArray(to) ? to : [to]).map((s) => s.trim()).filter(Boolean);
+  return [...new Set(list)];
+}
+
+/**
+ * Sends one of the templates to each address (one message per recipient, so addresses
+ * are never shown to each other). Never throws: failures are logged and retried later.
+ */
+export async function sendTemplateMail(
+  template: "sign-in-code" | "invitation" | "sensor-failed" | "sensor-signed-off",
+  to: string | string[],
+  vars: Record<string, unknown>,
+): Promise<{ ok: boolean; error?: string }> {
+  try {
+    ensureRetryTimer();
+    const list = recipients(to);
+    if (list.length === 0) return { ok: true };
+    const m = renderMail(template, vars);
+    const errors: string[] = [];
+    for (const address of list) {
+      const r = await sendOne(template, address, m, template !== "sign-in-code");
+      if (!r.ok) errors.push(`${address}: ${r.error}`);
+    }
+    // The mail server answered: a good moment to send what failed earlier.
+    if (errors.length === 0) await retryMails({ limit: 10 }).catch(() => undefined);
+    return errors.length ? { ok: false, error: errors.join("; ") } : { ok: true };
+  } catch (e) {
+    return { ok: false, error: errorText(e) };
+  }
+}
+
+/** For sign-in only: the caller must tell the person the code did not go out. */
+export async function sendSignInCodeStrict(to: string, vars: { code: string; magicLink?: string; minutes: number }) {
+  const r = await sendOne("sign-in-code", to, renderMail("sign-in-code", vars), false);
+  if (!r.ok) throw new MailNotSentError(r.error ?? "unknown error");
+}
+
+export class MailNotSentError extends Error {
+  constructor(detail: string) {
+    super(`The mail could not be sent: ${detail}`);
+    this.name = "MailNotSentError";
+  }
+}
+
+/** Backoff before the next try: 1, 2, 4, 8 … minutes after the previous attempt. */
+export function retryDelayMs(attempts: number) {
+  return 60_000 * 2 ** Math.max(0, attempts - 1);
+}
+
+/**
+ * Re-sends failed (and stale pending) mails that still have attempts left and whose backoff
+ * has passed. Each row is claimed with a compare-and-set on `attempts`, so several app
+ * instances sharing the database never send the same mail twice in one round.
+ */
+export async function retryMails(opts: { limit?: number; now?: Date } = {}) {
+  const db = getDb();
+  const now = opts.now ?? new Date();
+  const rows = await db
+    .select({ id: mailLog.id, status: mailLog.status, attempts: mailLog.attempts, payload: mailLog.payload, template: mailLog.template })
+    .from(mailLog)
+    .where(and(inArray(mailLog.status, ["failed", "pending"]), lt(mailLog.attempts, MAX_MAIL_ATTEMPTS)))
+    .orderBy(asc(mailLog.at))
+    .limit(opts.limit ?? 20);
+  let sent = 0;
+  let failed = 0;
+  for (const row of rows) {
+    const p = row.payload as Payload | null;
+    if (!p || !p.to) continue;
+    const last = Date.parse(p.lastAttemptAt);
+    if (Number.isFinite(last) && now.getTime() - last < retryDelayMs(row.attempts)) continue;
+    const claimed = await db
+      .update(mailLog)
+      .set({ attempts: row.attempts + 1, status: "pending", payload: { ...p, lastAttemptAt: now.toISOString() } })
+      .where(and(eq(mailLog.id, row.id), eq(mailLog.attempts, row.attempts)))
+      .returning({ id: mailLog.id });
+    if (claimed.length === 0) continue;
+    try {
+      const messageId = await deliver(p.to, p);
+      await db.update(mailLog).set({ status: "sent", messageId, error: null }).where(eq(mailLog.id, row.id));
+      sent++;
+    } catch (e) {
+      await db.update(mailLog).set({ status: "failed", error: errorText(e) }).where(eq(mailLog.id, row.id));
+      failed++;
+    }
+  }
+  return { sent, failed };
+}
+
+let timer: ReturnType<typeof setInterval> | undefined;
+
+/** A background retry every 5 minutes in a running server (not in tests). */
+function ensureRetryTimer() {
+  if (timer || getEnv().NODE_ENV === "test") return;
+  timer = setInterval(() => void retryMails().catch(() => undefined), RETRY_INTERVAL_MS);
+  timer.unref?.();
+}
+
+// The server bundle loads every route module at boot, so a restarted server with failed
+// mails in the log retries them without waiting for the next send.
+try {
+  ensureRetryTimer();
+} catch {
+  // An invalid environment is reported by the first getEnv() caller that needs it.
+}
