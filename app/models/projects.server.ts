@@ -1,0 +1,214 @@
+// Projects: a client's job with its acceptance rule (ranging.md §6) and the sensors and sites
+// it uses. A rule change recomputes the shots of the project's sensors.
+import { asc, eq, isNull, sql } from "drizzle-orm";
+import { DEFAULT_RULE, type Rule } from "~/domain";
+import { getDb } from "~/db/client.server";
+import { checkSessions, projectSensors, projectSites, projects, sensors, sites } from "~/db/schema";
+import { audit } from "~/models/audit.server";
+import {
+  invalid,
+  issuesToErrors,
+  projectSchema,
+  stableStringify,
+  type FieldError,
+  type NotFound,
+  type ProjectBody,
+  type RegistryResult,
+} from "~/models/registry-schemas";
+import { actorId, changedFields, isConstraintError, nowIso, recomputeSensors, sensorsExist, type RegistryActor } from "~/models/sensors.server";
+import { sitesExist } from "~/models/sites.server";
+
+export type ProjectRow = typeof projects.$inferSelect;
+export type ProjectWithLinks = ProjectRow & { sensorIds: string[]; siteIds: string[] };
+
+const RULE_FIELDS = ["minShots", "coverageK", "minWithinPct", "rangeBandEdgesM"] as const;
+
+function contentOf(b: ProjectBody, withNotes: boolean) {
+  return {
+    name: b.name,
+    client: b.client,
+    minShots: b.minShots,
+    coverageK: b.coverageK,
+    minWithinPct: b.minWithinPct,
+    rangeBandEdgesM: b.rangeBandEdgesM,
+    sensorIds: [...new Set(b.sensorIds)].sort(),
+    siteIds: [...new Set(b.siteIds)].sort(),
+    ...(withNotes ? { notes: b.notes ?? "" } : {}),
+  };
+}
+
+function rowContent(r: ProjectWithLinks, withNotes: boolean) {
+  return {
+    name: r.name,
+    client: r.client,
+    minShots: r.minShots,
+    coverageK: r.coverageK,
+    minWithinPct: r.minWithinPct,
+    rangeBandEdgesM: r.rangeBandEdgesM,
+    sensorIds: [...r.sensorIds].sort(),
+    siteIds: [...r.siteIds].sort(),
+    ...(withNotes ? { notes: r.notes } : {}),
+  };
+}
+
+function sameContent(r: ProjectWithLinks, b: ProjectBody) {
+  const withNotes = b.notes !== undefined;
+  return stableStringify(rowContent(r, withNotes)) === stableStringify(contentOf(b, withNotes));
+}
+
+async function parseProject(body: unknown) {
+  const parsed = projectSchema.safeParse(body);
+  if (!parsed.success) return { ok: false as const, result: invalid(issuesToErrors(parsed.error.issues)) };
+  const b = parsed.data;
+  const [haveSensors, haveSites] = await Promise.all([sensorsExist(b.sensorIds), sitesExist(b.siteIds)]);
+  const errors: FieldError[] = [];
+  b.sensorIds.forEach((id, i) => haveSensors.has(id) || errors.push({ path: `sensorIds.${i}`, message: `No sensor with id "${id}"` }));
+  b.siteIds.forEach((id, i) => haveSites.has(id) || errors.push({ path: `siteIds.${i}`, message: `No site with id "${id}"` }));
+  if (errors.length) return { ok: false as const, result: invalid(errors) };
+  return { ok: true as const, value: b };
+}
+
+export async function createProject(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
+  return createProjectOnce(actor, body, true);
+}
+
+async function createProjectOnce(actor: RegistryActor, body: unknown, retry: boolean): Promise<RegistryResult> {
+  const p = await parseProject(body);
+  if (!p.ok) return p.result;
+  const b = p.value;
+  const db = getDb();
+  if (b.id) {
+    const existing = await getProject(b.id);
+    if (existing) {
+      return sameContent(existing, b)
+        ? { status: 200, body: { id: existing.id } }
+        : { status: 409, body: { error: `A project with id "${b.id}" exists with other content.` } };
+    }
+  } else {
+    const twins = await db.select({ id: projects.id }).from(projects).where(eq(projects.name, b.name));
+    for (const t of twins) {
+      const full = await getProject(t.id);
+      if (full && sameContent(full, b)) return { status: 200, body: { id: full.id } };
+    }
+  }
+  const id = b.id ?? crypto.randomUUID();
+  const { sensorIds, siteIds, ...cols } = contentOf(b, true);
+  try {
+    await db.transaction(async (tx) => {
+      await tx.insert(projects).values({ id, ...cols });
+      if (sensorIds.length) await tx.insert(projectSensors).values(sensorIds.map((sensorId) => ({ projectId: id, sensorId })));
+      if (siteIds.length) await tx.insert(projectSites).values(siteIds.map((siteId) => ({ projectId: id, siteId })));
+      await audit(actorId(actor), "create", "project", id, { id, ...cols, sensorIds, siteIds }, tx);
+    });
+  } catch (e) {
+    if (retry && isConstraintError(e)) return createProjectOnce(actor, body, false);
+    throw e;
+  }
+  return { status: 201, body: { id } };
+}
+
+/** The whole project again; a changed rule recomputes the shots of every sensor it touches. */
+export async function updateProject(actor: RegistryActor, id: string, body: unknown): Promise<RegistryResult | NotFound> {
+  const p = await parseProject(body);
+  if (!p.ok) return p.result;
+  const before = await getProject(id);
+  if (!before) return { status: 404, body: { error: `No project with id "${id}".` } };
+  const after = contentOf(p.value, true);
+  const changes = changedFields(rowContent(before, true), after);
+  if (Object.keys(changes).length === 0) return { status: 200, body: { id, changed: [] } };
+  const { sensorIds, siteIds, ...cols } = after;
+  await getDb().transaction(async (tx) => {
+    await tx.update(projects).set({ ...cols, updatedAt: nowIso() }).where(eq(projects.id, id));
+    // Link rows only say which sensors and sites a project uses; shots never refer to them.
+    if ("sensorIds" in changes) {
+      await tx.delete(projectSensors).where(eq(projectSensors.projectId, id));
+      if (sensorIds.length) await tx.insert(projectSensors).values(sensorIds.map((sensorId) => ({ projectId: id, sensorId })));
+    }
+    if ("siteIds" in changes) {
+      await tx.delete(projectSites).where(eq(projectSites.projectId, id));
+      if (siteIds.length) await tx.insert(projectSites).values(siteIds.map((siteId) => ({ projectId: id, siteId })));
+    }
+    await audit(actorId(actor), "update", "project", id, changes, tx);
+  });
+  let recomputed = false;
+  if (RULE_FIELDS.some((f) => f in changes)) {
+    const fromSessions = await getDb().selectDistinct({ sensorId: checkSessions.sensorId }).from(checkSessions).where(eq(checkSessions.projectId, id));
+    recomputed = (await recomputeSensors([...sensorIds, ...before.sensorIds, ...fromSessions.map((r) => r.sensorId)])).done;
+  }
+  return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
+}
+
+export async function retireProject(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {
+  const [row] = await getDb().select().from(projects).where(eq(projects.id, id)).limit(1);
+  if (!row) return { status: 404, body: { error: `No project with id "${id}".` } };
+  if (row.retiredAt) return { status: 200, body: { id, retiredAt: row.retiredAt } };
+  const at = nowIso();
+  await getDb().transaction(async (tx) => {
+    await tx.update(projects).set({ retiredAt: at, updatedAt: at }).where(eq(projects.id, id));
+    await audit(actorId(actor), "retire", "project", id, { reason }, tx);
+  });
+  return { status: 200, body: { id, retiredAt: at } };
+}
+
+export async function restoreProject(actor: RegistryActor, id: string): Promise<RegistryResult | NotFound> {
+  const [row] = await getDb().select().from(projects).where(eq(projects.id, id)).limit(1);
+  if (!row) return { status: 404, body: { error: `No project with id "${id}".` } };
+  if (!row.retiredAt) return { status: 200, body: { id } };
+  await getDb().transaction(async (tx) => {
+    await tx.update(projects).set({ retiredAt: null, updatedAt: nowIso() }).where(eq(projects.id, id));
+    await audit(actorId(actor), "restore", "project", id, { retiredAt: row.retiredAt }, tx);
+  });
+  return { status: 200, body: { id } };
+}
+
+export type ProjectListRow = ProjectRow & { sensorLabels: string; siteNames: string };
+
+export async function listProjects({ includeRetired = false }: { includeRetired?: boolean } = {}): Promise<ProjectListRow[]> {
+  const rows = await getDb()
+    .select({
+      project: projects,
+      sensorLabels: sql<string>`coalesce((select group_concat(s.label, ', ') from project_sensors ps join sensors s on s.id = ps.sensor_id where ps.project_id = ${projects.id}), '')`,
+      siteNames: sql<string>`coalesce((select group_concat(s.name, ', ') from project_sites ps join sites s on s.id = ps.site_id where ps.project_id = ${projects.id}), '')`,
+    })
+    .from(projects)
+    .where(includeRetired ? undefined : isNull(projects.retiredAt))
+    .orderBy(asc(projects.name));
+  return rows.map((r) => ({ ...r.project, sensorLabels: String(r.sensorLabels), siteNames: String(r.siteNames) }));
+}
+
+export async function getProject(id: string): Promise<ProjectWithLinks | null> {
+  const db = getDb();
+  const [row] = await db.select().from(projects).where(eq(projects.id, id)).limit(1);
+  if (!row) return null;
+  const [ps, ss] = await Promise.all([
+    db.select({ id: projectSensors.sensorId }).from(projectSensors).where(eq(projectSensors.projectId, id)),
+    db.select({ id: projectSites.siteId }).from(projectSites).where(eq(projectSites.projectId, id)),
+  ]);
+  return { ...row, sensorIds: ps.map((r) => r.id), siteIds: ss.map((r) => r.id) };
+}
+
+/** The acceptance rule of a project; DEFAULT_RULE (ranging.md §6) when there is none. */
+export async function getProjectRule(projectId: string | null): Promise<Rule> {
+  if (projectId) {
+    const [row] = await getDb()
+      .select({ minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM })
+      .from(projects)
+      .where(eq(projects.id, projectId))
+      .limit(1);
+    if (row) return { ...row, rangeBandEdgesM: [...row.rangeBandEdgesM] };
+  }
+  return { ...DEFAULT_RULE, rangeBandEdgesM: [...DEFAULT_RULE.rangeBandEdgesM] };
+}
+
+/** Choices for the project form's sensor and site boxes (retired ones only when already linked). */
+export async function projectChoices(linked: { sensorIds: string[]; siteIds: string[] } = { sensorIds: [], siteIds: [] }) {
+  const db = getDb();
+  const [ss, st] = await Promise.all([
+    db.select({ id: sensors.id, label: sensors.label, serial: sensors.serial, retiredAt: sensors.retiredAt }).from(sensors).orderBy(asc(sensors.label)),
+    db.select({ id: sites.id, name: sites.name, retiredAt: sites.retiredAt }).from(sites).orderBy(asc(sites.name)),
+  ]);
+  return {
+    sensors: ss.filter((s) => !s.retiredAt || linked.sensorIds.includes(s.id)),
+    sites: st.filter((s) => !s.retiredAt || linked.siteIds.includes(s.id)),
+  };
+}

@@ -1,0 +1,232 @@
+// Sensors: the registry's profile of each range sensor (kind, wavelength, modulation, air
+// handling, tolerance ±(a mm + b ppm)). Never deleted: retiring keeps every shot's history.
+// Also home of the small helpers the other registry models share (actor, audit, recompute).
+import { and, asc, eq, inArray, isNull, sql } from "drizzle-orm";
+import type { SensorSpec } from "~/domain";
+import { getDb } from "~/db/client.server";
+import { checkSessions, sensors } from "~/db/schema";
+import { audit } from "~/models/audit.server";
+import {
+  invalid,
+  issuesToErrors,
+  sensorSchema,
+  stableStringify,
+  type NotFound,
+  type RegistryResult,
+  type SensorBody,
+} from "~/models/registry-schemas";
+
+// ---------- shared by the registry models ----------
+/** Who is asking; null or "system" for the seed and command-line tools. */
+export type RegistryActor = { id: string } | null | "system";
+
+export function actorId(actor: RegistryActor): string | null {
+  return actor && typeof actor === "object" ? actor.id : null;
+}
+
+export const nowIso = () => new Date().toISOString();
+
+export type RecomputeOutcome = { sensorIds: string[]; done: boolean };
+
+// TODO(sync): switch to a static `import { recomputeShotsForSensor } from "~/models/shots.server"`
+// once that module has landed. Until then the glob finds nothing and the recompute is skipped
+// (there are no stored shots without that module either).
+const shotsModule = import.meta.glob<{ recomputeShotsForSensor?: (sensorId: string) => Promise<unknown> }>("./shots.server.ts");
+
+/** Recomputes every stored shot of these sensors from its raw inputs (after a spec or rule change). */
+export async function recomputeSensors(sensorIds: Iterable<string>): Promise<RecomputeOutcome> {
+  const ids = [...new Set(sensorIds)];
+  const load = shotsModule["./shots.server.ts"];
+  if (ids.length === 0 || !load) return { sensorIds: ids, done: false };
+  const mod = await load();
+  if (!mod.recomputeShotsForSensor) return { sensorIds: ids, done: false };
+  for (const id of ids) await mod.recomputeShotsForSensor(id);
+  return { sensorIds: ids, done: true };
+}
+
+/** Fields whose values differ between two flat records (for the audit trail). */
+export function changedFields<T extends Record<string, unknown>>(before: T, after: T): Partial<Record<keyof T, { from: unknown; to: unknown }>> {
+  const out: Partial<Record<keyof T, { from: unknown; to: unknown }>> = {};
+  for (const k of Object.keys(after) as (keyof T)[]) {
+    if (stableStringify(before[k]) !== stableStringify(after[k])) out[k] = { from: before[k] ?? null, to: after[k] ?? null };
+  }
+  return out;
+}
+
+/** True when a unique or primary-key constraint refused the insert (a racing twin). */
+export function isConstraintError(e: unknown) {
+  const s = String((e as { code?: string; message?: string })?.code ?? "") + String((e as Error)?.message ?? "");
+  return /SQLITE_CONSTRAINT|UNIQUE constraint|PRIMARY KEY/i.test(s);
+}
+
+// ---------- sensors ----------
+export type SensorRow = typeof sensors.$inferSelect;
+
+const SPEC_FIELDS = ["kind", "wavelengthNm", "modulationHz", "appliesAirCorrection", "assumedRefractivity", "toleranceMm", "tolerancePpm", "outdoor"] as const;
+
+function contentOf(b: SensorBody, withNotes: boolean) {
+  return {
+    label: b.label,
+    serial: b.serial,
+    kind: b.kind,
+    wavelengthNm: b.wavelengthNm,
+    modulationHz: b.modulationHz,
+    appliesAirCorrection: b.appliesAirCorrection,
+    assumedRefractivity: b.assumedRefractivity,
+    toleranceMm: b.toleranceMm,
+    tolerancePpm: b.tolerancePpm,
+    outdoor: b.outdoor,
+    calibrationDue: b.calibrationDue ?? null,
+    ...(withNotes ? { notes: b.notes ?? "" } : {}),
+  };
+}
+
+function rowContent(r: SensorRow, withNotes: boolean) {
+  return {
+    label: r.label,
+    serial: r.serial,
+    kind: r.kind,
+    wavelengthNm: r.wavelengthNm,
+    modulationHz: r.modulationHz,
+    appliesAirCorrection: r.appliesAirCorrection,
+    assumedRefractivity: r.assumedRefractivity,
+    toleranceMm: r.toleranceMm,
+    tolerancePpm: r.tolerancePpm,
+    outdoor: r.outdoor,
+    calibrationDue: r.calibrationDue ?? null,
+    ...(withNotes ? { notes: r.notes } : {}),
+  };
+}
+
+function sameContent(r: SensorRow, b: SensorBody) {
+  const withNotes = b.notes !== undefined;
+  return stableStringify(rowContent(r, withNotes)) === stableStringify(contentOf(b, withNotes));
+}
+
+function parseSensor(body: unknown) {
+  const parsed = sensorSchema.safeParse(body);
+  return parsed.success ? { ok: true as const, value: parsed.data } : { ok: false as const, result: invalid(issuesToErrors(parsed.error.issues)) };
+}
+
+/** POST /api/sensors, the admin form and the seed: 201 new, 200 same body again, 400, 409. */
+export async function createSensor(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
+  return createSensorOnce(actor, body, true);
+}
+
+async function createSensorOnce(actor: RegistryActor, body: unknown, retry: boolean): Promise<RegistryResult> {
+  const p = parseSensor(body);
+  if (!p.ok) return p.result;
+  const b = p.value;
+  const db = getDb();
+  if (b.id) {
+    const existing = await getSensor(b.id);
+    if (existing) {
+      return sameContent(existing, b)
+        ? { status: 200, body: { id: existing.id } }
+        : { status: 409, body: { error: `A sensor with id "${b.id}" exists with other content.` } };
+    }
+  } else {
+    // No id: the same body again finds the sensor it made the first time.
+    const twins = await db.select().from(sensors).where(and(eq(sensors.serial, b.serial), eq(sensors.label, b.label)));
+    const twin = twins.find((r) => sameContent(r, b));
+    if (twin) return { status: 200, body: { id: twin.id } };
+  }
+  const id = b.id ?? crypto.randomUUID();
+  const values = { id, ...contentOf(b, true) };
+  try {
+    await db.transaction(async (tx) => {
+      await tx.insert(sensors).values(values);
+      await audit(actorId(actor), "create", "sensor", id, values, tx);
+    });
+  } catch (e) {
+    if (retry && isConstraintError(e)) return createSensorOnce(actor, body, false);
+    throw e;
+  }
+  return { status: 201, body: { id } };
+}
+
+/** The admin form's edit: the whole profile again. A spec change recomputes the sensor's shots. */
+export async function updateSensor(actor: RegistryActor, id: string, body: unknown): Promise<RegistryResult | NotFound> {
+  const p = parseSensor(body);
+  if (!p.ok) return p.result;
+  const before = await getSensor(id);
+  if (!before) return { status: 404, body: { error: `No sensor with id "${id}".` } };
+  const after = contentOf(p.value, true);
+  const changes = changedFields(rowContent(before, true), after);
+  if (Object.keys(changes).length === 0) return { status: 200, body: { id, changed: [] } };
+  await getDb().transaction(async (tx) => {
+    await tx.update(sensors).set({ ...after, updatedAt: nowIso() }).where(eq(sensors.id, id));
+    await audit(actorId(actor), "update", "sensor", id, changes, tx);
+  });
+  const specChanged = SPEC_FIELDS.some((f) => f in changes);
+  const recompute = specChanged ? await recomputeSensors([id]) : null;
+  return { status: 200, body: { id, changed: Object.keys(changes), recomputed: recompute?.done ?? false } };
+}
+
+export async function retireSensor(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {
+  const row = await getSensor(id);
+  if (!row) return { status: 404, body: { error: `No sensor with id "${id}".` } };
+  if (row.retiredAt) return { status: 200, body: { id, retiredAt: row.retiredAt } };
+  const at = nowIso();
+  await getDb().transaction(async (tx) => {
+    await tx.update(sensors).set({ retiredAt: at, updatedAt: at }).where(eq(sensors.id, id));
+    await audit(actorId(actor), "retire", "sensor", id, { reason }, tx);
+  });
+  return { status: 200, body: { id, retiredAt: at } };
+}
+
+export async function restoreSensor(actor: RegistryActor, id: string): Promise<RegistryResult | NotFound> {
+  const row = await getSensor(id);
+  if (!row) return { status: 404, body: { error: `No sensor with id "${id}".` } };
+  if (!row.retiredAt) return { status: 200, body: { id } };
+  await getDb().transaction(async (tx) => {
+    await tx.update(sensors).set({ retiredAt: null, updatedAt: nowIso() }).where(eq(sensors.id, id));
+    await audit(actorId(actor), "restore", "sensor", id, { retiredAt: row.retiredAt }, tx);
+  });
+  return { status: 200, body: { id } };
+}
+
+export async function listSensors({ includeRetired = false }: { includeRetired?: boolean } = {}): Promise<SensorRow[]> {
+  return getDb()
+    .select()
+    .from(sensors)
+    .where(includeRetired ? undefined : isNull(sensors.retiredAt))
+    .orderBy(asc(sensors.label), asc(sensors.serial));
+}
+
+export async function getSensor(id: string): Promise<SensorRow | null> {
+  const [row] = await getDb().select().from(sensors).where(eq(sensors.id, id)).limit(1);
+  return row ?? null;
+}
+
+export function sensorSpecOf(r: SensorRow): SensorSpec {
+  return {
+    id: r.id,
+    kind: r.kind,
+    wavelengthNm: r.wavelengthNm,
+    modulationHz: r.modulationHz ?? [],
+    appliesAirCorrection: r.appliesAirCorrection,
+    assumedRefractivity: r.assumedRefractivity,
+    toleranceMm: r.toleranceMm,
+    tolerancePpm: r.tolerancePpm,
+    outdoor: r.outdoor,
+  };
+}
+
+/** The ranging core's view of a sensor (retired sensors too: their shots are still judged). */
+export async function getSensorSpec(id: string): Promise<SensorSpec | null> {
+  const row = await getSensor(id);
+  return row ? sensorSpecOf(row) : null;
+}
+
+export async function sensorsExist(ids: string[]): Promise<Set<string>> {
+  if (ids.length === 0) return new Set();
+  const rows = await getDb().select({ id: sensors.id }).from(sensors).where(inArray(sensors.id, ids));
+  return new Set(rows.map((r) => r.id));
+}
+
+/** How many check sessions (and so shots) refer to a sensor: shown before retiring. */
+export async function sensorUsage(id: string): Promise<{ sessions: number }> {
+  const [row] = await getDb().select({ n: sql<number>`count(*)` }).from(checkSessions).where(eq(checkSessions.sensorId, id));
+  return { sessions: Number(row?.n ?? 0) };
+}
