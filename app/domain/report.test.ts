@@ -1,6 +1,6 @@
 import { expect, test } from "vitest";
 import fc from "fast-check";
-import { sensorReport } from "./report.ts";
+import { inPeriod, sensorReport, sortedAbsDeviations } from "./report.ts";
 import { chiSquareQuantile, tQuantile } from "./quantiles.ts";
 import { DomainError } from "./errors.ts";
 import type { ReportShot, Rule, SensorSpec } from "./types.ts";
@@ -205,6 +205,30 @@ test("report inputs that are impossible throw DomainError with the path", () => 
   expect(() => sensorReport({ sensor, rule, shots: [mk(1, { referenceM: 0 })] })).toThrowError(expect.objectContaining({ path: "shots.0.referenceM" }));
   expect(() => sensorReport({ sensor, rule: { ...rule, minShots: -1 }, shots: [] })).toThrowError(DomainError);
   expect(() => sensorReport({ sensor: { ...sensor, tolerancePpm: NaN }, rule, shots: [] })).toThrowError(expect.objectContaining({ path: "sensor.tolerancePpm" }));
+});
+
+test("wrap flag recomputed for a CW sensor from its combined interval", () => {
+  // ranging.md §4: |e| > L but e + m·R_u within L for some m ≠ 0; 20 + 25 MHz → R_u ≈ 29.97 m
+  const cw = { ...sensor, kind: "cw" as const, modulationHz: [20e6, 25e6] };
+  const r = sensorReport({ sensor: cw, rule, shots: [mk(-29970), mk(1), mk(15000)] });
+  expect(r.shots.map((s) => s.flags.includes("wrap"))).toEqual([true, false, false]);
+});
+
+test("period filter by the shot's own date; to takes its whole day", () => {
+  expect(inPeriod("2026-05-04T23:59:00+02:00", "2026-05-01", "2026-05-04")).toBe(true);
+  expect(inPeriod("2026-05-05T00:01:00+02:00", "2026-05-01", "2026-05-04")).toBe(false);
+  expect(inPeriod("2026-04-30T23:00:00+02:00", "2026-05-01", null)).toBe(false);
+  expect(inPeriod("2026-04-30T23:00:00+02:00")).toBe(true);
+});
+
+test("property: sorted absolute deviations equal sort(|s − c|)", () => {
+  fc.assert(
+    fc.property(fc.array(fc.double({ min: -1e3, max: 1e3, noNaN: true }), { minLength: 1, maxLength: 50 }), fc.double({ min: -1e3, max: 1e3, noNaN: true }), (v, c) => {
+      const s = Float64Array.from(v).sort();
+      const naive = Float64Array.from(v.map((x) => Math.abs(x - c))).sort();
+      expect(Array.from(sortedAbsDeviations(s, c))).toEqual(Array.from(naive));
+    }),
+  );
 });
 
 test("property: report figures are invariant to shot order", () => {

@@ -7,7 +7,9 @@ import { DomainError } from "./errors.ts";
 import { chiSquareQuantile, tQuantile } from "./quantiles.ts";
 import { olsFit, quantileType7Sorted } from "./stats.ts";
 import { coverageChecklist, rangeBandIndex, rangeBandLabels } from "./coverage.ts";
-import { checkRule, checkSensor, toleranceMm } from "./shot.ts";
+import { checkRule, checkSensor, isWrap, toleranceMm } from "./shot.ts";
+import { airState } from "./air.ts";
+import { unambiguousIntervalM } from "./phase.ts";
 import type {
   AcceptanceTest,
   BandStats,
@@ -77,6 +79,38 @@ function checkShot(s: ReportShot, i: number): void {
   if (k != null && !(typeof k === "number" && Number.isFinite(k) && k >= 0)) {
     throw new DomainError(`${p}.illuminanceKlux`, "not_finite", `illuminance must be a number ≥ 0 or null (got ${k})`);
   }
+}
+
+/**
+ * Period filter on a shot's takenAt: its own calendar date (the date part of the ISO string,
+ * i.e. local to where the shot was taken) lies in [from, to], both "YYYY-MM-DD" and optional;
+ * `to` takes its whole day.
+ */
+export function inPeriod(takenAt: string, from?: string | null, to?: string | null): boolean {
+  const day = takenAt.slice(0, 10);
+  if (from && day < from.slice(0, 10)) return false;
+  if (to && day > to.slice(0, 10)) return false;
+  return true;
+}
+
+/** |sᵢ − c| in ascending order from s sorted ascending: a linear merge of the two halves. */
+export function sortedAbsDeviations(s: Float64Array, c: number): Float64Array {
+  const n = s.length;
+  const out = new Float64Array(n);
+  let lo = 0;
+  let hi = n;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (s[mid] < c) lo = mid + 1;
+    else hi = mid;
+  }
+  let i = lo - 1; // walks down the part below c
+  let j = lo; // walks up the part at or above c
+  for (let o = 0; o < n; o++) {
+    if (j >= n || (i >= 0 && c - s[i] <= s[j] - c)) out[o] = c - s[i--];
+    else out[o] = s[j++] - c;
+  }
+  return out;
 }
 
 type Session = { id: string; startedAt: string; t: number; n: number; sumE: number; sumD: number };
@@ -169,18 +203,10 @@ export function sensorReport(input: SensorReportInput): SensorReport {
       for (let i = 0; i < n; i++) ss += (ei[i] - biasMm) ** 2;
       sdMm = Math.sqrt(ss / (n - 1));
     }
-    const sorted = Float64Array.from(ei).sort();
+    const sorted = Float64Array.from(ei).sort(); // the one sort
     med = quantileType7Sorted(sorted, 0.5);
-    const dev = new Float64Array(n);
-    for (let i = 0; i < n; i++) {
-      dev[i] = Math.abs(sorted[i] - med);
-    }
-    dev.sort();
-    madv = quantileType7Sorted(dev, 0.5);
-    // |e| sorted: reuse `sorted` (ascending e) → merge of the two halves by absolute value
-    const abs = new Float64Array(n);
-    for (let i = 0; i < n; i++) abs[i] = Math.abs(sorted[i]);
-    abs.sort();
+    madv = quantileType7Sorted(sortedAbsDeviations(sorted, med), 0.5);
+    const abs = sortedAbsDeviations(sorted, 0);
     p95AbsMm = quantileType7Sorted(abs, 0.95);
   }
   const withinPct = n ? (100 * withinCount) / n : null;
@@ -206,6 +232,13 @@ export function sensorReport(input: SensorReportInput): SensorReport {
   const failed = tests.filter((t) => !t.pass).map((t) => t.name);
   const verdict: SensorReport["verdict"] = !tests[0].pass ? "insufficient" : failed.length === 0 ? "pass" : "fail";
 
+  // wrap: as computed with the shot, or again here against the sensor's (combined) interval in
+  // default air (the index changes R_u by ~0.03 %, far below any limit's use here)
+  const ruMm =
+    sensor.kind === "cw" && sensor.modulationHz && sensor.modulationHz.length > 0
+      ? unambiguousIntervalM(sensor.modulationHz, airState({}, sensor.wavelengthNm).n) * 1000
+      : null;
+
   // rows with flags
   const outlierCut = OUTLIER_K * MAD_TO_SIGMA * madv;
   const rows: ReportShotRow[] = new Array(N);
@@ -213,7 +246,7 @@ export function sensorReport(input: SensorReportInput): SensorReport {
     const s = shots[i];
     const flags: ShotFlag[] = [];
     if (n > 0 && Math.abs(s.errorMm - med) > outlierCut) flags.push("outlier");
-    if (s.wrap) flags.push("wrap");
+    if (s.wrap || (ruMm != null && isWrap(s.errorMm, limits[i], ruMm))) flags.push("wrap");
     rows[i] = {
       id: s.id,
       takenAt: s.takenAt,
