@@ -39,7 +39,7 @@ function reportOf(s: DemoScenario, key: SensorKey) {
       errorMm: c.errorMm,
       repeatabilityMm: c.repeatabilityMm,
       reflectancePct: shot.reflectancePct,
-      retro: target.retro,
+      retro: !!target.retro,
       illuminanceKlux: shot.illuminanceKlux,
       excluded: false,
       wrap: c.wrap,

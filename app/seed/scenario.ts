@@ -42,19 +42,20 @@ export const DEMO_USERS: DemoUser[] = [
   { email: "tamsin@fernhollow.example", name: "Tamsin Arkwright", role: "admin" },
   { email: "oren@fernhollow.example", name: "Oren Lindqvist", role: "qa" },
   { email: "priya@fernhollow.example", name: "Priya Castellano", role: "crew" },
-  { email: "client.viewer@fernhollow.example", name: "Wendel Okafor (client)", role: "viewer" },
+  { email: "client.viewer@fernhollow.example", name: "Wendel Okafor", role: "viewer" },
 ];
 
+/** Client-made records (sessions, shots) carry UUIDs; the registry keeps readable ids. */
 const id = (name: string) => stableUuid(`fernhollow-demo:${name}`);
 
 export const DEMO_IDS = {
-  tape: id("tape:ft50"),
-  roof: id("sensor:roof"),
-  tripod: id("sensor:tripod"),
-  camera: id("sensor:camera"),
-  yard: id("site:yard"),
-  roadside: id("site:roadside"),
-  project: id("project:corridor"),
+  tape: "fernhollow-ft50",
+  roof: "fernhollow-rs2",
+  tripod: "fernhollow-ts9",
+  camera: "fernhollow-dc4",
+  yard: "fernhollow-yard",
+  roadside: "fernhollow-roadside",
+  project: "river-valley-corridor",
 } as const;
 
 export type SensorKey = "roof" | "tripod" | "camera";
@@ -228,7 +229,7 @@ function placePoint(L: SiteLayout, along: number, across: number, up: number) {
 
 function buildSite(L: SiteLayout): DemoSite {
   const stations: DemoStation[] = L.stations.map((s) => ({
-    id: id(`station:${L.key}:${s.label}`),
+    id: `${L.key}-${s.label.toLowerCase()}`,
     label: s.label,
     ...placePoint(L, s.along, s.across, 0),
   }));
@@ -246,7 +247,7 @@ function buildSite(L: SiteLayout): DemoSite {
       targetHeightM: 0,
     });
     targets.push({
-      id: id(`target:${L.key}:${label}`),
+      id: `${L.key}-${label.toLowerCase()}`,
       key: `${L.key}:${markM}:${refl}`,
       label,
       markM,

@@ -1,0 +1,126 @@
+// The demo seed on a fresh per-file database, through the real registry and sync models; the
+// three outcomes the demo exists to show are read back from the server-computed shots.
+import { count, eq } from "drizzle-orm";
+import { beforeAll, expect, test } from "vitest";
+import { getDb } from "~/db/client.server";
+import { checkSessions, projects, sensors, shots, sites, targets, users } from "~/db/schema";
+import { buildDemoScenario, DEMO_IDS, type DemoScenario } from "~/seed/scenario";
+import { demoIsSeeded, seedDemo, type SeedSummary } from "~/seed/seed.server";
+import type { SQLiteTable } from "drizzle-orm/sqlite-core";
+import { sensorReport, type ReportShot } from "~/domain";
+import { getProjectRule } from "~/models/projects.server";
+import { getSensorSpec } from "~/models/sensors.server";
+
+let scenario: DemoScenario;
+let summary: SeedSummary;
+
+beforeAll(async () => {
+  scenario = buildDemoScenario();
+  expect(await demoIsSeeded()).toBe(false);
+  summary = await seedDemo(scenario);
+}, 120_000);
+
+async function rows(table: SQLiteTable) {
+  const [r] = await getDb().select({ n: count() }).from(table);
+  return r!.n;
+}
+
+/** The sensor's report over all its stored (server-computed) shots, under the project's rule. */
+async function sensorReportFor(sensorId: string) {
+  const sensor = (await getSensorSpec(sensorId))!;
+  const rule = await getProjectRule(DEMO_IDS.project);
+  const stored = await getDb()
+    .select({
+      id: shots.id,
+      takenAt: shots.takenAt,
+      sessionId: shots.sessionId,
+      sessionStartedAt: checkSessions.startedAt,
+      referenceM: shots.referenceM,
+      rangeM: shots.rangeM,
+      errorMm: shots.errorMm,
+      repeatabilityMm: shots.repeatabilityMm,
+      reflectancePct: shots.reflectancePct,
+      retro: shots.retro,
+      illuminanceKlux: shots.illuminanceKlux,
+      excluded: shots.excluded,
+      wrap: shots.wrap,
+      airDefaulted: shots.airDefaulted,
+    })
+    .from(shots)
+    .innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId))
+    .where(eq(shots.sensorId, sensorId));
+  return sensorReport({ sensor, rule, shots: stored satisfies ReportShot[] });
+}
+
+test("seeding a fresh database gives the demo's counts and every synced record is accepted", async () => {
+  expect(summary.results.rejected).toEqual([]);
+  expect(summary.results.duplicate).toBe(0);
+  expect(summary.results.accepted).toBe(scenario.sessions.length + scenario.shots.length);
+  expect(await rows(sensors)).toBe(3);
+  expect(await rows(sites)).toBe(2);
+  expect(await rows(users)).toBe(4);
+  expect(await rows(projects)).toBe(1);
+  expect(await rows(targets)).toBe(summary.targets);
+  expect(await rows(checkSessions)).toBeGreaterThanOrEqual(6);
+  expect(await rows(shots)).toBeGreaterThanOrEqual(300);
+  const roles = (await getDb().select({ role: users.role }).from(users)).map((u) => u.role).sort();
+  expect(roles).toEqual(["admin", "crew", "qa", "viewer"]);
+  expect(await demoIsSeeded()).toBe(true);
+});
+
+test("sessions land in the project and the session without humidity is marked as defaulted air", async () => {
+  const sessionRows = await getDb().select({ id: checkSessions.id, projectId: checkSessions.projectId, humidityPct: checkSessions.humidityPct }).from(checkSessions);
+  expect(sessionRows.every((s) => s.projectId === DEMO_IDS.project)).toBe(true);
+  const noHumidity = sessionRows.filter((s) => s.humidityPct == null).map((s) => s.id);
+  expect(noHumidity).toHaveLength(1);
+  const defaulted = await getDb().selectDistinct({ sessionId: shots.sessionId }).from(shots).where(eq(shots.airDefaulted, true));
+  expect(defaulted.map((d) => d.sessionId)).toEqual(noHumidity);
+});
+
+test("the roof scanner passes its tolerance", async () => {
+  const r = await sensorReportFor(DEMO_IDS.roof);
+  expect(r.n).toBeGreaterThanOrEqual(100);
+  expect(r.verdict).toBe("pass");
+  expect(r.tests.every((t) => t.pass)).toBe(true);
+  expect(Math.abs(r.biasMm!)).toBeLessThan(8);
+});
+
+test("the tripod scanner fails, and the breakdowns point at dark targets in bright sun", async () => {
+  const r = await sensorReportFor(DEMO_IDS.tripod);
+  expect(r.verdict).toBe("fail");
+  const failed = r.tests.filter((t) => !t.pass).map((t) => t.name);
+  expect(failed.some((n) => n === "within" || n === "bias")).toBe(true);
+
+  const dark = r.byReflectance.find((b) => b.band === "dark")!;
+  const others = r.byReflectance.filter((b) => b.band !== "dark");
+  for (const o of others) expect(dark.biasMm! - o.biasMm!).toBeGreaterThan(2);
+  const high = r.byIlluminance.find((b) => b.band === "high")!;
+  const low = r.byIlluminance.find((b) => b.band === "low")!;
+  expect(high.biasMm! - low.biasMm!).toBeGreaterThan(1.5);
+  expect(high.withinPct!).toBeLessThan(low.withinPct!);
+
+  // the crossed cell (dark × ≥ 50 klux) from the server's own per-shot errors
+  const stored = await getDb()
+    .select({ id: shots.id, errorMm: shots.errorMm, within: shots.within, reflectancePct: shots.reflectancePct, illuminanceKlux: shots.illuminanceKlux })
+    .from(shots)
+    .where(eq(shots.sensorId, DEMO_IDS.tripod));
+  const inCell = stored.filter((s) => s.reflectancePct < 20 && (s.illuminanceKlux ?? 0) >= 50);
+  const rest = stored.filter((s) => !(s.reflectancePct < 20 && (s.illuminanceKlux ?? 0) >= 50));
+  const mean = (xs: typeof stored) => xs.reduce((a, s) => a + s.errorMm, 0) / xs.length;
+  expect(inCell.length).toBeGreaterThanOrEqual(15);
+  expect(mean(inCell) - mean(rest)).toBeGreaterThan(5);
+  expect(rest.every((s) => s.within)).toBe(true);
+  expect(inCell.filter((s) => !s.within).length).toBeGreaterThan(inCell.length / 3);
+});
+
+test("the depth camera has a phase-wrap shot on the target beyond its combined interval and too few shots for a verdict", async () => {
+  const r = await sensorReportFor(DEMO_IDS.camera);
+  const wraps = r.shots.filter((s) => s.flags.includes("wrap"));
+  expect(wraps).toHaveLength(1);
+  expect(scenario.meta[wraps[0]!.id]!.beyondInterval).toBe(true);
+  // 20 and 25 MHz: combined interval c₀/(2 · 5 MHz · n) ≈ 29.97 m, so a ~32 m target reads ~2 m
+  expect(wraps[0]!.referenceM).toBeGreaterThan(30);
+  expect(wraps[0]!.rangeM).toBeLessThan(3);
+  expect(r.verdict).toBe("insufficient");
+  expect(r.shots.filter((s) => !s.flags.includes("wrap")).every((s) => s.within)).toBe(true);
+});
