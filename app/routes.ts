@@ -11,6 +11,15 @@ export default [
     index("routes/home.tsx"),
 
     // ---- sign-in and users (auth) ----
+    route("login", "routes/login.tsx"),
+    route("login/code", "routes/login.code.tsx"),
+    route("auth/magic", "routes/auth.magic.tsx"),
+    route("logout", "routes/logout.ts"),
+    route("dev/mail", "routes/dev.mail.tsx"),
+    route("admin", "routes/admin.tsx"),
+    route("admin/users", "routes/admin.users.tsx"),
+    route("admin/users/:userId", "routes/admin.users.$userId.tsx"),
+    route("admin/tokens", "routes/admin.tokens.tsx"),
 
     // ---- registry (admin) ----
 
@@ -22,6 +31,7 @@ export default [
   // ---- API resource routes ----
   ...prefix("api", [
     // auth
+    route("me", "routes/api.me.ts"),
     // registry
     // sync and reports
     // field

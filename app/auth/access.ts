@@ -21,6 +21,18 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/not-found.tsx": { GET: "public" },
 
   // ---- sign-in and users (auth) ----
+  // Sign-in pages are public (a signed-in person is sent on); /dev/mail is public but 404
+  // unless NODE_ENV=development or DEV_MAIL_VIEWER=true. Users and tokens: admin only.
+  "routes/login.tsx": { GET: "public", POST: "public" },
+  "routes/login.code.tsx": { GET: "public", POST: "public" },
+  "routes/auth.magic.tsx": { GET: "public" },
+  "routes/logout.ts": { GET: "public", POST: "public" },
+  "routes/dev.mail.tsx": { GET: "public" },
+  "routes/admin.tsx": { GET: ADMIN },
+  "routes/admin.users.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.users.$userId.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.tokens.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/api.me.ts": { GET: ALL },
 
   // ---- registry (admin) ----
 

@@ -36,9 +36,11 @@ export async function listUserEmailsByRole(roles: Role[]): Promise<string[]> {
   return rows.map((r) => r.email);
 }
 
-export async function findUserByEmail(email: string) {
-  const [row] = await getDb().select().from(users).where(eq(users.email, normalizeEmail(email))).limit(1);
-  return row ?? null;
+export type UserRow = typeof users.$inferSelect;
+
+export async function findUserByEmail(email: string): Promise<UserRow | null> {
+  const rows = await getDb().select().from(users).where(eq(users.email, normalizeEmail(email))).limit(1);
+  return rows[0] ?? null;
 }
 
 export async function usersTableIsEmpty() {
