@@ -1,0 +1,104 @@
+// Shot photos: image types recognised by their magic bytes (the declared type is not trusted),
+// a size limit (PHOTO_MAX_BYTES), a SHA-256 checksum, files under DATA_DIR/photos. The same
+// shot and checksum again is the same photo (the outbox may resend after a dropped answer).
+import { createHash } from "node:crypto";
+import { mkdir, readFile, rename, rm, writeFile } from "node:fs/promises";
+import { join, resolve } from "node:path";
+import { and, asc, eq } from "drizzle-orm";
+import { getDb, type Db } from "~/db/client.server";
+import { photos, shots } from "~/db/schema";
+import { getEnv } from "~/env.server";
+import type { Actor } from "./shots.server";
+
+export type PhotoJson = { id: string; shotId: string; contentType: string; bytes: number; sha256: string; createdAt: string; url: string };
+type Answer = { status: 200 | 201; body: { photo: PhotoJson } } | { status: 400 | 404 | 413 | 415; body: { error: string; errors?: { path: string; message: string }[] } };
+
+/** Signatures of the image types a tablet camera writes (ISO/IEC 10918 JPEG, PNG, WebP, HEIF/AVIF). */
+export function sniffImageType(b: Uint8Array): { type: string; ext: string } | null {
+  const at = (i: number, ...xs: number[]) => xs.every((x, k) => b[i + k] === x);
+  const ascii = (i: number, s: string) => at(i, ...[...s].map((c) => c.charCodeAt(0)));
+  if (b.length >= 3 && at(0, 0xff, 0xd8, 0xff)) return { type: "image/jpeg", ext: "jpg" };
+  if (b.length >= 8 && at(0, 0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a)) return { type: "image/png", ext: "png" };
+  if (b.length >= 12 && ascii(0, "RIFF") && ascii(8, "WEBP")) return { type: "image/webp", ext: "webp" };
+  if (b.length >= 12 && ascii(4, "ftyp")) {
+    const brand = String.fromCharCode(...b.slice(8, 12));
+    if (brand === "avif" || brand === "avis") return { type: "image/avif", ext: "avif" };
+    if (["heic", "heix", "heim", "heis", "mif1", "msf1"].includes(brand)) return { type: "image/heic", ext: "heic" };
+  }
+  return null;
+}
+
+export function photosDir() {
+  return resolve(getEnv().DATA_DIR, "photos");
+}
+
+function toJson(r: { id: string; shotId: string; contentType: string; bytes: number; sha256: string; createdAt: string }): PhotoJson {
+  return { ...r, url: `/api/photos/${r.id}` };
+}
+
+const cols = { id: photos.id, shotId: photos.shotId, contentType: photos.contentType, bytes: photos.bytes, sha256: photos.sha256, createdAt: photos.createdAt };
+
+export function photoMaxBytes() {
+  return getEnv().PHOTO_MAX_BYTES;
+}
+
+export async function savePhoto(actor: Actor, shotId: unknown, file: unknown, db: Db = getDb()): Promise<Answer> {
+  const errors: { path: string; message: string }[] = [];
+  if (typeof shotId !== "string" || !shotId) errors.push({ path: "shotId", message: "shotId is required" });
+  if (!(file instanceof File) && !(file instanceof Blob)) errors.push({ path: "file", message: "file is required (a photo as multipart form data)" });
+  if (errors.length) return { status: 400, body: { error: "Send multipart form data with shotId and file.", errors } };
+  const blob = file as Blob;
+  const max = photoMaxBytes();
+  if (blob.size > max) return { status: 413, body: { error: `The photo is larger than ${max} bytes.` } };
+  if (blob.size === 0) return { status: 400, body: { error: "The photo is empty.", errors: [{ path: "file", message: "the file is empty" }] } };
+  const declared = blob.type;
+  if (declared && !declared.startsWith("image/") && declared !== "application/octet-stream") {
+    return { status: 415, body: { error: `Only images are accepted (the file says ${declared}).` } };
+  }
+  const bytes = new Uint8Array(await blob.arrayBuffer());
+  const kind = sniffImageType(bytes);
+  if (!kind) return { status: 415, body: { error: "Only JPEG, PNG, WebP, HEIC or AVIF images are accepted; this file's content is none of them." } };
+
+  const [shot] = await db.select({ id: shots.id }).from(shots).where(eq(shots.id, shotId as string));
+  if (!shot) return { status: 404, body: { error: `No shot ${shotId as string}: sync the shot before its photo.` } };
+
+  const sha256 = createHash("sha256").update(bytes).digest("hex");
+  const same = () => db.select(cols).from(photos).where(and(eq(photos.shotId, shot.id), eq(photos.sha256, sha256)));
+  const [existing] = await same();
+  if (existing) return { status: 200, body: { photo: toJson(existing) } };
+
+  const id = crypto.randomUUID();
+  const dir = photosDir();
+  await mkdir(dir, { recursive: true });
+  const name = `${id}.${kind.ext}`;
+  // write then rename: a crash never leaves a half file under the final name
+  const tmp = join(dir, `.${name}.tmp`);
+  await writeFile(tmp, bytes);
+  await rename(tmp, join(dir, name));
+  try {
+    const [row] = await db
+      .insert(photos)
+      .values({ id, shotId: shot.id, contentType: kind.type, bytes: bytes.length, sha256, path: name, uploadedBy: actor.id })
+      .returning(cols);
+    return { status: 201, body: { photo: toJson(row!) } };
+  } catch (e) {
+    // the same photo arriving twice at once: the unique (shot, sha256) index keeps one
+    await rm(join(dir, name), { force: true });
+    const [again] = await same();
+    if (again) return { status: 200, body: { photo: toJson(again) } };
+    throw e;
+  }
+}
+
+export async function listPhotos(_actor: Actor, shotId: string, db: Db = getDb()): Promise<PhotoJson[]> {
+  const rows = await db.select(cols).from(photos).where(eq(photos.shotId, shotId)).orderBy(asc(photos.createdAt), asc(photos.id));
+  return rows.map(toJson);
+}
+
+export async function readPhoto(_actor: Actor, photoId: string, db: Db = getDb()) {
+  const [row] = await db.select({ ...cols, path: photos.path }).from(photos).where(eq(photos.id, photoId));
+  if (!row) return null;
+  // stored names are ours (uuid.ext); never a path from the request
+  const data = await readFile(join(photosDir(), row.path.replace(/[/\\]/g, "")));
+  return { row, data };
+}

@@ -1,0 +1,669 @@
+// Shots: the server's authoritative computation from the raw observation (every derived
+// column comes from ~/domain's computeShot, never from the tablet), its recomputation when a
+// sensor's spec, a rule, a tape or a site changes, and the shot table / map queries.
+import { and, asc, eq, gt, gte, inArray, isNotNull, lt, lte, or, sql, type SQL } from "drizzle-orm";
+import { getDb, type Db } from "~/db/client.server";
+import { checkSessions, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
+import {
+  computeShot,
+  DEFAULT_RULE,
+  DomainError,
+  mad,
+  MAD_TO_SIGMA,
+  median,
+  OUTLIER_K,
+  type AirInput,
+  type Position,
+  type ReferenceInput,
+  type Rule,
+  type SensorSpec,
+  type ShotComputed,
+  type TapeSpec,
+} from "~/domain";
+import { validateShot, type RecordError, type SyncShot } from "./sync-schemas";
+
+export type Actor = { id: string; role: string };
+
+// ---------------------------------------------------------------------------------------------
+// Registry data a computation needs, loaded once per request (or per recompute).
+
+export type SensorEntry = SensorSpec & { label: string; retiredAt: string | null };
+export type PlaceEntry = { siteId: string; position: Position };
+export type TargetEntry = PlaceEntry & { retro: boolean };
+
+export type RegistryContext = {
+  sensors: Map<string, SensorEntry>;
+  sites: Set<string>;
+  tapes: Map<string, TapeSpec>;
+  stations: Map<string, PlaceEntry>;
+  targets: Map<string, TargetEntry>;
+  rules: Map<string, Rule>;
+};
+
+/** What a shot takes from its session. */
+export type SessionFacts = { id: string; sensorId: string; siteId: string; projectId: string | null; air: AirInput };
+
+type Need = { sensorIds: Iterable<string>; siteIds: Iterable<string>; tapeIds: Iterable<string>; projectIds: Iterable<string> };
+
+const uniq = (xs: Iterable<string>) => [...new Set(xs)].filter(Boolean);
+
+function positionOf(r: { gridE: number | null; gridN: number | null; gridH: number | null; lat: number | null; lon: number | null; h: number | null }): Position {
+  return {
+    grid: r.gridE != null && r.gridN != null && r.gridH != null ? { e: r.gridE, n: r.gridN, h: r.gridH } : null,
+    geo: r.lat != null && r.lon != null && r.h != null ? { lat: r.lat, lon: r.lon, h: r.h } : null,
+  };
+}
+
+export function sensorSpecOf(r: typeof sensors.$inferSelect): SensorEntry {
+  return {
+    id: r.id,
+    label: r.label,
+    kind: r.kind,
+    wavelengthNm: r.wavelengthNm,
+    modulationHz: r.modulationHz ?? [],
+    appliesAirCorrection: r.appliesAirCorrection,
+    assumedRefractivity: r.assumedRefractivity,
+    toleranceMm: r.toleranceMm,
+    tolerancePpm: r.tolerancePpm,
+    outdoor: r.outdoor,
+    retiredAt: r.retiredAt,
+  };
+}
+
+export function ruleOf(p: { minShots: number; coverageK: number; minWithinPct: number; rangeBandEdgesM: number[] | null }): Rule {
+  return {
+    minShots: p.minShots,
+    coverageK: p.coverageK,
+    minWithinPct: p.minWithinPct,
+    rangeBandEdgesM: p.rangeBandEdgesM && p.rangeBandEdgesM.length ? p.rangeBandEdgesM : DEFAULT_RULE.rangeBandEdgesM,
+  };
+}
+
+export async function loadRegistryContext(need: Need, db: Db = getDb()): Promise<RegistryContext> {
+  const sensorIds = uniq(need.sensorIds);
+  const siteIds = uniq(need.siteIds);
+  const tapeIds = uniq(need.tapeIds);
+  const projectIds = uniq(need.projectIds);
+  const [sensorRows, siteRows, tapeRows, stationRows, targetRows, projectRows] = await Promise.all([
+    sensorIds.length ? db.select().from(sensors).where(inArray(sensors.id, sensorIds)) : [],
+    siteIds.length ? db.select({ id: sites.id }).from(sites).where(inArray(sites.id, siteIds)) : [],
+    tapeIds.length
+      ? db
+          .select({
+            id: tapes.id,
+            standardTempC: tapes.standardTempC,
+            standardTensionN: tapes.standardTensionN,
+            areaMm2: tapes.areaMm2,
+            modulusGPa: tapes.modulusGPa,
+            weightNPerM: tapes.weightNPerM,
+            calibrationPpm: tapes.calibrationPpm,
+          })
+          .from(tapes)
+          .where(inArray(tapes.id, tapeIds))
+      : [],
+    siteIds.length
+      ? db
+          .select({ id: stations.id, siteId: stations.siteId, gridE: stations.gridE, gridN: stations.gridN, gridH: stations.gridH, lat: stations.lat, lon: stations.lon, h: stations.h })
+          .from(stations)
+          .where(inArray(stations.siteId, siteIds))
+      : [],
+    siteIds.length
+      ? db
+          .select({ id: targets.id, siteId: targets.siteId, retro: targets.retro, gridE: targets.gridE, gridN: targets.gridN, gridH: targets.gridH, lat: targets.lat, lon: targets.lon, h: targets.h })
+          .from(targets)
+          .where(inArray(targets.siteId, siteIds))
+      : [],
+    projectIds.length
+      ? db
+          .select({ id: projects.id, minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM })
+          .from(projects)
+          .where(inArray(projects.id, projectIds))
+      : [],
+  ]);
+  return {
+    sensors: new Map(sensorRows.map((r) => [r.id, sensorSpecOf(r)])),
+    sites: new Set(siteRows.map((r) => r.id)),
+    tapes: new Map(tapeRows.map(({ id, ...t }) => [id, t])),
+    stations: new Map(stationRows.map((r) => [r.id, { siteId: r.siteId, position: positionOf(r) }])),
+    targets: new Map(targetRows.map((r) => [r.id, { siteId: r.siteId, retro: r.retro, position: positionOf(r) }])),
+    rules: new Map(projectRows.map((r) => [r.id, ruleOf(r)])),
+  };
+}
+
+/** The one non-retired project that lists both the sensor and the site, per (sensor, site) pair. */
+export async function impliedProjects(pairs: { sensorId: string; siteId: string }[], db: Db = getDb()): Promise<Map<string, string>> {
+  const out = new Map<string, string>();
+  const sensorIds = uniq(pairs.map((p) => p.sensorId));
+  if (!sensorIds.length) return out;
+  const rows = await db
+    .select({ projectId: projectSensors.projectId, sensorId: projectSensors.sensorId, siteId: projectSites.siteId })
+    .from(projectSensors)
+    .innerJoin(projectSites, eq(projectSites.projectId, projectSensors.projectId))
+    .innerJoin(projects, eq(projects.id, projectSensors.projectId))
+    .where(and(inArray(projectSensors.sensorId, sensorIds), sql`${projects.retiredAt} is null`));
+  const found = new Map<string, Set<string>>();
+  for (const r of rows) {
+    const k = `${r.sensorId}\u0000${r.siteId}`;
+    if (!found.has(k)) found.set(k, new Set());
+    found.get(k)!.add(r.projectId);
+  }
+  for (const [k, ids] of found) if (ids.size === 1) out.set(k, [...ids][0]!);
+  return out;
+}
+export const pairKey = (sensorId: string, siteId: string) => `${sensorId}\u0000${siteId}`;
+
+// ---------------------------------------------------------------------------------------------
+// One shot: raw observation + its session + the registry → the stored computed columns.
+
+export type ComputedColumns = {
+  referenceM: number;
+  rangeM: number;
+  errorMm: number;
+  toleranceMm: number;
+  limitMm: number;
+  within: boolean;
+  repeatabilityMm: number | null;
+  readingsCount: number;
+  wrap: boolean;
+  unambiguousM: number | null;
+  retro: boolean;
+  airDefaulted: boolean;
+};
+
+export type ShotOutcome = { ok: true; columns: ComputedColumns; computed: ShotComputed } | { ok: false; errors: RecordError[] };
+
+const TAPE_FIELD = /^reference\.(tempC|tensionN|support|spans)$/;
+
+/** A domain path (relative to the domain's ShotInput) → the path of the field in the sync record. */
+function recordPath(e: DomainError): RecordError {
+  const p = e.path ?? "";
+  if (TAPE_FIELD.test(p)) return { path: p.replace("reference.", "reference.tape."), message: e.message };
+  if (p.startsWith("reference.tape.")) return { path: "reference.tape.tapeId", message: `the tape's registry constants are not usable: ${e.message}` };
+  if (p.startsWith("reference.station")) return { path: "reference.stationId", message: e.message };
+  if (p.startsWith("reference.target")) return { path: "targetId", message: e.message };
+  if (p.startsWith("sensor") || p.startsWith("rule")) return { path: "sessionId", message: `the session's sensor or acceptance rule is not usable: ${e.message}` };
+  if (p === "airTempC" || p === "pressureHpa" || p === "humidityPct") return { path: "sessionId", message: `the session's air is not usable: ${e.message}` };
+  return { path: p, message: e.message };
+}
+
+export function ruleFor(session: Pick<SessionFacts, "projectId">, ctx: RegistryContext): Rule {
+  return (session.projectId && ctx.rules.get(session.projectId)) || DEFAULT_RULE;
+}
+
+export function computeShotRecord(shot: SyncShot, session: SessionFacts, ctx: RegistryContext): ShotOutcome {
+  const sensor = ctx.sensors.get(session.sensorId);
+  if (!sensor) return { ok: false, errors: [{ path: "sessionId", message: `the session's sensor ${session.sensorId} is not in the registry` }] };
+  let target: TargetEntry | undefined;
+  if (shot.targetId != null) {
+    target = ctx.targets.get(shot.targetId);
+    if (!target || target.siteId !== session.siteId) {
+      return { ok: false, errors: [{ path: "targetId", message: `target ${shot.targetId} is not a target of the session's site` }] };
+    }
+  }
+  const ref = shot.reference;
+  let reference: ReferenceInput;
+  if (ref.method === "edm") {
+    reference = { method: "edm", distanceM: ref.distanceM };
+  } else if (ref.method === "tape") {
+    const tape = ctx.tapes.get(ref.tape.tapeId);
+    if (!tape) return { ok: false, errors: [{ path: "reference.tape.tapeId", message: `tape ${ref.tape.tapeId} is not in the registry` }] };
+    reference = { method: "tape", distanceM: ref.distanceM, tape, tempC: ref.tape.tempC, tensionN: ref.tape.tensionN, support: ref.tape.support, spans: ref.tape.spans };
+  } else {
+    const station = ctx.stations.get(ref.stationId);
+    if (!station || station.siteId !== session.siteId) {
+      return { ok: false, errors: [{ path: "reference.stationId", message: `station ${ref.stationId} is not a station of the session's site` }] };
+    }
+    if (!target) return { ok: false, errors: [{ path: "targetId", message: "a target is needed when the reference comes from coordinates" }] };
+    reference = { method: "coordinates", station: station.position, target: target.position, instrumentHeightM: ref.instrumentHeightM, targetHeightM: ref.targetHeightM };
+  }
+  try {
+    const computed = computeShot({ sensor, air: session.air, reference, readings: shot.readings as ShotInputReadings, rule: ruleFor(session, ctx) });
+    return {
+      ok: true,
+      computed,
+      columns: {
+        referenceM: computed.referenceM,
+        rangeM: computed.rangeM,
+        errorMm: computed.errorMm,
+        toleranceMm: computed.toleranceMm,
+        limitMm: computed.limitMm,
+        within: computed.within,
+        repeatabilityMm: computed.repeatabilityMm,
+        readingsCount: computed.readingsCount,
+        wrap: computed.wrap,
+        unambiguousM: computed.unambiguousM,
+        retro: target?.retro ?? false,
+        airDefaulted: computed.airDefaulted.length > 0,
+      },
+    };
+  } catch (e) {
+    if (e instanceof DomainError) return { ok: false, errors: [recordPath(e)] };
+    throw e;
+  }
+}
+type ShotInputReadings = Parameters<typeof computeShot>[0]["readings"];
+
+/** The insert row of an accepted shot. */
+export function shotInsertRow(
+  shot: SyncShot,
+  raw: string,
+  session: SessionFacts,
+  columns: ComputedColumns,
+  meta: { deviceId: string; syncedBy: string | null; receivedAt: string },
+): typeof shots.$inferInsert {
+  return {
+    id: shot.id,
+    sessionId: shot.sessionId,
+    sensorId: session.sensorId,
+    // as the tablet sent it, offset and all: the period filters read its local date
+    takenAt: shot.takenAt,
+    targetId: shot.targetId ?? null,
+    raw,
+    referenceMethod: shot.reference.method,
+    reflectancePct: shot.reflectancePct,
+    illuminanceKlux: shot.illuminanceKlux ?? null,
+    incidenceDeg: shot.incidenceDeg ?? null,
+    lat: shot.position?.lat ?? null,
+    lon: shot.position?.lon ?? null,
+    accuracyM: shot.position?.accuracyM ?? null,
+    note: shot.note ?? null,
+    deviceId: meta.deviceId,
+    syncedBy: meta.syncedBy,
+    receivedAt: meta.receivedAt,
+    ...columns,
+    excluded: false,
+    computedAt: meta.receivedAt,
+  };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Recomputation after a registry change (sensor spec, project rule, tape constants, site survey).
+
+const UPDATE_SQL =
+  "UPDATE shots SET reference_m = ?, range_m = ?, error_mm = ?, tolerance_mm = ?, limit_mm = ?, within = ?, repeatability_mm = ?, " +
+  "readings_count = ?, wrap = ?, unambiguous_m = ?, retro = ?, air_defaulted = ?, computed_at = ? WHERE id = ?";
+
+async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
+  const rows = await db
+    .select({
+      id: shots.id,
+      raw: shots.raw,
+      sessionId: checkSessions.id,
+      sensorId: checkSessions.sensorId,
+      siteId: checkSessions.siteId,
+      projectId: checkSessions.projectId,
+      airTempC: checkSessions.airTempC,
+      pressureHpa: checkSessions.pressureHpa,
+      humidityPct: checkSessions.humidityPct,
+    })
+    .from(shots)
+    .innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId))
+    .where(where);
+  if (!rows.length) return 0;
+  const parsed = rows.map((r) => {
+    const v = validateShot(JSON.parse(r.raw));
+    return { row: r, shot: v.ok ? v.value : null };
+  });
+  const ctx = await loadRegistryContext(
+    {
+      sensorIds: rows.map((r) => r.sensorId),
+      siteIds: rows.map((r) => r.siteId),
+      tapeIds: parsed.flatMap((p) => (p.shot?.reference.method === "tape" ? [p.shot.reference.tape.tapeId] : [])),
+      projectIds: rows.flatMap((r) => (r.projectId ? [r.projectId] : [])),
+    },
+    db,
+  );
+  const now = new Date().toISOString();
+  const stmts: { sql: string; args: (number | string | null)[] }[] = [];
+  let failed = 0;
+  for (const { row, shot } of parsed) {
+    if (!shot) {
+      failed++;
+      continue;
+    }
+    const session: SessionFacts = {
+      id: row.sessionId,
+      sensorId: row.sensorId,
+      siteId: row.siteId,
+      projectId: row.projectId,
+      air: { airTempC: row.airTempC, pressureHpa: row.pressureHpa, humidityPct: row.humidityPct },
+    };
+    const out = computeShotRecord(shot, session, ctx);
+    if (!out.ok) {
+      // Keep the last good figures: the registry edit made this shot uncomputable.
+      failed++;
+      continue;
+    }
+    const c = out.columns;
+    stmts.push({
+      sql: UPDATE_SQL,
+      args: [c.referenceM, c.rangeM, c.errorMm, c.toleranceMm, c.limitMm, c.within ? 1 : 0, c.repeatabilityMm, c.readingsCount, c.wrap ? 1 : 0, c.unambiguousM, c.retro ? 1 : 0, c.airDefaulted ? 1 : 0, now, row.id],
+    });
+  }
+  if (failed) console.warn(`recompute: ${failed} of ${rows.length} shots could not be recomputed and keep their previous figures`);
+  // One batch = one write transaction, run synchronously by the local client.
+  if (stmts.length) await db.$client.batch(stmts, "write");
+  return stmts.length;
+}
+
+/** Recomputes every shot of the sensor from its raw record; returns how many were updated. */
+export function recomputeShotsForSensor(sensorId: string): Promise<number> {
+  return recomputeWhere(eq(shots.sensorId, sensorId));
+}
+
+/** After a project's rule changed: the stored per-shot limit depends on its coverage factor. */
+export function recomputeShotsForProject(projectId: string): Promise<number> {
+  return recomputeWhere(eq(checkSessions.projectId, projectId));
+}
+
+/** After a site's stations or targets were resurveyed. */
+export function recomputeShotsForSite(siteId: string): Promise<number> {
+  return recomputeWhere(eq(checkSessions.siteId, siteId));
+}
+
+/** After a tape's constants changed. */
+export function recomputeShotsForTape(tapeId: string): Promise<number> {
+  return recomputeWhere(sql`json_extract(${shots.raw}, '$.reference.tape.tapeId') = ${tapeId}`);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The shot table (cursor paging) and the map (GeoJSON).
+
+const shotColumns = {
+  id: shots.id,
+  sessionId: shots.sessionId,
+  sensorId: shots.sensorId,
+  takenAt: shots.takenAt,
+  targetId: shots.targetId,
+  referenceMethod: shots.referenceMethod,
+  referenceM: shots.referenceM,
+  rangeM: shots.rangeM,
+  errorMm: shots.errorMm,
+  toleranceMm: shots.toleranceMm,
+  limitMm: shots.limitMm,
+  within: shots.within,
+  repeatabilityMm: shots.repeatabilityMm,
+  readingsCount: shots.readingsCount,
+  reflectancePct: shots.reflectancePct,
+  retro: shots.retro,
+  illuminanceKlux: shots.illuminanceKlux,
+  incidenceDeg: shots.incidenceDeg,
+  lat: shots.lat,
+  lon: shots.lon,
+  accuracyM: shots.accuracyM,
+  note: shots.note,
+  wrap: shots.wrap,
+  unambiguousM: shots.unambiguousM,
+  airDefaulted: shots.airDefaulted,
+  excluded: shots.excluded,
+  deviceId: shots.deviceId,
+  syncedBy: shots.syncedBy,
+  receivedAt: shots.receivedAt,
+  computedAt: shots.computedAt,
+};
+const selectShots = (db: Db) => db.select(shotColumns).from(shots);
+type ShotRow = Awaited<ReturnType<typeof selectShots>>[number];
+
+export type ShotFlagName = "outlier" | "wrap";
+export type ShotJson = Omit<ShotRow, "lat" | "lon" | "accuracyM"> & {
+  position: { lat: number; lon: number; accuracyM: number | null } | null;
+  flags: ShotFlagName[];
+};
+
+export type ShotQuery = {
+  sensor?: string;
+  sessions: string[];
+  band?: string;
+  reflectance?: "dark" | "mid" | "bright" | "retro";
+  within?: boolean;
+  excluded?: boolean;
+  flag?: "outlier" | "wrap" | "excluded";
+  from?: string;
+  to?: string;
+  project?: string;
+  cursor?: { takenAt: string; id: string };
+  limit: number;
+};
+
+export const SHOTS_PAGE_MAX = 1000;
+const REFLECTANCE_CLASSES = ["dark", "mid", "bright", "retro"] as const;
+
+export function encodeCursor(takenAt: string, id: string) {
+  return Buffer.from(JSON.stringify([takenAt, id])).toString("base64url");
+}
+function decodeCursor(s: string): { takenAt: string; id: string } | null {
+  try {
+    const v = JSON.parse(Buffer.from(s, "base64url").toString("utf8"));
+    if (Array.isArray(v) && typeof v[0] === "string" && typeof v[1] === "string") return { takenAt: v[0], id: v[1] };
+  } catch {}
+  return null;
+}
+
+/**
+ * A period bound as the domain's inPeriod reads it: the calendar date of the shot's own
+ * takenAt (local to where it was taken), "YYYY-MM-DD" or the date part of an ISO time.
+ */
+export function periodDay(s: string): string | null {
+  const m = /^(\d{4}-\d{2}-\d{2})(T.*)?$/.exec(s);
+  if (!m || Number.isNaN(Date.parse(`${m[1]}T00:00:00Z`))) return null;
+  return m[1]!;
+}
+
+/** takenAt text starts with its date, so "date part ≤ to" is "takenAt < the next day" (index-friendly). */
+export function periodWhere(from: string | undefined, to: string | undefined): SQL[] {
+  const w: SQL[] = [];
+  if (from) w.push(gte(shots.takenAt, periodDay(from)!));
+  if (to) {
+    const next = new Date(Date.parse(`${periodDay(to)}T00:00:00Z`) + 86_400_000).toISOString().slice(0, 10);
+    w.push(lt(shots.takenAt, next));
+  }
+  return w;
+}
+
+/** "10-30" → [10, 30); "100+" → [100, ∞); "<0" → (−∞, 0). */
+function rangeBandBounds(label: string): { lo: number | null; hi: number | null } | null {
+  let m = /^(\d+(?:\.\d+)?)-(\d+(?:\.\d+)?)$/.exec(label);
+  if (m) return { lo: Number(m[1]), hi: Number(m[2]) };
+  m = /^(\d+(?:\.\d+)?)\+$/.exec(label);
+  if (m) return { lo: Number(m[1]), hi: null };
+  m = /^<(\d+(?:\.\d+)?)$/.exec(label);
+  if (m) return { lo: null, hi: Number(m[1]) };
+  return null;
+}
+
+/** A refused query: the HTTP status and the JSON body to answer with. */
+export type QueryError = { status: 400 | 404; body: { error: string; errors?: RecordError[] } };
+
+/** Parses the query of GET /api/shots and /api/shots.geojson. */
+export function parseShotQuery(url: URL, opts: { paged: boolean }): ShotQuery | QueryError {
+  const q = url.searchParams;
+  const errors: RecordError[] = [];
+  const out: ShotQuery = { sessions: q.getAll("session").filter(Boolean), limit: 100 };
+  const sensor = q.get("sensor");
+  if (sensor) out.sensor = sensor;
+  const project = q.get("project");
+  if (project) out.project = project;
+  const band = q.get("band");
+  if (band) {
+    if ((REFLECTANCE_CLASSES as readonly string[]).includes(band)) out.reflectance = band as ShotQuery["reflectance"];
+    else if (rangeBandBounds(band)) out.band = band;
+    else errors.push({ path: "band", message: 'band must be a range band such as "10-30" or "100+", or a reflectance class (dark, mid, bright, retro)' });
+  }
+  const refl = q.get("reflectance");
+  if (refl) {
+    if ((REFLECTANCE_CLASSES as readonly string[]).includes(refl)) out.reflectance = refl as ShotQuery["reflectance"];
+    else errors.push({ path: "reflectance", message: "reflectance must be dark, mid, bright or retro" });
+  }
+  for (const key of ["within", "excluded"] as const) {
+    const v = q.get(key);
+    if (v == null || v === "") continue;
+    if (v === "true" || v === "false") out[key] = v === "true";
+    else errors.push({ path: key, message: `${key} must be true or false` });
+  }
+  const flag = q.get("flag");
+  if (flag) {
+    if (flag === "outlier" || flag === "wrap" || flag === "excluded") out.flag = flag;
+    else errors.push({ path: "flag", message: "flag must be outlier, wrap or excluded" });
+    if (flag === "outlier" && !sensor) errors.push({ path: "flag", message: "flag=outlier needs a sensor: outliers are judged among one sensor's shots" });
+  }
+  for (const key of ["from", "to"] as const) {
+    const v = q.get(key);
+    if (!v) continue;
+    if (periodDay(v)) out[key] = v;
+    else errors.push({ path: key, message: `${key} must be a date (YYYY-MM-DD)` });
+  }
+  if (opts.paged) {
+    const limit = q.get("limit");
+    if (limit) {
+      const n = Number(limit);
+      if (Number.isInteger(n) && n >= 1 && n <= SHOTS_PAGE_MAX) out.limit = n;
+      else errors.push({ path: "limit", message: `limit must be a whole number from 1 to ${SHOTS_PAGE_MAX}` });
+    }
+    const cursor = q.get("cursor");
+    if (cursor) {
+      const c = decodeCursor(cursor);
+      if (c) out.cursor = c;
+      else errors.push({ path: "cursor", message: "cursor is not one this server gave out" });
+    }
+  }
+  if (errors.length) return { status: 400, body: { error: "Invalid query.", errors } };
+  return out;
+}
+
+/** The selection conditions (sensor, sessions, period) that outliers are judged within. */
+function selectionWhere(q: ShotQuery): SQL[] {
+  const w: SQL[] = [];
+  if (q.sensor) w.push(eq(shots.sensorId, q.sensor));
+  if (q.sessions.length) w.push(inArray(shots.sessionId, q.sessions));
+  w.push(...periodWhere(q.from, q.to));
+  return w;
+}
+
+/** Median and cut of the outlier flag over the included shots of the selection (ranging.md §4). */
+async function outlierCut(q: ShotQuery, db: Db): Promise<{ med: number; cut: number } | null> {
+  if (!q.sensor) return null;
+  const rows = await db
+    .select({ e: shots.errorMm })
+    .from(shots)
+    .where(and(...selectionWhere(q), eq(shots.excluded, false)));
+  if (!rows.length) return null;
+  const e = Float64Array.from(rows, (r) => r.e);
+  return { med: median(e), cut: OUTLIER_K * MAD_TO_SIGMA * mad(e) };
+}
+
+async function kFor(projectId: string | undefined, db: Db): Promise<number | null | undefined> {
+  if (!projectId) return undefined;
+  const [p] = await db.select({ k: projects.coverageK }).from(projects).where(eq(projects.id, projectId));
+  return p ? p.k : null;
+}
+
+function toJson(r: ShotRow, k: number | undefined, out: { med: number; cut: number } | null): ShotJson {
+  const { lat, lon, accuracyM, ...rest } = r;
+  const flags: ShotFlagName[] = [];
+  if (out && Math.abs(r.errorMm - out.med) > out.cut) flags.push("outlier");
+  if (r.wrap) flags.push("wrap");
+  const limitMm = k === undefined ? r.limitMm : k * r.toleranceMm;
+  return {
+    ...rest,
+    limitMm,
+    within: k === undefined ? r.within : Math.abs(r.errorMm) <= limitMm,
+    position: lat != null && lon != null ? { lat, lon, accuracyM } : null,
+    flags,
+  };
+}
+
+type Filter = { w: SQL[] | null; k: number | undefined; cut: { med: number; cut: number } | null } | { error: QueryError };
+
+/** The WHERE of a shot query; w null when nothing can match. */
+async function filteredRows(q: ShotQuery, db: Db, extra: SQL[]): Promise<Filter> {
+  const cut = await outlierCut(q, db);
+  const w = [...selectionWhere(q), ...extra];
+  if (q.band) {
+    const b = rangeBandBounds(q.band)!;
+    if (b.lo != null) w.push(gte(shots.referenceM, b.lo));
+    if (b.hi != null) w.push(lt(shots.referenceM, b.hi));
+  }
+  if (q.reflectance === "retro") w.push(eq(shots.retro, true));
+  else if (q.reflectance) {
+    w.push(eq(shots.retro, false));
+    if (q.reflectance === "dark") w.push(lt(shots.reflectancePct, 20));
+    if (q.reflectance === "mid") w.push(and(gte(shots.reflectancePct, 20), lte(shots.reflectancePct, 60))!);
+    if (q.reflectance === "bright") w.push(gt(shots.reflectancePct, 60));
+  }
+  const k = await kFor(q.project, db);
+  if (k === null) return { error: { status: 404, body: { error: `No project ${q.project}.` } } };
+  if (q.within !== undefined) {
+    // with another project's rule the limit is k·T(D), T(D) stored per shot
+    const cond = k === undefined ? eq(shots.within, true) : sql`abs(${shots.errorMm}) <= ${k} * ${shots.toleranceMm}`;
+    w.push(q.within ? cond : sql`not (${cond})`);
+  }
+  if (q.excluded !== undefined) w.push(eq(shots.excluded, q.excluded));
+  if (q.flag === "wrap") w.push(eq(shots.wrap, true));
+  if (q.flag === "excluded") w.push(eq(shots.excluded, true));
+  if (q.flag === "outlier") {
+    if (!cut) return { w: null, k, cut };
+    w.push(sql`abs(${shots.errorMm} - ${cut.med}) > ${cut.cut}`);
+  }
+  return { w, k, cut };
+}
+
+export async function listShots(_actor: Actor, q: ShotQuery, db: Db = getDb()): Promise<{ status: 200; body: { shots: ShotJson[]; nextCursor: string | null } } | QueryError> {
+  const extra: SQL[] = [];
+  if (q.cursor) extra.push(or(gt(shots.takenAt, q.cursor.takenAt), and(eq(shots.takenAt, q.cursor.takenAt), gt(shots.id, q.cursor.id)))!);
+  const f = await filteredRows(q, db, extra);
+  if ("error" in f) return f.error;
+  if (!f.w) return { status: 200, body: { shots: [], nextCursor: null } };
+  const rows = await selectShots(db)
+    .where(and(...f.w))
+    .orderBy(asc(shots.takenAt), asc(shots.id))
+    .limit(q.limit + 1);
+  const page = rows.slice(0, q.limit);
+  const last = page[page.length - 1];
+  return {
+    status: 200,
+    body: {
+      shots: page.map((r) => toJson(r, f.k, f.cut)),
+      nextCursor: rows.length > q.limit && last ? encodeCursor(last.takenAt, last.id) : null,
+    },
+  };
+}
+
+export async function shotsGeoJson(_actor: Actor, q: ShotQuery, db: Db = getDb()) {
+  const f = await filteredRows(q, db, [isNotNull(shots.lat), isNotNull(shots.lon)]);
+  if ("error" in f) return f.error;
+  const rows = f.w ? await selectShots(db).where(and(...f.w)).orderBy(asc(shots.takenAt), asc(shots.id)) : [];
+  return {
+    status: 200 as const,
+    body: {
+      type: "FeatureCollection" as const,
+      features: rows.map((r) => {
+        const s = toJson(r, f.k, f.cut);
+        return {
+          type: "Feature" as const,
+          id: s.id,
+          geometry: { type: "Point" as const, coordinates: [r.lon!, r.lat!] },
+          properties: {
+            id: s.id,
+            sessionId: s.sessionId,
+            sensorId: s.sensorId,
+            takenAt: s.takenAt,
+            referenceM: s.referenceM,
+            errorMm: s.errorMm,
+            limitMm: s.limitMm,
+            within: s.within,
+            excluded: s.excluded,
+            reflectancePct: s.reflectancePct,
+            illuminanceKlux: s.illuminanceKlux,
+            accuracyM: s.position?.accuracyM ?? null,
+            flags: s.flags,
+          },
+        };
+      }),
+    },
+  };
+}
+
+export async function getShotJson(shotId: string, db: Db = getDb()): Promise<ShotJson | null> {
+  const [r] = await selectShots(db).where(eq(shots.id, shotId));
+  return r ? toJson(r, undefined, null) : null;
+}

@@ -1,0 +1,193 @@
+// The POST /api/sync body of /work/shared/api.md as zod schemas. Pure (no server imports):
+// the field tablet validates a record with the same schema before it queues it, and the
+// server validates every record again on ingest. Unknown keys are stripped, so numbers the
+// tablet derived (errorMm, within, limitMm…) never reach the server's computation.
+import { z } from "zod";
+import { AIR_LIMITS } from "~/domain";
+
+/** At most this many shots in one request (api.md); more answers 413. */
+export const SYNC_MAX_SHOTS = 500;
+/** Sessions are small; the same cap keeps one request bounded. */
+export const SYNC_MAX_SESSIONS = 500;
+
+export type RecordError = { path: string; message: string };
+export type SyncResult = {
+  kind: "session" | "shot";
+  id: string;
+  status: "accepted" | "duplicate" | "rejected";
+  errors?: RecordError[];
+};
+
+const num = (what: string) => z.number({ error: `${what} must be a number` });
+const text = (what: string, max: number) =>
+  z.string({ error: `${what} must be text` }).trim().min(1, `${what} is required`).max(max, `${what} is at most ${max} characters`);
+const recordId = (what: string) => z.uuid({ error: `${what} must be a UUID made by the tablet` });
+/** ISO 8601 with an offset ("Z" or ±hh:mm), as api.md asks. */
+const isoTime = (what: string) =>
+  z.iso.datetime({ offset: true, error: `${what} must be an ISO 8601 time with an offset, e.g. 2026-05-04T08:10:00+02:00` });
+/** null and absent mean the same (not measured): both become absent so the canonical raw matches. */
+const optionalNum = (schema: z.ZodNumber) =>
+  schema
+    .nullish()
+    .transform((v) => v ?? undefined);
+const optionalText = (what: string, max: number) =>
+  z
+    .string({ error: `${what} must be text` })
+    .max(max, `${what} is at most ${max} characters`)
+    .nullish()
+    .transform((v) => (v == null || v.trim() === "" ? undefined : v));
+
+const airNum = (field: keyof typeof AIR_LIMITS, what: string, unit: string) => {
+  const [lo, hi] = AIR_LIMITS[field];
+  return optionalNum(num(what).min(lo, `${what} must lie between ${lo} and ${hi} ${unit}`).max(hi, `${what} must lie between ${lo} and ${hi} ${unit}`));
+};
+
+export const syncSessionSchema = z.object({
+  id: recordId("session id"),
+  sensorId: text("sensor", 100),
+  siteId: text("site", 100),
+  /** Not in api.md's example: optional; without it the server picks the one project listing both the sensor and the site. */
+  projectId: optionalText("project", 100),
+  startedAt: isoTime("start time"),
+  airTempC: airNum("airTempC", "air temperature", "°C"),
+  pressureHpa: airNum("pressureHpa", "air pressure", "hPa"),
+  humidityPct: airNum("humidityPct", "relative humidity", "%"),
+  note: optionalText("note", 2000),
+});
+export type SyncSession = z.infer<typeof syncSessionSchema>;
+
+const positiveM = (what: string) => num(what).positive(`${what} must be greater than 0 m`).max(100_000, `${what} must be at most 100 km`);
+const heightM = (what: string) => num(what).min(-100, `${what} must lie between −100 and 100 m`).max(100, `${what} must lie between −100 and 100 m`);
+
+const tapeUse = z.object({
+  tapeId: text("tape", 100),
+  tempC: num("tape temperature").min(-80, "tape temperature must lie between −80 and 90 °C").max(90, "tape temperature must lie between −80 and 90 °C"),
+  tensionN: num("tape pull").positive("tape pull must be greater than 0 N").max(1000, "tape pull must be at most 1000 N"),
+  support: z.enum(["ground", "ends"], { error: 'support must be "ground" or "ends"' }),
+  spans: z
+    .number({ error: "spans must be a whole number" })
+    .int("spans must be a whole number")
+    .min(1, "spans must be at least 1")
+    .max(100, "spans must be at most 100")
+    .default(1),
+});
+
+export const referenceSchema = z.discriminatedUnion(
+  "method",
+  [
+    z.object({ method: z.literal("edm"), distanceM: positiveM("reference distance") }),
+    z.object({ method: z.literal("tape"), distanceM: positiveM("taped distance"), tape: tapeUse }),
+    // distanceM is not read for coordinates: the server computes it from the surveyed positions.
+    z.object({
+      method: z.literal("coordinates"),
+      stationId: text("station", 100),
+      instrumentHeightM: heightM("instrument height"),
+      targetHeightM: heightM("target height"),
+    }),
+  ],
+  { error: 'reference method must be "tape", "edm" or "coordinates"' },
+);
+
+const readingList = (what: string, unit: string) =>
+  z
+    .array(num(what).positive(`${what} must be greater than 0 ${unit}`), { error: `${what}s must be a list of numbers` })
+    .min(1, `give at least one ${what}`)
+    .max(1000, `at most 1000 ${what}s`);
+
+export const readingsSchema = z
+  .object({
+    rangesM: readingList("range", "m").optional(),
+    roundTripNs: readingList("round-trip time", "ns").optional(),
+    phase: z
+      .array(
+        z.object({
+          frequencyHz: num("modulation frequency").positive("modulation frequency must be greater than 0 Hz"),
+          samples: z
+            .array(num("sample"), { error: "samples must be a list of numbers" })
+            .min(3, "at least 3 correlation samples are needed")
+            .max(1024, "at most 1024 samples"),
+        }),
+        { error: "phase must be a list of frequency readings" },
+      )
+      .min(1, "give at least one frequency reading")
+      .max(8, "at most 8 frequencies")
+      .optional(),
+  })
+  .superRefine((r, ctx) => {
+    const n = [r.rangesM, r.roundTripNs, r.phase].filter((x) => x != null).length;
+    if (n !== 1) ctx.addIssue({ code: "custom", message: "readings must hold exactly one of rangesM, roundTripNs or phase" });
+  });
+
+export const syncShotSchema = z.object({
+  id: recordId("shot id"),
+  sessionId: recordId("session id"),
+  takenAt: isoTime("time of the shot"),
+  targetId: optionalText("target", 100),
+  reference: referenceSchema,
+  readings: readingsSchema,
+  reflectancePct: num("reflectance").min(0, "reflectance must lie between 0 and 100 %").max(100, "reflectance must lie between 0 and 100 %"),
+  // Required by api.md; null is accepted for "not measured" (no lux meter at hand).
+  illuminanceKlux: num("illuminance").min(0, "illuminance must lie between 0 and 200 klux").max(200, "illuminance must lie between 0 and 200 klux").nullable(),
+  incidenceDeg: optionalNum(num("incidence angle").min(0, "incidence angle must lie between 0 and 90°").max(90, "incidence angle must lie between 0 and 90°")),
+  position: z
+    .object({
+      lat: num("latitude").min(-90, "latitude must lie between −90 and 90°").max(90, "latitude must lie between −90 and 90°"),
+      lon: num("longitude").min(-180, "longitude must lie between −180 and 180°").max(180, "longitude must lie between −180 and 180°"),
+      accuracyM: optionalNum(num("position accuracy").min(0, "position accuracy must not be negative")),
+    })
+    .nullish()
+    .transform((v) => v ?? undefined),
+  note: optionalText("note", 2000),
+});
+export type SyncShot = z.infer<typeof syncShotSchema>;
+
+/** The envelope only: records are validated one by one so a bad one never blocks the rest. */
+export const syncEnvelopeSchema = z.object({
+  deviceId: text("device id", 200),
+  sessions: z.array(z.unknown(), { error: "sessions must be a list" }).default([]),
+  shots: z.array(z.unknown(), { error: "shots must be a list" }).default([]),
+});
+
+/** The reason a QA lead gives for excluding a shot or restoring it. */
+export const exclusionSchema = z.object({
+  reason: z.string({ error: "Give a reason" }).trim().min(3, "Give a reason of at least 3 characters").max(1000, "A reason is at most 1000 characters"),
+});
+
+/** zod issues → api.md errors[]: path joined with "." relative to the record. */
+export function issuesToErrors(issues: readonly z.core.$ZodIssue[]): RecordError[] {
+  return issues.map((i) => ({ path: i.path.map(String).join("."), message: i.message }));
+}
+
+export function validateSession(record: unknown) {
+  const r = syncSessionSchema.safeParse(record);
+  return r.success ? { ok: true as const, value: r.data } : { ok: false as const, errors: issuesToErrors(r.error.issues) };
+}
+
+export function validateShot(record: unknown) {
+  const r = syncShotSchema.safeParse(record);
+  return r.success ? { ok: true as const, value: r.data } : { ok: false as const, errors: issuesToErrors(r.error.issues) };
+}
+
+/** JSON with keys in sorted order at every depth, so the same record in another key order compares equal. */
+export function canonicalJson(value: unknown): string {
+  return JSON.stringify(sortKeys(value));
+}
+
+function sortKeys(v: unknown): unknown {
+  if (Array.isArray(v)) return v.map(sortKeys);
+  if (v && typeof v === "object") {
+    const out: Record<string, unknown> = {};
+    for (const k of Object.keys(v).sort()) {
+      const x = (v as Record<string, unknown>)[k];
+      if (x !== undefined) out[k] = sortKeys(x);
+    }
+    return out;
+  }
+  return v;
+}
+
+/** A record id as the answer names it, even when the record itself was malformed. */
+export function recordIdOf(record: unknown): string {
+  const id = record && typeof record === "object" ? (record as { id?: unknown }).id : undefined;
+  return typeof id === "string" ? id : "";
+}

@@ -1,0 +1,300 @@
+// POST /api/sync: idempotent ingest of the tablet's sessions and shots (api.md). Every record
+// is validated on its own (a rejected one never blocks the others), every derived figure is
+// recomputed here from the raw observation, and all accepted records of one request are
+// written in one transaction. Used by the sync route, the CSV import and the demo seed.
+import { inArray } from "drizzle-orm";
+import { getDb, type Db } from "~/db/client.server";
+import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
+import { airState, DomainError } from "~/domain";
+import {
+  computeShotRecord,
+  impliedProjects,
+  loadRegistryContext,
+  pairKey,
+  shotInsertRow,
+  type SessionFacts,
+} from "./shots.server";
+import {
+  canonicalJson,
+  issuesToErrors,
+  recordIdOf,
+  SYNC_MAX_SESSIONS,
+  SYNC_MAX_SHOTS,
+  syncEnvelopeSchema,
+  validateSession,
+  validateShot,
+  type RecordError,
+  type SyncResult,
+  type SyncSession,
+  type SyncShot,
+} from "./sync-schemas";
+
+export type SyncActor = { id: string; role: Role };
+
+/**
+ * One write at a time in this process. The check "is this id stored, with what raw?" and the
+ * insert must not interleave with another request's, or two tablets sending the same record
+ * at once would both see it missing and the second insert would fail on the primary key.
+ * libSQL's local client also opens a pool of connections, and a PRAGMA busy_timeout reaches
+ * only the connection that ran it; serialising our writes means no sync ever waits on
+ * another sync's lock (SQLITE_BUSY), whatever connection it lands on.
+ */
+class Mutex {
+  #tail: Promise<void> = Promise.resolve();
+  async run<T>(fn: () => Promise<T>): Promise<T> {
+    const prev = this.#tail;
+    let release!: () => void;
+    this.#tail = new Promise<void>((r) => (release = r));
+    await prev;
+    try {
+      return await fn();
+    } finally {
+      release();
+    }
+  }
+}
+const writeLock = new Mutex();
+
+/** Multi-row inserts stay far below SQLite's 32 766 bound variables (31 columns × 250 rows). */
+const INSERT_CHUNK = 250;
+
+type Answer = { status: number; body: unknown; headers?: Record<string, string> };
+
+const conflict = (kind: string): RecordError[] => [
+  { path: "id", message: `a different ${kind} with this id is already synced; synced records are never overwritten — give the changed record a new id` },
+];
+
+function chunks<T>(xs: T[], n: number): T[][] {
+  const out: T[][] = [];
+  for (let i = 0; i < xs.length; i += n) out.push(xs.slice(i, i + n));
+  return out;
+}
+
+function inChunks(db: Db, ids: string[]) {
+  return {
+    sessions: async () =>
+      (
+        await Promise.all(
+          chunks(ids, 500).map((c) =>
+            db
+              .select({
+                id: checkSessions.id,
+                raw: checkSessions.raw,
+                sensorId: checkSessions.sensorId,
+                siteId: checkSessions.siteId,
+                projectId: checkSessions.projectId,
+                airTempC: checkSessions.airTempC,
+                pressureHpa: checkSessions.pressureHpa,
+                humidityPct: checkSessions.humidityPct,
+              })
+              .from(checkSessions)
+              .where(inArray(checkSessions.id, c)),
+          ),
+        )
+      ).flat(),
+    shots: async () =>
+      (await Promise.all(chunks(ids, 500).map((c) => db.select({ id: shots.id, raw: shots.raw }).from(shots).where(inArray(shots.id, c))))).flat(),
+  };
+}
+
+export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb()): Promise<Answer> {
+  const env = syncEnvelopeSchema.safeParse(body);
+  if (!env.success) {
+    return {
+      status: 400,
+      body: { error: "The body must be a JSON object { deviceId, sessions: [...], shots: [...] }; nothing was written.", errors: issuesToErrors(env.error.issues) },
+    };
+  }
+  const { deviceId } = env.data;
+  const rawSessions = env.data.sessions;
+  const rawShots = env.data.shots;
+  if (rawShots.length > SYNC_MAX_SHOTS || rawSessions.length > SYNC_MAX_SESSIONS) {
+    return {
+      status: 413,
+      body: { error: `At most ${SYNC_MAX_SHOTS} shots and ${SYNC_MAX_SESSIONS} sessions a request (got ${rawShots.length} shots, ${rawSessions.length} sessions); send the rest in later requests.` },
+    };
+  }
+
+  // 1. Each record on its own: zod, then the canonical raw content used for duplicate checks.
+  const sessionRecs = rawSessions.map((r) => {
+    const v = validateSession(r);
+    return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
+  });
+  const shotRecs = rawShots.map((r) => {
+    const v = validateShot(r);
+    return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
+  });
+
+  return writeLock.run(async () => {
+    // 2. What is stored already, and the registry rows the computation needs, once per request.
+    const batchSessionIds = sessionRecs.flatMap((s) => (s.value ? [s.value.id] : []));
+    const shotSessionIds = shotRecs.flatMap((s) => (s.value ? [s.value.sessionId] : []));
+    const [storedSessions, storedShots] = await Promise.all([
+      inChunks(db, [...new Set([...batchSessionIds, ...shotSessionIds])]).sessions(),
+      inChunks(db, [...new Set(shotRecs.flatMap((s) => (s.value ? [s.value.id] : [])))]).shots(),
+    ]);
+    const storedSession = new Map(storedSessions.map((s) => [s.id, s]));
+    const storedShot = new Map(storedShots.map((s) => [s.id, s.raw]));
+
+    const newSessions = sessionRecs.flatMap((s) => (s.value && !storedSession.has(s.value.id) ? [s.value] : []));
+    const implied = await impliedProjects(
+      newSessions.filter((s) => !s.projectId).map((s) => ({ sensorId: s.sensorId, siteId: s.siteId })),
+      db,
+    );
+    const ctx = await loadRegistryContext(
+      {
+        sensorIds: [...newSessions.map((s) => s.sensorId), ...storedSessions.map((s) => s.sensorId)],
+        siteIds: [...newSessions.map((s) => s.siteId), ...storedSessions.map((s) => s.siteId)],
+        tapeIds: shotRecs.flatMap((s) => (s.value?.reference.method === "tape" ? [s.value.reference.tape.tapeId] : [])),
+        projectIds: [
+          ...newSessions.flatMap((s) => (s.projectId ? [s.projectId] : [])),
+          ...implied.values(),
+          ...storedSessions.flatMap((s) => (s.projectId ? [s.projectId] : [])),
+        ],
+      },
+      db,
+    );
+
+    const receivedAt = new Date().toISOString();
+    const results: SyncResult[] = [];
+    const sessionRows: (typeof checkSessions.$inferInsert)[] = [];
+    const shotRows: (typeof shots.$inferInsert)[] = [];
+
+    // 3. Sessions before their shots.
+    /** Session facts a shot of this batch may use: stored ones and the ones accepted now. */
+    const usable = new Map<string, SessionFacts>();
+    for (const s of storedSessions) {
+      usable.set(s.id, {
+        id: s.id,
+        sensorId: s.sensorId,
+        siteId: s.siteId,
+        projectId: s.projectId,
+        air: { airTempC: s.airTempC, pressureHpa: s.pressureHpa, humidityPct: s.humidityPct },
+      });
+    }
+    const rejectedSessions = new Set<string>();
+    const seenSessions = new Map<string, string>(); // id → raw, within this batch
+    for (const rec of sessionRecs) {
+      const reject = (errors: RecordError[]) => {
+        if (rec.id) rejectedSessions.add(rec.id);
+        results.push({ kind: "session", id: rec.id, status: "rejected", errors });
+      };
+      if (!rec.value) {
+        reject(rec.errors!);
+        continue;
+      }
+      const s: SyncSession = rec.value;
+      const stored = storedSession.get(s.id)?.raw ?? seenSessions.get(s.id);
+      if (stored !== undefined) {
+        if (stored === rec.raw) results.push({ kind: "session", id: s.id, status: "duplicate" });
+        else results.push({ kind: "session", id: s.id, status: "rejected", errors: conflict("session") });
+        // a conflicting copy never disqualifies the stored session's shots
+        continue;
+      }
+      const errors: RecordError[] = [];
+      const sensor = ctx.sensors.get(s.sensorId);
+      if (!sensor) errors.push({ path: "sensorId", message: `sensor ${s.sensorId} is not in the registry` });
+      if (!ctx.sites.has(s.siteId)) errors.push({ path: "siteId", message: `site ${s.siteId} is not in the registry` });
+      if (s.projectId && !ctx.rules.has(s.projectId)) errors.push({ path: "projectId", message: `project ${s.projectId} is not in the registry` });
+      const air = { airTempC: s.airTempC, pressureHpa: s.pressureHpa, humidityPct: s.humidityPct };
+      if (sensor) {
+        try {
+          airState(air, sensor.wavelengthNm);
+        } catch (e) {
+          if (!(e instanceof DomainError)) throw e;
+          errors.push({ path: e.path, message: e.message });
+        }
+      }
+      if (errors.length) {
+        reject(errors);
+        continue;
+      }
+      const projectId = s.projectId ?? implied.get(pairKey(s.sensorId, s.siteId)) ?? null;
+      seenSessions.set(s.id, rec.raw);
+      usable.set(s.id, { id: s.id, sensorId: s.sensorId, siteId: s.siteId, projectId, air });
+      sessionRows.push({
+        id: s.id,
+        sensorId: s.sensorId,
+        siteId: s.siteId,
+        projectId,
+        startedAt: s.startedAt,
+        airTempC: s.airTempC ?? null,
+        pressureHpa: s.pressureHpa ?? null,
+        humidityPct: s.humidityPct ?? null,
+        note: s.note ?? null,
+        raw: rec.raw,
+        deviceId,
+        syncedBy: actor.id,
+        receivedAt,
+      });
+      results.push({ kind: "session", id: s.id, status: "accepted" });
+    }
+
+    // 4. Shots: duplicates, their session, then the authoritative computation.
+    const seenShots = new Map<string, string>();
+    for (const rec of shotRecs) {
+      if (!rec.value) {
+        results.push({ kind: "shot", id: rec.id, status: "rejected", errors: rec.errors! });
+        continue;
+      }
+      const shot: SyncShot = rec.value;
+      const stored = storedShot.get(shot.id) ?? seenShots.get(shot.id);
+      if (stored !== undefined) {
+        if (stored === rec.raw) results.push({ kind: "shot", id: shot.id, status: "duplicate" });
+        else results.push({ kind: "shot", id: shot.id, status: "rejected", errors: conflict("shot") });
+        continue;
+      }
+      const session = usable.get(shot.sessionId);
+      if (!session) {
+        const message = rejectedSessions.has(shot.sessionId)
+          ? `its session ${shot.sessionId} was rejected in this request: fix the session and send both again`
+          : `session ${shot.sessionId} is unknown: send the session first or in the same request`;
+        results.push({ kind: "shot", id: shot.id, status: "rejected", errors: [{ path: "sessionId", message }] });
+        continue;
+      }
+      const out = computeShotRecord(shot, session, ctx);
+      if (!out.ok) {
+        results.push({ kind: "shot", id: shot.id, status: "rejected", errors: out.errors });
+        continue;
+      }
+      seenShots.set(shot.id, rec.raw);
+      shotRows.push(shotInsertRow(shot, rec.raw, session, out.columns, { deviceId, syncedBy: actor.id, receivedAt }));
+      results.push({ kind: "shot", id: shot.id, status: "accepted" });
+    }
+
+    // 5. One write transaction for the whole request (one batch; the local client runs it
+    //    synchronously between BEGIN IMMEDIATE and COMMIT, so it cannot half-happen).
+    const counts = { accepted: 0, duplicate: 0, rejected: 0 };
+    for (const r of results) counts[r.status]++;
+    if (sessionRows.length || shotRows.length || counts.rejected) {
+      const stmts = [
+        ...chunks(sessionRows, INSERT_CHUNK).map((c) => db.insert(checkSessions).values(c).toSQL()),
+        ...chunks(shotRows, INSERT_CHUNK).map((c) => db.insert(shots).values(c).toSQL()),
+        db
+          .insert(auditLog)
+          .values({
+            actorUserId: actor.id,
+            action: "sync",
+            entity: "device",
+            entityId: deviceId,
+            detail: { sessions: sessionRows.length, shots: shotRows.length, ...counts },
+          })
+          .toSQL(),
+      ];
+      try {
+        await db.$client.batch(
+          stmts.map((q) => ({ sql: q.sql, args: q.params as never })),
+          "write",
+        );
+      } catch (e) {
+        const code = (e as { code?: string }).code ?? "";
+        // Another process wrote one of these ids meanwhile: nothing of ours was written.
+        if (code.startsWith("SQLITE_CONSTRAINT") || code.startsWith("SQLITE_BUSY")) {
+          return { status: 503, body: { error: "Another sync wrote at the same moment; nothing was written — send the batch again." }, headers: { "Retry-After": "1" } };
+        }
+        throw e;
+      }
+    }
+    return { status: 200, body: { results } };
+  });
+}

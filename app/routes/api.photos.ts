@@ -1,0 +1,32 @@
+// POST /api/photos (crew, qa, admin): multipart shotId + file → 201 { photo } (200 when the
+// same shot already has this photo). GET /api/photos?shotId=… (any signed-in role) lists them.
+import { requireApiUser } from "~/auth/guards.server";
+import { FIELD } from "~/auth/access";
+import { listPhotos, photoMaxBytes, savePhoto } from "~/models/photos.server";
+import type { Route } from "./+types/api.photos";
+
+/** Room for the multipart boundaries and the shotId field around the file. */
+const MULTIPART_OVERHEAD = 64 * 1024;
+
+export async function action({ request }: Route.ActionArgs) {
+  const user = await requireApiUser(request, FIELD);
+  if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
+  const max = photoMaxBytes();
+  const length = Number(request.headers.get("Content-Length") ?? 0);
+  if (length > max + MULTIPART_OVERHEAD) return Response.json({ error: `The photo is larger than ${max} bytes.` }, { status: 413 });
+  let form: FormData;
+  try {
+    form = await request.formData();
+  } catch {
+    return Response.json({ error: "Send multipart form data with shotId and file." }, { status: 400 });
+  }
+  const result = await savePhoto(user, form.get("shotId"), form.get("file"));
+  return Response.json(result.body, { status: result.status });
+}
+
+export async function loader({ request }: Route.LoaderArgs) {
+  const user = await requireApiUser(request);
+  const shotId = new URL(request.url).searchParams.get("shotId");
+  if (!shotId) return Response.json({ error: "Give shotId.", errors: [{ path: "shotId", message: "shotId is required" }] }, { status: 400 });
+  return Response.json({ photos: await listPhotos(user, shotId) }, { headers: { "Cache-Control": "private, no-store" } });
+}

@@ -1,0 +1,129 @@
+// Registry rows for tests and benches, inserted directly through drizzle (no validation, no
+// audit): users with a bearer token, sensors, tapes, sites with stations and targets,
+// projects. Invented values in the manner of the demo scenario (brief.md).
+import { getDb } from "~/db/client.server";
+import { projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets, users, type Role } from "~/db/schema";
+import { createApiToken } from "~/auth/tokens.server";
+
+const uid = () => crypto.randomUUID();
+
+export type TestUser = { id: string; role: Role; email: string; token: string };
+
+/** A user of the role with a bearer token, so a Request can act as them. */
+export async function makeUser(role: Role, email = `${role}-${uid().slice(0, 8)}@fixture.test`): Promise<TestUser> {
+  const id = uid();
+  await getDb().insert(users).values({ id, email, name: `Fixture ${role}`, role });
+  const { token } = await createApiToken(id, "fixture");
+  return { id, role, email, token };
+}
+
+export async function makeSensor(over: Partial<typeof sensors.$inferInsert> = {}) {
+  const row = {
+    id: uid(),
+    label: "Roof scanner R1",
+    serial: `FX-${uid().slice(0, 6)}`,
+    kind: "pulsed" as const,
+    wavelengthNm: 905,
+    modulationHz: [],
+    appliesAirCorrection: true,
+    assumedRefractivity: 0,
+    toleranceMm: 5,
+    tolerancePpm: 10,
+    outdoor: true,
+    ...over,
+  };
+  await getDb().insert(sensors).values(row);
+  return row;
+}
+
+export async function makeTape(over: Partial<typeof tapes.$inferInsert> = {}) {
+  const row = {
+    id: uid(),
+    label: "Steel tape 30 m",
+    standardTempC: 20,
+    standardTensionN: 50,
+    areaMm2: 2.6,
+    modulusGPa: 200,
+    weightNPerM: 0.2,
+    calibrationPpm: 0,
+    ...over,
+  };
+  await getDb().insert(tapes).values(row);
+  return row;
+}
+
+type Place = { id?: string; label?: string; grid?: { e: number; n: number; h: number }; geo?: { lat: number; lon: number; h: number } };
+type TargetIn = Place & { reflectancePct?: number; retro?: boolean; referenceM?: number };
+
+export async function makeSite(opts: { name?: string; targets?: TargetIn[]; stations?: Place[] } = {}) {
+  const db = getDb();
+  const site = { id: uid(), name: opts.name ?? "Fernhollow yard baseline" };
+  await db.insert(sites).values(site);
+  const place = (p: Place) => ({
+    gridE: p.grid?.e ?? null,
+    gridN: p.grid?.n ?? null,
+    gridH: p.grid?.h ?? null,
+    lat: p.geo?.lat ?? null,
+    lon: p.geo?.lon ?? null,
+    h: p.geo?.h ?? null,
+  });
+  const st = (opts.stations ?? []).map((s, i) => ({ id: s.id ?? uid(), siteId: site.id, label: s.label ?? `S${i + 1}`, ...place(s) }));
+  const tg = (opts.targets ?? [{ reflectancePct: 10 }, { reflectancePct: 85 }]).map((t, i) => ({
+    id: t.id ?? uid(),
+    siteId: site.id,
+    label: t.label ?? `T${i + 1}`,
+    reflectancePct: t.reflectancePct ?? 50,
+    retro: t.retro ?? false,
+    referenceM: t.referenceM ?? null,
+    ...place(t),
+  }));
+  if (st.length) await db.insert(stations).values(st);
+  if (tg.length) await db.insert(targets).values(tg);
+  return { ...site, stations: st, targets: tg };
+}
+
+export async function makeProject(opts: { sensorIds?: string[]; siteIds?: string[]; minShots?: number; coverageK?: number; minWithinPct?: number; name?: string } = {}) {
+  const db = getDb();
+  const row = {
+    id: uid(),
+    name: opts.name ?? "River valley corridor",
+    client: "Fernhollow Geomatics",
+    minShots: opts.minShots ?? 20,
+    coverageK: opts.coverageK ?? 2,
+    minWithinPct: opts.minWithinPct ?? 95,
+  };
+  await db.insert(projects).values(row);
+  for (const sensorId of opts.sensorIds ?? []) await db.insert(projectSensors).values({ projectId: row.id, sensorId });
+  for (const siteId of opts.siteIds ?? []) await db.insert(projectSites).values({ projectId: row.id, siteId });
+  return row;
+}
+
+/** A Request as a user (bearer token), JSON body when given. */
+export function apiRequest(path: string, opts: { user?: TestUser; method?: string; json?: unknown; body?: BodyInit; headers?: Record<string, string> } = {}) {
+  const headers: Record<string, string> = { ...opts.headers };
+  if (opts.user) headers.Authorization = `Bearer ${opts.user.token}`;
+  let body = opts.body;
+  if (opts.json !== undefined) {
+    headers["Content-Type"] = "application/json";
+    body = JSON.stringify(opts.json);
+  }
+  return new Request(`http://localhost${path}`, { method: opts.method ?? (body ? "POST" : "GET"), headers, body });
+}
+
+/** Calls a loader/action and returns status and JSON (thrown Responses included). */
+export async function call(fn: (args: never) => unknown, request: Request, params: Record<string, string> = {}) {
+  let res: unknown;
+  try {
+    res = await fn({ request, params, context: {} } as never);
+  } catch (e) {
+    if (!(e instanceof Response)) throw e;
+    res = e;
+  }
+  const r = res as Response;
+  const text = await r.text();
+  let json: unknown = null;
+  try {
+    json = JSON.parse(text);
+  } catch {}
+  return { status: r.status, headers: r.headers, text, json: json as any };
+}
