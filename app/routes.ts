@@ -34,6 +34,14 @@ export default [
     route("me", "routes/api.me.ts"),
     // registry
     // sync and reports
+    route("sync", "routes/api.sync.ts"),
+    route("sensors/:sensorId/report", "routes/api.sensors.$sensorId.report.ts"),
+    route("sensors/:sensorId/report.csv", "routes/api.sensors.$sensorId.report[.]csv.ts"),
+    route("shots", "routes/api.shots.ts"),
+    route("shots.geojson", "routes/api.shots[.]geojson.ts"),
+    route("shots/:shotId/exclusion", "routes/api.shots.$shotId.exclusion.ts"),
+    route("photos", "routes/api.photos.ts"),
+    route("photos/:photoId", "routes/api.photos.$photoId.ts"),
     // field
   ]),
 

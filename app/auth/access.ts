@@ -37,6 +37,16 @@ export const ACCESS: Record<string, MethodAccess> = {
   // ---- registry (admin) ----
 
   // ---- sync and reports (API) ----
+  // Field roles sync and upload photos; every signed-in role reads; QA and admin exclude shots.
+  // (GET of routes/api.sensors.ts, listed with the registry above, is this area's loader.)
+  "routes/api.sync.ts": { POST: FIELD },
+  "routes/api.sensors.$sensorId.report.ts": { GET: ALL },
+  "routes/api.sensors.$sensorId.report[.]csv.ts": { GET: ALL },
+  "routes/api.shots.ts": { GET: ALL },
+  "routes/api.shots[.]geojson.ts": { GET: ALL },
+  "routes/api.shots.$shotId.exclusion.ts": { POST: REVIEWERS, DELETE: REVIEWERS },
+  "routes/api.photos.ts": { GET: ALL, POST: FIELD },
+  "routes/api.photos.$photoId.ts": { GET: ALL },
 
   // ---- review (qa) ----
 
