@@ -88,6 +88,11 @@ export function coverageChecklist(input: CoverageInput): CoverageResult {
     if (s.reflectancePct < 20) dark[b]++;
     else if (s.reflectancePct > 60) bright[b]++;
   }
+  return coverageFromCounts(sensor, labels, dark, bright, sun);
+}
+
+/** The checklist from per-band counts of dark and bright shots (shared with sensorReport). */
+export function coverageFromCounts(sensor: { outdoor: boolean }, labels: string[], dark: ArrayLike<number>, bright: ArrayLike<number>, sun: boolean): CoverageResult {
   const cells: CoverageCell[] = [];
   for (let b = 0; b < labels.length; b++) {
     cells.push({ rangeBand: labels[b], reflectance: "dark", have: dark[b], need: COVERAGE_NEED });

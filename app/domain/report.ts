@@ -6,7 +6,7 @@
 import { DomainError } from "./errors.ts";
 import { chiSquareQuantile, tQuantile } from "./quantiles.ts";
 import { olsFit, quantileType7Sorted } from "./stats.ts";
-import { coverageChecklist, rangeBandIndex, rangeBandLabels } from "./coverage.ts";
+import { BRIGHT_SUN_KLUX, coverageFromCounts, rangeBandIndex, rangeBandLabels } from "./coverage.ts";
 import { checkRule, checkSensor, isWrap, toleranceMm } from "./shot.ts";
 import { airState } from "./air.ts";
 import { unambiguousIntervalM } from "./phase.ts";
@@ -29,18 +29,19 @@ export const NSSDA_FACTOR = 1.96;
 export const OUTLIER_K = 3;
 export const MAD_TO_SIGMA = 1.4826;
 
-/** Running figures of a band (Welford). */
+/** Running figures of a band: sums shifted by the band's first value (keeps the SD accurate). */
 class Acc {
   n = 0;
-  m = 0;
-  m2 = 0;
+  k = 0;
+  s1 = 0;
+  s2 = 0;
   sq = 0;
   within = 0;
   add(e: number, w: boolean): void {
-    this.n++;
-    const d = e - this.m;
-    this.m += d / this.n;
-    this.m2 += d * (e - this.m);
+    if (this.n++ === 0) this.k = e;
+    const d = e - this.k;
+    this.s1 += d;
+    this.s2 += d * d;
     this.sq += e * e;
     if (w) this.within++;
   }
@@ -49,8 +50,8 @@ class Acc {
     return {
       band,
       n,
-      biasMm: n ? this.m : null,
-      sdMm: n > 1 ? Math.sqrt(Math.max(0, this.m2) / (n - 1)) : null,
+      biasMm: n ? this.k + this.s1 / n : null,
+      sdMm: n > 1 ? Math.sqrt(Math.max(0, this.s2 - (this.s1 * this.s1) / n) / (n - 1)) : null,
       rmseMm: n ? Math.sqrt(this.sq / n) : null,
       withinPct: n ? (100 * this.within) / n : null,
     };
@@ -132,12 +133,15 @@ export function sensorReport(input: SensorReportInput): SensorReport {
   const d = new Float64Array(N); // included reference distances
   const limits = new Float64Array(N);
   const withinAll = new Uint8Array(N);
-  const included: ReportShot[] = [];
   const refl = REFLECTANCE.map(() => new Acc());
   const illu = ILLUMINANCE.map(() => new Acc());
   const range = labels.map(() => new Acc());
   const below = new Acc();
   const sessions = new Map<string, Session>();
+  let lastSes: Session | null = null;
+  const covDark = new Int32Array(labels.length);
+  const covBright = new Int32Array(labels.length);
+  let sun = false;
   let n = 0;
   let excluded = 0;
   let sumD = 0;
@@ -159,7 +163,6 @@ export function sensorReport(input: SensorReportInput): SensorReport {
     e[n] = err;
     d[n] = s.referenceM;
     n++;
-    included.push(s);
     sumD += s.referenceM;
     if (w) withinCount++;
     const ae = Math.abs(err);
@@ -167,15 +170,24 @@ export function sensorReport(input: SensorReportInput): SensorReport {
     const rc = s.retro ? 3 : s.reflectancePct < 20 ? 0 : s.reflectancePct <= 60 ? 1 : 2;
     refl[rc].add(err, w);
     const lx = s.illuminanceKlux;
-    if (lx != null) illu[lx < 10 ? 0 : lx < 50 ? 1 : 2].add(err, w);
+    if (lx != null) {
+      illu[lx < 10 ? 0 : lx < 50 ? 1 : 2].add(err, w);
+      if (lx >= BRIGHT_SUN_KLUX) sun = true;
+    }
     const rb = rangeBandIndex(s.referenceM, edges);
-    (rb < 0 ? below : range[rb]).add(err, w);
-    let ses = sessions.get(s.sessionId);
+    if (rb < 0) below.add(err, w);
+    else {
+      range[rb].add(err, w);
+      if (rc === 0) covDark[rb]++;
+      else if (rc === 2) covBright[rb]++;
+    }
+    let ses: Session | undefined = lastSes !== null && lastSes.id === s.sessionId ? lastSes : sessions.get(s.sessionId);
     if (!ses) {
       const t = Date.parse(s.sessionStartedAt);
       ses = { id: s.sessionId, startedAt: s.sessionStartedAt, t, n: 0, sumE: 0, sumD: 0 };
       sessions.set(s.sessionId, ses);
     }
+    lastSes = ses;
     ses.n++;
     ses.sumE += err;
     ses.sumD += s.referenceM;
@@ -244,9 +256,9 @@ export function sensorReport(input: SensorReportInput): SensorReport {
   const rows: ReportShotRow[] = new Array(N);
   for (let i = 0; i < N; i++) {
     const s = shots[i];
-    const flags: ShotFlag[] = [];
-    if (n > 0 && Math.abs(s.errorMm - med) > outlierCut) flags.push("outlier");
-    if (s.wrap || (ruMm != null && isWrap(s.errorMm, limits[i], ruMm))) flags.push("wrap");
+    const outlier = n > 0 && Math.abs(s.errorMm - med) > outlierCut;
+    const wrap = s.wrap || (ruMm != null && isWrap(s.errorMm, limits[i], ruMm));
+    const flags: ShotFlag[] = outlier ? (wrap ? ["outlier", "wrap"] : ["outlier"]) : wrap ? ["wrap"] : [];
     rows[i] = {
       id: s.id,
       takenAt: s.takenAt,
@@ -275,7 +287,7 @@ export function sensorReport(input: SensorReportInput): SensorReport {
   const byRange: BandStats<string>[] = [];
   if (below.n) byRange.push(below.stats(`<${edges[0]}`));
   range.forEach((acc, i) => acc.n && byRange.push(acc.stats(labels[i])));
-  const cov = coverageChecklist({ sensor, rule, shots: included });
+  const cov = coverageFromCounts(sensor, labels, covDark, covBright, sun);
 
   return {
     n,

@@ -52,17 +52,25 @@ export async function run(): Promise<string[]> {
   const shots = buildShots();
   sensorReport({ sensor, rule: DEFAULT_RULE, shots, lastSignedOffBiasMm: 1 }); // warm-up
   const times: number[] = [];
+  const cpu: number[] = [];
   let verdict = "";
+  const hasCpu = typeof process !== "undefined" && typeof process.cpuUsage === "function";
   for (let r = 0; r < RUNS; r++) {
+    const c0 = hasCpu ? process.cpuUsage() : null;
     const t0 = performance.now();
     const rep = sensorReport({ sensor, rule: DEFAULT_RULE, shots, lastSignedOffBiasMm: 1 });
     times.push(performance.now() - t0);
+    if (c0) {
+      const c = process.cpuUsage(c0);
+      cpu.push((c.user + c.system) / 1000);
+    }
     verdict = rep.verdict;
   }
+  cpu.sort((a, b) => a - b);
   times.sort((a, b) => a - b);
   const med = times[Math.floor(times.length / 2)];
   return [
-    `domain: sensor report over ${SHOTS} shots: ${med.toFixed(1)} ms (${Math.round(SHOTS / med)} shots/ms), median of ${RUNS} runs, best ${times[0].toFixed(1)} ms, worst ${times[times.length - 1].toFixed(1)} ms, verdict ${verdict}`,
+    `domain: sensor report over ${SHOTS} shots: ${med.toFixed(1)} ms (${Math.round(SHOTS / med)} shots/ms), median of ${RUNS} runs, best ${times[0].toFixed(1)} ms, worst ${times[times.length - 1].toFixed(1)} ms, verdict ${verdict}${cpu.length ? `, CPU ${cpu[Math.floor(cpu.length / 2)].toFixed(1)} ms` : ""}`,
   ];
 }
 
