@@ -7,7 +7,7 @@ import { setFlash, takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { inviteSchema, ROLE_OPTIONS } from "~/auth/schemas";
 import { formatWhen, Notice, ROLE_TEXT } from "~/auth/ui";
-import { inviteUser, listUsers, UserError } from "~/models/users.server";
+import { inviteUser, listUsers, normalizeEmail, UserError } from "~/models/users.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Users — Admin — Shotbook" }];
 
@@ -23,9 +23,10 @@ export async function action({ request }: Route.ActionArgs) {
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: 400 });
   try {
     const { mailSent } = await inviteUser(actor, submission.value);
+    const email = normalizeEmail(submission.value.email);
     const text = mailSent
-      ? `Invitation sent to ${submission.value.email}.`
-      : `${submission.value.email} was added, but the invitation e-mail could not be sent now; it will be retried. They can sign in at /login anyway.`;
+      ? `Invitation sent to ${email}.`
+      : `${email} was added, but the invitation e-mail could not be sent now; it will be retried. They can sign in at /login anyway.`;
     return redirect("/admin/users", { headers: { "Set-Cookie": await setFlash(request, { kind: mailSent ? "ok" : "warn", text }) } });
   } catch (e) {
     if (e instanceof UserError) {
