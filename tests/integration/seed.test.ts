@@ -7,9 +7,7 @@ import { checkSessions, projects, sensors, shots, sites, targets, users } from "
 import { buildDemoScenario, DEMO_IDS, type DemoScenario } from "~/seed/scenario";
 import { demoIsSeeded, seedDemo, type SeedSummary } from "~/seed/seed.server";
 import type { SQLiteTable } from "drizzle-orm/sqlite-core";
-import { sensorReport, type ReportShot } from "~/domain";
-import { getProjectRule } from "~/models/projects.server";
-import { getSensorSpec } from "~/models/sensors.server";
+import { buildSensorReport, listSensorSummaries } from "~/models/reports.server";
 
 let scenario: DemoScenario;
 let summary: SeedSummary;
@@ -25,31 +23,16 @@ async function rows(table: SQLiteTable) {
   return r!.n;
 }
 
-/** The sensor's report over all its stored (server-computed) shots, under the project's rule. */
+/** The sensor's report as GET /api/sensors/:id/report gives it, asked by the QA lead. */
 async function sensorReportFor(sensorId: string) {
-  const sensor = (await getSensorSpec(sensorId))!;
-  const rule = await getProjectRule(DEMO_IDS.project);
-  const stored = await getDb()
-    .select({
-      id: shots.id,
-      takenAt: shots.takenAt,
-      sessionId: shots.sessionId,
-      sessionStartedAt: checkSessions.startedAt,
-      referenceM: shots.referenceM,
-      rangeM: shots.rangeM,
-      errorMm: shots.errorMm,
-      repeatabilityMm: shots.repeatabilityMm,
-      reflectancePct: shots.reflectancePct,
-      retro: shots.retro,
-      illuminanceKlux: shots.illuminanceKlux,
-      excluded: shots.excluded,
-      wrap: shots.wrap,
-      airDefaulted: shots.airDefaulted,
-    })
-    .from(shots)
-    .innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId))
-    .where(eq(shots.sensorId, sensorId));
-  return sensorReport({ sensor, rule, shots: stored satisfies ReportShot[] });
+  const report = await buildSensorReport(qa(), sensorId);
+  expect(report).not.toBeNull();
+  return report!;
+}
+
+function qa() {
+  const u = summary.users.find((x) => x.role === "qa")!;
+  return { id: u.id, role: u.role };
 }
 
 test("seeding a fresh database gives the demo's counts and every synced record is accepted", async () => {
@@ -68,6 +51,13 @@ test("seeding a fresh database gives the demo's counts and every synced record i
   expect(await demoIsSeeded()).toBe(true);
 });
 
+test("the sensor overview (GET /api/sensors) shows pass, fail and not enough shots", async () => {
+  const out = await listSensorSummaries(qa());
+  expect(out.status).toBe(200);
+  const verdicts = Object.fromEntries((out.body as { sensors: { id: string; verdict: string }[] }).sensors.map((s) => [s.id, s.verdict]));
+  expect(verdicts).toEqual({ [DEMO_IDS.roof]: "pass", [DEMO_IDS.tripod]: "fail", [DEMO_IDS.camera]: "insufficient" });
+});
+
 test("sessions land in the project and the session without humidity is marked as defaulted air", async () => {
   const sessionRows = await getDb().select({ id: checkSessions.id, projectId: checkSessions.projectId, humidityPct: checkSessions.humidityPct }).from(checkSessions);
   expect(sessionRows.every((s) => s.projectId === DEMO_IDS.project)).toBe(true);
@@ -75,6 +65,8 @@ test("sessions land in the project and the session without humidity is marked as
   expect(noHumidity).toHaveLength(1);
   const defaulted = await getDb().selectDistinct({ sessionId: shots.sessionId }).from(shots).where(eq(shots.airDefaulted, true));
   expect(defaulted.map((d) => d.sessionId)).toEqual(noHumidity);
+  const roof = await sensorReportFor(DEMO_IDS.roof);
+  expect(roof.airDefaulted).toEqual(noHumidity);
 });
 
 test("the roof scanner passes its tolerance", async () => {
