@@ -22,6 +22,18 @@ export default [
     route("admin/tokens", "routes/admin.tokens.tsx"),
 
     // ---- registry (admin) ----
+    route("admin/sensors", "routes/admin.sensors.tsx"),
+    route("admin/sensors/new", "routes/admin.sensors.new.tsx"),
+    route("admin/sensors/:sensorId", "routes/admin.sensors.$sensorId.tsx"),
+    route("admin/tapes", "routes/admin.tapes.tsx"),
+    route("admin/tapes/new", "routes/admin.tapes.new.tsx"),
+    route("admin/tapes/:tapeId", "routes/admin.tapes.$tapeId.tsx"),
+    route("admin/sites", "routes/admin.sites.tsx"),
+    route("admin/sites/new", "routes/admin.sites.new.tsx"),
+    route("admin/sites/:siteId", "routes/admin.sites.$siteId.tsx"),
+    route("admin/projects", "routes/admin.projects.tsx"),
+    route("admin/projects/new", "routes/admin.projects.new.tsx"),
+    route("admin/projects/:projectId", "routes/admin.projects.$projectId.tsx"),
 
     // ---- review (qa) ----
 
@@ -33,6 +45,9 @@ export default [
     // auth
     route("me", "routes/api.me.ts"),
     // registry
+    route("sensors", "routes/api.sensors.ts"), // POST here (registry); GET loader by sync and reports
+    route("tapes", "routes/api.tapes.ts"),
+    route("sites", "routes/api.sites.ts"),
     // sync and reports
     route("sync", "routes/api.sync.ts"),
     route("sensors/:sensorId/report", "routes/api.sensors.$sensorId.report.ts"),

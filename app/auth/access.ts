@@ -35,6 +35,23 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/api.me.ts": { GET: ALL },
 
   // ---- registry (admin) ----
+  // Every role may read the sensor and site lists (crews pick from them); changes are admin only.
+  "routes/admin.sensors.tsx": { GET: ALL },
+  "routes/admin.sensors.new.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.sensors.$sensorId.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.tapes.tsx": { GET: ADMIN },
+  "routes/admin.tapes.new.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.tapes.$tapeId.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.sites.tsx": { GET: ALL },
+  "routes/admin.sites.new.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.sites.$siteId.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.projects.tsx": { GET: ADMIN },
+  "routes/admin.projects.new.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.projects.$projectId.tsx": { GET: ADMIN, POST: ADMIN },
+  // api.sensors.ts: POST is the registry's; its GET (any signed-in role) is the sync/report loader.
+  "routes/api.sensors.ts": { GET: ALL, POST: ADMIN },
+  "routes/api.tapes.ts": { POST: ADMIN },
+  "routes/api.sites.ts": { POST: ADMIN },
 
   // ---- sync and reports (API) ----
   // Field roles sync and upload photos; every signed-in role reads; QA and admin exclude shots.

@@ -3,7 +3,7 @@
 import { asc, eq, isNull, sql } from "drizzle-orm";
 import { DEFAULT_RULE, type Rule } from "~/domain";
 import { getDb } from "~/db/client.server";
-import { checkSessions, projectSensors, projectSites, projects, sensors, sites } from "~/db/schema";
+import { projectSensors, projectSites, projects, sensors, sites } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import {
   invalid,
@@ -15,7 +15,8 @@ import {
   type ProjectBody,
   type RegistryResult,
 } from "~/models/registry-schemas";
-import { actorId, changedFields, isConstraintError, nowIso, recomputeSensors, sensorsExist, type RegistryActor } from "~/models/sensors.server";
+import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
+import { recomputeShotsForProject } from "~/models/shots.server";
 import { sitesExist } from "~/models/sites.server";
 
 export type ProjectRow = typeof projects.$inferSelect;
@@ -130,11 +131,8 @@ export async function updateProject(actor: RegistryActor, id: string, body: unkn
     }
     await audit(actorId(actor), "update", "project", id, changes, tx);
   });
-  let recomputed = false;
-  if (RULE_FIELDS.some((f) => f in changes)) {
-    const fromSessions = await getDb().selectDistinct({ sensorId: checkSessions.sensorId }).from(checkSessions).where(eq(checkSessions.projectId, id));
-    recomputed = (await recomputeSensors([...sensorIds, ...before.sensorIds, ...fromSessions.map((r) => r.sensorId)])).done;
-  }
+  // Shots of this project's sessions carry a per-shot limit k·T: a rule change recomputes them.
+  const recomputed = RULE_FIELDS.some((f) => f in changes) ? await recomputeShotsForProject(id) : 0;
   return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
 }
 

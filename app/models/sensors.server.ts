@@ -1,11 +1,12 @@
 // Sensors: the registry's profile of each range sensor (kind, wavelength, modulation, air
 // handling, tolerance ±(a mm + b ppm)). Never deleted: retiring keeps every shot's history.
 // Also home of the small helpers the other registry models share (actor, audit, recompute).
-import { and, asc, eq, inArray, isNull, sql } from "drizzle-orm";
+import { and, asc, desc, eq, inArray, isNull, sql } from "drizzle-orm";
 import type { SensorSpec } from "~/domain";
 import { getDb } from "~/db/client.server";
-import { checkSessions, sensors } from "~/db/schema";
+import { auditLog, checkSessions, sensors, users } from "~/db/schema";
 import { audit } from "~/models/audit.server";
+import { recomputeShotsForSensor } from "~/models/shots.server";
 import {
   invalid,
   issuesToErrors,
@@ -25,24 +26,6 @@ export function actorId(actor: RegistryActor): string | null {
 }
 
 export const nowIso = () => new Date().toISOString();
-
-export type RecomputeOutcome = { sensorIds: string[]; done: boolean };
-
-// TODO(sync): switch to a static `import { recomputeShotsForSensor } from "~/models/shots.server"`
-// once that module has landed. Until then the glob finds nothing and the recompute is skipped
-// (there are no stored shots without that module either).
-const shotsModule = import.meta.glob<{ recomputeShotsForSensor?: (sensorId: string) => Promise<unknown> }>("./shots.server.ts");
-
-/** Recomputes every stored shot of these sensors from its raw inputs (after a spec or rule change). */
-export async function recomputeSensors(sensorIds: Iterable<string>): Promise<RecomputeOutcome> {
-  const ids = [...new Set(sensorIds)];
-  const load = shotsModule["./shots.server.ts"];
-  if (ids.length === 0 || !load) return { sensorIds: ids, done: false };
-  const mod = await load();
-  if (!mod.recomputeShotsForSensor) return { sensorIds: ids, done: false };
-  for (const id of ids) await mod.recomputeShotsForSensor(id);
-  return { sensorIds: ids, done: true };
-}
 
 /** Fields whose values differ between two flat records (for the audit trail). */
 export function changedFields<T extends Record<string, unknown>>(before: T, after: T): Partial<Record<keyof T, { from: unknown; to: unknown }>> {
@@ -158,9 +141,9 @@ export async function updateSensor(actor: RegistryActor, id: string, body: unkno
     await tx.update(sensors).set({ ...after, updatedAt: nowIso() }).where(eq(sensors.id, id));
     await audit(actorId(actor), "update", "sensor", id, changes, tx);
   });
-  const specChanged = SPEC_FIELDS.some((f) => f in changes);
-  const recompute = specChanged ? await recomputeSensors([id]) : null;
-  return { status: 200, body: { id, changed: Object.keys(changes), recomputed: recompute?.done ?? false } };
+  // The stored per-shot figures depend on the spec: recompute them from the raw records.
+  const recomputed = SPEC_FIELDS.some((f) => f in changes) ? await recomputeShotsForSensor(id) : 0;
+  return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
 }
 
 export async function retireSensor(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {
@@ -229,4 +212,35 @@ export async function sensorsExist(ids: string[]): Promise<Set<string>> {
 export async function sensorUsage(id: string): Promise<{ sessions: number }> {
   const [row] = await getDb().select({ n: sql<number>`count(*)` }).from(checkSessions).where(eq(checkSessions.sensorId, id));
   return { sessions: Number(row?.n ?? 0) };
+}
+
+/** The audit rows of one registry record, newest first, with who made each change. */
+export async function registryHistory(entity: "sensor" | "tape" | "site" | "project", id: string, limit = 50) {
+  const rows = await getDb()
+    .select({ at: auditLog.at, action: auditLog.action, detail: auditLog.detail, actorName: users.name, actorEmail: users.email })
+    .from(auditLog)
+    .leftJoin(users, eq(users.id, auditLog.actorUserId))
+    .where(and(eq(auditLog.entity, entity), eq(auditLog.entityId, id)))
+    .orderBy(desc(auditLog.at))
+    .limit(limit);
+  return rows.map((r) => ({
+    at: r.at,
+    action: r.action,
+    by: r.actorName || r.actorEmail || "system",
+    fields: r.action === "update" && r.detail && typeof r.detail === "object" ? summariseChange(r.detail as Record<string, unknown>) : [],
+    reason: r.detail && typeof r.detail === "object" && "reason" in r.detail ? String((r.detail as { reason: unknown }).reason ?? "") : "",
+  }));
+}
+
+function summariseChange(detail: Record<string, unknown>): string[] {
+  // Sites log { site, targets: {added, changed, retired, restored}, stations: {…} }; others log field → {from, to}.
+  if ("targets" in detail && "stations" in detail && "site" in detail) {
+    const out = Object.keys((detail.site as object) ?? {});
+    for (const list of ["targets", "stations"] as const) {
+      const d = detail[list] as Record<string, string[]> | undefined;
+      for (const [what, labels] of Object.entries(d ?? {})) if (labels.length) out.push(`${list} ${what}: ${labels.join(", ")}`);
+    }
+    return out;
+  }
+  return Object.keys(detail);
 }

@@ -15,7 +15,8 @@ import {
   type RegistryResult,
   type SiteBody,
 } from "~/models/registry-schemas";
-import { actorId, changedFields, isConstraintError, nowIso, recomputeSensors, type RegistryActor } from "~/models/sensors.server";
+import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
+import { recomputeShotsForSite } from "~/models/shots.server";
 
 export type SiteRow = typeof sites.$inferSelect;
 export type TargetRow = typeof targets.$inferSelect;
@@ -222,11 +223,7 @@ export async function updateSite(actor: RegistryActor, id: string, body: unknown
   });
 
   const geometryChanged = [log.targets, log.stations].some((d) => d.changed.length + d.retired.length + d.restored.length > 0);
-  let recomputed = false;
-  if (geometryChanged) {
-    const rows = await getDb().selectDistinct({ sensorId: checkSessions.sensorId }).from(checkSessions).where(eq(checkSessions.siteId, id));
-    recomputed = (await recomputeSensors(rows.map((r) => r.sensorId))).done;
-  }
+  const recomputed = geometryChanged ? await recomputeShotsForSite(id) : 0;
   const after = await getSite(id);
   return { status: 200, body: { ...answerOf(after!), changed: Object.keys(headChanges), recomputed } };
 }

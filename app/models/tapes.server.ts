@@ -15,6 +15,7 @@ import {
   type TapeBody,
 } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
+import { recomputeShotsForTape } from "~/models/shots.server";
 
 export type TapeRow = typeof tapes.$inferSelect;
 
@@ -101,7 +102,10 @@ export async function updateTape(actor: RegistryActor, id: string, body: unknown
     await tx.update(tapes).set({ ...after, updatedAt: nowIso() }).where(eq(tapes.id, id));
     await audit(actorId(actor), "update", "tape", id, changes, tx);
   });
-  return { status: 200, body: { id, changed: Object.keys(changes) } };
+  // Tape-measured reference distances use these constants: recompute the shots that name this tape.
+  const spec = ["standardTempC", "standardTensionN", "areaMm2", "modulusGPa", "weightNPerM", "calibrationPpm"].some((f) => f in changes);
+  const recomputed = spec ? await recomputeShotsForTape(id) : 0;
+  return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
 }
 
 export async function retireTape(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {

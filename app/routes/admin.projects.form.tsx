@@ -1,0 +1,110 @@
+// The project form with its acceptance rule (ranging.md §6), shared by /admin/projects/new and
+// /admin/projects/:projectId (not a route itself).
+import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react";
+import { Form, useNavigation } from "react-router";
+import { CheckboxGroup, Field, FormSummary, NumberField, TextArea, countFieldErrors } from "~/components/forms";
+import { DEFAULT_RULE } from "~/domain";
+import { parseRegistryForm, projectSchema, type ProjectInput } from "~/models/registry-schemas";
+
+export type ProjectChoices = {
+  sensors: { id: string; label: string; serial: string; retiredAt: string | null }[];
+  sites: { id: string; name: string; retiredAt: string | null }[];
+};
+
+export function projectDefaults(r?: {
+  name: string;
+  client: string;
+  notes: string;
+  minShots: number;
+  coverageK: number;
+  minWithinPct: number;
+  rangeBandEdgesM: number[];
+  sensorIds: string[];
+  siteIds: string[];
+}): Record<string, unknown> {
+  const rule = r ?? DEFAULT_RULE;
+  return {
+    name: r?.name ?? "",
+    client: r?.client ?? "",
+    notes: r?.notes ?? "",
+    minShots: String(rule.minShots),
+    coverageK: String(rule.coverageK),
+    minWithinPct: String(rule.minWithinPct),
+    rangeBandEdgesM: rule.rangeBandEdgesM.join(", "),
+    sensorIds: r?.sensorIds ?? [],
+    siteIds: r?.siteIds ?? [],
+  };
+}
+
+export function ProjectForm({
+  lastResult,
+  defaultValue,
+  submitLabel,
+  choices,
+}: {
+  lastResult: SubmissionResult<string[]> | null | undefined;
+  defaultValue: Record<string, unknown>;
+  submitLabel: string;
+  choices: ProjectChoices;
+}) {
+  const navigation = useNavigation();
+  const busy = navigation.state !== "idle" && navigation.formMethod === "POST";
+  const [form, fields] = useForm<ProjectInput>({
+    id: "project-form",
+    lastResult,
+    defaultValue: defaultValue as never,
+    shouldValidate: "onBlur",
+    shouldRevalidate: "onInput",
+    onValidate: ({ formData }) => parseRegistryForm(formData, projectSchema),
+  });
+  const retired = (x: { retiredAt: string | null }) => (x.retiredAt ? " (retired)" : "");
+  return (
+    <Form method="post" {...getFormProps(form)} className="space-y-6">
+      <FormSummary errors={form.errors} fieldErrorCount={countFieldErrors(form.allErrors)} />
+      <section className="card grid gap-4 sm:grid-cols-2">
+        <h2 className="text-xl font-bold sm:col-span-2">Project</h2>
+        <Field meta={fields.name} label="Name" hint="e.g. “River valley road corridor”." />
+        <Field meta={fields.client} label="Client" hint="Optional; shown on the client's report." />
+        <TextArea className="sm:col-span-2" meta={fields.notes} label="Notes" hint="The client's specification, contract clauses." />
+      </section>
+
+      <section className="card grid gap-4 sm:grid-cols-2">
+        <h2 className="text-xl font-bold sm:col-span-2">Acceptance rule</h2>
+        <p className="text-muted sm:col-span-2">
+          Defaults: {DEFAULT_RULE.minShots} shots, k = {DEFAULT_RULE.coverageK}, {DEFAULT_RULE.minWithinPct} % within, bands{" "}
+          {DEFAULT_RULE.rangeBandEdgesM.join(", ")} m. Changing the rule recomputes the shots of this project's sensors.
+        </p>
+        <NumberField meta={fields.minShots} label="Minimum number of shots" unit="shots" integer hint="Fewer gives “not enough shots”." />
+        <NumberField meta={fields.coverageK} label="Coverage factor k" unit="× T" hint="Per-shot limit = k × the sensor's tolerance T." />
+        <NumberField meta={fields.minWithinPct} label="Minimum share within the limit" unit="%" />
+        <NumberField
+          meta={fields.rangeBandEdgesM}
+          allErrors
+          label="Range band edges"
+          unit="m"
+          hint="Lower edges, from 0 and rising, separated by commas: 0, 10, 30, 100 makes 0–10, 10–30, 30–100 and 100+ m."
+        />
+      </section>
+
+      <section className="card grid gap-4">
+        <h2 className="text-xl font-bold">Sensors and sites</h2>
+        <CheckboxGroup
+          meta={fields.sensorIds}
+          label="Sensors verified for this project"
+          options={choices.sensors.map((s) => ({ value: s.id, label: `${s.label} — ${s.serial}${retired(s)}` }))}
+          empty="No sensors registered yet."
+        />
+        <CheckboxGroup
+          meta={fields.siteIds}
+          label="Sites used"
+          options={choices.sites.map((s) => ({ value: s.id, label: `${s.name}${retired(s)}` }))}
+          empty="No sites registered yet."
+        />
+      </section>
+
+      <button type="submit" className="btn" disabled={busy}>
+        {busy ? "Saving…" : submitLabel}
+      </button>
+    </Form>
+  );
+}

@@ -1,0 +1,78 @@
+// /admin/tapes/:tapeId: edit a tape's profile, retire it or bring it back (admin).
+import { data, Link, redirect } from "react-router";
+import type { Route } from "./+types/admin.tapes.$tapeId";
+import { ADMIN } from "~/auth/access";
+import { setFlash } from "~/auth/flash.server";
+import { requireRole } from "~/auth/guards.server";
+import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
+import { parseRegistryForm, tapeSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { registryHistory } from "~/models/sensors.server";
+import { getTape, restoreTape, retireTape, updateTape } from "~/models/tapes.server";
+import { invariantResponse } from "~/utils/http";
+import { TapeForm, tapeDefaults } from "./admin.tapes.form";
+
+export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.tape.label ?? "Tape"} — Shotbook` }];
+
+export async function loader({ request, params }: Route.LoaderArgs) {
+  await requireRole(request, ADMIN);
+  const tape = await getTape(params.tapeId);
+  invariantResponse(tape, "There is no tape with this id.", { status: 404 });
+  const history = await registryHistory("tape", tape.id);
+  return { tape, history };
+}
+
+export async function action({ request, params }: Route.ActionArgs) {
+  const user = await requireRole(request, ADMIN);
+  const formData = await request.formData();
+  const intent = formData.get("intent");
+  const back = async (text: string) => redirect("/admin/tapes", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
+
+  if (intent === "retire") {
+    if (formData.get("confirm") !== "yes") return data({ retireError: "Tick “Yes, retire” to confirm.", result: undefined }, { status: 400 });
+    const r = await retireTape(user, params.tapeId, String(formData.get("reason") ?? "").trim());
+    invariantResponse(r.status !== 404, "There is no tape with this id.", { status: 404 });
+    return back("Tape retired. Shots that used it are kept.");
+  }
+  if (intent === "restore") {
+    const r = await restoreTape(user, params.tapeId);
+    invariantResponse(r.status !== 404, "There is no tape with this id.", { status: 404 });
+    return back("Tape back in use.");
+  }
+
+  const submission = parseRegistryForm(formData, tapeSchema);
+  if (submission.status !== "success") return data({ result: submission.reply(), retireError: null }, { status: submission.status === "error" ? 400 : 200 });
+  const r = await updateTape(user, params.tapeId, submission.value);
+  invariantResponse(r.status !== 404, "There is no tape with this id.", { status: 404 });
+  if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }), retireError: null }, { status: 400 });
+  if (r.status === 409) return data({ result: submission.reply({ formErrors: [r.body.error] }), retireError: null }, { status: 409 });
+  const changed = (r.body.changed as string[] | undefined) ?? [];
+  return back(changed.length ? `Tape “${submission.value.label}” saved (${changed.join(", ")}).` : "No changes to save.");
+}
+
+export default function EditTape({ loaderData, actionData }: Route.ComponentProps) {
+  const { tape, history } = loaderData;
+  return (
+    <div className="space-y-4">
+      <RegistryNav />
+      <p>
+        <Link to="/admin/tapes" className="underline underline-offset-4">
+          ← All tapes
+        </Link>
+      </p>
+      <h1 className="text-3xl font-bold">
+        {tape.label} {tape.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
+      </h1>
+      <p className="text-muted">
+        Id <code className="num">{tape.id}</code>. Changing its constants recomputes every shot whose reference distance was taped with it.
+      </p>
+      <TapeForm lastResult={actionData?.result} defaultValue={tapeDefaults(tape)} submitLabel="Save changes" />
+      <RetirePanel
+        what="tape"
+        label={tape.label}
+        retiredAt={tape.retiredAt}
+        error={actionData?.retireError}
+      />
+      <RecordHistory rows={history} />
+    </div>
+  );
+}

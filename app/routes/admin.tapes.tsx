@@ -1,0 +1,82 @@
+// /admin/tapes: steel tapes used to set reference distances (admin).
+import { data, Link } from "react-router";
+import type { Route } from "./+types/admin.tapes";
+import { ADMIN } from "~/auth/access";
+import { takeFlash } from "~/auth/flash.server";
+import { requireRole } from "~/auth/guards.server";
+import { FlashNotice, RegistryNav } from "~/components/forms";
+import { listTapes } from "~/models/tapes.server";
+
+export const meta: Route.MetaFunction = () => [{ title: "Tapes — Shotbook" }];
+
+export async function loader({ request }: Route.LoaderArgs) {
+  await requireRole(request, ADMIN);
+  const includeRetired = new URL(request.url).searchParams.get("retired") === "show";
+  const [rows, all] = await Promise.all([listTapes({ includeRetired }), listTapes({ includeRetired: true })]);
+  const { flash, headers } = await takeFlash(request);
+  return data({ tapes: rows, includeRetired, retiredCount: all.filter((t) => t.retiredAt).length, flash }, { headers });
+}
+
+export default function Tapes({ loaderData }: Route.ComponentProps) {
+  const { tapes, includeRetired, retiredCount, flash } = loaderData;
+  return (
+    <div className="space-y-4">
+      <RegistryNav />
+      <div className="flex flex-wrap items-center gap-3">
+        <h1 className="text-3xl font-bold">Tapes</h1>
+        <Link to="/admin/tapes/new" className="btn ml-auto">
+          + New tape
+        </Link>
+      </div>
+      <FlashNotice flash={flash} />
+      <p>
+        <Link className="btn-secondary" to={includeRetired ? "/admin/tapes" : "/admin/tapes?retired=show"} aria-pressed={includeRetired}>
+          {includeRetired ? "Hide retired tapes" : `Show retired tapes (${retiredCount})`}
+        </Link>
+      </p>
+      {tapes.length === 0 ? (
+        <div className="card">
+          <p className="text-lg font-bold">No tapes yet.</p>
+          <p>Add a steel tape to let crews set reference distances by tape with temperature, tension and sag corrections.</p>
+        </div>
+      ) : (
+        <div className="overflow-x-auto">
+          <table className="w-full border-collapse text-left" data-testid="tape-table">
+            <thead>
+              <tr className="border-b-2 border-line">
+                <th className="p-2">Label</th>
+                <th className="p-2 text-right">Standard</th>
+                <th className="p-2 text-right">Cross-section</th>
+                <th className="p-2 text-right">Modulus</th>
+                <th className="p-2 text-right">Weight</th>
+                <th className="p-2 text-right">Certificate</th>
+              </tr>
+            </thead>
+            <tbody>
+              {tapes.map((t) => (
+                <tr key={t.id} className="border-b border-line">
+                  <td className="p-2 font-bold">
+                    <Link className="inline-flex min-h-11 items-center underline underline-offset-4" to={`/admin/tapes/${encodeURIComponent(t.id)}`}>
+                      {t.label}
+                    </Link>
+                    {t.retiredAt ? <span className="ml-2 rounded border-2 border-line px-1.5 text-sm uppercase">Retired</span> : null}
+                  </td>
+                  <td className="p-2 num text-right">
+                    {t.standardTempC} °C, {t.standardTensionN} N
+                  </td>
+                  <td className="p-2 num text-right">{t.areaMm2} mm²</td>
+                  <td className="p-2 num text-right">{t.modulusGPa} GPa</td>
+                  <td className="p-2 num text-right">{t.weightNPerM} N/m</td>
+                  <td className="p-2 num text-right">
+                    {t.calibrationPpm > 0 ? "+" : ""}
+                    {t.calibrationPpm} ppm
+                  </td>
+                </tr>
+              ))}
+            </tbody>
+          </table>
+        </div>
+      )}
+    </div>
+  );
+}

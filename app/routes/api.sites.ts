@@ -1,0 +1,19 @@
+// POST /api/sites (admin): create a site from a script or pipeline; body and answers in api.md
+// and app/docs/api/registry.md. Authentication (401) and the role check (403) come first.
+import type { Route } from "./+types/api.sites";
+import { requireApiUser } from "~/auth/guards.server";
+import { ADMIN } from "~/auth/access";
+import { createSite } from "~/models/sites.server";
+
+export async function action({ request }: Route.ActionArgs) {
+  const user = await requireApiUser(request, ADMIN);
+  if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
+  let body: unknown;
+  try {
+    body = await request.json();
+  } catch {
+    return Response.json({ error: "The body is not JSON.", errors: [{ path: "", message: "Send a JSON object" }] }, { status: 400 });
+  }
+  const result = await createSite(user, body);
+  return Response.json(result.body, { status: result.status });
+}
