@@ -8,6 +8,7 @@ import {
   useRouteLoaderData,
 } from "react-router";
 import type { Route } from "./+types/root";
+import { UpdatePrompt } from "./components/field/update-prompt";
 import "./app.css";
 import { themeFromRequest } from "./theme.server";
 
@@ -35,6 +36,7 @@ export function Layout({ children }: { children: React.ReactNode }) {
       </head>
       <body>
         {children}
+        <UpdatePrompt />
         <ScrollRestoration />
         <Scripts />
       </body>

@@ -38,6 +38,13 @@ export default [
     // ---- review (qa) ----
 
     // ---- field (crew) ----
+    route("field", "routes/field.tsx", [
+      index("routes/field._index.tsx"),
+      route("session/:sessionId", "routes/field.session.tsx"),
+      route("session/:sessionId/coverage", "routes/field.coverage.tsx"),
+      route("session/:sessionId/shot/:shotId", "routes/field.shot.tsx"),
+      route("outbox", "routes/field.outbox.tsx"),
+    ]),
   ]),
 
   // ---- API resource routes ----
@@ -58,6 +65,7 @@ export default [
     route("photos", "routes/api.photos.ts"),
     route("photos/:photoId", "routes/api.photos.$photoId.ts"),
     // field
+    route("field/reference", "routes/api.field.reference.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

@@ -68,4 +68,12 @@ export const ACCESS: Record<string, MethodAccess> = {
   // ---- review (qa) ----
 
   // ---- field (crew) ----
+  // The layout's loader guards every /field page; the child screens read IndexedDB only.
+  "routes/field.tsx": { GET: FIELD },
+  "routes/field._index.tsx": { GET: FIELD },
+  "routes/field.session.tsx": { GET: FIELD },
+  "routes/field.coverage.tsx": { GET: FIELD },
+  "routes/field.shot.tsx": { GET: FIELD },
+  "routes/field.outbox.tsx": { GET: FIELD },
+  "routes/api.field.reference.ts": { GET: FIELD },
 };

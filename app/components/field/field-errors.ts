@@ -1,0 +1,74 @@
+// Where a message belongs on the log-shot form: the paths of the tablet's own checks, of the
+// ranging core and of the server's answers ("readings.rangesM.0") all map to one field.
+const RULES: [RegExp, (m: RegExpMatchArray) => string][] = [
+  [/^targetId$/, () => "target"],
+  [/^reference\.distanceM/, () => "distance"],
+  [/^reference\.method/, () => "method"],
+  [/^reference\.tape\.tapeId/, () => "tape"],
+  [/^reference\.tape\.tempC/, () => "tapeTemp"],
+  [/^reference\.tape\.tensionN/, () => "tension"],
+  [/^reference\.tape\.support/, () => "support"],
+  [/^reference\.tape\.spans/, () => "spans"],
+  [/^reference\.tape/, () => "tape"],
+  [/^reference\.stationId/, () => "station"],
+  [/^reference\.instrumentHeightM/, () => "ih"],
+  [/^reference\.targetHeightM/, () => "th"],
+  [/^reference\.(station|target)/, () => "station"],
+  [/^readings\.rangesM(?:\.(\d+))?/, (m) => `range-${m[1] ?? 0}`],
+  [/^readings\.roundTripNs(?:\.(\d+))?/, (m) => `rtt-${m[1] ?? 0}`],
+  [/^readings\.phase(?:\.(\d+))?/, (m) => `phase-${m[1] ?? 0}`],
+  [/^reflectancePct/, () => "reflectance"],
+  [/^illuminanceKlux/, () => "illuminance"],
+  [/^incidenceDeg/, () => "incidence"],
+  [/^position/, () => "gps"],
+  [/^note/, () => "note"],
+  [/^(file|photo)/, () => "photo"],
+];
+
+export function fieldKeyOf(path: string): string {
+  for (const [re, key] of RULES) {
+    const m = path.match(re);
+    if (m) return key(m);
+  }
+  return "form";
+}
+
+const LABELS: Record<string, string> = {
+  target: "Target",
+  distance: "Reference distance (m)",
+  method: "How the distance was measured",
+  tape: "Tape",
+  tapeTemp: "Tape temperature (°C)",
+  tension: "Pull (N)",
+  support: "Tape support",
+  spans: "Spans",
+  station: "Station",
+  ih: "Instrument height (m)",
+  th: "Target height (m)",
+  reflectance: "Reflectance (%)",
+  illuminance: "Illuminance (klux)",
+  incidence: "Incidence angle (°)",
+  gps: "GPS fix",
+  note: "Note",
+  photo: "Photo",
+  form: "Shot",
+};
+
+export function fieldLabelOf(path: string): string {
+  const key = fieldKeyOf(path);
+  const m = key.match(/^(range|rtt|phase)-(\d+)$/);
+  if (m) {
+    const n = Number(m[2]) + 1;
+    return m[1] === "range" ? `Sensor range ${n} (m)` : m[1] === "rtt" ? `Round-trip time ${n} (ns)` : `Correlation samples ${n}`;
+  }
+  return LABELS[key] ?? path;
+}
+
+export function errorsByField(errors: { path: string; message: string }[]): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (const e of errors) {
+    const k = fieldKeyOf(e.path);
+    out[k] = out[k] ? `${out[k]} ${e.message}` : e.message;
+  }
+  return out;
+}

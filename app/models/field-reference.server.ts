@@ -1,0 +1,116 @@
+// The reference data a tablet copies before going into the field: active sensors, sites with
+// their stations and targets, tapes, projects with their acceptance rules, and who is asking.
+import { isNull } from "drizzle-orm";
+import { getDb } from "~/db/client.server";
+import { projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets } from "~/db/schema";
+import type { SessionUser } from "~/auth/guards.server";
+import type { FieldReference } from "~/offline/types";
+
+const point = (r: { gridE: number | null; gridN: number | null; gridH: number | null; lat: number | null; lon: number | null; h: number | null }) => ({
+  grid: r.gridE != null && r.gridN != null ? { e: r.gridE, n: r.gridN, h: r.gridH ?? 0 } : null,
+  geo: r.lat != null && r.lon != null ? { lat: r.lat, lon: r.lon, h: r.h ?? 0 } : null,
+});
+
+export async function fieldReference(user: SessionUser): Promise<FieldReference> {
+  const db = getDb();
+  const [sensorRows, siteRows, stationRows, targetRows, tapeRows, projectRows, ps, pSites] = await Promise.all([
+    db
+      .select({
+        id: sensors.id,
+        label: sensors.label,
+        serial: sensors.serial,
+        kind: sensors.kind,
+        wavelengthNm: sensors.wavelengthNm,
+        modulationHz: sensors.modulationHz,
+        appliesAirCorrection: sensors.appliesAirCorrection,
+        assumedRefractivity: sensors.assumedRefractivity,
+        toleranceMm: sensors.toleranceMm,
+        tolerancePpm: sensors.tolerancePpm,
+        outdoor: sensors.outdoor,
+        calibrationDue: sensors.calibrationDue,
+      })
+      .from(sensors)
+      .where(isNull(sensors.retiredAt)),
+    db.select({ id: sites.id, name: sites.name, lat: sites.lat, lon: sites.lon }).from(sites).where(isNull(sites.retiredAt)),
+    db
+      .select({
+        id: stations.id,
+        siteId: stations.siteId,
+        label: stations.label,
+        gridE: stations.gridE,
+        gridN: stations.gridN,
+        gridH: stations.gridH,
+        lat: stations.lat,
+        lon: stations.lon,
+        h: stations.h,
+      })
+      .from(stations)
+      .where(isNull(stations.retiredAt)),
+    db
+      .select({
+        id: targets.id,
+        siteId: targets.siteId,
+        label: targets.label,
+        reflectancePct: targets.reflectancePct,
+        retro: targets.retro,
+        referenceM: targets.referenceM,
+        gridE: targets.gridE,
+        gridN: targets.gridN,
+        gridH: targets.gridH,
+        lat: targets.lat,
+        lon: targets.lon,
+        h: targets.h,
+      })
+      .from(targets)
+      .where(isNull(targets.retiredAt)),
+    db
+      .select({
+        id: tapes.id,
+        label: tapes.label,
+        standardTempC: tapes.standardTempC,
+        standardTensionN: tapes.standardTensionN,
+        areaMm2: tapes.areaMm2,
+        modulusGPa: tapes.modulusGPa,
+        weightNPerM: tapes.weightNPerM,
+        calibrationPpm: tapes.calibrationPpm,
+      })
+      .from(tapes)
+      .where(isNull(tapes.retiredAt)),
+    db
+      .select({
+        id: projects.id,
+        name: projects.name,
+        client: projects.client,
+        minShots: projects.minShots,
+        coverageK: projects.coverageK,
+        minWithinPct: projects.minWithinPct,
+        rangeBandEdgesM: projects.rangeBandEdgesM,
+      })
+      .from(projects)
+      .where(isNull(projects.retiredAt)),
+    db.select({ projectId: projectSensors.projectId, sensorId: projectSensors.sensorId }).from(projectSensors),
+    db.select({ projectId: projectSites.projectId, siteId: projectSites.siteId }).from(projectSites),
+  ]);
+
+  return {
+    user: { id: user.id, email: user.email, name: user.name, role: user.role },
+    sensors: sensorRows.map((s) => ({ ...s, modulationHz: s.modulationHz ?? [] })),
+    sites: siteRows.map((s) => ({
+      ...s,
+      stations: stationRows.filter((r) => r.siteId === s.id).map((r) => ({ id: r.id, label: r.label, ...point(r) })),
+      targets: targetRows
+        .filter((r) => r.siteId === s.id)
+        .map((r) => ({ id: r.id, label: r.label, reflectancePct: r.reflectancePct, retro: r.retro, referenceM: r.referenceM, ...point(r) })),
+    })),
+    tapes: tapeRows,
+    projects: projectRows.map((p) => ({
+      id: p.id,
+      name: p.name,
+      client: p.client,
+      rule: { minShots: p.minShots, coverageK: p.coverageK, minWithinPct: p.minWithinPct, rangeBandEdgesM: p.rangeBandEdgesM },
+      sensorIds: ps.filter((x) => x.projectId === p.id).map((x) => x.sensorId),
+      siteIds: pSites.filter((x) => x.projectId === p.id).map((x) => x.siteId),
+    })),
+    copiedAt: new Date().toISOString(),
+  };
+}

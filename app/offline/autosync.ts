@@ -1,0 +1,47 @@
+// When the page sends: at start, whenever the browser comes back online, after a save (a short
+// pause first, so a burst of shots goes in one batch), on "Sync now", and again later after a
+// failed run. Where the browser has Background Sync, the worker is asked to send as well, so
+// the outbox also drains after the tab is closed.
+import { syncOutbox, type SyncOutcome } from "./sync";
+
+const TAG = "shotbook-outbox";
+let timer: ReturnType<typeof setTimeout> | undefined;
+let retryTimer: ReturnType<typeof setTimeout> | undefined;
+let started = false;
+
+export async function syncNow(): Promise<SyncOutcome> {
+  clearTimeout(timer);
+  const out = await syncOutbox();
+  clearTimeout(retryTimer);
+  if (!out.ok && (out.reason === "offline" || out.reason === "server")) {
+    retryTimer = setTimeout(() => void syncNow(), 60_000);
+  }
+  return out;
+}
+
+/** After a save: sync soon if online, and leave a Background Sync request for the worker. */
+export function syncSoon(delayMs = 1500) {
+  void registerBackgroundSync();
+  if (typeof navigator !== "undefined" && !navigator.onLine) return;
+  clearTimeout(timer);
+  timer = setTimeout(() => void syncNow(), delayMs);
+}
+
+export async function registerBackgroundSync() {
+  try {
+    if (!("serviceWorker" in navigator)) return;
+    const reg = await navigator.serviceWorker.getRegistration();
+    const sync = (reg as (ServiceWorkerRegistration & { sync?: { register(tag: string): Promise<void> } }) | undefined)?.sync;
+    await sync?.register(TAG);
+  } catch {
+    // Background Sync missing or refused: the page's own triggers remain.
+  }
+}
+
+/** Called once by the field layout. */
+export function startAutoSync() {
+  if (started || typeof window === "undefined") return;
+  started = true;
+  window.addEventListener("online", () => void syncNow());
+  if (navigator.onLine) void syncNow();
+}

@@ -1,0 +1,155 @@
+// The outbox: every session, shot and photo is written to IndexedDB before the screen says
+// "saved", and stays there (surviving reloads, tab kills and days offline) until the server
+// has answered for it. Validation runs first, with the paths the server would use.
+import { fieldDb, queueStamp } from "./db";
+import { previewShot, type PreviewContext } from "./preview";
+import type { FieldError, LocalPhoto, LocalSession, LocalShot, SyncSessionRecord, SyncShotRecord } from "./types";
+import { checkSessionRecord, checkShotRecord } from "./validate";
+
+export class OutboxError extends Error {
+  errors: FieldError[];
+  constructor(errors: FieldError[]) {
+    super(errors.map((e) => `${e.path}: ${e.message}`).join("; "));
+    this.name = "OutboxError";
+    this.errors = errors;
+  }
+}
+
+/** Drops undefined keys so the stored record is exactly what will be sent (and compared for duplicates). */
+function clean<T extends object>(o: T): T {
+  return JSON.parse(JSON.stringify(o)) as T;
+}
+
+export async function startSession(
+  record: Omit<SyncSessionRecord, "id" | "startedAt"> & Partial<Pick<SyncSessionRecord, "id" | "startedAt">>,
+  local: { sky?: string; illuminanceKlux?: number } = {},
+): Promise<LocalSession> {
+  const full = clean({ ...record, id: record.id ?? crypto.randomUUID(), startedAt: record.startedAt ?? localIso() });
+  const errors = checkSessionRecord(full);
+  if (errors.length) throw new OutboxError(errors);
+  const row: LocalSession = { id: full.id, record: full, state: "queued", errors: [], queuedAt: queueStamp(), ...clean(local) };
+  await fieldDb().sessions.put(row);
+  return row;
+}
+
+async function previewContextFor(sessionId: string): Promise<{ session: LocalSession | undefined; ctx: PreviewContext }> {
+  const db = fieldDb();
+  const session = await db.sessions.get(sessionId);
+  const [sensor, site, tapes, project] = await Promise.all([
+    session ? db.sensors.get(session.record.sensorId) : undefined,
+    session ? db.sites.get(session.record.siteId) : undefined,
+    db.tapes.toArray(),
+    session?.record.projectId ? db.projects.get(session.record.projectId) : undefined,
+  ]);
+  return { session, ctx: { sensor, site, tapes, project } };
+}
+
+export type ShotDraft = Omit<SyncShotRecord, "id" | "takenAt"> & Partial<Pick<SyncShotRecord, "id" | "takenAt">>;
+export type PhotoDraft = { blob: Blob; name?: string };
+
+/**
+ * Queues one shot (and its photo) in a single transaction. Returns once IndexedDB has
+ * committed; only then may the screen say "saved". `context` skips the reference lookups
+ * when the caller already holds them (the log-shot screen does).
+ */
+export async function saveShot(draft: ShotDraft, photo?: PhotoDraft | null, context?: PreviewContext): Promise<LocalShot> {
+  const db = fieldDb();
+  const record = clean({ ...draft, id: draft.id ?? crypto.randomUUID(), takenAt: draft.takenAt ?? localIso() });
+  const errors = checkShotRecord(record);
+  if (errors.length) throw new OutboxError(errors);
+  let session: LocalSession | undefined;
+  let ctx = context;
+  if (ctx) session = await db.sessions.get(record.sessionId);
+  else ({ session, ctx } = await previewContextFor(record.sessionId));
+  if (!session) throw new OutboxError([{ path: "sessionId", message: "Start a session first: this shot has none on this tablet" }]);
+  const existing = await db.shots.get(record.id);
+  if (existing && existing.state === "synced") {
+    throw new OutboxError([{ path: "", message: "This shot has reached the server already; synced shots are never changed." }]);
+  }
+  const result = previewShot(session.record, record, ctx);
+  if (!result.ok && result.path) throw new OutboxError([{ path: result.path, message: result.message }]);
+  const row: LocalShot = {
+    id: record.id,
+    sessionId: record.sessionId,
+    record,
+    state: "queued",
+    errors: [],
+    queuedAt: existing?.queuedAt ?? queueStamp(),
+    preview: result.ok ? result.preview : null,
+    ...(result.ok ? {} : { previewError: result.message }),
+  };
+  const photoRow: LocalPhoto | null = photo
+    ? {
+        id: crypto.randomUUID(),
+        shotId: record.id,
+        blob: photo.blob,
+        name: photo.name ?? "photo.jpg",
+        type: photo.blob.type || "application/octet-stream",
+        bytes: photo.blob.size,
+        state: "queued",
+        errors: [],
+        queuedAt: queueStamp(),
+      }
+    : null;
+  await db.transaction("rw", db.shots, db.photos, async () => {
+    await db.shots.put(row);
+    if (photoRow) await db.photos.put(photoRow);
+  });
+  return row;
+}
+
+/** Puts a rejected session back in the queue (e.g. after an admin added its sensor). */
+export async function resendSession(id: string) {
+  await fieldDb().sessions.where("id").equals(id).modify((s) => {
+    if (s.state === "rejected") {
+      s.state = "queued";
+      s.errors = [];
+    }
+  });
+}
+
+export async function resendPhoto(id: string) {
+  await fieldDb().photos.where("id").equals(id).modify((p) => {
+    if (p.state === "rejected") {
+      p.state = "queued";
+      p.errors = [];
+    }
+  });
+}
+
+/** A rejected or queued shot may be thrown away by the crew; synced ones stay on the server. */
+export async function discardShot(id: string) {
+  const db = fieldDb();
+  await db.transaction("rw", db.shots, db.photos, async () => {
+    const s = await db.shots.get(id);
+    if (!s || s.state === "synced") return;
+    await db.shots.delete(id);
+    await db.photos.where("shotId").equals(id).delete();
+  });
+}
+
+export type OutboxCounts = { sessions: number; shots: number; photos: number; rejected: number; total: number };
+
+export async function outboxCounts(): Promise<OutboxCounts> {
+  const db = fieldDb();
+  const [sq, sr, hq, hr, pq, pr] = await Promise.all([
+    db.sessions.where("state").equals("queued").count(),
+    db.sessions.where("state").equals("rejected").count(),
+    db.shots.where("state").equals("queued").count(),
+    db.shots.where("state").equals("rejected").count(),
+    db.photos.where("state").equals("queued").count(),
+    db.photos.where("state").equals("rejected").count(),
+  ]);
+  return { sessions: sq + sr, shots: hq + hr, photos: pq + pr, rejected: sr + hr + pr, total: sq + sr + hq + hr + pq + pr };
+}
+
+/** ISO 8601 with the tablet's own offset, as api.md asks ("2026-05-04T08:10:00+02:00"). */
+export function localIso(d = new Date()): string {
+  const pad = (n: number, w = 2) => String(Math.trunc(Math.abs(n))).padStart(w, "0");
+  const off = -d.getTimezoneOffset();
+  const sign = off >= 0 ? "+" : "-";
+  return (
+    `${d.getFullYear()}-${pad(d.getMonth() + 1)}-${pad(d.getDate())}T${pad(d.getHours())}:${pad(d.getMinutes())}:${pad(d.getSeconds())}.${pad(d.getMilliseconds(), 3)}` +
+    `${sign}${pad(off / 60)}:${pad(off % 60)}`
+  );
+}

@@ -1,0 +1,136 @@
+// Shapes of the tablet's queue and of its copy of the reference data. The records inside
+// `record` are exactly the bodies POST /api/sync expects (/work/shared/api.md); the rest is
+// the tablet's own bookkeeping (state, the server's answer, the instant preview).
+import type { Rule, SensorSpec, TapeSpec } from "~/domain";
+
+export type SyncSessionRecord = {
+  id: string;
+  sensorId: string;
+  siteId: string;
+  projectId?: string;
+  startedAt: string;
+  airTempC?: number;
+  pressureHpa?: number;
+  humidityPct?: number;
+  note?: string;
+};
+
+export type SyncReference = {
+  distanceM?: number;
+  method: "tape" | "edm" | "coordinates";
+  tape?: { tapeId: string; tempC: number; tensionN: number; support: "ground" | "ends"; spans: number };
+  stationId?: string;
+  instrumentHeightM?: number;
+  targetHeightM?: number;
+};
+
+export type SyncReadings =
+  | { rangesM: number[] }
+  | { roundTripNs: number[] }
+  | { phase: { frequencyHz: number; samples: number[] }[] };
+
+export type SyncShotRecord = {
+  id: string;
+  sessionId: string;
+  takenAt: string;
+  targetId?: string;
+  reference: SyncReference;
+  readings: SyncReadings;
+  reflectancePct: number;
+  illuminanceKlux: number;
+  incidenceDeg?: number;
+  position?: { lat: number; lon: number; accuracyM?: number };
+  note?: string;
+};
+
+export type FieldError = { path: string; message: string };
+
+/** queued: waits to be sent; synced: the server accepted it (or already had it); rejected: the server said why. */
+export type RecordState = "queued" | "synced" | "rejected";
+
+export type ShotPreview = {
+  referenceM: number;
+  rangeM: number;
+  errorMm: number;
+  limitMm: number;
+  within: boolean;
+  wrap: boolean;
+  airDefaulted: string[];
+};
+
+export type LocalSession = {
+  id: string;
+  record: SyncSessionRecord;
+  state: RecordState;
+  errors: FieldError[];
+  queuedAt: number;
+  syncedAt?: string;
+  result?: "accepted" | "duplicate";
+  /** Local only: the sky the crew picked and the illuminance it stands for (klux), the default of each shot. */
+  sky?: string;
+  illuminanceKlux?: number;
+};
+
+export type LocalShot = {
+  id: string;
+  sessionId: string;
+  record: SyncShotRecord;
+  state: RecordState;
+  errors: FieldError[];
+  queuedAt: number;
+  syncedAt?: string;
+  result?: "accepted" | "duplicate";
+  preview: ShotPreview | null;
+  /** The domain's message when the instant preview could not be computed. */
+  previewError?: string;
+};
+
+export type LocalPhoto = {
+  id: string;
+  shotId: string;
+  blob: Blob;
+  name: string;
+  type: string;
+  bytes: number;
+  state: RecordState;
+  errors: FieldError[];
+  queuedAt: number;
+  syncedAt?: string;
+};
+
+// ---------- reference data copied from GET /api/field/reference ----------
+export type RefSensor = SensorSpec & { label: string; serial: string; calibrationDue: string | null };
+export type RefPoint = {
+  id: string;
+  label: string;
+  grid: { e: number; n: number; h: number } | null;
+  geo: { lat: number; lon: number; h: number } | null;
+};
+export type RefTarget = RefPoint & { reflectancePct: number; retro: boolean; referenceM: number | null };
+export type RefSite = { id: string; name: string; lat: number | null; lon: number | null; stations: RefPoint[]; targets: RefTarget[] };
+export type RefTape = TapeSpec & { id: string; label: string };
+export type RefProject = { id: string; name: string; client: string; rule: Rule; sensorIds: string[]; siteIds: string[] };
+export type RefUser = { id: string; email: string; name: string; role: "admin" | "qa" | "crew" | "viewer" };
+
+export type FieldReference = {
+  user: RefUser;
+  sensors: RefSensor[];
+  sites: RefSite[];
+  tapes: RefTape[];
+  projects: RefProject[];
+  copiedAt: string;
+};
+
+export type SyncStatus = {
+  running: boolean;
+  phase: "idle" | "records" | "photos";
+  done: number;
+  total: number;
+  /** A 401 paused sending: the crew must sign in again; nothing is lost. */
+  needsSignIn: boolean;
+  lastError: string | null;
+  lastSyncAt: string | null;
+  nextRetryAt: string | null;
+  /** ms since epoch of the last change: a "running" status older than a minute is a killed tab's. */
+  updatedAt: number;
+};

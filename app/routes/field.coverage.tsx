@@ -1,0 +1,114 @@
+// The coverage checklist: which range band × reflectance cells and which light the session
+// still lacks, before the crew leaves the site. Guidance only; never part of the verdict.
+import { Link } from "react-router";
+import type { Route } from "./+types/field.coverage";
+import { FieldLoading } from "~/components/field/chrome";
+import { contextOf, loadSession } from "~/components/field/session-data";
+import { SessionHeader, SessionMissing } from "~/components/field/session-header";
+import { VerdictShape } from "~/components/verdict-badge";
+import { coverageChecklist, illuminanceBand, rangeBandLabels, rangeBandIndex, type CoverageShot } from "~/domain";
+import { useLiveQuery } from "~/offline/live";
+import { ruleOf } from "~/offline/preview";
+
+export const meta: Route.MetaFunction = () => [{ title: "Coverage checklist — Shotbook field" }];
+
+export async function clientLoader({ params }: Route.ClientLoaderArgs) {
+  return loadSession(params.sessionId);
+}
+clientLoader.hydrate = true as const;
+
+export function HydrateFallback() {
+  return <FieldLoading />;
+}
+
+const LIGHT = { low: "Low (< 10 klux)", moderate: "Moderate (10–50 klux)", high: "High (≥ 50 klux)" } as const;
+
+export default function FieldCoverage({ loaderData, params }: Route.ComponentProps) {
+  const data = useLiveQuery(() => loadSession(params.sessionId), [params.sessionId], loaderData);
+  if (!data.session) return <SessionMissing />;
+  const ctx = contextOf(data.session, data.reference);
+  const rule = ruleOf(ctx.project);
+  const shots: CoverageShot[] = data.shots.flatMap((s) => {
+    const referenceM = s.preview?.referenceM ?? s.record.reference.distanceM;
+    if (referenceM == null) return [];
+    const t = ctx.site?.targets.find((x) => x.id === s.record.targetId);
+    return [{ referenceM, reflectancePct: s.record.reflectancePct, retro: t?.retro ?? false, illuminanceKlux: s.record.illuminanceKlux }];
+  });
+  const sensor = ctx.sensor;
+  const labels = rangeBandLabels(rule.rangeBandEdgesM);
+  const result = sensor ? coverageChecklist({ sensor, rule, shots }) : null;
+  const light = labels.map(() => ({ low: 0, moderate: 0, high: 0 }));
+  for (const s of shots) {
+    const b = rangeBandIndex(s.referenceM, rule.rangeBandEdgesM);
+    if (b >= 0 && s.illuminanceKlux != null) light[b]![illuminanceBand(s.illuminanceKlux)]++;
+  }
+  const cell = (band: string, refl: "dark" | "bright") => result?.cells.find((c) => c.rangeBand === band && c.reflectance === refl);
+
+  return (
+    <div className="space-y-6">
+      <div className="flex flex-wrap items-end justify-between gap-4">
+        <SessionHeader data={data} />
+        <Link to={`/field/session/${data.session.id}`} className="btn">
+          Log shot
+        </Link>
+      </div>
+      <h2 className="text-2xl font-bold">Coverage checklist</h2>
+      {!result ? (
+        <p className="field-error">The sensor of this session is not in the tablet's reference data; connect once to copy it.</p>
+      ) : (
+        <>
+          <p className={`flex items-center gap-2 text-xl font-bold ${result.complete ? "text-pass" : "text-warn"}`} data-testid="coverage-summary">
+            <VerdictShape verdict={result.complete ? "pass" : "insufficient"} size={22} />
+            {result.complete
+              ? "Coverage complete: every range band has dark and bright shots, and the light is covered."
+              : `Still missing: ${result.missing.length} ${result.missing.length === 1 ? "cell" : "cells"}${result.needsBrightSun ? " and a shot in bright sun" : ""}.`}
+          </p>
+          <div className="overflow-x-auto">
+            <table className="w-full border-collapse text-left text-lg" data-testid="coverage-table">
+              <caption className="text-left text-muted">
+                Each cell needs {result.cells[0]?.need ?? 3} shots. Dark: reflectance under 20 %; bright: over 60 % (retro-reflectors do not count).
+              </caption>
+              <thead>
+                <tr className="border-b-2 border-line">
+                  <th scope="col" className="p-2">Range band (m)</th>
+                  <th scope="col" className="p-2">Dark targets</th>
+                  <th scope="col" className="p-2">Bright targets</th>
+                  <th scope="col" className="p-2">Light of the shots</th>
+                </tr>
+              </thead>
+              <tbody>
+                {labels.map((band, i) => (
+                  <tr key={band} className="border-b border-line">
+                    <th scope="row" className="num p-2">{band.replace("-", "–")} m</th>
+                    {(["dark", "bright"] as const).map((refl) => {
+                      const c = cell(band, refl)!;
+                      const ok = c.have >= c.need;
+                      return (
+                        <td key={refl} className="p-2" data-testid={`cell-${band}-${refl}`}>
+                          <span className={`inline-flex items-center gap-2 font-bold ${ok ? "text-pass" : "text-warn"}`}>
+                            <VerdictShape verdict={ok ? "pass" : "insufficient"} />
+                            <span className="num">{c.have} of {c.need}</span>
+                            <span>{ok ? "done" : `need ${c.need - c.have} more`}</span>
+                          </span>
+                        </td>
+                      );
+                    })}
+                    <td className="num p-2 text-base">
+                      {(["low", "moderate", "high"] as const).map((k) => `${LIGHT[k].split(" ")[0]} ${light[i]![k]}`).join(" · ")}
+                    </td>
+                  </tr>
+                ))}
+              </tbody>
+            </table>
+          </div>
+          {sensor?.outdoor ? (
+            <p className={`flex items-center gap-2 text-lg font-bold ${result.needsBrightSun ? "text-warn" : "text-pass"}`}>
+              <VerdictShape verdict={result.needsBrightSun ? "insufficient" : "pass"} />
+              {result.needsBrightSun ? "Outdoor sensor: no shot in bright sun (≥ 50 klux) yet." : "Bright sun (≥ 50 klux) covered."}
+            </p>
+          ) : null}
+        </>
+      )}
+    </div>
+  );
+}

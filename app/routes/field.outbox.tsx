@@ -1,0 +1,243 @@
+// The outbox: everything not yet on the server, its state, "Sync now" with a progress bar, and
+// refused records with the server's messages and a way to fix and resend.
+import { useEffect, useState } from "react";
+import { Link } from "react-router";
+import type { Route } from "./+types/field.outbox";
+import { FieldLoading, formatWhen, useOnline, useSyncStatus } from "~/components/field/chrome";
+import { signedMm } from "~/components/field/feedback";
+import { fieldLabelOf } from "~/components/field/field-errors";
+import { StateWord } from "~/components/field/shot-list";
+import { syncNow } from "~/offline/autosync";
+import { fieldDb } from "~/offline/db";
+import { useLiveQuery } from "~/offline/live";
+import { discardShot, resendPhoto, resendSession } from "~/offline/outbox";
+import { readReference } from "~/offline/reference";
+import { formatBytes, requestPersistence, storageInfo, type StorageInfo } from "~/offline/storage";
+import type { FieldError } from "~/offline/types";
+
+export const meta: Route.MetaFunction = () => [{ title: "Outbox — Shotbook field" }];
+
+const SHOWN = 100;
+
+async function outboxData() {
+  const db = fieldDb();
+  const [sessions, shots, photos, reference] = await Promise.all([
+    db.sessions.where("state").anyOf("queued", "rejected").sortBy("queuedAt"),
+    db.shots.where("state").anyOf("queued", "rejected").sortBy("queuedAt"),
+    db.photos.where("state").anyOf("queued", "rejected").sortBy("queuedAt"),
+    readReference(),
+  ]);
+  return {
+    sessions,
+    shots,
+    photos: photos.map(({ blob: _blob, ...p }) => p),
+    sensorLabel: Object.fromEntries(reference.sensors.map((s) => [s.id, s.label])),
+    siteName: Object.fromEntries(reference.sites.map((s) => [s.id, s.name])),
+  };
+}
+
+export async function clientLoader() {
+  return outboxData();
+}
+clientLoader.hydrate = true as const;
+
+export function HydrateFallback() {
+  return <FieldLoading />;
+}
+
+function Errors({ errors, label = fieldLabelOf }: { errors: FieldError[]; label?: (p: string) => string }) {
+  return (
+    <ul className="list-disc pl-6" data-testid="record-errors">
+      {errors.map((e, i) => (
+        <li key={i}>
+          <strong>{label(e.path)}</strong>: {e.message}
+        </li>
+      ))}
+    </ul>
+  );
+}
+
+const SESSION_LABELS: Record<string, string> = {
+  sensorId: "Sensor",
+  siteId: "Site",
+  projectId: "Project",
+  startedAt: "Start time",
+  airTempC: "Air temperature (°C)",
+  pressureHpa: "Pressure (hPa)",
+  humidityPct: "Humidity (%)",
+  note: "Note",
+};
+
+export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
+  const data = useLiveQuery(() => outboxData(), [], loaderData);
+  const status = useSyncStatus();
+  const online = useOnline();
+  const [storage, setStorage] = useState<StorageInfo | null>(null);
+  const [asked, setAsked] = useState(false);
+  useEffect(() => {
+    void storageInfo().then(setStorage);
+  }, [data.shots.length, data.photos.length]);
+
+  const rejectedShots = data.shots.filter((s) => s.state === "rejected");
+  const queuedShots = data.shots.filter((s) => s.state === "queued");
+  const rejectedSessions = data.sessions.filter((s) => s.state === "rejected");
+  const queuedSessions = data.sessions.filter((s) => s.state === "queued");
+  const rejectedPhotos = data.photos.filter((p) => p.state === "rejected");
+  const queuedPhotos = data.photos.filter((p) => p.state === "queued");
+  const nothing = data.sessions.length + data.shots.length + data.photos.length === 0;
+  const running = Boolean(status?.running);
+
+  return (
+    <div className="space-y-6">
+      <h1 className="text-3xl font-bold">Outbox</h1>
+      <section className="card space-y-3" aria-labelledby="sync-title">
+        <h2 id="sync-title" className="sr-only">Sync</h2>
+        <p className="text-xl font-bold" data-testid="outbox-summary">
+          {nothing
+            ? "Nothing waiting: everything saved on this tablet is on the server."
+            : `Waiting: ${data.sessions.length} ${data.sessions.length === 1 ? "session" : "sessions"}, ${data.shots.length.toLocaleString("en-GB")} ${data.shots.length === 1 ? "shot" : "shots"}, ${data.photos.length} ${data.photos.length === 1 ? "photo" : "photos"}.`}
+        </p>
+        <div className="flex flex-wrap items-center gap-4">
+          <button type="button" className="btn min-h-14 px-8 text-xl" disabled={running} onClick={() => void syncNow()}>
+            {running ? "Sending…" : "Sync now"}
+          </button>
+          {!online ? <span className="font-bold text-warn">Offline: the outbox sends by itself when the network returns.</span> : null}
+          {status?.needsSignIn ? (
+            <a className="btn" href="/login?redirectTo=%2Ffield%2Foutbox" data-testid="sign-in-to-send">
+              Sign in to send
+            </a>
+          ) : null}
+        </div>
+        {running || (status && status.total > 0 && status.phase !== "idle") ? (
+          <div>
+            <label htmlFor="sync-progress" className="field-label">
+              {status?.phase === "photos" ? "Sending photos" : "Sending records"}:{" "}
+              <span className="num">
+                {status?.done.toLocaleString("en-GB")} of {status?.total.toLocaleString("en-GB")}
+              </span>
+            </label>
+            <progress id="sync-progress" className="h-6 w-full" max={Math.max(1, status?.total ?? 1)} value={status?.done ?? 0} data-testid="sync-progress" />
+          </div>
+        ) : null}
+        {status?.needsSignIn ? <p className="font-bold">Your sign-in has ended. Nothing is lost: sign in, and sending continues.</p> : null}
+        {status?.lastError && !status.needsSignIn ? (
+          <p className="font-bold text-warn" role="status">
+            {status.lastError}
+            {status.nextRetryAt ? ` Next try about ${formatWhen(status.nextRetryAt)}.` : ""}
+          </p>
+        ) : null}
+        <p className="text-muted">Last complete sync: {formatWhen(status?.lastSyncAt)}</p>
+      </section>
+
+      {rejectedSessions.length + rejectedShots.length + rejectedPhotos.length > 0 ? (
+        <section className="space-y-3" aria-labelledby="refused-title">
+          <h2 id="refused-title" className="text-2xl font-bold text-fail">✕ Refused by the server: fix and resend</h2>
+          <ul className="space-y-3">
+            {rejectedSessions.map((s) => (
+              <li key={s.id} className="card space-y-2 border-fail" data-testid="rejected-session">
+                <p className="font-bold">
+                  Session: {data.sensorLabel[s.record.sensorId] ?? s.record.sensorId} at {data.siteName[s.record.siteId] ?? s.record.siteId}, {formatWhen(s.record.startedAt)}
+                </p>
+                <Errors errors={s.errors} label={(p) => SESSION_LABELS[p] ?? (p || "Session")} />
+                <p className="text-sm">Its shots wait until the session is accepted.</p>
+                <button type="button" className="btn-secondary" onClick={() => void resendSession(s.id).then(() => syncNow())}>
+                  Resend the session
+                </button>
+              </li>
+            ))}
+            {rejectedShots.map((s) => (
+              <li key={s.id} className="card space-y-2 border-fail" data-testid="rejected-shot">
+                <p className="font-bold">
+                  Shot of {formatWhen(s.record.takenAt)}
+                  {s.preview ? `, reference ${s.preview.referenceM.toFixed(3)} m, error ${signedMm(s.preview.errorMm)}` : ""}
+                </p>
+                <Errors errors={s.errors} />
+                <p className="flex flex-wrap gap-3">
+                  <Link className="btn" to={`/field/session/${s.sessionId}/shot/${s.id}`}>
+                    Fix and resend
+                  </Link>
+                  <button type="button" className="btn-secondary" onClick={() => window.confirm("Throw this shot away?") && void discardShot(s.id)}>
+                    Discard
+                  </button>
+                </p>
+              </li>
+            ))}
+            {rejectedPhotos.map((p) => (
+              <li key={p.id} className="card space-y-2 border-fail" data-testid="rejected-photo">
+                <p className="font-bold">Photo {p.name} ({formatBytes(p.bytes)})</p>
+                <Errors errors={p.errors} label={() => "Photo"} />
+                <button type="button" className="btn-secondary" onClick={() => void resendPhoto(p.id).then(() => syncNow())}>
+                  Resend the photo
+                </button>
+              </li>
+            ))}
+          </ul>
+        </section>
+      ) : null}
+
+      {queuedSessions.length + queuedShots.length + queuedPhotos.length > 0 ? (
+        <section className="space-y-3" aria-labelledby="waiting-title">
+          <h2 id="waiting-title" className="text-2xl font-bold">◷ Waiting to be sent</h2>
+          {queuedSessions.length ? (
+            <ul className="space-y-1">
+              {queuedSessions.map((s) => (
+                <li key={s.id} className="flex flex-wrap gap-x-3" data-testid="queued-session">
+                  <StateWord state={s.state} /> Session: {data.sensorLabel[s.record.sensorId] ?? s.record.sensorId} at {data.siteName[s.record.siteId] ?? s.record.siteId},{" "}
+                  {formatWhen(s.record.startedAt)}
+                </li>
+              ))}
+            </ul>
+          ) : null}
+          {queuedShots.length ? (
+            <ul className="num space-y-1">
+              {queuedShots.slice(0, SHOWN).map((s) => (
+                <li key={s.id} className="flex flex-wrap gap-x-3" data-testid="queued-shot">
+                  <StateWord state={s.state} /> Shot {formatWhen(s.record.takenAt)}
+                  {s.preview ? ` · ${s.preview.referenceM.toFixed(3)} m · ${signedMm(s.preview.errorMm)}` : ""}
+                </li>
+              ))}
+              {queuedShots.length > SHOWN ? <li className="text-muted">and {(queuedShots.length - SHOWN).toLocaleString("en-GB")} more shots</li> : null}
+            </ul>
+          ) : null}
+          {queuedPhotos.length ? (
+            <ul className="space-y-1">
+              {queuedPhotos.map((p) => (
+                <li key={p.id} className="flex flex-wrap gap-x-3" data-testid="queued-photo">
+                  <StateWord state={p.state} /> Photo {p.name} · {formatBytes(p.bytes)} · goes after its shot
+                </li>
+              ))}
+            </ul>
+          ) : null}
+        </section>
+      ) : null}
+
+      <section className="card space-y-2" aria-labelledby="storage-title">
+        <h2 id="storage-title" className="text-xl font-bold">Storage on this tablet</h2>
+        <p className="num" data-testid="storage-use">
+          Used: {formatBytes(storage?.usageBytes ?? null)} of {formatBytes(storage?.quotaBytes ?? null)} available to Shotbook.
+        </p>
+        <p>
+          {storage?.persisted
+            ? "Kept: the browser will not clear this storage to make room."
+            : storage?.persisted === false
+              ? "Not yet protected: the browser may clear it when the tablet runs short of space."
+              : "The browser does not say whether this storage is protected."}
+        </p>
+        {storage?.persisted === false ? (
+          <button
+            type="button"
+            className="btn-secondary"
+            onClick={async () => {
+              await requestPersistence();
+              setAsked(true);
+              setStorage(await storageInfo());
+            }}
+          >
+            Ask the browser to keep it
+          </button>
+        ) : null}
+        {asked && storage?.persisted === false ? <p className="text-sm">The browser said no for now; installing Shotbook on the home screen usually helps.</p> : null}
+      </section>
+    </div>
+  );
+}

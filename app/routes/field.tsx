@@ -1,0 +1,68 @@
+// The field area's layout. Its server loader only guards (crew, qa, admin) when the tablet is
+// online; offline, the service worker answers with the kept page and the screens below read
+// IndexedDB in their clientLoaders.
+import { useEffect } from "react";
+import { isRouteErrorResponse, Outlet } from "react-router";
+import type { Route } from "./+types/field";
+import { FIELD } from "~/auth/access";
+import { requireRole } from "~/auth/guards.server";
+import { FieldChrome } from "~/components/field/chrome";
+import { startAutoSync, syncNow } from "~/offline/autosync";
+import { fieldDb } from "~/offline/db";
+import { outboxCounts, saveShot, startSession } from "~/offline/outbox";
+import { readReference, refreshReference } from "~/offline/reference";
+import { requestPersistence } from "~/offline/storage";
+import { clearSignInPause, syncOutbox, syncStatus } from "~/offline/sync";
+
+export const meta: Route.MetaFunction = () => [{ title: "Field — Shotbook" }];
+
+export async function loader({ request }: Route.LoaderArgs) {
+  const user = await requireRole(request, FIELD);
+  return { user: { id: user.id, email: user.email, name: user.name, role: user.role } };
+}
+
+declare global {
+  interface Window {
+    /** The outbox from the browser console or a test script: the same functions the screens use. */
+    shotbookField?: Record<string, unknown>;
+  }
+}
+
+export default function FieldLayout() {
+  useEffect(() => {
+    window.shotbookField = { startSession, saveShot, syncNow, syncOutbox, syncStatus, outboxCounts, readReference, refreshReference, db: fieldDb() };
+    void (async () => {
+      // The server knows the user (this page rendered), so a stale "sign in to send" is over.
+      if (navigator.onLine) {
+        await clearSignInPause();
+        await refreshReference();
+      }
+      startAutoSync();
+      void requestPersistence();
+      if ("serviceWorker" in navigator) {
+        const reg = await navigator.serviceWorker.getRegistration();
+        reg?.active?.postMessage({ type: "WARM_FIELD_PAGES" });
+      }
+    })();
+  }, []);
+  return (
+    <FieldChrome>
+      <Outlet />
+    </FieldChrome>
+  );
+}
+
+export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
+  const message = isRouteErrorResponse(error) ? (typeof error.data === "string" ? error.data : error.statusText) : error instanceof Error ? error.message : String(error);
+  return (
+    <div className="card space-y-3" role="alert">
+      <h1 className="text-2xl font-bold">This field screen could not open</h1>
+      <p>{message}</p>
+      <p>Everything already saved stays queued on this tablet.</p>
+      <p className="flex flex-wrap gap-3">
+        <a className="btn" href="/field">Back to the sessions</a>
+        <a className="btn-secondary" href="/field/outbox">Open the outbox</a>
+      </p>
+    </div>
+  );
+}
