@@ -36,6 +36,12 @@ export default [
     route("admin/projects/:projectId", "routes/admin.projects.$projectId.tsx"),
 
     // ---- review (qa) ----
+    route("review", "routes/review.tsx"),
+    route("review/import", "routes/review.import.tsx"),
+    route("review/import/chunk", "routes/review.import.chunk.tsx"),
+    route("review/sensors/:sensorId", "routes/review.sensors.$sensorId.tsx"),
+    route("review/sensors/:sensorId/map", "routes/review.sensors.$sensorId.map.tsx"),
+    route("review/sensors/:sensorId/print", "routes/review.sensors.$sensorId.print.tsx"),
 
     // ---- field (crew) ----
     route("field", "routes/field.tsx", [

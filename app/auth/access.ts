@@ -66,6 +66,13 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/api.photos.$photoId.ts": { GET: ALL },
 
   // ---- review (qa) ----
+  // Every role reads reports (viewer read-only); only QA and admin sign off. Import: field roles.
+  "routes/review.tsx": { GET: ALL },
+  "routes/review.import.tsx": { GET: FIELD },
+  "routes/review.import.chunk.tsx": { POST: FIELD },
+  "routes/review.sensors.$sensorId.tsx": { GET: ALL, POST: REVIEWERS },
+  "routes/review.sensors.$sensorId.map.tsx": { GET: ALL },
+  "routes/review.sensors.$sensorId.print.tsx": { GET: ALL },
 
   // ---- field (crew) ----
   // The layout's loader guards every /field page; the child screens read IndexedDB only.

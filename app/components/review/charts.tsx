@@ -1,0 +1,184 @@
+// Report charts drawn with Observable Plot in the browser (loaded on demand, so the server
+// render and other pages never carry it). Each chart has a legend and its units.
+import { useEffect, useRef, useState } from "react";
+import type { MatrixCell } from "./matrix";
+import { ILLUMINANCE_ORDER, REFLECTANCE_ORDER } from "./matrix";
+import type { DriftRow, ReportJson, ReportShotRow } from "./types";
+import { bandWord } from "./format";
+
+type PlotModule = typeof import("@observablehq/plot");
+type Palette = { fg: string; muted: string; pass: string; fail: string; warn: string; accent: string; bg: string; line: string };
+
+function palette(): Palette {
+  const s = getComputedStyle(document.documentElement);
+  const v = (n: string) => s.getPropertyValue(n).trim();
+  return { fg: v("--fg"), muted: v("--muted"), pass: v("--pass"), fail: v("--fail"), warn: v("--warn"), accent: v("--accent"), bg: v("--bg"), line: v("--border") };
+}
+
+/** Renders `build(Plot, width, palette)` into a div, again whenever deps or the width change. */
+function PlotBox({ build, deps, label, height }: { build: (P: PlotModule, width: number, c: Palette) => Element; deps: unknown[]; label: string; height: number }) {
+  const ref = useRef<HTMLDivElement>(null);
+  const [width, setWidth] = useState(0);
+  useEffect(() => {
+    const el = ref.current;
+    if (!el) return;
+    const ro = new ResizeObserver(([e]) => setWidth(Math.floor(e!.contentRect.width)));
+    ro.observe(el);
+    return () => ro.disconnect();
+  }, []);
+  useEffect(() => {
+    const el = ref.current;
+    if (!el || width < 50) return;
+    let gone = false;
+    import("@observablehq/plot").then((P) => {
+      if (gone) return;
+      const node = build(P, width, palette());
+      el.replaceChildren(node);
+    });
+    return () => {
+      gone = true;
+    };
+    // eslint-disable-next-line react-hooks/exhaustive-deps
+  }, [width, ...deps]);
+  return <div ref={ref} role="img" aria-label={label} style={{ minHeight: height }} className="w-full overflow-hidden" />;
+}
+
+export function LegendSwatch({ shape, color, hollow }: { shape: "circle" | "triangle" | "square" | "diamond"; color: string; hollow?: boolean }) {
+  const fill = hollow ? "none" : color;
+  return (
+    <svg width="16" height="16" viewBox="0 0 16 16" aria-hidden="true" className="inline-block align-middle">
+      {shape === "circle" ? <circle cx="8" cy="8" r="6" fill={fill} stroke={color} strokeWidth="2" /> : null}
+      {shape === "triangle" ? <path d="M8 1.5L15 14.5H1z" fill={fill} stroke={color} strokeWidth="2" /> : null}
+      {shape === "square" ? <rect x="2" y="2" width="12" height="12" fill={fill} stroke={color} strokeWidth="2" /> : null}
+      {shape === "diamond" ? <path d="M8 1l7 7-7 7-7-7z" fill={fill} stroke={color} strokeWidth="2" /> : null}
+    </svg>
+  );
+}
+
+const baseStyle = (c: Palette) => ({ background: "transparent", color: c.fg, fontSize: "15px", fontFamily: "inherit", overflow: "visible" });
+
+export function ErrorVsDistanceChart({ report }: { report: ReportJson }) {
+  const rows = report.shots;
+  return (
+    <figure>
+      <PlotBox
+        label="Range error against reference distance, with the plus and minus limit envelope and the fitted zero offset and scale line"
+        height={360}
+        deps={[report]}
+        build={(P, width, c) => {
+          const env = [...rows].sort((a, b) => a.referenceM - b.referenceM).map((r) => ({ d: r.referenceM, lim: r.limitMm }));
+          const maxD = env.length ? env[env.length - 1]!.d : 1;
+          const fit =
+            report.zeroOffsetMm != null && report.scalePpm != null
+              ? [0, maxD].map((d) => ({ d, e: report.zeroOffsetMm! + (report.scalePpm! * d) / 1000 }))
+              : [];
+          const inc = rows.filter((r) => !r.excluded);
+          return P.plot({
+            width,
+            height: 360,
+            marginLeft: 56,
+            style: baseStyle(c),
+            x: { label: "Reference distance (m) →", grid: true, nice: true, zero: true },
+            y: { label: "↑ Range error (mm, + reads long)", grid: true, nice: true },
+            marks: [
+              P.areaY(env, { x: "d", y1: (r: { lim: number }) => -r.lim, y2: "lim", fill: c.accent, fillOpacity: 0.12 }),
+              P.line(env, { x: "d", y: "lim", stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }),
+              P.line(env, { x: "d", y: (r: { lim: number }) => -r.lim, stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }),
+              P.ruleY([0], { stroke: c.muted }),
+              fit.length ? P.line(fit, { x: "d", y: "e", stroke: c.warn, strokeWidth: 3 }) : null,
+              P.dot(rows.filter((r) => r.excluded), { x: "referenceM", y: "errorMm", symbol: "square", stroke: c.muted, fill: "none", r: 5, strokeWidth: 2 }),
+              P.dot(inc.filter((r) => r.within), { x: "referenceM", y: "errorMm", symbol: "circle", fill: c.pass, r: 4.5 }),
+              P.dot(inc.filter((r) => !r.within), { x: "referenceM", y: "errorMm", symbol: "triangle", fill: c.fail, r: 6 }),
+              P.tip(rows, P.pointer({ x: "referenceM", y: "errorMm", title: (r: ReportShotRow) => `${r.referenceM.toFixed(3)} m\nerror ${r.errorMm.toFixed(2)} mm\nlimit ±${r.limitMm.toFixed(2)} mm` })),
+            ],
+          });
+        }}
+      />
+      <figcaption className="mt-2 flex flex-wrap gap-x-5 gap-y-1 text-base">
+        <span><LegendSwatch shape="circle" color="var(--pass)" /> within limit</span>
+        <span><LegendSwatch shape="triangle" color="var(--fail)" /> outside limit</span>
+        <span><LegendSwatch shape="square" color="var(--muted)" hollow /> excluded</span>
+        <span><span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± limit (k × tolerance, mm)</span>
+        <span><span className="inline-block h-0 w-6 border-t-4 border-warn align-middle" /> fit: zero offset + scale × D</span>
+      </figcaption>
+    </figure>
+  );
+}
+
+export function MatrixChart({ cells, worst }: { cells: MatrixCell[]; worst: MatrixCell | null }) {
+  const present = REFLECTANCE_ORDER.filter((r) => cells.some((c) => c.reflectance === r));
+  const maxAbs = Math.max(1, ...cells.map((c) => Math.abs(c.biasMm)));
+  return (
+    <figure>
+      <PlotBox
+        label="Bias by target reflectance and illuminance, one cell per combination with its shot count"
+        height={80 + present.length * 70}
+        deps={[cells, worst]}
+        build={(P, width, c) =>
+          P.plot({
+            width: Math.min(width, 720),
+            height: 80 + present.length * 70,
+            marginLeft: 150,
+            marginBottom: 48,
+            style: baseStyle(c),
+            x: { domain: [...ILLUMINANCE_ORDER], label: "Illuminance at the target", tickFormat: (b: string) => bandWord(b).replace(/ \(.*/, "") + (b === "low" ? " <10 klux" : b === "moderate" ? " 10–50 klux" : " ≥50 klux") },
+            y: { domain: present, label: null, tickFormat: (b: string) => bandWord(b) },
+            color: { type: "diverging", scheme: "RdBu", reverse: true, domain: [-maxAbs, maxAbs], pivot: 0, legend: true, label: "Bias (mm)" },
+            marks: [
+              P.cell(cells, { x: "illuminance", y: "reflectance", fill: "biasMm", inset: 2 }),
+              worst ? P.cell([worst], { x: "illuminance", y: "reflectance", stroke: c.fg, strokeWidth: 4, fill: "none", inset: 1 }) : null,
+              P.text(cells, {
+                x: "illuminance",
+                y: "reflectance",
+                text: (d: MatrixCell) => `${d.biasMm >= 0 ? "+" : "−"}${Math.abs(d.biasMm).toFixed(1)} mm\nn ${d.n}${d.outside ? ` · ${d.outside} out` : ""}`,
+                fill: "#000",
+                stroke: "#fff",
+                strokeWidth: 3,
+                fontSize: 15,
+                fontWeight: "bold",
+              }),
+            ],
+          })
+        }
+      />
+      <figcaption className="mt-1 text-base text-muted">Each cell: bias of its included shots (mm) and their count; the framed cell is the largest bias with 3 or more shots.</figcaption>
+    </figure>
+  );
+}
+
+export function DriftChart({ drift, biasLimitMm }: { drift: DriftRow[]; biasLimitMm: number | null }) {
+  const data = drift.filter((d) => d.biasMm != null).map((d) => ({ ...d, t: new Date(d.startedAt) }));
+  return (
+    <figure>
+      <PlotBox
+        label="Bias per session over time, sessions flagged for drift drawn as triangles"
+        height={260}
+        deps={[drift, biasLimitMm]}
+        build={(P, width, c) =>
+          P.plot({
+            width,
+            height: 260,
+            marginLeft: 56,
+            style: baseStyle(c),
+            x: { type: "utc", label: "Session start →", nice: true },
+            y: { label: "↑ Session bias (mm)", grid: true, nice: true },
+            marks: [
+              biasLimitMm != null ? P.ruleY([biasLimitMm, -biasLimitMm], { stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }) : null,
+              P.ruleY([0], { stroke: c.muted }),
+              P.line(data, { x: "t", y: "biasMm", stroke: c.fg, strokeWidth: 2 }),
+              P.dot(data.filter((d) => !d.flag), { x: "t", y: "biasMm", fill: c.fg, r: 5, symbol: "circle" }),
+              P.dot(data.filter((d) => d.flag), { x: "t", y: "biasMm", fill: c.warn, r: 8, symbol: "triangle", stroke: c.fg }),
+              P.text(data.filter((d) => d.flag), { x: "t", y: "biasMm", text: () => "drift", dy: -16, fill: c.fg, fontWeight: "bold" }),
+              P.text(data, { x: "t", y: "biasMm", text: (d: DriftRow) => `n ${d.n}`, dy: 16, fill: c.muted }),
+            ],
+          })
+        }
+      />
+      <figcaption className="mt-2 flex flex-wrap gap-x-5 gap-y-1 text-base">
+        <span><LegendSwatch shape="circle" color="var(--fg)" /> session bias</span>
+        <span><LegendSwatch shape="triangle" color="var(--warn)" /> drift: moved more than the tolerance from the last sign-off</span>
+        <span><span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± bias limit (mm)</span>
+      </figcaption>
+    </figure>
+  );
+}

@@ -1,0 +1,382 @@
+// QA review: the sensors overview, sign-offs (the report frozen into sign_offs.snapshot, mail
+// to the crew who logged the shots and to the admins) and the failed-verdict notice to QA.
+import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
+import { getDb } from "~/db/client.server";
+import { auditLog, checkSessions, exclusions, photos, projects, projectSensors, sensors, shots, signOffs, sites, stations, targets, users, type Role } from "~/db/schema";
+import { buffer, convex, featureCollection, point } from "@turf/turf";
+import type { Feature, Point } from "geojson";
+import { audit } from "~/models/audit.server";
+import { sendTemplateMail } from "~/mail/mailer.server";
+import { listUserEmailsByRole } from "~/models/users.server";
+import { buildSensorReport } from "~/models/reports.server";
+import type { ReportJson } from "~/components/review/types";
+import type { SignOffInput } from "~/components/review/signoff-schema";
+
+export type ReviewActor = { id: string; role: Role; name?: string; email?: string };
+export type ReviewQuery = { from?: string | null; to?: string | null; sessionIds?: string[]; projectId?: string | null };
+
+/** Who acts when the server itself asks (the notice after a sync). */
+const SYSTEM: ReviewActor = { id: "system", role: "admin", name: "Shotbook" };
+
+export class ReviewError extends Error {
+  constructor(
+    message: string,
+    readonly status = 400,
+    readonly field?: string,
+  ) {
+    super(message);
+  }
+}
+
+export async function listProjectsForFilter() {
+  return getDb()
+    .select({ id: projects.id, name: projects.name, client: projects.client })
+    .from(projects)
+    .where(isNull(projects.retiredAt))
+    .orderBy(asc(projects.name));
+}
+
+/** The report of the contract (api.md) for a selection; null when the sensor is unknown. */
+export async function reportFor(actor: ReviewActor, sensorId: string, q: ReviewQuery): Promise<ReportJson | null> {
+  return buildSensorReport(actor, sensorId, {
+    ...(q.from ? { from: q.from } : {}),
+    ...(q.to ? { to: q.to } : {}),
+    ...(q.sessionIds?.length ? { sessionIds: q.sessionIds } : {}),
+    ...(q.projectId ? { projectId: q.projectId } : {}),
+  });
+}
+
+export type SensorOverviewRow = {
+  id: string;
+  label: string;
+  serial: string;
+  kind: "pulsed" | "cw";
+  toleranceMm: number;
+  tolerancePpm: number;
+  calibrationDue: string | null;
+  verdict: ReportJson["verdict"];
+  failed: string[];
+  n: number;
+  excluded: number;
+  biasMm: number | null;
+  rmseMm: number | null;
+  lastShotAt: string | null;
+  trace: { startedAt: string; biasMm: number | null; flag: boolean }[];
+  lastSignOff: { decision: "approved" | "rejected"; createdAt: string; byName: string } | null;
+};
+
+export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promise<SensorOverviewRow[]> {
+  const db = getDb();
+  let list = await db
+    .select({
+      id: sensors.id,
+      label: sensors.label,
+      serial: sensors.serial,
+      kind: sensors.kind,
+      toleranceMm: sensors.toleranceMm,
+      tolerancePpm: sensors.tolerancePpm,
+      calibrationDue: sensors.calibrationDue,
+    })
+    .from(sensors)
+    .where(isNull(sensors.retiredAt))
+    .orderBy(asc(sensors.label));
+  if (q.projectId) {
+    const linked = await db.select({ id: projectSensors.sensorId }).from(projectSensors).where(eq(projectSensors.projectId, q.projectId));
+    const used = await db.selectDistinct({ id: checkSessions.sensorId }).from(checkSessions).where(eq(checkSessions.projectId, q.projectId));
+    const keep = new Set([...linked, ...used].map((r) => r.id));
+    list = list.filter((s) => keep.has(s.id));
+  }
+  const out: SensorOverviewRow[] = [];
+  for (const s of list) {
+    const r = await reportFor(actor, s.id, q);
+    const last = await lastSignOff(s.id, q.projectId ?? null);
+    const times = r?.shots.map((x) => x.takenAt).sort() ?? [];
+    out.push({
+      ...s,
+      verdict: r?.verdict ?? "insufficient",
+      failed: r ? r.tests.filter((t) => !t.pass).map((t) => t.name) : ["count"],
+      n: r?.n ?? 0,
+      excluded: r?.excluded ?? 0,
+      biasMm: r?.biasMm ?? null,
+      rmseMm: r?.rmseMm ?? null,
+      lastShotAt: times.length ? times[times.length - 1]! : null,
+      trace: (r?.drift ?? []).map((d) => ({ startedAt: d.startedAt, biasMm: d.biasMm, flag: d.flag })),
+      lastSignOff: last,
+    });
+  }
+  // Failing sensors first: the QA lead's first question.
+  const rank = { fail: 0, insufficient: 1, pass: 2 } as const;
+  return out.sort((a, b) => rank[a.verdict] - rank[b.verdict] || a.label.localeCompare(b.label));
+}
+
+async function lastSignOff(sensorId: string, projectId: string | null) {
+  const [row] = await getDb()
+    .select({ decision: signOffs.decision, createdAt: signOffs.createdAt, byName: users.name, byEmail: users.email })
+    .from(signOffs)
+    .innerJoin(users, eq(users.id, signOffs.byUserId))
+    .where(projectId ? and(eq(signOffs.sensorId, sensorId), eq(signOffs.projectId, projectId)) : eq(signOffs.sensorId, sensorId))
+    .orderBy(desc(signOffs.createdAt))
+    .limit(1);
+  return row ? { decision: row.decision, createdAt: row.createdAt, byName: row.byName || row.byEmail } : null;
+}
+
+export type SignOffRow = {
+  id: string;
+  decision: "approved" | "rejected";
+  verdict: "pass" | "fail" | "insufficient";
+  projectId: string | null;
+  projectName: string | null;
+  periodFrom: string | null;
+  periodTo: string | null;
+  biasMm: number | null;
+  note: string;
+  byName: string;
+  createdAt: string;
+};
+
+export async function listSignOffs(_actor: ReviewActor, sensorId: string, limit = 20): Promise<SignOffRow[]> {
+  const rows = await getDb()
+    .select({
+      id: signOffs.id,
+      decision: signOffs.decision,
+      verdict: signOffs.verdict,
+      projectId: signOffs.projectId,
+      projectName: projects.name,
+      periodFrom: signOffs.periodFrom,
+      periodTo: signOffs.periodTo,
+      biasMm: signOffs.biasMm,
+      note: signOffs.note,
+      byName: users.name,
+      byEmail: users.email,
+      createdAt: signOffs.createdAt,
+    })
+    .from(signOffs)
+    .innerJoin(users, eq(users.id, signOffs.byUserId))
+    .leftJoin(projects, eq(projects.id, signOffs.projectId))
+    .where(eq(signOffs.sensorId, sensorId))
+    .orderBy(desc(signOffs.createdAt))
+    .limit(limit);
+  return rows.map(({ byEmail, ...r }) => ({ ...r, byName: r.byName || byEmail }));
+}
+
+export async function getSignOff(_actor: ReviewActor, id: string) {
+  const [row] = await getDb().select().from(signOffs).where(eq(signOffs.id, id)).limit(1);
+  return row ?? null;
+}
+
+/** Addresses of the active users who synced any shot of these sessions of the sensor. */
+async function crewEmails(sensorId: string, sessionIds: string[]) {
+  if (sessionIds.length === 0) return [];
+  const db = getDb();
+  const out = new Set<string>();
+  for (let i = 0; i < sessionIds.length; i += 400) {
+    const rows = await db
+      .selectDistinct({ email: users.email })
+      .from(shots)
+      .innerJoin(users, eq(users.id, shots.syncedBy))
+      .where(and(eq(shots.sensorId, sensorId), inArray(shots.sessionId, sessionIds.slice(i, i + 400)), eq(users.active, true)));
+    rows.forEach((r) => out.add(r.email));
+  }
+  return [...out].sort();
+}
+
+export type SignOffResult = { id: string; verdict: ReportJson["verdict"]; recipients: string[]; mailOk: boolean };
+
+/**
+ * Approves or rejects a sensor for a project and period. The report as it stands is frozen
+ * into the row; approving a sensor whose verdict is not "pass" needs a note saying why.
+ */
+export async function createSignOff(actor: ReviewActor, sensorId: string, input: Omit<SignOffInput, "intent">): Promise<SignOffResult> {
+  if (actor.role !== "qa" && actor.role !== "admin") throw new ReviewError("Only QA or an admin may sign a sensor off.", 403);
+  const db = getDb();
+  const [sensor] = await db.select({ id: sensors.id, label: sensors.label, serial: sensors.serial }).from(sensors).where(eq(sensors.id, sensorId)).limit(1);
+  if (!sensor) throw new ReviewError("No such sensor.", 404);
+  let projectName: string | null = null;
+  if (input.projectId) {
+    const [p] = await db.select({ name: projects.name }).from(projects).where(eq(projects.id, input.projectId)).limit(1);
+    if (!p) throw new ReviewError("No such project.", 400, "projectId");
+    projectName = p.name;
+  }
+  const report = await reportFor(actor, sensorId, { from: input.from, to: input.to, projectId: input.projectId });
+  if (!report) throw new ReviewError("No such sensor.", 404);
+  if (report.n + report.excluded === 0) throw new ReviewError("There are no shots in this selection to sign off.", 400, "from");
+  const note = input.note ?? "";
+  if (input.decision === "approved" && report.verdict !== "pass" && !note) {
+    throw new ReviewError(`The verdict is "${report.verdict}": approving it anyway needs a note saying why.`, 400, "note");
+  }
+  const sessionIds = [...new Set(report.shots.map((s) => s.sessionId))].sort();
+  const [row] = await db
+    .insert(signOffs)
+    .values({
+      sensorId,
+      projectId: input.projectId || null,
+      decision: input.decision,
+      periodFrom: input.from ?? null,
+      periodTo: input.to ?? null,
+      sessionIds,
+      verdict: report.verdict,
+      biasMm: report.biasMm,
+      snapshot: report,
+      note,
+      byUserId: actor.id,
+    })
+    .returning({ id: signOffs.id });
+  const id = row!.id;
+  await audit(actor.id, `sign-off.${input.decision}`, "sensor", sensorId, {
+    signOffId: id,
+    verdict: report.verdict,
+    projectId: input.projectId ?? null,
+    from: input.from ?? null,
+    to: input.to ?? null,
+    n: report.n,
+    biasMm: report.biasMm,
+  });
+
+  const crew = await crewEmails(sensorId, sessionIds);
+  const admins = await listUserEmailsByRole(["admin"]);
+  const recipients = [...new Set([...crew, ...admins])].filter((e) => e !== actor.email);
+  const period = input.from || input.to ? `period ${input.from ?? "start"} to ${input.to ?? "today"}` : "all shots";
+  const mail = await sendTemplateMail("sensor-signed-off", recipients, {
+    sensorId,
+    sensorLabel: `${sensor.label} (${sensor.serial})`,
+    decision: input.decision,
+    byName: actor.name || actor.email || "QA",
+    note: [
+      `Verdict ${report.verdict}, ${report.n} shots, bias ${report.biasMm == null ? "—" : report.biasMm.toFixed(2)} mm; ${projectName ? `project ${projectName}, ` : ""}${period}.`,
+      note,
+    ]
+      .filter(Boolean)
+      .join(" "),
+    reportUrl: `/review/sensors/${sensorId}`,
+  });
+  return { id, verdict: report.verdict, recipients, mailOk: mail.ok };
+}
+
+const VERDICT_SEEN = "sensor.verdict";
+
+/**
+ * After a sync: for each sensor whose overall verdict has turned to "fail" since the last
+ * time this looked, mail a "sensor-failed" notice to the QA users. The last verdict seen is
+ * kept in the audit trail, so a sensor that stays failed is not announced again.
+ */
+export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notified: string[] }> {
+  const db = getDb();
+  const notified: string[] = [];
+  for (const sensorId of [...new Set(sensorIds)]) {
+    const [sensor] = await db.select({ label: sensors.label, serial: sensors.serial }).from(sensors).where(eq(sensors.id, sensorId)).limit(1);
+    if (!sensor) continue;
+    const report = await reportFor(SYSTEM, sensorId, {});
+    if (!report) continue;
+    const [seen] = await db
+      .select({ detail: auditLog.detail })
+      .from(auditLog)
+      .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, sensorId), eq(auditLog.action, VERDICT_SEEN)))
+      .orderBy(desc(auditLog.at), desc(auditLog.id))
+      .limit(1);
+    const before = (seen?.detail as { verdict?: string } | null)?.verdict ?? null;
+    if (before === report.verdict) continue;
+    await audit(null, VERDICT_SEEN, "sensor", sensorId, { verdict: report.verdict, from: before });
+    if (report.verdict !== "fail") continue;
+    const why = report.tests
+      .filter((t) => !t.pass)
+      .map((t) => `${t.name} ${t.value == null ? "—" : t.value.toFixed(2)} (limit ${t.limit.toFixed(2)})`)
+      .join("; ");
+    await sendTemplateMail("sensor-failed", await listUserEmailsByRole(["qa"]), {
+      sensorId,
+      sensorLabel: `${sensor.label} (${sensor.serial})`,
+      biasMm: report.biasMm,
+      rmseMm: report.rmseMm,
+      withinPct: report.withinPct,
+      summary: `Failed tests: ${why}.`,
+      reportUrl: `/review/sensors/${sensorId}`,
+    });
+    notified.push(sensorId);
+  }
+  return { notified };
+}
+
+/** What the report page shows around the client-fetched report. */
+export async function sensorReviewHeader(_actor: ReviewActor, sensorId: string) {
+  const db = getDb();
+  const [sensor] = await db
+    .select({
+      id: sensors.id,
+      label: sensors.label,
+      serial: sensors.serial,
+      kind: sensors.kind,
+      wavelengthNm: sensors.wavelengthNm,
+      toleranceMm: sensors.toleranceMm,
+      tolerancePpm: sensors.tolerancePpm,
+      calibrationDue: sensors.calibrationDue,
+      outdoor: sensors.outdoor,
+    })
+    .from(sensors)
+    .where(eq(sensors.id, sensorId))
+    .limit(1);
+  if (!sensor) return null;
+  const sessions = await db
+    .select({ id: checkSessions.id, startedAt: checkSessions.startedAt, siteId: checkSessions.siteId, siteName: sites.name, projectId: checkSessions.projectId, note: checkSessions.note })
+    .from(checkSessions)
+    .innerJoin(sites, eq(sites.id, checkSessions.siteId))
+    .where(eq(checkSessions.sensorId, sensorId))
+    .orderBy(asc(checkSessions.startedAt));
+  return { sensor, sessions };
+}
+
+/**
+ * The sites where this sensor was checked, as GeoJSON for the map: stations and targets with
+ * geographic positions, and an outline (the convex hull of them, 10 m around).
+ */
+export async function reviewSiteFeatures(_actor: ReviewActor, sensorId: string) {
+  const db = getDb();
+  const siteRows = await db
+    .selectDistinct({ id: sites.id, name: sites.name, lat: sites.lat, lon: sites.lon })
+    .from(checkSessions)
+    .innerJoin(sites, eq(sites.id, checkSessions.siteId))
+    .where(eq(checkSessions.sensorId, sensorId));
+  const siteIds = siteRows.map((s) => s.id);
+  const [st, tg] = siteIds.length
+    ? await Promise.all([
+        db.select({ id: stations.id, siteId: stations.siteId, label: stations.label, lat: stations.lat, lon: stations.lon }).from(stations).where(inArray(stations.siteId, siteIds)),
+        db
+          .select({ id: targets.id, siteId: targets.siteId, label: targets.label, lat: targets.lat, lon: targets.lon, reflectancePct: targets.reflectancePct, referenceM: targets.referenceM })
+          .from(targets)
+          .where(inArray(targets.siteId, siteIds)),
+      ])
+    : [[], []];
+  const pointFeature = (kind: "station" | "target", r: { id: string; siteId: string; label: string; lat: number | null; lon: number | null }, extra: Record<string, unknown> = {}) =>
+    r.lat != null && r.lon != null ? [point([r.lon, r.lat], { kind, id: r.id, siteId: r.siteId, label: r.label, ...extra })] : [];
+  const stationFc = featureCollection(st.flatMap((r) => pointFeature("station", r)));
+  const targetFc = featureCollection(tg.flatMap((r) => pointFeature("target", r, { reflectancePct: r.reflectancePct, referenceM: r.referenceM })));
+  const outlines = siteRows.flatMap((s) => {
+    const pts: Feature<Point>[] = [...stationFc.features, ...targetFc.features].filter((f) => f.properties!.siteId === s.id);
+    if (s.lat != null && s.lon != null) pts.push(point([s.lon, s.lat], { kind: "site", id: s.id, siteId: s.id, label: s.name }));
+    if (pts.length === 0) return [];
+    const hull = pts.length >= 3 ? convex(featureCollection(pts)) : null;
+    const shape = buffer(hull ?? featureCollection(pts), 10, { units: "meters" });
+    const geom = shape && "features" in shape ? shape.features[0] : shape;
+    return geom ? [{ ...geom, properties: { kind: "site", id: s.id, name: s.name } }] : [];
+  });
+  return { sites: siteRows, outline: featureCollection(outlines), stations: stationFc, targets: targetFc };
+}
+
+/** Per shot of a sensor: its photo ids, the labels of its targets and open exclusion reasons. */
+export async function shotExtras(_actor: ReviewActor, sensorId: string) {
+  const db = getDb();
+  const [photoRows, targetRows, reasonRows] = await Promise.all([
+    db.select({ id: photos.id, shotId: photos.shotId }).from(photos).innerJoin(shots, eq(shots.id, photos.shotId)).where(eq(shots.sensorId, sensorId)).orderBy(asc(photos.createdAt)),
+    db.selectDistinct({ id: targets.id, label: targets.label }).from(shots).innerJoin(targets, eq(targets.id, shots.targetId)).where(eq(shots.sensorId, sensorId)),
+    db
+      .select({ shotId: exclusions.shotId, reason: exclusions.reason })
+      .from(exclusions)
+      .innerJoin(shots, eq(shots.id, exclusions.shotId))
+      .where(and(eq(shots.sensorId, sensorId), isNull(exclusions.restoredAt))),
+  ]);
+  const photoMap: Record<string, string[]> = {};
+  for (const p of photoRows) (photoMap[p.shotId] ??= []).push(p.id);
+  return {
+    photos: photoMap,
+    targets: Object.fromEntries(targetRows.map((t) => [t.id, t.label])),
+    reasons: Object.fromEntries(reasonRows.map((r) => [r.shotId, r.reason])),
+  };
+}

@@ -1,0 +1,336 @@
+import { useMemo, useRef, useState } from "react";
+import { Link } from "react-router";
+import Papa from "papaparse";
+import type { Route } from "./+types/review.import";
+import { FIELD } from "~/auth/access";
+import { requireRole } from "~/auth/guards.server";
+import { importContext } from "~/models/imports.server";
+import { guessMapping, IMPORT_FIELDS, mapRow, type ImportField, type ImportMapping, type MappedRow } from "~/components/review/import-rows";
+import { computeShot, DEFAULT_RULE, type SensorSpec } from "~/domain";
+import { num, signed } from "~/components/review/format";
+
+export const meta: Route.MetaFunction = () => [{ title: "Import a sensor's CSV · Shotbook" }];
+
+export async function loader({ request }: Route.LoaderArgs) {
+  const user = await requireRole(request, FIELD);
+  return importContext(user);
+}
+
+type Row = { row: number; values: Record<string, string> };
+type Result = { row: number; id: string; status: "accepted" | "duplicate" | "rejected"; errors: { field: string; message: string }[] };
+const CHUNK = 250;
+const PREVIEW = 25;
+
+/** A UUID (version 8, RFC 9562 variant) from SHA-256 of a name: the same file row gives the same id, so a re-import is a duplicate. */
+async function nameUuid(name: string) {
+  const h = new Uint8Array(await crypto.subtle.digest("SHA-256", new TextEncoder().encode(name)));
+  h[6] = (h[6]! & 0x0f) | 0x80;
+  h[8] = (h[8]! & 0x3f) | 0x80;
+  const x = Array.from(h.slice(0, 16), (b) => b.toString(16).padStart(2, "0")).join("");
+  return `${x.slice(0, 8)}-${x.slice(8, 12)}-${x.slice(12, 16)}-${x.slice(16, 20)}-${x.slice(20, 32)}`;
+}
+
+function optionalNumber(v: string) {
+  const t = v.trim();
+  if (!t) return null;
+  const n = Number(t.replace(",", "."));
+  return Number.isFinite(n) ? n : Number.NaN;
+}
+
+function previewError(m: MappedRow, spec: SensorSpec | undefined, air: { airTempC: number | null; pressureHpa: number | null; humidityPct: number | null }) {
+  if (!m.ok || !spec) return null;
+  try {
+    return computeShot({ sensor: spec, air, reference: m.shot.reference, readings: m.shot.readings, rule: DEFAULT_RULE });
+  } catch {
+    return null;
+  }
+}
+
+export default function ImportPage({ loaderData }: Route.ComponentProps) {
+  const { sensors, sites, mappings, projects } = loaderData;
+  const [sensorId, setSensorId] = useState("");
+  const [siteId, setSiteId] = useState("");
+  const [projectId, setProjectId] = useState("");
+  const [fileName, setFileName] = useState("");
+  const [fileHash, setFileHash] = useState("");
+  const [headers, setHeaders] = useState<string[]>([]);
+  const [rows, setRows] = useState<Row[]>([]);
+  const [parseErrors, setParseErrors] = useState<string[]>([]);
+  const [mapping, setMapping] = useState<ImportMapping>({});
+  const [air, setAir] = useState({ airTempC: "", pressureHpa: "", humidityPct: "", note: "" });
+  const [phase, setPhase] = useState<"idle" | "parsing" | "ready" | "sending" | "done">("idle");
+  const [progress, setProgress] = useState(0);
+  const [results, setResults] = useState<Result[]>([]);
+  const [sendError, setSendError] = useState<string | null>(null);
+  const [formError, setFormError] = useState<string | null>(null);
+  const cancel = useRef(false);
+
+  const sensor = sensors.find((s) => s.id === sensorId);
+  const site = sites.find((s) => s.id === siteId);
+  const airNums = { airTempC: optionalNumber(air.airTempC), pressureHpa: optionalNumber(air.pressureHpa), humidityPct: optionalNumber(air.humidityPct) };
+  const airOk = Object.values(airNums).every((v) => v == null || Number.isFinite(v));
+
+  const mapped = useMemo(() => rows.map((r) => ({ ...r, m: mapRow(r.values, mapping, site?.targets ?? []) })), [rows, mapping, site]);
+  const valid = mapped.filter((r) => r.m.ok);
+  const invalid = mapped.filter((r) => !r.m.ok);
+
+  function chooseSensor(id: string) {
+    setSensorId(id);
+    if (headers.length) setMapping(mappings[id] ?? guessMapping(headers));
+  }
+
+  async function readFile(file: File) {
+    setPhase("parsing");
+    setProgress(0);
+    setResults([]);
+    setParseErrors([]);
+    setFileName(file.name);
+    const text = await file.text();
+    setFileHash(Array.from(new Uint8Array(await crypto.subtle.digest("SHA-256", new TextEncoder().encode(text))), (b) => b.toString(16).padStart(2, "0")).join(""));
+    const out: Row[] = [];
+    const errs: string[] = [];
+    let fields: string[] = [];
+    Papa.parse<Record<string, string>>(text, {
+      header: true,
+      skipEmptyLines: "greedy",
+      chunkSize: 256 * 1024,
+      chunk(res: Papa.ParseResult<Record<string, string>>, parser: Papa.Parser) {
+        if (!fields.length && res.meta.fields) fields = res.meta.fields;
+        for (const d of res.data) out.push({ row: out.length + 2, values: d });
+        for (const e of res.errors.slice(0, 20)) errs.push(`Line ${(e.row ?? 0) + 2}: ${e.message}`);
+        setProgress(Math.min(100, Math.round((100 * res.meta.cursor) / Math.max(1, text.length))));
+        // Yield so the progress bar paints between chunks of a large file.
+        parser.pause();
+        setTimeout(() => parser.resume(), 0);
+      },
+      complete() {
+        setHeaders(fields);
+        setRows(out);
+        setParseErrors(errs);
+        setMapping(sensorId && mappings[sensorId] ? mappings[sensorId]! : guessMapping(fields));
+        setProgress(100);
+        setPhase("ready");
+      },
+    });
+  }
+
+  async function send() {
+    setFormError(null);
+    setSendError(null);
+    if (!sensorId || !siteId) return setFormError("Choose the sensor and the site first.");
+    if (!mapping.takenAt || !mapping.rangeM || (!mapping.distanceM && !mapping.target)) return setFormError("Map the time, the sensor range and the reference distance (or a target column).");
+    if (!airOk) return setFormError("Air values must be numbers (or left empty).");
+    if (valid.length === 0) return setFormError("No row is valid with this mapping.");
+    setPhase("sending");
+    setProgress(0);
+    cancel.current = false;
+    const times = valid.map((r) => (r.m.ok ? r.m.shot.takenAt : "")).sort();
+    const sessionId = await nameUuid(`${sensorId}|${fileHash}|session`);
+    const all: Result[] = [];
+    const list = valid;
+    for (let i = 0; i < list.length; i += CHUNK) {
+      if (cancel.current) break;
+      const part = await Promise.all(list.slice(i, i + CHUNK).map(async (r) => ({ row: r.row, id: await nameUuid(`${sensorId}|${fileHash}|${r.row}`), values: r.values })));
+      try {
+        const res = await fetch("/review/import/chunk", {
+          method: "POST",
+          headers: { "Content-Type": "application/json", Accept: "application/json" },
+          body: JSON.stringify({
+            sensorId,
+            siteId,
+            projectId: projectId || undefined,
+            deviceId: `csv-import:${fileName}`.slice(0, 200),
+            session: { id: sessionId, startedAt: times[0], ...airNums, note: air.note || `Imported from ${fileName}` },
+            mapping,
+            rows: part,
+          }),
+        });
+        const body = (await res.json()) as { rows?: Result[]; error?: string; errors?: { field: string; message: string }[] };
+        if (!res.ok) {
+          setSendError(`${body.error ?? `The server answered ${res.status}`}${body.errors?.length ? `: ${body.errors.map((e) => `${e.field} ${e.message}`).join("; ")}` : ""}`);
+          break;
+        }
+        all.push(...(body.rows ?? []));
+        setResults([...all]);
+      } catch {
+        setSendError("The server could not be reached. What was sent so far is kept; import the same file again to send the rest (rows already in are recognised).");
+        break;
+      }
+      setProgress(Math.round((100 * Math.min(list.length, i + CHUNK)) / list.length));
+    }
+    setPhase("done");
+  }
+
+  const counts = { accepted: results.filter((r) => r.status === "accepted").length, duplicate: results.filter((r) => r.status === "duplicate").length, rejected: results.filter((r) => r.status === "rejected").length };
+
+  return (
+    <div className="space-y-6">
+      <nav aria-label="Breadcrumb"><Link to="/review" className="inline-flex min-h-11 items-center underline underline-offset-4">← Sensor verdicts</Link></nav>
+      <h1 className="text-3xl font-bold">Import check-shots from a sensor's CSV</h1>
+      <p className="max-w-3xl">
+        Upload the CSV the sensor's own software exports. Map its columns once per sensor (the mapping is remembered), look at the preview and
+        its per-row errors, then import the valid rows. They are judged exactly like a tablet's sync; importing the same file again adds nothing twice.
+      </p>
+
+      <section className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-4" aria-label="What the file holds">
+        <div>
+          <label htmlFor="i-sensor" className="field-label">Sensor</label>
+          <select id="i-sensor" className="input" value={sensorId} onChange={(e) => chooseSensor(e.target.value)}>
+            <option value="">Choose…</option>
+            {sensors.map((s) => <option key={s.id} value={s.id}>{s.label} ({s.serial}){mappings[s.id] ? " · mapping saved" : ""}</option>)}
+          </select>
+        </div>
+        <div>
+          <label htmlFor="i-site" className="field-label">Site</label>
+          <select id="i-site" className="input" value={siteId} onChange={(e) => setSiteId(e.target.value)}>
+            <option value="">Choose…</option>
+            {sites.map((s) => <option key={s.id} value={s.id}>{s.name}</option>)}
+          </select>
+        </div>
+        <div>
+          <label htmlFor="i-project" className="field-label">Project (optional)</label>
+          <select id="i-project" className="input" value={projectId} onChange={(e) => setProjectId(e.target.value)}>
+            <option value="">None / implied</option>
+            {projects.map((p) => <option key={p.id} value={p.id}>{p.name}</option>)}
+          </select>
+        </div>
+        <div>
+          <label htmlFor="i-file" className="field-label">CSV file</label>
+          <input id="i-file" type="file" accept=".csv,text/csv,text/plain" className="input" onChange={(e) => e.target.files?.[0] && void readFile(e.target.files[0])} />
+        </div>
+      </section>
+
+      {phase === "parsing" || phase === "sending" ? (
+        <div aria-live="polite">
+          <label htmlFor="i-progress" className="field-label">{phase === "parsing" ? `Reading ${fileName}…` : `Importing ${valid.length} rows…`} {progress} %</label>
+          <progress id="i-progress" max={100} value={progress} className="h-6 w-full" />
+          {phase === "sending" ? <button type="button" className="btn-secondary mt-2" onClick={() => (cancel.current = true)}>Stop after this chunk</button> : null}
+        </div>
+      ) : null}
+
+      {headers.length && phase !== "parsing" ? (
+        <>
+          <section className="card space-y-3" aria-labelledby="h-map">
+            <h2 id="h-map" className="text-2xl font-bold">Columns of {fileName} ({rows.length} rows)</h2>
+            {sensorId && mappings[sensorId] ? <p>The saved mapping of this sensor is filled in.</p> : <p>A first guess from the headers is filled in; check it.</p>}
+            <div className="grid gap-3 sm:grid-cols-2 lg:grid-cols-3">
+              {IMPORT_FIELDS.map((f) => (
+                <div key={f.key}>
+                  <label htmlFor={`map-${f.key}`} className="field-label">{f.label}{f.required ? " *" : ""}</label>
+                  <select
+                    id={`map-${f.key}`}
+                    className="input"
+                    value={mapping[f.key as ImportField] ?? ""}
+                    onChange={(e) => setMapping({ ...mapping, [f.key]: e.target.value || undefined })}
+                  >
+                    <option value="">— not in the file —</option>
+                    {headers.map((h) => <option key={h} value={h}>{h}</option>)}
+                  </select>
+                  {f.hint ? <p className="text-sm text-muted">{f.hint}</p> : null}
+                </div>
+              ))}
+              <div>
+                <label htmlFor="map-ru" className="field-label">Unit of the sensor range</label>
+                <select id="map-ru" className="input" value={mapping._rangeUnit ?? "m"} onChange={(e) => setMapping({ ...mapping, _rangeUnit: e.target.value as "m" | "mm" })}>
+                  <option value="m">metres (m)</option>
+                  <option value="mm">millimetres (mm)</option>
+                </select>
+              </div>
+              <div>
+                <label htmlFor="map-du" className="field-label">Unit of the reference distance</label>
+                <select id="map-du" className="input" value={mapping._distanceUnit ?? "m"} onChange={(e) => setMapping({ ...mapping, _distanceUnit: e.target.value as "m" | "mm" })}>
+                  <option value="m">metres (m)</option>
+                  <option value="mm">millimetres (mm)</option>
+                </select>
+              </div>
+              <div>
+                <label htmlFor="map-tz" className="field-label">UTC offset of times without one</label>
+                <input id="map-tz" className="input" value={mapping._timeOffset ?? "+00:00"} onChange={(e) => setMapping({ ...mapping, _timeOffset: e.target.value })} pattern="[+-]\d{2}:\d{2}" />
+              </div>
+            </div>
+          </section>
+
+          <section className="card grid gap-3 sm:grid-cols-4" aria-label="Session air">
+            <p className="sm:col-span-4">The rows become one session. Its air (for sensors that do not correct for air themselves):</p>
+            <div><label htmlFor="a-t" className="field-label">Air temperature (°C)</label><input id="a-t" inputMode="decimal" className="input" value={air.airTempC} onChange={(e) => setAir({ ...air, airTempC: e.target.value })} /></div>
+            <div><label htmlFor="a-p" className="field-label">Pressure (hPa)</label><input id="a-p" inputMode="decimal" className="input" value={air.pressureHpa} onChange={(e) => setAir({ ...air, pressureHpa: e.target.value })} /></div>
+            <div><label htmlFor="a-h" className="field-label">Humidity (%)</label><input id="a-h" inputMode="decimal" className="input" value={air.humidityPct} onChange={(e) => setAir({ ...air, humidityPct: e.target.value })} /></div>
+            <div><label htmlFor="a-n" className="field-label">Session note</label><input id="a-n" className="input" value={air.note} onChange={(e) => setAir({ ...air, note: e.target.value })} /></div>
+          </section>
+
+          <section className="space-y-3" aria-labelledby="h-preview">
+            <h2 id="h-preview" className="text-2xl font-bold">Preview</h2>
+            <p className="text-lg" data-testid="import-counts">
+              <strong>{valid.length}</strong> valid rows, <strong className={invalid.length ? "text-fail" : ""}>{invalid.length}</strong> with errors.
+            </p>
+            {parseErrors.length ? <ul className="text-warn">{parseErrors.map((e) => <li key={e}>⚠ {e}</li>)}</ul> : null}
+            <div className="overflow-x-auto">
+              <table className="w-full border-collapse text-left num">
+                <caption className="sr-only">First rows as they will be imported</caption>
+                <thead>
+                  <tr className="border-b-2 border-line">
+                    <th scope="col" className="py-1 pr-2">Row</th>
+                    <th scope="col" className="py-1 pr-2">Time</th>
+                    <th scope="col" className="py-1 pr-2 text-right">Reference (m)</th>
+                    <th scope="col" className="py-1 pr-2 text-right">Range (m)</th>
+                    <th scope="col" className="py-1 pr-2 text-right">Error (mm)</th>
+                    <th scope="col" className="py-1 pr-2 text-right">Reflectance (%)</th>
+                    <th scope="col" className="py-1">Problems</th>
+                  </tr>
+                </thead>
+                <tbody>
+                  {mapped.slice(0, PREVIEW).map((r) => {
+                    const c = previewError(r.m, sensor?.spec, airNums);
+                    return (
+                      <tr key={r.row} className="border-b border-line" data-row={r.row} data-ok={r.m.ok}>
+                        <td className="py-1 pr-2">{r.row}</td>
+                        <td className="py-1 pr-2">{r.m.ok ? r.m.shot.takenAt : r.values[mapping.takenAt ?? ""] ?? "—"}</td>
+                        <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.reference.distanceM, 3) : "—"}</td>
+                        <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.readings.rangesM[0], 3) : "—"}</td>
+                        <td className="py-1 pr-2 text-right">{c ? signed(c.errorMm, 2) : "—"}</td>
+                        <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.reflectancePct, 0) : "—"}</td>
+                        <td className="py-1">{r.m.ok ? <span className="text-pass">✓ ready</span> : <span className="font-bold text-fail">✗ {r.m.errors.map((e) => e.message).join("; ")}</span>}</td>
+                      </tr>
+                    );
+                  })}
+                </tbody>
+              </table>
+            </div>
+            {invalid.length ? (
+              <details open={invalid.length <= 20} className="card">
+                <summary className="min-h-11 cursor-pointer font-bold">All {invalid.length} rows with errors (they will not be imported)</summary>
+                <ul className="mt-2 space-y-1" data-testid="import-row-errors">
+                  {invalid.slice(0, 500).map((r) => (
+                    <li key={r.row}>Row {r.row}: {!r.m.ok ? r.m.errors.map((e) => e.message).join("; ") : ""}</li>
+                  ))}
+                </ul>
+              </details>
+            ) : null}
+            {formError ? <p className="field-error" role="alert">{formError}</p> : null}
+            <button type="button" className="btn" onClick={() => void send()} disabled={phase === "sending"}>
+              Import {valid.length} valid rows
+            </button>
+          </section>
+        </>
+      ) : null}
+
+      {results.length || sendError ? (
+        <section className="card space-y-2" aria-labelledby="h-result" aria-live="polite">
+          <h2 id="h-result" className="text-2xl font-bold">Result</h2>
+          {sendError ? <p className="font-bold text-fail" role="alert">{sendError}</p> : null}
+          <p className="text-lg" data-testid="import-result">
+            {counts.accepted} imported, {counts.duplicate} already there, {counts.rejected} refused.
+          </p>
+          {counts.rejected ? (
+            <ul>
+              {results.filter((r) => r.status === "rejected").map((r) => (
+                <li key={r.row}>Row {r.row}: {r.errors.map((e) => `${e.field ? `${e.field}: ` : ""}${e.message}`).join("; ")}</li>
+              ))}
+            </ul>
+          ) : null}
+          {sensorId && phase === "done" ? <Link to={`/review/sensors/${sensorId}`} className="btn">Open the sensor's report</Link> : null}
+        </section>
+      ) : null}
+    </div>
+  );
+}

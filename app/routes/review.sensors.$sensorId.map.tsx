@@ -1,0 +1,244 @@
+import { lazy, Suspense, useEffect, useMemo, useState } from "react";
+import { Link, useSearchParams } from "react-router";
+import type { Feature, FeatureCollection, Point } from "geojson";
+import type { Route } from "./+types/review.sensors.$sensorId.map";
+import { ALL } from "~/auth/access";
+import { requireRole } from "~/auth/guards.server";
+import { publicEnv } from "~/env.server";
+import { reviewSiteFeatures, sensorReviewHeader } from "~/models/signoffs.server";
+import { autoCellSideM, DIVERGING, hexBins, scaleMaxMm } from "~/components/review/map-style";
+import { fetchAllShots } from "~/components/review/use-report";
+import { LegendSwatch } from "~/components/review/charts";
+import { bandWord, dateOnly, dateTime, mm, mmSigned, metres } from "~/components/review/format";
+import { VerdictBadge } from "~/components/verdict-badge";
+import { reflectanceClass } from "~/domain";
+import type { ReportJson, ShotDetail } from "~/components/review/types";
+
+// MapLibre is loaded only here, and only in the browser.
+const RangeMap = lazy(() => import("~/components/review/range-map"));
+
+export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.sensor.label ?? "Sensor"} — range-error map · Shotbook` }];
+
+export async function loader({ request, params }: Route.LoaderArgs) {
+  const user = await requireRole(request, ALL);
+  const head = await sensorReviewHeader(user, params.sensorId);
+  if (!head) throw new Response("There is no sensor with this id.", { status: 404 });
+  const site = await reviewSiteFeatures(user, params.sensorId);
+  return { sensor: head.sensor, sessions: head.sessions, site, basemapUrl: publicEnv().basemapStyleUrl };
+}
+
+type ShotProps = { id: string; errorMm: number; limitMm: number; within: boolean; outside: 0 | 1; sessionId: string | null; referenceM: number | null; excluded: boolean };
+
+function rangeBandOfLabel(d: number, labels: string[]): string | null {
+  for (const l of labels) {
+    const m = /^(\d+(?:\.\d+)?)-(\d+(?:\.\d+)?)$/.exec(l);
+    if (m && d >= Number(m[1]) && d < Number(m[2])) return l;
+    const p = /^(\d+(?:\.\d+)?)\+$/.exec(l);
+    if (p && d >= Number(p[1])) return l;
+  }
+  return null;
+}
+
+export default function ReviewMap({ loaderData }: Route.ComponentProps) {
+  const { sensor, sessions, site, basemapUrl } = loaderData;
+  const [sp, setSp] = useSearchParams();
+  const session = sp.get("session") ?? "";
+  const band = sp.get("band") ?? "";
+  const refl = sp.get("refl") ?? "";
+  const hex = sp.get("hex") === "1";
+  const [useBasemap, setUseBasemap] = useState(false);
+  const [mounted, setMounted] = useState(false);
+  const [geo, setGeo] = useState<FeatureCollection<Point> | null>(null);
+  const [report, setReport] = useState<ReportJson | null>(null);
+  const [details, setDetails] = useState<Map<string, ShotDetail>>(new Map());
+  const [error, setError] = useState<string | null>(null);
+  const [selected, setSelected] = useState<string | null>(null);
+
+  useEffect(() => setMounted(true), []);
+  useEffect(() => {
+    const ac = new AbortController();
+    const get = async <T,>(url: string) => {
+      const r = await fetch(url, { signal: ac.signal, headers: { Accept: "application/json" } });
+      if (!r.ok) throw new Error(`${url} answered ${r.status}`);
+      return (await r.json()) as T;
+    };
+    Promise.all([
+      get<FeatureCollection<Point>>(`/api/shots.geojson?sensor=${encodeURIComponent(sensor.id)}`),
+      get<ReportJson>(`/api/sensors/${encodeURIComponent(sensor.id)}/report`),
+      fetchAllShots(sensor.id, ac.signal).catch(() => new Map<string, ShotDetail>()),
+    ])
+      .then(([g, r, d]) => {
+        setGeo(g);
+        setReport(r);
+        setDetails(d);
+      })
+      .catch((e: unknown) => !ac.signal.aborted && setError(e instanceof Error ? e.message : String(e)));
+    return () => ac.abort();
+  }, [sensor.id]);
+
+  const rows = useMemo(() => new Map((report?.shots ?? []).map((s) => [s.id, s])), [report]);
+  const bandLabels = useMemo(() => (report?.byRange ?? []).map((b) => b.band), [report]);
+
+  const shots = useMemo<FeatureCollection<Point, ShotProps>>(() => {
+    const feats: Feature<Point, ShotProps>[] = [];
+    for (const f of geo?.features ?? []) {
+      if (!f.geometry || f.geometry.type !== "Point") continue;
+      const p = (f.properties ?? {}) as Record<string, unknown>;
+      const id = String(p.id ?? f.id ?? "");
+      const row = rows.get(id);
+      const errorMm = Number(p.errorMm);
+      if (!Number.isFinite(errorMm)) continue;
+      const sessionId = (p.sessionId as string | undefined) ?? row?.sessionId ?? null;
+      const referenceM = typeof p.referenceM === "number" ? p.referenceM : row?.referenceM ?? null;
+      if (session && sessionId !== session) continue;
+      if (band && (referenceM == null || rangeBandOfLabel(referenceM, bandLabels) !== band)) continue;
+      if (refl) {
+        const d = details.get(id);
+        const pct = typeof p.reflectancePct === "number" ? p.reflectancePct : d?.reflectancePct;
+        if (pct == null || reflectanceClass(pct, d?.retro ?? p.retro === true) !== refl) continue;
+      }
+      const within = p.within === true;
+      feats.push({
+        type: "Feature",
+        geometry: f.geometry,
+        properties: { id, errorMm, limitMm: Number(p.limitMm), within, outside: within ? 0 : 1, sessionId, referenceM, excluded: p.excluded === true || row?.excluded === true },
+      });
+    }
+    return { type: "FeatureCollection", features: feats };
+  }, [geo, rows, session, band, refl, bandLabels, details]);
+
+  const maxMm = useMemo(() => scaleMaxMm(shots.features.map((f) => f.properties.limitMm)), [shots]);
+  const hexes = useMemo(() => (hex ? hexBins(shots, autoCellSideM(shots)) : { type: "FeatureCollection" as const, features: [] }), [shots, hex]);
+  const sources = useMemo(
+    () => ({ outline: site.outline as FeatureCollection, stations: site.stations as FeatureCollection, targets: site.targets as FeatureCollection, shots, hexes }),
+    [site, shots, hexes],
+  );
+
+  function set(k: string, v: string) {
+    const next = new URLSearchParams(sp);
+    if (v) next.set(k, v);
+    else next.delete(k);
+    setSp(next, { replace: true, preventScrollReset: true });
+  }
+
+  const pick = selected ? shots.features.find((f) => f.properties.id === selected)?.properties ?? null : null;
+  const pickRow = selected ? rows.get(selected) : undefined;
+  const pickDetail = selected ? details.get(selected) : undefined;
+  const total = geo?.features.length ?? 0;
+
+  return (
+    <div className="space-y-4">
+      <nav aria-label="Breadcrumb">
+        <Link to={`/review/sensors/${sensor.id}`} className="inline-flex min-h-11 items-center underline underline-offset-4">← Report of {sensor.label}</Link>
+      </nav>
+      <h1 className="text-3xl font-bold">Range-error map — {sensor.label}</h1>
+      <section aria-label="Map filters" className="card flex flex-wrap items-end gap-4">
+        <div>
+          <label htmlFor="m-session" className="field-label">Session</label>
+          <select id="m-session" className="input" value={session} onChange={(e) => set("session", e.target.value)}>
+            <option value="">All sessions</option>
+            {sessions.map((s, i) => (
+              <option key={s.id} value={s.id}>#{i + 1} {dateOnly(s.startedAt)} {s.siteName}</option>
+            ))}
+          </select>
+        </div>
+        <div>
+          <label htmlFor="m-band" className="field-label">Range band</label>
+          <select id="m-band" className="input" value={band} onChange={(e) => set("band", e.target.value)}>
+            <option value="">All distances</option>
+            {bandLabels.map((b) => (
+              <option key={b} value={b}>{b} m</option>
+            ))}
+          </select>
+        </div>
+        <div>
+          <label htmlFor="m-refl" className="field-label">Reflectance</label>
+          <select id="m-refl" className="input" value={refl} onChange={(e) => set("refl", e.target.value)}>
+            <option value="">All targets</option>
+            {["dark", "mid", "bright", "retro"].map((b) => (
+              <option key={b} value={b}>{bandWord(b)}</option>
+            ))}
+          </select>
+        </div>
+        <label className="flex min-h-11 cursor-pointer items-center gap-2 rounded-md border-2 border-line px-3">
+          <input type="checkbox" className="h-5 w-5" checked={hex} onChange={(e) => set("hex", e.target.checked ? "1" : "")} />
+          Hexagon bins (dense corridors)
+        </label>
+        {basemapUrl ? (
+          <label className="flex min-h-11 cursor-pointer items-center gap-2 rounded-md border-2 border-line px-3">
+            <input type="checkbox" className="h-5 w-5" checked={useBasemap} onChange={(e) => setUseBasemap(e.target.checked)} />
+            Basemap (needs a network)
+          </label>
+        ) : null}
+        <p className="pb-2 text-muted" aria-live="polite">{geo ? `${shots.features.length} of ${total} located shots shown` : "Loading shots…"}</p>
+      </section>
+
+      {error ? <p role="alert" className="card font-bold text-fail">The shots could not be loaded: {error}</p> : null}
+
+      <div className="grid gap-4 lg:grid-cols-[1fr_320px]">
+        <div className="space-y-3">
+          {mounted ? (
+            <Suspense fallback={<div className="flex h-[62vh] min-h-[420px] items-center justify-center rounded-lg border-2 border-line">Loading the map…</div>}>
+              <RangeMap sources={sources} maxMm={maxMm} showHex={hex} basemapUrl={useBasemap ? basemapUrl : null} onSelect={setSelected} />
+            </Suspense>
+          ) : (
+            <div className="flex h-[62vh] min-h-[420px] items-center justify-center rounded-lg border-2 border-line">Loading the map…</div>
+          )}
+          {geo && total === 0 ? <p className="card">No shot of this sensor has a GPS position yet, so none can be placed on the map.</p> : null}
+          <MapLegend maxMm={maxMm} hex={hex} />
+        </div>
+        <aside aria-label="Selected shot" className="card space-y-2" data-testid="shot-details">
+          {pick ? (
+            <>
+              <h2 className="text-xl font-bold">Shot {dateTime(pickRow?.takenAt ?? null)}</h2>
+              <p><VerdictBadge verdict={pick.within ? "pass" : "fail"} /> {pick.within ? "within its limit" : "outside its limit"}</p>
+              <dl className="num grid grid-cols-2 gap-x-3 gap-y-1">
+                <dt className="font-bold">Error</dt><dd>{mmSigned(pick.errorMm, 2)}</dd>
+                <dt className="font-bold">Limit</dt><dd>± {mm(pick.limitMm, 2)}</dd>
+                <dt className="font-bold">Reference</dt><dd>{metres(pick.referenceM)}</dd>
+                <dt className="font-bold">Range</dt><dd>{metres(pickRow?.rangeM ?? null)}</dd>
+                <dt className="font-bold">Target</dt><dd>{pickDetail?.targetLabel ?? "—"}</dd>
+                <dt className="font-bold">Reflectance</dt><dd>{pickDetail?.reflectancePct == null ? "—" : `${pickDetail.reflectancePct} %`}</dd>
+                <dt className="font-bold">Illuminance</dt><dd>{pickDetail?.illuminanceKlux == null ? "—" : `${pickDetail.illuminanceKlux} klux`}</dd>
+                <dt className="font-bold">Flags</dt><dd>{pickRow?.flags.length ? pickRow.flags.join(", ") : "none"}</dd>
+                <dt className="font-bold">State</dt><dd>{pick.excluded ? "excluded" : "included"}</dd>
+              </dl>
+              {pickDetail?.photoIds.length ? (
+                <img src={`/api/photos/${pickDetail.photoIds[0]}`} alt="Photo taken with this shot" className="w-full rounded border-2 border-line" />
+              ) : (
+                <p className="text-muted">No photo with this shot.</p>
+              )}
+              <button type="button" className="btn-secondary" onClick={() => setSelected(null)}>Close</button>
+            </>
+          ) : (
+            <p>Tap a shot on the map to see its figures and photo.</p>
+          )}
+        </aside>
+      </div>
+    </div>
+  );
+}
+
+export function MapLegend({ maxMm, hex }: { maxMm: number; hex: boolean }) {
+  const gradient = `linear-gradient(to right, ${DIVERGING.join(", ")})`;
+  return (
+    <div className="card space-y-2" data-testid="map-legend" aria-label="Map legend">
+      <p className="font-bold">{hex ? "Mean range error per hexagon (mm)" : "Signed range error (mm): red reads long, blue reads short"}</p>
+      <div className="h-5 w-full max-w-md rounded border border-line" style={{ background: gradient }} aria-hidden="true" />
+      <div className="num flex w-full max-w-md justify-between text-base">
+        <span>−{maxMm} mm</span>
+        <span>−{maxMm / 2}</span>
+        <span>0</span>
+        <span>+{maxMm / 2}</span>
+        <span>+{maxMm} mm</span>
+      </div>
+      <div className="flex flex-wrap gap-x-5 gap-y-1 text-base">
+        <span><LegendSwatch shape="circle" color="var(--muted)" /> shot within its limit</span>
+        <span><LegendSwatch shape="triangle" color="var(--muted)" /> shot outside its limit</span>
+        <span><svg width="18" height="18" viewBox="0 0 18 18" aria-hidden="true" className="inline-block align-middle"><circle cx="9" cy="9" r="6.5" fill="var(--bg)" stroke="var(--fg)" strokeWidth="3.5" /></svg> station</span>
+        <span><svg width="16" height="16" viewBox="0 0 16 16" aria-hidden="true" className="inline-block align-middle"><circle cx="8" cy="8" r="5" fill="var(--fg)" /></svg> target</span>
+        <span><span className="inline-block h-3 w-6 border-2 border-dashed border-accent align-middle" /> site outline</span>
+      </div>
+    </div>
+  );
+}

@@ -1,0 +1,132 @@
+import { useMemo } from "react";
+import type { Route } from "./+types/review.sensors.$sensorId.print";
+import { ALL } from "~/auth/access";
+import { requireRole } from "~/auth/guards.server";
+import { listProjectsForFilter, listSignOffs, reportFor, sensorReviewHeader } from "~/models/signoffs.server";
+import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
+import { DriftChart, ErrorVsDistanceChart } from "~/components/review/charts";
+import { dateOnly, dateTime, mmSigned } from "~/components/review/format";
+import { VerdictBadge } from "~/components/verdict-badge";
+
+export const meta: Route.MetaFunction = ({ data }) => [{ title: `Range verification report — ${data?.sensor.label ?? "sensor"}` }];
+
+const DATE = /^\d{4}-\d{2}-\d{2}$/;
+
+export async function loader({ request, params }: Route.LoaderArgs) {
+  const user = await requireRole(request, ALL);
+  const url = new URL(request.url);
+  const head = await sensorReviewHeader(user, params.sensorId);
+  if (!head) throw new Response("There is no sensor with this id.", { status: 404 });
+  const from = url.searchParams.get("from");
+  const to = url.searchParams.get("to");
+  const projectId = url.searchParams.get("project") || null;
+  const q = { from: from && DATE.test(from) ? from : null, to: to && DATE.test(to) ? to : null, sessionIds: url.searchParams.getAll("session"), projectId };
+  const [report, signOffs, projects] = await Promise.all([reportFor(user, params.sensorId, q), listSignOffs(user, params.sensorId, 5), listProjectsForFilter()]);
+  if (!report) throw new Response("There is no sensor with this id.", { status: 404 });
+  const project = projects.find((p) => p.id === projectId) ?? null;
+  return { ...head, report, signOffs, project, query: q, generatedAt: new Date().toISOString(), by: user.name || user.email };
+}
+
+const PRINT_CSS = `
+@page { size: A4; margin: 14mm 12mm 16mm; }
+@media print {
+  .print-page { font-size: 10.5pt; }
+  .print-page h1 { font-size: 18pt; }
+  .print-page h2 { font-size: 13pt; break-after: avoid; }
+  .print-page section, .print-page figure, .print-page tr { break-inside: avoid; }
+  .print-page .card { border-color: #000; background: #fff; }
+  main#main { max-width: none; padding: 0; }
+}
+`;
+
+export default function PrintReport({ loaderData }: Route.ComponentProps) {
+  const { sensor, sessions, report, signOffs, project, query, generatedAt, by } = loaderData;
+  const used = useMemo(() => new Set(report.shots.map((s) => s.sessionId)), [report]);
+  const biasLimit = report.tests.find((t) => t.name === "bias")?.limit ?? sensor.toleranceMm;
+  const period = query.from || query.to ? `${query.from ?? "first shot"} to ${query.to ?? "last shot"}` : "all dates";
+  const last = signOffs[0];
+  return (
+    <article className="print-page mx-auto max-w-4xl space-y-5" data-testid="print-report">
+      <style>{PRINT_CSS}</style>
+      <div className="no-print flex flex-wrap gap-2">
+        <button type="button" className="btn" onClick={() => window.print()}>Print or save as PDF</button>
+        <a href={`/review/sensors/${sensor.id}`} className="btn-secondary">Back to the report</a>
+      </div>
+      <header className="border-b-4 border-fg pb-3">
+        <p className="text-base font-bold uppercase tracking-wide">Range verification report</p>
+        <h1 className="text-3xl font-bold">{sensor.label} <span className="font-normal">· serial {sensor.serial}</span></h1>
+        <p>
+          {sensor.kind === "cw" ? "Continuous-wave (phase)" : "Pulsed"} sensor, {sensor.wavelengthNm} nm · tolerance ±({sensor.toleranceMm} mm + {sensor.tolerancePpm} ppm × D), coverage factor k = {report.rule.coverageK}
+          {sensor.calibrationDue ? ` · calibration due ${sensor.calibrationDue}` : ""}
+        </p>
+        <p>
+          Project: {project ? `${project.name}${project.client ? ` (client: ${project.client})` : ""}` : "all projects"} · period: {period} · sessions: {used.size} of {sessions.length}
+        </p>
+        <p className="text-sm">Generated {dateTime(generatedAt)} by {by}</p>
+      </header>
+
+      <section className="space-y-2">
+        <h2 className="text-xl font-bold">Verdict</h2>
+        <VerdictHeadline report={report} />
+      </section>
+
+      <section className="space-y-2">
+        <h2 className="text-xl font-bold">Acceptance rule and tests</h2>
+        <p>
+          Rule: at least {report.rule.minShots} included shots; at least {report.rule.minWithinPct} % of shots within k × tolerance;
+          |bias| at most the tolerance's constant part; SD at most σ·√(χ²₀.₉₅(ν)/ν) with σ the tolerance at the mean distance.
+        </p>
+        <TestsTable tests={report.tests} />
+      </section>
+
+      <section className="space-y-2">
+        <h2 className="text-xl font-bold">Figures (mm unless stated)</h2>
+        <FiguresGrid report={report} />
+        <p className="text-sm">95 % accuracy = 1.96 × RMSE (NSSDA), valid for near-normal, near-unbiased errors. Range error = sensor range − reference distance; positive reads long.</p>
+        {report.airDefaulted.length ? <p className="text-sm">{report.airDefaulted.length} session(s) used default air values for a missing reading.</p> : null}
+      </section>
+
+      <section className="space-y-2">
+        <h2 className="text-xl font-bold">Range error against reference distance</h2>
+        <ErrorVsDistanceChart report={report} />
+      </section>
+      <section className="space-y-2">
+        <h2 className="text-xl font-bold">Bias per session</h2>
+        {report.drift.length ? <DriftChart drift={report.drift} biasLimitMm={biasLimit} /> : <p>No sessions.</p>}
+      </section>
+
+      <section className="grid gap-4 sm:grid-cols-3">
+        <BandTable title="By reflectance" rows={report.byReflectance} />
+        <BandTable title="By illuminance" rows={report.byIlluminance} />
+        <BandTable title="By range band" rows={report.byRange} />
+      </section>
+      <section><CoverageNote coverage={report.coverage} /></section>
+
+      <section className="space-y-1">
+        <h2 className="text-xl font-bold">Sign-off</h2>
+        {last ? (
+          <p data-testid="print-signoff">
+            {last.decision === "approved" ? "✓ Approved" : "✗ Rejected"} on {dateOnly(last.createdAt)} by {last.byName}; verdict then <VerdictBadge verdict={last.verdict} />, bias {mmSigned(last.biasMm, 2)}
+            {last.periodFrom || last.periodTo ? `, period ${last.periodFrom ?? "start"} to ${last.periodTo ?? "end"}` : ""}.{last.note ? ` Note: ${last.note}` : ""}
+          </p>
+        ) : (
+          <p>Not signed off yet.</p>
+        )}
+        <div className="mt-4 grid grid-cols-2 gap-8 pt-8">
+          <p className="border-t-2 border-fg pt-1">Responsible surveyor (name, licence, signature)</p>
+          <p className="border-t-2 border-fg pt-1">Date</p>
+        </div>
+      </section>
+
+      <section className="border-t-2 border-fg pt-2 text-sm" data-testid="cautions">
+        <h2 className="text-base font-bold">Cautions</h2>
+        <p>
+          Lasers in these sensors carry a laser safety class (IEC 60825-1): follow the class's rules and the maker's manual, never aim at people,
+          vehicles or aircraft, and set out traffic control when targets stand by a road. Shotbook checks range performance; it is no
+          calibration certificate. Acceptance for a contract follows the client's specification and local survey regulations, signed by the
+          responsible licensed surveyor where the law requires one.
+        </p>
+      </section>
+    </article>
+  );
+}
