@@ -165,8 +165,8 @@ export async function listProjects({ includeRetired = false }: { includeRetired?
   const rows = await getDb()
     .select({
       project: projects,
-      sensorLabels: sql<string>`coalesce((select group_concat(s.label, ', ') from project_sensors ps join sensors s on s.id = ps.sensor_id where ps.project_id = ${projects.id}), '')`,
-      siteNames: sql<string>`coalesce((select group_concat(s.name, ', ') from project_sites ps join sites s on s.id = ps.site_id where ps.project_id = ${projects.id}), '')`,
+      sensorLabels: sql<string>`coalesce((select group_concat(s.label, ', ') from project_sensors ps join sensors s on s.id = ps.sensor_id where ps.project_id = "projects"."id"), '')`,
+      siteNames: sql<string>`coalesce((select group_concat(s.name, ', ') from project_sites ps join sites s on s.id = ps.site_id where ps.project_id = "projects"."id"), '')`,
     })
     .from(projects)
     .where(includeRetired ? undefined : isNull(projects.retiredAt))

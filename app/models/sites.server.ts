@@ -287,9 +287,9 @@ export async function listSites({ includeRetired = false }: { includeRetired?: b
   const rows = await getDb()
     .select({
       site: sites,
-      targetCount: sql<number>`(select count(*) from targets t where t.site_id = ${sites.id} and t.retired_at is null)`,
-      stationCount: sql<number>`(select count(*) from stations s where s.site_id = ${sites.id} and s.retired_at is null)`,
-      targetLabels: sql<string>`coalesce((select group_concat(label, ', ') from (select label from targets t where t.site_id = ${sites.id} and t.retired_at is null order by t.rowid)), '')`,
+      targetCount: sql<number>`(select count(*) from targets t where t.site_id = "sites"."id" and t.retired_at is null)`,
+      stationCount: sql<number>`(select count(*) from stations s where s.site_id = "sites"."id" and s.retired_at is null)`,
+      targetLabels: sql<string>`coalesce((select group_concat(label, ', ') from (select label from targets t where t.site_id = "sites"."id" and t.retired_at is null order by t.rowid)), '')`,
     })
     .from(sites)
     .where(includeRetired ? undefined : isNull(sites.retiredAt))
