@@ -115,7 +115,8 @@ async function stop(code: number) {
   process.exit(code);
 }
 process.on("SIGINT", () => {
-  console.log("\nStopping the demo…");
+  // Ctrl-C reaches this process (often twice, relayed by npm and tsx) and the app server alike
+  if (!stopping) console.log("\nStopping the demo…");
   void stop(0);
 });
 process.on("SIGTERM", () => void stop(0));

@@ -32,6 +32,7 @@ const summary = await seedDemo();
 for (const line of describeSeed(summary)) console.log(line);
 console.log(`Database: ${env.DATABASE_URL}`);
 console.log("Demo sign-in addresses (a one-time code is e-mailed at sign-in):");
-for (const u of DEMO_USERS) console.log(`  ${u.role.padEnd(6)}  ${u.email}  (${u.name})`);
+const width = Math.max(...DEMO_USERS.map((u) => u.email.length));
+for (const u of DEMO_USERS) console.log(`  ${u.role.padEnd(6)}  ${u.email.padEnd(width)}  ${u.name}`);
 db.$client.close();
 process.exit(summary.results.rejected.length ? 1 : 0);

@@ -82,7 +82,7 @@ export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
     toleranceMm: 8,
     tolerancePpm: 20,
     outdoor: true,
-    calibrationDue: "2026-11-30",
+    calibrationDue: "2027-03-31",
   },
   tripod: {
     id: DEMO_IDS.tripod,
@@ -95,7 +95,7 @@ export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
     toleranceMm: 3,
     tolerancePpm: 10,
     outdoor: true,
-    calibrationDue: "2026-09-15",
+    calibrationDue: "2027-06-30",
   },
   camera: {
     id: DEMO_IDS.camera,
@@ -108,7 +108,7 @@ export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
     toleranceMm: 10,
     tolerancePpm: 1000,
     outdoor: false,
-    calibrationDue: "2027-01-31",
+    calibrationDue: "2027-09-30",
   },
 };
 
