@@ -81,7 +81,9 @@ export async function listUsers(actor: Actor) {
       active: users.active,
       createdAt: users.createdAt,
       lastSignInAt: users.lastSignInAt,
-      activeSessions: sql<number>`(SELECT count(*) FROM auth_sessions s WHERE s.user_id = ${users.id} AND s.revoked_at IS NULL AND s.expires_at > ${now})`,
+      // Written out in full: drizzle renders ${users.id} unqualified here, which the subquery
+      // would read as s.id.
+      activeSessions: sql<number>`(SELECT count(*) FROM auth_sessions s WHERE s.user_id = "users"."id" AND s.revoked_at IS NULL AND s.expires_at > ${now})`,
     })
     .from(users)
     .orderBy(desc(users.active), asc(users.email));

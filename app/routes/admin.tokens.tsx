@@ -41,7 +41,7 @@ export async function action({ request }: Route.ActionArgs) {
     return data({ result: submission.reply({ fieldErrors: { userId: ["There is no such user."] } }), created: null, error: null }, { status: 400 });
   }
   // The value is shown on this answer only; the database keeps its hash.
-  return data({ result: submission.reply({ resetForm: true }), created: { name: submission.value.name, token: made.token }, error: null });
+  return data({ result: submission.reply(), created: { name: submission.value.name, token: made.token }, error: null });
 }
 
 function CopyButton({ value }: { value: string }) {

@@ -78,7 +78,7 @@ export default function AdminUser({ loaderData, actionData }: Route.ComponentPro
         <Form method="post" className="flex flex-wrap items-end gap-3">
           <input type="hidden" name="intent" value="role" />
           <div className="min-w-64 flex-1">
-            <label htmlFor="role" className="field-label">Role</label>
+            <label htmlFor="role" className="field-label">Role of {user.name || user.email}</label>
             <select id="role" name="role" defaultValue={user.role} className="input" key={user.role}>
               {ROLE_OPTIONS.map((r) => (
                 <option key={r} value={r}>{ROLE_TEXT[r]}</option>

@@ -60,8 +60,8 @@ export default function AdminUsers({ loaderData, actionData }: Route.ComponentPr
       <section aria-labelledby="invite-heading" className="card space-y-4">
         <h2 id="invite-heading" className="text-2xl font-bold">Invite a person</h2>
         <p>They get an e-mail with a link to the sign-in page. Only invited addresses can sign in.</p>
-        <Form method="post" {...getFormProps(form)} className="grid gap-4 md:grid-cols-3">
-          {form.errors?.length ? <div className="md:col-span-3"><Notice kind="error" id={form.errorId}>{form.errors.join(" ")}</Notice></div> : null}
+        <Form method="post" {...getFormProps(form)} className="grid gap-4 md:grid-cols-2">
+          {form.errors?.length ? <div className="md:col-span-2"><Notice kind="error" id={form.errorId}>{form.errors.join(" ")}</Notice></div> : null}
           <div>
             <label htmlFor={fields.email.id} className="field-label">E-mail address</label>
             <input {...getInputProps(fields.email, { type: "email" })} key={fields.email.key} className="input" autoComplete="off" />
@@ -72,7 +72,7 @@ export default function AdminUsers({ loaderData, actionData }: Route.ComponentPr
             <input {...getInputProps(fields.name, { type: "text" })} key={fields.name.key} className="input" autoComplete="off" />
             {fields.name.errors ? <p id={fields.name.errorId} className="field-error">{fields.name.errors.join(" ")}</p> : null}
           </div>
-          <div>
+          <div className="md:col-span-2">
             <label htmlFor={fields.role.id} className="field-label">Role</label>
             <select {...getSelectProps(fields.role)} key={fields.role.key} className="input">
               {ROLE_OPTIONS.map((r) => (
@@ -81,7 +81,7 @@ export default function AdminUsers({ loaderData, actionData }: Route.ComponentPr
             </select>
             {fields.role.errors ? <p id={fields.role.errorId} className="field-error">{fields.role.errors.join(" ")}</p> : null}
           </div>
-          <div className="md:col-span-3">
+          <div className="md:col-span-2">
             <button type="submit" className="btn" disabled={busy}>{busy ? "Sending…" : "Send invitation"}</button>
           </div>
         </Form>

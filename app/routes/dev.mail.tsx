@@ -68,7 +68,7 @@ export default function DevMail({ loaderData }: Route.ComponentProps) {
                 </p>
               ) : null}
               <details open={!m.code}>
-                <summary className="flex min-h-11 cursor-pointer items-center font-bold">Text of the message</summary>
+                <summary className="min-h-11 cursor-pointer py-2 font-bold">Text of the message</summary>
                 <pre className="mt-2 overflow-x-auto whitespace-pre-wrap break-words rounded-md border-2 border-line bg-bg p-3 text-base">
                   {m.text}
                 </pre>

@@ -62,7 +62,7 @@ export default function LoginCode({ loaderData, actionData }: Route.ComponentPro
           <input
             {...getInputProps(fields.code, { type: "text" })}
             key={fields.code.key}
-            className="input num min-h-16 text-center text-4xl font-bold tracking-[0.4em]"
+            className="input num min-h-16 pl-[calc(0.75rem+0.4em)] text-center text-4xl font-bold tracking-[0.4em]"
             inputMode="numeric"
             autoComplete="one-time-code"
             pattern="[0-9 ]*"

@@ -54,9 +54,13 @@ test("inviting sends the invitation e-mail, adds the user and writes the audit t
 
   // The redirect carries the flash message to the list.
   const list = await answerOf(() => adminUsers.loader(args(getRequest("/admin/users", { cookie: `${admin.cookie}; ${jar.header()}` }))));
-  const body = list.body as { users: { email: string }[]; flash: { text: string } };
+  const body = list.body as { users: { email: string; activeSessions: number }[]; flash: { text: string } };
   expect(body.flash.text).toBe("Invitation sent to mira.field@fernhollow.test.");
-  expect(body.users.map((x) => x.email)).toContain("mira.field@fernhollow.test");
+  // The admin has the one session minted above; the invited person has none yet.
+  expect(body.users.map((x) => [x.email, x.activeSessions])).toEqual([
+    ["mira.field@fernhollow.test", 0],
+    ["rowan@fernhollow.test", 1],
+  ]);
 });
 
 test("the invited person can sign in with a code", async () => {
