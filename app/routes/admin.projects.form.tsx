@@ -53,7 +53,7 @@ export function ProjectForm({
     id: "project-form",
     lastResult,
     defaultValue: defaultValue as never,
-    shouldValidate: "onBlur",
+    shouldValidate: "onSubmit",
     shouldRevalidate: "onInput",
     onValidate: ({ formData }) => parseRegistryForm(formData, projectSchema),
   });

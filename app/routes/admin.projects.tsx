@@ -30,7 +30,7 @@ export default function Projects({ loaderData }: Route.ComponentProps) {
       </div>
       <FlashNotice flash={flash} />
       <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/projects" : "/admin/projects?retired=show"} aria-pressed={includeRetired}>
+        <Link className="btn-secondary" to={includeRetired ? "/admin/projects" : "/admin/projects?retired=show"}>
           {includeRetired ? "Hide retired projects" : `Show retired projects (${retiredCount})`}
         </Link>
       </p>

@@ -58,7 +58,7 @@ export function SensorForm({
     id: "sensor-form",
     lastResult,
     defaultValue: defaultValue as never,
-    shouldValidate: "onBlur",
+    shouldValidate: "onSubmit",
     shouldRevalidate: "onInput",
     onValidate: ({ formData }) => parseRegistryForm(formData, sensorSchema),
   });

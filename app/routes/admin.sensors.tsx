@@ -81,7 +81,7 @@ export default function Sensors({ loaderData }: Route.ComponentProps) {
       </div>
       <FlashNotice flash={flash} />
       <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/sensors" : "/admin/sensors?retired=show"} aria-pressed={includeRetired}>
+        <Link className="btn-secondary" to={includeRetired ? "/admin/sensors" : "/admin/sensors?retired=show"}>
           {includeRetired ? "Hide retired sensors" : `Show retired sensors (${retiredCount})`}
         </Link>
       </p>

@@ -90,7 +90,7 @@ export function SiteForm({
     id: "site-form",
     lastResult,
     defaultValue: defaultValue as never,
-    shouldValidate: "onBlur",
+    shouldValidate: "onSubmit",
     shouldRevalidate: "onInput",
     onValidate: ({ formData }) => parseRegistryForm(formData, siteSchema),
   });

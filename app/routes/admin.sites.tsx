@@ -50,7 +50,7 @@ export default function Sites({ loaderData }: Route.ComponentProps) {
       </div>
       <FlashNotice flash={flash} />
       <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/sites" : "/admin/sites?retired=show"} aria-pressed={includeRetired}>
+        <Link className="btn-secondary" to={includeRetired ? "/admin/sites" : "/admin/sites?retired=show"}>
           {includeRetired ? "Hide retired sites" : `Show retired sites (${retiredCount})`}
         </Link>
       </p>

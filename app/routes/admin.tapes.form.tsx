@@ -43,7 +43,7 @@ export function TapeForm({
     id: "tape-form",
     lastResult,
     defaultValue: defaultValue as never,
-    shouldValidate: "onBlur",
+    shouldValidate: "onSubmit",
     shouldRevalidate: "onInput",
     onValidate: ({ formData }) => parseRegistryForm(formData, tapeSchema),
   });

@@ -30,7 +30,7 @@ export default function Tapes({ loaderData }: Route.ComponentProps) {
       </div>
       <FlashNotice flash={flash} />
       <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/tapes" : "/admin/tapes?retired=show"} aria-pressed={includeRetired}>
+        <Link className="btn-secondary" to={includeRetired ? "/admin/tapes" : "/admin/tapes?retired=show"}>
           {includeRetired ? "Hide retired tapes" : `Show retired tapes (${retiredCount})`}
         </Link>
       </p>
