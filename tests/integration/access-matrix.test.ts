@@ -12,13 +12,20 @@ import { ROLES, users, type Role } from "~/db/schema";
 import { answerOf, args, type Answer } from "./auth-helpers";
 
 type Entry = { file: string; path?: string; index?: boolean; children?: Entry[] };
-type Flat = { file: string; path: string };
+/** A route with its full path and its layouts, nearest last. */
+type Flat = { file: string; path: string; ancestors: string[] };
 
-function walk(entries: readonly Entry[], parent = ""): Flat[] {
+function walk(entries: readonly Entry[], parent = "", ancestors: string[] = []): Flat[] {
   return entries.flatMap((e) => {
     const path = e.path ? `${parent.replace(/\/$/, "")}/${e.path}` : parent || "/";
-    return [{ file: e.file, path }, ...walk(e.children ?? [], path)];
+    return [{ file: e.file, path, ancestors }, ...walk(e.children ?? [], path, [...ancestors, e.file])];
   });
+}
+
+type Mod = { loader?: (a: never) => Promise<unknown>; action?: (a: never) => Promise<unknown>; default?: unknown };
+
+async function load(file: string): Promise<Mod> {
+  return (await import(/* @vite-ignore */ resolve(process.cwd(), "app", file))) as Mod;
 }
 
 const FLAT = walk(routes as unknown as Entry[]);
@@ -96,20 +103,27 @@ for (const route of FLAT) {
   test(`${route.file} (${route.path}) answers each role exactly as ACCESS says`, async () => {
     const access = ACCESS[route.file];
     expect(access, `${route.file} is missing from ACCESS in app/auth/access.ts`).toBeTruthy();
-    const abs = resolve(process.cwd(), "app", route.file);
-    expect(existsSync(abs), `${route.file} is listed in app/routes.ts but does not exist`).toBe(true);
-    const mod = (await import(/* @vite-ignore */ abs)) as {
-      loader?: (a: never) => Promise<unknown>;
-      action?: (a: never) => Promise<unknown>;
-      default?: unknown;
-    };
+    expect(existsSync(resolve(process.cwd(), "app", route.file)), `${route.file} is listed in app/routes.ts but does not exist`).toBe(true);
+    const mod = await load(route.file);
     const resource = !mod.default;
     const api = route.path.startsWith("/api/");
 
     // Each handler the module has must be in the matrix, and each matrix entry must be enforced
-    // by a handler (a page without a loader cannot enforce anything but "public").
+    // by a handler. A page without a server loader (one that reads only the tablet's IndexedDB)
+    // sends no server data of its own; its GET is then enforced by the nearest layout that has
+    // a loader, which is called below with this page's URL and must answer as this page's entry.
     if (mod.loader) expect(access!.GET, `${route.file} has a loader but ACCESS has no GET`).toBeTruthy();
-    if (access!.GET && access!.GET !== "public") expect(mod.loader, `${route.file}: ACCESS restricts GET but there is no loader`).toBeTruthy();
+    let getLoader = mod.loader;
+    if (!getLoader && access!.GET && access!.GET !== "public") {
+      for (const a of [...route.ancestors].reverse()) {
+        const parent = await load(a);
+        if (parent.loader && ACCESS[a]?.GET && ACCESS[a]!.GET !== "public") {
+          getLoader = parent.loader;
+          break;
+        }
+      }
+      expect(getLoader, `${route.file}: ACCESS restricts GET but neither it nor a layout above it has a loader`).toBeTruthy();
+    }
     const writeMethods = METHODS.filter((m) => m !== "GET" && access![m]);
     if (mod.action) expect(writeMethods.length, `${route.file} has an action but ACCESS lists no POST/PUT/PATCH/DELETE`).toBeGreaterThan(0);
     for (const m of writeMethods) expect(mod.action, `${route.file}: ACCESS lists ${m} but there is no action`).toBeTruthy();
@@ -119,7 +133,7 @@ for (const route of FLAT) {
     for (const method of METHODS) {
       const allowed = access![method];
       if (!allowed) continue;
-      const fn = method === "GET" ? mod.loader : mod.action;
+      const fn = method === "GET" ? getLoader : mod.action;
       if (!fn) continue;
       for (const who of WHO) {
         const request = requestFor(method, url, api, await cookieFor(who));
