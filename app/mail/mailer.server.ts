@@ -152,13 +152,17 @@ export async function retryMails(opts: { limit?: number; now?: Date } = {}) {
   return { sent, failed };
 }
 
-let timer: ReturnType<typeof setInterval> | undefined;
+// On globalThis so a module reloaded by the dev server does not start a second timer.
+const TIMER_KEY = Symbol.for("shotbook.mailRetryTimer");
+type TimerHolder = { [TIMER_KEY]?: ReturnType<typeof setInterval> };
 
 /** A background retry every 5 minutes in a running server (not in tests). */
 function ensureRetryTimer() {
-  if (timer || getEnv().NODE_ENV === "test") return;
-  timer = setInterval(() => void retryMails().catch(() => undefined), RETRY_INTERVAL_MS);
+  const holder = globalThis as TimerHolder;
+  if (holder[TIMER_KEY] || getEnv().NODE_ENV === "test") return;
+  const timer = setInterval(() => void retryMails().catch(() => undefined), RETRY_INTERVAL_MS);
   timer.unref?.();
+  holder[TIMER_KEY] = timer;
 }
 
 // The server bundle loads every route module at boot, so a restarted server with failed
