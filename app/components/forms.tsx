@@ -14,7 +14,8 @@ function errorsOf(meta: Meta, all = false): string[] {
 }
 
 export function FieldErrors({ id, errors }: { id: string; errors: string[] }) {
-  if (errors.length === 0) return <div id={id} />;
+  // Hidden when empty: no gap in a grid, still there for aria-describedby.
+  if (errors.length === 0) return <span id={id} hidden />;
   return (
     <div id={id} className="field-error" role="alert">
       {errors.map((e) => (

@@ -28,7 +28,7 @@ function text(what: string, max = 80) {
 }
 
 function yesNo(what: string) {
-  return z.boolean({ error: `Say whether ${what} (true or false)` });
+  return z.boolean({ error: `Say whether ${what}` });
 }
 
 const notes = z.string().trim().max(2000, "Keep the notes to 2000 characters").optional();

@@ -74,7 +74,7 @@ export function SensorForm({
       <section className="card grid gap-4 sm:grid-cols-2">
         <h2 className="text-xl font-bold sm:col-span-2">Identity</h2>
         <Field meta={fields.label} label="Label" hint="What the crew sees, e.g. “Roof scanner”." />
-        <Field meta={fields.serial} label="Serial number" />
+        <Field meta={fields.serial} label="Serial number" hint="As printed on the sensor." />
         <RadioGroup
           className="sm:col-span-2"
           meta={fields.kind}
@@ -137,7 +137,7 @@ export function SensorForm({
 
       <section className="card grid gap-4 sm:grid-cols-2">
         <h2 className="text-xl font-bold sm:col-span-2">Tolerance ±(a + b × distance)</h2>
-        <NumberField meta={fields.toleranceMm} label="a, constant part" unit="mm" />
+        <NumberField meta={fields.toleranceMm} label="a, constant part" unit="mm" hint="The same at every distance." />
         <NumberField meta={fields.tolerancePpm} label="b, part per distance" unit="ppm" hint="1 ppm = 1 mm per km." />
         <p className="num text-lg sm:col-span-2" aria-live="polite">
           {tolOk ? (
