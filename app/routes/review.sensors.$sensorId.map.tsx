@@ -10,7 +10,7 @@ import { autoCellSideM, DIVERGING, hexBins, scaleMaxMm } from "~/components/revi
 import { fetchAllShots } from "~/components/review/use-report";
 import { LegendSwatch } from "~/components/review/charts";
 import { bandWord, dateOnly, dateTime, mm, mmSigned, metres } from "~/components/review/format";
-import { VerdictBadge } from "~/components/verdict-badge";
+import { WithinWord } from "~/components/review/shot-table";
 import { reflectanceClass } from "~/domain";
 import type { ReportJson, ShotDetail } from "~/components/review/types";
 
@@ -41,11 +41,11 @@ function rangeBandOfLabel(d: number, labels: string[]): string | null {
 
 export default function ReviewMap({ loaderData }: Route.ComponentProps) {
   const { sensor, sessions, site, basemapUrl } = loaderData;
-  const [sp, setSp] = useSearchParams();
-  const session = sp.get("session") ?? "";
-  const band = sp.get("band") ?? "";
-  const refl = sp.get("refl") ?? "";
-  const hex = sp.get("hex") === "1";
+  // Filters start from the address (a link from the report carries its session) and then live
+  // in the page: changing one redraws the map without asking the server.
+  const [sp] = useSearchParams();
+  const [filters, setFilters] = useState(() => ({ session: sp.get("session") ?? "", band: sp.get("band") ?? "", refl: sp.get("refl") ?? "", hex: sp.get("hex") === "1" }));
+  const { session, band, refl, hex } = filters;
   const [useBasemap, setUseBasemap] = useState(false);
   const [mounted, setMounted] = useState(false);
   const [geo, setGeo] = useState<FeatureCollection<Point> | null>(null);
@@ -114,11 +114,8 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
     [site, shots, hexes],
   );
 
-  function set(k: string, v: string) {
-    const next = new URLSearchParams(sp);
-    if (v) next.set(k, v);
-    else next.delete(k);
-    setSp(next, { replace: true, preventScrollReset: true });
+  function set(k: "session" | "band" | "refl" | "hex", v: string) {
+    setFilters((f) => ({ ...f, [k]: k === "hex" ? v === "1" : v }));
   }
 
   const pick = selected ? shots.features.find((f) => f.properties.id === selected)?.properties ?? null : null;
@@ -191,7 +188,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
           {pick ? (
             <>
               <h2 className="text-xl font-bold">Shot {dateTime(pickRow?.takenAt ?? null)}</h2>
-              <p><VerdictBadge verdict={pick.within ? "pass" : "fail"} /> {pick.within ? "within its limit" : "outside its limit"}</p>
+              <p><WithinWord within={pick.within} /> its limit</p>
               <dl className="num grid grid-cols-2 gap-x-3 gap-y-1">
                 <dt className="font-bold">Error</dt><dd>{mmSigned(pick.errorMm, 2)}</dd>
                 <dt className="font-bold">Limit</dt><dd>± {mm(pick.limitMm, 2)}</dd>

@@ -27,7 +27,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   return { ...head, report, signOffs, project, query: q, generatedAt: new Date().toISOString(), by: user.name || user.email };
 }
 
+// The report is paper: always the daylight colours, whatever theme the screen uses.
 const PRINT_CSS = `
+.print-paper { --bg: #ffffff; --surface: #ffffff; --fg: #000000; --muted: #333a45; --border: #555b66; --accent: #0b4fb3; --pass: #0a6b2d; --fail: #b3001b; --warn: #8a4b00; background: var(--bg); color: var(--fg); padding: 16px; border-radius: 8px; }
 @page { size: A4; margin: 14mm 12mm 16mm; }
 @media print {
   .print-page { font-size: 10.5pt; }
@@ -46,7 +48,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
   const period = query.from || query.to ? `${query.from ?? "first shot"} to ${query.to ?? "last shot"}` : "all dates";
   const last = signOffs[0];
   return (
-    <article className="print-page mx-auto max-w-4xl space-y-5" data-testid="print-report">
+    <article className="print-page print-paper mx-auto max-w-4xl space-y-5" data-testid="print-report">
       <style>{PRINT_CSS}</style>
       <div className="no-print flex flex-wrap gap-2">
         <button type="button" className="btn" onClick={() => window.print()}>Print or save as PDF</button>
@@ -95,7 +97,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         {report.drift.length ? <DriftChart drift={report.drift} biasLimitMm={biasLimit} /> : <p>No sessions.</p>}
       </section>
 
-      <section className="grid gap-4 sm:grid-cols-3">
+      <section className="grid gap-4">
         <BandTable title="By reflectance" rows={report.byReflectance} />
         <BandTable title="By illuminance" rows={report.byIlluminance} />
         <BandTable title="By range band" rows={report.byRange} />

@@ -45,7 +45,7 @@ export async function action({ request, params }: Route.ActionArgs) {
 
 /** Filters live in the address; changing them refetches the report, not this loader. */
 export function shouldRevalidate({ currentUrl, nextUrl, formMethod, defaultShouldRevalidate }: ShouldRevalidateFunctionArgs) {
-  if (!formMethod && currentUrl.pathname === nextUrl.pathname) return false;
+  if (!formMethod && currentUrl.pathname === nextUrl.pathname && currentUrl.search !== nextUrl.search) return false;
   return defaultShouldRevalidate;
 }
 
@@ -205,7 +205,7 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
               {report.drift.length ? <DriftChart drift={report.drift} biasLimitMm={biasLimit} /> : <p className="text-muted">No sessions in this selection.</p>}
             </section>
           </div>
-          <section aria-labelledby="h-bands" className="grid gap-6 lg:grid-cols-3">
+          <section aria-labelledby="h-bands" className="grid gap-6 xl:grid-cols-3">
             <h2 id="h-bands" className="sr-only">Breakdowns</h2>
             <BandTable title="By reflectance" rows={report.byReflectance} />
             <BandTable title="By illuminance" rows={report.byIlluminance} />

@@ -9,8 +9,8 @@ import { bandWord } from "./format";
 type PlotModule = typeof import("@observablehq/plot");
 type Palette = { fg: string; muted: string; pass: string; fail: string; warn: string; accent: string; bg: string; line: string };
 
-function palette(): Palette {
-  const s = getComputedStyle(document.documentElement);
+function palette(el: Element): Palette {
+  const s = getComputedStyle(el);
   const v = (n: string) => s.getPropertyValue(n).trim();
   return { fg: v("--fg"), muted: v("--muted"), pass: v("--pass"), fail: v("--fail"), warn: v("--warn"), accent: v("--accent"), bg: v("--bg"), line: v("--border") };
 }
@@ -32,7 +32,11 @@ function PlotBox({ build, deps, label, height }: { build: (P: PlotModule, width:
     let gone = false;
     import("@observablehq/plot").then((P) => {
       if (gone) return;
-      const node = build(P, width, palette());
+      const node = build(P, width, palette(el));
+      // The box is one image with its own label; Plot's per-mark labels on <g> are not allowed there.
+      for (const g of node.querySelectorAll("[aria-label]")) g.removeAttribute("aria-label");
+      for (const svg of node.querySelectorAll("svg")) svg.setAttribute("aria-hidden", "true");
+      if (node instanceof SVGElement) node.setAttribute("aria-hidden", "true");
       el.replaceChildren(node);
     });
     return () => {
@@ -121,7 +125,7 @@ export function MatrixChart({ cells, worst }: { cells: MatrixCell[]; worst: Matr
             marginLeft: 150,
             marginBottom: 48,
             style: baseStyle(c),
-            x: { domain: [...ILLUMINANCE_ORDER], label: "Illuminance at the target", tickFormat: (b: string) => bandWord(b).replace(/ \(.*/, "") + (b === "low" ? " <10 klux" : b === "moderate" ? " 10–50 klux" : " ≥50 klux") },
+            x: { domain: [...ILLUMINANCE_ORDER], label: "Illuminance at the target (klux)", tickFormat: (b: string) => (b === "low" ? "< 10" : b === "moderate" ? "10–50" : "≥ 50, sun") },
             y: { domain: present, label: null, tickFormat: (b: string) => bandWord(b) },
             color: { type: "diverging", scheme: "RdBu", reverse: true, domain: [-maxAbs, maxAbs], pivot: 0, legend: true, label: "Bias (mm)" },
             marks: [
@@ -131,9 +135,10 @@ export function MatrixChart({ cells, worst }: { cells: MatrixCell[]; worst: Matr
                 x: "illuminance",
                 y: "reflectance",
                 text: (d: MatrixCell) => `${d.biasMm >= 0 ? "+" : "−"}${Math.abs(d.biasMm).toFixed(1)} mm\nn ${d.n}${d.outside ? ` · ${d.outside} out` : ""}`,
-                fill: "#000",
-                stroke: "#fff",
-                strokeWidth: 3,
+                // dark text on pale cells, white on saturated ones
+                fill: (d: MatrixCell) => (Math.abs(d.biasMm) > 0.55 * maxAbs ? "#fff" : "#000"),
+                stroke: (d: MatrixCell) => (Math.abs(d.biasMm) > 0.55 * maxAbs ? "#000" : "#fff"),
+                strokeWidth: 2,
                 fontSize: 15,
                 fontWeight: "bold",
               }),
@@ -160,7 +165,7 @@ export function DriftChart({ drift, biasLimitMm }: { drift: DriftRow[]; biasLimi
             height: 260,
             marginLeft: 56,
             style: baseStyle(c),
-            x: { type: "utc", label: "Session start →", nice: true },
+            x: { type: "utc", label: "Session start (UTC) →", ticks: data.length <= 6 ? data.map((d) => d.t) : 5, tickFormat: "%Y-%m-%d %H:%M", inset: 40 },
             y: { label: "↑ Session bias (mm)", grid: true, nice: true },
             marks: [
               biasLimitMm != null ? P.ruleY([biasLimitMm, -biasLimitMm], { stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }) : null,

@@ -1,7 +1,7 @@
 // The shot table of a sensor report: sortable, filterable, paged; flags, excluded state and a
 // photo thumbnail per shot; QA excludes (with a written reason) and restores from here.
 import { useMemo, useState } from "react";
-import { VerdictBadge } from "~/components/verdict-badge";
+import { VerdictShape } from "~/components/verdict-badge";
 import { dateTime, num, signed } from "./format";
 import type { ReportShotRow, ShotDetail } from "./types";
 
@@ -159,6 +159,7 @@ function ShotRow(props: {
   const [reason, setReason] = useState("");
   const [error, setError] = useState<string | null>(null);
   const formId = `excl-${r.id}`;
+  const strike = r.excluded ? "line-through decoration-2" : "";
   async function submit(e: React.FormEvent) {
     e.preventDefault();
     const text = reason.trim();
@@ -173,13 +174,13 @@ function ShotRow(props: {
   }
   return (
     <>
-      <tr className={`border-b border-line num ${r.excluded ? "text-muted line-through decoration-1" : ""}`} data-shot={r.id} data-excluded={r.excluded}>
-        <td className="py-1 pr-2 whitespace-nowrap no-underline">{dateTime(r.takenAt)}</td>
-        <td className="py-1 pr-2 text-right">{num(r.referenceM, 3)}</td>
-        <td className="py-1 pr-2 text-right">{num(r.rangeM, 3)}</td>
-        <td className="py-1 pr-2 text-right font-bold">{signed(r.errorMm, 2)}</td>
-        <td className="py-1 pr-2 text-right">{num(r.limitMm, 2)}</td>
-        <td className="py-1 pr-2"><VerdictBadge verdict={r.within ? "pass" : "fail"} /></td>
+      <tr className={`border-b border-line num ${r.excluded ? "text-muted" : ""}`} data-shot={r.id} data-excluded={r.excluded}>
+        <td className="py-1 pr-2 whitespace-nowrap">{dateTime(r.takenAt)}</td>
+        <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.referenceM, 3)}</td>
+        <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.rangeM, 3)}</td>
+        <td className={`py-1 pr-2 text-right font-bold ${strike}`}>{signed(r.errorMm, 2)}</td>
+        <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.limitMm, 2)}</td>
+        <td className="py-1 pr-2"><WithinWord within={r.within} /></td>
         <td className="py-1 pr-2">
           {d?.targetLabel ?? "—"}
           {d?.reflectancePct != null ? <span className="block text-sm text-muted">{num(d.reflectancePct, 0)} % · {d.illuminanceKlux == null ? "— klux" : `${num(d.illuminanceKlux, 0)} klux`}</span> : null}
@@ -239,5 +240,15 @@ function ShotRow(props: {
         </tr>
       ) : null}
     </>
+  );
+}
+
+/** A shot is within or outside its limit: the word and the verdict shapes, never colour alone. */
+export function WithinWord({ within }: { within: boolean }) {
+  return (
+    <span className={`inline-flex items-center gap-1.5 font-bold ${within ? "text-pass" : "text-fail"}`}>
+      <VerdictShape verdict={within ? "pass" : "fail"} />
+      {within ? "Within" : "Outside"}
+    </span>
   );
 }

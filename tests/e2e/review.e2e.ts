@@ -1,0 +1,208 @@
+// QA review in the browser against the built server: a QA lead opens the failing sensor, sees
+// which test fails with its value and limit and where (dark targets in bright sun), excludes a
+// shot with a reason and watches the figures change, signs off (the e-mail lands in the mail
+// fake), opens the range-error map with its legend, and imports a CSV of good and bad rows.
+// With REVIEW_SCREENSHOTS=<dir>, every screen is also saved in both themes for a person to look at.
+import { existsSync, mkdirSync, readdirSync, readFileSync } from "node:fs";
+import { join } from "node:path";
+import { afterAll, beforeAll, expect, inject, test } from "vitest";
+import type { Browser, BrowserContext, Page } from "playwright-core";
+import { launchBrowser, newContext, seriousA11yViolations, signInAs, useServerEnv } from "./helpers";
+import type { ReviewWorld } from "../support/review-fixtures";
+
+let browser: Browser;
+let w: ReviewWorld;
+const SHOTS = process.env.REVIEW_SCREENSHOTS;
+
+beforeAll(async () => {
+  useServerEnv();
+  const { reviewWorld } = await import("../support/review-fixtures");
+  w = await reviewWorld();
+  browser = await launchBrowser();
+  if (SHOTS) mkdirSync(SHOTS, { recursive: true });
+});
+afterAll(async () => {
+  await browser?.close();
+});
+
+async function as(email: string, viewport = { width: 1280, height: 900 }): Promise<{ context: BrowserContext; page: Page }> {
+  const context = await newContext(browser, { viewport });
+  await signInAs(context, email);
+  return { context, page: await context.newPage() };
+}
+
+async function figure(page: Page, label: string) {
+  return (await page.getByTestId("figures").locator("div", { has: page.getByText(label, { exact: true }) }).locator("dd").first().textContent())?.trim();
+}
+
+function mailsFor(address: string) {
+  const dir = inject("mailDir");
+  if (!existsSync(dir)) return [];
+  return readdirSync(dir)
+    .filter((f) => f.endsWith(".eml") && f.includes(address.replace(/[^a-zA-Z0-9@._,-]/g, "_")))
+    .map((f) => readFileSync(join(dir, f), "utf8"));
+}
+
+test("a QA lead sees which sensor fails and why, excludes a shot with a reason, and signs it off", async () => {
+  const { context, page } = await as(w.users.qa.email);
+  await page.goto("/review");
+  const first = page.getByTestId("sensor-overview").locator("tbody tr").first();
+  expect(await first.getAttribute("data-sensor")).toBe(w.failing.id);
+  expect(await first.textContent()).toMatch(/Fail.*on .*bias/);
+
+  await first.getByRole("link", { name: "Roof scanner RS-1" }).click();
+  await page.waitForURL(`**/review/sensors/${w.failing.id}`);
+  const why = page.getByTestId("why");
+  await why.waitFor();
+  const whyText = (await why.textContent()) ?? "";
+  expect(whyText).toMatch(/Bias \+\d+\.\d\d mm is beyond the limit ±5\.00 mm/);
+  const bias = await page.locator('[data-test="bias"]').textContent();
+  expect(bias).toMatch(/Bias\+\d+\.\d\d mm\|bias\| at most ±5\.00 mm/);
+  expect(await page.locator('[data-test="bias"]').getAttribute("data-pass")).toBe("false");
+  // where it fails: the worst reflectance × illuminance cell
+  expect(await page.getByTestId("worst-cell").textContent()).toMatch(/dark.*targets.*high.*bright sun/i);
+  // the charts drew (Plot SVGs)
+  await page.locator("figure svg").first().waitFor();
+  expect(await page.locator("figure svg").count()).toBeGreaterThanOrEqual(3);
+
+  const nBefore = await figure(page, "Shots used (n)");
+  const biasBefore = await figure(page, "Bias");
+  expect(nBefore).toBe("30");
+
+  await page.getByLabel("Show").selectOption("outside");
+  const row = page.getByTestId("shot-table").locator("tbody tr[data-shot]").first();
+  await row.getByRole("button", { name: "Exclude…" }).click();
+  await page.getByRole("button", { name: "Exclude shot" }).click();
+  expect(await page.locator(".field-error").first().textContent()).toMatch(/Write why/);
+  await page.getByLabel(/Reason for excluding/).fill("Target board tilted by the wind; photo shows it");
+  await page.getByRole("button", { name: "Exclude shot" }).click();
+  await page.getByText("Shot excluded; the figures below are recomputed.").waitFor();
+  await page.waitForFunction(() => {
+    const dd = [...document.querySelectorAll('[data-testid="figures"] div')].find((d) => d.querySelector("dt")?.textContent === "Shots used (n)");
+    return dd?.querySelector("dd")?.textContent === "29";
+  });
+  expect(await figure(page, "Bias")).not.toBe(biasBefore);
+  await page.getByLabel("Show").selectOption("excluded");
+  await page.getByText("Excluded because: Target board tilted by the wind; photo shows it").waitFor();
+
+  expect(await seriousA11yViolations(page)).toEqual([]);
+
+  await page.getByLabel("✗ Reject (pull from the job)").check();
+  await page.getByLabel(/^Note/).fill("Dark boards in full sun read long; sensor back to the maker.");
+  await page.getByRole("button", { name: "Record the sign-off" }).click();
+  await page.getByTestId("signoff-done").waitFor();
+  expect(await page.getByTestId("signoff-history").textContent()).toMatch(/Rejected/);
+
+  let mail: string[] = [];
+  for (let i = 0; i < 50 && mail.length === 0; i++) {
+    mail = mailsFor(w.users.crew.email).filter((m) => /rejected/i.test(m));
+    if (!mail.length) await new Promise((r) => setTimeout(r, 100));
+  }
+  expect(mail).toHaveLength(1);
+  expect(mail[0]).toMatch(/Roof scanner RS-1/);
+  expect(mailsFor(w.users.admin.email).some((m) => /rejected/i.test(m))).toBe(true);
+  await context.close();
+});
+
+test("a viewer reads the report without exclusion or sign-off controls", async () => {
+  const { context, page } = await as(w.users.viewer.email);
+  await page.goto(`/review/sensors/${w.passing.id}`);
+  await page.getByTestId("tests-table").waitFor();
+  expect(await page.getByRole("button", { name: "Exclude…" }).count()).toBe(0);
+  expect(await page.getByRole("button", { name: "Record the sign-off" }).count()).toBe(0);
+  expect(await page.getByTestId("verdict-headline").textContent()).toContain("Pass");
+  await context.close();
+});
+
+test("the range-error map draws offline with its legend in mm, and a click opens a shot", async () => {
+  const { context, page } = await as(w.users.qa.email);
+  const external: string[] = [];
+  page.on("request", (r) => {
+    if (!r.url().startsWith(inject("baseURL")) && !r.url().startsWith("blob:") && !r.url().startsWith("data:")) external.push(r.url());
+  });
+  await page.goto(`/review/sensors/${w.failing.id}/map`);
+  await page.locator('[data-map-ready="true"]').waitFor({ timeout: 30_000 });
+  const legend = (await page.getByTestId("map-legend").textContent()) ?? "";
+  expect(legend).toMatch(/Signed range error \(mm\)/);
+  expect(legend).toMatch(/−\d+ mm.*\+\d+ mm/);
+  expect(legend).toMatch(/outside its limit/);
+  await page.getByText(/30 of 30 located shots shown/).waitFor();
+  await page.getByLabel("Reflectance").selectOption("dark");
+  await page.getByText(/14 of 30 located shots shown/).waitFor();
+  await page.waitForTimeout(600);
+  if (SHOTS) await page.screenshot({ path: join(SHOTS, "map-light.png"), fullPage: true });
+  // click the middle of the map where the shot corridor runs
+  const box = (await page.getByTestId("range-map").boundingBox())!;
+  let opened = false;
+  for (const dy of [0, -40, 40, -80, 80, -120, 120]) {
+    await page.mouse.click(box.x + box.width / 2, box.y + box.height / 2 + dy);
+    if ((await page.getByTestId("shot-details").textContent())?.includes("Error")) {
+      opened = true;
+      break;
+    }
+  }
+  expect(opened).toBe(true);
+  await page.getByLabel("Hexagon bins (dense corridors)").check();
+  await page.getByText("Mean range error per hexagon (mm)").waitFor();
+  expect(external).toEqual([]);
+  await context.close();
+});
+
+const CSV = [
+  "Timestamp,Board,Ref dist [m],Range [m],Lux [klux]",
+  "2026-05-07 10:00:00,Dark board,25.000,25.004,70",
+  "2026-05-07 10:00:10,White board,25.000,25.001,70",
+  "2026-05-07 10:00:20,Grey board,40.000,40.0015,71",
+  "yesterday,White board,25.000,25.001,70",
+  "2026-05-07 10:00:40,No such board,25.000,25.001,70",
+  "2026-05-07 10:00:50,White board,25.000,-3,70",
+].join("\n");
+
+test("a CSV of good and bad rows: the preview lists the bad ones, the good ones are imported", async () => {
+  const { context, page } = await as(w.users.qa.email);
+  await page.goto("/review/import");
+  await page.getByLabel("Sensor").selectOption(w.passing.id);
+  await page.getByLabel("Site", { exact: true }).selectOption(w.site.id);
+  await page.getByLabel("CSV file").setInputFiles({ name: "tripod-export.csv", mimeType: "text/csv", buffer: Buffer.from(CSV) });
+  await page.getByTestId("import-counts").waitFor();
+  await page.getByLabel("Sensor range *").selectOption("Range [m]");
+  expect(await page.getByTestId("import-counts").textContent()).toMatch(/3 valid rows, 3 with errors/);
+  const errors = (await page.getByTestId("import-row-errors").textContent()) ?? "";
+  expect(errors).toMatch(/Row 5: Time: “yesterday” is not a date and time/);
+  expect(errors).toMatch(/Row 6: Target “No such board” is not one of this site's targets/);
+  expect(errors).toMatch(/Row 7: Sensor range: must be above 0/);
+  if (SHOTS) await page.screenshot({ path: join(SHOTS, "import-light.png"), fullPage: true });
+  await page.getByRole("button", { name: "Import 3 valid rows" }).click();
+  await page.getByText("3 imported, 0 already there, 0 refused.").waitFor();
+  await context.close();
+});
+
+test.runIf(!!SHOTS)("screenshots of every review screen in both themes", async () => {
+  const { context, page } = await as(w.users.qa.email, { width: 1180, height: 820 });
+  const screens: [string, string, string][] = [
+    ["overview", "/review", "sensor-overview"],
+    ["report", `/review/sensors/${w.failing.id}`, "tests-table"],
+    ["print", `/review/sensors/${w.failing.id}/print`, "print-report"],
+    ["map", `/review/sensors/${w.failing.id}/map`, "map-legend"],
+    ["import", "/review/import", ""],
+  ];
+  for (const theme of ["light", "dark"]) {
+    if (theme === "dark") {
+      await page.goto("/review");
+      await page.getByRole("button", { name: "Switch to dark theme" }).click();
+      await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
+    }
+    for (const [name, path, testId] of screens) {
+      await page.goto(path);
+      if (testId) await page.getByTestId(testId).waitFor();
+      if (name === "map") await page.locator('[data-map-ready="true"]').waitFor({ timeout: 30_000 });
+      await page.waitForTimeout(900);
+      await page.screenshot({ path: join(SHOTS!, `${name}-${theme}.png`), fullPage: true });
+    }
+  }
+  await page.emulateMedia({ media: "print" });
+  await page.goto(`/review/sensors/${w.failing.id}/print`);
+  await page.waitForTimeout(900);
+  await page.screenshot({ path: join(SHOTS!, "print-media.png"), fullPage: true });
+  await context.close();
+});
