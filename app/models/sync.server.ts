@@ -2,7 +2,8 @@
 // is validated on its own (a rejected one never blocks the others), every derived figure is
 // recomputed here from the raw observation, and all accepted records of one request are
 // written in one transaction. Used by the sync route, the CSV import and the demo seed.
-import { inArray } from "drizzle-orm";
+import { getTableColumns, getTableName, inArray, type InferInsertModel } from "drizzle-orm";
+import type { SQLiteTable } from "drizzle-orm/sqlite-core";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
 import { airState, DomainError } from "~/domain";
@@ -59,6 +60,32 @@ const writeLock = new Mutex();
 const INSERT_CHUNK = 250;
 
 type Answer = { status: number; body: unknown; headers?: Record<string, string> };
+type Stmt = { sql: string; args: (string | number | null)[] };
+
+/**
+ * Multi-row INSERT statements built by hand from drizzle's column map: the same SQL drizzle
+ * writes, without its per-value query builder, which cost more than the insert itself here.
+ */
+function insertStatements<T extends SQLiteTable>(table: T, rows: InferInsertModel<T>[]): Stmt[] {
+  if (!rows.length) return [];
+  const columns = getTableColumns(table);
+  const keys = Object.keys(rows[0]!).filter((k) => k in columns);
+  const names = keys.map((k) => `"${columns[k]!.name}"`).join(", ");
+  // text and real columns go as they are; booleans and JSON through drizzle's own mapping
+  const plain = keys.map((k) => columns[k]!.columnType === "SQLiteText" || columns[k]!.columnType === "SQLiteReal");
+  const one = `(${keys.map(() => "?").join(", ")})`;
+  return chunks(rows, INSERT_CHUNK).map((part) => {
+    const args: Stmt["args"] = [];
+    for (const row of part) {
+      const r = row as Record<string, unknown>;
+      for (let i = 0; i < keys.length; i++) {
+        const v = r[keys[i]!];
+        args.push(v == null ? null : plain[i] ? (v as string | number) : (columns[keys[i]!]!.mapToDriverValue(v) as string | number));
+      }
+    }
+    return { sql: `INSERT INTO "${getTableName(table)}" (${names}) VALUES ${part.map(() => one).join(", ")}`, args };
+  });
+}
 
 const conflict = (kind: string): RecordError[] => [
   { path: "id", message: `a different ${kind} with this id is already synced; synced records are never overwritten — give the changed record a new id` },
@@ -267,25 +294,23 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
     const counts = { accepted: 0, duplicate: 0, rejected: 0 };
     for (const r of results) counts[r.status]++;
     if (sessionRows.length || shotRows.length || counts.rejected) {
-      const stmts = [
-        ...chunks(sessionRows, INSERT_CHUNK).map((c) => db.insert(checkSessions).values(c).toSQL()),
-        ...chunks(shotRows, INSERT_CHUNK).map((c) => db.insert(shots).values(c).toSQL()),
-        db
-          .insert(auditLog)
-          .values({
-            actorUserId: actor.id,
-            action: "sync",
-            entity: "device",
-            entityId: deviceId,
-            detail: { sessions: sessionRows.length, shots: shotRows.length, ...counts },
-          })
-          .toSQL(),
+      const audit = db
+        .insert(auditLog)
+        .values({
+          actorUserId: actor.id,
+          action: "sync",
+          entity: "device",
+          entityId: deviceId,
+          detail: { sessions: sessionRows.length, shots: shotRows.length, ...counts },
+        })
+        .toSQL();
+      const stmts: Stmt[] = [
+        ...insertStatements(checkSessions, sessionRows),
+        ...insertStatements(shots, shotRows),
+        { sql: audit.sql, args: audit.params as Stmt["args"] },
       ];
       try {
-        await db.$client.batch(
-          stmts.map((q) => ({ sql: q.sql, args: q.params as never })),
-          "write",
-        );
+        await db.$client.batch(stmts, "write");
       } catch (e) {
         const code = (e as { code?: string }).code ?? "";
         // Another process wrote one of these ids meanwhile: nothing of ours was written.

@@ -258,3 +258,12 @@ test("GET /api/sensors lists live sensors with the same verdict, n, bias and RMS
   expect(empty).toMatchObject({ n: 0, verdict: "insufficient", biasMm: null, lastShotAt: null });
   expect((await call(sensorsLoader, apiRequest("/api/sensors"))).status).toBe(401);
 });
+
+test("the packed one-query load reads every number back bit for bit, in the same order as the plain query", async () => {
+  const { loadReportShots } = await import("~/models/reports.server");
+  const fast = await loadReportShots(sensorId, {});
+  const plain = await loadReportShots(sensorId, {}, { details: true });
+  expect(fast).toHaveLength(24);
+  expect(fast).toEqual(plain.map(({ note: _n, targetLabel: _t, ...r }) => r));
+  for (let i = 0; i < fast.length; i++) expect(Object.is(fast[i]!.errorMm, plain[i]!.errorMm)).toBe(true);
+});
