@@ -12,6 +12,7 @@ import { createProject, getProject, getProjectRule } from "~/models/projects.ser
 import { createSensor, getSensorSpec } from "~/models/sensors.server";
 import { createSite, getSiteGeometry } from "~/models/sites.server";
 import { getTapeSpec } from "~/models/tapes.server";
+import type { RegistryResult } from "~/models/registry-schemas";
 import { ingestSync } from "~/models/sync.server";
 import * as sensorList from "~/routes/admin.sensors";
 import * as sensorNew from "~/routes/admin.sensors.new";
@@ -29,6 +30,14 @@ import { answerOf } from "./auth-helpers";
 import { makeUser, type TestUser } from "../support/registry-fixtures";
 
 const uid = () => crypto.randomUUID();
+
+type Created = Extract<RegistryResult, { status: 200 | 201 }>;
+/** A model call that must succeed, narrowed to its success answer. */
+async function ok(p: Promise<RegistryResult>): Promise<Created> {
+  const r = await p;
+  if (r.status !== 201 && r.status !== 200) throw new Error(`expected success, got ${r.status} ${JSON.stringify(r.body)}`);
+  return r;
+}
 
 function form(fields: Record<string, string | string[]>) {
   const fd = new FormData();
@@ -134,8 +143,8 @@ test("modulation frequencies come in as a list of rows; the list intent adds a r
 
 test("editing a sensor's tolerance saves, lands in the audit trail and recomputes its stored shots", async () => {
   const [admin, crew] = await Promise.all([makeUser("admin"), makeUser("crew")]);
-  const s = await createSensor(null, { label: "Roof scanner R9", serial: `FH-${uid()}`, kind: "pulsed", wavelengthNm: 905, appliesAirCorrection: true, toleranceMm: 5, tolerancePpm: 10 });
-  const site = await createSite("system", { name: `Yard ${uid()}`, targets: [{ label: "T1", reflectancePct: 50 }] });
+  const s = await ok(createSensor(null, { label: "Roof scanner R9", serial: `FH-${uid()}`, kind: "pulsed", wavelengthNm: 905, appliesAirCorrection: true, toleranceMm: 5, tolerancePpm: 10 }));
+  const site = await ok(createSite("system", { name: `Yard ${uid()}`, targets: [{ label: "T1", reflectancePct: 50 }] }));
   const sensorId = s.body.id;
   const sessionId = uid();
   const shotId = uid();
@@ -173,7 +182,7 @@ test("editing a sensor's tolerance saves, lands in the audit trail and recompute
 
 test("retiring a sensor needs the confirmation, hides it from the list, keeps its row and spec", async () => {
   const admin = await makeUser("admin");
-  const s = await createSensor({ id: admin.id }, { label: `Depth camera ${uid().slice(0, 4)}`, serial: `FH-${uid()}`, kind: "cw", wavelengthNm: 850, modulationHz: [20e6], appliesAirCorrection: true, toleranceMm: 8, tolerancePpm: 0, outdoor: false });
+  const s = await ok(createSensor({ id: admin.id }, { label: `Depth camera ${uid().slice(0, 4)}`, serial: `FH-${uid()}`, kind: "cw", wavelengthNm: 850, modulationHz: [20e6], appliesAirCorrection: true, toleranceMm: 8, tolerancePpm: 0, outdoor: false }));
   const sensorId = s.body.id;
   const unconfirmed = await run(sensorEdit.action as Fn, req(`/admin/sensors/${sensorId}`, admin, form({ intent: "retire" })), { sensorId });
   expect(unconfirmed.status).toBe(400);
@@ -304,15 +313,14 @@ test("bad values in a site's rows each get their message at the row's field, wit
 
 test("editing a site: a removed target is retired (not deleted), a new row is added, kept rows updated", async () => {
   const admin = await makeUser("admin");
-  const created = await createSite(null, {
+  const created = await ok(createSite(null, {
     name: `Yard baseline ${uid().slice(0, 6)}`,
     stations: [{ label: "S1", grid: { e: 0, n: 0, h: 100 } }],
     targets: [
       { label: "T1", reflectancePct: 10, referenceM: 5 },
       { label: "T2", reflectancePct: 50, referenceM: 15 },
     ],
-  });
-  expect(created.status).toBe(201);
+  }));
   const siteId = created.body.id;
   const [t1, t2] = created.body.targets as { id: string; label: string }[];
   const [s1] = created.body.stations as { id: string }[];
@@ -353,8 +361,8 @@ test("editing a site: a removed target is retired (not deleted), a new row is ad
 // ---------- projects ----------
 test("a project with the default rule links its sensors and sites; bad rule fields answer 400 each", async () => {
   const admin = await makeUser("admin");
-  const s = await createSensor(null, { label: "Roof scanner", serial: `FH-${uid()}`, kind: "pulsed", wavelengthNm: 905, appliesAirCorrection: true, toleranceMm: 5, tolerancePpm: 10 });
-  const site = await createSite(null, { name: `Range ${uid()}`, targets: [{ label: "T1", reflectancePct: 10 }] });
+  const s = await ok(createSensor(null, { label: "Roof scanner", serial: `FH-${uid()}`, kind: "pulsed", wavelengthNm: 905, appliesAirCorrection: true, toleranceMm: 5, tolerancePpm: 10 }));
+  const site = await ok(createSite(null, { name: `Range ${uid()}`, targets: [{ label: "T1", reflectancePct: 10 }] }));
   const name = `Corridor ${uid().slice(0, 6)}`;
   const bad = await run(
     projectNew.action as Fn,
@@ -372,8 +380,8 @@ test("a project with the default rule links its sensors and sites; bad rule fiel
   expect(unknown.status).toBe(400);
   expect((unknown.body as Reply).result.error["sensorIds[1]"]).toEqual(['No sensor with id "no-such-sensor"']);
 
-  const ok = await run(projectNew.action as Fn, req("/admin/projects/new", admin, form({ name, client: "Fernhollow Geomatics", minShots: "20", coverageK: "2", minWithinPct: "95", rangeBandEdgesM: "0, 10, 30, 100", sensorIds: [s.body.id], siteIds: [site.body.id] })));
-  expect(ok.status).toBe(302);
+  const saved = await run(projectNew.action as Fn, req("/admin/projects/new", admin, form({ name, client: "Fernhollow Geomatics", minShots: "20", coverageK: "2", minWithinPct: "95", rangeBandEdgesM: "0, 10, 30, 100", sensorIds: [s.body.id], siteIds: [site.body.id] })));
+  expect(saved.status).toBe(302);
   const list = await run(projectList.loader as Fn, req("/admin/projects", admin));
   const row = (list.body as { projects: { id: string; name: string; sensorLabels: string }[] }).projects.find((p) => p.name === name)!;
   expect(row.sensorLabels).toBe("Roof scanner");
@@ -386,9 +394,9 @@ test("a project with the default rule links its sensors and sites; bad rule fiel
 
 test("changing a project's coverage factor recomputes the limits of its shots (L = k·T)", async () => {
   const [admin, crew] = await Promise.all([makeUser("admin"), makeUser("crew")]);
-  const s = await createSensor(null, { label: "Tripod scanner", serial: `FH-${uid()}`, kind: "pulsed", wavelengthNm: 1550, appliesAirCorrection: true, toleranceMm: 3, tolerancePpm: 0 });
-  const site = await createSite(null, { name: `Range ${uid()}`, targets: [{ label: "T1", reflectancePct: 50 }] });
-  const p = await createProject(null, { id: `prj-${uid()}`, name: "Valley road", sensorIds: [s.body.id], siteIds: [site.body.id] });
+  const s = await ok(createSensor(null, { label: "Tripod scanner", serial: `FH-${uid()}`, kind: "pulsed", wavelengthNm: 1550, appliesAirCorrection: true, toleranceMm: 3, tolerancePpm: 0 }));
+  const site = await ok(createSite(null, { name: `Range ${uid()}`, targets: [{ label: "T1", reflectancePct: 50 }] }));
+  const p = await ok(createProject(null, { id: `prj-${uid()}`, name: "Valley road", sensorIds: [s.body.id], siteIds: [site.body.id] }));
   expect(p.status).toBe(201);
   const projectId = p.body.id;
   const sessionId = uid();

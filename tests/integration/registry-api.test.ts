@@ -180,7 +180,10 @@ test("a tape: 201, same body 200, other content 409, bad fields 400", async () =
 // ---------- sites ----------
 test("a site with stations and targets: 201 lists their ids in order; same body 200 with the same answer", async () => {
   const admin = await makeUser("admin");
-  const body = siteBody({ id: `site-${uid()}`, targets: [...siteBody().targets.slice(0, 2), { id: `tgt-${uid()}`, label: "P50-prism", reflectancePct: 100, retro: true }] });
+  const body = siteBody({ id: `site-${uid()}`, targets: [...siteBody().targets.slice(0, 2), { id: `tgt-${uid()}`, label: "P50-prism", reflectancePct: 100, retro: true }] }) as ReturnType<typeof siteBody> & {
+    id: string;
+    targets: { id?: string; label: string }[];
+  };
   const first = await post(sitesAction, "/api/sites", { user: admin, json: body });
   expect(first.status).toBe(201);
   expect(first.json.id).toBe(body.id);
