@@ -6,7 +6,6 @@
 // through Background Sync where the browser has it.
 import { cleanupOutdatedCaches, matchPrecache, precacheAndRoute } from "workbox-precaching";
 import { registerRoute } from "workbox-routing";
-import { NetworkFirst } from "workbox-strategies";
 import { syncOutbox } from "~/offline/sync";
 
 declare const self: ServiceWorkerGlobalScope & { __WB_MANIFEST: (string | { url: string; revision: string | null })[] };
@@ -46,16 +45,25 @@ async function fetchWithTimeout(request: Request | string, ms: number) {
   }
 }
 
-/** Copies every field screen's HTML while online and signed in (a redirect to sign-in is not kept). */
+/** Copies every field screen's HTML and data answer while online and signed in (a redirect to sign-in is not kept). */
 async function warmFieldPages() {
-  const cache = await caches.open(PAGES);
+  const [pages, data] = await Promise.all([caches.open(PAGES), caches.open(DATA)]);
   await Promise.all(
-    FIELD_PAGES.map(async (path) => {
-      try {
-        const res = await fetch(path, { credentials: "same-origin", headers: { Accept: "text/html" } });
-        if (isHtml(res)) await cache.put(pageKey(new URL(path, self.location.origin)), res);
-      } catch {}
-    }),
+    FIELD_PAGES.flatMap((path) => [
+      (async () => {
+        try {
+          const res = await fetch(path, { credentials: "same-origin", headers: { Accept: "text/html" } });
+          if (isHtml(res)) await pages.put(pageKey(new URL(path, self.location.origin)), res);
+        } catch {}
+      })(),
+      (async () => {
+        try {
+          const url = new URL(`${path}.data`, self.location.origin);
+          const res = await fetch(url, { credentials: "same-origin" });
+          if (res.status === 200 && !res.redirected) await data.put(dataKey(url), res);
+        } catch {}
+      })(),
+    ]),
   );
 }
 
@@ -93,10 +101,24 @@ registerRoute(
   },
 );
 
-// Data requests of the field pages (single fetch, "….data"): network first, the last answer offline.
+// Data requests of the field pages (single fetch, "….data"). React Router revalidates the
+// parent loaders (root, shell, field layout) on every navigation; the field screens have no
+// server loader of their own, so one kept answer serves any field address offline.
+const dataKey = (url: URL) => pageKey(url);
 registerRoute(
   ({ request, url }) => request.method === "GET" && url.origin === self.location.origin && /^\/field.*\.data$/.test(url.pathname),
-  new NetworkFirst({ cacheName: DATA, networkTimeoutSeconds: 8 }),
+  async ({ request, url }) => {
+    const cache = await caches.open(DATA);
+    try {
+      const res = await fetchWithTimeout(request, 8000);
+      if (res.status === 200 && !url.search.includes("_routes")) await cache.put(dataKey(url), res.clone());
+      return res;
+    } catch (e) {
+      const kept = (await cache.match(dataKey(url))) ?? (await cache.match(dataKey(new URL("/field.data", url))));
+      if (kept) return kept;
+      throw e;
+    }
+  },
 );
 
 // Route discovery: React Router asks /__manifest for routes it has not seen. Offline, answer

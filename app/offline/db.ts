@@ -19,7 +19,7 @@ export class FieldDb extends Dexie {
     super(name);
     this.version(1).stores({
       sessions: "id, state, queuedAt",
-      shots: "id, sessionId, state, queuedAt",
+      shots: "id, sessionId, state, queuedAt, [sessionId+state]",
       photos: "id, shotId, state, queuedAt",
       sensors: "id",
       sites: "id",

@@ -1,8 +1,9 @@
 // Checks a record before it is queued, with the same paths the server answers with, so a
 // message lands on the same field whether it came from the tablet or from POST /api/sync.
-// Mirrors the body of api.md; the server's own schema (app/models/sync-schemas.ts) replaces
-// it once that module exists.
+// Two passes: the form's own schema below (plain "Enter …" words for blank boxes), then the
+// server's schema itself (app/models/sync-schemas.ts), which has the last word.
 import { z } from "zod";
+import { validateSession, validateShot } from "~/models/sync-schemas";
 import type { FieldError, SyncSessionRecord, SyncShotRecord } from "./types";
 
 const finite = (what: string) =>
@@ -96,12 +97,18 @@ function toErrors(issues: z.core.$ZodIssue[], readings?: object): FieldError[] {
   });
 }
 
+const cap = (e: FieldError) => ({ path: e.path, message: e.message.charAt(0).toUpperCase() + e.message.slice(1) });
+
 export function checkSessionRecord(r: SyncSessionRecord): FieldError[] {
   const res = sessionRecordSchema.safeParse(r);
-  return res.success ? [] : toErrors(res.error.issues);
+  if (!res.success) return toErrors(res.error.issues);
+  const server = validateSession(r);
+  return server.ok ? [] : server.errors.map(cap);
 }
 
 export function checkShotRecord(r: SyncShotRecord): FieldError[] {
   const res = shotRecordSchema.safeParse(r);
-  return res.success ? [] : toErrors(res.error.issues, r.readings ?? {});
+  if (!res.success) return toErrors(res.error.issues, r.readings ?? {});
+  const server = validateShot(r);
+  return server.ok ? [] : server.errors.map(cap);
 }

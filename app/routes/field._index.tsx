@@ -21,8 +21,11 @@ async function sessionRows(): Promise<SessionRow[]> {
   const sessions = await db.sessions.orderBy("queuedAt").reverse().limit(30).toArray();
   return Promise.all(
     sessions.map(async (s) => {
-      const shots = await db.shots.where("sessionId").equals(s.id).toArray();
-      return { ...s, shots: shots.length, queued: shots.filter((x) => x.state !== "synced").length };
+      const [shots, synced] = await Promise.all([
+        db.shots.where("sessionId").equals(s.id).count(),
+        db.shots.where("[sessionId+state]").equals([s.id, "synced"]).count(),
+      ]);
+      return { ...s, shots, queued: shots - synced };
     }),
   );
 }
