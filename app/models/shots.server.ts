@@ -3,7 +3,7 @@
 // sensor's spec, a rule, a tape or a site changes, and the shot table / map queries.
 import { and, asc, eq, gt, gte, inArray, isNotNull, lt, lte, or, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
-import { checkSessions, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
+import { checkSessions, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
 import {
   computeShot,
   DEFAULT_RULE,
@@ -400,13 +400,18 @@ const shotColumns = {
   syncedBy: shots.syncedBy,
   receivedAt: shots.receivedAt,
   computedAt: shots.computedAt,
+  // correlated subqueries name the outer table in full: drizzle would write a bare "id" there
+  targetLabel: sql<string | null>`(SELECT t.label FROM ${targets} t WHERE t.id = "shots"."target_id")`,
+  photoIdList: sql<string | null>`(SELECT group_concat(p.id) FROM ${photos} p WHERE p.shot_id = "shots"."id")`,
+  exclusionReason: sql<string | null>`(SELECT x.reason FROM ${exclusions} x WHERE x.shot_id = "shots"."id" AND x.restored_at IS NULL ORDER BY x.created_at DESC LIMIT 1)`,
 };
 const selectShots = (db: Db) => db.select(shotColumns).from(shots);
 type ShotRow = Awaited<ReturnType<typeof selectShots>>[number];
 
 export type ShotFlagName = "outlier" | "wrap";
-export type ShotJson = Omit<ShotRow, "lat" | "lon" | "accuracyM"> & {
+export type ShotJson = Omit<ShotRow, "lat" | "lon" | "accuracyM" | "photoIdList"> & {
   position: { lat: number; lon: number; accuracyM: number | null } | null;
+  photoIds: string[];
   flags: ShotFlagName[];
 };
 
@@ -558,7 +563,7 @@ async function kFor(projectId: string | undefined, db: Db): Promise<number | nul
 }
 
 function toJson(r: ShotRow, k: number | undefined, out: { med: number; cut: number } | null): ShotJson {
-  const { lat, lon, accuracyM, ...rest } = r;
+  const { lat, lon, accuracyM, photoIdList, ...rest } = r;
   const flags: ShotFlagName[] = [];
   if (out && Math.abs(r.errorMm - out.med) > out.cut) flags.push("outlier");
   if (r.wrap) flags.push("wrap");
@@ -568,6 +573,7 @@ function toJson(r: ShotRow, k: number | undefined, out: { med: number; cut: numb
     limitMm,
     within: k === undefined ? r.within : Math.abs(r.errorMm) <= limitMm,
     position: lat != null && lon != null ? { lat, lon, accuracyM } : null,
+    photoIds: photoIdList ? photoIdList.split(",") : [],
     flags,
   };
 }

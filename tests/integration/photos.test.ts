@@ -7,6 +7,7 @@ import { join } from "node:path";
 import { action as photoAction, loader as photoList } from "~/routes/api.photos";
 import { loader as photoLoader } from "~/routes/api.photos.$photoId";
 import { action as syncAction } from "~/routes/api.sync";
+import { loader as shotsLoader } from "~/routes/api.shots";
 import { getEnv, resetEnvCache } from "~/env.server";
 import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
 
@@ -58,6 +59,8 @@ test("a JPEG is stored under DATA_DIR/photos with its checksum; the same photo a
   expect(again.json.photo.id).toBe(a.json.photo.id);
   const list = await call(photoList, apiRequest(`/api/photos?shotId=${shotId}`, { user: viewer }));
   expect(list.json.photos.map((p: { id: string }) => p.id)).toEqual([a.json.photo.id]);
+  const shotRow = (await call(shotsLoader, apiRequest(`/api/shots?limit=1000`, { user: viewer }))).json.shots.find((s: { id: string }) => s.id === shotId);
+  expect(shotRow.photoIds).toEqual([a.json.photo.id]);
 });
 
 test("GET serves the bytes with the sniffed type, long private caching and the checksum as ETag", async () => {

@@ -175,3 +175,13 @@ test("flag=excluded and flag=outlier filters; outlier needs a sensor", async () 
   expect(outliers[0].flags).toEqual(["outlier"]);
   expect((await get(`?sensor=${sensorId}&flag=excluded`)).json.shots).toEqual([]);
 });
+
+test("a shot row names its target and carries the open exclusion's reason for the review table", async () => {
+  const id = ids[20]!;
+  await call(exclusionAction, apiRequest(`/api/shots/${id}/exclusion`, { user: qa, json: { reason: "reflector fogged" } }), { shotId: id });
+  const row = (await get(`?sensor=${sensorId}&flag=excluded`)).json.shots[0];
+  expect(row).toMatchObject({ id, excluded: true, exclusionReason: "reflector fogged", targetLabel: null, photoIds: [] });
+  await call(exclusionAction, apiRequest(`/api/shots/${id}/exclusion`, { user: qa, method: "DELETE", json: { reason: "fog lifted, reading fine" } }), { shotId: id });
+  const back = (await get(`?sensor=${sensorId}&limit=1000`)).json.shots.find((s: { id: string }) => s.id === id);
+  expect(back.exclusionReason).toBeNull();
+});
