@@ -233,7 +233,7 @@ export function MapLegend({ maxMm, hex }: { maxMm: number; hex: boolean }) {
         <span><LegendSwatch shape="circle" color="var(--muted)" /> shot within its limit</span>
         <span><LegendSwatch shape="triangle" color="var(--muted)" /> shot outside its limit</span>
         <span><svg width="18" height="18" viewBox="0 0 18 18" aria-hidden="true" className="inline-block align-middle"><circle cx="9" cy="9" r="6.5" fill="var(--bg)" stroke="var(--fg)" strokeWidth="3.5" /></svg> station</span>
-        <span><svg width="16" height="16" viewBox="0 0 16 16" aria-hidden="true" className="inline-block align-middle"><circle cx="8" cy="8" r="5" fill="var(--fg)" /></svg> target</span>
+        <span><svg width="16" height="16" viewBox="0 0 16 16" aria-hidden="true" className="inline-block align-middle"><circle cx="8" cy="8" r="5" fill="var(--accent)" /></svg> target</span>
         <span><span className="inline-block h-3 w-6 border-2 border-dashed border-accent align-middle" /> site outline</span>
       </div>
     </div>

@@ -2,7 +2,7 @@ import { useMemo } from "react";
 import type { Route } from "./+types/review.sensors.$sensorId.print";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
-import { listProjectsForFilter, listSignOffs, reportFor, sensorReviewHeader } from "~/models/signoffs.server";
+import { listProjectsForFilter, listSignOffs, reportFor, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
 import { DriftChart, ErrorVsDistanceChart } from "~/components/review/charts";
 import { dateOnly, dateTime, mmSigned } from "~/components/review/format";
@@ -21,10 +21,16 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const to = url.searchParams.get("to");
   const projectId = url.searchParams.get("project") || null;
   const q = { from: from && DATE.test(from) ? from : null, to: to && DATE.test(to) ? to : null, sessionIds: url.searchParams.getAll("session"), projectId };
-  const [report, signOffs, projects] = await Promise.all([reportFor(user, params.sensorId, q), listSignOffs(user, params.sensorId, 5), listProjectsForFilter()]);
+  const [report, signOffs, projects, extras] = await Promise.all([
+    reportFor(user, params.sensorId, q),
+    listSignOffs(user, params.sensorId, 5),
+    listProjectsForFilter(),
+    shotExtras(user, params.sensorId),
+  ]);
   if (!report) throw new Response("There is no sensor with this id.", { status: 404 });
   const project = projects.find((p) => p.id === projectId) ?? null;
-  return { ...head, report, signOffs, project, query: q, generatedAt: new Date().toISOString(), by: user.name || user.email };
+  const exclusions = report.shots.filter((s) => s.excluded).map((s) => ({ id: s.id, takenAt: s.takenAt, referenceM: s.referenceM, errorMm: s.errorMm, reason: extras.reasons[s.id] ?? "" }));
+  return { ...head, report, signOffs, project, exclusions, query: q, generatedAt: new Date().toISOString(), by: user.name || user.email };
 }
 
 // The report is paper: always the daylight colours, whatever theme the screen uses.
@@ -42,7 +48,7 @@ const PRINT_CSS = `
 `;
 
 export default function PrintReport({ loaderData }: Route.ComponentProps) {
-  const { sensor, sessions, report, signOffs, project, query, generatedAt, by } = loaderData;
+  const { sensor, sessions, report, signOffs, project, exclusions, query, generatedAt, by } = loaderData;
   const used = useMemo(() => new Set(report.shots.map((s) => s.sessionId)), [report]);
   const biasLimit = report.tests.find((t) => t.name === "bias")?.limit ?? sensor.toleranceMm;
   const period = query.from || query.to ? `${query.from ?? "first shot"} to ${query.to ?? "last shot"}` : "all dates";
@@ -103,6 +109,21 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <BandTable title="By range band" rows={report.byRange} />
       </section>
       <section><CoverageNote coverage={report.coverage} /></section>
+
+      <section className="space-y-1" data-testid="print-exclusions">
+        <h2 className="text-xl font-bold">Excluded shots ({exclusions.length})</h2>
+        {exclusions.length === 0 ? (
+          <p>No shot was left out.</p>
+        ) : (
+          <ul className="list-disc pl-6">
+            {exclusions.map((x) => (
+              <li key={x.id} className="num">
+                {dateTime(x.takenAt)}, {x.referenceM.toFixed(3)} m, error {mmSigned(x.errorMm, 2)}: {x.reason || "no reason recorded"}
+              </li>
+            ))}
+          </ul>
+        )}
+      </section>
 
       <section className="space-y-1">
         <h2 className="text-xl font-bold">Sign-off</h2>

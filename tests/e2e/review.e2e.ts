@@ -127,8 +127,10 @@ test("the range-error map draws offline with its legend in mm, and a click opens
   expect(legend).toMatch(/−\d+ mm.*\+\d+ mm/);
   expect(legend).toMatch(/outside its limit/);
   await page.getByText(/30 of 30 located shots shown/).waitFor();
+  await page.locator('[data-shots="30"]').waitFor();
   await page.getByLabel("Reflectance").selectOption("dark");
   await page.getByText(/14 of 30 located shots shown/).waitFor();
+  await page.locator('[data-shots="14"]').waitFor();
   await page.waitForTimeout(600);
   if (SHOTS) await page.screenshot({ path: join(SHOTS, "map-light.png"), fullPage: true });
   // click the middle of the map where the shot corridor runs
@@ -171,7 +173,7 @@ test("a CSV of good and bad rows: the preview lists the bad ones, the good ones 
   expect(errors).toMatch(/Row 5: Time: “yesterday” is not a date and time/);
   expect(errors).toMatch(/Row 6: Target “No such board” is not one of this site's targets/);
   expect(errors).toMatch(/Row 7: Sensor range: must be above 0/);
-  if (SHOTS) await page.screenshot({ path: join(SHOTS, "import-light.png"), fullPage: true });
+  if (SHOTS) await page.screenshot({ path: join(SHOTS, "import-preview.png"), fullPage: true });
   await page.getByRole("button", { name: "Import 3 valid rows" }).click();
   await page.getByText("3 imported, 0 already there, 0 refused.").waitFor();
   await context.close();
@@ -195,7 +197,7 @@ test.runIf(!!SHOTS)("screenshots of every review screen in both themes", async (
     for (const [name, path, testId] of screens) {
       await page.goto(path);
       if (testId) await page.getByTestId(testId).waitFor();
-      if (name === "map") await page.locator('[data-map-ready="true"]').waitFor({ timeout: 30_000 });
+      if (name === "map") await page.locator('[data-map-ready="true"]:not([data-shots="0"])[data-shots]').waitFor({ timeout: 30_000 });
       await page.waitForTimeout(900);
       await page.screenshot({ path: join(SHOTS!, `${name}-${theme}.png`), fullPage: true });
     }

@@ -164,8 +164,10 @@ export function DriftChart({ drift, biasLimitMm }: { drift: DriftRow[]; biasLimi
             width,
             height: 260,
             marginLeft: 56,
+            marginRight: 36,
+            marginBottom: 48,
             style: baseStyle(c),
-            x: { type: "utc", label: "Session start (UTC) →", ticks: data.length <= 6 ? data.map((d) => d.t) : 5, tickFormat: "%Y-%m-%d %H:%M", inset: 40 },
+            x: { type: "utc", label: "Session start (UTC) →", ticks: data.length <= 6 ? data.map((d) => d.t) : 5, tickFormat: "%m-%d %H:%M", inset: 40, labelOffset: 40 },
             y: { label: "↑ Session bias (mm)", grid: true, nice: true },
             marks: [
               biasLimitMm != null ? P.ruleY([biasLimitMm, -biasLimitMm], { stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }) : null,

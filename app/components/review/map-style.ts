@@ -91,7 +91,7 @@ export function overlayLayers(maxMm: number, c: Palette, showHex: boolean) {
       source: "shots",
       filter: ["==", ["get", "within"], true],
       layout: { visibility: showHex ? "none" : "visible" },
-      paint: { "circle-radius": 7, "circle-color": colour, "circle-stroke-color": c.fg, "circle-stroke-width": 1.5 },
+      paint: { "circle-radius": 7, "circle-color": colour, "circle-stroke-color": "#1a1a1a", "circle-stroke-width": 1.5 },
     },
     {
       id: "shots-outside",
@@ -101,7 +101,7 @@ export function overlayLayers(maxMm: number, c: Palette, showHex: boolean) {
       layout: { visibility: showHex ? "none" : "visible", "icon-image": "triangle-sdf", "icon-size": 0.6, "icon-allow-overlap": true, "icon-ignore-placement": true },
       paint: { "icon-color": colour, "icon-halo-color": c.fg, "icon-halo-width": 2 },
     },
-    { id: "targets", type: "circle", source: "targets", paint: { "circle-radius": 6, "circle-color": c.fg, "circle-stroke-color": c.bg, "circle-stroke-width": 2 } },
+    { id: "targets", type: "circle", source: "targets", paint: { "circle-radius": 6, "circle-color": c.accent, "circle-stroke-color": c.bg, "circle-stroke-width": 2 } },
     { id: "stations", type: "circle", source: "stations", paint: { "circle-radius": 9, "circle-color": c.bg, "circle-stroke-color": c.fg, "circle-stroke-width": 4 } },
   ];
 }

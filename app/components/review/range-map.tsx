@@ -34,6 +34,8 @@ function boundsOf(s: StyleSources): LngLatBoundsLike | null {
   ];
 }
 
+const fitted = new WeakSet<MlMap>();
+
 export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect }: RangeMapProps) {
   const el = useRef<HTMLDivElement>(null);
   const map = useRef<MlMap | null>(null);
@@ -42,6 +44,34 @@ export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect
   latest.current = { sources, maxMm, showHex };
   const selectRef = useRef(onSelect);
   selectRef.current = onSelect;
+
+  /** Puts the latest data, colours and visibility on the map (after load, and on every change). */
+  function apply(m: MlMap) {
+    const { sources, maxMm, showHex } = latest.current;
+    const set = (id: string, data: FeatureCollection) => (m.getSource(id) as GeoJSONSource | undefined)?.setData(data);
+    set("shots", sources.shots);
+    set("hexes", sources.hexes);
+    set("site", sources.outline);
+    set("stations", sources.stations);
+    set("targets", sources.targets);
+    const c = palette();
+    for (const l of overlayLayers(maxMm, c, showHex)) {
+      if (!m.getLayer(l.id)) continue;
+      if ("layout" in l && l.layout && "visibility" in l.layout) m.setLayoutProperty(l.id, "visibility", l.layout.visibility as "visible" | "none");
+    }
+    if (m.getLayer("shots-within")) {
+      m.setPaintProperty("shots-within", "circle-color", errorColourExpression(maxMm) as never);
+      m.setPaintProperty("shots-outside", "icon-color", errorColourExpression(maxMm) as never);
+      m.setPaintProperty("hex-fill", "fill-color", errorColourExpression(maxMm, "meanErrorMm") as never);
+    }
+    m.getContainer().setAttribute("data-shots", String(sources.shots.features.length));
+    // Frame the shots once they have arrived (the map may have opened on the site alone).
+    if (!fitted.has(m) && sources.shots.features.length) {
+      const b = boundsOf(sources);
+      if (b) m.fitBounds(b, { padding: 48, maxZoom: 19, animate: false });
+      fitted.add(m);
+    }
+  }
 
   useEffect(() => {
     if (!el.current) return;
@@ -70,6 +100,7 @@ export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect
         for (const layer of overlayLayers(mm, c, h)) m.addLayer(layer as never);
       }
       ready.current = true;
+      apply(m);
       el.current?.setAttribute("data-map-ready", "true");
     });
     const pick = (e: { features?: { properties: Record<string, unknown> }[] }) => {
@@ -89,24 +120,8 @@ export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect
   }, [basemapUrl]);
 
   useEffect(() => {
-    const m = map.current;
-    if (!m || !ready.current) return;
-    const set = (id: string, data: FeatureCollection) => (m.getSource(id) as GeoJSONSource | undefined)?.setData(data);
-    set("shots", sources.shots);
-    set("hexes", sources.hexes);
-    set("site", sources.outline);
-    set("stations", sources.stations);
-    set("targets", sources.targets);
-    const c = palette();
-    for (const l of overlayLayers(maxMm, c, showHex)) {
-      if (!m.getLayer(l.id)) continue;
-      if ("layout" in l && l.layout && "visibility" in l.layout) m.setLayoutProperty(l.id, "visibility", l.layout.visibility as "visible" | "none");
-    }
-    if (m.getLayer("shots-within")) {
-      m.setPaintProperty("shots-within", "circle-color", errorColourExpression(maxMm) as never);
-      m.setPaintProperty("shots-outside", "icon-color", errorColourExpression(maxMm) as never);
-      m.setPaintProperty("hex-fill", "fill-color", errorColourExpression(maxMm, "meanErrorMm") as never);
-    }
+    if (map.current && ready.current) apply(map.current);
+    // eslint-disable-next-line react-hooks/exhaustive-deps
   }, [sources, maxMm, showHex]);
 
   return <div ref={el} className="h-[62vh] min-h-[420px] w-full rounded-lg border-2 border-line" data-testid="range-map" role="region" aria-label="Range-error map" />;
