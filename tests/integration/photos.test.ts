@@ -41,7 +41,7 @@ beforeAll(async () => {
   expect(a.json.results.map((r: { status: string }) => r.status)).toEqual(["accepted", "accepted"]);
 });
 
-function upload(user: TestUser | undefined, bytes: Uint8Array, type: string, id = shotId, name = "photo") {
+function upload(user: TestUser | undefined, bytes: Uint8Array<ArrayBuffer>, type: string, id = shotId, name = "photo") {
   const form = new FormData();
   form.set("shotId", id);
   form.set("file", new File([bytes], name, { type }));
