@@ -8,7 +8,8 @@ import type { Feature, Point } from "geojson";
 import { audit } from "~/models/audit.server";
 import { sendTemplateMail } from "~/mail/mailer.server";
 import { listUserEmailsByRole } from "~/models/users.server";
-import { buildSensorReport } from "~/models/reports.server";
+import { buildSensorReport, computeSensorReport } from "~/models/reports.server";
+import { matrixCells, worstCell, type MatrixCell } from "~/components/review/matrix";
 import type { ReportJson } from "~/components/review/types";
 import type { SignOffInput } from "~/components/review/signoff-schema";
 
@@ -63,7 +64,27 @@ export type SensorOverviewRow = {
   lastShotAt: string | null;
   trace: { startedAt: string; biasMm: number | null; flag: boolean }[];
   lastSignOff: { decision: "approved" | "rejected"; createdAt: string; byName: string } | null;
+  /** Where it goes wrong most: the reflectance × illuminance cell with the largest |bias|. */
+  worst: MatrixCell | null;
 };
+
+/** The report with the per-shot reflectance and illuminance the matrix needs. */
+async function reportWithCells(actor: ReviewActor, sensorId: string, q: ReviewQuery) {
+  const r = await computeSensorReport(actor, sensorId, {
+    ...(q.from ? { from: q.from } : {}),
+    ...(q.to ? { to: q.to } : {}),
+    ...(q.sessionIds?.length ? { sessionIds: q.sessionIds } : {}),
+    ...(q.projectId ? { projectId: q.projectId } : {}),
+  }, { details: true });
+  if (r.status !== 200) {
+    if (r.status === 404 && r.body.error.startsWith("No sensor")) return null;
+    throw Response.json(r.body, { status: r.status });
+  }
+  const details = new Map(
+    r.details.map((d) => [d.id, { id: d.id, reflectancePct: d.reflectancePct, retro: d.retro, illuminanceKlux: d.illuminanceKlux, targetLabel: null, photoIds: [], exclusionReason: null, note: null }]),
+  );
+  return { report: r.body as unknown as ReportJson, cells: matrixCells(r.body.shots, details) };
+}
 
 export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promise<SensorOverviewRow[]> {
   const db = getDb();
@@ -88,7 +109,8 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
   }
   const out: SensorOverviewRow[] = [];
   for (const s of list) {
-    const r = await reportFor(actor, s.id, q);
+    const rc = await reportWithCells(actor, s.id, q);
+    const r = rc?.report ?? null;
     const last = await lastSignOff(s.id, q.projectId ?? null);
     const times = r?.shots.map((x) => x.takenAt).sort() ?? [];
     out.push({
@@ -102,6 +124,7 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
       lastShotAt: times.length ? times[times.length - 1]! : null,
       trace: (r?.drift ?? []).map((d) => ({ startedAt: d.startedAt, biasMm: d.biasMm, flag: d.flag })),
       lastSignOff: last,
+      worst: r && r.verdict !== "pass" && rc ? worstCell(rc.cells) : null,
     });
   }
   // Failing sensors first: the QA lead's first question.

@@ -284,7 +284,7 @@ export default function ImportPage({ loaderData }: Route.ComponentProps) {
                     return (
                       <tr key={r.row} className="border-b border-line" data-row={r.row} data-ok={r.m.ok}>
                         <td className="py-1 pr-2">{r.row}</td>
-                        <td className="py-1 pr-2">{r.m.ok ? r.m.shot.takenAt : r.values[mapping.takenAt ?? ""] ?? "—"}</td>
+                        <td className="py-1 pr-2 whitespace-nowrap">{r.m.ok ? r.m.shot.takenAt : r.values[mapping.takenAt ?? ""] ?? "—"}</td>
                         <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.reference.distanceM, 3) : "—"}</td>
                         <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.readings.rangesM[0], 3) : "—"}</td>
                         <td className="py-1 pr-2 text-right">{c ? signed(c.errorMm, 2) : "—"}</td>

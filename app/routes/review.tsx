@@ -11,6 +11,7 @@ import type { TestName } from "~/components/review/types";
 export const meta: Route.MetaFunction = () => [{ title: "Review — sensor verdicts · Shotbook" }];
 
 const DATE = /^\d{4}-\d{2}-\d{2}$/;
+const WORST_WORDS: Record<string, string> = { dark: "dark", mid: "mid-grey", bright: "bright", retro: "retro-reflective", low: "shade (< 10 klux)", moderate: "daylight (10–50 klux)", high: "bright sun (≥ 50 klux)" };
 
 export function parseFilters(url: URL) {
   const d = (k: string) => {
@@ -101,6 +102,11 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       <VerdictBadge verdict={r.verdict} />
                       {r.verdict === "fail" ? (
                         <span className="block text-sm">on {r.failed.map((f) => TEST_WORDS[f as TestName]?.title.toLowerCase() ?? f).join(", ")}</span>
+                      ) : null}
+                      {r.worst ? (
+                        <span className="block text-sm" data-testid="worst">
+                          worst: <strong>{WORST_WORDS[r.worst.reflectance]}</strong> targets in <strong>{WORST_WORDS[r.worst.illuminance]}</strong>, {mmSigned(r.worst.biasMm, 1)} (n {r.worst.n})
+                        </span>
                       ) : null}
                     </td>
                     <td className="py-2 pr-3 text-right">{r.n}{r.excluded ? <span className="block text-sm text-muted">{r.excluded} excl.</span> : null}</td>

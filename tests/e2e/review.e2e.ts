@@ -49,6 +49,7 @@ test("a QA lead sees which sensor fails and why, excludes a shot with a reason, 
   const first = page.getByTestId("sensor-overview").locator("tbody tr").first();
   expect(await first.getAttribute("data-sensor")).toBe(w.failing.id);
   expect(await first.textContent()).toMatch(/Fail.*on .*bias/);
+  expect(await first.getByTestId("worst").textContent()).toMatch(/worst: dark targets in bright sun \(≥ 50 klux\), \+1\d\.\d mm/);
 
   await first.getByRole("link", { name: "Roof scanner RS-1" }).click();
   await page.waitForURL(`**/review/sensors/${w.failing.id}`);
@@ -171,7 +172,7 @@ test("a CSV of good and bad rows: the preview lists the bad ones, the good ones 
   expect(await page.getByTestId("import-counts").textContent()).toMatch(/3 valid rows, 3 with errors/);
   const errors = (await page.getByTestId("import-row-errors").textContent()) ?? "";
   expect(errors).toMatch(/Row 5: Time: “yesterday” is not a date and time/);
-  expect(errors).toMatch(/Row 6: Target “No such board” is not one of this site's targets/);
+  expect(errors).toMatch(/Row 6: Target “No such board” is not one of this site's targets\n?\s*Row 7/);
   expect(errors).toMatch(/Row 7: Sensor range: must be above 0/);
   if (SHOTS) await page.screenshot({ path: join(SHOTS, "import-preview.png"), fullPage: true });
   await page.getByRole("button", { name: "Import 3 valid rows" }).click();

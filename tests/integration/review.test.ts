@@ -34,8 +34,13 @@ test("the overview loader: the failing roof scanner comes first and says it fail
   expect(fail.trace[1]!.biasMm!).toBeGreaterThan(fail.trace[0]!.biasMm! + 8); // the sunny session reads long
   expect(fail.calibrationDue).toBe("2026-09-30");
   expect(fail.lastShotAt?.startsWith("2026-05-05")).toBe(true);
+  // where it goes wrong: dark boards in bright sun (the fixture's 9 long-reading shots)
+  const darkSun = w.shotsOf(w.failing.id).filter((s) => s.reflectancePct < 20 && s.illuminanceKlux >= 50);
+  expect(fail.worst).toMatchObject({ reflectance: "dark", illuminance: "high", n: darkSun.length });
+  expect(fail.worst!.biasMm).toBeCloseTo(meanOf(darkSun.map((s) => s.errorMm)), 6);
   const pass = data.rows.find((r) => r.id === w.passing.id)!;
   expect(pass.verdict).toBe("pass");
+  expect(pass.worst).toBeNull();
   expect(pass.n).toBe(24);
   expect(data.canImport).toBe(true);
 });

@@ -91,23 +91,28 @@ export function mapRow(raw: Record<string, string | undefined>, mapping: ImportM
 
   let target: ImportTarget | undefined;
   const label = cell("target")?.trim();
+  // an unknown target explains the missing distance or reflectance too: say it once
+  let unknownTarget = false;
   if (label) {
     target = targets.find((t) => t.label.toLowerCase() === label.toLowerCase());
-    if (!target) errors.push({ field: "target", message: `Target “${label}” is not one of this site's targets` });
+    if (!target) {
+      unknownTarget = true;
+      errors.push({ field: "target", message: `Target “${label}” is not one of this site's targets` });
+    }
   }
 
   const range = number("rangeM", "Sensor range", (v) => (v > 0 ? null : "must be above 0"));
   if (range == null && !errors.some((e) => e.field === "rangeM")) errors.push({ field: "rangeM", message: "Sensor range is missing" });
 
-  let distance = number("distanceM", "Reference distance", (v) => (v > 0 ? null : "must be above 0"));
+  const distance = number("distanceM", "Reference distance", (v) => (v > 0 ? null : "must be above 0"));
   let distanceM = distance == null ? null : toMetres(distance, mapping._distanceUnit);
-  if (distanceM == null && !errors.some((e) => e.field === "distanceM")) {
+  if (distanceM == null && !unknownTarget && !errors.some((e) => e.field === "distanceM")) {
     if (target?.referenceM != null) distanceM = target.referenceM;
     else errors.push({ field: "distanceM", message: target ? `Reference distance is missing and target “${target.label}” has no surveyed distance` : "Reference distance is missing (map a column or a target with a surveyed distance)" });
   }
 
   let reflectancePct = number("reflectancePct", "Reflectance", (v) => (v >= 0 && v <= 100 ? null : "must lie between 0 and 100 %"));
-  if (reflectancePct == null && !errors.some((e) => e.field === "reflectancePct")) {
+  if (reflectancePct == null && !unknownTarget && !errors.some((e) => e.field === "reflectancePct")) {
     if (target) reflectancePct = target.reflectancePct;
     else errors.push({ field: "reflectancePct", message: "Reflectance is missing (map a column or a target)" });
   }
