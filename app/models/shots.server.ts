@@ -194,7 +194,7 @@ export function computeShotRecord(shot: SyncShot, session: SessionFacts, ctx: Re
   const sensor = ctx.sensors.get(session.sensorId);
   if (!sensor) return { ok: false, errors: [{ path: "sessionId", message: `the session's sensor ${session.sensorId} is not in the registry` }] };
   let target: TargetEntry | undefined;
-  if (shot.targetId != null) {
+  if (shot.targetId) {
     target = ctx.targets.get(shot.targetId);
     if (!target || target.siteId !== session.siteId) {
       return { ok: false, errors: [{ path: "targetId", message: `target ${shot.targetId} is not a target of the session's site` }] };
@@ -257,7 +257,7 @@ export function shotInsertRow(
     sensorId: session.sensorId,
     // as the tablet sent it, offset and all: the period filters read its local date
     takenAt: shot.takenAt,
-    targetId: shot.targetId ?? null,
+    targetId: shot.targetId || null,
     raw,
     referenceMethod: shot.reference.method,
     reflectancePct: shot.reflectancePct,
@@ -266,7 +266,7 @@ export function shotInsertRow(
     lat: shot.position?.lat ?? null,
     lon: shot.position?.lon ?? null,
     accuracyM: shot.position?.accuracyM ?? null,
-    note: shot.note ?? null,
+    note: shot.note || null,
     deviceId: meta.deviceId,
     syncedBy: meta.syncedBy,
     receivedAt: meta.receivedAt,

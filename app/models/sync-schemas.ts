@@ -25,17 +25,10 @@ const recordId = (what: string) => z.uuid({ error: `${what} must be a UUID made 
 /** ISO 8601 with an offset ("Z" or ±hh:mm), as api.md asks. */
 const isoTime = (what: string) =>
   z.iso.datetime({ offset: true, error: `${what} must be an ISO 8601 time with an offset, e.g. 2026-05-04T08:10:00+02:00` });
-/** null and absent mean the same (not measured): both become absent so the canonical raw matches. */
-const optionalNum = (schema: z.ZodNumber) =>
-  schema
-    .nullish()
-    .transform((v) => v ?? undefined);
+/** null and absent mean the same (not measured); canonicalJson drops both, so the raw matches. */
+const optionalNum = (schema: z.ZodNumber) => schema.nullish();
 const optionalText = (what: string, max: number) =>
-  z
-    .string({ error: `${what} must be text` })
-    .max(max, `${what} is at most ${max} characters`)
-    .nullish()
-    .transform((v) => (v == null || v.trim() === "" ? undefined : v));
+  z.string({ error: `${what} must be text` }).max(max, `${what} is at most ${max} characters`).nullish();
 
 const airNum = (field: keyof typeof AIR_LIMITS, what: string, unit: string) => {
   const [lo, hi] = AIR_LIMITS[field];
@@ -135,8 +128,7 @@ export const syncShotSchema = z.object({
       lon: num("longitude").min(-180, "longitude must lie between −180 and 180°").max(180, "longitude must lie between −180 and 180°"),
       accuracyM: optionalNum(num("position accuracy").min(0, "position accuracy must not be negative")),
     })
-    .nullish()
-    .transform((v) => v ?? undefined),
+    .nullish(),
   note: optionalText("note", 2000),
 });
 export type SyncShot = z.infer<typeof syncShotSchema>;
@@ -168,22 +160,33 @@ export function validateShot(record: unknown) {
   return r.success ? { ok: true as const, value: r.data } : { ok: false as const, errors: issuesToErrors(r.error.issues) };
 }
 
-/** JSON with keys in sorted order at every depth, so the same record in another key order compares equal. */
+/**
+ * JSON with keys in sorted order at every depth, so the same record in another key order
+ * compares equal; null and absent (undefined) members are left out alike. Written directly,
+ * without copying the record.
+ */
 export function canonicalJson(value: unknown): string {
-  return JSON.stringify(sortKeys(value));
+  return write(value) ?? "null";
 }
 
-function sortKeys(v: unknown): unknown {
-  if (Array.isArray(v)) return v.map(sortKeys);
-  if (v && typeof v === "object") {
-    const out: Record<string, unknown> = {};
-    for (const k of Object.keys(v).sort()) {
-      const x = (v as Record<string, unknown>)[k];
-      if (x !== undefined) out[k] = sortKeys(x);
-    }
-    return out;
+function write(v: unknown): string | undefined {
+  if (v === null || v === undefined) return undefined;
+  if (typeof v !== "object") return JSON.stringify(v);
+  if (Array.isArray(v)) {
+    let out = "[";
+    for (let i = 0; i < v.length; i++) out += (i ? "," : "") + (write(v[i]) ?? "null");
+    return out + "]";
   }
-  return v;
+  const keys = Object.keys(v).sort();
+  let out = "{";
+  let first = true;
+  for (const k of keys) {
+    const x = write((v as Record<string, unknown>)[k]);
+    if (x === undefined) continue;
+    out += (first ? "" : ",") + JSON.stringify(k) + ":" + x;
+    first = false;
+  }
+  return out + "}";
 }
 
 /** A record id as the answer names it, even when the record itself was malformed. */

@@ -236,7 +236,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         reject(errors);
         continue;
       }
-      const projectId = s.projectId ?? implied.get(pairKey(s.sensorId, s.siteId)) ?? null;
+      const projectId = s.projectId || implied.get(pairKey(s.sensorId, s.siteId)) || null;
       seenSessions.set(s.id, rec.raw);
       usable.set(s.id, { id: s.id, sensorId: s.sensorId, siteId: s.siteId, projectId, air });
       sessionRows.push({
@@ -248,7 +248,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         airTempC: s.airTempC ?? null,
         pressureHpa: s.pressureHpa ?? null,
         humidityPct: s.humidityPct ?? null,
-        note: s.note ?? null,
+        note: s.note || null,
         raw: rec.raw,
         deviceId,
         syncedBy: actor.id,

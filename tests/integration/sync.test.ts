@@ -348,3 +348,12 @@ test("retro comes from the target, reflectance from the shot; ingestSync is call
   expect(audits).toHaveLength(1);
   expect(audits[0]!.detail).toMatchObject({ sessions: 1, shots: 1, accepted: 2 });
 });
+
+test("null and an absent optional field are the same record: re-sent with nulls it is a duplicate", async () => {
+  const w = await world();
+  const s = session(w, { airTempC: undefined, note: undefined });
+  const shot = edmShot(s.id, w.dark.id, 12, [12.001]);
+  await sync(w.crew, { deviceId: "t", sessions: [s], shots: [shot] });
+  const again = await sync(w.crew, { deviceId: "t", sessions: [{ ...s, airTempC: null, note: null }], shots: [{ ...shot, incidenceDeg: null, position: null }] });
+  expect(again.json.results.map((r: { status: string }) => r.status)).toEqual(["duplicate", "duplicate"]);
+});
