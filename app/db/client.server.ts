@@ -19,7 +19,8 @@ export function ensureFileFolder(url: string) {
 
 export function openDb(url: string, authToken?: string): Db {
   ensureFileFolder(url);
-  const client = createClient({ url, authToken });
+  // timeout: the busy timeout of every local connection (PRAGMAs reach only one of them).
+  const client = createClient({ url, authToken, timeout: 5000 });
   return drizzle(client, { schema }) as Db;
 }
 

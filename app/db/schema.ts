@@ -256,7 +256,7 @@ export const shots = sqliteTable(
     computedAt: text("computed_at").notNull(),
   },
   (t) => [
-    index("shots_sensor_taken").on(t.sensorId, t.takenAt),
+    index("shots_sensor_taken").on(t.sensorId, t.takenAt, t.id),
     index("shots_session").on(t.sessionId),
   ],
 );

@@ -59,7 +59,8 @@ const writeLock = new Mutex();
 /** Multi-row inserts stay far below SQLite's 32 766 bound variables (31 columns × 250 rows). */
 const INSERT_CHUNK = 250;
 
-type Answer = { status: number; body: unknown; headers?: Record<string, string> };
+/** sensorIds: the sensors whose shots this request stored (for the failed-verdict notice). */
+type Answer = { status: number; body: unknown; headers?: Record<string, string>; sensorIds?: string[] };
 type Stmt = { sql: string; args: (string | number | null)[] };
 
 /**
@@ -320,6 +321,6 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         throw e;
       }
     }
-    return { status: 200, body: { results } };
+    return { status: 200, body: { results }, sensorIds: [...new Set(shotRows.map((r) => r.sensorId))] };
   });
 }

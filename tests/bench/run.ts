@@ -20,3 +20,4 @@ for (const part of parts) {
   }
 }
 process.exit(failed ? 1 : 0);
+export {};
