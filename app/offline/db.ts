@@ -16,7 +16,7 @@ export class FieldDb extends Dexie {
   meta!: Table<MetaRow, string>;
 
   constructor(name = "shotbook-field") {
-    super(name);
+    super(name, { chromeTransactionDurability: "strict" });
     this.version(1).stores({
       sessions: "id, state, queuedAt",
       shots: "id, sessionId, state, queuedAt, [sessionId+state]",

@@ -57,27 +57,7 @@ export async function saveShot(draft: ShotDraft, photo?: PhotoDraft | null, cont
   const record = clean({ ...draft, id: draft.id ?? crypto.randomUUID(), takenAt: draft.takenAt ?? localIso() });
   const errors = checkShotRecord(record);
   if (errors.length) throw new OutboxError(errors);
-  let session: LocalSession | undefined;
-  let ctx = context;
-  if (ctx) session = await db.sessions.get(record.sessionId);
-  else ({ session, ctx } = await previewContextFor(record.sessionId));
-  if (!session) throw new OutboxError([{ path: "sessionId", message: "Start a session first: this shot has none on this tablet" }]);
-  const existing = await db.shots.get(record.id);
-  if (existing && existing.state === "synced") {
-    throw new OutboxError([{ path: "", message: "This shot has reached the server already; synced shots are never changed." }]);
-  }
-  const result = previewShot(session.record, record, ctx);
-  if (!result.ok && result.path) throw new OutboxError([{ path: result.path, message: result.message }]);
-  const row: LocalShot = {
-    id: record.id,
-    sessionId: record.sessionId,
-    record,
-    state: "queued",
-    errors: [],
-    queuedAt: existing?.queuedAt ?? queueStamp(),
-    preview: result.ok ? result.preview : null,
-    ...(result.ok ? {} : { previewError: result.message }),
-  };
+  const ctx = context ?? (await previewContextFor(record.sessionId)).ctx;
   const photoRow: LocalPhoto | null = photo
     ? {
         id: crypto.randomUUID(),
@@ -91,11 +71,29 @@ export async function saveShot(draft: ShotDraft, photo?: PhotoDraft | null, cont
         queuedAt: queueStamp(),
       }
     : null;
-  await db.transaction("rw", db.shots, db.photos, async () => {
+  // One transaction: the session check, the instant check and the writes commit together.
+  return db.transaction("rw", db.sessions, db.shots, db.photos, async () => {
+    const [session, existing] = await Promise.all([db.sessions.get(record.sessionId), db.shots.get(record.id)]);
+    if (!session) throw new OutboxError([{ path: "sessionId", message: "Start a session first: this shot has none on this tablet" }]);
+    if (existing && existing.state === "synced") {
+      throw new OutboxError([{ path: "", message: "This shot has reached the server already; synced shots are never changed." }]);
+    }
+    const result = previewShot(session.record, record, ctx);
+    if (!result.ok && result.path) throw new OutboxError([{ path: result.path, message: result.message }]);
+    const row: LocalShot = {
+      id: record.id,
+      sessionId: record.sessionId,
+      record,
+      state: "queued",
+      errors: [],
+      queuedAt: existing?.queuedAt ?? queueStamp(),
+      preview: result.ok ? result.preview : null,
+      ...(result.ok ? {} : { previewError: result.message }),
+    };
     await db.shots.put(row);
     if (photoRow) await db.photos.put(photoRow);
+    return row;
   });
-  return row;
 }
 
 /** Puts a rejected session back in the queue (e.g. after an admin added its sensor). */
@@ -132,14 +130,15 @@ export type OutboxCounts = { sessions: number; shots: number; photos: number; re
 
 export async function outboxCounts(): Promise<OutboxCounts> {
   const db = fieldDb();
-  const [sq, sr, hq, hr, pq, pr] = await Promise.all([
+  // One read transaction, not six: the status line re-reads this after every save.
+  const [sq, sr, hq, hr, pq, pr] = await db.transaction("r", db.sessions, db.shots, db.photos, () => Promise.all([
     db.sessions.where("state").equals("queued").count(),
     db.sessions.where("state").equals("rejected").count(),
     db.shots.where("state").equals("queued").count(),
     db.shots.where("state").equals("rejected").count(),
     db.photos.where("state").equals("queued").count(),
     db.photos.where("state").equals("rejected").count(),
-  ]);
+  ]));
   return { sessions: sq + sr, shots: hq + hr, photos: pq + pr, rejected: sr + hr + pr, total: sq + sr + hq + hr + pq + pr };
 }
 

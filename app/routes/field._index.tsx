@@ -18,16 +18,18 @@ type SessionRow = LocalSession & { shots: number; queued: number };
 
 async function sessionRows(): Promise<SessionRow[]> {
   const db = fieldDb();
-  const sessions = await db.sessions.orderBy("queuedAt").reverse().limit(30).toArray();
-  return Promise.all(
+  return db.transaction("r", db.sessions, db.shots, async () => {
+    const sessions = await db.sessions.orderBy("queuedAt").reverse().limit(30).toArray();
+    return Promise.all(
     sessions.map(async (s) => {
       const [shots, synced] = await Promise.all([
         db.shots.where("sessionId").equals(s.id).count(),
         db.shots.where("[sessionId+state]").equals([s.id, "synced"]).count(),
       ]);
       return { ...s, shots, queued: shots - synced };
-    }),
-  );
+      }),
+    );
+  });
 }
 
 export async function clientLoader() {

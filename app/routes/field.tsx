@@ -11,7 +11,9 @@ import { startAutoSync, syncNow } from "~/offline/autosync";
 import { fieldDb } from "~/offline/db";
 import { outboxCounts, saveShot, startSession } from "~/offline/outbox";
 import { readReference, refreshReference } from "~/offline/reference";
+import { previewShot } from "~/offline/preview";
 import { requestPersistence } from "~/offline/storage";
+import { checkShotRecord } from "~/offline/validate";
 import { clearSignInPause, syncOutbox, syncStatus } from "~/offline/sync";
 
 export const meta: Route.MetaFunction = () => [{ title: "Field — Shotbook" }];
@@ -30,7 +32,19 @@ declare global {
 
 export default function FieldLayout() {
   useEffect(() => {
-    window.shotbookField = { startSession, saveShot, syncNow, syncOutbox, syncStatus, outboxCounts, readReference, refreshReference, db: fieldDb() };
+    window.shotbookField = {
+      startSession,
+      saveShot,
+      checkShotRecord,
+      previewShot,
+      syncNow,
+      syncOutbox,
+      syncStatus,
+      outboxCounts,
+      readReference,
+      refreshReference,
+      db: fieldDb(),
+    };
     void (async () => {
       // The server knows the user (this page rendered), so a stale "sign in to send" is over.
       if (navigator.onLine) {
