@@ -72,17 +72,17 @@ export const shotRecordSchema = z
     note,
   })
   .superRefine((s, ctx) => {
-    const r = s.reference;
+    const r = s.reference ?? ({} as Partial<typeof s.reference>);
     if (r.method === "coordinates") {
       if (!r.stationId) ctx.addIssue({ code: "custom", path: ["reference", "stationId"], message: "Choose the station the sensor stands on" });
       if (!s.targetId) ctx.addIssue({ code: "custom", path: ["targetId"], message: "Choose the target: its coordinates give the distance" });
       if (r.instrumentHeightM === undefined) ctx.addIssue({ code: "custom", path: ["reference", "instrumentHeightM"], message: "Enter the instrument height (m)" });
       if (r.targetHeightM === undefined) ctx.addIssue({ code: "custom", path: ["reference", "targetHeightM"], message: "Enter the target height (m)" });
-    } else if (r.distanceM === undefined) {
+    } else if (r.distanceM === undefined && r.method) {
       ctx.addIssue({ code: "custom", path: ["reference", "distanceM"], message: "Enter the reference distance (m)" });
     }
     if (r.method === "tape" && !r.tape) ctx.addIssue({ code: "custom", path: ["reference", "tape", "tapeId"], message: "Choose the tape" });
-  });
+  }, { when: (p) => typeof p.value === "object" && p.value !== null });
 
 function toErrors(issues: z.core.$ZodIssue[], readings?: object): FieldError[] {
   return issues.flatMap((i) => {

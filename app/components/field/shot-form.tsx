@@ -230,6 +230,7 @@ export function ShotForm({
   async function onSubmit(e: React.FormEvent) {
     e.preventDefault();
     if (saving) return;
+    setSaved(null);
     const record = { id: existing?.id ?? "00000000-0000-4000-8000-000000000000", takenAt: new Date().toISOString(), ...draft } as SyncShotRecord;
     const local = checkShotRecord(record);
     if (local.length) {
@@ -411,7 +412,7 @@ export function ShotForm({
           <p className="field-label" id="f-gps-label">GPS fix <span className="font-normal text-muted">(optional)</span></p>
           <div className="flex flex-wrap items-center gap-2">
             <button type="button" id="f-gps" className="btn-secondary" onClick={locate} aria-describedby="f-gps-label f-gps-state">
-              ⌖ Get GPS fix
+              Get GPS fix
             </button>
             {f.position ? (
               <button type="button" className="btn-secondary" onClick={() => set("position", null)}>
