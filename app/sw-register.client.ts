@@ -5,11 +5,34 @@ import { Workbox } from "workbox-window";
 export function registerServiceWorker(onUpdateReady: (apply: () => void) => void) {
   if (!import.meta.env.PROD || !("serviceWorker" in navigator)) return;
   const wb = new Workbox("/sw.js", { scope: "/" });
-  wb.addEventListener("waiting", () => {
+  let offered: ServiceWorker | null = null;
+  const offer = (waiting: ServiceWorker | null | undefined) => {
+    if (!waiting || waiting === offered) return;
+    offered = waiting;
+    document.documentElement.dataset.swUpdate = "waiting";
     onUpdateReady(() => {
-      wb.addEventListener("controlling", () => window.location.reload());
-      wb.messageSkipWaiting();
+      let done = false;
+      const reload = () => {
+        if (done) return;
+        done = true;
+        window.location.reload();
+      };
+      navigator.serviceWorker.addEventListener("controllerchange", reload, { once: true });
+      waiting.addEventListener("statechange", () => waiting.state === "activated" && reload());
+      waiting.postMessage({ type: "SKIP_WAITING" });
     });
-  });
-  void wb.register().catch((e: unknown) => console.warn("Service worker registration failed", e));
+  };
+  wb.addEventListener("waiting", (e) => offer(e.sw));
+  void wb
+    .register()
+    .then((reg) => {
+      if (!reg) return;
+      // Also catch a worker that was already waiting, or one found by the browser's own checks.
+      const check = () => offer(reg.waiting);
+      check();
+      reg.addEventListener("updatefound", () => reg.installing?.addEventListener("statechange", check));
+      window.setInterval(check, 5000);
+      window.setInterval(() => void reg.update().catch(() => {}), 60 * 60 * 1000);
+    })
+    .catch((e: unknown) => console.warn("Service worker registration failed", e));
 }

@@ -2,6 +2,8 @@
 // session, shots, a photo, reload again), everything syncs when the network returns; a big
 // outbox drains in batches with a progress bar; a failing server loses nothing; a refused
 // shot shows the server's message on its field and goes out again once fixed.
+import { readFileSync, writeFileSync } from "node:fs";
+import { resolve } from "node:path";
 import { afterAll, beforeAll, expect, test } from "vitest";
 import type { Browser, BrowserContext, Page } from "playwright-core";
 import { launchBrowser, newContext, signInAs } from "./helpers";
@@ -97,6 +99,8 @@ async function report(page: Page) {
 
 test("a crew logs check-shots with no signal, reloads, and everything syncs when the network returns", async () => {
   const context = await newContext(browser, { viewport: { width: 1024, height: 1366 } });
+  await context.grantPermissions(["geolocation"]);
+  await context.setGeolocation({ latitude: 10.00011, longitude: -30.00002, accuracy: 4 });
   await signInAs(context, "crew@e2e.test");
   const page = await openFieldOnline(context);
 
@@ -130,7 +134,11 @@ test("a crew logs check-shots with no signal, reloads, and everything syncs when
     expect(await page.getByLabel("Reference distance (m)").inputValue()).toBe(String(s.target.referenceM));
     await page.getByLabel("Sensor range (m)").fill(s.range);
     await page.getByLabel("Illuminance (klux)").fill("12");
-    if (s.photo) await page.setInputFiles("#f-photo", { name: "target.png", mimeType: "image/png", buffer: PNG });
+    if (s.photo) {
+      await page.setInputFiles("#f-photo", { name: "target.png", mimeType: "image/png", buffer: PNG });
+      await page.getByRole("button", { name: "Get GPS fix" }).click();
+      await page.getByText("10.000110°, −30.000020° ± 4 m").or(page.getByText("10.000110°, -30.000020° ± 4 m")).waitFor();
+    }
     // Instant feedback from the shared ranging core before saving.
     await page.getByTestId("error-mm").waitFor();
     await page.getByRole("button", { name: "Save shot" }).click();
@@ -146,6 +154,14 @@ test("a crew logs check-shots with no signal, reloads, and everything syncs when
   expect(await page.getByTestId("shot-row").count()).toBe(3);
   expect(await page.locator('[data-testid="shot-row"][data-state="queued"]').count()).toBe(3);
   expect(await outboxTotal(page)).toBe(5); // 1 session, 3 shots, 1 photo
+
+  // The coverage checklist counts what the session has: dark 12.5 m in 10–30, bright 40 m in 30–100.
+  await page.getByRole("link", { name: "Coverage checklist" }).click();
+  await page.getByTestId("coverage-table").waitFor();
+  expect(await page.getByTestId("cell-10-30-dark").textContent()).toContain("1 of 3");
+  expect(await page.getByTestId("cell-30-100-bright").textContent()).toContain("1 of 3");
+  expect(await page.getByTestId("cell-0-10-dark").textContent()).toContain("need 3 more");
+  expect(await page.getByTestId("coverage-summary").textContent()).toContain("Still missing: 8 cells and a shot in bright sun");
 
   await page.getByRole("link", { name: "Outbox", exact: true }).click();
   await page.getByTestId("outbox-summary").waitFor();
@@ -166,6 +182,9 @@ test("a crew logs check-shots with no signal, reloads, and everything syncs when
   });
   expect(photoShot).toHaveLength(1);
   expect(photoShot[0]!.state).toBe("synced");
+  const geo = await page.request.get(`/api/shots.geojson?sensor=${world.sensor.id}`);
+  const located = ((await geo.json()) as { features: { geometry: { coordinates: number[] } }[] }).features;
+  expect(located.some((f) => Math.abs(f.geometry.coordinates[1]! - 10.00011) < 1e-9 && Math.abs(f.geometry.coordinates[0]! + 30.00002) < 1e-9)).toBe(true);
   const photos = await page.request.get(`/api/photos?shotId=${photoShot[0]!.shotId}`);
   expect(photos.status()).toBe(200);
   expect(((await photos.json()) as { photos: unknown[] }).photos).toHaveLength(1);
@@ -298,4 +317,35 @@ test("an expired sign-in pauses sending with a sign-in link; after signing in, t
   await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
   expect(await serverShotCount(sessionId)).toBe(3);
   await context.close();
+});
+
+test("a new version waits while a form holds typed input, then offers to reload", async () => {
+  const context = await newContext(browser);
+  await signInAs(context, "crew@e2e.test");
+  const page = await openFieldOnline(context);
+  await page.getByLabel("Note").fill("Half typed");
+  // A deploy: the server now has another worker script (the built file with one more line).
+  const swFile = resolve(process.env.RR_BUILD_DIR ?? "build", "client/sw.js");
+  const original = readFileSync(swFile, "utf8");
+  try {
+    writeFileSync(swFile, `${original}\n// next version\n`);
+    await page.evaluate(async () => {
+      await (await navigator.serviceWorker.getRegistration())!.update();
+    });
+    await page.waitForFunction(async () => Boolean((await navigator.serviceWorker.getRegistration())?.waiting), undefined, { timeout: 30_000 });
+    await page.waitForTimeout(1500);
+    expect(await page.evaluate(() => document.querySelectorAll('form[data-dirty="true"]').length)).toBe(1);
+    expect(await page.getByTestId("update-prompt").count()).toBe(0);
+    // Still waiting: nothing replaced the running version under the crew's hands.
+    expect(await page.evaluate(async () => Boolean((await navigator.serviceWorker.getRegistration())?.waiting))).toBe(true);
+    await page.getByLabel("Note").fill("");
+    await page.getByTestId("update-prompt").waitFor({ timeout: 10_000 });
+    expect(await page.getByTestId("update-prompt").textContent()).toContain("A new version is ready — reload");
+    await Promise.all([page.waitForEvent("load"), page.getByRole("button", { name: "Reload" }).click()]);
+    expect(await page.evaluate(async () => (await navigator.serviceWorker.getRegistration())?.waiting ?? null)).toBeNull();
+    await page.getByRole("heading", { name: "Start session" }).waitFor();
+  } finally {
+    writeFileSync(swFile, original);
+    await context.close();
+  }
 });
