@@ -6,7 +6,7 @@ import { readFileSync, writeFileSync } from "node:fs";
 import { resolve } from "node:path";
 import { afterAll, beforeAll, expect, test } from "vitest";
 import type { Browser, BrowserContext, Page } from "playwright-core";
-import { launchBrowser, newContext, signInAs } from "./helpers";
+import { launchBrowser, newContext, seriousA11yViolations, signInAs } from "./helpers";
 import { fieldWorld, serverShotCount, type FieldWorld } from "./field-fixtures";
 
 let browser: Browser;
@@ -348,4 +348,21 @@ test("a new version waits while a form holds typed input, then offers to reload"
     writeFileSync(swFile, original);
     await context.close();
   }
+});
+
+test("the field screens have no serious accessibility violations", async () => {
+  const context = await newContext(browser, { viewport: { width: 1024, height: 1366 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openFieldOnline(context);
+  expect(await seriousA11yViolations(page)).toEqual([]);
+  await page.getByLabel("Sensor", { exact: true }).selectOption(world.sensor.id);
+  await page.getByLabel("Site", { exact: true }).selectOption(world.site.id);
+  await page.getByRole("button", { name: "Start session" }).click();
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Enter the reflectance (%)").waitFor();
+  expect(await seriousA11yViolations(page)).toEqual([]);
+  await page.getByRole("link", { name: "Outbox", exact: true }).click();
+  await page.getByTestId("outbox-summary").waitFor();
+  expect(await seriousA11yViolations(page)).toEqual([]);
+  await context.close();
 });
