@@ -21,6 +21,8 @@ const pwa = () =>
     outDir: `${buildDirectory}/client`,
     injectManifest: {
       globPatterns: ["**/*.{js,css,woff2,svg,png,html,webmanifest}"],
+      // The range-error map (MapLibre, ~1 MB) is an office page that needs the network anyway.
+      globIgnores: ["**/range-map-*"],
       maximumFileSizeToCacheInBytes: 5 * 1024 * 1024,
     },
   });
