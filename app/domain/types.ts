@@ -1,4 +1,4 @@
-// Shared types of the ranging core (see /work/shared/ranging.md and api.md).
+// Shared types of the ranging core (see ranging.md and api.md, the product specification).
 // Pure data shapes: no I/O, no framework imports.
 
 export type SensorSpec = {

@@ -1,4 +1,4 @@
-// The report and shot shapes of the HTTP contract (/work/shared/api.md), as the review
+// The report and shot shapes of the HTTP contract (api.md), as the review
 // screens read them from the API in the browser.
 export type Verdict = "pass" | "fail" | "insufficient";
 export type TestName = "bias" | "precision" | "within" | "count";
