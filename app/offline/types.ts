@@ -1,5 +1,5 @@
 // Shapes of the tablet's queue and of its copy of the reference data. The records inside
-// `record` are exactly the bodies POST /api/sync expects (/work/shared/api.md); the rest is
+// `record` are exactly the bodies POST /api/sync expects (api.md); the rest is
 // the tablet's own bookkeeping (state, the server's answer, the instant preview).
 import type { Rule, SensorSpec, TapeSpec } from "~/domain";
 
