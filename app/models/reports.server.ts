@@ -1,11 +1,21 @@
 // Sensor reports (api.md GET /api/sensors/:sensorId/report) and the sensor overview: the stored
 // computed shots of a selection through the domain's sensorReport, with the rule of the chosen
 // project (it recomputes each shot's limit and within with that rule's coverage factor).
-import { and, asc, desc, eq, inArray, isNull, sql } from "drizzle-orm";
+//
+// Speed: a sensor's report rows (all its shots) are kept in this process, and so are the
+// computed report and its JSON bytes per query. Every request first reads a fingerprint of
+// everything a report depends on, in one read transaction (see readState): the sensor row
+// itself, the rule's project row, the last approved sign-off's bias, and of the sensor's shots
+// their count and rowids (index only), their exclusions (rows are never deleted; a restore
+// fills restored_at) and the recomputation marks recomputeWhere writes with its updates. A
+// cached copy is used only when its fingerprint is the one just read, so several app
+// instances on one database never serve each other's stale figures. Shots appended since
+// (a sync) and changed exclusions are patched in without reloading the rest.
+import { and, asc, desc, eq, gt, inArray, isNull, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
-import { checkSessions, projects, projectSensors, sensors, shots, signOffs, targets } from "~/db/schema";
-import { DEFAULT_RULE, sensorReport, type ReportShot, type Rule, type SensorReport } from "~/domain";
-import { periodDay, periodWhere, ruleOf, sensorSpecOf, type Actor, type QueryError } from "./shots.server";
+import { auditLog, checkSessions, exclusions, projects, projectSensors, sensors, shots, signOffs, targets } from "~/db/schema";
+import { DEFAULT_RULE, inPeriod, sensorReport, type ReportShot, type Rule, type SensorReport } from "~/domain";
+import { periodDay, periodWhere, RECOMPUTE_ACTION, ruleOf, sensorSpecOf, type Actor, type QueryError } from "./shots.server";
 import type { RecordError } from "./sync-schemas";
 
 export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; projectId?: string };
@@ -45,26 +55,6 @@ export function parseReportQuery(params: URLSearchParams): ReportQuery | QueryEr
   return errors.length ? { status: 400, body: { error: "Invalid query.", errors } } : out;
 }
 
-/**
- * The rule of a report: the chosen project's; without one, the project's when the sensor
- * belongs to exactly one live project, else the default rule of ranging.md §6.
- */
-async function ruleForReport(sensorId: string, projectId: string | undefined, db: Db): Promise<{ rule: Rule } | QueryError> {
-  const cols = { minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM };
-  if (projectId) {
-    const [p] = await db.select(cols).from(projects).where(eq(projects.id, projectId));
-    if (!p) return { status: 404, body: { error: `No project ${projectId}.` } };
-    return { rule: ruleOf(p) };
-  }
-  const rows = await db
-    .select(cols)
-    .from(projectSensors)
-    .innerJoin(projects, eq(projects.id, projectSensors.projectId))
-    .where(and(eq(projectSensors.sensorId, sensorId), isNull(projects.retiredAt)))
-    .limit(2);
-  return { rule: rows.length === 1 ? ruleOf(rows[0]!) : DEFAULT_RULE };
-}
-
 type LoadedShot = ReportShot & { note?: string | null; targetLabel?: string | null };
 
 const reportColumns = {
@@ -84,50 +74,112 @@ const reportColumns = {
   airDefaulted: shots.airDefaulted,
 };
 
+// ---------------------------------------------------------------------------------------------
+// Loading the rows: one query, one text value per column.
+
 /**
- * The same columns packed into ONE text value for the whole selection, a JSON array of arrays:
- * the local client builds a JS object per row and per column (defineProperty), which for
- * 100 000 shots costs seconds; one value and JSON.parse cost a fraction. %!.17g writes each
- * double with 17 significant digits so it reads back bit for bit (SQLite's own JSON and CAST
- * round to 15). Ids are UUIDs and times ISO 8601 (validated at sync): nothing to escape.
+ * %!.17g writes each double with 17 significant digits so it reads back bit for bit (SQLite's
+ * own JSON and CAST round to 15); group_concat skips NULL, so a missing figure is 'null'.
  */
-const packedRow = sql`'["' || ${shots.id} || '","' || ${shots.takenAt} || '","' || ${shots.sessionId} || '","' || ${checkSessions.startedAt} || '",' ||
-  printf('%!.17g,%!.17g,%!.17g,', ${shots.referenceM}, ${shots.rangeM}, ${shots.errorMm}) ||
-  CASE WHEN ${shots.repeatabilityMm} IS NULL THEN 'null' ELSE printf('%!.17g', ${shots.repeatabilityMm}) END || ',' ||
-  printf('%!.17g,', ${shots.reflectancePct}) ||
-  CASE WHEN ${shots.illuminanceKlux} IS NULL THEN 'null' ELSE printf('%!.17g', ${shots.illuminanceKlux}) END || ',' ||
-  (${shots.retro} + 2 * ${shots.excluded} + 4 * ${shots.wrap} + 8 * ${shots.airDefaulted}) || ']'`;
-const SAFE = /^[0-9A-Za-z:+.\-]*$/;
+const exact = (col: SQL.Aliased | unknown) => sql`printf('%!.17g', ${col})`;
+const exactOrNull = (col: unknown) => sql`CASE WHEN ${col} IS NULL THEN 'null' ELSE printf('%!.17g', ${col}) END`;
 
-type Packed = [string, string, string, string, number, number, number, number | null, number, number | null, number];
+/**
+ * The selection's columns, each packed into ONE text value for all its shots (a list joined by
+ * commas): the local client builds a JS object per row and per column (defineProperty), which
+ * for 100 000 shots costs seconds, while 10 values and a split or JSON.parse each cost a
+ * fraction. Rows come in takenAt order from the index (sensor_id, taken_at, id); SQLite keeps
+ * a subquery's order through group_concat in practice, though it does not promise it, so
+ * inTimeOrder checks it. Session start times come from their own small query.
+ */
+function packedQuery(db: Db, where: SQL[]) {
+  const o = db
+    .select({
+      id: shots.id,
+      takenAt: shots.takenAt,
+      sessionId: shots.sessionId,
+      referenceM: exact(shots.referenceM).as("reference_m"),
+      rangeM: exact(shots.rangeM).as("range_m"),
+      errorMm: exact(shots.errorMm).as("error_mm"),
+      repeatabilityMm: exactOrNull(shots.repeatabilityMm).as("repeatability_mm"),
+      reflectancePct: exact(shots.reflectancePct).as("reflectance_pct"),
+      illuminanceKlux: exactOrNull(shots.illuminanceKlux).as("illuminance_klux"),
+      bits: sql<number>`(${shots.retro} + 2 * ${shots.excluded} + 4 * ${shots.wrap} + 8 * ${shots.airDefaulted})`.as("bits"),
+    })
+    .from(shots)
+    .where(and(...where))
+    .orderBy(asc(shots.takenAt))
+    .as("o");
+  const gc = (c: unknown) => sql<string | null>`group_concat(${c})`;
+  return db
+    .select({
+      ids: gc(o.id),
+      takenAt: gc(o.takenAt),
+      sessionIds: gc(o.sessionId),
+      referenceM: gc(o.referenceM),
+      rangeM: gc(o.rangeM),
+      errorMm: gc(o.errorMm),
+      repeatabilityMm: gc(o.repeatabilityMm),
+      reflectancePct: gc(o.reflectancePct),
+      illuminanceKlux: gc(o.illuminanceKlux),
+      bits: gc(o.bits),
+    })
+    .from(o);
+}
+type Packed = Awaited<ReturnType<typeof packedQuery>>[number];
 
-function unpack(text: string): ReportShot[] | null {
-  let rows: Packed[];
+const sessionsQuery = (db: Db, sensorId: string) =>
+  db.select({ id: checkSessions.id, startedAt: checkSessions.startedAt }).from(checkSessions).where(eq(checkSessions.sensorId, sensorId));
+
+function numbers(text: string | null, n: number): (number | null)[] | null {
+  if (text == null) return null;
   try {
-    rows = JSON.parse(`[${text}]`) as Packed[];
+    const v = JSON.parse(`[${text}]`) as unknown;
+    return Array.isArray(v) && v.length === n ? (v as (number | null)[]) : null;
   } catch {
     return null;
   }
-  const out: ReportShot[] = new Array(rows.length);
-  for (let i = 0; i < rows.length; i++) {
-    const f = rows[i]!;
-    if (!SAFE.test(f[0]) || !SAFE.test(f[2])) return null;
-    const bits = f[10];
+}
+const isNum = (v: unknown): v is number => typeof v === "number";
+
+/** The packed columns → rows; null when anything does not read back cleanly (then the plain query). */
+function unpack(p: Packed | undefined, sessions: { id: string; startedAt: string }[]): ReportShot[] | null {
+  if (!p || p.ids == null) return [];
+  const ids = p.ids.split(",");
+  const n = ids.length;
+  const taken = p.takenAt?.split(",") ?? [];
+  const ses = p.sessionIds?.split(",") ?? [];
+  if (taken.length !== n || ses.length !== n) return null; // a comma inside a value
+  const ref = numbers(p.referenceM, n);
+  const range = numbers(p.rangeM, n);
+  const err = numbers(p.errorMm, n);
+  const rep = numbers(p.repeatabilityMm, n);
+  const refl = numbers(p.reflectancePct, n);
+  const lux = numbers(p.illuminanceKlux, n);
+  const bits = numbers(p.bits, n);
+  if (!ref || !range || !err || !rep || !refl || !lux || !bits) return null;
+  // one string per session, not one per shot
+  const started = new Map(sessions.map((s) => [s.id, s] as const));
+  const out: ReportShot[] = new Array(n);
+  for (let i = 0; i < n; i++) {
+    const s = started.get(ses[i]!);
+    const r = ref[i], g = range[i], e = err[i], q = rep[i], f = refl[i], l = lux[i], b = bits[i];
+    if (!s || !isNum(r) || !isNum(g) || !isNum(e) || !isNum(f) || !isNum(b) || (q !== null && !isNum(q)) || (l !== null && !isNum(l))) return null;
     out[i] = {
-      id: f[0],
-      takenAt: f[1],
-      sessionId: f[2],
-      sessionStartedAt: f[3],
-      referenceM: f[4],
-      rangeM: f[5],
-      errorMm: f[6],
-      repeatabilityMm: f[7],
-      reflectancePct: f[8],
-      illuminanceKlux: f[9],
-      retro: (bits & 1) !== 0,
-      excluded: (bits & 2) !== 0,
-      wrap: (bits & 4) !== 0,
-      airDefaulted: (bits & 8) !== 0,
+      id: ids[i]!,
+      takenAt: taken[i]!,
+      sessionId: s.id,
+      sessionStartedAt: s.startedAt,
+      referenceM: r,
+      rangeM: g,
+      errorMm: e,
+      repeatabilityMm: q,
+      reflectancePct: f,
+      illuminanceKlux: l,
+      retro: (b & 1) !== 0,
+      excluded: (b & 2) !== 0,
+      wrap: (b & 4) !== 0,
+      airDefaulted: (b & 8) !== 0,
     };
   }
   return out;
@@ -137,8 +189,7 @@ const byTimeThenId = (a: ReportShot, b: ReportShot) => (a.takenAt < b.takenAt ? 
 
 /**
  * (takenAt, id) order, as the plain query and /api/shots give it. The packed rows come in
- * takenAt order (SQLite keeps a subquery's order through group_concat in practice, though it
- * does not promise it): ties are put in id order here, and any other disorder gets a full sort.
+ * takenAt order: ties are put in id order here, and any other disorder gets a full sort.
  */
 function inTimeOrder(list: ReportShot[]): ReportShot[] {
   for (let i = 1; i < list.length; i++) {
@@ -156,24 +207,21 @@ function inTimeOrder(list: ReportShot[]): ReportShot[] {
   return list;
 }
 
-/** The selection's shots, one query, in time order (takenAt, then id). */
-export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<LoadedShot[]> {
-  const where = [eq(shots.sensorId, sensorId), ...periodWhere(q.from, q.to)];
-  if (q.sessionIds?.length) where.push(inArray(shots.sessionId, q.sessionIds));
-  if (!opts.details) {
-    // the index (sensor_id, taken_at) gives the order, so SQLite never sorts 100 000 long strings
-    const ordered = db
-      .select({ r: sql<string>`${packedRow}`.as("r") })
-      .from(shots)
-      .innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId))
-      .where(and(...where))
-      .orderBy(asc(shots.takenAt))
-      .as("ordered");
-    const [row] = await db.select({ packed: sql<string | null>`group_concat(${ordered.r}, ',')` }).from(ordered);
-    const list = unpack(row?.packed ?? "");
-    if (list) return inTimeOrder(list);
-    // a field needed escaping (not possible for synced records): the plain query
-  }
+/** Two lists in (takenAt, id) order → one. */
+function mergeInOrder(a: ReportShot[], b: ReportShot[]): ReportShot[] {
+  if (!b.length) return a;
+  if (!a.length) return b;
+  const out: ReportShot[] = new Array(a.length + b.length);
+  let i = 0;
+  let j = 0;
+  let k = 0;
+  while (i < a.length && j < b.length) out[k++] = byTimeThenId(a[i]!, b[j]!) <= 0 ? a[i++]! : b[j++]!;
+  while (i < a.length) out[k++] = a[i++]!;
+  while (j < b.length) out[k++] = b[j++]!;
+  return out;
+}
+
+function plainQuery(db: Db, where: SQL[]) {
   return db
     .select({ ...reportColumns, note: shots.note, targetLabel: targets.label })
     .from(shots)
@@ -183,17 +231,249 @@ export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { 
     .orderBy(asc(shots.takenAt), asc(shots.id));
 }
 
-async function lastApprovedBias(sensorId: string, db: Db): Promise<number | null> {
-  const [row] = await db
-    .select({ biasMm: signOffs.biasMm })
-    .from(signOffs)
-    .where(and(eq(signOffs.sensorId, sensorId), eq(signOffs.decision, "approved")))
-    .orderBy(desc(signOffs.createdAt))
-    .limit(1);
-  return row?.biasMm ?? null;
+function selectionWhere(sensorId: string, q: ReportQuery): SQL[] {
+  const where = [eq(shots.sensorId, sensorId), ...periodWhere(q.from, q.to)];
+  if (q.sessionIds?.length) where.push(inArray(shots.sessionId, q.sessionIds));
+  return where;
 }
 
-function toJson(sensorId: string, rule: Rule, r: SensorReport, shotsIn: ReportShot[]): SensorReportJson {
+/** The selection's shots, read from the database (no cache), in time order (takenAt, then id). */
+export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<LoadedShot[]> {
+  const where = selectionWhere(sensorId, q);
+  if (!opts.details) {
+    const [ses, packed] = await db.batch([sessionsQuery(db, sensorId), packedQuery(db, where)]);
+    const list = unpack(packed[0], ses);
+    if (list) return inTimeOrder(list);
+    // a value needed escaping (not possible for synced records): the plain query
+  }
+  return plainQuery(db, where);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The fingerprint.
+
+/**
+ * What the sensor's shots looked like when read: any insert, exclusion, restore or
+ * recomputation changes it. Every part is a b-tree seek, not a scan of the sensor's shots:
+ * - the largest rowid of the whole shots table: an insert anywhere moves it (shots are never
+ *   deleted but with their sensor, whose created_at is part of the fingerprint too);
+ * - the count of the sensor's exclusion rows and of the restored ones (exclusion rows are
+ *   never deleted; a restore fills restored_at), walked from the exclusions, which are few;
+ * - the marks every recomputation writes in the transaction of its updates (shots.server).
+ */
+type ShotsStamp = { maxRowid: number; exclusions: number; restored: number; recomputes: number; lastRecompute: number };
+
+function stampQueries(db: Db, sensorId: string) {
+  return [
+    db.select({ maxRowid: sql<number>`ifnull(max(${shots}.rowid), 0)` }).from(shots),
+    db
+      .select({ n: sql<number>`count(*)`, restored: sql<number>`count(${exclusions.restoredAt})` })
+      .from(exclusions)
+      .crossJoin(shots) // CROSS JOIN keeps exclusions as the outer loop
+      .where(and(eq(shots.id, exclusions.shotId), eq(shots.sensorId, sensorId))),
+    db
+      .select({ n: sql<number>`count(*)`, last: sql<number>`ifnull(max(${auditLog}.rowid), 0)` })
+      .from(auditLog)
+      .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, sensorId), eq(auditLog.action, RECOMPUTE_ACTION))),
+  ] as const;
+}
+
+type StampRows = [{ maxRowid: number }[], { n: number; restored: number }[], { n: number; last: number }[]];
+function stampOf([a, b, c]: StampRows): ShotsStamp {
+  return {
+    maxRowid: Number(a[0]?.maxRowid ?? 0),
+    exclusions: Number(b[0]?.n ?? 0),
+    restored: Number(b[0]?.restored ?? 0),
+    recomputes: Number(c[0]?.n ?? 0),
+    lastRecompute: Number(c[0]?.last ?? 0),
+  };
+}
+const sameStamp = (a: ShotsStamp, b: ShotsStamp) =>
+  a.maxRowid === b.maxRowid && a.exclusions === b.exclusions && a.restored === b.restored && a.recomputes === b.recomputes && a.lastRecompute === b.lastRecompute;
+
+const ruleCols = { minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM };
+
+type State = {
+  sensor: typeof sensors.$inferSelect | undefined;
+  rule: { rule: Rule } | QueryError;
+  lastBias: number | null;
+  stamp: ShotsStamp;
+  /** Everything above as one string: the cached report of a query is good while it is unchanged. */
+  fingerprint: string;
+};
+
+/**
+ * One read transaction: the sensor, the rule of the report (the chosen project's; without one,
+ * the project's when the sensor belongs to exactly one live project, else the default rule of
+ * ranging.md §6), the bias of the last approved sign-off (drift) and the stamp of the shots.
+ */
+async function readState(db: Db, sensorId: string, projectId: string | undefined): Promise<State> {
+  const [sensorRows, ruleRows, biasRows, ...stamps] = await db.batch([
+    db.select().from(sensors).where(eq(sensors.id, sensorId)),
+    db
+      .select(ruleCols)
+      .from(projects)
+      .where(
+        projectId
+          ? eq(projects.id, projectId)
+          : and(isNull(projects.retiredAt), inArray(projects.id, db.select({ id: projectSensors.projectId }).from(projectSensors).where(eq(projectSensors.sensorId, sensorId)))),
+      )
+      .limit(2),
+    db
+      .select({ biasMm: signOffs.biasMm })
+      .from(signOffs)
+      .where(and(eq(signOffs.sensorId, sensorId), eq(signOffs.decision, "approved")))
+      .orderBy(desc(signOffs.createdAt))
+      .limit(1),
+    ...stampQueries(db, sensorId),
+  ]);
+  const rule: State["rule"] = projectId
+    ? ruleRows[0]
+      ? { rule: ruleOf(ruleRows[0]) }
+      : { status: 404, body: { error: `No project ${projectId}.` } }
+    : { rule: ruleRows.length === 1 ? ruleOf(ruleRows[0]!) : DEFAULT_RULE };
+  const lastBias = biasRows[0]?.biasMm ?? null;
+  const stamp = stampOf(stamps as StampRows);
+  const sensor = sensorRows[0];
+  return { sensor, rule, lastBias, stamp, fingerprint: JSON.stringify([sensor, "rule" in rule ? rule.rule : null, lastBias, stamp]) };
+}
+
+// ---------------------------------------------------------------------------------------------
+// The in-process cache, one per database handle.
+
+/** Shots kept as loaded rows across all sensors (about 350 bytes each). */
+const ROWS_BUDGET = 500_000;
+/** Shot rows kept in computed reports across all queries. */
+const REPORT_ROWS_BUDGET = 500_000;
+/** Bytes of report JSON kept. */
+const JSON_BUDGET = 160 * 1024 * 1024;
+
+type RowsEntry = { born: string; stamp: ShotsStamp; shots: readonly ReportShot[] };
+type ReportEntry = { fingerprint: string; built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
+type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry> };
+const cachesByDb = new WeakMap<Db, Caches>();
+
+function cachesOf(db: Db): Caches {
+  let c = cachesByDb.get(db);
+  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map() }));
+  return c;
+}
+
+/** Least recently used first out, until the map's total is within the budget. */
+function evict<V>(map: Map<string, V>, size: (v: V) => number, budget: number) {
+  let total = 0;
+  for (const v of map.values()) total += size(v);
+  for (const [k, v] of map) {
+    if (total <= budget) break;
+    map.delete(k);
+    total -= size(v);
+  }
+}
+function touch<V>(map: Map<string, V>, key: string, v: V) {
+  map.delete(key);
+  map.set(key, v);
+}
+
+/** Drops everything this process keeps for the database (tests; never needed for correctness). */
+export function clearReportCache(db: Db = getDb()) {
+  cachesByDb.delete(db);
+}
+
+/**
+ * All shots of the sensor as of `stamp` (or newer), in time order: the kept rows when their
+ * stamp is this one; the kept rows plus the shots appended since and the exclusion flags of
+ * the shots that have exclusion rows, when only those changed; else everything read again.
+ * `fresh` tells whether the rows match the given stamp (so a report of them may be kept).
+ */
+async function sensorRows(db: Db, caches: Caches, sensorId: string, born: string, stamp: ShotsStamp): Promise<{ shots: readonly ReportShot[]; fresh: boolean }> {
+  const have = caches.rows.get(sensorId);
+  if (have && have.born === born && sameStamp(have.stamp, stamp)) {
+    touch(caches.rows, sensorId, have);
+    return { shots: have.shots, fresh: true };
+  }
+  let next: RowsEntry | null = null;
+  if (have && have.born === born && have.stamp.recomputes === stamp.recomputes && have.stamp.lastRecompute === stamp.lastRecompute && stamp.maxRowid >= have.stamp.maxRowid) {
+    const after = have.stamp.maxRowid;
+    const exclusionsChanged = have.stamp.exclusions !== stamp.exclusions || have.stamp.restored !== stamp.restored;
+    // "+sensor_id" keeps SQLite off the sensor index: the rows after the kept rowid, walked by rowid
+    const appended = [sql`+${shots.sensorId} = ${sensorId}`, gt(sql`${shots}.rowid`, after)];
+    const [a, b, c, count, ses, packed, flags] = await db.batch([
+      ...stampQueries(db, sensorId),
+      db.select({ n: sql<number>`count(*)` }).from(shots).where(eq(shots.sensorId, sensorId)),
+      sessionsQuery(db, sensorId),
+      packedQuery(db, appended),
+      // every shot of the sensor that ever had an exclusion row: the only way its flag changes
+      db
+        .selectDistinct({ id: shots.id, excluded: shots.excluded })
+        .from(exclusions)
+        .crossJoin(shots)
+        .where(and(eq(shots.id, exclusions.shotId), eq(shots.sensorId, sensorId), exclusionsChanged ? undefined : sql`0`)),
+    ]);
+    const now = stampOf([a, b, c] as StampRows);
+    const inc = unpack(packed[0], ses);
+    if (
+      inc &&
+      now.recomputes === have.stamp.recomputes &&
+      now.lastRecompute === have.stamp.lastRecompute &&
+      (exclusionsChanged || (now.exclusions === have.stamp.exclusions && now.restored === have.stamp.restored)) &&
+      // only appends since: the kept rows and the new ones are all the sensor's shots
+      have.shots.length + inc.length === Number(count[0]?.n ?? -1)
+    ) {
+      let list = have.shots as ReportShot[];
+      if (exclusionsChanged) {
+        const flag = new Map(flags.map((f) => [f.id, f.excluded] as const));
+        list = list.map((s) => {
+          const x = flag.get(s.id);
+          return x === undefined || x === s.excluded ? s : { ...s, excluded: x };
+        });
+      }
+      next = { born, stamp: now, shots: mergeInOrder(list, inTimeOrder(inc)) };
+    }
+  }
+  if (!next) {
+    const where = [eq(shots.sensorId, sensorId)];
+    const [a, b, c, ses, packed] = await db.batch([...stampQueries(db, sensorId), sessionsQuery(db, sensorId), packedQuery(db, where)]);
+    const now = stampOf([a, b, c] as StampRows);
+    const list = unpack(packed[0], ses);
+    // a value that needed escaping (not possible for synced records): the plain query, not kept
+    if (!list) return { shots: await plainQuery(db, where), fresh: false };
+    next = { born, stamp: now, shots: inTimeOrder(list) };
+  }
+  caches.rows.delete(sensorId);
+  if (next.shots.length <= ROWS_BUDGET) {
+    caches.rows.set(sensorId, next);
+    evict(caches.rows, (e) => e.shots.length, ROWS_BUDGET);
+  }
+  return { shots: next.shots, fresh: sameStamp(next.stamp, stamp) };
+}
+
+function selectShots(all: readonly ReportShot[], q: ReportQuery): ReportShot[] {
+  if (!q.from && !q.to && !q.sessionIds?.length) return all as ReportShot[];
+  const ses = q.sessionIds?.length ? new Set(q.sessionIds) : null;
+  const from = q.from ? periodDay(q.from) : null;
+  const to = q.to ? periodDay(q.to) : null;
+  // the period of ranging.md: the shot's own calendar date, as the SQL of periodWhere reads it
+  return all.filter((s) => (!ses || ses.has(s.sessionId)) && inPeriod(s.takenAt, from, to));
+}
+
+/** A cached report is shared: nothing may change it in place. */
+function freezeReport(body: SensorReportJson) {
+  for (const list of [body.tests, body.byReflectance, body.byIlluminance, body.byRange, body.drift, body.coverage.missing, body.shots]) {
+    for (const x of list as object[]) Object.freeze(x);
+    Object.freeze(list);
+  }
+  for (const s of body.shots) Object.freeze(s.flags);
+  if (body.biasCi95Mm) Object.freeze(body.biasCi95Mm);
+  Object.freeze(body.airDefaulted);
+  Object.freeze(body.coverage);
+  Object.freeze(body.rule);
+  Object.freeze(body);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The report.
+
+function toJson(sensorId: string, rule: Rule, r: SensorReport, shotsIn: readonly ReportShot[]): SensorReportJson {
   const defaulted = new Set<string>();
   for (const s of shotsIn) if (s.airDefaulted && !s.excluded) defaulted.add(s.sessionId);
   // api.md's field order
@@ -229,7 +509,58 @@ function toJson(sensorId: string, rule: Rule, r: SensorReport, shotsIn: ReportSh
 
 type Built = { status: 200; body: SensorReportJson; sensor: { id: string; label: string; serial: string; kind: "pulsed" | "cw" }; rule: Rule; details: LoadedShot[] };
 
-/** The report with what the CSV export and the screens need beside it; a refusal as a QueryError. */
+const queryKey = (sensorId: string, q: ReportQuery) =>
+  JSON.stringify([sensorId, q.from ? periodDay(q.from) : null, q.to ? periodDay(q.to) : null, [...new Set(q.sessionIds ?? [])].sort(), q.projectId ?? null]);
+
+function checkedQuery(query: ReportQuery | URLSearchParams): ReportQuery | QueryError {
+  const q = query instanceof URLSearchParams ? parseReportQuery(query) : query;
+  if ("status" in q) return q;
+  for (const key of ["from", "to"] as const) {
+    const v = q[key];
+    if (v && !periodDay(v)) return { status: 400, body: { error: "Invalid query.", errors: [{ path: key, message: `${key} must be a date (YYYY-MM-DD)` }] } };
+  }
+  return q;
+}
+
+/** The report and, when it may be kept, its cache entry. */
+async function report(sensorId: string, query: ReportQuery | URLSearchParams, opts: { details?: boolean }, db: Db): Promise<{ built: Built; entry: ReportEntry | null } | QueryError> {
+  const q = checkedQuery(query);
+  if ("status" in q) return q;
+  const state = await readState(db, sensorId, q.projectId);
+  const row = state.sensor;
+  if (!row) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
+  if ("status" in state.rule) return state.rule;
+  const rule = state.rule.rule;
+  const sensor = { id: row.id, label: row.label, serial: row.serial, kind: row.kind };
+  const compute = (list: readonly ReportShot[]): Built => {
+    const r = sensorReport({ sensor: sensorSpecOf(row), rule, shots: list as ReportShot[], lastSignedOffBiasMm: state.lastBias });
+    return { status: 200, body: toJson(sensorId, rule, r, list), sensor, rule, details: list as LoadedShot[] };
+  };
+  // note and target label per shot (the CSV export): read as they are, not kept
+  if (opts.details) return { built: compute(await loadReportShots(sensorId, q, opts, db)), entry: null };
+
+  const caches = cachesOf(db);
+  const key = queryKey(sensorId, q);
+  const hit = caches.reports.get(key);
+  if (hit && hit.fingerprint === state.fingerprint) {
+    touch(caches.reports, key, hit);
+    return { built: hit.built, entry: hit };
+  }
+  const rows = await sensorRows(db, caches, sensorId, row.createdAt, state.stamp);
+  const built = compute(selectShots(rows.shots, q));
+  caches.reports.delete(key);
+  if (!rows.fresh) return { built, entry: null }; // the shots moved on meanwhile: the next request computes afresh
+  freezeReport(built.body);
+  const entry: ReportEntry = { fingerprint: state.fingerprint, built, json: null };
+  caches.reports.set(key, entry);
+  evict(caches.reports, (e) => e.built.body.shots.length + 1, REPORT_ROWS_BUDGET);
+  return { built, entry };
+}
+
+/**
+ * The report with what the CSV export and the screens need beside it; a refusal as a QueryError.
+ * The body may be shared with other requests: read it, never change it.
+ */
 export async function computeSensorReport(
   _actor: Actor,
   sensorId: string,
@@ -237,25 +568,38 @@ export async function computeSensorReport(
   opts: { details?: boolean } = {},
   db: Db = getDb(),
 ): Promise<Built | QueryError> {
-  const q = query instanceof URLSearchParams ? parseReportQuery(query) : query;
-  if ("status" in q) return q;
-  for (const key of ["from", "to"] as const) {
-    const v = q[key];
-    if (v && !periodDay(v)) return { status: 400, body: { error: "Invalid query.", errors: [{ path: key, message: `${key} must be a date (YYYY-MM-DD)` }] } };
+  const r = await report(sensorId, query, opts, db);
+  return "built" in r ? r.built : r;
+}
+
+const encoder = new TextEncoder();
+
+/** GET /api/sensors/:sensorId/report: the report as JSON bytes (kept with the cached report). */
+export async function sensorReportJson(_actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, db: Db = getDb()): Promise<{ status: 200; json: Uint8Array<ArrayBuffer> } | QueryError> {
+  const r = await report(sensorId, query, {}, db);
+  if (!("built" in r)) return r;
+  // (a consumer that transferred a chunk's buffer would leave it empty: then it is written again)
+  if (r.entry?.json && r.entry.json.byteLength > 0) return { status: 200, json: r.entry.json };
+  const json = encoder.encode(JSON.stringify(r.built.body));
+  if (r.entry && json.byteLength <= JSON_BUDGET) {
+    r.entry.json = json;
+    evict(cachesOf(db).reports, (e) => (e.json ? e.json.byteLength : 0), JSON_BUDGET);
   }
-  const [row] = await db.select().from(sensors).where(eq(sensors.id, sensorId));
-  if (!row) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
-  const picked = await ruleForReport(sensorId, q.projectId, db);
-  if ("status" in picked) return picked;
-  const [list, lastBias] = await Promise.all([loadReportShots(sensorId, q, opts, db), lastApprovedBias(sensorId, db)]);
-  const r = sensorReport({ sensor: sensorSpecOf(row), rule: picked.rule, shots: list, lastSignedOffBiasMm: lastBias });
-  return {
-    status: 200,
-    body: toJson(sensorId, picked.rule, r, list),
-    sensor: { id: row.id, label: row.label, serial: row.serial, kind: row.kind },
-    rule: picked.rule,
-    details: list,
-  };
+  return { status: 200, json };
+}
+
+/** Chunks of the kept bytes, sent as they are (views, not copies: a Uint8Array body would be copied whole). */
+const CHUNK = 256 * 1024;
+export function jsonBody(json: Uint8Array<ArrayBuffer>): ReadableStream<Uint8Array<ArrayBuffer>> {
+  let at = 0;
+  return new ReadableStream({
+    pull(c) {
+      if (at >= json.byteLength) return c.close();
+      const end = Math.min(at + CHUNK, json.byteLength);
+      c.enqueue(json.subarray(at, end));
+      at = end;
+    },
+  });
 }
 
 /**
@@ -269,8 +613,21 @@ export async function buildSensorReport(actor: Actor, sensorId: string, query: R
   throw Response.json(r.body, { status: r.status });
 }
 
+function lastShotAtOf(list: readonly ReportShot[]): string | null {
+  let last: string | null = null;
+  let lastT = -Infinity;
+  for (const s of list) {
+    const t = Date.parse(s.takenAt);
+    if (t > lastT) {
+      lastT = t;
+      last = s.takenAt;
+    }
+  }
+  return last;
+}
+
 /** GET /api/sensors: every live sensor with its verdict over all its shots. */
-export async function listSensorSummaries(actor: Actor, query: { projectId?: string } | URLSearchParams = {}, db: Db = getDb()): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
+export async function listSensorSummaries(_actor: Actor, query: { projectId?: string } | URLSearchParams = {}, db: Db = getDb()): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
   const projectId = query instanceof URLSearchParams ? (query.get("project") ?? undefined) : query.projectId;
   let rows = await db.select().from(sensors).where(isNull(sensors.retiredAt)).orderBy(asc(sensors.label), asc(sensors.id));
   if (projectId) {
@@ -281,20 +638,19 @@ export async function listSensorSummaries(actor: Actor, query: { projectId?: str
   }
   const out: SensorSummary[] = [];
   for (const row of rows) {
-    const picked = await ruleForReport(row.id, projectId, db);
-    if ("status" in picked) return picked;
-    const list = await loadReportShots(row.id, {}, {}, db);
-    const r = sensorReport({ sensor: sensorSpecOf(row), rule: picked.rule, shots: list });
-    let last: string | null = null;
-    let lastT = -Infinity;
-    for (const s of list) {
-      const t = Date.parse(s.takenAt);
-      if (t > lastT) {
-        lastT = t;
-        last = s.takenAt;
-      }
+    const r = await report(row.id, projectId ? { projectId } : {}, {}, db);
+    if (!("built" in r)) {
+      if (r.status === 404 && r.body.error.startsWith("No sensor")) continue; // removed meanwhile
+      return r;
     }
-    out.push({ id: row.id, label: row.label, kind: row.kind, verdict: r.verdict, n: r.n, biasMm: r.biasMm, rmseMm: r.rmseMm, lastShotAt: last });
+    const { body, details } = r.built;
+    let last: string | null;
+    if (r.entry && r.entry.lastShotAt !== undefined) last = r.entry.lastShotAt;
+    else {
+      last = lastShotAtOf(details);
+      if (r.entry) r.entry.lastShotAt = last;
+    }
+    out.push({ id: row.id, label: row.label, kind: row.kind, verdict: body.verdict, n: body.n, biasMm: body.biasMm, rmseMm: body.rmseMm, lastShotAt: last });
   }
   return { status: 200, body: { sensors: out } };
 }

@@ -2,8 +2,9 @@
 // column comes from ~/domain's computeShot, never from the tablet), its recomputation when a
 // sensor's spec, a rule, a tape or a site changes, and the shot table / map queries.
 import { and, asc, eq, gt, gte, inArray, isNotNull, lt, lte, or, sql, type SQL } from "drizzle-orm";
+import type { SQLiteColumn } from "drizzle-orm/sqlite-core";
 import { getDb, type Db } from "~/db/client.server";
-import { checkSessions, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
+import { auditLog, checkSessions, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
 import {
   computeShot,
   DEFAULT_RULE,
@@ -43,7 +44,16 @@ export type RegistryContext = {
 /** What a shot takes from its session. */
 export type SessionFacts = { id: string; sensorId: string; siteId: string; projectId: string | null; air: AirInput };
 
-type Need = { sensorIds: Iterable<string>; siteIds: Iterable<string>; tapeIds: Iterable<string>; projectIds: Iterable<string> };
+type Need = {
+  sensorIds: Iterable<string>;
+  siteIds: Iterable<string>;
+  tapeIds: Iterable<string>;
+  projectIds: Iterable<string>;
+  /** Stored sessions whose sensor, site and project are needed too (read in the same query). */
+  sessionIds?: Iterable<string>;
+  /** Sensors whose projects' rules are needed too (a session's project may be implied). */
+  projectsOfSensorIds?: Iterable<string>;
+};
 
 const uniq = (xs: Iterable<string>) => [...new Set(xs)].filter(Boolean);
 
@@ -79,47 +89,58 @@ export function ruleOf(p: { minShots: number; coverageK: number; minWithinPct: n
   };
 }
 
-export async function loadRegistryContext(need: Need, db: Db = getDb()): Promise<RegistryContext> {
+/** The queries of a registry context, to run in one batch (one transaction, one round trip). */
+export function registryQueries(need: Need, db: Db = getDb()) {
   const sensorIds = uniq(need.sensorIds);
   const siteIds = uniq(need.siteIds);
   const tapeIds = uniq(need.tapeIds);
   const projectIds = uniq(need.projectIds);
-  const [sensorRows, siteRows, tapeRows, stationRows, targetRows, projectRows] = await Promise.all([
-    sensorIds.length ? db.select().from(sensors).where(inArray(sensors.id, sensorIds)) : [],
-    siteIds.length ? db.select({ id: sites.id }).from(sites).where(inArray(sites.id, siteIds)) : [],
-    tapeIds.length
-      ? db
-          .select({
-            id: tapes.id,
-            standardTempC: tapes.standardTempC,
-            standardTensionN: tapes.standardTensionN,
-            areaMm2: tapes.areaMm2,
-            modulusGPa: tapes.modulusGPa,
-            weightNPerM: tapes.weightNPerM,
-            calibrationPpm: tapes.calibrationPpm,
-          })
-          .from(tapes)
-          .where(inArray(tapes.id, tapeIds))
-      : [],
-    siteIds.length
-      ? db
-          .select({ id: stations.id, siteId: stations.siteId, gridE: stations.gridE, gridN: stations.gridN, gridH: stations.gridH, lat: stations.lat, lon: stations.lon, h: stations.h })
-          .from(stations)
-          .where(inArray(stations.siteId, siteIds))
-      : [],
-    siteIds.length
-      ? db
-          .select({ id: targets.id, siteId: targets.siteId, retro: targets.retro, gridE: targets.gridE, gridN: targets.gridN, gridH: targets.gridH, lat: targets.lat, lon: targets.lon, h: targets.h })
-          .from(targets)
-          .where(inArray(targets.siteId, siteIds))
-      : [],
-    projectIds.length
-      ? db
-          .select({ id: projects.id, minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM })
-          .from(projects)
-          .where(inArray(projects.id, projectIds))
-      : [],
-  ]);
+  const sessionIds = uniq(need.sessionIds ?? []);
+  const ofSensors = uniq(need.projectsOfSensorIds ?? []);
+  const ofSessions = (col: SQLiteColumn) => db.select({ id: col }).from(checkSessions).where(inArray(checkSessions.id, sessionIds));
+  const anyOf = (col: SQLiteColumn, ids: string[], stored: SQLiteColumn) =>
+    sessionIds.length ? or(inArray(col, ids), inArray(col, ofSessions(stored)))! : inArray(col, ids);
+  const sitesWhere = (col: SQLiteColumn) => anyOf(col, siteIds, checkSessions.siteId);
+  return [
+    db.select().from(sensors).where(anyOf(sensors.id, sensorIds, checkSessions.sensorId)),
+    db.select({ id: sites.id }).from(sites).where(anyOf(sites.id, siteIds, checkSessions.siteId)),
+    db
+      .select({
+        id: tapes.id,
+        standardTempC: tapes.standardTempC,
+        standardTensionN: tapes.standardTensionN,
+        areaMm2: tapes.areaMm2,
+        modulusGPa: tapes.modulusGPa,
+        weightNPerM: tapes.weightNPerM,
+        calibrationPpm: tapes.calibrationPpm,
+      })
+      .from(tapes)
+      .where(inArray(tapes.id, tapeIds)),
+    db
+      .select({ id: stations.id, siteId: stations.siteId, gridE: stations.gridE, gridN: stations.gridN, gridH: stations.gridH, lat: stations.lat, lon: stations.lon, h: stations.h })
+      .from(stations)
+      .where(sitesWhere(stations.siteId)),
+    db
+      .select({ id: targets.id, siteId: targets.siteId, retro: targets.retro, gridE: targets.gridE, gridN: targets.gridN, gridH: targets.gridH, lat: targets.lat, lon: targets.lon, h: targets.h })
+      .from(targets)
+      .where(sitesWhere(targets.siteId)),
+    db
+      .select({ id: projects.id, minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM })
+      .from(projects)
+      .where(
+        or(
+          inArray(projects.id, projectIds),
+          sessionIds.length ? inArray(projects.id, ofSessions(checkSessions.projectId)) : undefined,
+          ofSensors.length ? inArray(projects.id, db.select({ id: projectSensors.projectId }).from(projectSensors).where(inArray(projectSensors.sensorId, ofSensors))) : undefined,
+        ),
+      ),
+  ] as const;
+}
+
+const registryBatch = (need: Need, db: Db) => db.batch(registryQueries(need, db));
+type RegistryRows = Awaited<ReturnType<typeof registryBatch>>;
+
+export function registryContextOf([sensorRows, siteRows, tapeRows, stationRows, targetRows, projectRows]: RegistryRows): RegistryContext {
   return {
     sensors: new Map(sensorRows.map((r) => [r.id, sensorSpecOf(r)])),
     sites: new Set(siteRows.map((r) => r.id)),
@@ -130,25 +151,36 @@ export async function loadRegistryContext(need: Need, db: Db = getDb()): Promise
   };
 }
 
-/** The one non-retired project that lists both the sensor and the site, per (sensor, site) pair. */
-export async function impliedProjects(pairs: { sensorId: string; siteId: string }[], db: Db = getDb()): Promise<Map<string, string>> {
-  const out = new Map<string, string>();
-  const sensorIds = uniq(pairs.map((p) => p.sensorId));
-  if (!sensorIds.length) return out;
-  const rows = await db
+export async function loadRegistryContext(need: Need, db: Db = getDb()): Promise<RegistryContext> {
+  return registryContextOf(await registryBatch(need, db));
+}
+
+/** The live projects that list both a sensor and a site, for the sensors of these pairs. */
+export function impliedProjectsQuery(pairs: { sensorId: string; siteId: string }[], db: Db = getDb()) {
+  return db
     .select({ projectId: projectSensors.projectId, sensorId: projectSensors.sensorId, siteId: projectSites.siteId })
     .from(projectSensors)
     .innerJoin(projectSites, eq(projectSites.projectId, projectSensors.projectId))
     .innerJoin(projects, eq(projects.id, projectSensors.projectId))
-    .where(and(inArray(projectSensors.sensorId, sensorIds), sql`${projects.retiredAt} is null`));
+    .where(and(inArray(projectSensors.sensorId, uniq(pairs.map((p) => p.sensorId))), sql`${projects.retiredAt} is null`));
+}
+
+/** The one non-retired project that lists both the sensor and the site, per (sensor, site) pair. */
+export function impliedProjectsOf(rows: { projectId: string; sensorId: string; siteId: string }[]): Map<string, string> {
+  const out = new Map<string, string>();
   const found = new Map<string, Set<string>>();
   for (const r of rows) {
-    const k = `${r.sensorId}\u0000${r.siteId}`;
+    const k = pairKey(r.sensorId, r.siteId);
     if (!found.has(k)) found.set(k, new Set());
     found.get(k)!.add(r.projectId);
   }
   for (const [k, ids] of found) if (ids.size === 1) out.set(k, [...ids][0]!);
   return out;
+}
+
+export async function impliedProjects(pairs: { sensorId: string; siteId: string }[], db: Db = getDb()): Promise<Map<string, string>> {
+  if (!pairs.length) return new Map();
+  return impliedProjectsOf(await impliedProjectsQuery(pairs, db));
 }
 export const pairKey = (sensorId: string, siteId: string) => `${sensorId}\u0000${siteId}`;
 
@@ -279,6 +311,13 @@ export function shotInsertRow(
 // ---------------------------------------------------------------------------------------------
 // Recomputation after a registry change (sensor spec, project rule, tape constants, site survey).
 
+/**
+ * The audit action of a recomputation, one row per sensor whose shots it updated, written in
+ * the same transaction as the updates: the report cache (reports.server) reads these marks to
+ * know the stored figures changed. Every writer of the computed columns goes through here.
+ */
+export const RECOMPUTE_ACTION = "shots.recompute";
+
 const UPDATE_SQL =
   "UPDATE shots SET reference_m = ?, range_m = ?, error_mm = ?, tolerance_mm = ?, limit_mm = ?, within = ?, repeatability_mm = ?, " +
   "readings_count = ?, wrap = ?, unambiguous_m = ?, retro = ?, air_defaulted = ?, computed_at = ? WHERE id = ?";
@@ -288,6 +327,7 @@ async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
     .select({
       id: shots.id,
       raw: shots.raw,
+      shotSensorId: shots.sensorId,
       sessionId: checkSessions.id,
       sensorId: checkSessions.sensorId,
       siteId: checkSessions.siteId,
@@ -315,6 +355,7 @@ async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
   );
   const now = new Date().toISOString();
   const stmts: { sql: string; args: (number | string | null)[] }[] = [];
+  const perSensor = new Map<string, number>();
   let failed = 0;
   for (const { row, shot } of parsed) {
     if (!shot) {
@@ -335,15 +376,22 @@ async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
       continue;
     }
     const c = out.columns;
+    perSensor.set(row.shotSensorId, (perSensor.get(row.shotSensorId) ?? 0) + 1);
     stmts.push({
       sql: UPDATE_SQL,
       args: [c.referenceM, c.rangeM, c.errorMm, c.toleranceMm, c.limitMm, c.within ? 1 : 0, c.repeatabilityMm, c.readingsCount, c.wrap ? 1 : 0, c.unambiguousM, c.retro ? 1 : 0, c.airDefaulted ? 1 : 0, now, row.id],
     });
   }
   if (failed) console.warn(`recompute: ${failed} of ${rows.length} shots could not be recomputed and keep their previous figures`);
+  if (!stmts.length) return 0;
+  const updated = stmts.length;
+  for (const [sensorId, n] of perSensor) {
+    const q = db.insert(auditLog).values({ actorUserId: null, action: RECOMPUTE_ACTION, entity: "sensor", entityId: sensorId, detail: { shots: n } }).toSQL();
+    stmts.push({ sql: q.sql, args: q.params as (number | string | null)[] });
+  }
   // One batch = one write transaction, run synchronously by the local client.
-  if (stmts.length) await db.$client.batch(stmts, "write");
-  return stmts.length;
+  await db.$client.batch(stmts, "write");
+  return updated;
 }
 
 /** Recomputes every shot of the sensor from its raw record; returns how many were updated. */

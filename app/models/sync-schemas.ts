@@ -1,4 +1,4 @@
-// The POST /api/sync body of /work/shared/api.md as zod schemas. Pure (no server imports):
+// The POST /api/sync body of api.md (the product specification) as zod schemas. Pure (no server imports):
 // the field tablet validates a record with the same schema before it queues it, and the
 // server validates every record again on ingest. Unknown keys are stripped, so numbers the
 // tablet derived (errorMm, within, limitMm…) never reach the server's computation.
@@ -162,13 +162,48 @@ export function validateShot(record: unknown) {
 
 /**
  * JSON with keys in sorted order at every depth, so the same record in another key order
- * compares equal; null and absent (undefined) members are left out alike. Written directly,
- * without copying the record.
+ * compares equal; null and absent (undefined) members are left out alike. A copy with its
+ * keys inserted in sorted order goes through the native JSON.stringify (a few times faster
+ * than writing the text here); an object with array-index-like keys, which every JS object
+ * lists first whatever their insertion order, is written by hand instead.
  */
 export function canonicalJson(value: unknown): string {
-  return write(value) ?? "null";
+  try {
+    return JSON.stringify(sortedCopy(value) ?? null) ?? "null";
+  } catch (e) {
+    if (e !== INDEX_KEY) throw e;
+    return write(value) ?? "null";
+  }
 }
 
+const INDEX_KEY = Symbol("index-like key");
+const isIndexKey = (k: string) => /^(?:0|[1-9]\d*)$/.test(k) && Number(k) < 4294967295;
+
+function sortedCopy(v: unknown): unknown {
+  if (v === null || v === undefined || typeof v !== "object") return v;
+  if (Array.isArray(v)) {
+    const out = new Array(v.length);
+    for (let i = 0; i < v.length; i++) {
+      const x = v[i];
+      out[i] = x === undefined ? null : sortedCopy(x);
+    }
+    return out;
+  }
+  const keys = Object.keys(v).sort();
+  const out: Record<string, unknown> = {};
+  for (const k of keys) {
+    const x = (v as Record<string, unknown>)[k];
+    // left out as JSON.stringify leaves them out of an object (a toJSON function would run)
+    if (x === null || x === undefined || typeof x === "function" || typeof x === "symbol") continue;
+    const c = sortedCopy(x);
+    if (isIndexKey(k)) throw INDEX_KEY;
+    if (k === "__proto__") Object.defineProperty(out, k, { value: c, enumerable: true, writable: true, configurable: true });
+    else out[k] = c;
+  }
+  return out;
+}
+
+/** The same text written directly (keys sorted at every depth, null and absent left out). */
 function write(v: unknown): string | undefined {
   if (v === null || v === undefined) return undefined;
   if (typeof v !== "object") return JSON.stringify(v);

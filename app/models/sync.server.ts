@@ -9,9 +9,11 @@ import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
 import { airState, DomainError } from "~/domain";
 import {
   computeShotRecord,
-  impliedProjects,
-  loadRegistryContext,
+  impliedProjectsOf,
+  impliedProjectsQuery,
   pairKey,
+  registryContextOf,
+  registryQueries,
   shotInsertRow,
   type SessionFacts,
 } from "./shots.server";
@@ -98,33 +100,6 @@ function chunks<T>(xs: T[], n: number): T[][] {
   return out;
 }
 
-function inChunks(db: Db, ids: string[]) {
-  return {
-    sessions: async () =>
-      (
-        await Promise.all(
-          chunks(ids, 500).map((c) =>
-            db
-              .select({
-                id: checkSessions.id,
-                raw: checkSessions.raw,
-                sensorId: checkSessions.sensorId,
-                siteId: checkSessions.siteId,
-                projectId: checkSessions.projectId,
-                airTempC: checkSessions.airTempC,
-                pressureHpa: checkSessions.pressureHpa,
-                humidityPct: checkSessions.humidityPct,
-              })
-              .from(checkSessions)
-              .where(inArray(checkSessions.id, c)),
-          ),
-        )
-      ).flat(),
-    shots: async () =>
-      (await Promise.all(chunks(ids, 500).map((c) => db.select({ id: shots.id, raw: shots.raw }).from(shots).where(inArray(shots.id, c))))).flat(),
-  };
-}
-
 export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb()): Promise<Answer> {
   const env = syncEnvelopeSchema.safeParse(body);
   if (!env.success) {
@@ -154,34 +129,47 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
   });
 
   return writeLock.run(async () => {
-    // 2. What is stored already, and the registry rows the computation needs, once per request.
+    // 2. What is stored already, and the registry rows the computation needs: one batch (one
+    //    read transaction, one round trip). The registry of sessions stored earlier comes by
+    //    their ids; the projects of the new sessions' sensors come along for implied projects.
     const batchSessionIds = sessionRecs.flatMap((s) => (s.value ? [s.value.id] : []));
     const shotSessionIds = shotRecs.flatMap((s) => (s.value ? [s.value.sessionId] : []));
-    const [storedSessions, storedShots] = await Promise.all([
-      inChunks(db, [...new Set([...batchSessionIds, ...shotSessionIds])]).sessions(),
-      inChunks(db, [...new Set(shotRecs.flatMap((s) => (s.value ? [s.value.id] : [])))]).shots(),
+    const sessionIds = [...new Set([...batchSessionIds, ...shotSessionIds])];
+    const shotIds = [...new Set(shotRecs.flatMap((s) => (s.value ? [s.value.id] : [])))];
+    const incoming = sessionRecs.flatMap((s) => (s.value ? [s.value] : []));
+    const impliedNeed = incoming.filter((s) => !s.projectId).map((s) => ({ sensorId: s.sensorId, siteId: s.siteId }));
+    const [storedSessions, storedShots, impliedRows, ...registry] = await db.batch([
+      db
+        .select({
+          id: checkSessions.id,
+          raw: checkSessions.raw,
+          sensorId: checkSessions.sensorId,
+          siteId: checkSessions.siteId,
+          projectId: checkSessions.projectId,
+          airTempC: checkSessions.airTempC,
+          pressureHpa: checkSessions.pressureHpa,
+          humidityPct: checkSessions.humidityPct,
+        })
+        .from(checkSessions)
+        .where(inArray(checkSessions.id, sessionIds)),
+      db.select({ id: shots.id, raw: shots.raw }).from(shots).where(inArray(shots.id, shotIds)),
+      impliedProjectsQuery(impliedNeed, db),
+      ...registryQueries(
+        {
+          sensorIds: incoming.map((s) => s.sensorId),
+          siteIds: incoming.map((s) => s.siteId),
+          tapeIds: shotRecs.flatMap((s) => (s.value?.reference.method === "tape" ? [s.value.reference.tape.tapeId] : [])),
+          projectIds: incoming.flatMap((s) => (s.projectId ? [s.projectId] : [])),
+          sessionIds,
+          projectsOfSensorIds: impliedNeed.map((s) => s.sensorId),
+        },
+        db,
+      ),
     ]);
     const storedSession = new Map(storedSessions.map((s) => [s.id, s]));
     const storedShot = new Map(storedShots.map((s) => [s.id, s.raw]));
-
-    const newSessions = sessionRecs.flatMap((s) => (s.value && !storedSession.has(s.value.id) ? [s.value] : []));
-    const implied = await impliedProjects(
-      newSessions.filter((s) => !s.projectId).map((s) => ({ sensorId: s.sensorId, siteId: s.siteId })),
-      db,
-    );
-    const ctx = await loadRegistryContext(
-      {
-        sensorIds: [...newSessions.map((s) => s.sensorId), ...storedSessions.map((s) => s.sensorId)],
-        siteIds: [...newSessions.map((s) => s.siteId), ...storedSessions.map((s) => s.siteId)],
-        tapeIds: shotRecs.flatMap((s) => (s.value?.reference.method === "tape" ? [s.value.reference.tape.tapeId] : [])),
-        projectIds: [
-          ...newSessions.flatMap((s) => (s.projectId ? [s.projectId] : [])),
-          ...implied.values(),
-          ...storedSessions.flatMap((s) => (s.projectId ? [s.projectId] : [])),
-        ],
-      },
-      db,
-    );
+    const implied = impliedProjectsOf(impliedRows);
+    const ctx = registryContextOf(registry);
 
     const receivedAt = new Date().toISOString();
     const results: SyncResult[] = [];
