@@ -7,6 +7,7 @@ import { requireRole } from "~/auth/guards.server";
 import { publicEnv } from "~/env.server";
 import { reviewSiteFeatures, sensorReviewHeader } from "~/models/signoffs.server";
 import { autoCellSideM, DIVERGING, hexBins, scaleMaxMm } from "~/components/review/map-style";
+import { defaultSite, sessionSites, siteBounds, siteChoices, siteOfShot } from "~/components/review/map-sites";
 import { fetchAllShots } from "~/components/review/use-report";
 import { LegendSwatch } from "~/components/review/charts";
 import { bandWord, dateOnly, dateTime, mm, mmSigned, metres } from "~/components/review/format";
@@ -40,11 +41,19 @@ function rangeBandOfLabel(d: number, labels: string[]): string | null {
 }
 
 export default function ReviewMap({ loaderData }: Route.ComponentProps) {
-  const { sensor, sessions, site, basemapUrl } = loaderData;
+  const { sensor, sessions, site: siteFc, basemapUrl } = loaderData;
   // Filters start from the address (a link from the report carries its session) and then live
   // in the page: changing one redraws the map without asking the server.
   const [sp] = useSearchParams();
-  const [filters, setFilters] = useState(() => ({ session: sp.get("session") ?? "", band: sp.get("band") ?? "", refl: sp.get("refl") ?? "", hex: sp.get("hex") === "1" }));
+  // site: null until the QA lead picks one (the map then opens on the site with the most shots),
+  // "" for all sites.
+  const [filters, setFilters] = useState(() => ({
+    site: sp.has("site") ? (sp.get("site") === "all" ? "" : sp.get("site")) : null,
+    session: sp.get("session") ?? "",
+    band: sp.get("band") ?? "",
+    refl: sp.get("refl") ?? "",
+    hex: sp.get("hex") === "1",
+  }));
   const { session, band, refl, hex } = filters;
   const [useBasemap, setUseBasemap] = useState(false);
   const [mounted, setMounted] = useState(false);
@@ -78,6 +87,13 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
 
   const rows = useMemo(() => new Map((report?.shots ?? []).map((s) => [s.id, s])), [report]);
   const bandLabels = useMemo(() => (report?.byRange ?? []).map((b) => b.band), [report]);
+  const bySession = useMemo(() => sessionSites(sessions), [sessions]);
+  const choices = useMemo(() => (geo ? siteChoices(geo, sessions) : []), [geo, sessions]);
+  const site = filters.site === "" || (filters.site != null && choices.some((c) => c.id === filters.site)) ? filters.site : defaultSite(choices, sessions, session);
+  const siteName = site ? choices.find((c) => c.id === site)?.name ?? "" : "all sites";
+  // A session of another site (an address that asks for both) counts as "all sessions".
+  const sessionOn = session && (!site || bySession.get(session) === site) ? session : "";
+  const siteSessions = useMemo(() => sessions.map((s, i) => ({ ...s, n: i + 1 })).filter((s) => !site || s.siteId === site), [sessions, site]);
 
   const shots = useMemo<FeatureCollection<Point, ShotProps>>(() => {
     const feats: Feature<Point, ShotProps>[] = [];
@@ -88,9 +104,10 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
       const row = rows.get(id);
       const errorMm = Number(p.errorMm);
       if (!Number.isFinite(errorMm)) continue;
+      if (site && siteOfShot(f, bySession) !== site) continue;
       const sessionId = (p.sessionId as string | undefined) ?? row?.sessionId ?? null;
       const referenceM = typeof p.referenceM === "number" ? p.referenceM : row?.referenceM ?? null;
-      if (session && sessionId !== session) continue;
+      if (sessionOn && sessionId !== sessionOn) continue;
       if (band && (referenceM == null || rangeBandOfLabel(referenceM, bandLabels) !== band)) continue;
       if (refl) {
         const d = details.get(id);
@@ -105,17 +122,27 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
       });
     }
     return { type: "FeatureCollection", features: feats };
-  }, [geo, rows, session, band, refl, bandLabels, details]);
+  }, [geo, rows, site, bySession, sessionOn, band, refl, bandLabels, details]);
 
   const maxMm = useMemo(() => scaleMaxMm(shots.features.map((f) => f.properties.limitMm)), [shots]);
   const hexes = useMemo(() => (hex ? hexBins(shots, autoCellSideM(shots)) : { type: "FeatureCollection" as const, features: [] }), [shots, hex]);
   const sources = useMemo(
-    () => ({ outline: site.outline as FeatureCollection, stations: site.stations as FeatureCollection, targets: site.targets as FeatureCollection, shots, hexes }),
-    [site, shots, hexes],
+    () => ({ outline: siteFc.outline as FeatureCollection, stations: siteFc.stations as FeatureCollection, targets: siteFc.targets as FeatureCollection, shots, hexes }),
+    [siteFc, shots, hexes],
+  );
+  // The view frames the chosen site's located shots (all of them, whatever the other filters
+  // say, so the view holds still while filtering), stations and targets.
+  const frame = useMemo(
+    () => ({ key: geo ? `site:${site}` : "loading", bounds: siteBounds(geo ? site : "", { shots: geo ?? { type: "FeatureCollection", features: [] }, stations: siteFc.stations, targets: siteFc.targets }, sessions) }),
+    [geo, site, siteFc, sessions],
   );
 
   function set(k: "session" | "band" | "refl" | "hex", v: string) {
     setFilters((f) => ({ ...f, [k]: k === "hex" ? v === "1" : v }));
+  }
+  function setSite(v: string) {
+    // A session of another site would leave the map empty: drop it with the change of site.
+    setFilters((f) => ({ ...f, site: v, session: v && f.session && bySession.get(f.session) !== v ? "" : f.session }));
   }
 
   const pick = selected ? shots.features.find((f) => f.properties.id === selected)?.properties ?? null : null;
@@ -131,11 +158,21 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
       <h1 className="text-3xl font-bold">Range-error map — {sensor.label}</h1>
       <section aria-label="Map filters" className="card flex flex-wrap items-end gap-4">
         <div>
+          <label htmlFor="m-site" className="field-label">Site</label>
+          <select id="m-site" className="input" value={geo ? site : ""} disabled={!geo} onChange={(e) => setSite(e.target.value)}>
+            {geo ? null : <option value="">Loading sites…</option>}
+            {geo ? <option value="">All sites</option> : null}
+            {choices.map((c) => (
+              <option key={c.id} value={c.id}>{c.name} ({c.n} shots)</option>
+            ))}
+          </select>
+        </div>
+        <div>
           <label htmlFor="m-session" className="field-label">Session</label>
-          <select id="m-session" className="input" value={session} onChange={(e) => set("session", e.target.value)}>
+          <select id="m-session" className="input" value={sessionOn} onChange={(e) => set("session", e.target.value)}>
             <option value="">All sessions</option>
-            {sessions.map((s, i) => (
-              <option key={s.id} value={s.id}>#{i + 1} {dateOnly(s.startedAt)} {s.siteName}</option>
+            {siteSessions.map((s) => (
+              <option key={s.id} value={s.id}>#{s.n} {dateOnly(s.startedAt)} {s.siteName}</option>
             ))}
           </select>
         </div>
@@ -167,7 +204,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
             Basemap (needs a network)
           </label>
         ) : null}
-        <p className="pb-2 text-muted" aria-live="polite">{geo ? `${shots.features.length} of ${total} located shots shown` : "Loading shots…"}</p>
+        <p className="pb-2 text-muted" aria-live="polite">{geo ? `${shots.features.length} of ${total} located shots shown (${siteName})` : "Loading shots…"}</p>
       </section>
 
       {error ? <p role="alert" className="card font-bold text-fail">The shots could not be loaded: {error}</p> : null}
@@ -176,7 +213,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
         <div className="space-y-3">
           {mounted ? (
             <Suspense fallback={<div className="flex h-[62vh] min-h-[420px] items-center justify-center rounded-lg border-2 border-line">Loading the map…</div>}>
-              <RangeMap sources={sources} maxMm={maxMm} showHex={hex} basemapUrl={useBasemap ? basemapUrl : null} onSelect={setSelected} />
+              <RangeMap sources={sources} maxMm={maxMm} showHex={hex} basemapUrl={useBasemap ? basemapUrl : null} onSelect={setSelected} frame={frame} />
             </Suspense>
           ) : (
             <div className="flex h-[62vh] min-h-[420px] items-center justify-center rounded-lg border-2 border-line">Loading the map…</div>

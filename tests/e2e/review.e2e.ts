@@ -115,7 +115,43 @@ test("a viewer reads the report without exclusion or sign-off controls", async (
   await context.close();
 });
 
-test("the range-error map draws offline with its legend in mm, and a click opens a shot", async () => {
+/**
+ * A second, small site for the roof scanner 3.3 km east of the yard (0.03° of longitude at
+ * 10° N): one station, one board 3 m away and six shots on the board, so the map has two sites
+ * far apart, and framing this one runs into the zoom limit.
+ */
+async function addRoadsideShots() {
+  const { makeSite } = await import("../support/registry-fixtures");
+  const { ingestSync } = await import("~/models/sync.server");
+  const { YARD } = await import("../support/review-fixtures");
+  const at = { lat: YARD.lat, lon: YARD.lon + 0.03, h: 50 };
+  const board = { lat: at.lat + 3 / 110_574, lon: at.lon, h: 50 };
+  const site = await makeSite({ name: "Valley road test range", stations: [{ label: "V1", geo: at }], targets: [{ label: "Roadside board", reflectancePct: 85, geo: board }] });
+  const sessionId = crypto.randomUUID();
+  const answer = await ingestSync(w.users.crew, {
+    deviceId: "tablet-roadside",
+    sessions: [{ id: sessionId, sensorId: w.failing.id, siteId: site.id, startedAt: "2026-05-06T09:00:00+02:00", airTempC: 17, pressureHpa: 1006, humidityPct: 70 }],
+    shots: Array.from({ length: 6 }, (_, i) => ({
+      id: crypto.randomUUID(),
+      sessionId,
+      takenAt: `2026-05-06T09:0${i}:00+02:00`,
+      targetId: site.targets[0]!.id,
+      reference: { method: "edm", distanceM: 3 },
+      readings: { rangesM: [3 + (i - 2.5) / 2000] },
+      reflectancePct: 85,
+      illuminanceKlux: 20,
+      position: { lat: board.lat, lon: board.lon + (i - 2.5) * 0.000003, accuracyM: 3 },
+    })),
+  });
+  const bad = ((answer.body as { results?: { status: string }[] }).results ?? []).filter((r) => r.status !== "accepted");
+  if (answer.status !== 200 || bad.length) throw new Error(`roadside sync failed: ${answer.status} ${JSON.stringify(bad)}`);
+  return site;
+}
+
+const zoomOf = async (page: Page) => Number(await page.getByTestId("range-map").getAttribute("data-zoom"));
+
+test("the range-error map draws offline with its legend in mm, opens on the site with the most shots, and a click opens a shot", async () => {
+  const roadside = await addRoadsideShots();
   const { context, page } = await as(w.users.qa.email);
   const external: string[] = [];
   page.on("request", (r) => {
@@ -127,17 +163,52 @@ test("the range-error map draws offline with its legend in mm, and a click opens
   expect(legend).toMatch(/Signed range error \(mm\)/);
   expect(legend).toMatch(/−\d+ mm.*\+\d+ mm/);
   expect(legend).toMatch(/outside its limit/);
-  await page.getByText(/30 of 30 located shots shown/).waitFor();
-  await page.locator('[data-shots="30"]').waitFor();
+  // 30 shots at the yard, 6 at the roadside: the map opens on the yard and frames it
+  await page.getByText("30 of 36 located shots shown (Fernhollow yard baseline)").waitFor();
+  await page.locator(`[data-shots="30"][data-frame="site:${w.site.id}"]`).waitFor();
+  const site = page.getByLabel("Site");
+  expect(await site.inputValue()).toBe(w.site.id);
+  expect(await site.locator("option").allTextContents()).toEqual(["All sites", "Fernhollow yard baseline (30 shots)", "Valley road test range (6 shots)"]);
+  const yardZoom = await zoomOf(page);
+
+  await site.selectOption(roadside.id);
+  await page.getByText("6 of 36 located shots shown (Valley road test range)").waitFor();
+  await page.locator(`[data-shots="6"][data-frame="site:${roadside.id}"]`).waitFor();
+  // a site 3 m across stops at the zoom limit, and its shots sit in the middle of the view
+  expect(await zoomOf(page)).toBe(19);
+  // (the middle of the view lies between the station and the board, 1.5 m south of the shots)
+  const mid = (await page.getByTestId("range-map").boundingBox())!;
+  for (const dy of [0, -10, -20]) {
+    await page.mouse.click(mid.x + mid.width / 2, mid.y + mid.height / 2 + dy);
+    if ((await page.getByTestId("shot-details").textContent())?.includes("Roadside board")) break;
+  }
+  expect(await page.getByTestId("shot-details").textContent()).toContain("Roadside board");
+  await page.getByRole("button", { name: "Close" }).click();
+  // sessions of the other site are not offered while one site is chosen
+  expect(await page.getByLabel("Session").locator("option").count()).toBe(2);
+
+  await site.selectOption("");
+  await page.getByText("36 of 36 located shots shown (all sites)").waitFor();
+  await page.locator('[data-shots="36"][data-frame="site:"]').waitFor();
+  // two sites 3.3 km apart: the whole view is far wider than one site's
+  expect(await zoomOf(page)).toBeLessThan(yardZoom - 4);
+
+  await site.selectOption(w.site.id);
+  await page.getByText("30 of 36 located shots shown (Fernhollow yard baseline)").waitFor();
+  await page.locator(`[data-frame="site:${w.site.id}"]`).waitFor();
+  expect(await zoomOf(page)).toBeCloseTo(yardZoom, 2);
   await page.getByLabel("Reflectance").selectOption("dark");
-  await page.getByText(/14 of 30 located shots shown/).waitFor();
+  await page.getByText("14 of 36 located shots shown (Fernhollow yard baseline)").waitFor();
   await page.locator('[data-shots="14"]').waitFor();
+  await page.getByLabel("Session").selectOption({ index: 2 });
+  await page.getByText("9 of 36 located shots shown (Fernhollow yard baseline)").waitFor();
+  await page.getByLabel("Session").selectOption("");
   await page.waitForTimeout(600);
   if (SHOTS) await page.screenshot({ path: join(SHOTS, "map-light.png"), fullPage: true });
   // click the middle of the map where the shot corridor runs
   const box = (await page.getByTestId("range-map").boundingBox())!;
   let opened = false;
-  for (const dy of [0, -40, 40, -80, 80, -120, 120]) {
+  for (let dy = -200; dy <= 200; dy += 15) {
     await page.mouse.click(box.x + box.width / 2, box.y + box.height / 2 + dy);
     if ((await page.getByTestId("shot-details").textContent())?.includes("Error")) {
       opened = true;

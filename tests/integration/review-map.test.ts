@@ -5,6 +5,7 @@ import type { FeatureCollection, Point } from "geojson";
 import { area, booleanPointInPolygon, point } from "@turf/turf";
 import { autoCellSideM, colourStops, DIVERGING, hexBins, offlineStyle, scaleMaxMm, triangleSdf } from "~/components/review/map-style";
 import { matrixCells, worstCell } from "~/components/review/matrix";
+import { defaultSite, FIT_MAX_ZOOM, siteBounds, siteChoices, type SessionSite } from "~/components/review/map-sites";
 import type { ReportShotRow, ShotDetail } from "~/components/review/types";
 
 const shotsFc = (pts: [number, number, number, boolean][]): FeatureCollection<Point> => ({
@@ -20,6 +21,9 @@ test("the offline style has no network source, glyphs or sprite", () => {
   expect(style.layers[0]).toMatchObject({ type: "background" });
   const ids = style.layers.map((l) => l.id);
   for (const id of ["site-fill", "site-line", "stations", "targets", "shots-within", "shots-outside", "hex-fill"]) expect(ids).toContain(id);
+  // shots are drawn over the stations and targets they sit on
+  expect(ids.indexOf("shots-within")).toBeGreaterThan(ids.indexOf("targets"));
+  expect(ids.indexOf("shots-within")).toBeGreaterThan(ids.indexOf("stations"));
 });
 
 test("the colour scale is symmetric around zero and ends on a round number of mm at or above the largest limit", () => {
@@ -80,4 +84,90 @@ test("the matrix groups included shots by reflectance class and illuminance band
   expect(cells.reduce((n, c) => n + c.n, 0)).toBe(6);
   expect(worstCell(cells)).toBe(darkHigh);
   expect(worstCell(cells, 4)).toBeNull();
+});
+
+// Two invented sites about 4.9 km apart (0.066° of longitude at 48.6° N), as in the demo.
+const SESSIONS: SessionSite[] = [
+  { id: "y1", siteId: "yard", siteName: "Fernhollow yard baseline" },
+  { id: "y2", siteId: "yard", siteName: "Fernhollow yard baseline" },
+  { id: "r1", siteId: "road", siteName: "Valley road test range" },
+  { id: "e1", siteId: "empty", siteName: "Unlocated range" },
+];
+const pointsFc = (pts: { at: [number, number]; props: Record<string, unknown> }[]): FeatureCollection => ({
+  type: "FeatureCollection",
+  features: pts.map(({ at, props }) => ({ type: "Feature", geometry: { type: "Point", coordinates: at }, properties: props })),
+});
+const YARD: [number, number] = [11.4727, 48.6184];
+const ROAD: [number, number] = [11.5396, 48.6441];
+const off = ([lon, lat]: [number, number], dLon: number, dLat: number): [number, number] => [lon + dLon, lat + dLat];
+const geo = pointsFc([
+  { at: off(YARD, 0.0001, 0.00002), props: { id: "a", sessionId: "y1" } },
+  { at: off(YARD, 0.0003, 0.0001), props: { id: "b", sessionId: "y1" } },
+  { at: off(ROAD, 0.0002, -0.0003), props: { id: "c", sessionId: "r1" } },
+  { at: off(YARD, 0.0005, 0.0002), props: { id: "d", sessionId: "y2" } },
+  { at: off(ROAD, 0.0004, -0.0006), props: { id: "e", sessionId: "r1" } },
+  { at: off(YARD, 0, 0), props: { id: "f", sessionId: "gone" } }, // a session this page does not know
+]);
+const stationsFc = pointsFc([
+  { at: YARD, props: { siteId: "yard" } },
+  { at: ROAD, props: { siteId: "road" } },
+]);
+const targetsFc = pointsFc([
+  { at: off(YARD, 0.0006, 0.00025), props: { siteId: "yard" } },
+  { at: off(ROAD, 0.0014, -0.0011), props: { siteId: "road" } },
+]);
+
+test("the site choice lists each site with located shots, counted through the shots' sessions, most first", () => {
+  const choices = siteChoices(geo, SESSIONS);
+  expect(choices).toEqual([
+    { id: "yard", name: "Fernhollow yard baseline", n: 3 },
+    { id: "road", name: "Valley road test range", n: 2 },
+  ]);
+  // a site without located shots is not offered; nor is anything without shots at all
+  expect(choices.some((c) => c.id === "empty")).toBe(false);
+  expect(siteChoices({ type: "FeatureCollection", features: [] }, SESSIONS)).toEqual([]);
+  // equal counts fall back to the name, so the order never flickers
+  const tie = siteChoices(pointsFc([{ at: ROAD, props: { sessionId: "r1" } }, { at: YARD, props: { sessionId: "y1" } }]), SESSIONS);
+  expect(tie.map((c) => c.name)).toEqual(["Fernhollow yard baseline", "Valley road test range"]);
+});
+
+test("the map opens on the site with the most shots, or on the site of the session in the address", () => {
+  const choices = siteChoices(geo, SESSIONS);
+  expect(defaultSite(choices, SESSIONS, "")).toBe("yard");
+  expect(defaultSite(choices, SESSIONS, "r1")).toBe("road");
+  expect(defaultSite(choices, SESSIONS, "e1")).toBe("yard"); // that session's site has no located shots
+  expect(defaultSite(choices, SESSIONS, "no-such-session")).toBe("yard");
+  expect(defaultSite([], SESSIONS, "")).toBe(""); // nothing located: all sites
+});
+
+test("the view of one site spans exactly its shots, stations and targets, and all sites span both", () => {
+  const parts = { shots: geo, stations: stationsFc, targets: targetsFc };
+  // yard: station at YARD (west-south corner), target at +0.0006/+0.00025 (east-north corner)
+  const yard = siteBounds("yard", parts, SESSIONS)!;
+  expect(yard[0][0]).toBeCloseTo(YARD[0], 12);
+  expect(yard[0][1]).toBeCloseTo(YARD[1], 12);
+  expect(yard[1][0]).toBeCloseTo(YARD[0] + 0.0006, 12);
+  expect(yard[1][1]).toBeCloseTo(YARD[1] + 0.00025, 12);
+  // road: station at ROAD (west, north), target +0.0014/−0.0011 (east, south)
+  const road = siteBounds("road", parts, SESSIONS)!;
+  expect(road).toEqual([
+    [ROAD[0], ROAD[1] - 0.0011],
+    [ROAD[0] + 0.0014, ROAD[1]],
+  ].map(([x, y]) => [expect.closeTo(x!, 12), expect.closeTo(y!, 12)]));
+  const all = siteBounds("", parts, SESSIONS)!;
+  expect(all[0]).toEqual([YARD[0], YARD[1]]);
+  expect(all[1][0]).toBeCloseTo(ROAD[0] + 0.0014, 12);
+  expect(all[1][1]).toBeCloseTo(ROAD[1], 12);
+  // a site's view holds nothing of the other site, 4.9 km away
+  expect(yard[1][0]).toBeLessThan(ROAD[0]);
+  expect(siteBounds("nowhere", { shots: geo, stations: { type: "FeatureCollection", features: [] }, targets: { type: "FeatureCollection", features: [] } }, SESSIONS)).toBeNull();
+});
+
+test("the zoom limit keeps a lone shot in a view some tens of metres wide", () => {
+  // MapLibre's ground resolution with 512-pixel tiles: 2π · 6 378 137 m · cos φ / (512 · 2^z) per pixel
+  // (Web Mercator, EPSG:3857 equatorial radius), at the demo latitude on a 700-pixel wide map.
+  const mPerPx = (2 * Math.PI * 6_378_137 * Math.cos((48.6 * Math.PI) / 180)) / (512 * 2 ** FIT_MAX_ZOOM);
+  const spanM = 700 * mPerPx;
+  expect(spanM).toBeGreaterThan(50);
+  expect(spanM).toBeLessThan(400);
 });

@@ -85,6 +85,9 @@ export function overlayLayers(maxMm: number, c: Palette, showHex: boolean) {
       layout: { visibility: showHex ? "visible" : "none" },
       paint: { "fill-color": errorColourExpression(maxMm, "meanErrorMm"), "fill-opacity": 0.85, "fill-outline-color": c.fg },
     },
+    // Stations and targets under the shots: shots sit on their targets, and the shots are what is judged.
+    { id: "targets", type: "circle", source: "targets", paint: { "circle-radius": 6, "circle-color": c.accent, "circle-stroke-color": c.bg, "circle-stroke-width": 2 } },
+    { id: "stations", type: "circle", source: "stations", paint: { "circle-radius": 9, "circle-color": c.bg, "circle-stroke-color": c.fg, "circle-stroke-width": 4 } },
     {
       id: "shots-within",
       type: "circle",
@@ -101,8 +104,6 @@ export function overlayLayers(maxMm: number, c: Palette, showHex: boolean) {
       layout: { visibility: showHex ? "none" : "visible", "icon-image": "triangle-sdf", "icon-size": 0.6, "icon-allow-overlap": true, "icon-ignore-placement": true },
       paint: { "icon-color": colour, "icon-halo-color": c.fg, "icon-halo-width": 2 },
     },
-    { id: "targets", type: "circle", source: "targets", paint: { "circle-radius": 6, "circle-color": c.accent, "circle-stroke-color": c.bg, "circle-stroke-width": 2 } },
-    { id: "stations", type: "circle", source: "stations", paint: { "circle-radius": 9, "circle-color": c.bg, "circle-stroke-color": c.fg, "circle-stroke-width": 4 } },
   ];
 }
 

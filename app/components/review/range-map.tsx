@@ -1,11 +1,11 @@
 // The range-error map (MapLibre GL, loaded only by the map page through React.lazy).
 // Without a basemap URL the style has no network source at all.
 import { useEffect, useRef } from "react";
-import { Map as MlMap, NavigationControl, ScaleControl, setWorkerUrl, type GeoJSONSource, type StyleSpecification, type LngLatBoundsLike } from "maplibre-gl";
+import { Map as MlMap, NavigationControl, ScaleControl, setWorkerUrl, type GeoJSONSource, type StyleSpecification } from "maplibre-gl";
 import workerUrl from "maplibre-gl/dist/maplibre-gl-worker.mjs?url";
 import "maplibre-gl/dist/maplibre-gl.css";
 import type { FeatureCollection } from "geojson";
-import { bbox } from "@turf/turf";
+import { FIT_MAX_ZOOM, FIT_PADDING_PX, type Bounds } from "./map-sites";
 import { errorColourExpression, geojsonSources, offlineStyle, overlayLayers, triangleSdf, type Palette, type StyleSources } from "./map-style";
 
 setWorkerUrl(workerUrl);
@@ -16,6 +16,8 @@ export type RangeMapProps = {
   showHex: boolean;
   basemapUrl: string | null;
   onSelect: (shotId: string | null) => void;
+  /** The view to frame; the map refits whenever `key` changes (a new site, or the shots arrived). */
+  frame: { key: string; bounds: Bounds | null };
 };
 
 function palette(): Palette {
@@ -24,30 +26,21 @@ function palette(): Palette {
   return { bg: v("--bg") || "#fff", fg: v("--fg") || "#000", muted: v("--muted") || "#444", accent: v("--accent") || "#0b4fb3" };
 }
 
-function boundsOf(s: StyleSources): LngLatBoundsLike | null {
-  const all: FeatureCollection = { type: "FeatureCollection", features: [...s.shots.features, ...s.stations.features, ...s.targets.features, ...s.outline.features] };
-  if (all.features.length === 0) return null;
-  const [w, so, e, n] = bbox(all);
-  return [
-    [w, so],
-    [e, n],
-  ];
-}
+const FIT = { padding: FIT_PADDING_PX, maxZoom: FIT_MAX_ZOOM };
 
-const fitted = new WeakSet<MlMap>();
-
-export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect }: RangeMapProps) {
+export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect, frame }: RangeMapProps) {
   const el = useRef<HTMLDivElement>(null);
   const map = useRef<MlMap | null>(null);
   const ready = useRef(false);
-  const latest = useRef({ sources, maxMm, showHex });
-  latest.current = { sources, maxMm, showHex };
+  const latest = useRef({ sources, maxMm, showHex, frame });
+  latest.current = { sources, maxMm, showHex, frame };
+  const framed = useRef<string | null>(null);
   const selectRef = useRef(onSelect);
   selectRef.current = onSelect;
 
   /** Puts the latest data, colours and visibility on the map (after load, and on every change). */
   function apply(m: MlMap) {
-    const { sources, maxMm, showHex } = latest.current;
+    const { sources, maxMm, showHex, frame } = latest.current;
     const set = (id: string, data: FeatureCollection) => (m.getSource(id) as GeoJSONSource | undefined)?.setData(data);
     set("shots", sources.shots);
     set("hexes", sources.hexes);
@@ -65,25 +58,26 @@ export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect
       m.setPaintProperty("hex-fill", "fill-color", errorColourExpression(maxMm, "meanErrorMm") as never);
     }
     m.getContainer().setAttribute("data-shots", String(sources.shots.features.length));
-    // Frame the shots once they have arrived (the map may have opened on the site alone).
-    if (!fitted.has(m) && sources.shots.features.length) {
-      const b = boundsOf(sources);
-      if (b) m.fitBounds(b, { padding: 48, maxZoom: 19, animate: false });
-      fitted.add(m);
+    if (framed.current !== frame.key) {
+      if (frame.bounds) m.fitBounds(frame.bounds, { ...FIT, animate: false });
+      framed.current = frame.key;
+      m.getContainer().setAttribute("data-frame", frame.key);
     }
   }
 
   useEffect(() => {
     if (!el.current) return;
     const c = palette();
-    const { sources: s0, maxMm: m0, showHex: h0 } = latest.current;
+    const { sources: s0, maxMm: m0, showHex: h0, frame: f0 } = latest.current;
     const style = basemapUrl ?? (offlineStyle(s0, m0, c, h0) as unknown as StyleSpecification);
-    const b = boundsOf(s0);
+    const b = f0.bounds;
+    // A new map (first open, or the basemap switched) frames the current choice again on load.
+    framed.current = null;
     const m = new MlMap({
       container: el.current,
       style,
       bounds: b ?? undefined,
-      fitBoundsOptions: { padding: 48, maxZoom: 19 },
+      fitBoundsOptions: FIT,
       center: b ? undefined : [0, 0],
       zoom: b ? undefined : 1,
       attributionControl: false,
@@ -92,6 +86,8 @@ export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect
     map.current = m;
     m.addControl(new NavigationControl({ showCompass: false }), "top-right");
     m.addControl(new ScaleControl({ unit: "metric" }), "bottom-left");
+    // The zoom is written on the element so a browser test can tell a framed site from a framed world.
+    m.on("moveend", () => m.getContainer().setAttribute("data-zoom", m.getZoom().toFixed(2)));
     m.on("load", () => {
       if (!m.hasImage("triangle-sdf")) m.addImage("triangle-sdf", triangleSdf(), { sdf: true });
       if (basemapUrl) {
@@ -122,7 +118,7 @@ export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect
   useEffect(() => {
     if (map.current && ready.current) apply(map.current);
     // eslint-disable-next-line react-hooks/exhaustive-deps
-  }, [sources, maxMm, showHex]);
+  }, [sources, maxMm, showHex, frame.key]);
 
   return <div ref={el} className="h-[62vh] min-h-[420px] w-full rounded-lg border-2 border-line" data-testid="range-map" role="region" aria-label="Range-error map" />;
 }
