@@ -265,7 +265,8 @@ type ShotsStamp = { maxRowid: number; exclusions: number; restored: number; reco
 
 function stampQueries(db: Db, sensorId: string) {
   return [
-    db.select({ maxRowid: sql<number>`ifnull(max(${shots}.rowid), 0)` }).from(shots),
+    // a bare max(rowid) is one step down the table's b-tree; wrapped in anything it is a scan
+    db.select({ maxRowid: sql<number | null>`max(${shots}.rowid)` }).from(shots),
     db
       .select({ n: sql<number>`count(*)`, restored: sql<number>`count(${exclusions.restoredAt})` })
       .from(exclusions)
@@ -278,7 +279,7 @@ function stampQueries(db: Db, sensorId: string) {
   ] as const;
 }
 
-type StampRows = [{ maxRowid: number }[], { n: number; restored: number }[], { n: number; last: number }[]];
+type StampRows = [{ maxRowid: number | null }[], { n: number; restored: number }[], { n: number; last: number }[]];
 function stampOf([a, b, c]: StampRows): ShotsStamp {
   return {
     maxRowid: Number(a[0]?.maxRowid ?? 0),

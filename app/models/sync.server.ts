@@ -11,6 +11,7 @@ import {
   computeShotRecord,
   impliedProjectsOf,
   impliedProjectsQuery,
+  inIds,
   pairKey,
   registryContextOf,
   registryQueries,
@@ -151,8 +152,8 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
           humidityPct: checkSessions.humidityPct,
         })
         .from(checkSessions)
-        .where(inArray(checkSessions.id, sessionIds)),
-      db.select({ id: shots.id, raw: shots.raw }).from(shots).where(inArray(shots.id, shotIds)),
+        .where(inIds(checkSessions.id, sessionIds)),
+      db.select({ id: shots.id, raw: shots.raw }).from(shots).where(inIds(shots.id, shotIds)),
       impliedProjectsQuery(impliedNeed, db),
       ...registryQueries(
         {
