@@ -165,7 +165,8 @@ function unpack(p: Packed | undefined, sessions: { id: string; startedAt: string
     const s = started.get(ses[i]!);
     const r = ref[i], g = range[i], e = err[i], q = rep[i], f = refl[i], l = lux[i], b = bits[i];
     if (!s || !isNum(r) || !isNum(g) || !isNum(e) || !isNum(f) || !isNum(b) || (q !== null && !isNum(q)) || (l !== null && !isNum(l))) return null;
-    out[i] = {
+    // kept rows are shared by every report of the sensor: frozen, like the reports
+    out[i] = Object.freeze({
       id: ids[i]!,
       takenAt: taken[i]!,
       sessionId: s.id,
@@ -180,7 +181,7 @@ function unpack(p: Packed | undefined, sessions: { id: string; startedAt: string
       excluded: (b & 2) !== 0,
       wrap: (b & 4) !== 0,
       airDefaulted: (b & 8) !== 0,
-    };
+    });
   }
   return out;
 }
@@ -425,7 +426,7 @@ async function sensorRows(db: Db, caches: Caches, sensorId: string, born: string
         const flag = new Map(flags.map((f) => [f.id, f.excluded] as const));
         list = list.map((s) => {
           const x = flag.get(s.id);
-          return x === undefined || x === s.excluded ? s : { ...s, excluded: x };
+          return x === undefined || x === s.excluded ? s : Object.freeze({ ...s, excluded: x });
         });
       }
       next = { born, stamp: now, shots: mergeInOrder(list, inTimeOrder(inc)) };
@@ -440,6 +441,7 @@ async function sensorRows(db: Db, caches: Caches, sensorId: string, born: string
     if (!list) return { shots: await plainQuery(db, where), fresh: false };
     next = { born, stamp: now, shots: inTimeOrder(list) };
   }
+  Object.freeze(next.shots);
   caches.rows.delete(sensorId);
   if (next.shots.length <= ROWS_BUDGET) {
     caches.rows.set(sensorId, next);

@@ -201,7 +201,7 @@ test("a spec edit that recomputes the stored errors (assumed refractivity) shows
   };
   const u = await updateSensor({ id: admin.id }, sensorId, body);
   expect(u.status).toBe(200);
-  expect(u.body.recomputed).toBe(known.length);
+  expect((u.body as { recomputed?: number }).recomputed).toBe(known.length);
   const R = await report();
   // the sensor no longer corrects for air itself: each range gets the first velocity
   // correction, D = D′·(1 + K·1e-6), K = N_ref − N_L > 0 here, so every error grows with D
@@ -291,6 +291,13 @@ test("a kept report cannot be changed in place by a caller", async () => {
   }).toThrow(TypeError);
   expect(() => {
     (r.body.shots as unknown[]).pop();
+  }).toThrow(TypeError);
+  // the kept rows behind it, shared by every query of the sensor, too
+  expect(() => {
+    (r.details[0] as { excluded: boolean }).excluded = !r.details[0]!.excluded;
+  }).toThrow(TypeError);
+  expect(() => {
+    r.details.push(r.details[0]!);
   }).toThrow(TypeError);
   expect((await report()).n).toBe(included().length);
 });
