@@ -182,6 +182,13 @@ const isIndexKey = (k: string) => /^(?:0|[1-9]\d*)$/.test(k) && Number(k) < 4294
 function sortedCopy(v: unknown): unknown {
   if (v === null || v === undefined || typeof v !== "object") return v;
   if (Array.isArray(v)) {
+    // a list of numbers or text (readings, samples) is written as it is: nothing to reorder
+    let plain = true;
+    for (let i = 0; i < v.length && plain; i++) {
+      const t = typeof v[i];
+      plain = t === "number" || t === "string" || t === "boolean";
+    }
+    if (plain) return v;
     const out = new Array(v.length);
     for (let i = 0; i < v.length; i++) {
       const x = v[i];
