@@ -343,21 +343,22 @@ async function readState(db: Db, sensorId: string, projectId: string | undefined
 // ---------------------------------------------------------------------------------------------
 // The in-process cache, one per database handle.
 
-/** Shots kept as loaded rows across all sensors (about 350 bytes each). */
-const ROWS_BUDGET = 500_000;
-/** Shot rows kept in computed reports across all queries. */
-const REPORT_ROWS_BUDGET = 500_000;
-/** Bytes of report JSON kept. */
-const JSON_BUDGET = 160 * 1024 * 1024;
+/** Shots kept as loaded rows across all sensors (about 250 bytes each: some 100 MB at most). */
+const ROWS_BUDGET = 400_000;
+/** Shot rows kept in computed reports across all queries (about 150 bytes each). */
+const REPORT_ROWS_BUDGET = 300_000;
+/** Bytes of report JSON kept (100 000 shots make some 33 MB). */
+const JSON_BUDGET = 96 * 1024 * 1024;
 
 type RowsEntry = { born: string; stamp: ShotsStamp; shots: readonly ReportShot[] };
 type ReportEntry = { fingerprint: string; built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
-type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry> };
+type Appended = { rowid: number; shot: ReportShot };
+type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry>; appended: Map<string, Appended[]> };
 const cachesByDb = new WeakMap<Db, Caches>();
 
 function cachesOf(db: Db): Caches {
   let c = cachesByDb.get(db);
-  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map() }));
+  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map(), appended: new Map() }));
   return c;
 }
 
@@ -374,6 +375,25 @@ function evict<V>(map: Map<string, V>, size: (v: V) => number, budget: number) {
 function touch<V>(map: Map<string, V>, key: string, v: V) {
   map.delete(key);
   map.set(key, v);
+}
+
+/** Rows held for one sensor at most: more, and they are read back instead. */
+const APPENDED_MAX = 20_000;
+
+/**
+ * The shots this process has just written (the sync), with their rowids, so the next report
+ * of the sensor need not read them back. They are used only when the database confirms they
+ * are all of the sensor's rows after the kept ones (another instance may have written more).
+ */
+export function noteAppendedShots(db: Db, bySensor: Map<string, Appended[]>) {
+  const caches = cachesOf(db);
+  for (const [sensorId, rows] of bySensor) {
+    if (!caches.rows.has(sensorId)) continue; // nothing kept to add them to
+    const list = caches.appended.get(sensorId) ?? [];
+    for (const r of rows) list.push({ rowid: r.rowid, shot: Object.freeze(r.shot) });
+    if (list.length > APPENDED_MAX) caches.appended.delete(sensorId);
+    else caches.appended.set(sensorId, list);
+  }
 }
 
 /** Drops everything this process keeps for the database (tests; never needed for correctness). */
@@ -397,13 +417,17 @@ async function sensorRows(db: Db, caches: Caches, sensorId: string, born: string
   if (have && have.born === born && have.stamp.recomputes === stamp.recomputes && have.stamp.lastRecompute === stamp.lastRecompute && stamp.maxRowid >= have.stamp.maxRowid) {
     const after = have.stamp.maxRowid;
     const exclusionsChanged = have.stamp.exclusions !== stamp.exclusions || have.stamp.restored !== stamp.restored;
+    const pending = (caches.appended.get(sensorId) ?? []).filter((p) => p.rowid > after);
+    caches.appended.delete(sensorId);
     // "+sensor_id" keeps SQLite off the sensor index: the rows after the kept rowid, walked by rowid
     const appended = [sql`+${shots.sensorId} = ${sensorId}`, gt(sql`${shots}.rowid`, after)];
-    const [a, b, c, count, ses, packed, flags] = await db.batch([
+    const [a, b, c, count, added, ses, packed, flags] = await db.batch([
       ...stampQueries(db, sensorId),
       db.select({ n: sql<number>`count(*)` }).from(shots).where(eq(shots.sensorId, sensorId)),
+      db.select({ n: sql<number>`count(*)` }).from(shots).where(and(...appended)),
       sessionsQuery(db, sensorId),
-      packedQuery(db, appended),
+      // the rows written by this process are at hand: read the appended rows only without them
+      packedQuery(db, pending.length ? [sql`0`] : appended),
       // every shot of the sensor that ever had an exclusion row: the only way its flag changes
       db
         .selectDistinct({ id: shots.id, excluded: shots.excluded })
@@ -412,7 +436,14 @@ async function sensorRows(db: Db, caches: Caches, sensorId: string, born: string
         .where(and(eq(shots.id, exclusions.shotId), eq(shots.sensorId, sensorId), exclusionsChanged ? undefined : sql`0`)),
     ]);
     const now = stampOf([a, b, c] as StampRows);
-    const inc = unpack(packed[0], ses);
+    let inc: ReportShot[] | null;
+    if (!pending.length) inc = unpack(packed[0], ses);
+    else if (pending.length === Number(added[0]?.n ?? -1) && pending.every((p) => p.rowid <= now.maxRowid)) inc = pending.map((p) => p.shot);
+    else {
+      // someone else wrote shots of this sensor too: read the appended rows, up to the stamp's rowid
+      const [ses2, packed2] = await db.batch([sessionsQuery(db, sensorId), packedQuery(db, [...appended, sql`${shots}.rowid <= ${now.maxRowid}`])]);
+      inc = unpack(packed2[0], ses2);
+    }
     if (
       inc &&
       now.recomputes === have.stamp.recomputes &&
@@ -554,6 +585,7 @@ async function report(sensorId: string, query: ReportQuery | URLSearchParams, op
   caches.reports.delete(key);
   if (!rows.fresh) return { built, entry: null }; // the shots moved on meanwhile: the next request computes afresh
   freezeReport(built.body);
+  Object.freeze(built.details);
   const entry: ReportEntry = { fingerprint: state.fingerprint, built, json: null };
   caches.reports.set(key, entry);
   evict(caches.reports, (e) => e.built.body.shots.length + 1, REPORT_ROWS_BUDGET);

@@ -4,9 +4,11 @@
 // written in one transaction. Used by the sync route, the CSV import and the demo seed.
 import { getTableColumns, getTableName, inArray, type InferInsertModel } from "drizzle-orm";
 import type { SQLiteTable } from "drizzle-orm/sqlite-core";
+import type { ResultSet } from "@libsql/client";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
-import { airState, DomainError } from "~/domain";
+import { airState, DomainError, type ReportShot } from "~/domain";
+import { noteAppendedShots } from "./reports.server";
 import {
   computeShotRecord,
   impliedProjectsOf,
@@ -91,6 +93,51 @@ function insertStatements<T extends SQLiteTable>(table: T, rows: InferInsertMode
   });
 }
 
+/**
+ * The report cache's copy of the shots just written, so the verdict notice and the next report
+ * need not read them back. A multi-row INSERT under the write lock gives its rows consecutive
+ * rowids ending at lastInsertRowid; the cache uses the rows only once the database confirms
+ * the count of the sensor's new rows.
+ */
+function handOver(db: Db, rows: (typeof shots.$inferInsert)[], results: ResultSet[], startedAtOf: Map<string, string>) {
+  const bySensor = new Map<string, { rowid: number; shot: ReportShot }[]>();
+  let at = 0;
+  for (const rs of results) {
+    const n = rs.rowsAffected;
+    const last = rs.lastInsertRowid === undefined ? NaN : Number(rs.lastInsertRowid);
+    if (!Number.isSafeInteger(last) || n <= 0 || at + n > rows.length) return; // not what was sent: read them back
+    for (let i = 0; i < n; i++) {
+      const r = rows[at + i]!;
+      const startedAt = startedAtOf.get(r.sessionId);
+      if (startedAt === undefined) return;
+      const list = bySensor.get(r.sensorId) ?? [];
+      list.push({
+        rowid: last - n + 1 + i,
+        shot: {
+          id: r.id,
+          takenAt: r.takenAt,
+          sessionId: r.sessionId,
+          sessionStartedAt: startedAt,
+          // as SQLite gives them back: a REAL −0 is stored as the integer 0
+          referenceM: r.referenceM + 0,
+          rangeM: r.rangeM + 0,
+          errorMm: r.errorMm + 0,
+          repeatabilityMm: r.repeatabilityMm == null ? null : r.repeatabilityMm + 0,
+          reflectancePct: r.reflectancePct + 0,
+          illuminanceKlux: r.illuminanceKlux == null ? null : r.illuminanceKlux + 0,
+          retro: !!r.retro,
+          excluded: !!r.excluded,
+          wrap: !!r.wrap,
+          airDefaulted: !!r.airDefaulted,
+        },
+      });
+      bySensor.set(r.sensorId, list);
+    }
+    at += n;
+  }
+  if (at === rows.length) noteAppendedShots(db, bySensor);
+}
+
 const conflict = (kind: string): RecordError[] => [
   { path: "id", message: `a different ${kind} with this id is already synced; synced records are never overwritten — give the changed record a new id` },
 ];
@@ -147,6 +194,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
           sensorId: checkSessions.sensorId,
           siteId: checkSessions.siteId,
           projectId: checkSessions.projectId,
+          startedAt: checkSessions.startedAt,
           airTempC: checkSessions.airTempC,
           pressureHpa: checkSessions.pressureHpa,
           humidityPct: checkSessions.humidityPct,
@@ -168,6 +216,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
       ),
     ]);
     const storedSession = new Map(storedSessions.map((s) => [s.id, s]));
+    const startedAtOf = new Map(storedSessions.map((s) => [s.id, s.startedAt]));
     const storedShot = new Map(storedShots.map((s) => [s.id, s.raw]));
     const implied = impliedProjectsOf(impliedRows);
     const ctx = registryContextOf(registry);
@@ -228,6 +277,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
       }
       const projectId = s.projectId || implied.get(pairKey(s.sensorId, s.siteId)) || null;
       seenSessions.set(s.id, rec.raw);
+      startedAtOf.set(s.id, s.startedAt);
       usable.set(s.id, { id: s.id, sensorId: s.sensorId, siteId: s.siteId, projectId, air });
       sessionRows.push({
         id: s.id,
@@ -294,13 +344,12 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
           detail: { sessions: sessionRows.length, shots: shotRows.length, ...counts },
         })
         .toSQL();
-      const stmts: Stmt[] = [
-        ...insertStatements(checkSessions, sessionRows),
-        ...insertStatements(shots, shotRows),
-        { sql: audit.sql, args: audit.params as Stmt["args"] },
-      ];
+      const sessionStmts = insertStatements(checkSessions, sessionRows);
+      const shotStmts = insertStatements(shots, shotRows);
+      const stmts: Stmt[] = [...sessionStmts, ...shotStmts, { sql: audit.sql, args: audit.params as Stmt["args"] }];
       try {
-        await db.$client.batch(stmts, "write");
+        const done = await db.$client.batch(stmts, "write");
+        handOver(db, shotRows, done.slice(sessionStmts.length, sessionStmts.length + shotStmts.length), startedAtOf);
       } catch (e) {
         const code = (e as { code?: string }).code ?? "";
         // Another process wrote one of these ids meanwhile: nothing of ours was written.

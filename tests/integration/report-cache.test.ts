@@ -11,6 +11,7 @@ import { resetEnvCache } from "~/env.server";
 import { startFakeSmtp, type FakeSmtp } from "~/mail/fake-smtp.server";
 import { computeSensorReport, clearReportCache } from "~/models/reports.server";
 import { excludeShot } from "~/models/exclusions.server";
+import { ingestSync } from "~/models/sync.server";
 import { updateSensor } from "~/models/sensors.server";
 import { updateProject } from "~/models/projects.server";
 import { createSignOff } from "~/models/signoffs.server";
@@ -260,6 +261,23 @@ test("a change made through another app instance shows here, and this instance's
   const there = await computeSensorReport(qa, sensorId, {}, {}, other);
   if (there.status !== 200) throw new Error("no report on the other instance");
   expectFigures(there.body as never);
+});
+
+test("shots synced here and through another instance between two views all show, once each", async () => {
+  await report(); // warm: this instance keeps the rows
+  // the other instance takes a sync of this sensor…
+  const theirs = [shotBody(15, 2.4, "A"), shotBody(40, -2.8, "B")];
+  const a = await ingestSync({ id: crew.id, role: "crew" }, { deviceId: "tablet-other", sessions: [], shots: theirs.map((m) => m.body) }, other);
+  expect((a.body as { results: { status: string }[] }).results.map((r) => r.status)).toEqual(["accepted", "accepted"]);
+  for (const m of theirs) known.push({ id: m.id, D: m.D, e: m.e, ses: m.ses, excluded: false, takenAt: m.takenAt });
+  // …and this one another: it holds its own new rows, not the other instance's
+  await sync([[5, 2.9, "A"], [15, -3.0, "B"]]);
+  const R = await report();
+  expectFigures(R);
+  expect(new Set(R.shots.map((s: { id: string }) => s.id)).size).toBe(known.length);
+  // and once more, now that nothing new came from elsewhere
+  await sync([[40, 3.3, "A"]]);
+  expectFigures(await report());
 });
 
 test("a report patched from kept rows equals one computed from nothing", async () => {
