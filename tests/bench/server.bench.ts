@@ -1,8 +1,11 @@
 // Bench of the server side of sync and reports, on a temporary database file:
 // 1. 5,000 shots through the real POST /api/sync action (10 requests × 500: auth, JSON, zod,
-//    recomputation with app/domain, duplicate checks, insert) against the same 5,000 rows
-//    inserted raw with the libSQL client in one transaction (multi-row INSERTs), same run.
-// 2. GET /api/sensors/:id/report over 100,000 stored shots.
+//    recomputation with app/domain, duplicate checks, insert, the failed-verdict notice)
+//    against the same 5,000 rows inserted raw with the libSQL client in one transaction
+//    (multi-row INSERTs); BENCH_INGEST_RUNS (3) runs of both from fresh copies, medians.
+// 2. GET /api/sensors/:id/report over 100,000 stored shots: COLD (nothing kept in this process,
+//    as after a start or on another instance), WARM (the same figures asked again), and after
+//    an exclusion (the kept rows patched, the report computed again).
 // Targets: ingest ≥ 25 % of the raw insert rate; report < 300 ms for a repeated view (WARM;
 // COLD, the first view after a start, is printed beside it). Prints, never asserts.
 // Run alone: npx tsx tests/bench/server.bench.ts
