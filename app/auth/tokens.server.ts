@@ -23,6 +23,8 @@ export async function createApiToken(userId: string, name: string) {
   return { id: row!.id, token };
 }
 
+const LAST_USED_RESOLUTION_MS = 60_000;
+
 export async function userFromBearer(request: Request): Promise<SessionUser | null> {
   const header = request.headers.get("Authorization");
   const match = header?.match(/^Bearer\s+(\S+)$/i);
@@ -30,13 +32,17 @@ export async function userFromBearer(request: Request): Promise<SessionUser | nu
   const hash = await sha256Hex(match[1]!);
   const db = getDb();
   const rows = await db
-    .select({ id: users.id, email: users.email, name: users.name, role: users.role, tokenId: apiTokens.id })
+    .select({ id: users.id, email: users.email, name: users.name, role: users.role, tokenId: apiTokens.id, lastUsedAt: apiTokens.lastUsedAt })
     .from(apiTokens)
     .innerJoin(users, eq(users.id, apiTokens.userId))
     .where(and(eq(apiTokens.tokenHash, hash), isNull(apiTokens.revokedAt), eq(users.active, true)))
     .limit(1);
   const row = rows[0];
   if (!row) return null;
-  await db.update(apiTokens).set({ lastUsedAt: new Date().toISOString() }).where(eq(apiTokens.id, row.tokenId));
+  // "Last used" to the minute is enough, and spares a write on every request of a busy pipeline.
+  const now = Date.now();
+  if (!row.lastUsedAt || now - Date.parse(row.lastUsedAt) > LAST_USED_RESOLUTION_MS) {
+    await db.update(apiTokens).set({ lastUsedAt: new Date(now).toISOString() }).where(eq(apiTokens.id, row.tokenId));
+  }
   return { id: row.id, email: row.email, name: row.name, role: row.role, sessionId: null, via: "token" };
 }
