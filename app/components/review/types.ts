@@ -1,24 +1,13 @@
 // The report and shot shapes of the HTTP contract (api.md), as the review
 // screens read them from the API in the browser.
+import type { AcceptanceTest, DriftEntry, ReportShotRow, ShotFlag, TestName } from "~/domain";
+
+// The per-shot row, flags and tests are the ranging core's own types (one definition).
+export type { ReportShotRow, ShotFlag, TestName };
 export type Verdict = "pass" | "fail" | "insufficient";
-export type TestName = "bias" | "precision" | "within" | "count";
-export type ReportTest = { name: TestName; pass: boolean; value: number | null; limit: number };
+export type ReportTest = AcceptanceTest;
+export type DriftRow = DriftEntry;
 export type BandRow = { band: string; n: number; biasMm: number | null; sdMm: number | null; rmseMm: number | null; withinPct: number | null };
-export type DriftRow = { sessionId: string; startedAt: string; n: number; biasMm: number | null; flag: boolean };
-export type ShotFlag = "outlier" | "wrap";
-export type ReportShotRow = {
-  id: string;
-  takenAt: string;
-  sessionId: string;
-  referenceM: number;
-  rangeM: number;
-  errorMm: number;
-  limitMm: number;
-  within: boolean;
-  repeatabilityMm: number | null;
-  excluded: boolean;
-  flags: ShotFlag[];
-};
 
 export type ReportJson = {
   sensorId: string;
