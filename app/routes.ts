@@ -49,6 +49,7 @@ export default [
       route("session/:sessionId", "routes/field.session.tsx"),
       route("session/:sessionId/coverage", "routes/field.coverage.tsx"),
       route("session/:sessionId/shot/:shotId", "routes/field.shot.tsx"),
+      route("session/:sessionId/fix", "routes/field.session-fix.tsx"),
       route("outbox", "routes/field.outbox.tsx"),
     ]),
   ]),

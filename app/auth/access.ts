@@ -81,6 +81,7 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/field.session.tsx": { GET: FIELD },
   "routes/field.coverage.tsx": { GET: FIELD },
   "routes/field.shot.tsx": { GET: FIELD },
+  "routes/field.session-fix.tsx": { GET: FIELD },
   "routes/field.outbox.tsx": { GET: FIELD },
   "routes/api.field.reference.ts": { GET: FIELD },
 };

@@ -96,13 +96,62 @@ export async function saveShot(draft: ShotDraft, photo?: PhotoDraft | null, cont
   });
 }
 
-/** Puts a rejected session back in the queue (e.g. after an admin added its sensor). */
-export async function resendSession(id: string) {
-  await fieldDb().sessions.where("id").equals(id).modify((s) => {
-    if (s.state === "rejected") {
+/** A shot the server refused only because its session was refused ("sessionId") goes again with it. */
+function requeueSessionShots(sessionId: string) {
+  return fieldDb().shots.where("[sessionId+state]").equals([sessionId, "rejected"]).modify((s) => {
+    if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
       s.state = "queued";
       s.errors = [];
     }
+  });
+}
+
+/** Puts a rejected session back in the queue (e.g. after an admin added its sensor). */
+export async function resendSession(id: string) {
+  const db = fieldDb();
+  await db.transaction("rw", db.sessions, db.shots, async () => {
+    const s = await db.sessions.get(id);
+    if (s?.state !== "rejected") return;
+    await db.sessions.update(id, { state: "queued", errors: [] });
+    await requeueSessionShots(id);
+  });
+}
+
+/**
+ * Fixes a queued or refused session under the same client id (its shots reference it): checks
+ * the record, writes it and queues it again, re-runs the instant check of its unsent shots
+ * against the new sensor/site/air, and re-queues the shots refused only for the session's sake.
+ * Returns once IndexedDB has committed; only then may the screen say "saved".
+ */
+export async function updateSession(id: string, changes: Omit<SyncSessionRecord, "id">): Promise<LocalSession> {
+  const db = fieldDb();
+  const record = clean({ ...changes, id });
+  const errors = checkSessionRecord(record);
+  if (errors.length) throw new OutboxError(errors);
+  const [sensor, site, tapes, project] = await Promise.all([
+    db.sensors.get(record.sensorId),
+    db.sites.get(record.siteId),
+    db.tapes.toArray(),
+    record.projectId ? db.projects.get(record.projectId) : undefined,
+  ]);
+  const ctx: PreviewContext = { sensor, site, tapes, project };
+  return db.transaction("rw", db.sessions, db.shots, async () => {
+    const s = await db.sessions.get(id);
+    if (!s) throw new OutboxError([{ path: "", message: "No such session on this tablet" }]);
+    if (s.state === "synced") {
+      throw new OutboxError([{ path: "", message: "This session has reached the server already; synced sessions are never changed." }]);
+    }
+    const row: LocalSession = { ...s, record, state: "queued", errors: [] };
+    await db.sessions.put(row);
+    const shots = await db.shots.where("sessionId").equals(id).toArray();
+    for (const shot of shots) {
+      if (shot.state === "synced") continue;
+      const result = previewShot(record, shot.record, ctx);
+      const { previewError: _old, ...rest } = shot;
+      await db.shots.put(result.ok ? { ...rest, preview: result.preview } : { ...rest, preview: null, previewError: result.message });
+    }
+    await requeueSessionShots(id);
+    return row;
   });
 }
 

@@ -1,11 +1,11 @@
 // Start a session (sensor, site, air, sky) and see this tablet's sessions. Client-rendered
 // from IndexedDB, so it opens with no signal.
-import { useMemo, useState } from "react";
+import { useState } from "react";
 import { Link, useNavigate } from "react-router";
 import type { Route } from "./+types/field._index";
 import { formatWhen, FieldLoading } from "~/components/field/chrome";
-import { Choice, NumberField, parseNum, SelectField } from "~/components/field/inputs";
-import { AIR_DEFAULTS } from "~/domain";
+import { Choice, NumberField, parseNum } from "~/components/field/inputs";
+import { EMPTY_SESSION, SessionFields, sessionRecordOf, type SessionValues } from "~/components/field/session-fields";
 import { fieldDb } from "~/offline/db";
 import { useLiveQuery } from "~/offline/live";
 import { OutboxError, startSession } from "~/offline/outbox";
@@ -56,29 +56,13 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
   const reference = useLiveQuery<ReferenceCopy>(() => readReference(), [], loaderData.reference);
   const sessions = useLiveQuery(() => sessionRows(), [], loaderData.sessions);
   const navigate = useNavigate();
-  const [sensorId, setSensorId] = useState("");
-  const [siteId, setSiteId] = useState("");
-  const [projectId, setProjectId] = useState("");
-  const [airTempC, setAirTempC] = useState("");
-  const [pressureHpa, setPressureHpa] = useState("");
-  const [humidityPct, setHumidityPct] = useState("");
+  const [values, setValues] = useState<SessionValues>(EMPTY_SESSION);
   const [sky, setSky] = useState<Sky>("overcast");
   const [measuredKlux, setMeasuredKlux] = useState("");
-  const [note, setNote] = useState("");
   const [errors, setErrors] = useState<Record<string, string>>({});
   const [busy, setBusy] = useState(false);
-  const dirty = Boolean(sensorId || siteId || airTempC || pressureHpa || humidityPct || note || measuredKlux);
-
-  const sensor = reference.sensors.find((s) => s.id === sensorId);
-  const projects = useMemo(
-    () => reference.projects.filter((p) => (!sensorId || p.sensorIds.length === 0 || p.sensorIds.includes(sensorId)) && (!siteId || p.siteIds.length === 0 || p.siteIds.includes(siteId))),
-    [reference.projects, sensorId, siteId],
-  );
-  const missingAir = [
-    airTempC.trim() === "" ? `air temperature ${AIR_DEFAULTS.airTempC} °C` : null,
-    pressureHpa.trim() === "" ? `pressure ${AIR_DEFAULTS.pressureHpa} hPa` : null,
-    humidityPct.trim() === "" ? `humidity ${AIR_DEFAULTS.humidityPct} %` : null,
-  ].filter(Boolean);
+  const { sensorId, siteId } = values;
+  const dirty = Boolean(sensorId || siteId || values.airTempC || values.pressureHpa || values.humidityPct || values.note || measuredKlux);
 
   async function onSubmit(e: React.FormEvent) {
     e.preventDefault();
@@ -95,15 +79,7 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
     setBusy(true);
     try {
       const s = await startSession(
-        {
-          sensorId,
-          siteId,
-          projectId: projectId || undefined,
-          airTempC: parseNum(airTempC),
-          pressureHpa: parseNum(pressureHpa),
-          humidityPct: parseNum(humidityPct),
-          note: note.trim() || undefined,
-        },
+        sessionRecordOf(values),
         { sky: sky === "measured" ? `measured ${klux} klux` : preset.label, illuminanceKlux: klux },
       );
       navigate(`/field/session/${s.id}`);
@@ -129,69 +105,22 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
           </p>
         ) : null}
         {errors.form ? <p className="field-error" role="alert">{errors.form}</p> : null}
-        <div className="grid gap-4 sm:grid-cols-2">
-          <SelectField
-            id="sensorId"
-            label="Sensor"
-            value={sensorId}
-            onChange={(v) => {
-              setSensorId(v);
-              setErrors((e) => ({ ...e, sensorId: "" }));
-            }}
-            placeholder="— choose the sensor —"
-            options={reference.sensors.map((s) => ({ value: s.id, label: `${s.label} (${s.serial})` }))}
-            error={errors.sensorId}
-          />
-          <SelectField
-            id="siteId"
-            label="Site"
-            value={siteId}
-            onChange={(v) => {
-              setSiteId(v);
-              setErrors((e) => ({ ...e, siteId: "" }));
-            }}
-            placeholder="— choose the site —"
-            options={reference.sites.map((s) => ({ value: s.id, label: `${s.name} (${s.targets.length} targets)` }))}
-            error={errors.siteId}
-          />
-          <div className="sm:col-span-2">
-            <SelectField id="projectId" label="Project" value={projectId} onChange={setProjectId} placeholder="— none: the default acceptance rule —" options={projects.map((p) => ({ value: p.id, label: p.client ? `${p.name} (${p.client})` : p.name }))} optional error={errors.projectId} />
-          </div>
-        </div>
-        {sensor ? (
-          <p className="text-muted">
-            {sensor.kind === "cw" ? "Continuous-wave (phase)" : "Pulsed"}, {sensor.wavelengthNm} nm, tolerance ±({sensor.toleranceMm} mm + {sensor.tolerancePpm} ppm)
-            {sensor.calibrationDue ? `, calibration due ${sensor.calibrationDue}` : ""}.
-          </p>
-        ) : null}
-
-        <fieldset className="space-y-3">
-          <legend className="text-xl font-bold">Air</legend>
-          <div className="grid gap-4 sm:grid-cols-3">
-            <NumberField id="airTempC" label="Air temperature (°C)" unit="°C" value={airTempC} onChange={setAirTempC} error={errors.airTempC} placeholder={String(AIR_DEFAULTS.airTempC)} />
-            <NumberField id="pressureHpa" label="Pressure (hPa)" unit="hPa" value={pressureHpa} onChange={setPressureHpa} error={errors.pressureHpa} placeholder={String(AIR_DEFAULTS.pressureHpa)} />
-            <NumberField id="humidityPct" label="Humidity (%)" unit="%" value={humidityPct} onChange={setHumidityPct} error={errors.humidityPct} placeholder={String(AIR_DEFAULTS.humidityPct)} />
-          </div>
-          {missingAir.length ? (
-            <p className="font-bold text-warn" data-testid="air-defaults">
-              Not entered, so the standard value is used: {missingAir.join(", ")}. The report marks this session as using assumed air.
-            </p>
-          ) : null}
-        </fieldset>
-
-        <fieldset className="space-y-3">
-          <legend className="text-xl font-bold">Sky</legend>
-          <Choice name="sky" legend="Light at the targets" value={sky} onChange={setSky} options={SKY.map((x) => ({ value: x.value, label: x.label }))} />
-          {sky === "measured" ? <NumberField id="illuminance" label="Illuminance (klux)" unit="klux" value={measuredKlux} onChange={setMeasuredKlux} required error={errors.illuminance} /> : null}
-          <p className="text-sm text-muted">Each shot starts with this illuminance; change it on the shot when the light changes.</p>
-        </fieldset>
-
-        <div>
-          <label htmlFor="note" className="field-label">
-            Note <span className="font-normal text-muted">(optional)</span>
-          </label>
-          <textarea id="note" className="input" rows={2} value={note} onChange={(e) => setNote(e.target.value)} />
-        </div>
+        <SessionFields
+          reference={reference}
+          values={values}
+          errors={errors}
+          onChange={(key, v) => {
+            setValues((cur) => ({ ...cur, [key]: v }));
+            if (key === "sensorId" || key === "siteId") setErrors((e) => ({ ...e, [key]: "" }));
+          }}
+        >
+          <fieldset className="space-y-3">
+            <legend className="text-xl font-bold">Sky</legend>
+            <Choice name="sky" legend="Light at the targets" value={sky} onChange={setSky} options={SKY.map((x) => ({ value: x.value, label: x.label }))} />
+            {sky === "measured" ? <NumberField id="illuminance" label="Illuminance (klux)" unit="klux" value={measuredKlux} onChange={setMeasuredKlux} required error={errors.illuminance} /> : null}
+            <p className="text-sm text-muted">Each shot starts with this illuminance; change it on the shot when the light changes.</p>
+          </fieldset>
+        </SessionFields>
 
         <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={busy || noReference}>
           Start session

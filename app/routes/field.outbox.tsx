@@ -5,7 +5,7 @@ import { Link } from "react-router";
 import type { Route } from "./+types/field.outbox";
 import { FieldLoading, formatWhen, useOnline, useSyncStatus } from "~/components/field/chrome";
 import { signedMm } from "~/components/field/feedback";
-import { fieldLabelOf } from "~/components/field/field-errors";
+import { fieldLabelOf, sessionFieldLabelOf } from "~/components/field/field-errors";
 import { StateWord } from "~/components/field/shot-list";
 import { syncNow } from "~/offline/autosync";
 import { fieldDb } from "~/offline/db";
@@ -57,16 +57,6 @@ function Errors({ errors, label = fieldLabelOf }: { errors: FieldError[]; label?
   );
 }
 
-const SESSION_LABELS: Record<string, string> = {
-  sensorId: "Sensor",
-  siteId: "Site",
-  projectId: "Project",
-  startedAt: "Start time",
-  airTempC: "Air temperature (°C)",
-  pressureHpa: "Pressure (hPa)",
-  humidityPct: "Humidity (%)",
-  note: "Note",
-};
 
 export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
   const data = useLiveQuery(() => outboxData(), [], loaderData);
@@ -138,11 +128,16 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
                 <p className="font-bold">
                   Session: {data.sensorLabel[s.record.sensorId] ?? s.record.sensorId} at {data.siteName[s.record.siteId] ?? s.record.siteId}, {formatWhen(s.record.startedAt)}
                 </p>
-                <Errors errors={s.errors} label={(p) => SESSION_LABELS[p] ?? (p || "Session")} />
-                <p className="text-sm">Its shots wait until the session is accepted.</p>
-                <button type="button" className="btn-secondary" onClick={() => void resendSession(s.id).then(() => syncNow())}>
-                  Resend the session
-                </button>
+                <Errors errors={s.errors} label={sessionFieldLabelOf} />
+                <p className="text-sm">Its shots wait until the session is accepted. Resend it unchanged once an admin has fixed the reference data.</p>
+                <p className="flex flex-wrap gap-3">
+                  <Link className="btn" to={`/field/session/${s.id}/fix`}>
+                    Fix and resend
+                  </Link>
+                  <button type="button" className="btn-secondary" onClick={() => void resendSession(s.id).then(() => syncNow())}>
+                    Resend unchanged
+                  </button>
+                </p>
               </li>
             ))}
             {rejectedShots.map((s) => (

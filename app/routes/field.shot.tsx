@@ -4,6 +4,7 @@ import { Link, useNavigate } from "react-router";
 import type { Route } from "./+types/field.shot";
 import { FieldLoading } from "~/components/field/chrome";
 import { fieldLabelOf } from "~/components/field/field-errors";
+import { RefusedBox } from "~/components/field/refused";
 import { contextOf, loadSession } from "~/components/field/session-data";
 import { SessionHeader, SessionMissing } from "~/components/field/session-header";
 import { ShotForm } from "~/components/field/shot-form";
@@ -49,18 +50,7 @@ export default function FieldShot({ loaderData }: Route.ComponentProps) {
     <div className="space-y-6">
       <SessionHeader data={loaderData} />
       <h2 className="text-2xl font-bold">{shot.state === "rejected" ? "Fix the refused shot" : "Edit the queued shot"}</h2>
-      {shot.errors.length ? (
-        <div className="rounded-md border-2 border-fail p-3" role="alert">
-          <p className="font-bold">The server refused this shot:</p>
-          <ul className="list-disc pl-6">
-            {shot.errors.map((e, i) => (
-              <li key={i}>
-                <strong>{fieldLabelOf(e.path)}</strong>: {e.message}
-              </li>
-            ))}
-          </ul>
-        </div>
-      ) : null}
+      <RefusedBox what="shot" errors={shot.errors} label={fieldLabelOf} />
       <ShotForm
         session={session}
         ctx={ctx}

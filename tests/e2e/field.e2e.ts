@@ -295,6 +295,87 @@ test("a refused shot shows the server's message on its field, and goes out again
   await context.close();
 });
 
+test("a refused session (unknown sensor) is fixed on its own screen, keeps its id, and goes out with its shots", async () => {
+  const context = await newContext(browser, { viewport: { width: 1024, height: 1366 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openFieldOnline(context);
+  await context.setOffline(true);
+  // A stale tablet: the session names a sensor the server's registry does not have.
+  const ghost = "sensor-gone-e2e";
+  const ids = await page.evaluate(
+    async ({ ghost, siteId, targets }) => {
+      type F = { startSession(r: object): Promise<{ id: string }>; saveShot(d: object): Promise<{ id: string }> };
+      const f = window.shotbookField as unknown as F;
+      const s = await f.startSession({ sensorId: ghost, siteId, airTempC: 17.5, pressureHpa: 1009, note: "North fence" });
+      const shotIds: string[] = [];
+      for (const t of targets) {
+        const shot = await f.saveShot({ sessionId: s.id, targetId: t.id, reference: { method: "edm", distanceM: t.referenceM }, readings: { rangesM: [t.referenceM + 0.002] }, reflectancePct: t.reflectancePct, illuminanceKlux: 15 });
+        shotIds.push(shot.id);
+      }
+      return { sessionId: s.id, shotIds };
+    },
+    { ghost, siteId: world.site.id, targets: world.site.targets.slice(0, 2).map((t) => ({ id: t.id, referenceM: t.referenceM!, reflectancePct: t.reflectancePct })) },
+  );
+  await page.goto("/field/outbox");
+  await context.setOffline(false);
+  const refused = page.getByTestId("rejected-session");
+  await refused.waitFor({ timeout: 30_000 });
+  const message = `sensor ${ghost} is not in the registry`;
+  expect(await refused.textContent()).toContain(`Sensor: ${message}`);
+  // Nothing of it reached the server: the shots wait for their session.
+  expect(await serverShotCount(ids.sessionId)).toBe(0);
+
+  await refused.getByRole("link", { name: "Fix and resend" }).click();
+  await page.waitForURL(new RegExp(`/field/session/${ids.sessionId}/fix$`));
+  const sensor = page.getByRole("combobox", { name: "Sensor" });
+  await sensor.waitFor();
+  expect(await sensor.getAttribute("aria-invalid")).toBe("true");
+  expect(await page.locator(`#${await sensor.getAttribute("aria-describedby")}`).textContent()).toBe(message);
+  expect(await page.getByRole("combobox", { name: "Site" }).getAttribute("aria-invalid")).toBeNull();
+  // The form shows what was sent.
+  expect(await sensor.inputValue()).toBe(ghost);
+  expect(await page.getByLabel("Air temperature (°C)").inputValue()).toBe("17.5");
+  expect(await page.getByLabel("Pressure (hPa)").inputValue()).toBe("1009");
+  expect(await page.getByLabel("Note").inputValue()).toBe("North fence");
+  expect(await page.getByText("its 2 shots waiting on this tablet go out with it").isVisible()).toBe(true);
+  await page.screenshot({ path: "/tmp/field-session-fix.png", fullPage: true });
+  expect(await seriousA11yViolations(page)).toEqual([]);
+
+  // An out-of-range air value is caught on its field before anything is written.
+  await page.getByLabel("Humidity (%)").fill("140");
+  await page.getByRole("button", { name: "Save and resend" }).click();
+  await page.locator("#humidityPct-error").getByText("Humidity lies between 0 and 100 %").waitFor();
+  const stored = await page.evaluate(async (id) => {
+    const db = (window.shotbookField as { db: { sessions: { get(id: string): Promise<{ state: string; record: { sensorId: string; humidityPct?: number } }> } } }).db;
+    return db.sessions.get(id);
+  }, ids.sessionId);
+  expect(stored.state).toBe("rejected");
+  expect(stored.record.humidityPct).toBeUndefined();
+
+  await page.getByLabel("Humidity (%)").fill("55");
+  await sensor.selectOption(world.sensor.id);
+  expect(await sensor.getAttribute("aria-invalid")).toBeNull();
+  await page.getByRole("button", { name: "Save and resend" }).click();
+  await page.waitForURL(/\/field\/outbox$/);
+  await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
+
+  const r = await report(page);
+  const mine = r.shots.filter((s) => s.sessionId === ids.sessionId);
+  expect(mine.map((s) => s.id).sort()).toEqual([...ids.shotIds].sort());
+  for (const s of mine) expect(s.errorMm).toBeGreaterThan(0);
+  const local = await page.evaluate(async (id) => {
+    const db = (window.shotbookField as { db: { sessions: { get(id: string): Promise<{ id: string; state: string; record: { sensorId: string; humidityPct?: number } }> }; shots: { where(k: string): { equals(v: string): { toArray(): Promise<{ state: string; preview: unknown }[]> } } } } }).db;
+    return { session: await db.sessions.get(id), shots: await db.shots.where("sessionId").equals(id).toArray() };
+  }, ids.sessionId);
+  expect(local.session.id).toBe(ids.sessionId);
+  expect(local.session.state).toBe("synced");
+  expect(local.session.record.sensorId).toBe(world.sensor.id);
+  expect(local.session.record.humidityPct).toBe(55);
+  // The instant check of the shots ran again against the real sensor.
+  expect(local.shots.map((s) => [s.state, s.preview !== null])).toEqual([["synced", true], ["synced", true]]);
+  await context.close();
+});
+
 test("an expired sign-in pauses sending with a sign-in link; after signing in, the queue goes out", async () => {
   const context = await newContext(browser);
   const user = await signInAs(context, "crew@e2e.test");

@@ -72,3 +72,32 @@ export function errorsByField(errors: { path: string; message: string }[]): Reco
   }
   return out;
 }
+
+// A session's fields: the server's paths are the form's own ids.
+export const SESSION_FIELDS = ["sensorId", "siteId", "projectId", "startedAt", "airTempC", "pressureHpa", "humidityPct", "note"] as const;
+
+const SESSION_LABELS: Record<string, string> = {
+  sensorId: "Sensor",
+  siteId: "Site",
+  projectId: "Project",
+  startedAt: "Start time",
+  airTempC: "Air temperature (°C)",
+  pressureHpa: "Pressure (hPa)",
+  humidityPct: "Humidity (%)",
+  note: "Note",
+};
+
+export function sessionFieldLabelOf(path: string): string {
+  return SESSION_LABELS[path.split(".")[0]!] ?? (path || "Session");
+}
+
+/** Messages keyed by the session form's field ids; a path the form has no field for goes to "form". */
+export function sessionErrorsByField(errors: { path: string; message: string }[]): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (const e of errors) {
+    const head = e.path.split(".")[0]!;
+    const k = (SESSION_FIELDS as readonly string[]).includes(head) ? head : "form";
+    out[k] = out[k] ? `${out[k]} ${e.message}` : e.message;
+  }
+  return out;
+}
