@@ -196,20 +196,11 @@ export const pairKey = (sensorId: string, siteId: string) => `${sensorId}\u0000$
 // ---------------------------------------------------------------------------------------------
 // One shot: raw observation + its session + the registry → the stored computed columns.
 
-export type ComputedColumns = {
-  referenceM: number;
-  rangeM: number;
-  errorMm: number;
-  toleranceMm: number;
-  limitMm: number;
-  within: boolean;
-  repeatabilityMm: number | null;
-  readingsCount: number;
-  wrap: boolean;
-  unambiguousM: number | null;
-  retro: boolean;
-  airDefaulted: boolean;
-};
+/** The stored computed columns: the ranging core's per-shot figures plus the shot's target and air facts. */
+export type ComputedColumns = Pick<
+  ShotComputed,
+  "referenceM" | "rangeM" | "errorMm" | "toleranceMm" | "limitMm" | "within" | "repeatabilityMm" | "readingsCount" | "wrap" | "unambiguousM"
+> & { retro: boolean; airDefaulted: boolean };
 
 export type ShotOutcome = { ok: true; columns: ComputedColumns; computed: ShotComputed } | { ok: false; errors: RecordError[] };
 
