@@ -17,3 +17,4 @@ export { sensorReport, inPeriod, sortedAbsDeviations, NSSDA_FACTOR, OUTLIER_K, M
 export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, COVERAGE_NEED } from "./coverage.ts";
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";
+export { isImplausible, MAX_DISTANCE_M, MAX_ROUND_TRIP_NS, MAX_FREQUENCIES, FREQUENCY_MATCH_HZ, IMPLAUSIBLE_ERROR_MM, IMPLAUSIBLE_MIN_REFERENCE_M } from "./plausibility.ts";
