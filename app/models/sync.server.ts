@@ -6,6 +6,7 @@ import { getTableColumns, getTableName, inArray, type InferInsertModel } from "d
 import type { SQLiteTable } from "drizzle-orm/sqlite-core";
 import type { ResultSet } from "@libsql/client";
 import { getDb, type Db } from "~/db/client.server";
+import { retryTransient } from "~/db/transient.server";
 import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
 import { airState, DomainError, type ReportShot } from "~/domain";
 import { noteAppendedShots } from "./reports.server";
@@ -38,28 +39,14 @@ import {
 export type SyncActor = { id: string; role: Role };
 
 /**
- * One write at a time in this process. The check "is this id stored, with what raw?" and the
- * insert must not interleave with another request's, or two tablets sending the same record
- * at once would both see it missing and the second insert would fail on the primary key.
- * libSQL's local client also opens a pool of connections, and a PRAGMA busy_timeout reaches
- * only the connection that ran it; serialising our writes means no sync ever waits on
- * another sync's lock (SQLITE_BUSY), whatever connection it lands on.
+ * Idempotency lives in the database, not in this process: several app instances (and a libSQL
+ * server's replicas forwarding writes to its primary) may take the same records at once. Each
+ * insert skips ids already stored (ON CONFLICT(id) DO NOTHING) and returns the ids it wrote;
+ * a record it skipped was stored by someone else between our read and our write, and is
+ * classified again from the stored raw (duplicate when equal, a conflict otherwise). The whole
+ * request is repeatable, so a transient database error (busy, proxy, network) is tried again
+ * here and otherwise answered 503 with Retry-After by the route.
  */
-class Mutex {
-  #tail: Promise<void> = Promise.resolve();
-  async run<T>(fn: () => Promise<T>): Promise<T> {
-    const prev = this.#tail;
-    let release!: () => void;
-    this.#tail = new Promise<void>((r) => (release = r));
-    await prev;
-    try {
-      return await fn();
-    } finally {
-      release();
-    }
-  }
-}
-const writeLock = new Mutex();
 
 /** Multi-row inserts stay far below SQLite's 32 766 bound variables (31 columns × 250 rows). */
 const INSERT_CHUNK = 250;
@@ -89,53 +76,82 @@ function insertStatements<T extends SQLiteTable>(table: T, rows: InferInsertMode
         args.push(v == null ? null : plain[i] ? (v as string | number) : (columns[keys[i]!]!.mapToDriverValue(v) as string | number));
       }
     }
-    return { sql: `INSERT INTO "${getTableName(table)}" (${names}) VALUES ${part.map(() => one).join(", ")}`, args };
+    // an id stored meanwhile (another instance, another request) is skipped, not an error
+    const sql = `INSERT INTO "${getTableName(table)}" (${names}) VALUES ${part.map(() => one).join(", ")} ON CONFLICT("id") DO NOTHING RETURNING "id", rowid`;
+    return { sql, args };
   });
 }
 
 /**
  * The report cache's copy of the shots just written, so the verdict notice and the next report
- * need not read them back. A multi-row INSERT under the write lock gives its rows consecutive
- * rowids ending at lastInsertRowid; the cache uses the rows only once the database confirms
- * the count of the sensor's new rows.
+ * need not read them back: each with the rowid its insert returned. The cache uses the rows
+ * only once the database confirms the count of the sensor's new rows.
  */
-function handOver(db: Db, rows: (typeof shots.$inferInsert)[], results: ResultSet[], startedAtOf: Map<string, string>) {
+function handOver(db: Db, rows: (typeof shots.$inferInsert)[], rowidOf: Map<string, number>, startedAtOf: Map<string, string>) {
   const bySensor = new Map<string, { rowid: number; shot: ReportShot }[]>();
-  let at = 0;
-  for (const rs of results) {
-    const n = rs.rowsAffected;
-    const last = rs.lastInsertRowid === undefined ? NaN : Number(rs.lastInsertRowid);
-    if (!Number.isSafeInteger(last) || n <= 0 || at + n > rows.length) return; // not what was sent: read them back
-    for (let i = 0; i < n; i++) {
-      const r = rows[at + i]!;
-      const startedAt = startedAtOf.get(r.sessionId);
-      if (startedAt === undefined) return;
-      const list = bySensor.get(r.sensorId) ?? [];
-      list.push({
-        rowid: last - n + 1 + i,
-        shot: {
-          id: r.id,
-          takenAt: r.takenAt,
-          sessionId: r.sessionId,
-          sessionStartedAt: startedAt,
-          // as SQLite gives them back: a REAL −0 is stored as the integer 0
-          referenceM: r.referenceM + 0,
-          rangeM: r.rangeM + 0,
-          errorMm: r.errorMm + 0,
-          repeatabilityMm: r.repeatabilityMm == null ? null : r.repeatabilityMm + 0,
-          reflectancePct: r.reflectancePct + 0,
-          illuminanceKlux: r.illuminanceKlux == null ? null : r.illuminanceKlux + 0,
-          retro: !!r.retro,
-          excluded: !!r.excluded,
-          wrap: !!r.wrap,
-          airDefaulted: !!r.airDefaulted,
-        },
-      });
-      bySensor.set(r.sensorId, list);
-    }
-    at += n;
+  for (const r of rows) {
+    const rowid = rowidOf.get(r.id);
+    const startedAt = startedAtOf.get(r.sessionId);
+    if (rowid === undefined || !Number.isSafeInteger(rowid) || startedAt === undefined) return; // not what was sent: read them back
+    const list = bySensor.get(r.sensorId) ?? [];
+    list.push({
+      rowid,
+      shot: {
+        id: r.id,
+        takenAt: r.takenAt,
+        sessionId: r.sessionId,
+        sessionStartedAt: startedAt,
+        // as SQLite gives them back: a REAL −0 is stored as the integer 0
+        referenceM: r.referenceM + 0,
+        rangeM: r.rangeM + 0,
+        errorMm: r.errorMm + 0,
+        repeatabilityMm: r.repeatabilityMm == null ? null : r.repeatabilityMm + 0,
+        reflectancePct: r.reflectancePct + 0,
+        illuminanceKlux: r.illuminanceKlux == null ? null : r.illuminanceKlux + 0,
+        retro: !!r.retro,
+        excluded: !!r.excluded,
+        wrap: !!r.wrap,
+        airDefaulted: !!r.airDefaulted,
+      },
+    });
+    bySensor.set(r.sensorId, list);
   }
-  if (at === rows.length) noteAppendedShots(db, bySensor);
+  noteAppendedShots(db, bySensor);
+}
+
+/** id → rowid of the rows the insert statements wrote (their RETURNING rows). */
+function writtenIds(results: ResultSet[]): Map<string, number> {
+  const out = new Map<string, number>();
+  for (const rs of results) for (const row of rs.rows) out.set(String(row[0]), Number(row[1]));
+  return out;
+}
+
+/**
+ * Records we meant to write whose ids another writer stored between our read and our write:
+ * classified again against the stored raw, as if they had been stored before the request.
+ */
+async function reclassify(db: Db, results: SyncResult[], lost: { kind: "session" | "shot"; id: string; raw: string }[]) {
+  // a write-mode batch runs on a libSQL server's primary (a replica forwards it), where the
+  // rows that won the race are certain to be; a replica's own copy may lag behind
+  const sel = (table: typeof checkSessions | typeof shots, ids: string[]): Stmt[] =>
+    chunks(ids, 500).map((part) => ({ sql: `SELECT "id", "raw" FROM "${getTableName(table)}" WHERE "id" IN (${part.map(() => "?").join(", ")})`, args: part }));
+  const stmts = [...sel(checkSessions, lost.filter((l) => l.kind === "session").map((l) => l.id))];
+  const nSes = stmts.length;
+  stmts.push(...sel(shots, lost.filter((l) => l.kind === "shot").map((l) => l.id)));
+  const got = await db.$client.batch(stmts, "write");
+  const pairs = (rs: ResultSet[]) => rs.flatMap((r) => r.rows.map((row) => ({ id: String(row[0]), raw: String(row[1]) })));
+  const ses = pairs(got.slice(0, nSes));
+  const sh = pairs(got.slice(nSes));
+  const stored = new Map([...ses.map((r) => [`session:${r.id}`, r.raw] as const), ...sh.map((r) => [`shot:${r.id}`, r.raw] as const)]);
+  const at = new Map(results.map((r, i) => [`${r.kind}:${r.id}`, i] as const).filter(([, i]) => results[i]!.status === "accepted"));
+  for (const l of lost) {
+    const i = at.get(`${l.kind}:${l.id}`);
+    if (i === undefined) continue;
+    const raw = stored.get(`${l.kind}:${l.id}`);
+    // a skipped insert whose row is not there cannot happen; say so rather than claim it stored
+    if (raw === undefined) throw new Error(`The ${l.kind} ${l.id} was neither written nor found stored.`);
+    results[i] = raw === l.raw ? { kind: l.kind, id: l.id, status: "duplicate" } : { kind: l.kind, id: l.id, status: "rejected", errors: conflict(l.kind) };
+  }
 }
 
 const conflict = (kind: string): RecordError[] => [
@@ -176,7 +192,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
     return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
   });
 
-  return writeLock.run(async () => {
+  return retryTransient(async () => {
     // 2. What is stored already, and the registry rows the computation needs: one batch (one
     //    read transaction, one round trip). The registry of sessions stored earlier comes by
     //    their ids; the projects of the new sessions' sensors come along for implied projects.
@@ -224,7 +240,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
     const receivedAt = new Date().toISOString();
     const results: SyncResult[] = [];
     const sessionRows: (typeof checkSessions.$inferInsert)[] = [];
-    const shotRows: (typeof shots.$inferInsert)[] = [];
+    let shotRows: (typeof shots.$inferInsert)[] = [];
 
     // 3. Sessions before their shots.
     /** Session facts a shot of this batch may use: stored ones and the ones accepted now. */
@@ -347,17 +363,21 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
       const sessionStmts = insertStatements(checkSessions, sessionRows);
       const shotStmts = insertStatements(shots, shotRows);
       const stmts: Stmt[] = [...sessionStmts, ...shotStmts, { sql: audit.sql, args: audit.params as Stmt["args"] }];
-      try {
-        const done = await db.$client.batch(stmts, "write");
-        handOver(db, shotRows, done.slice(sessionStmts.length, sessionStmts.length + shotStmts.length), startedAtOf);
-      } catch (e) {
-        const code = (e as { code?: string }).code ?? "";
-        // Another process wrote one of these ids meanwhile: nothing of ours was written.
-        if (code.startsWith("SQLITE_CONSTRAINT") || code.startsWith("SQLITE_BUSY")) {
-          return { status: 503, body: { error: "Another sync wrote at the same moment; nothing was written — send the batch again." }, headers: { "Retry-After": "1" } };
-        }
-        throw e;
+      const done = await db.$client.batch(stmts, "write");
+      const sessionsWritten = writtenIds(done.slice(0, sessionStmts.length));
+      const shotsWritten = writtenIds(done.slice(sessionStmts.length, sessionStmts.length + shotStmts.length));
+      if (sessionsWritten.size !== sessionRows.length || shotsWritten.size !== shotRows.length) {
+        // Lost a race to another writer for some ids. (The audit row above counted them as
+        // accepted; what the records are now is in the tables.) A session stored meanwhile
+        // with other content leaves our shots of it computed with our copy's air: only a
+        // client reusing ids with other content can cause that, and it is told of the conflict.
+        await reclassify(db, results, [
+          ...sessionRows.filter((r) => !sessionsWritten.has(r.id)).map((r) => ({ kind: "session" as const, id: r.id, raw: r.raw })),
+          ...shotRows.filter((r) => !shotsWritten.has(r.id)).map((r) => ({ kind: "shot" as const, id: r.id, raw: r.raw })),
+        ]);
+        shotRows = shotRows.filter((r) => shotsWritten.has(r.id));
       }
+      handOver(db, shotRows, shotsWritten, startedAtOf);
     }
     return { status: 200, body: { results }, sensorIds: [...new Set(shotRows.map((r) => r.sensorId))] };
   });

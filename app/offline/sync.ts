@@ -78,12 +78,21 @@ function backoff(base: number, attempt: number) {
   return ms / 2 + Math.random() * (ms / 2);
 }
 
+/** The server's Retry-After (seconds or an HTTP date, RFC 9110 §10.2.3) in ms, capped at 5 minutes. */
+export function retryAfterMs(res: Response, now = Date.now()): number | null {
+  const v = res.headers.get("Retry-After")?.trim();
+  if (!v) return null;
+  const ms = /^\d+$/.test(v) ? Number(v) * 1000 : Date.parse(v) - now;
+  return Number.isFinite(ms) ? Math.min(Math.max(ms, 0), 300_000) : null;
+}
+
 /** One request with retries: network errors, 5xx, 408 and 429 back off and try again. */
 async function send(make: () => Promise<Response>, o: Required<Pick<SyncOptions, "maxAttempts" | "baseDelayMs" | "sleep">>): Promise<Attempt> {
   let lastMessage = "";
+  let asked: number | null = null; // the wait the server asked for, if it did
   for (let attempt = 0; attempt < o.maxAttempts; attempt++) {
     if (attempt > 0) {
-      const wait = backoff(o.baseDelayMs, attempt - 1);
+      const wait = Math.max(backoff(o.baseDelayMs, attempt - 1), asked ?? 0);
       await patchStatus({ nextRetryAt: new Date(Date.now() + wait).toISOString(), lastError: lastMessage });
       await o.sleep(wait);
     }
@@ -92,11 +101,13 @@ async function send(make: () => Promise<Response>, o: Required<Pick<SyncOptions,
       if (res.status === 401) return { kind: "stop", outcome: "auth", message: "Your sign-in has ended: sign in to send. Everything stays queued." };
       if (res.status === 403) return { kind: "stop", outcome: "forbidden", message: "Your role may not send field records." };
       if (res.status >= 500 || res.status === 408 || res.status === 429) {
+        asked = retryAfterMs(res);
         lastMessage = `The server answered ${res.status}; trying again.`;
         continue;
       }
       return { kind: "ok", res };
     } catch {
+      asked = null;
       lastMessage = "No connection to the server; trying again.";
     }
   }

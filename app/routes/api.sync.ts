@@ -1,6 +1,7 @@
 // POST /api/sync (crew, qa, admin): the tablet's outbox, answered per record (api.md).
 import { requireApiUser } from "~/auth/guards.server";
 import { FIELD } from "~/auth/access";
+import { DatabaseUnavailable, unavailableResponse } from "~/db/transient.server";
 import { notifyFailedVerdicts } from "~/models/signoffs.server";
 import { ingestSync } from "~/models/sync.server";
 import type { Route } from "./+types/api.sync";
@@ -22,7 +23,14 @@ export async function action({ request }: Route.ActionArgs) {
     // not JSON, or the connection dropped mid-body: nothing is written
     return Response.json({ error: "The body is not JSON (or it arrived incomplete); nothing was written." }, { status: 400 });
   }
-  const answer = await ingestSync({ id: user.id, role: user.role }, body);
+  let answer: Awaited<ReturnType<typeof ingestSync>>;
+  try {
+    answer = await ingestSync({ id: user.id, role: user.role }, body);
+  } catch (e) {
+    // busy, or a replica that cannot reach its primary, after the tries inside the request
+    if (e instanceof DatabaseUnavailable) return unavailableResponse(e);
+    throw e;
+  }
   // A sensor whose verdict turned to fail on this sync: QA hears of it by mail. The mail
   // module never throws; a notice that cannot be sent is logged and retried.
   if (answer.sensorIds?.length) await notifyFailedVerdicts(answer.sensorIds);
