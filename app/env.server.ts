@@ -1,5 +1,6 @@
 // The environment, read once and validated at boot. Only PUBLIC_ENV reaches the browser.
 import { z } from "zod";
+import { parseStorageUrl } from "~/storage/url";
 
 const schema = z.object({
   NODE_ENV: z.enum(["development", "production", "test"]).default("development"),
@@ -23,6 +24,21 @@ const schema = z.object({
   APP_URL: z.string().url().default("http://localhost:3000"),
   BASEMAP_STYLE_URL: z.string().url().optional(),
   PHOTO_MAX_BYTES: z.coerce.number().int().positive().default(8 * 1024 * 1024),
+  // issue 17: files every instance sees. Unset = the folder under DATA_DIR.
+  STORAGE_URL: z
+    .string()
+    .optional()
+    .transform((v) => v || undefined)
+    .superRefine((v, ctx) => {
+      if (!v) return;
+      try {
+        parseStorageUrl(v);
+      } catch (e) {
+        ctx.addIssue({ code: "custom", message: (e as Error).message });
+      }
+    }),
+  STORAGE_ACCESS_KEY_ID: z.string().optional(),
+  STORAGE_SECRET_ACCESS_KEY: z.string().optional(),
 });
 
 export type Env = z.infer<typeof schema>;

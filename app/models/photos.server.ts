@@ -1,13 +1,14 @@
 // Shot photos: image types recognised by their magic bytes (the declared type is not trusted),
-// a size limit (PHOTO_MAX_BYTES), a SHA-256 checksum, files under DATA_DIR/photos. The same
-// shot and checksum again is the same photo (the outbox may resend after a dropped answer).
+// a size limit (PHOTO_MAX_BYTES), a SHA-256 checksum, files in the object store under
+// "photos/" (DATA_DIR/photos by default; STORAGE_URL for one store shared by every instance).
+// The same shot and checksum again is the same photo (the outbox may resend after a dropped answer).
 import { createHash } from "node:crypto";
-import { mkdir, readFile, rename, rm, writeFile } from "node:fs/promises";
-import { join, resolve } from "node:path";
+import { resolve } from "node:path";
 import { and, asc, eq } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { photos, shots } from "~/db/schema";
 import { getEnv } from "~/env.server";
+import { getStore } from "~/storage/store.server";
 import type { Actor } from "./shots.server";
 
 export type PhotoJson = { id: string; shotId: string; contentType: string; bytes: number; sha256: string; createdAt: string; url: string };
@@ -28,6 +29,7 @@ export function sniffImageType(b: Uint8Array): { type: string; ext: string } | n
   return null;
 }
 
+/** The folder of the embedded default store (STORAGE_URL unset). */
 export function photosDir() {
   return resolve(getEnv().DATA_DIR, "photos");
 }
@@ -55,50 +57,69 @@ export async function savePhoto(actor: Actor, shotId: unknown, file: unknown, db
   if (declared && !declared.startsWith("image/") && declared !== "application/octet-stream") {
     return { status: 415, body: { error: `Only images are accepted (the file says ${declared}).` } };
   }
-  const bytes = new Uint8Array(await blob.arrayBuffer());
-  const kind = sniffImageType(bytes);
+  const kind = sniffImageType(new Uint8Array(await blob.slice(0, 16).arrayBuffer()));
   if (!kind) return { status: 415, body: { error: "Only JPEG, PNG, WebP, HEIC or AVIF images are accepted; this file's content is none of them." } };
 
   const [shot] = await db.select({ id: shots.id }).from(shots).where(eq(shots.id, shotId as string));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId as string}: sync the shot before its photo.` } };
 
-  const sha256 = createHash("sha256").update(bytes).digest("hex");
+  const hash = createHash("sha256");
+  for await (const part of blob.stream() as unknown as AsyncIterable<Uint8Array>) hash.update(part);
+  const sha256 = hash.digest("hex");
   const same = () => db.select(cols).from(photos).where(and(eq(photos.shotId, shot.id), eq(photos.sha256, sha256)));
   const [existing] = await same();
   if (existing) return { status: 200, body: { photo: toJson(existing) } };
 
   const id = crypto.randomUUID();
-  const dir = photosDir();
-  await mkdir(dir, { recursive: true });
   const name = `${id}.${kind.ext}`;
-  // write then rename: a crash never leaves a half file under the final name
-  const tmp = join(dir, `.${name}.tmp`);
-  await writeFile(tmp, bytes);
-  await rename(tmp, join(dir, name));
+  const store = getStore();
+  // the file first, then its row: a row never points at a file that is not there
+  await store.put(photoKey(name), blob.stream(), { contentType: kind.type, bytes: blob.size });
   try {
     const [row] = await db
       .insert(photos)
-      .values({ id, shotId: shot.id, contentType: kind.type, bytes: bytes.length, sha256, path: name, uploadedBy: actor.id })
+      .values({ id, shotId: shot.id, contentType: kind.type, bytes: blob.size, sha256, path: name, uploadedBy: actor.id })
       .returning(cols);
     return { status: 201, body: { photo: toJson(row!) } };
   } catch (e) {
     // the same photo arriving twice at once: the unique (shot, sha256) index keeps one
-    await rm(join(dir, name), { force: true });
+    await store.delete(photoKey(name));
     const [again] = await same();
     if (again) return { status: 200, body: { photo: toJson(again) } };
     throw e;
   }
 }
 
+/** Stored names are ours (uuid.ext); never a path from the request. */
+const photoKey = (name: string) => `photos/${name.replace(/[/\\]/g, "")}`;
+
 export async function listPhotos(_actor: Actor, shotId: string, db: Db = getDb()): Promise<PhotoJson[]> {
   const rows = await db.select(cols).from(photos).where(eq(photos.shotId, shotId)).orderBy(asc(photos.createdAt), asc(photos.id));
   return rows.map(toJson);
 }
 
-export async function readPhoto(_actor: Actor, photoId: string, db: Db = getDb()) {
+export async function findPhoto(_actor: Actor, photoId: string, db: Db = getDb()) {
   const [row] = await db.select({ ...cols, path: photos.path }).from(photos).where(eq(photos.id, photoId));
+  return row ?? null;
+}
+
+export type PhotoRow = NonNullable<Awaited<ReturnType<typeof findPhoto>>>;
+
+/** The photo's bytes as a stream, or null when the store has no file of that size for it. */
+export async function openPhoto(row: PhotoRow) {
+  const found = await getStore().get(photoKey(row.path));
+  if (!found) return null;
+  if (found.bytes !== row.bytes) {
+    // not the file that was checked in: never serve it under the stored type and checksum
+    await found.body.cancel();
+    return null;
+  }
+  return found;
+}
+
+export async function readPhoto(actor: Actor, photoId: string, db: Db = getDb()) {
+  const row = await findPhoto(actor, photoId, db);
   if (!row) return null;
-  // stored names are ours (uuid.ext); never a path from the request
-  const data = await readFile(join(photosDir(), row.path.replace(/[/\\]/g, "")));
-  return { row, data };
+  const file = await openPhoto(row);
+  return file ? { row, body: file.body, bytes: file.bytes } : null;
 }
