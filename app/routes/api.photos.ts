@@ -2,6 +2,7 @@
 // same shot already has this photo). GET /api/photos?shotId=… (any signed-in role) lists them.
 import { requireApiUser } from "~/auth/guards.server";
 import { FIELD } from "~/auth/access";
+import { DatabaseUnavailable, retryTransient, unavailableResponse } from "~/db/transient.server";
 import { listPhotos, photoMaxBytes, savePhoto } from "~/models/photos.server";
 import type { Route } from "./+types/api.photos";
 
@@ -20,7 +21,14 @@ export async function action({ request }: Route.ActionArgs) {
   } catch {
     return Response.json({ error: "Send multipart form data with shotId and file." }, { status: 400 });
   }
-  const result = await savePhoto(user, form.get("shotId"), form.get("file"));
+  let result: Awaited<ReturnType<typeof savePhoto>>;
+  try {
+    // repeatable: the same shot and checksum again is the same photo
+    result = await retryTransient(() => savePhoto(user, form.get("shotId"), form.get("file")));
+  } catch (e) {
+    if (e instanceof DatabaseUnavailable) return unavailableResponse(e);
+    throw e;
+  }
   return Response.json(result.body, { status: result.status });
 }
 

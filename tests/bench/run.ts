@@ -4,6 +4,7 @@ const parts = [
   { name: "ranging core", module: "./domain.bench.ts" },
   { name: "server ingest and report", module: "./server.bench.ts" },
   { name: "field tablet", module: "./field.bench.ts" },
+  { name: "sync past one machine (BENCH_CLUSTER=1)", module: "./cluster.bench.ts" },
 ];
 
 const only = process.argv.slice(2);
