@@ -116,22 +116,22 @@ export async function run(): Promise<string[]> {
       await new Promise((r) => setTimeout(r, 150));
     }
     const single = await timed(() => send(base, singleToken, batches(SHOTS, "single", DEMO_IDS.roof, DEMO_IDS.yard)));
-    lines.push(`cluster bench: ${fmt(SHOTS)} shots (${SHOTS / PER_REQUEST} × ${PER_REQUEST} records) through POST /api/sync over HTTP, built app`);
-    lines.push(`  single file (one instance, file:)        ${fmt(single.ms)} ms = ${fmt(single.rate)} shots/s`);
+    lines.push(`cluster bench: ${fmt(SHOTS)} records (10 sessions, 4,990 shots; ${SHOTS / PER_REQUEST} × ${PER_REQUEST} records) through POST /api/sync over HTTP, built app`);
+    lines.push(`  single file (one instance, file:)        ${fmt(single.ms)} ms = ${fmt(single.rate)} records/s`);
 
     // 2. the cluster
     cluster = await startCluster();
     const [A, B] = cluster.apps.map((a) => a.url) as [string, string];
     const tok = cluster.tokens.crew;
     const onA = await timed(() => send(A, tok, batches(SHOTS, "a", DEMO_IDS.roof, DEMO_IDS.yard)));
-    lines.push(`  cluster, app A on the sqld primary        ${fmt(onA.ms)} ms = ${fmt(onA.rate)} shots/s`);
+    lines.push(`  cluster, app A on the sqld primary        ${fmt(onA.ms)} ms = ${fmt(onA.rate)} records/s`);
     const onB = await timed(() => send(B, tok, batches(SHOTS, "b", DEMO_IDS.roof, DEMO_IDS.yard)));
-    lines.push(`  cluster, app B on the replica (forwards)  ${fmt(onB.ms)} ms = ${fmt(onB.rate)} shots/s`);
+    lines.push(`  cluster, app B on the replica (forwards)  ${fmt(onB.ms)} ms = ${fmt(onB.rate)} records/s`);
     const both = await timed(async () => {
       const [x, y] = await Promise.all([send(A, tok, batches(SHOTS / 2, "ab-a", DEMO_IDS.roof, DEMO_IDS.yard)), send(B, tok, batches(SHOTS / 2, "ab-b", DEMO_IDS.tripod, DEMO_IDS.yard))]);
       return x + y;
     });
-    lines.push(`  cluster, A and B at once (5 requests each) ${fmt(both.ms)} ms = ${fmt(both.rate)} shots/s`);
+    lines.push(`  cluster, A and B at once (5 requests each) ${fmt(both.ms)} ms = ${fmt(both.rate)} records/s`);
   } finally {
     app.kill("SIGTERM");
     await cluster?.stop();
