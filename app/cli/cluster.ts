@@ -87,6 +87,12 @@ function start(name: string, cmd: string, argv: string[], env: NodeJS.ProcessEnv
   });
   proc.once("exit", (code, signal) => {
     if (stopping) return;
+    // Ctrl-C in a terminal reaches the whole process group: the servers stop on their own
+    if (signal === "SIGINT") {
+      console.log("\nStopping the cluster…");
+      void stop(0);
+      return;
+    }
     console.error(`${name} stopped (${signal ?? `exit code ${code}`}).${errText ? `\n${errText}` : ""}`);
     void stop(1);
   });
