@@ -18,3 +18,12 @@ export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflec
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";
 export { isImplausible, MAX_DISTANCE_M, MAX_ROUND_TRIP_NS, MAX_FREQUENCIES, FREQUENCY_MATCH_HZ, IMPLAUSIBLE_ERROR_MM, IMPLAUSIBLE_MIN_REFERENCE_M } from "./plausibility.ts";
+export {
+  distanceBoundsMessage,
+  roundTripBoundsMessage,
+  requireDistanceM,
+  requireRoundTripNs,
+  requireFigure,
+  requireFrequencyCount,
+  requireRegisteredFrequency,
+} from "./plausibility.ts";
