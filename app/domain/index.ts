@@ -3,7 +3,7 @@ export * from "./types.ts";
 export { DomainError } from "./errors.ts";
 export { AIR_DEFAULTS, AIR_LIMITS, airState, airGroupRefractivity, groupRefractivityIag, buckVapourPressure, firstVelocityCorrectionPpm } from "./air.ts";
 export { C0, rangeFromRoundTrip, correctReportedRange } from "./range.ts";
-export { phaseFromSamples, rangeFromPhase, unambiguousIntervalM, unwrapFrequencies, cwRepeatabilityMm, frequencyGcdHz } from "./phase.ts";
+export { phaseFromSamples, rangeFromPhase, unambiguousIntervalM, unwrapFrequencies, cwRepeatabilityMm, frequencyGcdHz, MAX_UNWRAP_CANDIDATES } from "./phase.ts";
 export type { PhaseEstimate, UnwrapInput, UnwrapResult } from "./phase.ts";
 export { STEEL_ALPHA_PER_C, tapeCorrections, tapeTemperatureCorrection, tapeTensionCorrection, tapeSagCorrection, referenceDistance } from "./reference.ts";
 export type { TapeCorrections, ReferenceResult } from "./reference.ts";
