@@ -330,6 +330,13 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         const errors: RecordError[] = [];
         const sensor = ctx.sensors.get(s.sensorId);
         if (!sensor) errors.push({ path: "sensorId", message: `sensor ${s.sensorId} is not in the registry` });
+        // a retired sensor takes no new sessions; sessions stored before keep receiving shots
+        else if (sensor.retiredAt) {
+          errors.push({
+            path: "sensorId",
+            message: `sensor ${sensor.label} was retired on ${sensor.retiredAt.slice(0, 10)} and takes no new sessions; an admin can restore it if this session belongs to it`,
+          });
+        }
         if (!ctx.sites.has(s.siteId)) errors.push({ path: "siteId", message: `site ${s.siteId} is not in the registry` });
         if (s.projectId && !ctx.rules.has(s.projectId)) errors.push({ path: "projectId", message: `project ${s.projectId} is not in the registry` });
         const air = { airTempC: s.airTempC, pressureHpa: s.pressureHpa, humidityPct: s.humidityPct };

@@ -5,7 +5,7 @@
 import { expect, test, vi } from "vitest";
 import { inArray } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
-import { checkSessions, shots } from "~/db/schema";
+import { checkSessions, sensors, shots } from "~/db/schema";
 import { eq } from "drizzle-orm";
 import { action } from "~/routes/api.sync";
 import * as chunkRoute from "~/routes/review.import.chunk";
@@ -172,4 +172,26 @@ test("the CSV import chunk rejects an overflowing row with its message and impor
   expect(byRow[5].errors[0].message).toMatch(/10000 m/);
   const stored = await getDb().select({ id: shots.id }).from(shots).where(inArray(shots.id, rows.map((x) => x.id)));
   expect(stored.map((x) => x.id).sort()).toEqual([rows[0]!.id, rows[2]!.id, rows[4]!.id].sort());
+});
+
+test("a new session on a retired sensor is refused at sensorId; shots of a session stored before retirement still land", async () => {
+  const w = await world();
+  const before = { id: uid(), sensorId: w.sensor.id, siteId: w.site.id, startedAt: "2026-05-04T08:10:00+02:00" };
+  const first = base(before.id, { rangesM: [17.004] });
+  expect((await sync(w.crew, { deviceId: "tablet-7", sessions: [before], shots: [first] })).json.results.map((r: Result) => r.status)).toEqual(["accepted", "accepted"]);
+  await getDb().update(sensors).set({ retiredAt: "2026-05-05T12:00:00.000Z" }).where(eq(sensors.id, w.sensor.id));
+
+  const late = base(before.id, { rangesM: [17.006] });
+  const after = { id: uid(), sensorId: w.sensor.id, siteId: w.site.id, startedAt: "2026-05-06T08:10:00+02:00" };
+  const orphan = base(after.id, { rangesM: [17.002] });
+  const a = await sync(w.crew, { deviceId: "tablet-7", sessions: [before, after], shots: [late, orphan] });
+  expect(a.status).toBe(200);
+  const results = a.json.results as Result[];
+  expect(results.map((r) => r.status)).toEqual(["duplicate", "rejected", "accepted", "rejected"]);
+  expect(results[1]!.errors!.map((e) => e.path)).toEqual(["sensorId"]);
+  expect(results[1]!.errors![0]!.message).toMatch(/retired on 2026-05-05/);
+  expect(results[3]!.errors![0]!.path).toBe("sessionId");
+  const stored = await getDb().select({ id: shots.id }).from(shots).where(inArray(shots.id, [first.id, late.id, orphan.id]));
+  expect(stored.map((x) => x.id).sort()).toEqual([first.id, late.id].sort());
+  expect(await getDb().select({ id: checkSessions.id }).from(checkSessions).where(eq(checkSessions.id, after.id))).toHaveLength(0);
 });
