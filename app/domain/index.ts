@@ -3,7 +3,7 @@ export * from "./types.ts";
 export { DomainError } from "./errors.ts";
 export { AIR_DEFAULTS, AIR_LIMITS, airState, airGroupRefractivity, groupRefractivityIag, buckVapourPressure, firstVelocityCorrectionPpm } from "./air.ts";
 export { C0, rangeFromRoundTrip, correctReportedRange } from "./range.ts";
-export { phaseFromSamples, rangeFromPhase, unambiguousIntervalM, unwrapFrequencies, cwRepeatabilityMm, frequencyGcdHz } from "./phase.ts";
+export { phaseFromSamples, rangeFromPhase, unambiguousIntervalM, unwrapFrequencies, cwRepeatabilityMm, frequencyGcdHz, MAX_UNWRAP_CANDIDATES } from "./phase.ts";
 export type { PhaseEstimate, UnwrapInput, UnwrapResult } from "./phase.ts";
 export { STEEL_ALPHA_PER_C, tapeCorrections, tapeTemperatureCorrection, tapeTensionCorrection, tapeSagCorrection, referenceDistance } from "./reference.ts";
 export type { TapeCorrections, ReferenceResult } from "./reference.ts";
@@ -18,3 +18,12 @@ export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflec
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";
 export { isImplausible, MAX_DISTANCE_M, MAX_ROUND_TRIP_NS, MAX_FREQUENCIES, FREQUENCY_MATCH_HZ, IMPLAUSIBLE_ERROR_MM, IMPLAUSIBLE_MIN_REFERENCE_M } from "./plausibility.ts";
+export {
+  distanceBoundsMessage,
+  roundTripBoundsMessage,
+  requireDistanceM,
+  requireRoundTripNs,
+  requireFigure,
+  requireFrequencyCount,
+  requireRegisteredFrequency,
+} from "./plausibility.ts";

@@ -1,6 +1,6 @@
 import { expect, test } from "vitest";
 import fc from "fast-check";
-import { cwRepeatabilityMm, phaseFromSamples, rangeFromPhase, unambiguousIntervalM, unwrapFrequencies } from "./phase.ts";
+import { cwRepeatabilityMm, MAX_UNWRAP_CANDIDATES, phaseFromSamples, rangeFromPhase, unambiguousIntervalM, unwrapFrequencies } from "./phase.ts";
 import { C0, correctReportedRange, rangeFromRoundTrip } from "./range.ts";
 import { DomainError } from "./errors.ts";
 
@@ -124,4 +124,48 @@ test("phase and timing inputs that cannot give a range throw DomainError", () =>
   expect(() => unambiguousIntervalM([])).toThrow(DomainError);
   expect(() => unwrapFrequencies([])).toThrow(DomainError);
   expect(() => correctReportedRange(0, { appliesAirCorrection: true }, 270)).toThrowError(expect.objectContaining({ path: "readings.rangesM.0" }));
+});
+
+// Issue 11: the unwrapping search is bounded by construction. Work is counted in candidates
+// (each walked once per frequency), never timed.
+test("the 20 and 25 MHz check value still unwraps to 17.000 m, walking a handful of candidates", () => {
+  // computed here from the definitions (ranging.md check values)
+  const parts = [20e6, 25e6].map((f) => ({ frequencyHz: f, rangeM: rangeFromPhase(phaseFromSamples(samplesFor(phaseOf(17, f), 400, 900)).phaseRad, f) }));
+  const u = unwrapFrequencies(parts);
+  expect(u.rangeM).toBeCloseTo(17, 6);
+  // combined interval ≈ 29.98 m: 4 wraps of 7.49 m plus 5 of 6.00 m
+  expect(u.candidates).toBe(9);
+});
+
+test("adversarial frequency sets are refused before any candidate is made, or cost at most MAX_UNWRAP_CANDIDATES", () => {
+  // eight co-prime frequencies (the old CPU bomb): refused by count
+  const eight = [20e6, 20e6 + 1, 20e6 + 3, 20e6 + 7, 20e6 + 9, 20e6 + 11, 20e6 + 13, 20e6 + 17].map((f) => ({ frequencyHz: f, rangeM: 1 }));
+  expect(() => unwrapFrequencies(eight)).toThrowError(expect.objectContaining({ code: "too_many_frequencies", path: "readings.phase" }));
+  // four co-prime GHz frequencies: 10 km / 0.15 m each ≈ 267 000 candidates — refused unsearched
+  const ghz = [1e9, 1e9 + 1, 1e9 + 3, 1e9 + 7].map((f) => ({ frequencyHz: f, rangeM: 0.1 }));
+  expect(() => unwrapFrequencies(ghz)).toThrowError(expect.objectContaining({ code: "unwrap_too_wide", path: "readings.phase" }));
+  // four co-prime 20 MHz frequencies: combined interval 150 000 km, searched only up to 10 km
+  const near = [20e6, 20e6 + 1, 20e6 + 3, 20e6 + 7].map((f) => ({ frequencyHz: f, rangeM: 3 }));
+  expect(unwrapFrequencies(near).candidates).toBeLessThanOrEqual(MAX_UNWRAP_CANDIDATES);
+});
+
+test("property: any set of up to four frequencies is refused or walks at most MAX_UNWRAP_CANDIDATES", () => {
+  fc.assert(
+    fc.property(
+      fc.array(fc.integer({ min: 1_000_000, max: 1_000_000_000 }), { minLength: 2, maxLength: 4 }),
+      fc.double({ min: 0, max: 0.99, noNaN: true }),
+      (fs, frac) => {
+        const parts = fs.map((f) => ({ frequencyHz: f, rangeM: frac * unambiguousIntervalM(f) }));
+        let u;
+        try {
+          u = unwrapFrequencies(parts);
+        } catch (e) {
+          expect(e).toMatchObject({ code: "unwrap_too_wide" });
+          return;
+        }
+        expect(u.candidates).toBeLessThanOrEqual(MAX_UNWRAP_CANDIDATES);
+        expect(Number.isFinite(u.rangeM)).toBe(true);
+      },
+    ),
+  );
 });

@@ -5,6 +5,7 @@
 // Electronics 37(3) — formula from memory, never used for a verdict.
 import { DomainError, requireFinite, requirePositive } from "./errors.ts";
 import { C0 } from "./range.ts";
+import { MAX_DISTANCE_M, requireFrequencyCount } from "./plausibility.ts";
 
 export type PhaseEstimate = { phaseRad: number; amplitude: number; offset: number };
 
@@ -73,37 +74,70 @@ export function unambiguousIntervalM(frequencyHz: number | number[], n = 1, path
 }
 
 export type UnwrapInput = { frequencyHz: number; rangeM: number };
-export type UnwrapResult = { rangeM: number; spreadM: number; wraps: number[]; unwrappedM: number[]; combinedM: number };
+export type UnwrapResult = {
+  rangeM: number;
+  spreadM: number;
+  wraps: number[];
+  unwrappedM: number[];
+  combinedM: number;
+  /** How many wrap candidates the search walked (bounded by MAX_UNWRAP_CANDIDATES). */
+  candidates: number;
+};
 
-/** Most candidate wrap counts examined per frequency (keeps incommensurate sets finite). */
-export const MAX_WRAPS_PER_FREQUENCY = 200_000;
+/**
+ * Most wrap candidates (summed over the frequencies) one shot may need. The search walks each
+ * candidate once per frequency (k ≤ 4), so a shot costs well under a millisecond; a frequency
+ * set whose interval up to MAX_DISTANCE_M needs more is refused, never searched.
+ */
+export const MAX_UNWRAP_CANDIDATES = 20_000;
 
 /**
  * Multi-frequency unwrapping: wrap counts nᵢ ≥ 0 with Rᵢ + nᵢ·R_u,i below the combined interval
  * for which the unwrapped ranges agree best (least max − min). Exact search: the smallest window
- * over the sorted candidates that holds one candidate of every frequency.
+ * over the sorted candidates that holds one candidate of every frequency. Candidates stop at
+ * MAX_DISTANCE_M too (ranging.md §9: no range lies beyond), which bounds incommensurate sets.
  */
 export function unwrapFrequencies(parts: UnwrapInput[], n = 1, path = "readings.phase"): UnwrapResult {
   if (!Array.isArray(parts) || parts.length === 0) throw new DomainError(path, "empty", "at least one frequency is needed");
+  requireFrequencyCount(parts.length, path);
   const k = parts.length;
   const ru = parts.map((p, i) => unambiguousIntervalM(p.frequencyHz, n, `${path}.${i}.frequencyHz`));
   const r = parts.map((p, i) => requireFinite(p.rangeM, `${path}.${i}`, "wrapped range (m)"));
   const combinedM = unambiguousIntervalM(parts.map((p) => p.frequencyHz), n, path);
-  if (k === 1) return { rangeM: r[0], spreadM: 0, wraps: [0], unwrappedM: [r[0]], combinedM };
-  // candidates
-  const counts = ru.map((u, i) => Math.min(MAX_WRAPS_PER_FREQUENCY, Math.max(1, Math.ceil((combinedM - r[i]) / u - 1e-9))));
+  if (k === 1) return { rangeM: r[0], spreadM: 0, wraps: [0], unwrappedM: [r[0]], combinedM, candidates: 1 };
+  // candidates per frequency, counted before any is made: a set that needs too many is refused
+  const horizonM = Math.min(combinedM, MAX_DISTANCE_M);
+  const counts = ru.map((u, i) => Math.max(1, Math.ceil((horizonM - r[i]) / u - 1e-9)));
   let total = 0;
   for (const c of counts) total += c;
+  if (!(total <= MAX_UNWRAP_CANDIDATES)) {
+    throw new DomainError(
+      path,
+      "unwrap_too_wide",
+      `these ${k} modulation frequencies leave ${Number.isFinite(total) ? total : "unboundedly many"} possible wrap counts up to ${Math.round(horizonM)} m ` +
+        `(at most ${MAX_UNWRAP_CANDIDATES}): use frequencies with a larger common divisor`,
+    );
+  }
+  // each frequency's candidates Rᵢ + m·R_u,i already rise with m: a k-way merge sorts them all
   const val = new Float64Array(total);
   const who = new Int32Array(total);
-  let o = 0;
-  for (let i = 0; i < k; i++) for (let m = 0; m < counts[i]; m++, o++) {
-    val[o] = r[i] + m * ru[i];
-    who[o] = i;
+  const next = new Int32Array(k);
+  for (let o = 0; o < total; o++) {
+    let pick = -1;
+    let best = Infinity;
+    for (let i = 0; i < k; i++) {
+      if (next[i] < counts[i]) {
+        const v = r[i] + next[i] * ru[i];
+        if (v < best) {
+          best = v;
+          pick = i;
+        }
+      }
+    }
+    val[o] = best;
+    who[o] = pick;
+    next[pick]++;
   }
-  const order = new Uint32Array(total);
-  for (let j = 0; j < total; j++) order[j] = j;
-  order.sort((a, b) => val[a] - val[b]);
   const have = new Int32Array(k);
   let covered = 0;
   let best = Infinity;
@@ -111,30 +145,29 @@ export function unwrapFrequencies(parts: UnwrapInput[], n = 1, path = "readings.
   let bestHi = 0;
   let lo = 0;
   for (let hi = 0; hi < total; hi++) {
-    const wh = who[order[hi]];
+    const wh = who[hi];
     if (have[wh]++ === 0) covered++;
     while (covered === k) {
-      const spread = val[order[hi]] - val[order[lo]];
+      const spread = val[hi] - val[lo];
       if (spread < best - 1e-12) {
         best = spread;
         bestLo = lo;
         bestHi = hi;
       }
-      const wl = who[order[lo]];
+      const wl = who[lo];
       if (--have[wl] === 0) covered--;
       lo++;
     }
   }
   // pick, inside the best window, the candidate of each frequency nearest the window's middle
-  const mid = (val[order[bestLo]] + val[order[bestHi]]) / 2;
+  const mid = (val[bestLo] + val[bestHi]) / 2;
   const wraps = new Array<number>(k).fill(-1);
   const unwrappedM = new Array<number>(k).fill(0);
   for (let j = bestLo; j <= bestHi; j++) {
-    const idx = order[j];
-    const i = who[idx];
-    if (wraps[i] < 0 || Math.abs(val[idx] - mid) < Math.abs(unwrappedM[i] - mid)) {
-      wraps[i] = Math.round((val[idx] - r[i]) / ru[i]);
-      unwrappedM[i] = val[idx];
+    const i = who[j];
+    if (wraps[i] < 0 || Math.abs(val[j] - mid) < Math.abs(unwrappedM[i] - mid)) {
+      wraps[i] = Math.round((val[j] - r[i]) / ru[i]);
+      unwrappedM[i] = val[j];
     }
   }
   let sum = 0;
@@ -145,7 +178,7 @@ export function unwrapFrequencies(parts: UnwrapInput[], n = 1, path = "readings.
     if (u < mn) mn = u;
     if (u > mx) mx = u;
   }
-  return { rangeM: sum / k, spreadM: mx - mn, wraps, unwrappedM, combinedM };
+  return { rangeM: sum / k, spreadM: mx - mn, wraps, unwrappedM, combinedM, candidates: total };
 }
 
 /**

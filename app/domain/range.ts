@@ -3,14 +3,16 @@
 // reported ranges get the first velocity correction D = D′·(1 + (N_ref − N_L)·1e-6).
 import { requireFinite, requirePositive } from "./errors.ts";
 import { firstVelocityCorrectionPpm } from "./air.ts";
+import { requireDistanceM, requireFigure, requireRoundTripNs } from "./plausibility.ts";
 
 export const C0 = 299_792_458;
 
 /** One-way range (m) from a round-trip time (ns) in air of index n (1 = vacuum). */
 export function rangeFromRoundTrip(roundTripNs: number, n = 1, path = "readings.roundTripNs.0"): number {
-  const t = requirePositive(roundTripNs, path, "round-trip time (ns)");
+  // ≤ 0 keeps its own sentence; beyond 70 000 ns the physics bound of ranging.md §9
+  const t = requireRoundTripNs(requirePositive(roundTripNs, path, "round-trip time (ns)"), path);
   const idx = requirePositive(n, "n", "refractive index");
-  return (C0 * t * 1e-9) / (2 * idx);
+  return requireFigure((C0 * t * 1e-9) / (2 * idx), path, "range (m)");
 }
 
 /**
@@ -23,8 +25,8 @@ export function correctReportedRange(
   groupRefractivity: number,
   path = "readings.rangesM.0",
 ): number {
-  const r = requirePositive(rangeM, path, "reported range (m)");
+  const r = requireDistanceM(requirePositive(rangeM, path, "reported range (m)"), path, "range");
   if (sensor.appliesAirCorrection) return r;
   const k = firstVelocityCorrectionPpm(sensor.assumedRefractivity ?? 0, requireFinite(groupRefractivity, "groupRefractivity"));
-  return r * (1 + k * 1e-6);
+  return requireFigure(r * (1 + k * 1e-6), path, "air-corrected range (m)");
 }

@@ -3,6 +3,7 @@
 // C_L = ppm·1e-6·L; EDM as entered; coordinates → 3-D grid distance or geocentric chord.
 import { DomainError, requireFinite, requirePositive, requireNonNegative } from "./errors.ts";
 import { geoChord, gridDistance3d } from "./geodesy.ts";
+import { requireDistanceM, requireFigure } from "./plausibility.ts";
 import type { GeoPoint, GridPoint, Position, ReferenceInput, TapeSpec } from "./types.ts";
 
 /** Thermal expansion coefficient of a steel tape (per °C). */
@@ -27,7 +28,7 @@ export function tapeCorrections(
   input: { distanceM: number; tape: TapeSpec; tempC: number; tensionN: number; support: "ground" | "ends"; spans: number },
   path = "reference",
 ): TapeCorrections {
-  const L = requirePositive(input.distanceM, `${path}.distanceM`, "taped distance (m)");
+  const L = requireDistanceM(requirePositive(input.distanceM, `${path}.distanceM`, "taped distance (m)"), `${path}.distanceM`, "taped distance");
   const tape = input.tape;
   if (!tape || typeof tape !== "object") throw new DomainError(`${path}.tape`, "missing", "the tape's constants are needed");
   const tp = `${path}.tape`;
@@ -53,8 +54,9 @@ export function tapeCorrections(
   }
   const calibrationM = ppm * 1e-6 * L;
   const totalM = temperatureM + tensionM + sagM + calibrationM;
-  const distanceM = L + totalM;
+  const distanceM = requireFigure(L + totalM, `${path}.distanceM`, "corrected tape distance (m)");
   if (!(distanceM > 0)) throw new DomainError(`${path}.distanceM`, "not_positive", "the corrected tape distance is not positive");
+  requireDistanceM(distanceM, `${path}.distanceM`, "corrected tape distance");
   return { temperatureM, tensionM, sagM, calibrationM, totalM, distanceM };
 }
 
@@ -69,7 +71,7 @@ export function referenceDistance(ref: ReferenceInput, path = "reference"): Refe
   if (!ref || typeof ref !== "object") throw new DomainError(path, "missing", "a reference distance is needed");
   switch (ref.method) {
     case "edm": {
-      const d = requirePositive(ref.distanceM, `${path}.distanceM`, "reference distance (m)");
+      const d = requireDistanceM(requirePositive(ref.distanceM, `${path}.distanceM`, "reference distance (m)"), `${path}.distanceM`, "reference distance");
       return { distanceM: d, method: "edm", tapeCorrectionMm: null, tape: null };
     }
     case "tape": {
@@ -93,6 +95,8 @@ export function referenceDistance(ref: ReferenceInput, path = "reference"): Refe
         throw new DomainError(missing, "no_common_coordinates", "station and target need positions in the same system (both grid or both geo)");
       }
       if (!(d > 0)) throw new DomainError(path, "not_positive", "station and target coincide (distance 0)");
+      // a surveyed pair kilometres apart is a registry slip, named at the station
+      requireDistanceM(d, `${path}.station`, "the station-to-target distance");
       return { distanceM: d, method: "coordinates", tapeCorrectionMm: null, tape: null };
     }
     default:

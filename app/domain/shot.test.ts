@@ -133,3 +133,34 @@ test("sensor, rule, air and reference errors carry their paths", () => {
   bad({ rule: { ...DEFAULT_RULE, rangeBandEdgesM: [0, 30, 10] } }, "rule.rangeBandEdgesM.2");
   bad({ rule: { ...DEFAULT_RULE, minWithinPct: 101 } }, "rule.minWithinPct");
 });
+
+// ranging.md §9 (issue 11): readings the physics forbids are refused with their field path,
+// and a figure that overflows is a DomainError, never a NaN or ±Infinity handed on.
+test("ranges, round trips and references beyond the physics bounds are refused at their path", () => {
+  const refused = (fn: () => unknown) => {
+    try {
+      fn();
+    } catch (e) {
+      expect(e).toBeInstanceOf(DomainError);
+      return e as DomainError;
+    }
+    throw new Error("expected a DomainError");
+  };
+  expect(refused(() => shot({ rangesM: [25, 1e308] }))).toMatchObject({ path: "readings.rangesM.1", code: "implausible" });
+  expect(refused(() => shot({ rangesM: [10_000.001] })).message).toMatch(/at most 10000 m/);
+  expect(shot({ rangesM: [9_999] }, pulsed, edm(10_000)).referenceM).toBe(10_000);
+  expect(refused(() => shot({ roundTripNs: [1e308] }))).toMatchObject({ path: "readings.roundTripNs.0" });
+  expect(refused(() => shot({ roundTripNs: [70_001] })).message).toMatch(/at most 70000 ns/);
+  expect(refused(() => shot({ rangesM: [25] }, pulsed, edm(1e308)))).toMatchObject({ path: "reference.distanceM" });
+  // a registry tolerance so large that T(D) overflows: named at the sensor, not a NaN verdict
+  expect(refused(() => shot({ rangesM: [25] }, { ...pulsed, tolerancePpm: 1e307 }, edm(9000)))).toMatchObject({ code: "figure_not_finite" });
+});
+
+test("a CW shot's frequencies must be the sensor's registered ones (±1 Hz), at most four", () => {
+  const cw2: SensorSpec = { ...cw, modulationHz: [20e6, 25e6] };
+  const phase = (fs: number[]) => ({ phase: fs.map((f) => ({ frequencyHz: f, samples: samplesFor(17, f, airState(air, 850).n) })) });
+  expect(shot(phase([20e6 + 0.5, 25e6]), cw2, edm(17)).rangeM).toBeCloseTo(17, 3);
+  expect(() => shot(phase([20e6, 1e-300]), cw2, edm(17))).toThrowError(expect.objectContaining({ path: "readings.phase.1.frequencyHz", code: "unregistered_frequency" }));
+  expect(() => shot(phase([20e6, 25e6 + 2]), cw2, edm(17))).toThrowError(expect.objectContaining({ path: "readings.phase.1.frequencyHz" }));
+  expect(() => shot(phase([20e6, 25e6, 20e6, 25e6, 20e6]), cw2, edm(17))).toThrowError(expect.objectContaining({ path: "readings.phase", code: "too_many_frequencies" }));
+});

@@ -7,6 +7,7 @@ import { cwRepeatabilityMm, phaseFromSamples, rangeFromPhase, unambiguousInterva
 import { correctReportedRange, rangeFromRoundTrip } from "./range.ts";
 import { referenceDistance } from "./reference.ts";
 import { checkEdges } from "./coverage.ts";
+import { requireFigure, requireFrequencyCount, requireRegisteredFrequency } from "./plausibility.ts";
 import type { Rule, SensorSpec, ShotComputed, ShotInput } from "./types.ts";
 
 /** Spec tolerance T(D) = a + b·D/1000 (mm), a in mm, b in ppm, D in m. */
@@ -94,9 +95,15 @@ export function computeShot(input: ShotInput): ShotComputed {
     readingsCount = ranges.length;
   } else {
     const raw = list((readings as { phase: unknown }).phase, "readings.phase", "phase readings");
+    // ranging.md §9: only the sensor's registered frequencies, at most 4, checked before any
+    // sample is read, so a forged frequency set never reaches the unwrapping search
+    requireFrequencyCount(raw.length, "readings.phase");
+    raw.forEach((p, i) => {
+      if (!p || typeof p !== "object") throw new DomainError(`readings.phase.${i}`, "invalid", "a phase reading needs frequencyHz and samples");
+      requireRegisteredFrequency((p as { frequencyHz: unknown }).frequencyHz, sensor.modulationHz ?? [], `readings.phase.${i}.frequencyHz`);
+    });
     const parts = raw.map((p, i) => {
       const path = `readings.phase.${i}`;
-      if (!p || typeof p !== "object") throw new DomainError(path, "invalid", "a phase reading needs frequencyHz and samples");
       const { frequencyHz, samples } = p as { frequencyHz: number; samples: number[] };
       const f = requirePositive(frequencyHz, `${path}.frequencyHz`, "modulation frequency (Hz)");
       const est = phaseFromSamples(samples, `${path}.samples`);
@@ -124,14 +131,18 @@ export function computeShot(input: ShotInput): ShotComputed {
     unambiguousM = unambiguousIntervalM(sensor.modulationHz, air.n);
   }
 
+  // ranging.md §9: every figure finite, named by the input that made it otherwise
+  requireFigure(air.n, "airTempC", "refractive index of air");
+  requireFigure(D, "reference.distanceM", "reference distance (m)");
   let sum = 0;
   for (const r of ranges) sum += r;
-  const rangeM = sum / ranges.length;
-  const errorMm = (rangeM - D) * 1000;
-  const tol = toleranceMm(sensor, D);
-  const limitMm = rule.coverageK * tol;
+  const rangeM = requireFigure(sum / ranges.length, "readings", "mean range (m)");
+  const errorMm = requireFigure((rangeM - D) * 1000, "readings", "range error (mm)");
+  const tol = requireFigure(toleranceMm(sensor, D), "sensor.tolerancePpm", "spec tolerance (mm)");
+  const limitMm = requireFigure(rule.coverageK * tol, "rule.coverageK", "per-shot limit (mm)");
   const within = Math.abs(errorMm) <= limitMm;
   const rep = sd(ranges);
+  if (rep != null) requireFigure(rep, "readings", "repeatability (m)");
   const wrap = sensor.kind === "cw" && isWrap(errorMm, limitMm, unambiguousM == null ? null : unambiguousM * 1000);
   return {
     referenceM: D,

@@ -369,7 +369,15 @@ async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
       projectId: row.projectId,
       air: { airTempC: row.airTempC, pressureHpa: row.pressureHpa, humidityPct: row.humidityPct },
     };
-    const out = computeShotRecord(shot, session, ctx);
+    let out: ShotOutcome;
+    try {
+      out = computeShotRecord(shot, session, ctx);
+    } catch (e) {
+      // one shot's unexpected failure never stops the others' recomputation
+      console.error(`recompute: shot ${row.id} could not be recomputed`, e);
+      failed++;
+      continue;
+    }
     if (!out.ok) {
       // Keep the last good figures: the registry edit made this shot uncomputable.
       failed++;

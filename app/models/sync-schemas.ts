@@ -3,7 +3,7 @@
 // server validates every record again on ingest. Unknown keys are stripped, so numbers the
 // tablet derived (errorMm, within, limitMm…) never reach the server's computation.
 import { z } from "zod";
-import { AIR_LIMITS } from "~/domain";
+import { AIR_LIMITS, distanceBoundsMessage, MAX_DISTANCE_M, MAX_FREQUENCIES, MAX_ROUND_TRIP_NS, roundTripBoundsMessage } from "~/domain";
 
 /** At most this many shots in one request (api.md); more answers 413. */
 export const SYNC_MAX_SHOTS = 500;
@@ -49,7 +49,8 @@ export const syncSessionSchema = z.object({
 });
 export type SyncSession = z.infer<typeof syncSessionSchema>;
 
-const positiveM = (what: string) => num(what).positive(`${what} must be greater than 0 m`).max(100_000, `${what} must be at most 100 km`);
+// ranging.md §9: lengths in (0, 10 000] m, in the ranging core's own words
+const positiveM = (what: string) => num(what).positive(distanceBoundsMessage(what)).max(MAX_DISTANCE_M, distanceBoundsMessage(what));
 const heightM = (what: string) => num(what).min(-100, `${what} must lie between −100 and 100 m`).max(100, `${what} must lie between −100 and 100 m`);
 
 const tapeUse = z.object({
@@ -81,16 +82,16 @@ export const referenceSchema = z.discriminatedUnion(
   { error: 'reference method must be "tape", "edm" or "coordinates"' },
 );
 
-const readingList = (what: string, unit: string) =>
+const readingList = (what: string, max: number, message: string) =>
   z
-    .array(num(what).positive(`${what} must be greater than 0 ${unit}`), { error: `${what}s must be a list of numbers` })
+    .array(num(what).positive(message).max(max, message), { error: `${what}s must be a list of numbers` })
     .min(1, `give at least one ${what}`)
     .max(1000, `at most 1000 ${what}s`);
 
 export const readingsSchema = z
   .object({
-    rangesM: readingList("range", "m").optional(),
-    roundTripNs: readingList("round-trip time", "ns").optional(),
+    rangesM: readingList("range", MAX_DISTANCE_M, distanceBoundsMessage("range")).optional(),
+    roundTripNs: readingList("round-trip time", MAX_ROUND_TRIP_NS, roundTripBoundsMessage()).optional(),
     phase: z
       .array(
         z.object({
@@ -103,7 +104,7 @@ export const readingsSchema = z
         { error: "phase must be a list of frequency readings" },
       )
       .min(1, "give at least one frequency reading")
-      .max(8, "at most 8 frequencies")
+      .max(MAX_FREQUENCIES, `at most ${MAX_FREQUENCIES} modulation frequencies a shot`)
       .optional(),
   })
   .superRefine((r, ctx) => {

@@ -6,7 +6,7 @@ import { getTableColumns, getTableName, inArray, type InferInsertModel } from "d
 import type { SQLiteTable } from "drizzle-orm/sqlite-core";
 import type { ResultSet } from "@libsql/client";
 import { getDb, type Db } from "~/db/client.server";
-import { retryTransient } from "~/db/transient.server";
+import { isTransientDbError, retryTransient } from "~/db/transient.server";
 import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
 import { airState, DomainError, type ReportShot } from "~/domain";
 import { noteAppendedShots } from "./reports.server";
@@ -158,10 +158,73 @@ const conflict = (kind: string): RecordError[] => [
   { path: "id", message: `a different ${kind} with this id is already synced; synced records are never overwritten — give the changed record a new id` },
 ];
 
+/**
+ * An unexpected failure while handling one record (a bug, a registry row the code did not
+ * foresee): that record alone is refused, in plain words, and the cause goes to the server log.
+ * The tablet keeps the record and may send it again; the rest of the batch is stored.
+ */
+function internalErrors(kind: "session" | "shot", id: string, e: unknown): RecordError[] {
+  if (e instanceof DomainError) return [{ path: e.path, message: e.message }];
+  console.error(`sync: ${kind} ${id || "(no id)"} could not be processed`, e);
+  return [{ path: "", message: `this ${kind} could not be processed by the server and was not stored; the error is logged — send it again later or ask an admin` }];
+}
+
+/** The column of an insert row holding a number SQLite cannot store (NaN, ±Infinity), if any. */
+function unstorableColumn(row: Record<string, unknown>): string | null {
+  for (const [k, v] of Object.entries(row)) if (typeof v === "number" && !Number.isFinite(v)) return k;
+  return null;
+}
+
 function chunks<T>(xs: T[], n: number): T[][] {
   const out: T[][] = [];
   for (let i = 0; i < xs.length; i += n) out.push(xs.slice(i, i + n));
   return out;
+}
+
+/**
+ * The fallback write after a batch failed for a reason that is not a concurrent writer: each
+ * session, then each shot, in its own transaction. A record that still fails is refused in
+ * `results` (its shots with it, for a session); the others are stored.
+ */
+async function writeOneAtATime(
+  db: Db,
+  sessionRows: (typeof checkSessions.$inferInsert)[],
+  shotRows: (typeof shots.$inferInsert)[],
+  results: SyncResult[],
+): Promise<{ sessions: number; shots: (typeof shots.$inferInsert)[] }> {
+  const refuse = (kind: "session" | "shot", id: string, message: string) => {
+    const r = results.find((x) => x.kind === kind && x.id === id && x.status === "accepted");
+    if (r) Object.assign(r, { status: "rejected", errors: [{ path: "", message }] });
+  };
+  const failedSessions = new Set<string>();
+  let sessions = 0;
+  for (const row of sessionRows) {
+    try {
+      await db.$client.batch(insertStatements(checkSessions, [row]), "write");
+      sessions++;
+    } catch (e) {
+      if (isTransientDbError(e)) throw e;
+      console.error(`sync: session ${row.id} could not be written`, e);
+      failedSessions.add(row.id);
+      refuse("session", row.id, "this session could not be stored by the server; the error is logged — send it again later or ask an admin");
+    }
+  }
+  const stored: (typeof shots.$inferInsert)[] = [];
+  for (const row of shotRows) {
+    if (failedSessions.has(row.sessionId)) {
+      refuse("shot", row.id, `its session ${row.sessionId} could not be stored: send both again`);
+      continue;
+    }
+    try {
+      await db.$client.batch(insertStatements(shots, [row]), "write");
+      stored.push(row);
+    } catch (e) {
+      if (isTransientDbError(e)) throw e;
+      console.error(`sync: shot ${row.id} could not be written`, e);
+      refuse("shot", row.id, "this shot could not be stored by the server; the error is logged — send it again later or ask an admin");
+    }
+  }
+  return { sessions, shots: stored };
 }
 
 export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb()): Promise<Answer> {
@@ -184,12 +247,20 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
 
   // 1. Each record on its own: zod, then the canonical raw content used for duplicate checks.
   const sessionRecs = rawSessions.map((r) => {
-    const v = validateSession(r);
-    return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
+    try {
+      const v = validateSession(r);
+      return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
+    } catch (e) {
+      return { id: recordIdOf(r), value: null, raw: "", errors: internalErrors("session", recordIdOf(r), e) };
+    }
   });
   const shotRecs = rawShots.map((r) => {
-    const v = validateShot(r);
-    return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
+    try {
+      const v = validateShot(r);
+      return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
+    } catch (e) {
+      return { id: recordIdOf(r), value: null, raw: "", errors: internalErrors("shot", recordIdOf(r), e) };
+    }
   });
 
   return retryTransient(async () => {
@@ -261,56 +332,67 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         if (rec.id) rejectedSessions.add(rec.id);
         results.push({ kind: "session", id: rec.id, status: "rejected", errors });
       };
-      if (!rec.value) {
-        reject(rec.errors!);
-        continue;
-      }
-      const s: SyncSession = rec.value;
-      const stored = storedSession.get(s.id)?.raw ?? seenSessions.get(s.id);
-      if (stored !== undefined) {
-        if (stored === rec.raw) results.push({ kind: "session", id: s.id, status: "duplicate" });
-        else results.push({ kind: "session", id: s.id, status: "rejected", errors: conflict("session") });
-        // a conflicting copy never disqualifies the stored session's shots
-        continue;
-      }
-      const errors: RecordError[] = [];
-      const sensor = ctx.sensors.get(s.sensorId);
-      if (!sensor) errors.push({ path: "sensorId", message: `sensor ${s.sensorId} is not in the registry` });
-      if (!ctx.sites.has(s.siteId)) errors.push({ path: "siteId", message: `site ${s.siteId} is not in the registry` });
-      if (s.projectId && !ctx.rules.has(s.projectId)) errors.push({ path: "projectId", message: `project ${s.projectId} is not in the registry` });
-      const air = { airTempC: s.airTempC, pressureHpa: s.pressureHpa, humidityPct: s.humidityPct };
-      if (sensor) {
-        try {
-          airState(air, sensor.wavelengthNm);
-        } catch (e) {
-          if (!(e instanceof DomainError)) throw e;
-          errors.push({ path: e.path, message: e.message });
+      try {
+        if (!rec.value) {
+          reject(rec.errors!);
+          continue;
         }
+        const s: SyncSession = rec.value;
+        const stored = storedSession.get(s.id)?.raw ?? seenSessions.get(s.id);
+        if (stored !== undefined) {
+          if (stored === rec.raw) results.push({ kind: "session", id: s.id, status: "duplicate" });
+          else results.push({ kind: "session", id: s.id, status: "rejected", errors: conflict("session") });
+          // a conflicting copy never disqualifies the stored session's shots
+          continue;
+        }
+        const errors: RecordError[] = [];
+        const sensor = ctx.sensors.get(s.sensorId);
+        if (!sensor) errors.push({ path: "sensorId", message: `sensor ${s.sensorId} is not in the registry` });
+        // a retired sensor takes no new sessions; sessions stored before keep receiving shots
+        else if (sensor.retiredAt) {
+          errors.push({
+            path: "sensorId",
+            message: `sensor ${sensor.label} was retired on ${sensor.retiredAt.slice(0, 10)} and takes no new sessions; an admin can restore it if this session belongs to it`,
+          });
+        }
+        if (!ctx.sites.has(s.siteId)) errors.push({ path: "siteId", message: `site ${s.siteId} is not in the registry` });
+        if (s.projectId && !ctx.rules.has(s.projectId)) errors.push({ path: "projectId", message: `project ${s.projectId} is not in the registry` });
+        const air = { airTempC: s.airTempC, pressureHpa: s.pressureHpa, humidityPct: s.humidityPct };
+        if (sensor) {
+          try {
+            airState(air, sensor.wavelengthNm);
+          } catch (e) {
+            if (!(e instanceof DomainError)) throw e;
+            errors.push({ path: e.path, message: e.message });
+          }
+        }
+        if (errors.length) {
+          reject(errors);
+          continue;
+        }
+        const projectId = s.projectId || implied.get(pairKey(s.sensorId, s.siteId)) || null;
+        seenSessions.set(s.id, rec.raw);
+        startedAtOf.set(s.id, s.startedAt);
+        usable.set(s.id, { id: s.id, sensorId: s.sensorId, siteId: s.siteId, projectId, air });
+        sessionRows.push({
+          id: s.id,
+          sensorId: s.sensorId,
+          siteId: s.siteId,
+          projectId,
+          startedAt: s.startedAt,
+          airTempC: s.airTempC ?? null,
+          pressureHpa: s.pressureHpa ?? null,
+          humidityPct: s.humidityPct ?? null,
+          note: s.note || null,
+          raw: rec.raw,
+          deviceId,
+          syncedBy: actor.id,
+          receivedAt,
+        });
+        results.push({ kind: "session", id: s.id, status: "accepted" });
+      } catch (e) {
+        reject(internalErrors("session", rec.id, e));
       }
-      if (errors.length) {
-        reject(errors);
-        continue;
-      }
-      const projectId = s.projectId || implied.get(pairKey(s.sensorId, s.siteId)) || null;
-      seenSessions.set(s.id, rec.raw);
-      startedAtOf.set(s.id, s.startedAt);
-      usable.set(s.id, { id: s.id, sensorId: s.sensorId, siteId: s.siteId, projectId, air });
-      sessionRows.push({
-        id: s.id,
-        sensorId: s.sensorId,
-        siteId: s.siteId,
-        projectId,
-        startedAt: s.startedAt,
-        airTempC: s.airTempC ?? null,
-        pressureHpa: s.pressureHpa ?? null,
-        humidityPct: s.humidityPct ?? null,
-        note: s.note || null,
-        raw: rec.raw,
-        deviceId,
-        syncedBy: actor.id,
-        receivedAt,
-      });
-      results.push({ kind: "session", id: s.id, status: "accepted" });
     }
 
     // 4. Shots: duplicates, their session, then the authoritative computation.
@@ -335,13 +417,22 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         results.push({ kind: "shot", id: shot.id, status: "rejected", errors: [{ path: "sessionId", message }] });
         continue;
       }
-      const out = computeShotRecord(shot, session, ctx);
-      if (!out.ok) {
-        results.push({ kind: "shot", id: shot.id, status: "rejected", errors: out.errors });
+      let row: typeof shots.$inferInsert;
+      try {
+        const out = computeShotRecord(shot, session, ctx);
+        if (!out.ok) {
+          results.push({ kind: "shot", id: shot.id, status: "rejected", errors: out.errors });
+          continue;
+        }
+        row = shotInsertRow(shot, rec.raw, session, out.columns, { deviceId, syncedBy: actor.id, receivedAt });
+        const bad = unstorableColumn(row);
+        if (bad) throw new Error(`computed column ${bad} is ${String((row as Record<string, unknown>)[bad])}`);
+      } catch (e) {
+        results.push({ kind: "shot", id: shot.id, status: "rejected", errors: internalErrors("shot", shot.id, e) });
         continue;
       }
       seenShots.set(shot.id, rec.raw);
-      shotRows.push(shotInsertRow(shot, rec.raw, session, out.columns, { deviceId, syncedBy: actor.id, receivedAt }));
+      shotRows.push(row);
       results.push({ kind: "shot", id: shot.id, status: "accepted" });
     }
 
@@ -363,7 +454,27 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
       const sessionStmts = insertStatements(checkSessions, sessionRows);
       const shotStmts = insertStatements(shots, shotRows);
       const stmts: Stmt[] = [...sessionStmts, ...shotStmts, { sql: audit.sql, args: audit.params as Stmt["args"] }];
-      const done = await db.$client.batch(stmts, "write");
+      let done: ResultSet[];
+      try {
+        done = await db.$client.batch(stmts, "write");
+      } catch (e) {
+        // Busy, locked or out of reach: retryTransient tries again, then answers 503.
+        if (isTransientDbError(e)) throw e;
+        // Something in one record that the checks above missed: the batch rolled back, so
+        // store what can be stored, a record a transaction, and refuse the rest by name.
+        console.error("sync: the batch write failed; writing its records one at a time", e);
+        const stored = await writeOneAtATime(db, sessionRows, shotRows, results);
+        const after = { accepted: 0, duplicate: 0, rejected: 0 };
+        for (const r of results) after[r.status]++;
+        await db.insert(auditLog).values({
+          actorUserId: actor.id,
+          action: "sync",
+          entity: "device",
+          entityId: deviceId,
+          detail: { sessions: stored.sessions, shots: stored.shots.length, ...after, oneAtATime: true },
+        });
+        return { status: 200, body: { results }, sensorIds: [...new Set(stored.shots.map((r) => r.sensorId))] };
+      }
       const sessionsWritten = writtenIds(done.slice(0, sessionStmts.length));
       const shotsWritten = writtenIds(done.slice(sessionStmts.length, sessionStmts.length + shotStmts.length));
       if (sessionsWritten.size !== sessionRows.length || shotsWritten.size !== shotRows.length) {

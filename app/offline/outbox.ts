@@ -141,7 +141,9 @@ export async function updateSession(id: string, changes: Omit<SyncSessionRecord,
     if (s.state === "synced") {
       throw new OutboxError([{ path: "", message: "This session has reached the server already; synced sessions are never changed." }]);
     }
-    const row: LocalSession = { ...s, record, state: "queued", errors: [] };
+    // a fixed session is a new try: it goes in the batches again, no longer set aside as stuck
+    const { stuck: _stuck, ...kept } = s;
+    const row: LocalSession = { ...kept, record, state: "queued", errors: [] };
     await db.sessions.put(row);
     const shots = await db.shots.where("sessionId").equals(id).toArray();
     for (const shot of shots) {

@@ -4,8 +4,10 @@
 // worker (Background Sync); a Web Lock keeps two contexts from sending at once. Resumable by
 // construction: state lives per record in IndexedDB, and a record sent twice comes back
 // "duplicate" (client-made ids), so an interrupted batch is simply sent again.
+// A batch the server keeps failing on (500 while an empty request still succeeds) is split in
+// halves until the record behind it stands alone; that record is marked stuck and the rest go.
 import { deviceId, fieldDb, getMeta, setMeta } from "./db";
-import type { FieldError, LocalSession, LocalShot, SyncStatus } from "./types";
+import type { FieldError, LocalSession, LocalShot, StuckMark, SyncStatus } from "./types";
 
 export const MAX_BATCH = 500;
 export const STATUS_KEY = "syncStatus";
@@ -25,6 +27,8 @@ export type SyncOutcome = {
   sent: number;
   rejected: number;
   photos: number;
+  /** Records the server failed on alone (kept queued, marked stuck). */
+  stuck: number;
 };
 
 const IDLE: SyncStatus = {
@@ -54,7 +58,7 @@ let runningHere = false;
 
 /** Runs one sync unless another tab or the worker is already sending. */
 export async function syncOutbox(opts: SyncOptions = {}): Promise<SyncOutcome> {
-  const busy: SyncOutcome = { ok: false, reason: "busy", sent: 0, rejected: 0, photos: 0 };
+  const busy: SyncOutcome = { ok: false, reason: "busy", sent: 0, rejected: 0, photos: 0, stuck: 0 };
   const locks = (globalThis.navigator as Navigator | undefined)?.locks;
   if (locks?.request) {
     return locks.request("shotbook-sync", { ifAvailable: true }, async (lock) => (lock ? run(opts) : busy));
@@ -69,7 +73,21 @@ export async function syncOutbox(opts: SyncOptions = {}): Promise<SyncOutcome> {
 }
 
 type Item = { kind: "session"; row: LocalSession } | { kind: "shot"; row: LocalShot };
-type Attempt = { kind: "ok"; res: Response } | { kind: "stop"; outcome: SyncOutcome["reason"]; message: string };
+type Attempt =
+  | { kind: "ok"; res: Response }
+  /** The server was reached and failed (500): maybe this batch's content, maybe the server. */
+  | { kind: "failing"; res: Response; message: string }
+  | { kind: "stop"; outcome: SyncOutcome["reason"]; message: string };
+
+/**
+ * Statuses that may come from one record the server cannot handle. 502, 503 and 504 come from
+ * a proxy, a restart or our own "another sync at the same moment": the server, not the batch.
+ */
+function mayBeContent(status: number) {
+  return status >= 500 && status !== 502 && status !== 503 && status !== 504;
+}
+/** Tries a batch that may be poisoned gets before it is probed and split (one retry for a blip). */
+const CONTENT_ATTEMPTS = 2;
 
 const defaultSleep = (ms: number) => new Promise<void>((r) => setTimeout(r, ms));
 
@@ -86,9 +104,18 @@ export function retryAfterMs(res: Response, now = Date.now()): number | null {
   return Number.isFinite(ms) ? Math.min(Math.max(ms, 0), 300_000) : null;
 }
 
-/** One request with retries: network errors, 5xx, 408 and 429 back off and try again. */
-async function send(make: () => Promise<Response>, o: Required<Pick<SyncOptions, "maxAttempts" | "baseDelayMs" | "sleep">>): Promise<Attempt> {
+/**
+ * One request with retries: network errors, 5xx, 408 and 429 back off and try again. With
+ * `isolate`, a status that may be the batch's own content (500) comes back as "failing" after
+ * CONTENT_ATTEMPTS tries, for the caller to find the record behind it.
+ */
+async function send(
+  make: () => Promise<Response>,
+  o: Required<Pick<SyncOptions, "maxAttempts" | "baseDelayMs" | "sleep">>,
+  isolate = false,
+): Promise<Attempt> {
   let lastMessage = "";
+  let contentFailures = 0;
   let asked: number | null = null; // the wait the server asked for, if it did
   for (let attempt = 0; attempt < o.maxAttempts; attempt++) {
     if (attempt > 0) {
@@ -103,6 +130,9 @@ async function send(make: () => Promise<Response>, o: Required<Pick<SyncOptions,
       if (res.status >= 500 || res.status === 408 || res.status === 429) {
         asked = retryAfterMs(res);
         lastMessage = `The server answered ${res.status}; trying again.`;
+        if (isolate && mayBeContent(res.status) && ++contentFailures >= Math.min(CONTENT_ATTEMPTS, o.maxAttempts)) {
+          return { kind: "failing", res, message: await errorText(res) };
+        }
         continue;
       }
       return { kind: "ok", res };
@@ -133,15 +163,24 @@ async function run(opts: SyncOptions): Promise<SyncOutcome> {
   const fetchImpl = opts.fetchImpl ?? ((input: RequestInfo | URL, init?: RequestInit) => fetch(input, init));
   const o = { maxAttempts: opts.maxAttempts ?? 5, baseDelayMs: opts.baseDelayMs ?? 1000, sleep: opts.sleep ?? defaultSleep };
   const size = Math.max(1, Math.min(opts.batchSize ?? MAX_BATCH, MAX_BATCH));
-  const outcome: SyncOutcome = { ok: true, sent: 0, rejected: 0, photos: 0 };
+  const outcome: SyncOutcome = { ok: true, sent: 0, rejected: 0, photos: 0, stuck: 0 };
 
   const sessions = await db.sessions.where("state").equals("queued").sortBy("queuedAt");
   const blocked = new Set(await db.sessions.where("state").equals("rejected").primaryKeys());
-  // A shot of a rejected session waits for its session to be fixed rather than fail for it.
+  // A shot of a rejected or stuck session waits for its session rather than fail for it.
+  for (const s of sessions) if (s.stuck) blocked.add(s.id);
   const shots = (await db.shots.where("state").equals("queued").sortBy("queuedAt")).filter((s) => !blocked.has(s.sessionId));
   const photoCount = await db.photos.where("state").equals("queued").count();
-  const items: Item[] = [...sessions.map((row) => ({ kind: "session" as const, row })), ...shots.map((row) => ({ kind: "shot" as const, row }))];
-  const total = items.length + photoCount;
+  const fresh: Item[] = [
+    ...sessions.filter((row) => !row.stuck).map((row) => ({ kind: "session" as const, row })),
+    ...shots.filter((row) => !row.stuck).map((row) => ({ kind: "shot" as const, row })),
+  ];
+  // Records the server failed on before go last, each on its own: they never hold the rest back.
+  const stuckItems: Item[] = [
+    ...sessions.filter((row) => row.stuck).map((row) => ({ kind: "session" as const, row })),
+    ...shots.filter((row) => row.stuck).map((row) => ({ kind: "shot" as const, row })),
+  ];
+  const total = fresh.length + stuckItems.length + photoCount;
   if (total === 0) {
     await patchStatus({ running: false, phase: "idle", done: 0, total: 0, needsSignIn: false, lastError: null, nextRetryAt: null });
     return outcome;
@@ -154,20 +193,66 @@ async function run(opts: SyncOptions): Promise<SyncOutcome> {
     await patchStatus({ running: false, phase: "idle", needsSignIn: reason === "auth", lastError: message });
     return { ...outcome, ok: false, reason };
   };
+  const post = (batch: Item[]) =>
+    fetchImpl("/api/sync", {
+      method: "POST",
+      headers: { "Content-Type": "application/json", Accept: "application/json" },
+      body: JSON.stringify({
+        deviceId: device,
+        sessions: batch.filter((i) => i.kind === "session").map((i) => i.row.record),
+        shots: batch.filter((i) => i.kind === "shot").map((i) => i.row.record),
+      }),
+      credentials: "same-origin",
+    });
+  /** Does the server handle a request at all? An empty sync writes nothing and answers 200. */
+  const serverWorks = async () => {
+    try {
+      return (await post([])).ok;
+    } catch {
+      return false;
+    }
+  };
 
-  const work = chunk(items, size);
+  const work = [...chunk(fresh, size), ...stuckItems.map((i) => [i])];
+  const stuckIds = new Set(stuckItems.map((i) => i.row.id));
   while (work.length) {
     const batch = work.shift()!;
-    const body = JSON.stringify({
-      deviceId: device,
-      sessions: batch.filter((i) => i.kind === "session").map((i) => i.row.record),
-      shots: batch.filter((i) => i.kind === "shot").map((i) => i.row.record),
-    });
-    const a = await send(
-      () => fetchImpl("/api/sync", { method: "POST", headers: { "Content-Type": "application/json", Accept: "application/json" }, body, credentials: "same-origin" }),
-      o,
-    );
-    if (a.kind === "stop") return stop(a.outcome, a.message);
+    // a record that failed before gets one try a run: it is stuck until the server takes it
+    const retrying = batch.length === 1 && stuckIds.has(batch[0]!.row.id);
+    const a = await send(() => post(batch), retrying ? { ...o, maxAttempts: 1 } : o, true);
+    if (a.kind === "stop") {
+      if (retrying && a.outcome === "server") {
+        done += 1;
+        continue;
+      }
+      return stop(a.outcome, a.message);
+    }
+    if (a.kind === "failing") {
+      if (!retrying && !(await serverWorks())) {
+        const said = a.message.startsWith("The server answered") ? a.message : `The server answered ${a.res.status}: ${a.message}`;
+        return stop("server", `${said.replace(/\.?$/, ".")} Everything stays queued; trying again later.`);
+      }
+      if (batch.length > 1) {
+        const half = Math.ceil(batch.length / 2);
+        work.unshift(batch.slice(0, half), batch.slice(half));
+        continue;
+      }
+      const item = batch[0]!;
+      await markStuck(item, { message: a.message, status: a.res.status, at: new Date().toISOString() });
+      outcome.stuck += 1;
+      done += 1;
+      if (item.kind === "session") {
+        // its shots would only be refused as "session unknown": they wait for it
+        for (let b = 0; b < work.length; b++) {
+          const keep = work[b]!.filter((i) => !(i.kind === "shot" && i.row.sessionId === item.row.id));
+          done += work[b]!.length - keep.length;
+          work[b] = keep;
+        }
+        for (let b = work.length - 1; b >= 0; b--) if (!work[b]!.length) work.splice(b, 1);
+      }
+      await patchStatus({ done });
+      continue;
+    }
     const res = a.res;
     if (res.status === 413 && batch.length > 1) {
       const half = Math.ceil(batch.length / 2);
@@ -224,12 +309,19 @@ async function run(opts: SyncOptions): Promise<SyncOutcome> {
   return outcome;
 }
 
+async function markStuck(item: Item, stuck: StuckMark) {
+  const db = fieldDb();
+  const table = item.kind === "session" ? db.sessions : db.shots;
+  // still queued: nothing is lost, and a fix or the next run sends it again
+  await table.update(item.row.id, { stuck });
+}
+
 async function markAll(batch: Item[], errors: FieldError[]) {
   const db = fieldDb();
   await db.transaction("rw", db.sessions, db.shots, async () => {
     for (const i of batch) {
       const table = i.kind === "session" ? db.sessions : db.shots;
-      await table.update(i.row.id, { state: "rejected", errors });
+      await table.update(i.row.id, { state: "rejected", errors, stuck: undefined });
     }
   });
 }
@@ -244,11 +336,20 @@ async function applyResults(results: { kind: string; id: string; status: string;
       const table = r.kind === "session" ? db.sessions : r.kind === "shot" ? db.shots : null;
       if (!table) continue;
       if (r.status === "accepted" || r.status === "duplicate") {
-        await table.update(r.id, { state: "synced", result: r.status, syncedAt: now, errors: [] });
+        await table.update(r.id, { state: "synced", result: r.status, syncedAt: now, errors: [], stuck: undefined });
         synced++;
+        // a session the server took at last: its shots refused only for its sake go again
+        if (r.kind === "session") {
+          await db.shots.where("[sessionId+state]").equals([r.id, "rejected"]).modify((s) => {
+            if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
+              s.state = "queued";
+              s.errors = [];
+            }
+          });
+        }
       } else if (r.status === "rejected") {
         const errors = Array.isArray(r.errors) && r.errors.length ? r.errors : [{ path: "", message: "The server refused this record." }];
-        await table.update(r.id, { state: "rejected", errors });
+        await table.update(r.id, { state: "rejected", errors, stuck: undefined });
         rejected++;
       }
     }

@@ -48,6 +48,13 @@ export type FieldError = { path: string; message: string };
 /** queued: waits to be sent; synced: the server accepted it (or already had it); rejected: the server said why. */
 export type RecordState = "queued" | "synced" | "rejected";
 
+/**
+ * A queued record the server fails on (5xx while it answers other records): found by splitting
+ * its batch until it stood alone. It stays queued and is sent on its own at the end of each run,
+ * so it never holds back the rest; the crew sees the server's message and may fix or discard it.
+ */
+export type StuckMark = { message: string; status: number; at: string };
+
 export type ShotPreview = {
   referenceM: number;
   rangeM: number;
@@ -66,6 +73,7 @@ export type LocalSession = {
   queuedAt: number;
   syncedAt?: string;
   result?: "accepted" | "duplicate";
+  stuck?: StuckMark;
   /** Local only: the sky the crew picked and the illuminance it stands for (klux), the default of each shot. */
   sky?: string;
   illuminanceKlux?: number;
@@ -83,6 +91,7 @@ export type LocalShot = {
   preview: ShotPreview | null;
   /** The domain's message when the instant preview could not be computed. */
   previewError?: string;
+  stuck?: StuckMark;
 };
 
 export type LocalPhoto = {

@@ -13,7 +13,8 @@ import { useLiveQuery } from "~/offline/live";
 import { discardShot, resendPhoto, resendSession } from "~/offline/outbox";
 import { readReference } from "~/offline/reference";
 import { formatBytes, requestPersistence, storageInfo, type StorageInfo } from "~/offline/storage";
-import type { FieldError } from "~/offline/types";
+import type { FieldError, LocalSession } from "~/offline/types";
+import { StuckRecords } from "~/components/outbox/stuck-records";
 
 export const meta: Route.MetaFunction = () => [{ title: "Outbox — Shotbook field" }];
 
@@ -27,12 +28,17 @@ async function outboxData() {
     db.photos.where("state").anyOf("queued", "rejected").sortBy("queuedAt"),
     readReference(),
   ]);
+  // a stuck shot is named by its session's sensor and site, and that session may be synced
+  const stuckSessionIds = [...new Set(shots.filter((s) => s.stuck).map((s) => s.sessionId))];
+  const stuckSessions = stuckSessionIds.length ? await db.sessions.bulkGet(stuckSessionIds) : [];
   return {
     sessions,
     shots,
     photos: photos.map(({ blob: _blob, ...p }) => p),
     sensorLabel: Object.fromEntries(reference.sensors.map((s) => [s.id, s.label])),
     siteName: Object.fromEntries(reference.sites.map((s) => [s.id, s.name])),
+    sessionOf: Object.fromEntries(stuckSessionIds.map((id, i) => [id, stuckSessions[i]])) as Record<string, LocalSession | undefined>,
+    targetLabel: Object.fromEntries(reference.sites.flatMap((s) => s.targets.map((t) => [t.id, t.label]))),
   };
 }
 
@@ -69,9 +75,11 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
   }, [data.shots.length, data.photos.length]);
 
   const rejectedShots = data.shots.filter((s) => s.state === "rejected");
-  const queuedShots = data.shots.filter((s) => s.state === "queued");
+  const queuedShots = data.shots.filter((s) => s.state === "queued" && !s.stuck);
   const rejectedSessions = data.sessions.filter((s) => s.state === "rejected");
-  const queuedSessions = data.sessions.filter((s) => s.state === "queued");
+  const queuedSessions = data.sessions.filter((s) => s.state === "queued" && !s.stuck);
+  const stuckShots = data.shots.filter((s) => s.state === "queued" && s.stuck);
+  const stuckSessions = data.sessions.filter((s) => s.state === "queued" && s.stuck);
   const rejectedPhotos = data.photos.filter((p) => p.state === "rejected");
   const queuedPhotos = data.photos.filter((p) => p.state === "queued");
   const nothing = data.sessions.length + data.shots.length + data.photos.length === 0;
@@ -169,6 +177,17 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
           </ul>
         </section>
       ) : null}
+
+      <StuckRecords
+        sessions={stuckSessions}
+        shots={stuckShots}
+        sessionOf={data.sessionOf}
+        sensorLabel={data.sensorLabel}
+        siteName={data.siteName}
+        targetLabel={data.targetLabel}
+        onRetry={() => void syncNow()}
+        onDiscard={(id) => void discardShot(id)}
+      />
 
       {queuedSessions.length + queuedShots.length + queuedPhotos.length > 0 ? (
         <section className="space-y-3" aria-labelledby="waiting-title">

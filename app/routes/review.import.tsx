@@ -5,8 +5,7 @@ import type { Route } from "./+types/review.import";
 import { FIELD } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
 import { importContext } from "~/models/imports.server";
-import { guessMapping, IMPORT_FIELDS, mapRow, type ImportField, type ImportMapping, type MappedRow } from "~/components/review/import-rows";
-import { computeShot, DEFAULT_RULE, type SensorSpec } from "~/domain";
+import { classifyRow, guessMapping, IMPORT_FIELDS, mapRow, type ImportField, type ImportMapping } from "~/components/review/import-rows";
 import { num, signed } from "~/components/review/format";
 
 export const meta: Route.MetaFunction = () => [{ title: "Import a sensor's CSV · Shotbook" }];
@@ -37,15 +36,6 @@ function optionalNumber(v: string) {
   return Number.isFinite(n) ? n : Number.NaN;
 }
 
-function previewError(m: MappedRow, spec: SensorSpec | undefined, air: { airTempC: number | null; pressureHpa: number | null; humidityPct: number | null }) {
-  if (!m.ok || !spec) return null;
-  try {
-    return computeShot({ sensor: spec, air, reference: m.shot.reference, readings: m.shot.readings, rule: DEFAULT_RULE });
-  } catch {
-    return null;
-  }
-}
-
 export default function ImportPage({ loaderData }: Route.ComponentProps) {
   const { sensors, sites, mappings, projects } = loaderData;
   const [sensorId, setSensorId] = useState("");
@@ -70,9 +60,26 @@ export default function ImportPage({ loaderData }: Route.ComponentProps) {
   const airNums = { airTempC: optionalNumber(air.airTempC), pressureHpa: optionalNumber(air.pressureHpa), humidityPct: optionalNumber(air.humidityPct) };
   const airOk = Object.values(airNums).every((v) => v == null || Number.isFinite(v));
 
-  const mapped = useMemo(() => rows.map((r) => ({ ...r, m: mapRow(r.values, mapping, site?.targets ?? []) })), [rows, mapping, site]);
-  const valid = mapped.filter((r) => r.m.ok);
-  const invalid = mapped.filter((r) => !r.m.ok);
+  const [confirmed, setConfirmed] = useState<ReadonlySet<number>>(new Set());
+  const airKey = airOk ? JSON.stringify(airNums) : "";
+  // each row judged as the server will (ranging.md §9 bounds), plus the "mm typed as m?" flag
+  const mapped = useMemo(() => {
+    const airIn = airOk ? airNums : {};
+    return rows.map((r) => {
+      const m = mapRow(r.values, mapping, site?.targets ?? []);
+      return { ...r, m, c: classifyRow(m, sensor?.spec, airIn) };
+    });
+  }, [rows, mapping, site, sensor, airKey]);
+  const implausible = mapped.filter((r) => r.c.kind === "implausible");
+  const valid = mapped.filter((r) => r.m.ok && (r.c.kind === "ready" || (r.c.kind === "implausible" && confirmed.has(r.row))));
+  const invalid = mapped.filter((r) => r.c.kind === "error");
+  const unconfirmed = implausible.filter((r) => !confirmed.has(r.row));
+  const toggleConfirm = (row: number, on: boolean) => {
+    const next = new Set(confirmed);
+    if (on) next.add(row);
+    else next.delete(row);
+    setConfirmed(next);
+  };
 
   function chooseSensor(id: string) {
     setSensorId(id);
@@ -261,7 +268,13 @@ export default function ImportPage({ loaderData }: Route.ComponentProps) {
           <section className="space-y-3" aria-labelledby="h-preview">
             <h2 id="h-preview" className="text-2xl font-bold">Preview</h2>
             <p className="text-lg" data-testid="import-counts">
-              <strong>{valid.length}</strong> valid rows, <strong className={invalid.length ? "text-fail" : ""}>{invalid.length}</strong> with errors.
+              <strong>{valid.length}</strong> valid rows, <strong className={invalid.length ? "text-fail" : ""}>{invalid.length}</strong> with errors
+              {unconfirmed.length ? (
+                <>
+                  , <strong className="text-warn">{unconfirmed.length}</strong> implausible (mm typed as m?) awaiting your check
+                </>
+              ) : null}
+              .
             </p>
             {parseErrors.length ? <ul className="text-warn">{parseErrors.map((e) => <li key={e}>⚠ {e}</li>)}</ul> : null}
             <div className="overflow-x-auto">
@@ -280,28 +293,63 @@ export default function ImportPage({ loaderData }: Route.ComponentProps) {
                 </thead>
                 <tbody>
                   {mapped.slice(0, PREVIEW).map((r) => {
-                    const c = previewError(r.m, sensor?.spec, airNums);
+                    const c = r.c.kind === "error" ? null : r.c;
                     return (
                       <tr key={r.row} className="border-b border-line" data-row={r.row} data-ok={r.m.ok}>
                         <td className="py-1 pr-2">{r.row}</td>
                         <td className="py-1 pr-2 whitespace-nowrap">{r.m.ok ? r.m.shot.takenAt : r.values[mapping.takenAt ?? ""] ?? "—"}</td>
                         <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.reference.distanceM, 3) : "—"}</td>
                         <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.readings.rangesM[0], 3) : "—"}</td>
-                        <td className="py-1 pr-2 text-right">{c ? signed(c.errorMm, 2) : "—"}</td>
+                        <td className="py-1 pr-2 text-right">{c && c.errorMm != null ? signed(c.errorMm, 2) : "—"}</td>
                         <td className="py-1 pr-2 text-right">{r.m.ok ? num(r.m.shot.reflectancePct, 0) : "—"}</td>
-                        <td className="py-1">{r.m.ok ? <span className="text-pass">✓ ready</span> : <span className="font-bold text-fail">✗ {r.m.errors.map((e) => e.message).join("; ")}</span>}</td>
+                        <td className="py-1" data-testid="row-problem">
+                          {r.c.kind === "error" ? (
+                            <span className="font-bold text-fail">✗ {r.c.errors.map((e) => e.message).join("; ")}</span>
+                          ) : r.c.kind === "implausible" ? (
+                            <span className="font-bold text-warn">⚠ {r.c.message}{confirmed.has(r.row) ? " (confirmed)" : ""}</span>
+                          ) : (
+                            <span className="text-pass">✓ ready</span>
+                          )}
+                        </td>
                       </tr>
                     );
                   })}
                 </tbody>
               </table>
             </div>
+            {implausible.length ? (
+              <details open className="card space-y-2 border-warn" data-testid="import-implausible">
+                <summary className="min-h-11 cursor-pointer font-bold text-warn">
+                  ⚠ {implausible.length} {implausible.length === 1 ? "row looks" : "rows look"} implausible — mm typed as m?
+                </summary>
+                <p className="mt-2">
+                  The range error is over a metre at a reference above 1 m: usually a millimetre column mapped as metres. Fix the unit above, or tick the rows that are
+                  right to import them anyway.
+                </p>
+                <p>
+                  <button type="button" className="btn-secondary" onClick={() => setConfirmed(new Set([...confirmed, ...implausible.map((r) => r.row)]))}>
+                    {implausible.length === 1 ? "Import it anyway" : `Import all ${implausible.length} anyway`}
+                  </button>
+                </p>
+                <ul className="space-y-1 num">
+                  {implausible.slice(0, 500).map((r) => (
+                    <li key={r.row}>
+                      <label className="inline-flex min-h-11 items-center gap-2">
+                        <input type="checkbox" checked={confirmed.has(r.row)} onChange={(e) => toggleConfirm(r.row, e.target.checked)} />
+                        Row {r.row}: {r.m.ok ? `range ${num(r.m.shot.readings.rangesM[0], 3)} m against ${num(r.m.shot.reference.distanceM, 3)} m` : ""}
+                        {r.c.kind === "implausible" ? `, error ${signed(r.c.errorMm, 0)} mm` : ""} — import anyway
+                      </label>
+                    </li>
+                  ))}
+                </ul>
+              </details>
+            ) : null}
             {invalid.length ? (
               <details open={invalid.length <= 20} className="card">
                 <summary className="min-h-11 cursor-pointer font-bold">All {invalid.length} rows with errors (they will not be imported)</summary>
                 <ul className="mt-2 space-y-1" data-testid="import-row-errors">
                   {invalid.slice(0, 500).map((r) => (
-                    <li key={r.row}>Row {r.row}: {!r.m.ok ? r.m.errors.map((e) => e.message).join("; ") : ""}</li>
+                    <li key={r.row}>Row {r.row}: {r.c.kind === "error" ? r.c.errors.map((e) => e.message).join("; ") : ""}</li>
                   ))}
                 </ul>
               </details>

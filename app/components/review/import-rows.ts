@@ -1,5 +1,6 @@
 // Rows of a sensor's own CSV export → check-shots of the sync contract (api.md). Pure and
 // shared: the browser uses it for the preview's per-row errors, the server again on import.
+import { computeShot, DEFAULT_RULE, DomainError, distanceBoundsMessage, isImplausible, MAX_DISTANCE_M, type AirInput, type SensorSpec } from "~/domain";
 export const IMPORT_FIELDS = [
   { key: "takenAt", label: "Time of the shot", required: true, hint: "ISO 8601, or “YYYY-MM-DD HH:MM[:SS]” in the offset below" },
   { key: "rangeM", label: "Sensor range", required: true, hint: "the range the sensor reported" },
@@ -103,8 +104,11 @@ export function mapRow(raw: Record<string, string | undefined>, mapping: ImportM
 
   const range = number("rangeM", "Sensor range", (v) => (v > 0 ? null : "must be above 0"));
   if (range == null && !errors.some((e) => e.field === "rangeM")) errors.push({ field: "rangeM", message: "Sensor range is missing" });
+  // ranging.md §9, in the words POST /api/sync uses for readings.rangesM / reference.distanceM
+  if (range != null && toMetres(range, mapping._rangeUnit) > MAX_DISTANCE_M) errors.push({ field: "rangeM", message: distanceBoundsMessage("range") });
 
   const distance = number("distanceM", "Reference distance", (v) => (v > 0 ? null : "must be above 0"));
+  if (distance != null && toMetres(distance, mapping._distanceUnit) > MAX_DISTANCE_M) errors.push({ field: "distanceM", message: distanceBoundsMessage("reference distance") });
   let distanceM = distance == null ? null : toMetres(distance, mapping._distanceUnit);
   if (distanceM == null && !unknownTarget && !errors.some((e) => e.field === "distanceM")) {
     if (target?.referenceM != null) distanceM = target.referenceM;
@@ -142,6 +146,46 @@ export function mapRow(raw: Record<string, string | undefined>, mapping: ImportM
       ...(note ? { note } : {}),
     },
   };
+}
+
+/** What the preview shows for a row, and whether it goes with "Import". */
+export type RowClass =
+  | { kind: "error"; errors: RowError[] }
+  /** Accepted by the server, but a unit slip is likely: imported only once the user confirms. */
+  | { kind: "implausible"; errorMm: number; message: string }
+  | { kind: "ready"; errorMm: number | null };
+
+export const IMPLAUSIBLE_MESSAGE = "implausible — mm typed as m?";
+
+/** A ranging-core path of a mapped row → the import field it came from. */
+function importFieldOf(path: string): string {
+  if (path.startsWith("readings.")) return "rangeM";
+  if (path.startsWith("reference.")) return "distanceM";
+  return path;
+}
+
+/**
+ * A mapped row judged as the server would: the ranging core's own checks (a reading beyond the
+ * physics bounds is an error with the server's message) and the "mm typed as m?" flag of
+ * ranging.md §9 (|error| > 1000 mm with a reference above 1 m). Without a sensor the error is
+ * the plain difference of range and reference, enough to see a unit slip.
+ */
+export function classifyRow(m: MappedRow, sensor?: SensorSpec | null, air: AirInput = {}): RowClass {
+  if (!m.ok) return { kind: "error", errors: m.errors };
+  const referenceM = m.shot.reference.distanceM;
+  let errorMm: number;
+  if (sensor) {
+    try {
+      errorMm = computeShot({ sensor, air, reference: m.shot.reference, readings: m.shot.readings, rule: DEFAULT_RULE }).errorMm;
+    } catch (e) {
+      if (!(e instanceof DomainError)) throw e;
+      return { kind: "error", errors: [{ field: importFieldOf(e.path), message: e.message }] };
+    }
+  } else {
+    errorMm = (m.shot.readings.rangesM[0]! - referenceM) * 1000;
+  }
+  if (isImplausible(errorMm, referenceM)) return { kind: "implausible", errorMm, message: IMPLAUSIBLE_MESSAGE };
+  return { kind: "ready", errorMm };
 }
 
 /** A column whose header looks like the field, for a first guess when no mapping is saved. */
