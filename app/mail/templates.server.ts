@@ -91,9 +91,11 @@ ${button(url, "Open Shotbook")}`,
       const url = link(vars.reportUrl, vars.sensorId ? `/review/sensors/${str(vars.sensorId)}` : "/review");
       const summary = str(vars.summary);
       const subject = `Sensor failed its range check: ${label}`;
+      const statement = str(vars.statement);
       const figures = `Bias ${mm(vars.biasMm)}, RMSE ${mm(vars.rmseMm)}${typeof vars.withinPct === "number" ? `, within tolerance ${vars.withinPct.toFixed(1)} %` : ""}.`;
       const text = [
         `${label} did not pass its range check (verdict: FAIL).`,
+        ...(statement ? [statement] : []),
         figures,
         summary ? `\n${summary}\n` : ``,
         `See why in the sensor report: ${url}`,
@@ -101,7 +103,7 @@ ${button(url, "Open Shotbook")}`,
       const html = page(
         `Sensor failed: ${label}`,
         `<p><strong>${escapeHtml(label)}</strong> did not pass its range check — verdict: <strong>✗ FAIL</strong>.</p>
-<p>${escapeHtml(figures)}</p>${summary ? `<p>${escapeHtml(summary)}</p>` : ""}
+${statement ? `<p><strong>${escapeHtml(statement)}</strong></p>` : ""}<p>${escapeHtml(figures)}</p>${summary ? `<p>${escapeHtml(summary)}</p>` : ""}
 ${button(url, "Open the sensor report")}`,
       );
       return { subject, text, html };
@@ -111,11 +113,15 @@ ${button(url, "Open the sensor report")}`,
       const decision = str(vars.decision, "approved");
       const by = str(vars.byName, "QA");
       const note = str(vars.note);
+      const statement = str(vars.statement);
+      const expired = str(vars.expired);
       const url = link(vars.reportUrl, vars.sensorId ? `/review/sensors/${str(vars.sensorId)}` : "/review");
       const word = decision === "rejected" ? "pulled from the job (rejected)" : "signed off (approved)";
       const subject = `Sensor ${decision === "rejected" ? "rejected" : "signed off"}: ${label}`;
       const text = [
         `${by} has ${word} ${label}.`,
+        statement ? statement : ``,
+        expired ? `Traceability: ${expired}.` : ``,
         note ? `Note: ${note}` : ``,
         ``,
         `Report: ${url}`,
@@ -123,6 +129,7 @@ ${button(url, "Open the sensor report")}`,
       const html = page(
         subject,
         `<p>${escapeHtml(by)} has ${escapeHtml(word)} <strong>${escapeHtml(label)}</strong>.</p>
+${statement ? `<p><strong>${escapeHtml(statement)}</strong></p>` : ""}${expired ? `<p>Traceability: ${escapeHtml(expired)}.</p>` : ""}
 ${note ? `<p>Note: ${escapeHtml(note)}</p>` : ""}${button(url, "Open the report")}`,
       );
       return { subject, text, html };

@@ -129,6 +129,7 @@ function handOver(db: Db, rows: (typeof shots.$inferInsert)[], results: ResultSe
           excluded: !!r.excluded,
           wrap: !!r.wrap,
           airDefaulted: !!r.airDefaulted,
+          referenceUncertaintyMm: r.referenceUncertaintyMm == null ? null : r.referenceUncertaintyMm + 0,
         },
       });
       bySensor.set(r.sensorId, list);
