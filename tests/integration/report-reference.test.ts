@@ -210,3 +210,23 @@ test("POST /api/edms answers the registry's 201/200/400/409", async () => {
   expect((await post(body, viewer)).status).toBe(403);
   expect((await call(edmAction, apiRequest("/api/edms", { json: body }))).status).toBe(401);
 });
+
+test("a certificate or EDM edit shows in the next report (the report cache's fingerprint covers them)", async () => {
+  const { updateTape } = await import("~/models/tapes.server");
+  const { updateEdm } = await import("~/models/edms.server");
+  const before = (await report(`?session=${A}`)).json;
+  expect(before.traceability.find((t: { kind: string }) => t.kind === "tape").due).toBe("2026-05-04");
+  const tapeBody = {
+    label: "Steel tape 30 m", standardTempC: 20, standardTensionN: 50, areaMm2: 2.6, modulusGPa: 200, weightNPerM: 0.2, calibrationPpm: 0,
+    uncertaintyMm: 0.5, uncertaintyPpm: 20, certificate: { number: "T-78", laboratory: "Tape lab", issued: "2026-04-01", due: "2026-04-30" },
+  };
+  expect((await updateTape({ id: admin.id }, tapeId, tapeBody)).status).toBe(200);
+  const after = (await report(`?session=${A}`)).json;
+  const tape = after.traceability.find((t: { kind: string }) => t.kind === "tape");
+  expect(tape).toMatchObject({ number: "T-78", due: "2026-04-30", expiredOnSessions: [A] });
+  // the named EDM's uncertainty: 4 + 0 × 50 → u = 4 mm on that shot; the sum changes accordingly
+  const e = await updateEdm({ id: admin.id }, edmId, { label: "Total station TS-2", serial: "TS2-4471", uncertaintyMm: 4, uncertaintyPpm: 0, certificate: { number: "E-12", laboratory: "Survey lab", issued: "2026-01-05", due: "2027-01-05" } });
+  expect(e.status).toBe(200);
+  const again = (await report(`?session=${A}`)).json;
+  expect(again.referenceRmseMm).toBeCloseTo(Math.sqrt((0.09 + 25 + 16 + 4.3264) / 4), 9);
+});
