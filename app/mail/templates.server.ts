@@ -3,7 +3,7 @@
 // values fall back to plain words instead of "undefined".
 import { getEnv } from "~/env.server";
 
-export const TEMPLATES = ["sign-in-code", "invitation", "sensor-failed", "sensor-signed-off"] as const;
+export const TEMPLATES = ["sign-in-code", "invitation", "sensor-failed", "sensor-signed-off", "certificate-due"] as const;
 export type MailTemplate = (typeof TEMPLATES)[number];
 
 export type RenderedMail = { subject: string; text: string; html: string };
@@ -131,6 +131,31 @@ ${button(url, "Open the sensor report")}`,
         `<p>${escapeHtml(by)} has ${escapeHtml(word)} <strong>${escapeHtml(label)}</strong>.</p>
 ${statement ? `<p><strong>${escapeHtml(statement)}</strong></p>` : ""}${expired ? `<p>Traceability: ${escapeHtml(expired)}.</p>` : ""}
 ${note ? `<p>Note: ${escapeHtml(note)}</p>` : ""}${button(url, "Open the report")}`,
+      );
+      return { subject, text, html };
+    }
+    case "certificate-due": {
+      // issue 15: 30 days before a calibration certificate falls due (ranging.md §7)
+      const kind = str(vars.kind) === "tape" ? "Tape" : str(vars.kind) === "edm" ? "Reference EDM" : "Sensor";
+      const label = str(vars.label, "An instrument");
+      const number = str(vars.number, "—");
+      const lab = str(vars.laboratory);
+      const due = str(vars.due, "soon");
+      const days = typeof vars.days === "number" ? vars.days : null;
+      const url = link(vars.registryUrl, "/admin");
+      const when = days == null ? `on ${due}` : days < 0 ? `on ${due} (${-days} days ago)` : days === 0 ? `today (${due})` : `on ${due}, in ${days} days`;
+      const subject = `Calibration certificate falls due: ${kind === "Reference EDM" ? "reference EDM" : kind.toLowerCase()} ${label}`;
+      const text = [
+        `${kind} ${label}: calibration certificate ${number}${lab ? ` (${lab})` : ""} falls due ${when}.`,
+        `Sessions after that date are flagged as not traceable on the tablet and in the reports.`,
+        ``,
+        `Update the certificate in the registry: ${url}`,
+      ].join("\n");
+      const html = page(
+        subject,
+        `<p><strong>${escapeHtml(kind)} ${escapeHtml(label)}</strong>: calibration certificate ${escapeHtml(number)}${lab ? ` (${escapeHtml(lab)})` : ""} falls due ${escapeHtml(when)}.</p>
+<p>Sessions after that date are flagged as not traceable on the tablet and in the reports.</p>
+${button(url, "Open the registry")}`,
       );
       return { subject, text, html };
     }
