@@ -5,15 +5,6 @@ import type { Route } from "./+types/api.edms";
 import { requireApiUser } from "~/auth/guards.server";
 import { ADMIN } from "~/auth/access";
 import { createEdm } from "~/models/edms.server";
-import { ensureCertificateTimer } from "~/models/certificates.server";
-
-// The server bundle loads every route module at boot: the certificate due-date check starts
-// with the server (and runs every few hours after).
-try {
-  ensureCertificateTimer();
-} catch {
-  // An invalid environment is reported by the first getEnv() caller that needs it.
-}
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireApiUser(request, ADMIN);

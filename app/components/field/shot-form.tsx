@@ -390,7 +390,7 @@ export function ShotForm({
         ) : null}
         <NumberField
           id="f-ref-u"
-          label="Reference uncertainty (mm, optional)"
+          label="Reference uncertainty (mm)"
           unit="mm"
           value={f.refUncertaintyMm}
           onChange={(v) => set("refUncertaintyMm", v)}
