@@ -22,7 +22,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export default function SensorHistory({ loaderData }: Route.ComponentProps) {
   const { sensor, months, sessions, signOffs, certificateEvents, exclusions } = loaderData;
-  const drift = sessions.map((s) => ({ sessionId: s.sessionId, startedAt: s.startedAt, n: s.n, biasMm: s.biasMm, flag: s.certificatePastDue }));
+  // the chart's triangles mean drift against a sign-off; sessions past a certificate's due date are marked in the table below
+  const drift = sessions.map((s) => ({ sessionId: s.sessionId, startedAt: s.startedAt, n: s.n, biasMm: s.biasMm, flag: false }));
   return (
     <div className="space-y-6" data-testid="sensor-history">
       <p>
@@ -52,7 +53,6 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
         ) : (
           <p className="text-muted">No included shots in this period.</p>
         )}
-        <p className="text-sm text-muted">Sessions run with the sensor's certificate past due are drawn as triangles.</p>
       </section>
 
       <section aria-labelledby="h-sessions" className="space-y-2">

@@ -113,7 +113,7 @@ export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
     toleranceMm: 3,
     tolerancePpm: 10,
     outdoor: true,
-    calibrationDue: "2027-06-30",
+    calibrationDue: "2026-05-05",
     laserClass: "1M",
     // past due on its 6 May session: the demo shows the traceability flag
     certificate: { number: "EML-S-2025-0412", laboratory: "Eastbank Metrology Lab (invented)", issued: "2025-05-05", due: "2026-05-05" },

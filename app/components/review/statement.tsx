@@ -80,10 +80,10 @@ export function TraceabilityPanel({ rows, sessionLabel }: { rows: TraceabilityRo
                 <th scope="row" className="py-1 pr-2 text-left font-normal">
                   {KIND_WORDS[r.kind]} <strong>{r.label}</strong>
                 </th>
-                <td className="py-1 pr-2">{r.number ?? <span className="text-warn">none recorded</span>}</td>
+                <td className="py-1 pr-2 whitespace-nowrap">{r.number ?? <span className="text-warn">none recorded</span>}</td>
                 <td className="py-1 pr-2">{r.laboratory ?? "—"}</td>
-                <td className="py-1 pr-2 num">{r.issued ?? "—"}</td>
-                <td className="py-1 pr-2 num">{r.due ?? "—"}</td>
+                <td className="py-1 pr-2 num whitespace-nowrap">{r.issued ?? "—"}</td>
+                <td className="py-1 pr-2 num whitespace-nowrap">{r.due ?? "—"}</td>
                 <td className="py-1">
                   {r.expiredOnSessions.length ? (
                     <strong className="text-fail">⚠ {r.expiredOnSessions.map((s) => (sessionLabel ? sessionLabel(s) : s)).join(", ")}</strong>
