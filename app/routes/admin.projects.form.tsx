@@ -135,7 +135,7 @@ export function ProjectForm({
         <Checkbox
           meta={fields.referenceInVerdict}
           label="The reference test enters the verdict"
-          hint="Then a failed or unknown reference test turns a pass into “not enough evidence”."
+          hint="Then a failed or unknown reference test holds a pass back (verdict “insufficient”)."
         />
         <NumberField meta={fields.edmUncertaintyMm} label="EDM uncertainty, constant part" unit="mm" hint="For EDM shots that name no reference EDM; empty = unknown." />
         <NumberField meta={fields.edmUncertaintyPpm} label="EDM uncertainty, distance part" unit="ppm" />
