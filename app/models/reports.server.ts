@@ -398,12 +398,15 @@ const JSON_BUDGET = 96 * 1024 * 1024;
 type RowsEntry = { born: string; stamp: ShotsStamp; shots: readonly ReportShot[] };
 type ReportEntry = { fingerprint: string; built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
 type Appended = { rowid: number; shot: ReportShot };
-type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry>; appended: Map<string, Appended[]> };
+type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry>; appended: Map<string, Appended[]>; uses: Map<string, UsesEntry> };
+/** issue 15: which tape or EDM each (session, day) of a sensor used; changes only with new or recomputed shots. */
+type Use = { sessionId: string; tapeId: string | null; edmId: string | null; day: string };
+type UsesEntry = { key: string; uses: Use[] };
 const cachesByDb = new WeakMap<Db, Caches>();
 
 function cachesOf(db: Db): Caches {
   let c = cachesByDb.get(db);
-  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map(), appended: new Map() }));
+  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map(), appended: new Map(), uses: new Map() }));
   return c;
 }
 
@@ -614,9 +617,36 @@ function toJson(sensorId: string, rule: Rule, ruleProjectId: string | null, r: S
  * any shot of the selection used, with the sessions whose own date was after its due date.
  * Uses of a tape or EDM are read per (session, day) from the raw records: a few rows per session.
  */
+/**
+ * The (session, day, tape, EDM) uses of all the sensor's shots, read once per state of its shots
+ * (new or recomputed shots; exclusions do not change them) and filtered per selection in memory.
+ */
+async function usesOf(db: Db, sensor: typeof sensors.$inferSelect, stamp: ShotsStamp | null): Promise<Use[]> {
+  const caches = cachesOf(db);
+  const key = stamp ? JSON.stringify([sensor.createdAt, stamp.maxRowid, stamp.recomputes, stamp.lastRecompute]) : null;
+  const have = caches.uses.get(sensor.id);
+  if (key && have && have.key === key) return have.uses;
+  const tapeId = sql<string | null>`json_extract(${shots.raw}, '$.reference.tape.tapeId')`;
+  const edmId = sql<string | null>`json_extract(${shots.raw}, '$.reference.edmId')`;
+  const day = sql<string>`substr(${shots.takenAt}, 1, 10)`;
+  const uses = await db
+    .select({ sessionId: shots.sessionId, tapeId, edmId, day })
+    .from(shots)
+    .where(and(eq(shots.sensorId, sensor.id), inArray(shots.referenceMethod, ["tape", "edm"])))
+    .groupBy(shots.sessionId, tapeId, edmId, day);
+  // (max rowid over the whole table: a shot written meanwhile only makes the key stale, never wrong)
+  if (key) {
+    caches.uses.delete(sensor.id);
+    caches.uses.set(sensor.id, { key, uses });
+    if (caches.uses.size > 1000) caches.uses.delete(caches.uses.keys().next().value!);
+  }
+  return uses;
+}
+
 async function traceabilityOf(
   db: Db,
   sensor: typeof sensors.$inferSelect,
+  stamp: ShotsStamp | null,
   q: ReportQuery,
   selection: readonly ReportShot[],
   tapeCerts: CertRow[],
@@ -640,17 +670,12 @@ async function traceabilityOf(
     });
   }
   if (!selection.length) return out;
-  const tapeId = sql<string | null>`json_extract(${shots.raw}, '$.reference.tape.tapeId')`;
-  const edmId = sql<string | null>`json_extract(${shots.raw}, '$.reference.edmId')`;
-  const day = sql<string>`substr(${shots.takenAt}, 1, 10)`;
-  const uses = await db
-    .select({ sessionId: shots.sessionId, tapeId, edmId, day })
-    .from(shots)
-    .where(and(...selectionWhere(sensor.id, q), inArray(shots.referenceMethod, ["tape", "edm"])))
-    .groupBy(shots.sessionId, tapeId, edmId, day);
+  const from = q.from ? periodDay(q.from) : null;
+  const to = q.to ? periodDay(q.to) : null;
   const used = { tape: new Map<string, Set<string>>(), edm: new Map<string, Set<string>>() };
-  for (const u of uses) {
-    if (!startedAt.has(u.sessionId)) continue;
+  for (const u of await usesOf(db, sensor, stamp)) {
+    // the selection's sessions (startedAt holds them) and its period, by the shot's own day
+    if (!startedAt.has(u.sessionId) || !inPeriod(u.day, from, to)) continue;
     for (const [kind, id] of [["tape", u.tapeId], ["edm", u.edmId]] as const) {
       if (!id) continue;
       if (!used[kind].has(id)) used[kind].set(id, new Set());
@@ -704,7 +729,7 @@ async function report(sensorId: string, query: ReportQuery | URLSearchParams, op
   const sensor = { id: row.id, label: row.label, serial: row.serial, kind: row.kind };
   const compute = async (list: readonly ReportShot[]): Promise<Built> => {
     const r = sensorReport({ sensor: sensorSpecOf(row), rule, shots: list as ReportShot[], lastSignedOffBiasMm: state.lastBias });
-    const trace = await traceabilityOf(db, row, q, list, state.tapeCerts, state.edmCerts);
+    const trace = await traceabilityOf(db, row, state.stamp, q, list, state.tapeCerts, state.edmCerts);
     return { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, list, trace), sensor, rule, details: list as LoadedShot[] };
   };
   // note and target label per shot (the CSV export): read as they are, not kept
