@@ -34,6 +34,10 @@ export default [
     route("admin/projects", "routes/admin.projects.tsx"),
     route("admin/projects/new", "routes/admin.projects.new.tsx"),
     route("admin/projects/:projectId", "routes/admin.projects.$projectId.tsx"),
+    // issue 15: reference EDMs
+    route("admin/edms", "routes/admin.edms.tsx"),
+    route("admin/edms/new", "routes/admin.edms.new.tsx"),
+    route("admin/edms/:edmId", "routes/admin.edms.$edmId.tsx"),
 
     // ---- review (qa) ----
     route("review", "routes/review.tsx"),
@@ -42,6 +46,8 @@ export default [
     route("review/sensors/:sensorId", "routes/review.sensors.$sensorId.tsx"),
     route("review/sensors/:sensorId/map", "routes/review.sensors.$sensorId.map.tsx"),
     route("review/sensors/:sensorId/print", "routes/review.sensors.$sensorId.print.tsx"),
+    // issue 15: a sensor's history over months
+    route("review/sensors/:sensorId/history", "routes/review.sensors.$sensorId.history.tsx"),
 
     // ---- field (crew) ----
     route("field", "routes/field.tsx", [
@@ -73,6 +79,8 @@ export default [
     route("photos/:photoId", "routes/api.photos.$photoId.ts"),
     // field
     route("field/reference", "routes/api.field.reference.ts"),
+    // issue 15: reference EDMs (registry)
+    route("edms", "routes/api.edms.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

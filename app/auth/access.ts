@@ -84,4 +84,11 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/field.session-fix.tsx": { GET: FIELD },
   "routes/field.outbox.tsx": { GET: FIELD },
   "routes/api.field.reference.ts": { GET: FIELD },
+
+  // ---- issue 15: reference EDMs (admin) and a sensor's history (every role reads) ----
+  "routes/admin.edms.tsx": { GET: ADMIN },
+  "routes/admin.edms.new.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.edms.$edmId.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/api.edms.ts": { POST: ADMIN },
+  "routes/review.sensors.$sensorId.history.tsx": { GET: ALL },
 };

@@ -274,6 +274,7 @@ export function RegistryNav() {
     { to: "/admin/tapes", label: "Tapes" },
     { to: "/admin/sites", label: "Sites" },
     { to: "/admin/projects", label: "Projects" },
+    { to: "/admin/edms", label: "Reference EDMs" },
   ];
   return (
     <nav aria-label="Registry" className="no-print mb-4 flex flex-wrap gap-1 border-b-2 border-line pb-2">

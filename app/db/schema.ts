@@ -88,6 +88,12 @@ export const projects = sqliteTable("projects", {
   minWithinPct: real("min_within_pct").notNull().default(95),
   /** Lower edges of the range bands in metres, e.g. [0,10,30,100]. */
   rangeBandEdgesM: text("range_band_edges_m", { mode: "json" }).$type<number[]>().notNull().default(sql`'[0,10,30,100]'`),
+  // issue 15: reference uncertainty and statement style of the rule (ranging.md §7)
+  referenceRatio: real("reference_ratio").notNull().default(2),
+  referenceInVerdict: integer("reference_in_verdict", { mode: "boolean" }).notNull().default(false),
+  statement: text("statement", { enum: ["rmse", "nssda95"] }).notNull().default("rmse"),
+  edmUncertaintyMm: real("edm_uncertainty_mm"),
+  edmUncertaintyPpm: real("edm_uncertainty_ppm"),
   notes: text("notes").notNull().default(""),
   createdAt: createdAt(),
   updatedAt: text("updated_at"),
@@ -126,6 +132,13 @@ export const sensors = sqliteTable("sensors", {
   tolerancePpm: real("tolerance_ppm").notNull(),
   outdoor: integer("outdoor", { mode: "boolean" }).notNull().default(true),
   calibrationDue: text("calibration_due"),
+  // issue 15: IEC 60825-1 class ("1", "1M", "2", "2M", "3R", "3B", "4")
+  laserClass: text("laser_class"),
+  // issue 15: calibration certificate (ranging.md §7 traceability)
+  certNumber: text("cert_number"),
+  certLaboratory: text("cert_laboratory"),
+  certIssued: text("cert_issued"),
+  certDue: text("cert_due"),
   notes: text("notes").notNull().default(""),
   createdAt: createdAt(),
   updatedAt: text("updated_at"),
@@ -142,6 +155,14 @@ export const tapes = sqliteTable("tapes", {
   weightNPerM: real("weight_n_per_m").notNull(),
   /** Certificate correction, positive when the tape is longer than nominal. */
   calibrationPpm: real("calibration_ppm").notNull().default(0),
+  // issue 15: the certificate's standard uncertainty a + b·L (mm, ppm), k = 1
+  uncertaintyMm: real("uncertainty_mm"),
+  uncertaintyPpm: real("uncertainty_ppm"),
+  // issue 15: calibration certificate (ranging.md §7 traceability)
+  certNumber: text("cert_number"),
+  certLaboratory: text("cert_laboratory"),
+  certIssued: text("cert_issued"),
+  certDue: text("cert_due"),
   notes: text("notes").notNull().default(""),
   createdAt: createdAt(),
   updatedAt: text("updated_at"),
@@ -172,6 +193,8 @@ export const stations = sqliteTable(
     lon: real("lon"),
     h: real("h"),
     retiredAt: text("retired_at"),
+    /** issue 15: 1-D standard uncertainty of the surveyed point (mm) */
+    sigmaMm: real("sigma_mm"),
   },
   (t) => [index("stations_site").on(t.siteId)],
 );
@@ -193,6 +216,8 @@ export const targets = sqliteTable(
     lon: real("lon"),
     h: real("h"),
     retiredAt: text("retired_at"),
+    /** issue 15: 1-D standard uncertainty of the surveyed point (mm) */
+    sigmaMm: real("sigma_mm"),
   },
   (t) => [index("targets_site").on(t.siteId)],
 );
@@ -254,6 +279,8 @@ export const shots = sqliteTable(
     airDefaulted: integer("air_defaulted", { mode: "boolean" }).notNull().default(false),
     excluded: integer("excluded", { mode: "boolean" }).notNull().default(false),
     computedAt: text("computed_at").notNull(),
+    /** issue 15: u_ref of ranging.md §7 (mm, k = 1), computed with the rest; null = unknown */
+    referenceUncertaintyMm: real("reference_uncertainty_mm"),
   },
   (t) => [
     index("shots_sensor_taken").on(t.sensorId, t.takenAt, t.id),
@@ -348,3 +375,35 @@ export const importMappings = sqliteTable("import_mappings", {
   updatedAt: text("updated_at").notNull(),
   updatedBy: text("updated_by").references(() => users.id),
 });
+
+// ---------- issue 15: reference EDMs and certificate due-date notices ----------
+/** Reference EDMs (total stations, distance meters) whose certificates make EDM references traceable. */
+export const edms = sqliteTable("edms", {
+  id: id(),
+  label: text("label").notNull(),
+  serial: text("serial").notNull(),
+  /** Standard uncertainty a + b·D (mm, ppm), k = 1. */
+  uncertaintyMm: real("uncertainty_mm").notNull(),
+  uncertaintyPpm: real("uncertainty_ppm").notNull().default(0),
+  certNumber: text("cert_number"),
+  certLaboratory: text("cert_laboratory"),
+  certIssued: text("cert_issued"),
+  certDue: text("cert_due"),
+  notes: text("notes").notNull().default(""),
+  createdAt: createdAt(),
+  updatedAt: text("updated_at"),
+  retiredAt: text("retired_at"),
+});
+
+/** One row per certificate (kind, id, number, due) whose 30-day notice went to the admins: never twice. */
+export const certificateNotices = sqliteTable(
+  "certificate_notices",
+  {
+    kind: text("kind", { enum: ["sensor", "tape", "edm"] }).notNull(),
+    entityId: text("entity_id").notNull(),
+    number: text("number").notNull(),
+    due: text("due").notNull(),
+    sentAt: createdAt(),
+  },
+  (t) => [primaryKey({ columns: [t.kind, t.entityId, t.number, t.due] })],
+);

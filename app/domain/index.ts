@@ -13,7 +13,7 @@ export { mean, sampleSd, rmse, quantileType7, quantileType7Sorted, median, mad, 
 export type { OlsFit } from "./stats.ts";
 export { tQuantile, chiSquareQuantile, normalQuantile, incompleteBeta, incompleteGamma, logGamma } from "./quantiles.ts";
 export { computeShot, toleranceMm, isWrap, checkSensor, checkRule } from "./shot.ts";
-export { sensorReport, inPeriod, sortedAbsDeviations, NSSDA_FACTOR, OUTLIER_K, MAD_TO_SIGMA } from "./report.ts";
+export { sensorReport, zeroOffsetTest, verdictFailures, inPeriod, sortedAbsDeviations, NSSDA_FACTOR, OUTLIER_K, MAD_TO_SIGMA } from "./report.ts";
 export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, COVERAGE_NEED } from "./coverage.ts";
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";
@@ -27,3 +27,16 @@ export {
   requireFrequencyCount,
   requireRegisteredFrequency,
 } from "./plausibility.ts";
+export {
+  referenceUncertaintyMm,
+  linearUncertaintyMm,
+  combinedRmseMm,
+  pastDueOn,
+  daysUntil,
+  laserCaution,
+  accuracyStatement,
+  LASER_CLASSES,
+  EDITION2_PRESET,
+  sessionHistoryFigures,
+} from "./uncertainty.ts";
+export type { LinearUncertainty, ReferenceUncertaintyInput, LaserClass, AccuracyStatement, StatementFigures } from "./uncertainty.ts";

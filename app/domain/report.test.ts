@@ -82,7 +82,10 @@ test("pass: the figures of a small hand-computed set", () => {
     { name: "within", pass: true, value: 100, limit: 80 },
     { name: "bias", pass: true, value: r.biasMm, limit: 5 },
     { name: "precision", pass: true, value: r.sdMm, limit: bound },
+    // ranging.md §7: no shot carries u_ref here, so the advisory test is unknown; limit T(D̄)/2
+    { name: "reference", pass: null, value: null, limit: 2.5 },
   ]);
+  expect(r.referenceUnknownN).toBe(5);
   expect(r.verdict).toBe("pass");
   expect(r.failed).toEqual([]);
 });

@@ -2,7 +2,9 @@
 // (FGDC-STD-007.3-1998; valid for near-normal, near-unbiased errors), P95|e| (Hyndman–Fan
 // type 7), bias CI with Student t, OLS zero offset and scale, breakdowns, robust outlier flags
 // (median ± 3·1.4826·MAD), drift per session, and the four acceptance tests with a precision
-// bound in the manner of ISO 17123-4: s ≤ σ·√(χ²₀.₉₅(ν)/ν).
+// bound adapted from ISO 17123-4 (reflector EDM; no conformance claimed): s ≤ σ·√(χ²₀.₉₅(ν)/ν);
+// then ranging.md §7: the reference's RMS uncertainty, the combined RMSE, the advisory
+// reference test and the zero-offset t test.
 import { DomainError } from "./errors.ts";
 import { chiSquareQuantile, tQuantile } from "./quantiles.ts";
 import { olsFit, quantileType7Sorted } from "./stats.ts";
@@ -10,6 +12,7 @@ import { BRIGHT_SUN_KLUX, coverageFromCounts, rangeBandIndex, rangeBandLabels } 
 import { checkRule, checkSensor, isWrap, toleranceMm } from "./shot.ts";
 import { airState } from "./air.ts";
 import { unambiguousIntervalM } from "./phase.ts";
+import { combinedRmseMm } from "./uncertainty.ts";
 import type {
   AcceptanceTest,
   BandStats,
@@ -114,6 +117,25 @@ export function sortedAbsDeviations(s: Float64Array, c: number): Float64Array {
   return out;
 }
 
+/**
+ * The tests that hold the verdict back, by name: any of the four §6 tests that failed, and the
+ * reference test (failed or unknown) only when the rule puts it in the verdict (ranging.md §7).
+ */
+export function verdictFailures(tests: readonly { name: string; pass: boolean | null }[], referenceInVerdict: boolean | undefined): string[] {
+  return tests.filter((t) => (t.name === "reference" ? !!referenceInVerdict && t.pass !== true : t.pass === false)).map((t) => t.name);
+}
+
+/**
+ * Zero offset significance (ranging.md §7; common practice adapted from the zero-point test of
+ * ISO 17123-4, no conformance claimed): t = δ/SE(δ), ν = n − 2, significant when |t| > t₀.₉₇₅(ν).
+ */
+export function zeroOffsetTest(fit: { intercept: number; interceptSe: number } | null, n: number): { zeroOffsetT: number | null; zeroOffsetSignificant: boolean | null } {
+  if (!fit || n < 3 || !(fit.interceptSe > 0) || !Number.isFinite(fit.intercept)) return { zeroOffsetT: null, zeroOffsetSignificant: null };
+  const t = fit.intercept / fit.interceptSe;
+  if (!Number.isFinite(t)) return { zeroOffsetT: null, zeroOffsetSignificant: null };
+  return { zeroOffsetT: t, zeroOffsetSignificant: Math.abs(t) > tQuantile(0.975, n - 2) };
+}
+
 type Session = { id: string; startedAt: string; t: number; n: number; sumE: number; sumD: number };
 
 export function sensorReport(input: SensorReportInput): SensorReport {
@@ -147,6 +169,8 @@ export function sensorReport(input: SensorReportInput): SensorReport {
   let sumD = 0;
   let withinCount = 0;
   let maxAbs = 0;
+  let sumU2 = 0; // Σ u_ref² over included shots (ranging.md §7)
+  let unknownU = 0;
 
   for (let i = 0; i < N; i++) {
     const s = shots[i];
@@ -160,6 +184,9 @@ export function sensorReport(input: SensorReportInput): SensorReport {
       continue;
     }
     const err = s.errorMm;
+    const u = s.referenceUncertaintyMm;
+    if (typeof u === "number" && Number.isFinite(u) && u >= 0) sumU2 += u * u;
+    else unknownU++;
     e[n] = err;
     d[n] = s.referenceM;
     n++;
@@ -241,8 +268,16 @@ export function sensorReport(input: SensorReportInput): SensorReport {
     { name: "bias", pass: biasMm != null && Math.abs(biasMm) <= a, value: biasMm, limit: a },
     { name: "precision", pass: sdMm != null && sdMm <= precisionLimit, value: sdMm, limit: precisionLimit },
   ];
-  const failed = tests.filter((t) => !t.pass).map((t) => t.name);
-  const verdict: SensorReport["verdict"] = !tests[0].pass ? "insufficient" : failed.length === 0 ? "pass" : "fail";
+  // ranging.md §7: the reference test is advisory unless the rule puts it in the verdict, and
+  // then it can only hold a pass back (insufficient), never turn it into a fail
+  const referenceRmseMm = n > 0 && unknownU === 0 ? Math.sqrt(sumU2 / n) : null;
+  const ratio = rule.referenceRatio ?? 2;
+  const referenceLimit = sigma / ratio;
+  tests.push({ name: "reference", pass: referenceRmseMm == null ? null : referenceRmseMm <= referenceLimit, value: referenceRmseMm, limit: referenceLimit });
+  const failed = verdictFailures(tests, rule.referenceInVerdict);
+  const core = failed.filter((f) => f !== "reference");
+  let verdict: SensorReport["verdict"] = !tests[0].pass ? "insufficient" : core.length === 0 ? "pass" : "fail";
+  if (verdict === "pass" && failed.includes("reference")) verdict = "insufficient";
 
   // wrap: as computed with the shot, or again here against the sensor's (combined) interval in
   // default air (the index changes R_u by ~0.03 %, far below any limit's use here)
@@ -305,6 +340,11 @@ export function sensorReport(input: SensorReportInput): SensorReport {
     scalePpm: fit ? fit.slope * 1000 : null,
     scaleSePpm: fit ? fit.slopeSe * 1000 : null,
     rSquared: fit ? fit.rSquared : null,
+    ...zeroOffsetTest(fit, n),
+    referenceRmseMm,
+    referenceUnknownN: unknownU,
+    rmseCombinedMm: combinedRmseMm(rmseMm, referenceRmseMm),
+    statement: rule.statement ?? "rmse",
     tests,
     verdict,
     failed,

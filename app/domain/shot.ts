@@ -48,6 +48,12 @@ export function checkRule(rule: Rule, path = "rule"): void {
   const w = requireFinite(rule.minWithinPct, `${path}.minWithinPct`, "minimum share within (%)");
   if (w < 0 || w > 100) throw new DomainError(`${path}.minWithinPct`, "out_of_range", "minimum share within must lie between 0 and 100 %");
   checkEdges(rule.rangeBandEdgesM, `${path}.rangeBandEdgesM`);
+  if (rule.referenceRatio != null) requirePositive(rule.referenceRatio, `${path}.referenceRatio`, "reference ratio");
+  if (rule.statement != null && rule.statement !== "rmse" && rule.statement !== "nssda95") {
+    throw new DomainError(`${path}.statement`, "invalid", `statement must be "rmse" or "nssda95"`);
+  }
+  if (rule.edmUncertaintyMm != null) requireNonNegative(rule.edmUncertaintyMm, `${path}.edmUncertaintyMm`, "EDM uncertainty (mm)");
+  if (rule.edmUncertaintyPpm != null) requireNonNegative(rule.edmUncertaintyPpm, `${path}.edmUncertaintyPpm`, "EDM uncertainty (ppm)");
 }
 
 function sd(values: number[]): number | null {

@@ -53,7 +53,19 @@ export type Rule = {
   minWithinPct: number;
   /** default [0,10,30,100] */
   rangeBandEdgesM: number[];
+  // ranging.md §7 (issue 15); optional so older callers keep the defaults
+  /** reference at least r times as accurate as the tolerance it checks (default 2) */
+  referenceRatio?: number;
+  /** a failed or unknown reference test turns a pass into insufficient (default false) */
+  referenceInVerdict?: boolean;
+  /** what screens, print and mail lead with (default "rmse") */
+  statement?: Statement;
+  /** u_ref of EDM shots that name no reference EDM: a + b·D (mm, ppm); null = unknown */
+  edmUncertaintyMm?: number | null;
+  edmUncertaintyPpm?: number | null;
 };
+
+export type Statement = "rmse" | "nssda95";
 
 export type ShotComputed = {
   referenceM: number;
@@ -89,6 +101,8 @@ export type ReportShot = {
   excluded: boolean;
   wrap: boolean;
   airDefaulted: boolean;
+  /** u_ref (mm, k = 1) of ranging.md §7; null or absent = unknown */
+  referenceUncertaintyMm?: number | null;
 };
 
 export type ReflectanceClass = "dark" | "mid" | "bright" | "retro";
@@ -103,8 +117,9 @@ export type BandStats<B extends string = string> = {
   withinPct: number | null;
 };
 
-export type TestName = "count" | "within" | "bias" | "precision";
-export type AcceptanceTest = { name: TestName; pass: boolean; value: number | null; limit: number };
+export type TestName = "count" | "within" | "bias" | "precision" | "reference";
+/** `pass` is null only for the advisory reference test when the reference uncertainty is unknown. */
+export type AcceptanceTest = { name: TestName; pass: boolean | null; value: number | null; limit: number };
 
 export type CoverageCell = { rangeBand: string; reflectance: "dark" | "bright"; have: number; need: number };
 export type Coverage = { complete: boolean; missing: CoverageCell[]; needsBrightSun: boolean };
@@ -142,6 +157,13 @@ export type SensorReport = {
   scalePpm: number | null;
   scaleSePpm: number | null;
   rSquared: number | null;
+  /** ranging.md §7: t = δ/SE(δ), ν = n − 2 */
+  zeroOffsetT: number | null;
+  zeroOffsetSignificant: boolean | null;
+  referenceRmseMm: number | null;
+  referenceUnknownN: number;
+  rmseCombinedMm: number | null;
+  statement: Statement;
   tests: AcceptanceTest[];
   verdict: "pass" | "fail" | "insufficient";
   failed: string[];
@@ -160,4 +182,14 @@ export type CoverageInput = { sensor: SensorSpec; rule: Rule; shots: CoverageSho
 export type CoverageResult = Coverage & { cells: CoverageCell[] };
 
 /** Default acceptance rule of ranging.md §6. */
-export const DEFAULT_RULE: Rule = { minShots: 20, coverageK: 2, minWithinPct: 95, rangeBandEdgesM: [0, 10, 30, 100] };
+export const DEFAULT_RULE: Rule = {
+  minShots: 20,
+  coverageK: 2,
+  minWithinPct: 95,
+  rangeBandEdgesM: [0, 10, 30, 100],
+  referenceRatio: 2,
+  referenceInVerdict: false,
+  statement: "rmse",
+  edmUncertaintyMm: null,
+  edmUncertaintyPpm: null,
+};

@@ -73,7 +73,7 @@ function recipients(to: string | string[]) {
  * are never shown to each other). Never throws: failures are logged and retried later.
  */
 export async function sendTemplateMail(
-  template: "sign-in-code" | "invitation" | "sensor-failed" | "sensor-signed-off",
+  template: "sign-in-code" | "invitation" | "sensor-failed" | "sensor-signed-off" | "certificate-due",
   to: string | string[],
   vars: Record<string, unknown>,
 ): Promise<{ ok: boolean; error?: string }> {

@@ -3,7 +3,7 @@
 // values fall back to plain words instead of "undefined".
 import { getEnv } from "~/env.server";
 
-export const TEMPLATES = ["sign-in-code", "invitation", "sensor-failed", "sensor-signed-off"] as const;
+export const TEMPLATES = ["sign-in-code", "invitation", "sensor-failed", "sensor-signed-off", "certificate-due"] as const;
 export type MailTemplate = (typeof TEMPLATES)[number];
 
 export type RenderedMail = { subject: string; text: string; html: string };
@@ -91,9 +91,11 @@ ${button(url, "Open Shotbook")}`,
       const url = link(vars.reportUrl, vars.sensorId ? `/review/sensors/${str(vars.sensorId)}` : "/review");
       const summary = str(vars.summary);
       const subject = `Sensor failed its range check: ${label}`;
+      const statement = str(vars.statement);
       const figures = `Bias ${mm(vars.biasMm)}, RMSE ${mm(vars.rmseMm)}${typeof vars.withinPct === "number" ? `, within tolerance ${vars.withinPct.toFixed(1)} %` : ""}.`;
       const text = [
         `${label} did not pass its range check (verdict: FAIL).`,
+        ...(statement ? [statement] : []),
         figures,
         summary ? `\n${summary}\n` : ``,
         `See why in the sensor report: ${url}`,
@@ -101,7 +103,7 @@ ${button(url, "Open Shotbook")}`,
       const html = page(
         `Sensor failed: ${label}`,
         `<p><strong>${escapeHtml(label)}</strong> did not pass its range check — verdict: <strong>✗ FAIL</strong>.</p>
-<p>${escapeHtml(figures)}</p>${summary ? `<p>${escapeHtml(summary)}</p>` : ""}
+${statement ? `<p><strong>${escapeHtml(statement)}</strong></p>` : ""}<p>${escapeHtml(figures)}</p>${summary ? `<p>${escapeHtml(summary)}</p>` : ""}
 ${button(url, "Open the sensor report")}`,
       );
       return { subject, text, html };
@@ -111,11 +113,15 @@ ${button(url, "Open the sensor report")}`,
       const decision = str(vars.decision, "approved");
       const by = str(vars.byName, "QA");
       const note = str(vars.note);
+      const statement = str(vars.statement);
+      const expired = str(vars.expired);
       const url = link(vars.reportUrl, vars.sensorId ? `/review/sensors/${str(vars.sensorId)}` : "/review");
       const word = decision === "rejected" ? "pulled from the job (rejected)" : "signed off (approved)";
       const subject = `Sensor ${decision === "rejected" ? "rejected" : "signed off"}: ${label}`;
       const text = [
         `${by} has ${word} ${label}.`,
+        statement ? statement : ``,
+        expired ? `Traceability: ${expired}.` : ``,
         note ? `Note: ${note}` : ``,
         ``,
         `Report: ${url}`,
@@ -123,7 +129,33 @@ ${button(url, "Open the sensor report")}`,
       const html = page(
         subject,
         `<p>${escapeHtml(by)} has ${escapeHtml(word)} <strong>${escapeHtml(label)}</strong>.</p>
+${statement ? `<p><strong>${escapeHtml(statement)}</strong></p>` : ""}${expired ? `<p>Traceability: ${escapeHtml(expired)}.</p>` : ""}
 ${note ? `<p>Note: ${escapeHtml(note)}</p>` : ""}${button(url, "Open the report")}`,
+      );
+      return { subject, text, html };
+    }
+    case "certificate-due": {
+      // issue 15: 30 days before a calibration certificate falls due (ranging.md §7)
+      const kind = str(vars.kind) === "tape" ? "Tape" : str(vars.kind) === "edm" ? "Reference EDM" : "Sensor";
+      const label = str(vars.label, "An instrument");
+      const number = str(vars.number, "—");
+      const lab = str(vars.laboratory);
+      const due = str(vars.due, "soon");
+      const days = typeof vars.days === "number" ? vars.days : null;
+      const url = link(vars.registryUrl, "/admin");
+      const when = days == null ? `on ${due}` : days < 0 ? `on ${due} (${-days} days ago)` : days === 0 ? `today (${due})` : `on ${due}, in ${days} days`;
+      const subject = `Calibration certificate falls due: ${kind === "Reference EDM" ? "reference EDM" : kind.toLowerCase()} ${label}`;
+      const text = [
+        `${kind} ${label}: calibration certificate ${number}${lab ? ` (${lab})` : ""} falls due ${when}.`,
+        `Sessions after that date are flagged as not traceable on the tablet and in the reports.`,
+        ``,
+        `Update the certificate in the registry: ${url}`,
+      ].join("\n");
+      const html = page(
+        subject,
+        `<p><strong>${escapeHtml(kind)} ${escapeHtml(label)}</strong>: calibration certificate ${escapeHtml(number)}${lab ? ` (${escapeHtml(lab)})` : ""} falls due ${escapeHtml(when)}.</p>
+<p>Sessions after that date are flagged as not traceable on the tablet and in the reports.</p>
+${button(url, "Open the registry")}`,
       );
       return { subject, text, html };
     }

@@ -2,7 +2,8 @@
 // their stations and targets, tapes, projects with their acceptance rules, and who is asking.
 import { isNull } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
-import { projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets } from "~/db/schema";
+import { edms, projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets } from "~/db/schema";
+import { ruleOf, RULE_COLUMNS } from "~/models/shots.server";
 import type { SessionUser } from "~/auth/guards.server";
 import type { FieldReference } from "~/offline/types";
 
@@ -13,7 +14,7 @@ const point = (r: { gridE: number | null; gridN: number | null; gridH: number | 
 
 export async function fieldReference(user: SessionUser): Promise<FieldReference> {
   const db = getDb();
-  const [sensorRows, siteRows, stationRows, targetRows, tapeRows, projectRows, ps, pSites] = await Promise.all([
+  const [sensorRows, siteRows, stationRows, targetRows, tapeRows, projectRows, ps, pSites, edmRows] = await Promise.all([
     db
       .select({
         id: sensors.id,
@@ -28,6 +29,9 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         tolerancePpm: sensors.tolerancePpm,
         outdoor: sensors.outdoor,
         calibrationDue: sensors.calibrationDue,
+        laserClass: sensors.laserClass,
+        certNumber: sensors.certNumber,
+        certDue: sensors.certDue,
       })
       .from(sensors)
       .where(isNull(sensors.retiredAt)),
@@ -73,6 +77,10 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         modulusGPa: tapes.modulusGPa,
         weightNPerM: tapes.weightNPerM,
         calibrationPpm: tapes.calibrationPpm,
+        uncertaintyMm: tapes.uncertaintyMm,
+        uncertaintyPpm: tapes.uncertaintyPpm,
+        certNumber: tapes.certNumber,
+        certDue: tapes.certDue,
       })
       .from(tapes)
       .where(isNull(tapes.retiredAt)),
@@ -81,15 +89,16 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         id: projects.id,
         name: projects.name,
         client: projects.client,
-        minShots: projects.minShots,
-        coverageK: projects.coverageK,
-        minWithinPct: projects.minWithinPct,
-        rangeBandEdgesM: projects.rangeBandEdgesM,
+        ...RULE_COLUMNS,
       })
       .from(projects)
       .where(isNull(projects.retiredAt)),
     db.select({ projectId: projectSensors.projectId, sensorId: projectSensors.sensorId }).from(projectSensors),
     db.select({ projectId: projectSites.projectId, siteId: projectSites.siteId }).from(projectSites),
+    db
+      .select({ id: edms.id, label: edms.label, serial: edms.serial, uncertaintyMm: edms.uncertaintyMm, uncertaintyPpm: edms.uncertaintyPpm, certNumber: edms.certNumber, certDue: edms.certDue })
+      .from(edms)
+      .where(isNull(edms.retiredAt)),
   ]);
 
   return {
@@ -107,10 +116,11 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
       id: p.id,
       name: p.name,
       client: p.client,
-      rule: { minShots: p.minShots, coverageK: p.coverageK, minWithinPct: p.minWithinPct, rangeBandEdgesM: p.rangeBandEdgesM },
+      rule: ruleOf(p),
       sensorIds: ps.filter((x) => x.projectId === p.id).map((x) => x.sensorId),
       siteIds: pSites.filter((x) => x.projectId === p.id).map((x) => x.siteId),
     })),
+    edms: edmRows,
     copiedAt: new Date().toISOString(),
   };
 }

@@ -16,13 +16,14 @@ import {
   type RegistryResult,
 } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
-import { recomputeShotsForProject } from "~/models/shots.server";
+import { recomputeShotsForProject, RULE_COLUMNS, ruleOf } from "~/models/shots.server";
 import { sitesExist } from "~/models/sites.server";
 
 export type ProjectRow = typeof projects.$inferSelect;
 export type ProjectWithLinks = ProjectRow & { sensorIds: string[]; siteIds: string[] };
 
-const RULE_FIELDS = ["minShots", "coverageK", "minWithinPct", "rangeBandEdgesM"] as const;
+// the EDM figures are each EDM shot's stored u_ref (ranging.md §7): they recompute too
+const RULE_FIELDS = ["minShots", "coverageK", "minWithinPct", "rangeBandEdgesM", "edmUncertaintyMm", "edmUncertaintyPpm"] as const;
 
 function contentOf(b: ProjectBody, withNotes: boolean) {
   return {
@@ -32,6 +33,11 @@ function contentOf(b: ProjectBody, withNotes: boolean) {
     coverageK: b.coverageK,
     minWithinPct: b.minWithinPct,
     rangeBandEdgesM: b.rangeBandEdgesM,
+    referenceRatio: b.referenceRatio,
+    referenceInVerdict: b.referenceInVerdict,
+    statement: b.statement,
+    edmUncertaintyMm: b.edmUncertaintyMm ?? null,
+    edmUncertaintyPpm: b.edmUncertaintyPpm ?? null,
     sensorIds: [...new Set(b.sensorIds)].sort(),
     siteIds: [...new Set(b.siteIds)].sort(),
     ...(withNotes ? { notes: b.notes ?? "" } : {}),
@@ -46,6 +52,11 @@ function rowContent(r: ProjectWithLinks, withNotes: boolean) {
     coverageK: r.coverageK,
     minWithinPct: r.minWithinPct,
     rangeBandEdgesM: r.rangeBandEdgesM,
+    referenceRatio: r.referenceRatio,
+    referenceInVerdict: r.referenceInVerdict,
+    statement: r.statement,
+    edmUncertaintyMm: r.edmUncertaintyMm ?? null,
+    edmUncertaintyPpm: r.edmUncertaintyPpm ?? null,
     sensorIds: [...r.sensorIds].sort(),
     siteIds: [...r.siteIds].sort(),
     ...(withNotes ? { notes: r.notes } : {}),
@@ -188,12 +199,8 @@ export async function getProject(id: string): Promise<ProjectWithLinks | null> {
 /** The acceptance rule of a project; DEFAULT_RULE (ranging.md §6) when there is none. */
 export async function getProjectRule(projectId: string | null): Promise<Rule> {
   if (projectId) {
-    const [row] = await getDb()
-      .select({ minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM })
-      .from(projects)
-      .where(eq(projects.id, projectId))
-      .limit(1);
-    if (row) return { ...row, rangeBandEdgesM: [...row.rangeBandEdgesM] };
+    const [row] = await getDb().select(RULE_COLUMNS).from(projects).where(eq(projects.id, projectId)).limit(1);
+    if (row) return ruleOf(row);
   }
   return { ...DEFAULT_RULE, rangeBandEdgesM: [...DEFAULT_RULE.rangeBandEdgesM] };
 }

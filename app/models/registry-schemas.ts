@@ -72,6 +72,41 @@ function blankToUndefined(v: unknown) {
 const optionalGrid = z.preprocess(blankToUndefined, gridSchema.optional());
 const optionalGeo = z.preprocess(blankToUndefined, geoSchema.optional());
 
+// ---------- issue 15: certificates, laser class, uncertainties (ranging.md §7) ----------
+/** A calibration certificate; the form's four boxes left empty mean "none". */
+export const certificateSchema = z
+  .object({
+    number: text("the certificate number"),
+    laboratory: text("the calibration laboratory", 120),
+    issued: isoDate,
+    due: isoDate,
+  })
+  .superRefine((c, ctx) => {
+    if (typeof c.issued === "string" && typeof c.due === "string" && c.due < c.issued) {
+      ctx.addIssue({ code: "custom", path: ["due"], message: "The due date must not come before the issue date" });
+    }
+  });
+export type Certificate = z.output<typeof certificateSchema>;
+const optionalCertificate = z.preprocess(blankToUndefined, certificateSchema.nullable().optional());
+
+export const LASER_CLASS_OPTIONS = ["1", "1M", "2", "2M", "3R", "3B", "4"] as const;
+
+/** Blank form box → undefined, so an optional number can be left empty. */
+function blankNumber(v: unknown) {
+  return typeof v === "string" && v.trim() === "" ? undefined : v;
+}
+const uncertaintyMm = (what: string) =>
+  z.preprocess(blankNumber, num(what).min(0, "An uncertainty is 0 or more").max(10000, "An uncertainty is at most 10000").nullable().optional());
+
+/** The row's certificate columns → the API's certificate object (null when none). */
+export function certificateOf(r: { certNumber: string | null; certLaboratory: string | null; certIssued: string | null; certDue: string | null }): Certificate | null {
+  if (!r.certNumber && !r.certDue) return null;
+  return { number: r.certNumber ?? "", laboratory: r.certLaboratory ?? "", issued: r.certIssued ?? "", due: r.certDue ?? "" };
+}
+export function certificateColumns(c: Certificate | null | undefined) {
+  return { certNumber: c?.number ?? null, certLaboratory: c?.laboratory ?? null, certIssued: c?.issued ?? null, certDue: c?.due ?? null };
+}
+
 /** Cross-field checks run even when other fields failed, so every field shows its message at once. */
 const ALWAYS = { when: (p: { value: unknown }) => typeof p.value === "object" && p.value !== null };
 
@@ -107,6 +142,12 @@ export const sensorSchema = z
     outdoor: yesNo("the sensor is used outdoors").default(true),
     calibrationDue: isoDate.nullable().optional(),
     notes,
+    // issue 15
+    laserClass: z.preprocess(
+      (v) => (v === "" ? undefined : v),
+      z.enum(LASER_CLASS_OPTIONS, { error: 'Choose the laser class (IEC 60825-1): "1", "1M", "2", "2M", "3R", "3B" or "4"' }).nullable().optional(),
+    ),
+    certificate: optionalCertificate,
   })
   .superRefine((s, ctx) => {
     if (s.kind === "cw" && Array.isArray(s.modulationHz) && s.modulationHz.length === 0) {
@@ -139,6 +180,10 @@ export const tapeSchema = z.object({
     .max(1000, "The certificate correction lies between −1000 and 1000 ppm")
     .default(0),
   notes,
+  // issue 15: the certificate's standard uncertainty (k = 1) a + b·L
+  uncertaintyMm: uncertaintyMm("the certificate uncertainty (mm)"),
+  uncertaintyPpm: uncertaintyMm("the certificate uncertainty (ppm)"),
+  certificate: optionalCertificate,
 });
 export type TapeInput = z.input<typeof tapeSchema>;
 export type TapeBody = z.output<typeof tapeSchema>;
@@ -152,6 +197,7 @@ export const targetSchema = z.object({
   referenceM: num("the reference distance (m)").positive("The reference distance must be above 0 m").optional(),
   grid: optionalGrid,
   geo: optionalGeo,
+  sigmaMm: uncertaintyMm("the point's standard uncertainty (mm)"),
 });
 
 export const stationSchema = z.object({
@@ -159,6 +205,7 @@ export const stationSchema = z.object({
   label: text("the station's label", 40),
   grid: optionalGrid,
   geo: optionalGeo,
+  sigmaMm: uncertaintyMm("the point's standard uncertainty (mm)"),
 });
 
 function uniqueLabels(rows: { label?: unknown }[] | undefined, list: string, ctx: z.RefinementCtx) {
@@ -238,9 +285,28 @@ export const projectSchema = z.object({
     }),
   sensorIds: z.array(idSchema, { error: "sensorIds is a list of sensor ids" }).default([]),
   siteIds: z.array(idSchema, { error: "siteIds is a list of site ids" }).default([]),
+  // issue 15 (ranging.md §7)
+  referenceRatio: z.preprocess(blankNumber, num("the reference ratio r").positive("The reference ratio must be above 0").max(20, "The reference ratio is at most 20").default(2)),
+  referenceInVerdict: z.boolean({ error: "Say whether the reference test enters the verdict" }).default(false),
+  statement: z.enum(["rmse", "nssda95"], { error: 'The statement is "rmse" or "nssda95"' }).default("rmse"),
+  edmUncertaintyMm: uncertaintyMm("the EDM uncertainty (mm)"),
+  edmUncertaintyPpm: uncertaintyMm("the EDM uncertainty (ppm)"),
 });
 export type ProjectInput = z.input<typeof projectSchema>;
 export type ProjectBody = z.output<typeof projectSchema>;
+
+// ---------- issue 15: reference EDMs (POST /api/edms) ----------
+export const edmSchema = z.object({
+  id: idSchema.optional(),
+  label: text("a label"),
+  serial: text("the serial number"),
+  uncertaintyMm: num("the uncertainty (mm)").min(0, "An uncertainty is 0 or more").max(1000, "An uncertainty is at most 1000 mm"),
+  uncertaintyPpm: z.preprocess(blankNumber, num("the uncertainty (ppm)").min(0, "An uncertainty is 0 or more").max(1000, "An uncertainty is at most 1000 ppm").default(0)),
+  certificate: optionalCertificate,
+  notes,
+});
+export type EdmInput = z.input<typeof edmSchema>;
+export type EdmBody = z.output<typeof edmSchema>;
 
 // ---------- results shared by the models and the API ----------
 export type FieldError = { path: string; message: string };

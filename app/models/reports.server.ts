@@ -13,18 +13,32 @@
 // (a sync) and changed exclusions are patched in without reloading the rest.
 import { and, asc, desc, eq, gt, inArray, isNull, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
-import { auditLog, checkSessions, exclusions, projects, projectSensors, sensors, shots, signOffs, targets } from "~/db/schema";
-import { DEFAULT_RULE, inPeriod, sensorReport, type ReportShot, type Rule, type SensorReport } from "~/domain";
-import { periodDay, periodWhere, RECOMPUTE_ACTION, ruleOf, sensorSpecOf, type Actor, type QueryError } from "./shots.server";
+import { auditLog, checkSessions, edms, exclusions, projects, projectSensors, sensors, shots, signOffs, tapes, targets } from "~/db/schema";
+import { DEFAULT_RULE, inPeriod, pastDueOn, sensorReport, type ReportShot, type Rule, type SensorReport } from "~/domain";
+import { periodDay, periodWhere, RECOMPUTE_ACTION, RULE_COLUMNS, ruleOf, sensorSpecOf, type Actor, type QueryError } from "./shots.server";
 import type { RecordError } from "./sync-schemas";
 
 export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; projectId?: string };
 
+/** issue 15: a certificate behind the report and the sessions it was past due on (ranging.md §7). */
+export type TraceabilityEntry = { kind: "sensor" | "tape" | "edm"; id: string; label: string; number: string | null; laboratory: string | null; issued: string | null; due: string | null; expiredOnSessions: string[] };
+
 /** The report exactly as api.md lists its fields (the domain's `failed` is the tests with pass false). */
-export type SensorReportJson = { sensorId: string; rule: { minShots: number; coverageK: number; minWithinPct: number } } & Omit<
-  SensorReport,
-  "failed"
-> & { airDefaulted: string[] };
+export type SensorReportJson = {
+  sensorId: string;
+  rule: {
+    minShots: number;
+    coverageK: number;
+    minWithinPct: number;
+    referenceRatio: number;
+    referenceInVerdict: boolean;
+    statement: "rmse" | "nssda95";
+    edmUncertaintyMm: number | null;
+    edmUncertaintyPpm: number | null;
+  };
+  /** The project whose rule judged the report; null for the default rule. */
+  ruleProjectId: string | null;
+} & Omit<SensorReport, "failed"> & { airDefaulted: string[]; traceability: TraceabilityEntry[] };
 
 export type SensorSummary = {
   id: string;
@@ -72,6 +86,7 @@ const reportColumns = {
   excluded: shots.excluded,
   wrap: shots.wrap,
   airDefaulted: shots.airDefaulted,
+  referenceUncertaintyMm: shots.referenceUncertaintyMm,
 };
 
 // ---------------------------------------------------------------------------------------------
@@ -104,6 +119,7 @@ function packedQuery(db: Db, where: SQL[]) {
       repeatabilityMm: exactOrNull(shots.repeatabilityMm).as("repeatability_mm"),
       reflectancePct: exact(shots.reflectancePct).as("reflectance_pct"),
       illuminanceKlux: exactOrNull(shots.illuminanceKlux).as("illuminance_klux"),
+      referenceUncertaintyMm: exactOrNull(shots.referenceUncertaintyMm).as("reference_uncertainty_mm"),
       bits: sql<number>`(${shots.retro} + 2 * ${shots.excluded} + 4 * ${shots.wrap} + 8 * ${shots.airDefaulted})`.as("bits"),
     })
     .from(shots)
@@ -122,6 +138,7 @@ function packedQuery(db: Db, where: SQL[]) {
       repeatabilityMm: gc(o.repeatabilityMm),
       reflectancePct: gc(o.reflectancePct),
       illuminanceKlux: gc(o.illuminanceKlux),
+      referenceUncertaintyMm: gc(o.referenceUncertaintyMm),
       bits: gc(o.bits),
     })
     .from(o);
@@ -157,14 +174,15 @@ function unpack(p: Packed | undefined, sessions: { id: string; startedAt: string
   const refl = numbers(p.reflectancePct, n);
   const lux = numbers(p.illuminanceKlux, n);
   const bits = numbers(p.bits, n);
-  if (!ref || !range || !err || !rep || !refl || !lux || !bits) return null;
+  const unc = numbers(p.referenceUncertaintyMm, n);
+  if (!ref || !range || !err || !rep || !refl || !lux || !bits || !unc) return null;
   // one string per session, not one per shot
   const started = new Map(sessions.map((s) => [s.id, s] as const));
   const out: ReportShot[] = new Array(n);
   for (let i = 0; i < n; i++) {
     const s = started.get(ses[i]!);
-    const r = ref[i], g = range[i], e = err[i], q = rep[i], f = refl[i], l = lux[i], b = bits[i];
-    if (!s || !isNum(r) || !isNum(g) || !isNum(e) || !isNum(f) || !isNum(b) || (q !== null && !isNum(q)) || (l !== null && !isNum(l))) return null;
+    const r = ref[i], g = range[i], e = err[i], q = rep[i], f = refl[i], l = lux[i], b = bits[i], u = unc[i];
+    if (!s || !isNum(r) || !isNum(g) || !isNum(e) || !isNum(f) || !isNum(b) || (q !== null && !isNum(q)) || (l !== null && !isNum(l)) || (u !== null && !isNum(u))) return null;
     // kept rows are shared by every report of the sensor: frozen, like the reports
     out[i] = Object.freeze({
       id: ids[i]!,
@@ -181,6 +199,7 @@ function unpack(p: Packed | undefined, sessions: { id: string; startedAt: string
       excluded: (b & 2) !== 0,
       wrap: (b & 4) !== 0,
       airDefaulted: (b & 8) !== 0,
+      referenceUncertaintyMm: u,
     });
   }
   return out;
@@ -293,11 +312,24 @@ function stampOf([a, b, c]: StampRows): ShotsStamp {
 const sameStamp = (a: ShotsStamp, b: ShotsStamp) =>
   a.maxRowid === b.maxRowid && a.exclusions === b.exclusions && a.restored === b.restored && a.recomputes === b.recomputes && a.lastRecompute === b.lastRecompute;
 
-const ruleCols = { minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM };
+const ruleCols = { id: projects.id, ...RULE_COLUMNS };
+
+/** issue 15: the certificates of the (small) tape and EDM registries, read with every report's state. */
+const certCols = <T extends typeof tapes | typeof edms>(t: T) => ({
+  id: t.id,
+  label: t.label,
+  number: t.certNumber,
+  laboratory: t.certLaboratory,
+  issued: t.certIssued,
+  due: t.certDue,
+});
+type CertRow = { id: string; label: string; number: string | null; laboratory: string | null; issued: string | null; due: string | null };
 
 type State = {
   sensor: typeof sensors.$inferSelect | undefined;
-  rule: { rule: Rule } | QueryError;
+  rule: { rule: Rule; projectId: string | null } | QueryError;
+  tapeCerts: CertRow[];
+  edmCerts: CertRow[];
   lastBias: number | null;
   stamp: ShotsStamp;
   /** Everything above as one string: the cached report of a query is good while it is unchanged. */
@@ -310,7 +342,7 @@ type State = {
  * ranging.md §6), the bias of the last approved sign-off (drift) and the stamp of the shots.
  */
 async function readState(db: Db, sensorId: string, projectId: string | undefined): Promise<State> {
-  const [sensorRows, ruleRows, biasRows, ...stamps] = await db.batch([
+  const [sensorRows, ruleRows, biasRows, tapeCerts, edmCerts, ...stamps] = await db.batch([
     db.select().from(sensors).where(eq(sensors.id, sensorId)),
     db
       .select(ruleCols)
@@ -327,17 +359,30 @@ async function readState(db: Db, sensorId: string, projectId: string | undefined
       .where(and(eq(signOffs.sensorId, sensorId), eq(signOffs.decision, "approved")))
       .orderBy(desc(signOffs.createdAt))
       .limit(1),
+    db.select(certCols(tapes)).from(tapes),
+    db.select(certCols(edms)).from(edms),
     ...stampQueries(db, sensorId),
   ]);
   const rule: State["rule"] = projectId
     ? ruleRows[0]
-      ? { rule: ruleOf(ruleRows[0]) }
+      ? { rule: ruleOf(ruleRows[0]), projectId: ruleRows[0].id }
       : { status: 404, body: { error: `No project ${projectId}.` } }
-    : { rule: ruleRows.length === 1 ? ruleOf(ruleRows[0]!) : DEFAULT_RULE };
+    : ruleRows.length === 1
+      ? { rule: ruleOf(ruleRows[0]!), projectId: ruleRows[0]!.id }
+      : { rule: DEFAULT_RULE, projectId: null };
   const lastBias = biasRows[0]?.biasMm ?? null;
   const stamp = stampOf(stamps as StampRows);
   const sensor = sensorRows[0];
-  return { sensor, rule, lastBias, stamp, fingerprint: JSON.stringify([sensor, "rule" in rule ? rule.rule : null, lastBias, stamp]) };
+  // the certificates are part of the report (traceability): an edit to one is a new report
+  return {
+    sensor,
+    rule,
+    tapeCerts,
+    edmCerts,
+    lastBias,
+    stamp,
+    fingerprint: JSON.stringify([sensor, "rule" in rule ? [rule.rule, rule.projectId] : null, lastBias, stamp, tapeCerts, edmCerts]),
+  };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -353,12 +398,15 @@ const JSON_BUDGET = 96 * 1024 * 1024;
 type RowsEntry = { born: string; stamp: ShotsStamp; shots: readonly ReportShot[] };
 type ReportEntry = { fingerprint: string; built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
 type Appended = { rowid: number; shot: ReportShot };
-type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry>; appended: Map<string, Appended[]> };
+type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry>; appended: Map<string, Appended[]>; uses: Map<string, UsesEntry> };
+/** issue 15: which tape or EDM each (session, day) of a sensor used; changes only with new or recomputed shots. */
+type Use = { sessionId: string; tapeId: string | null; edmId: string | null; day: string };
+type UsesEntry = { key: string; uses: Use[] };
 const cachesByDb = new WeakMap<Db, Caches>();
 
 function cachesOf(db: Db): Caches {
   let c = cachesByDb.get(db);
-  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map(), appended: new Map() }));
+  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map(), appended: new Map(), uses: new Map() }));
   return c;
 }
 
@@ -499,6 +547,11 @@ function freezeReport(body: SensorReportJson) {
   for (const s of body.shots) Object.freeze(s.flags);
   if (body.biasCi95Mm) Object.freeze(body.biasCi95Mm);
   Object.freeze(body.airDefaulted);
+  for (const t of body.traceability) {
+    Object.freeze(t.expiredOnSessions);
+    Object.freeze(t);
+  }
+  Object.freeze(body.traceability);
   Object.freeze(body.coverage);
   Object.freeze(body.rule);
   Object.freeze(body);
@@ -507,13 +560,23 @@ function freezeReport(body: SensorReportJson) {
 // ---------------------------------------------------------------------------------------------
 // The report.
 
-function toJson(sensorId: string, rule: Rule, r: SensorReport, shotsIn: readonly ReportShot[]): SensorReportJson {
+function toJson(sensorId: string, rule: Rule, ruleProjectId: string | null, r: SensorReport, shotsIn: readonly ReportShot[], traceability: TraceabilityEntry[]): SensorReportJson {
   const defaulted = new Set<string>();
   for (const s of shotsIn) if (s.airDefaulted && !s.excluded) defaulted.add(s.sessionId);
   // api.md's field order
   return {
     sensorId,
-    rule: { minShots: rule.minShots, coverageK: rule.coverageK, minWithinPct: rule.minWithinPct },
+    rule: {
+      minShots: rule.minShots,
+      coverageK: rule.coverageK,
+      minWithinPct: rule.minWithinPct,
+      referenceRatio: rule.referenceRatio ?? 2,
+      referenceInVerdict: rule.referenceInVerdict ?? false,
+      statement: rule.statement ?? "rmse",
+      edmUncertaintyMm: rule.edmUncertaintyMm ?? null,
+      edmUncertaintyPpm: rule.edmUncertaintyPpm ?? null,
+    },
+    ruleProjectId,
     n: r.n,
     excluded: r.excluded,
     biasMm: r.biasMm,
@@ -528,6 +591,13 @@ function toJson(sensorId: string, rule: Rule, r: SensorReport, shotsIn: readonly
     zeroOffsetSeMm: r.zeroOffsetSeMm,
     scalePpm: r.scalePpm,
     scaleSePpm: r.scaleSePpm,
+    // ranging.md §7 (issue 15)
+    zeroOffsetT: r.zeroOffsetT,
+    zeroOffsetSignificant: r.zeroOffsetSignificant,
+    referenceRmseMm: r.referenceRmseMm,
+    referenceUnknownN: r.referenceUnknownN,
+    rmseCombinedMm: r.rmseCombinedMm,
+    statement: r.statement,
     tests: r.tests,
     verdict: r.verdict,
     byReflectance: r.byReflectance,
@@ -537,8 +607,98 @@ function toJson(sensorId: string, rule: Rule, r: SensorReport, shotsIn: readonly
     airDefaulted: r.drift.map((d) => d.sessionId).filter((id) => defaulted.has(id)),
     coverage: r.coverage,
     drift: r.drift,
+    traceability,
     shots: r.shots,
   };
+}
+
+/**
+ * ranging.md §7 traceability: the sensor when it has a certificate; each tape or reference EDM
+ * any shot of the selection used, with the sessions whose own date was after its due date.
+ * Uses of a tape or EDM are read per (session, day) from the raw records: a few rows per session.
+ */
+/**
+ * The (session, day, tape, EDM) uses of all the sensor's shots, read once per state of its shots
+ * (new or recomputed shots; exclusions do not change them) and filtered per selection in memory.
+ */
+async function usesOf(db: Db, sensor: typeof sensors.$inferSelect, stamp: ShotsStamp | null): Promise<Use[]> {
+  const caches = cachesOf(db);
+  const key = stamp ? JSON.stringify([sensor.createdAt, stamp.maxRowid, stamp.recomputes, stamp.lastRecompute]) : null;
+  const have = caches.uses.get(sensor.id);
+  if (key && have && have.key === key) return have.uses;
+  const tapeId = sql<string | null>`json_extract(${shots.raw}, '$.reference.tape.tapeId')`;
+  const edmId = sql<string | null>`json_extract(${shots.raw}, '$.reference.edmId')`;
+  const day = sql<string>`substr(${shots.takenAt}, 1, 10)`;
+  const uses = await db
+    .select({ sessionId: shots.sessionId, tapeId, edmId, day })
+    .from(shots)
+    .where(and(eq(shots.sensorId, sensor.id), inArray(shots.referenceMethod, ["tape", "edm"])))
+    .groupBy(shots.sessionId, tapeId, edmId, day);
+  // (max rowid over the whole table: a shot written meanwhile only makes the key stale, never wrong)
+  if (key) {
+    caches.uses.delete(sensor.id);
+    caches.uses.set(sensor.id, { key, uses });
+    if (caches.uses.size > 1000) caches.uses.delete(caches.uses.keys().next().value!);
+  }
+  return uses;
+}
+
+async function traceabilityOf(
+  db: Db,
+  sensor: typeof sensors.$inferSelect,
+  stamp: ShotsStamp | null,
+  q: ReportQuery,
+  selection: readonly ReportShot[],
+  tapeCerts: CertRow[],
+  edmCerts: CertRow[],
+): Promise<TraceabilityEntry[]> {
+  const startedAt = new Map<string, string>();
+  for (const s of selection) if (!startedAt.has(s.sessionId)) startedAt.set(s.sessionId, s.sessionStartedAt);
+  const expired = (due: string | null, ids: Iterable<string>) =>
+    [...ids].filter((id) => pastDueOn(due, startedAt.get(id) ?? "")).sort((a, b) => (startedAt.get(a)! < startedAt.get(b)! ? -1 : 1));
+  const out: TraceabilityEntry[] = [];
+  if (sensor.certNumber || sensor.certDue) {
+    out.push({
+      kind: "sensor",
+      id: sensor.id,
+      label: sensor.label,
+      number: sensor.certNumber,
+      laboratory: sensor.certLaboratory,
+      issued: sensor.certIssued,
+      due: sensor.certDue,
+      expiredOnSessions: expired(sensor.certDue, startedAt.keys()),
+    });
+  }
+  if (!selection.length) return out;
+  const from = q.from ? periodDay(q.from) : null;
+  const to = q.to ? periodDay(q.to) : null;
+  const used = { tape: new Map<string, Set<string>>(), edm: new Map<string, Set<string>>() };
+  for (const u of await usesOf(db, sensor, stamp)) {
+    // the selection's sessions (startedAt holds them) and its period, by the shot's own day
+    if (!startedAt.has(u.sessionId) || !inPeriod(u.day, from, to)) continue;
+    for (const [kind, id] of [["tape", u.tapeId], ["edm", u.edmId]] as const) {
+      if (!id) continue;
+      if (!used[kind].has(id)) used[kind].set(id, new Set());
+      used[kind].get(id)!.add(u.sessionId);
+    }
+  }
+  for (const [kind, certs] of [["tape", tapeCerts], ["edm", edmCerts]] as const) {
+    const byId = new Map(certs.map((c) => [c.id, c]));
+    for (const [id, sessionsUsed] of [...used[kind]].sort(([a], [b]) => (a < b ? -1 : 1))) {
+      const c = byId.get(id);
+      out.push({
+        kind,
+        id,
+        label: c?.label ?? id,
+        number: c?.number ?? null,
+        laboratory: c?.laboratory ?? null,
+        issued: c?.issued ?? null,
+        due: c?.due ?? null,
+        expiredOnSessions: expired(c?.due ?? null, sessionsUsed),
+      });
+    }
+  }
+  return out;
 }
 
 type Built = { status: 200; body: SensorReportJson; sensor: { id: string; label: string; serial: string; kind: "pulsed" | "cw" }; rule: Rule; details: LoadedShot[] };
@@ -565,13 +725,15 @@ async function report(sensorId: string, query: ReportQuery | URLSearchParams, op
   if (!row) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
   if ("status" in state.rule) return state.rule;
   const rule = state.rule.rule;
+  const ruleProjectId = state.rule.projectId;
   const sensor = { id: row.id, label: row.label, serial: row.serial, kind: row.kind };
-  const compute = (list: readonly ReportShot[]): Built => {
+  const compute = async (list: readonly ReportShot[]): Promise<Built> => {
     const r = sensorReport({ sensor: sensorSpecOf(row), rule, shots: list as ReportShot[], lastSignedOffBiasMm: state.lastBias });
-    return { status: 200, body: toJson(sensorId, rule, r, list), sensor, rule, details: list as LoadedShot[] };
+    const trace = await traceabilityOf(db, row, state.stamp, q, list, state.tapeCerts, state.edmCerts);
+    return { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, list, trace), sensor, rule, details: list as LoadedShot[] };
   };
   // note and target label per shot (the CSV export): read as they are, not kept
-  if (opts.details) return { built: compute(await loadReportShots(sensorId, q, opts, db)), entry: null };
+  if (opts.details) return { built: await compute(await loadReportShots(sensorId, q, opts, db)), entry: null };
 
   const caches = cachesOf(db);
   const key = queryKey(sensorId, q);
@@ -581,7 +743,7 @@ async function report(sensorId: string, query: ReportQuery | URLSearchParams, op
     return { built: hit.built, entry: hit };
   }
   const rows = await sensorRows(db, caches, sensorId, row.createdAt, state.stamp);
-  const built = compute(selectShots(rows.shots, q));
+  const built = await compute(selectShots(rows.shots, q));
   caches.reports.delete(key);
   if (!rows.fresh) return { built, entry: null }; // the shots moved on meanwhile: the next request computes afresh
   freezeReport(built.body);

@@ -8,6 +8,7 @@ import { auditLog, checkSessions, sensors, users } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import { recomputeShotsForSensor } from "~/models/shots.server";
 import {
+  certificateColumns,
   invalid,
   issuesToErrors,
   sensorSchema,
@@ -60,6 +61,8 @@ function contentOf(b: SensorBody, withNotes: boolean) {
     tolerancePpm: b.tolerancePpm,
     outdoor: b.outdoor,
     calibrationDue: b.calibrationDue ?? null,
+    laserClass: b.laserClass ?? null,
+    ...certificateColumns(b.certificate),
     ...(withNotes ? { notes: b.notes ?? "" } : {}),
   };
 }
@@ -77,6 +80,11 @@ function rowContent(r: SensorRow, withNotes: boolean) {
     tolerancePpm: r.tolerancePpm,
     outdoor: r.outdoor,
     calibrationDue: r.calibrationDue ?? null,
+    laserClass: r.laserClass ?? null,
+    certNumber: r.certNumber ?? null,
+    certLaboratory: r.certLaboratory ?? null,
+    certIssued: r.certIssued ?? null,
+    certDue: r.certDue ?? null,
     ...(withNotes ? { notes: r.notes } : {}),
   };
 }
@@ -215,7 +223,7 @@ export async function sensorUsage(id: string): Promise<{ sessions: number }> {
 }
 
 /** The audit rows of one registry record, newest first, with who made each change. */
-export async function registryHistory(entity: "sensor" | "tape" | "site" | "project", id: string, limit = 50) {
+export async function registryHistory(entity: "sensor" | "tape" | "site" | "project" | "edm", id: string, limit = 50) {
   const rows = await getDb()
     .select({ at: auditLog.at, action: auditLog.action, detail: auditLog.detail, actorName: users.name, actorEmail: users.email })
     .from(auditLog)

@@ -4,7 +4,7 @@
 import { and, asc, eq, gt, gte, inArray, isNotNull, lt, lte, or, sql, type SQL } from "drizzle-orm";
 import type { SQLiteColumn } from "drizzle-orm/sqlite-core";
 import { getDb, type Db } from "~/db/client.server";
-import { auditLog, checkSessions, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
+import { auditLog, checkSessions, edms, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
 import {
   computeShot,
   DEFAULT_RULE,
@@ -13,7 +13,9 @@ import {
   MAD_TO_SIGMA,
   median,
   OUTLIER_K,
+  referenceUncertaintyMm,
   type AirInput,
+  type LinearUncertainty,
   type Position,
   type ReferenceInput,
   type Rule,
@@ -29,16 +31,20 @@ export type Actor = { id: string; role: string };
 // Registry data a computation needs, loaded once per request (or per recompute).
 
 export type SensorEntry = SensorSpec & { label: string; retiredAt: string | null };
-export type PlaceEntry = { siteId: string; position: Position };
+export type PlaceEntry = { siteId: string; position: Position; sigmaMm?: number | null };
+/** A tape's constants and its certificate's uncertainty (issue 15). */
+export type TapeEntry = TapeSpec & LinearUncertainty;
 export type TargetEntry = PlaceEntry & { retro: boolean };
 
 export type RegistryContext = {
   sensors: Map<string, SensorEntry>;
   sites: Set<string>;
-  tapes: Map<string, TapeSpec>;
+  tapes: Map<string, TapeEntry>;
   stations: Map<string, PlaceEntry>;
   targets: Map<string, TargetEntry>;
   rules: Map<string, Rule>;
+  /** issue 15: the reference EDMs (a small registry, read whole) */
+  edms: Map<string, LinearUncertainty>;
 };
 
 /** What a shot takes from its session. */
@@ -89,14 +95,45 @@ export function sensorSpecOf(r: typeof sensors.$inferSelect): SensorEntry {
   };
 }
 
-export function ruleOf(p: { minShots: number; coverageK: number; minWithinPct: number; rangeBandEdgesM: number[] | null }): Rule {
+type RuleRow = {
+  minShots: number;
+  coverageK: number;
+  minWithinPct: number;
+  rangeBandEdgesM: number[] | null;
+  // issue 15 (ranging.md §7); optional so older callers still fit
+  referenceRatio?: number | null;
+  referenceInVerdict?: boolean | null;
+  statement?: "rmse" | "nssda95" | null;
+  edmUncertaintyMm?: number | null;
+  edmUncertaintyPpm?: number | null;
+};
+
+export function ruleOf(p: RuleRow): Rule {
   return {
     minShots: p.minShots,
     coverageK: p.coverageK,
     minWithinPct: p.minWithinPct,
-    rangeBandEdgesM: p.rangeBandEdgesM && p.rangeBandEdgesM.length ? p.rangeBandEdgesM : DEFAULT_RULE.rangeBandEdgesM,
+    rangeBandEdgesM: p.rangeBandEdgesM && p.rangeBandEdgesM.length ? [...p.rangeBandEdgesM] : [...DEFAULT_RULE.rangeBandEdgesM],
+    referenceRatio: p.referenceRatio ?? 2,
+    referenceInVerdict: p.referenceInVerdict ?? false,
+    statement: p.statement ?? "rmse",
+    edmUncertaintyMm: p.edmUncertaintyMm ?? null,
+    edmUncertaintyPpm: p.edmUncertaintyPpm ?? null,
   };
 }
+
+/** The project columns of its acceptance rule (ranging.md §6–7). */
+export const RULE_COLUMNS = {
+  minShots: projects.minShots,
+  coverageK: projects.coverageK,
+  minWithinPct: projects.minWithinPct,
+  rangeBandEdgesM: projects.rangeBandEdgesM,
+  referenceRatio: projects.referenceRatio,
+  referenceInVerdict: projects.referenceInVerdict,
+  statement: projects.statement,
+  edmUncertaintyMm: projects.edmUncertaintyMm,
+  edmUncertaintyPpm: projects.edmUncertaintyPpm,
+};
 
 /** The queries of a registry context, to run in one batch (one transaction, one round trip). */
 export function registryQueries(need: Need, db: Db = getDb()) {
@@ -122,19 +159,21 @@ export function registryQueries(need: Need, db: Db = getDb()) {
         modulusGPa: tapes.modulusGPa,
         weightNPerM: tapes.weightNPerM,
         calibrationPpm: tapes.calibrationPpm,
+        uncertaintyMm: tapes.uncertaintyMm,
+        uncertaintyPpm: tapes.uncertaintyPpm,
       })
       .from(tapes)
       .where(inArray(tapes.id, tapeIds)),
     db
-      .select({ id: stations.id, siteId: stations.siteId, gridE: stations.gridE, gridN: stations.gridN, gridH: stations.gridH, lat: stations.lat, lon: stations.lon, h: stations.h })
+      .select({ id: stations.id, siteId: stations.siteId, gridE: stations.gridE, gridN: stations.gridN, gridH: stations.gridH, lat: stations.lat, lon: stations.lon, h: stations.h, sigmaMm: stations.sigmaMm })
       .from(stations)
       .where(sitesWhere(stations.siteId)),
     db
-      .select({ id: targets.id, siteId: targets.siteId, retro: targets.retro, gridE: targets.gridE, gridN: targets.gridN, gridH: targets.gridH, lat: targets.lat, lon: targets.lon, h: targets.h })
+      .select({ id: targets.id, siteId: targets.siteId, retro: targets.retro, gridE: targets.gridE, gridN: targets.gridN, gridH: targets.gridH, lat: targets.lat, lon: targets.lon, h: targets.h, sigmaMm: targets.sigmaMm })
       .from(targets)
       .where(sitesWhere(targets.siteId)),
     db
-      .select({ id: projects.id, minShots: projects.minShots, coverageK: projects.coverageK, minWithinPct: projects.minWithinPct, rangeBandEdgesM: projects.rangeBandEdgesM })
+      .select({ id: projects.id, ...RULE_COLUMNS })
       .from(projects)
       .where(
         or(
@@ -143,20 +182,22 @@ export function registryQueries(need: Need, db: Db = getDb()) {
           ofSensors.length ? inArray(projects.id, db.select({ id: projectSensors.projectId }).from(projectSensors).where(inArray(projectSensors.sensorId, ofSensors))) : undefined,
         ),
       ),
+    db.select({ id: edms.id, uncertaintyMm: edms.uncertaintyMm, uncertaintyPpm: edms.uncertaintyPpm }).from(edms),
   ] as const;
 }
 
 const registryBatch = (need: Need, db: Db) => db.batch(registryQueries(need, db));
 type RegistryRows = Awaited<ReturnType<typeof registryBatch>>;
 
-export function registryContextOf([sensorRows, siteRows, tapeRows, stationRows, targetRows, projectRows]: RegistryRows): RegistryContext {
+export function registryContextOf([sensorRows, siteRows, tapeRows, stationRows, targetRows, projectRows, edmRows]: RegistryRows): RegistryContext {
   return {
     sensors: new Map(sensorRows.map((r) => [r.id, sensorSpecOf(r)])),
     sites: new Set(siteRows.map((r) => r.id)),
     tapes: new Map(tapeRows.map(({ id, ...t }) => [id, t])),
-    stations: new Map(stationRows.map((r) => [r.id, { siteId: r.siteId, position: positionOf(r) }])),
-    targets: new Map(targetRows.map((r) => [r.id, { siteId: r.siteId, retro: r.retro, position: positionOf(r) }])),
-    rules: new Map(projectRows.map((r) => [r.id, ruleOf(r)])),
+    stations: new Map(stationRows.map((r) => [r.id, { siteId: r.siteId, position: positionOf(r), sigmaMm: r.sigmaMm }])),
+    targets: new Map(targetRows.map((r) => [r.id, { siteId: r.siteId, retro: r.retro, position: positionOf(r), sigmaMm: r.sigmaMm }])),
+    rules: new Map(projectRows.map(({ id, ...r }) => [id, ruleOf(r)])),
+    edms: new Map(edmRows.map(({ id, ...e }) => [id, e])),
   };
 }
 
@@ -200,7 +241,7 @@ export const pairKey = (sensorId: string, siteId: string) => `${sensorId}\u0000$
 export type ComputedColumns = Pick<
   ShotComputed,
   "referenceM" | "rangeM" | "errorMm" | "toleranceMm" | "limitMm" | "within" | "repeatabilityMm" | "readingsCount" | "wrap" | "unambiguousM"
-> & { retro: boolean; airDefaulted: boolean };
+> & { retro: boolean; airDefaulted: boolean; referenceUncertaintyMm: number | null };
 
 export type ShotOutcome = { ok: true; columns: ComputedColumns; computed: ShotComputed } | { ok: false; errors: RecordError[] };
 
@@ -234,14 +275,23 @@ export function computeShotRecord(shot: SyncShot, session: SessionFacts, ctx: Re
   }
   const ref = shot.reference;
   let reference: ReferenceInput;
+  // ranging.md §7: the sources of u_ref, resolved with the rest of the registry
+  let edm: LinearUncertainty | null = null;
+  let tapeEntry: TapeEntry | null = null;
+  let station: PlaceEntry | undefined;
   if (ref.method === "edm") {
     reference = { method: "edm", distanceM: ref.distanceM };
+    if (ref.edmId) {
+      edm = ctx.edms.get(ref.edmId) ?? null;
+      if (!edm) return { ok: false, errors: [{ path: "reference.edmId", message: `reference EDM ${ref.edmId} is not in the registry` }] };
+    }
   } else if (ref.method === "tape") {
     const tape = ctx.tapes.get(ref.tape.tapeId);
     if (!tape) return { ok: false, errors: [{ path: "reference.tape.tapeId", message: `tape ${ref.tape.tapeId} is not in the registry` }] };
+    tapeEntry = tape;
     reference = { method: "tape", distanceM: ref.distanceM, tape, tempC: ref.tape.tempC, tensionN: ref.tape.tensionN, support: ref.tape.support, spans: ref.tape.spans };
   } else {
-    const station = ctx.stations.get(ref.stationId);
+    station = ctx.stations.get(ref.stationId);
     if (!station || station.siteId !== session.siteId) {
       return { ok: false, errors: [{ path: "reference.stationId", message: `station ${ref.stationId} is not a station of the session's site` }] };
     }
@@ -249,7 +299,18 @@ export function computeShotRecord(shot: SyncShot, session: SessionFacts, ctx: Re
     reference = { method: "coordinates", station: station.position, target: target.position, instrumentHeightM: ref.instrumentHeightM, targetHeightM: ref.targetHeightM };
   }
   try {
-    const computed = computeShot({ sensor, air: session.air, reference, readings: shot.readings as ShotInputReadings, rule: ruleFor(session, ctx) });
+    const rule = ruleFor(session, ctx);
+    const computed = computeShot({ sensor, air: session.air, reference, readings: shot.readings as ShotInputReadings, rule });
+    const u = referenceUncertaintyMm({
+      method: ref.method,
+      explicitMm: ref.uncertaintyMm ?? null,
+      distanceM: ref.method === "coordinates" ? computed.referenceM : ref.distanceM,
+      tape: tapeEntry,
+      stationSigmaMm: station?.sigmaMm ?? null,
+      targetSigmaMm: target?.sigmaMm ?? null,
+      edm,
+      ruleEdm: rule,
+    });
     return {
       ok: true,
       computed,
@@ -266,6 +327,7 @@ export function computeShotRecord(shot: SyncShot, session: SessionFacts, ctx: Re
         unambiguousM: computed.unambiguousM,
         retro: target?.retro ?? false,
         airDefaulted: computed.airDefaulted.length > 0,
+        referenceUncertaintyMm: u,
       },
     };
   } catch (e) {
@@ -320,7 +382,7 @@ export const RECOMPUTE_ACTION = "shots.recompute";
 
 const UPDATE_SQL =
   "UPDATE shots SET reference_m = ?, range_m = ?, error_mm = ?, tolerance_mm = ?, limit_mm = ?, within = ?, repeatability_mm = ?, " +
-  "readings_count = ?, wrap = ?, unambiguous_m = ?, retro = ?, air_defaulted = ?, computed_at = ? WHERE id = ?";
+  "readings_count = ?, wrap = ?, unambiguous_m = ?, retro = ?, air_defaulted = ?, reference_uncertainty_mm = ?, computed_at = ? WHERE id = ?";
 
 async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
   const rows = await db
@@ -387,7 +449,7 @@ async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
     perSensor.set(row.shotSensorId, (perSensor.get(row.shotSensorId) ?? 0) + 1);
     stmts.push({
       sql: UPDATE_SQL,
-      args: [c.referenceM, c.rangeM, c.errorMm, c.toleranceMm, c.limitMm, c.within ? 1 : 0, c.repeatabilityMm, c.readingsCount, c.wrap ? 1 : 0, c.unambiguousM, c.retro ? 1 : 0, c.airDefaulted ? 1 : 0, now, row.id],
+      args: [c.referenceM, c.rangeM, c.errorMm, c.toleranceMm, c.limitMm, c.within ? 1 : 0, c.repeatabilityMm, c.readingsCount, c.wrap ? 1 : 0, c.unambiguousM, c.retro ? 1 : 0, c.airDefaulted ? 1 : 0, c.referenceUncertaintyMm, now, row.id],
     });
   }
   if (failed) console.warn(`recompute: ${failed} of ${rows.length} shots could not be recomputed and keep their previous figures`);
@@ -415,6 +477,11 @@ export function recomputeShotsForProject(projectId: string): Promise<number> {
 /** After a site's stations or targets were resurveyed. */
 export function recomputeShotsForSite(siteId: string): Promise<number> {
   return recomputeWhere(eq(checkSessions.siteId, siteId));
+}
+
+/** After a reference EDM's uncertainty changed (issue 15). */
+export function recomputeShotsForEdm(edmId: string): Promise<number> {
+  return recomputeWhere(sql`json_extract(${shots.raw}, '$.reference.edmId') = ${edmId}`);
 }
 
 /** After a tape's constants changed. */

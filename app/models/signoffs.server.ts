@@ -11,6 +11,7 @@ import { listUserEmailsByRole } from "~/models/users.server";
 import { buildSensorReport, computeSensorReport } from "~/models/reports.server";
 import { matrixCells, worstCell, type MatrixCell } from "~/components/review/matrix";
 import type { ReportJson } from "~/components/review/types";
+import { accuracyStatement, verdictFailures } from "~/domain";
 import type { SignOffInput } from "~/components/review/signoff-schema";
 
 export type ReviewActor = { id: string; role: Role; name?: string; email?: string };
@@ -66,6 +67,12 @@ export type SensorOverviewRow = {
   lastSignOff: { decision: "approved" | "rejected"; createdAt: string; byName: string } | null;
   /** Where it goes wrong most: the reflectance × illuminance cell with the largest |bias|. */
   worst: MatrixCell | null;
+  /** issue 15: what the overview leads with, in the rule's statement style (ranging.md §7). */
+  headlineMm: number | null;
+  headlineLabel: string;
+  statement: "rmse" | "nssda95";
+  /** Certificates past due on some session of the selection. */
+  expiredCertificates: number;
 };
 
 /** The report with the per-shot reflectance and illuminance the matrix needs. */
@@ -116,7 +123,7 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
     out.push({
       ...s,
       verdict: r?.verdict ?? "insufficient",
-      failed: r ? r.tests.filter((t) => !t.pass).map((t) => t.name) : ["count"],
+      failed: r ? verdictFailures(r.tests, r.rule.referenceInVerdict) : ["count"],
       n: r?.n ?? 0,
       excluded: r?.excluded ?? 0,
       biasMm: r?.biasMm ?? null,
@@ -125,6 +132,11 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
       trace: (r?.drift ?? []).map((d) => ({ startedAt: d.startedAt, biasMm: d.biasMm, flag: d.flag })),
       lastSignOff: last,
       worst: r && r.verdict !== "pass" && rc ? worstCell(rc.cells) : null,
+      ...(() => {
+        const st = accuracyStatement(r ?? { n: 0, rmseMm: null, rmseCombinedMm: null, accuracy95Mm: null, referenceUnknownN: 0 }, r?.statement ?? "rmse");
+        return { headlineMm: st.headlineMm, headlineLabel: st.headlineLabel, statement: st.style };
+      })(),
+      expiredCertificates: r ? r.traceability.filter((t) => t.expiredOnSessions.length > 0).length : 0,
     });
   }
   // Failing sensors first: the QA lead's first question.
@@ -264,6 +276,9 @@ export async function createSignOff(actor: ReviewActor, sensorId: string, input:
     sensorLabel: `${sensor.label} (${sensor.serial})`,
     decision: input.decision,
     byName: actor.name || actor.email || "QA",
+    // issue 15: the mail leads with the rule's accuracy statement (ranging.md §7)
+    statement: accuracyStatement(report, report.statement).sentence,
+    expired: expiredSummary(report),
     note: [
       `Verdict ${report.verdict}, ${report.n} shots, bias ${report.biasMm == null ? "—" : report.biasMm.toFixed(2)} mm; ${projectName ? `project ${projectName}, ` : ""}${period}.`,
       note,
@@ -273,6 +288,12 @@ export async function createSignOff(actor: ReviewActor, sensorId: string, input:
     reportUrl: `/review/sensors/${sensorId}`,
   });
   return { id, verdict: report.verdict, recipients, mailOk: mail.ok };
+}
+
+/** issue 15: certificates past due on some sessions of the report, as one line (or ""). */
+function expiredSummary(report: ReportJson): string {
+  const late = report.traceability.filter((t) => t.expiredOnSessions.length > 0);
+  return late.map((t) => `${t.kind} ${t.label} certificate ${t.number ?? ""} due ${t.due} was past due on ${t.expiredOnSessions.length} session(s)`).join("; ");
 }
 
 const VERDICT_SEEN = "sensor.verdict";
@@ -301,7 +322,7 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
     await audit(null, VERDICT_SEEN, "sensor", sensorId, { verdict: report.verdict, from: before });
     if (report.verdict !== "fail") continue;
     const why = report.tests
-      .filter((t) => !t.pass)
+      .filter((t) => verdictFailures([t], report.rule.referenceInVerdict).length > 0)
       .map((t) => `${t.name} ${t.value == null ? "—" : t.value.toFixed(2)} (limit ${t.limit.toFixed(2)})`)
       .join("; ");
     await sendTemplateMail("sensor-failed", await listUserEmailsByRole(["qa"]), {
@@ -310,6 +331,7 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
       biasMm: report.biasMm,
       rmseMm: report.rmseMm,
       withinPct: report.withinPct,
+      statement: accuracyStatement(report, report.statement).sentence,
       summary: `Failed tests: ${why}.`,
       reportUrl: `/review/sensors/${sensorId}`,
     });
@@ -332,6 +354,7 @@ export async function sensorReviewHeader(_actor: ReviewActor, sensorId: string) 
       tolerancePpm: sensors.tolerancePpm,
       calibrationDue: sensors.calibrationDue,
       outdoor: sensors.outdoor,
+      laserClass: sensors.laserClass, // issue 15
     })
     .from(sensors)
     .where(eq(sensors.id, sensorId))

@@ -44,10 +44,10 @@ function positionColumns(p: { grid?: GridPoint | null; geo?: GeoPoint | null }) 
   };
 }
 function targetColumns(t: TargetBody) {
-  return { label: t.label, reflectancePct: t.reflectancePct, retro: t.retro, referenceM: t.referenceM ?? null, ...positionColumns(t) };
+  return { label: t.label, reflectancePct: t.reflectancePct, retro: t.retro, referenceM: t.referenceM ?? null, ...positionColumns(t), sigmaMm: t.sigmaMm ?? null };
 }
 function stationColumns(s: StationBody) {
-  return { label: s.label, ...positionColumns(s) };
+  return { label: s.label, ...positionColumns(s), sigmaMm: s.sigmaMm ?? null };
 }
 
 function targetContent(r: TargetRow | TargetBody, withId: boolean) {
@@ -60,6 +60,7 @@ function targetContent(r: TargetRow | TargetBody, withId: boolean) {
     referenceM: r.referenceM ?? null,
     grid: isRow ? gridOf(r) : (r.grid ?? null),
     geo: isRow ? geoOf(r) : (r.geo ?? null),
+    sigmaMm: r.sigmaMm ?? null,
   };
 }
 function stationContent(r: StationRow | StationBody, withId: boolean) {
@@ -69,6 +70,7 @@ function stationContent(r: StationRow | StationBody, withId: boolean) {
     label: r.label,
     grid: isRow ? gridOf(r) : (r.grid ?? null),
     geo: isRow ? geoOf(r) : (r.geo ?? null),
+    sigmaMm: r.sigmaMm ?? null,
   };
 }
 

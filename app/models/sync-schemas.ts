@@ -66,17 +66,23 @@ const tapeUse = z.object({
     .default(1),
 });
 
+/** issue 15: the shot's own standard uncertainty of its reference (mm, k = 1; ranging.md §7). */
+const refUncertainty = optionalNum(
+  num("reference uncertainty").min(0, "reference uncertainty must not be negative").max(1000, "reference uncertainty must be at most 1000 mm"),
+);
+
 export const referenceSchema = z.discriminatedUnion(
   "method",
   [
-    z.object({ method: z.literal("edm"), distanceM: positiveM("reference distance") }),
-    z.object({ method: z.literal("tape"), distanceM: positiveM("taped distance"), tape: tapeUse }),
+    z.object({ method: z.literal("edm"), distanceM: positiveM("reference distance"), uncertaintyMm: refUncertainty, edmId: optionalText("reference EDM", 100) }),
+    z.object({ method: z.literal("tape"), distanceM: positiveM("taped distance"), tape: tapeUse, uncertaintyMm: refUncertainty }),
     // distanceM is not read for coordinates: the server computes it from the surveyed positions.
     z.object({
       method: z.literal("coordinates"),
       stationId: text("station", 100),
       instrumentHeightM: heightM("instrument height"),
       targetHeightM: heightM("target height"),
+      uncertaintyMm: refUncertainty,
     }),
   ],
   { error: 'reference method must be "tape", "edm" or "coordinates"' },

@@ -112,6 +112,7 @@ function handOver(db: Db, rows: (typeof shots.$inferInsert)[], rowidOf: Map<stri
         excluded: !!r.excluded,
         wrap: !!r.wrap,
         airDefaulted: !!r.airDefaulted,
+        referenceUncertaintyMm: r.referenceUncertaintyMm == null ? null : r.referenceUncertaintyMm + 0,
       },
     });
     bySensor.set(r.sensorId, list);

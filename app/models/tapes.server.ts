@@ -6,6 +6,7 @@ import { getDb } from "~/db/client.server";
 import { tapes } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import {
+  certificateColumns,
   invalid,
   issuesToErrors,
   stableStringify,
@@ -28,6 +29,9 @@ function contentOf(b: TapeBody, withNotes: boolean) {
     modulusGPa: b.modulusGPa,
     weightNPerM: b.weightNPerM,
     calibrationPpm: b.calibrationPpm,
+    uncertaintyMm: b.uncertaintyMm ?? null,
+    uncertaintyPpm: b.uncertaintyPpm ?? null,
+    ...certificateColumns(b.certificate),
     ...(withNotes ? { notes: b.notes ?? "" } : {}),
   };
 }
@@ -41,6 +45,12 @@ function rowContent(r: TapeRow, withNotes: boolean) {
     modulusGPa: r.modulusGPa,
     weightNPerM: r.weightNPerM,
     calibrationPpm: r.calibrationPpm,
+    uncertaintyMm: r.uncertaintyMm ?? null,
+    uncertaintyPpm: r.uncertaintyPpm ?? null,
+    certNumber: r.certNumber ?? null,
+    certLaboratory: r.certLaboratory ?? null,
+    certIssued: r.certIssued ?? null,
+    certDue: r.certDue ?? null,
     ...(withNotes ? { notes: r.notes } : {}),
   };
 }
@@ -103,7 +113,8 @@ export async function updateTape(actor: RegistryActor, id: string, body: unknown
     await audit(actorId(actor), "update", "tape", id, changes, tx);
   });
   // Tape-measured reference distances use these constants: recompute the shots that name this tape.
-  const spec = ["standardTempC", "standardTensionN", "areaMm2", "modulusGPa", "weightNPerM", "calibrationPpm"].some((f) => f in changes);
+  // (the certificate's uncertainty is each shot's u_ref of ranging.md §7, stored with the shot)
+  const spec = ["standardTempC", "standardTensionN", "areaMm2", "modulusGPa", "weightNPerM", "calibrationPpm", "uncertaintyMm", "uncertaintyPpm"].some((f) => f in changes);
   const recomputed = spec ? await recomputeShotsForTape(id) : 0;
   return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
 }

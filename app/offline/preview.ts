@@ -1,13 +1,15 @@
 // Instant feedback on the tablet: the shared ranging core (app/domain) run on the record about
 // to be queued. The server recomputes everything itself; this is only for the crew's eyes.
 import { computeShot, DEFAULT_RULE, DomainError, type ReferenceInput, type Rule, type ShotComputed } from "~/domain";
-import type { RefProject, RefSensor, RefSite, RefTape, ShotPreview, SyncSessionRecord, SyncShotRecord } from "./types";
+import type { RefEdm, RefProject, RefSensor, RefSite, RefTape, ShotPreview, SyncSessionRecord, SyncShotRecord } from "./types";
 
 export type PreviewContext = {
   sensor: RefSensor | undefined;
   site: RefSite | undefined;
   tapes: RefTape[];
   project: RefProject | undefined;
+  /** issue 15: reference EDMs the crew may name */
+  edms?: RefEdm[];
 };
 
 export function ruleOf(project: RefProject | undefined): Rule {

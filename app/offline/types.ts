@@ -22,6 +22,9 @@ export type SyncReference = {
   stationId?: string;
   instrumentHeightM?: number;
   targetHeightM?: number;
+  /** issue 15: the shot's own u_ref (mm, k = 1) and, for EDM, the reference EDM used */
+  uncertaintyMm?: number;
+  edmId?: string;
 };
 
 export type SyncReadings =
@@ -108,7 +111,15 @@ export type LocalPhoto = {
 };
 
 // ---------- reference data copied from GET /api/field/reference ----------
-export type RefSensor = SensorSpec & { label: string; serial: string; calibrationDue: string | null };
+export type RefSensor = SensorSpec & {
+  label: string;
+  serial: string;
+  calibrationDue: string | null;
+  // issue 15: shown on the session screen before the first shot
+  laserClass?: string | null;
+  certNumber?: string | null;
+  certDue?: string | null;
+};
 export type RefPoint = {
   id: string;
   label: string;
@@ -117,7 +128,9 @@ export type RefPoint = {
 };
 export type RefTarget = RefPoint & { reflectancePct: number; retro: boolean; referenceM: number | null };
 export type RefSite = { id: string; name: string; lat: number | null; lon: number | null; stations: RefPoint[]; targets: RefTarget[] };
-export type RefTape = TapeSpec & { id: string; label: string };
+export type RefTape = TapeSpec & { id: string; label: string; uncertaintyMm?: number | null; uncertaintyPpm?: number | null; certNumber?: string | null; certDue?: string | null };
+/** issue 15: a reference EDM the crew may name on an EDM shot. */
+export type RefEdm = { id: string; label: string; serial: string; uncertaintyMm: number; uncertaintyPpm: number; certNumber: string | null; certDue: string | null };
 export type RefProject = { id: string; name: string; client: string; rule: Rule; sensorIds: string[]; siteIds: string[] };
 export type RefUser = { id: string; email: string; name: string; role: "admin" | "qa" | "crew" | "viewer" };
 
@@ -127,6 +140,8 @@ export type FieldReference = {
   sites: RefSite[];
   tapes: RefTape[];
   projects: RefProject[];
+  /** issue 15 (absent in copies made before it) */
+  edms?: RefEdm[];
   copiedAt: string;
 };
 

@@ -2,8 +2,8 @@
 // /admin/projects/:projectId (not a route itself).
 import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react";
 import { Form, useNavigation } from "react-router";
-import { CheckboxGroup, Field, FormSummary, NumberField, TextArea, countFieldErrors } from "~/components/forms";
-import { DEFAULT_RULE } from "~/domain";
+import { Checkbox, CheckboxGroup, Field, FormSummary, NumberField, RadioGroup, TextArea, countFieldErrors } from "~/components/forms";
+import { DEFAULT_RULE, EDITION2_PRESET } from "~/domain";
 import { parseRegistryForm, projectSchema, type ProjectInput } from "~/models/registry-schemas";
 
 export type ProjectChoices = {
@@ -21,8 +21,14 @@ export function projectDefaults(r?: {
   rangeBandEdgesM: number[];
   sensorIds: string[];
   siteIds: string[];
+  referenceRatio?: number;
+  referenceInVerdict?: boolean;
+  statement?: "rmse" | "nssda95";
+  edmUncertaintyMm?: number | null;
+  edmUncertaintyPpm?: number | null;
 }): Record<string, unknown> {
   const rule = r ?? DEFAULT_RULE;
+  const s = (v: number | null | undefined) => (v == null ? "" : String(v));
   return {
     name: r?.name ?? "",
     client: r?.client ?? "",
@@ -33,6 +39,11 @@ export function projectDefaults(r?: {
     rangeBandEdgesM: rule.rangeBandEdgesM.join(", "),
     sensorIds: r?.sensorIds ?? [],
     siteIds: r?.siteIds ?? [],
+    referenceRatio: s(rule.referenceRatio ?? 2),
+    referenceInVerdict: rule.referenceInVerdict ? "on" : "",
+    statement: rule.statement ?? "rmse",
+    edmUncertaintyMm: s(rule.edmUncertaintyMm),
+    edmUncertaintyPpm: s(rule.edmUncertaintyPpm),
   };
 }
 
@@ -84,6 +95,50 @@ export function ProjectForm({
           unit="m"
           hint="Lower edges, from 0 and rising, separated by commas: 0, 10, 30, 100 makes 0–10, 10–30, 30–100 and 100+ m."
         />
+      </section>
+
+      <section className="card grid gap-4 sm:grid-cols-2" data-testid="reference-rule">
+        <h2 className="text-xl font-bold sm:col-span-2">Reference uncertainty and accuracy statement</h2>
+        <div className="sm:col-span-2">
+          <button
+            type="button"
+            className="btn-secondary"
+            data-testid="preset-edition2"
+            onClick={() => {
+              form.update({ name: fields.minShots.name, value: String(EDITION2_PRESET.minShots) });
+              form.update({ name: fields.referenceInVerdict.name, value: "on" });
+              form.update({ name: fields.statement.name, value: EDITION2_PRESET.statement });
+              form.update({ name: fields.referenceRatio.name, value: String(EDITION2_PRESET.referenceRatio) });
+            }}
+          >
+            Apply preset “ASPRS Edition 2”
+          </button>
+          <p className="mt-1 text-sm text-muted">
+            ASPRS Positional Accuracy Standards, Edition 2 (2023): at least {EDITION2_PRESET.minShots} check-shots, RMSE-only statement, the reference's accuracy in the verdict.
+          </p>
+        </div>
+        <RadioGroup
+          className="sm:col-span-2"
+          meta={fields.statement}
+          label="What the report leads with"
+          options={[
+            { value: "rmse", label: "RMSE (ASPRS Edition 2)", hint: "RMSE with the reference included when its uncertainty is known; no 95 % figure." },
+            { value: "nssda95", label: "95 % accuracy (NSSDA)", hint: "1.96 × RMSE, FGDC-STD-007.3-1998." },
+          ]}
+        />
+        <NumberField
+          meta={fields.referenceRatio}
+          label="Reference ratio r"
+          unit="×"
+          hint="The reference must be r times as accurate as the tolerance: 2 is Edition 2 practice, 4 follows ASTM E3125-17."
+        />
+        <Checkbox
+          meta={fields.referenceInVerdict}
+          label="The reference test enters the verdict"
+          hint="Then a failed or unknown reference test holds a pass back (verdict “insufficient”)."
+        />
+        <NumberField meta={fields.edmUncertaintyMm} label="EDM uncertainty, constant part" unit="mm" hint="For EDM shots that name no reference EDM; empty = unknown." />
+        <NumberField meta={fields.edmUncertaintyPpm} label="EDM uncertainty, distance part" unit="ppm" />
       </section>
 
       <section className="card grid gap-4">

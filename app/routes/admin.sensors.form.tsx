@@ -1,8 +1,9 @@
 // The sensor form, shared by /admin/sensors/new and /admin/sensors/:sensorId (not a route itself).
 import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react";
 import { Form, useNavigation } from "react-router";
-import { Field, FormSummary, NumberField, RadioGroup, TextArea, countFieldErrors } from "~/components/forms";
-import { formatTolerance, parseRegistryForm, sensorSchema, SENSOR_KIND_LABEL, type SensorInput } from "~/models/registry-schemas";
+import { CertificateFields, certificateDefaults } from "~/components/certificate";
+import { Field, FormSummary, NumberField, RadioGroup, Select, TextArea, countFieldErrors } from "~/components/forms";
+import { formatTolerance, LASER_CLASS_OPTIONS, parseRegistryForm, sensorSchema, SENSOR_KIND_LABEL, type SensorInput } from "~/models/registry-schemas";
 
 export type SensorFormDefaults = Record<string, unknown>;
 
@@ -20,8 +21,13 @@ export function sensorDefaults(r?: {
   outdoor: boolean;
   calibrationDue: string | null;
   notes: string;
+  laserClass?: string | null;
+  certNumber?: string | null;
+  certLaboratory?: string | null;
+  certIssued?: string | null;
+  certDue?: string | null;
 }): SensorFormDefaults {
-  if (!r) return { kind: "pulsed", modulationHz: [], outdoor: "true", assumedRefractivity: "0" };
+  if (!r) return { kind: "pulsed", modulationHz: [], outdoor: "true", assumedRefractivity: "0", laserClass: "", certificate: certificateDefaults() };
   return {
     label: r.label,
     serial: r.serial,
@@ -35,6 +41,8 @@ export function sensorDefaults(r?: {
     outdoor: String(r.outdoor),
     calibrationDue: r.calibrationDue ?? "",
     notes: r.notes,
+    laserClass: r.laserClass ?? "",
+    certificate: certificateDefaults(r),
   };
 }
 
@@ -164,6 +172,14 @@ export function SensorForm({
           ]}
         />
         <Field meta={fields.calibrationDue} type="date" label="Calibration due" hint="Leave empty when unknown." />
+        <Select
+          meta={fields.laserClass}
+          label="Laser class (IEC 60825-1)"
+          hint="From the label on the instrument; shown with the cautions on the field session screen and the print."
+          placeholder="Not known"
+          options={LASER_CLASS_OPTIONS.map((c) => ({ value: c, label: `Class ${c}` }))}
+        />
+        <CertificateFields meta={fields.certificate} />
         <TextArea className="sm:col-span-2" meta={fields.notes} label="Notes" />
       </section>
 

@@ -9,14 +9,14 @@ type Pos = { gridE: number | null; gridN: number | null; gridH: number | null; l
 const s = (v: number | null | undefined) => (v === null || v === undefined ? "" : String(v));
 const posDefaults = (r: Pos) => ({ grid: { e: s(r.gridE), n: s(r.gridN), h: s(r.gridH) }, geo: { lat: s(r.lat), lon: s(r.lon), h: s(r.h) } });
 
-export type TargetDefaultsRow = Pos & { id: string; label: string; reflectancePct: number; retro: boolean; referenceM: number | null };
-export type StationDefaultsRow = Pos & { id: string; label: string };
+export type TargetDefaultsRow = Pos & { id: string; label: string; reflectancePct: number; retro: boolean; referenceM: number | null; sigmaMm?: number | null };
+export type StationDefaultsRow = Pos & { id: string; label: string; sigmaMm?: number | null };
 
 export function targetDefault(t: TargetDefaultsRow) {
-  return { id: t.id, label: t.label, reflectancePct: String(t.reflectancePct), retro: t.retro ? "on" : "", referenceM: s(t.referenceM), ...posDefaults(t) };
+  return { id: t.id, label: t.label, reflectancePct: String(t.reflectancePct), retro: t.retro ? "on" : "", referenceM: s(t.referenceM), sigmaMm: s(t.sigmaMm ?? null), ...posDefaults(t) };
 }
 export function stationDefault(r: StationDefaultsRow) {
-  return { id: r.id, label: r.label, ...posDefaults(r) };
+  return { id: r.id, label: r.label, sigmaMm: s(r.sigmaMm ?? null), ...posDefaults(r) };
 }
 
 export function siteDefaults(r?: {
@@ -131,6 +131,7 @@ export function SiteForm({
               <input key={idKey} {...idProps} />
               <FieldErrors id={f.id.errorId} errors={(f.id.errors as string[] | undefined) ?? []} />
               <Field meta={f.label} label="Label" hint="e.g. S1" />
+              <NumberField meta={f.sigmaMm} label="Survey uncertainty σ" unit="mm" hint="1-D standard uncertainty of the point; empty = unknown." />
               <Coordinates grid={f.grid as unknown as ObjMeta} geo={f.geo as unknown as ObjMeta} what={`station ${i + 1}`} />
             </fieldset>
           );
@@ -163,6 +164,7 @@ export function SiteForm({
               <Field meta={f.label} label="Label" hint="e.g. T10-dark" />
               <NumberField meta={f.reflectancePct} label="Reflectance" unit="%" hint="0 to 100 %." />
               <NumberField meta={f.referenceM} label="Reference distance" unit="m" hint="From the main station, when surveyed." />
+              <NumberField meta={f.sigmaMm} label="Survey uncertainty σ" unit="mm" hint="1-D standard uncertainty of the point; empty = unknown." />
               <Checkbox className="sm:col-span-3" meta={f.retro} label="Retro-reflective (prism or reflective sheeting)" />
               <Coordinates grid={f.grid as unknown as ObjMeta} geo={f.geo as unknown as ObjMeta} what={`target ${i + 1}`} />
             </fieldset>

@@ -1,6 +1,7 @@
 // The tape form, shared by /admin/tapes/new and /admin/tapes/:tapeId (not a route itself).
 import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react";
 import { Form, useNavigation } from "react-router";
+import { CertificateFields, certificateDefaults } from "~/components/certificate";
 import { Field, FormSummary, NumberField, TextArea, countFieldErrors } from "~/components/forms";
 import { parseRegistryForm, tapeSchema, type TapeInput } from "~/models/registry-schemas";
 
@@ -13,9 +14,15 @@ export function tapeDefaults(r?: {
   weightNPerM: number;
   calibrationPpm: number;
   notes: string;
+  uncertaintyMm?: number | null;
+  uncertaintyPpm?: number | null;
+  certNumber?: string | null;
+  certLaboratory?: string | null;
+  certIssued?: string | null;
+  certDue?: string | null;
 }): Record<string, unknown> {
   // A new steel tape starts from the usual standard temperature and modulus; the rest is on its certificate.
-  if (!r) return { standardTempC: "20", modulusGPa: "200", calibrationPpm: "0" };
+  if (!r) return { standardTempC: "20", modulusGPa: "200", calibrationPpm: "0", certificate: certificateDefaults() };
   return {
     label: r.label,
     standardTempC: String(r.standardTempC),
@@ -25,6 +32,9 @@ export function tapeDefaults(r?: {
     weightNPerM: String(r.weightNPerM),
     calibrationPpm: String(r.calibrationPpm),
     notes: r.notes,
+    uncertaintyMm: r.uncertaintyMm == null ? "" : String(r.uncertaintyMm),
+    uncertaintyPpm: r.uncertaintyPpm == null ? "" : String(r.uncertaintyPpm),
+    certificate: certificateDefaults(r),
   };
 }
 
@@ -64,6 +74,14 @@ export function TapeForm({
           unit="ppm"
           hint="Positive when the tape is longer than its nominal length (1 ppm = 1 mm per km)."
         />
+        <NumberField
+          meta={fields.uncertaintyMm}
+          label="Certificate uncertainty, constant part"
+          unit="mm"
+          hint="Standard uncertainty (k = 1) a in a + b·L. Empty with the ppm part too: the reference uncertainty of taped shots is unknown."
+        />
+        <NumberField meta={fields.uncertaintyPpm} label="Certificate uncertainty, length part" unit="ppm" hint="b in a + b·L (1 ppm = 1 mm per km)." />
+        <CertificateFields meta={fields.certificate} />
         <TextArea className="sm:col-span-2" meta={fields.notes} label="Notes" />
       </section>
       <button type="submit" className="btn" disabled={busy}>

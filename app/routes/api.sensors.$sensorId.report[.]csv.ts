@@ -64,7 +64,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       ["scalePpm", r.scalePpm, null, null, "ppm"],
       ["scaleSePpm", r.scaleSePpm, null, null, "ppm"],
       ["rSquared", r.rSquared, null, null, ""],
-      ...r.tests.map((t): Cell[] => [`test:${t.name}`, t.value, t.limit, yesNo(t.pass), t.name === "count" ? "shots" : t.name === "within" ? "%" : "mm"]),
+      // issue 15 (ranging.md §7)
+      ["referenceRmseMm", r.referenceRmseMm, null, null, "mm"],
+      ["referenceUnknownN", r.referenceUnknownN, null, null, "shots"],
+      ["rmseCombinedMm", r.rmseCombinedMm, null, null, "mm"],
+      ["zeroOffsetT", r.zeroOffsetT, null, null, ""],
+      ["zeroOffsetSignificant", r.zeroOffsetSignificant == null ? null : yesNo(r.zeroOffsetSignificant), null, null, ""],
+      ["statement", r.statement, null, null, ""],
+      ...r.tests.map((t): Cell[] => [`test:${t.name}`, t.value, t.limit, t.pass == null ? "unknown" : yesNo(t.pass), t.name === "count" ? "shots" : t.name === "within" ? "%" : "mm"]),
     ];
   } else {
     rows = [SHOT_COLUMNS.map((c) => c[0]), SHOT_COLUMNS.map((c) => c[1])];

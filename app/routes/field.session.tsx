@@ -8,6 +8,7 @@ import { useLiveQuery } from "~/offline/live";
 import { ShotForm } from "~/components/field/shot-form";
 import { ShotList } from "~/components/field/shot-list";
 import { contextOf, loadSession } from "~/components/field/session-data";
+import { SessionTraceability } from "~/components/field/traceability-flag";
 
 export const meta: Route.MetaFunction = () => [{ title: "Log shot — Shotbook field" }];
 
@@ -33,6 +34,7 @@ export default function FieldSession({ loaderData, params }: Route.ComponentProp
         </Link>
       </div>
       {!ctx.sensor ? <p className="field-error">This session's sensor is missing from the tablet's reference data: shots are saved, the instant check waits.</p> : null}
+      <SessionTraceability session={data.session} ctx={ctx} />
       <ShotForm key={data.session.id} session={data.session} ctx={ctx} onSaved={() => syncSoon()} />
       <section className="space-y-3" aria-labelledby="shots-title">
         <h2 id="shots-title" className="text-2xl font-bold">

@@ -4,6 +4,8 @@ import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
 import { listProjectsForFilter, listSignOffs, reportFor, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
+import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
+import { laserCaution } from "~/domain";
 import { DriftChart, ErrorVsDistanceChart } from "~/components/review/charts";
 import { dateOnly, dateTime, mmSigned } from "~/components/review/format";
 import { VerdictBadge } from "~/components/verdict-badge";
@@ -66,6 +68,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <p>
           {sensor.kind === "cw" ? "Continuous-wave (phase)" : "Pulsed"} sensor, {sensor.wavelengthNm} nm · tolerance ±({sensor.toleranceMm} mm + {sensor.tolerancePpm} ppm × D), coverage factor k = {report.rule.coverageK}
           {sensor.calibrationDue ? ` · calibration due ${sensor.calibrationDue}` : ""}
+          {sensor.laserClass ? ` · laser class ${sensor.laserClass} (IEC 60825-1)` : " · laser class not recorded"}
         </p>
         <p>
           Project: {project ? `${project.name}${project.client ? ` (client: ${project.client})` : ""}` : "all projects"} · period: {period} · sessions: {used.size} of {sessions.length}
@@ -76,21 +79,32 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
       <section className="space-y-2">
         <h2 className="text-xl font-bold">Verdict</h2>
         <VerdictHeadline report={report} />
+        <StatementPanel report={report} />
       </section>
 
       <section className="space-y-2">
         <h2 className="text-xl font-bold">Acceptance rule and tests</h2>
         <p>
           Rule: at least {report.rule.minShots} included shots; at least {report.rule.minWithinPct} % of shots within k × tolerance;
-          |bias| at most the tolerance's constant part; SD at most σ·√(χ²₀.₉₅(ν)/ν) with σ the tolerance at the mean distance.
+          |bias| at most the tolerance's constant part; SD at most σ·√(χ²₀.₉₅(ν)/ν) with σ the tolerance at the mean distance
+          (adapted from ISO 17123-4, reflector EDM; no conformance claimed); reference RMS uncertainty at most the tolerance at the mean
+          distance ÷ {report.rule.referenceRatio} ({report.rule.referenceInVerdict ? "in the verdict" : "advisory"}).
         </p>
-        <TestsTable tests={report.tests} />
+        <TestsTable tests={report.tests} referenceInVerdict={report.rule.referenceInVerdict} />
+      </section>
+
+      <section className="space-y-2" data-testid="print-traceability">
+        <h2 className="text-xl font-bold">Traceability (calibration certificates)</h2>
+        <TraceabilityPanel rows={report.traceability} sessionLabel={(id) => { const s = sessions.find((x) => x.id === id); return s ? dateTime(s.startedAt) : id; }} />
       </section>
 
       <section className="space-y-2">
         <h2 className="text-xl font-bold">Figures (mm unless stated)</h2>
         <FiguresGrid report={report} />
-        <p className="text-sm">95 % accuracy = 1.96 × RMSE (NSSDA), valid for near-normal, near-unbiased errors. Range error = sensor range − reference distance; positive reads long.</p>
+        <p className="text-sm">
+          {report.statement === "nssda95" ? "95 % accuracy = 1.96 × RMSE (NSSDA), valid for near-normal, near-unbiased errors. " : "RMSE-only reporting (ASPRS Edition 2); the reference's uncertainty is added in quadrature where known. "}
+          Range error = sensor range − reference distance; positive reads long.
+        </p>
         {report.airDefaulted.length ? <p className="text-sm">{report.airDefaulted.length} session(s) used default air values for a missing reading.</p> : null}
       </section>
 
@@ -144,6 +158,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
       <section className="border-t-2 border-fg pt-2 text-sm" data-testid="cautions">
         <h2 className="text-base font-bold">Cautions</h2>
         <p>
+          {sensor.laserClass ? <strong data-testid="print-laser-class">{laserCaution(sensor.laserClass)} </strong> : null}
           Lasers in these sensors carry a laser safety class (IEC 60825-1): follow the class's rules and the maker's manual, never aim at people,
           vehicles or aircraft, and set out traffic control when targets stand by a road. Shotbook checks range performance; it is no
           calibration certificate. Acceptance for a contract follows the client's specification and local survey regulations, signed by the

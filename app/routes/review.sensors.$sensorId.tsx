@@ -9,6 +9,7 @@ import { createSignOff, listProjectsForFilter, listSignOffs, ReviewError, sensor
 import { signOffSchema } from "~/components/review/signoff-schema";
 import { VerdictBadge } from "~/components/verdict-badge";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
+import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
 import { DriftChart, ErrorVsDistanceChart, MatrixChart } from "~/components/review/charts";
 import { ShotTable } from "~/components/review/shot-table";
 import { matrixCells, worstCell } from "~/components/review/matrix";
@@ -173,6 +174,7 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
           <section aria-labelledby="h-verdict" className="space-y-3">
             <h2 id="h-verdict" className="sr-only">Verdict</h2>
             <VerdictHeadline report={report} />
+            <StatementPanel report={report} />
             {worst && report.verdict !== "pass" ? (
               <p className="text-lg" data-testid="worst-cell">
                 Largest bias: <strong>{bandWord(worst.reflectance).toLowerCase()} targets</strong> in <strong>{bandWord(worst.illuminance).toLowerCase()}</strong> — {mmSigned(worst.biasMm, 1)} over {worst.n} shots{worst.outside ? `, ${worst.outside} outside their limit` : ""}.
@@ -181,8 +183,15 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
             {report.n + report.excluded === 0 ? <p className="card">No shots in this selection. Change the filters or sync a session.</p> : null}
           </section>
           <section aria-labelledby="h-tests" className="card">
-            <h2 id="h-tests" className="mb-2 text-2xl font-bold">The four tests</h2>
-            <TestsTable tests={report.tests} />
+            <h2 id="h-tests" className="mb-2 text-2xl font-bold">The tests</h2>
+            <TestsTable tests={report.tests} referenceInVerdict={report.rule.referenceInVerdict} />
+          </section>
+          <section aria-labelledby="h-trace" className="card">
+            <h2 id="h-trace" className="mb-2 text-2xl font-bold">Traceability</h2>
+            <TraceabilityPanel rows={report.traceability} sessionLabel={(id) => sessionLabels.get(id) ?? id} />
+            <p className="mt-2">
+              <Link className="underline underline-offset-4" to={`/review/sensors/${sensor.id}/history`}>Sensor history: bias and RMSE per session over months</Link>
+            </p>
           </section>
           <section aria-labelledby="h-fig" className="space-y-2">
             <h2 id="h-fig" className="text-2xl font-bold">Figures</h2>

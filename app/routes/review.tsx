@@ -80,7 +80,7 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                 <th scope="col" className="py-2 pr-3">Verdict</th>
                 <th scope="col" className="py-2 pr-3 text-right">n</th>
                 <th scope="col" className="py-2 pr-3 text-right">Bias</th>
-                <th scope="col" className="py-2 pr-3 text-right">RMSE</th>
+                <th scope="col" className="py-2 pr-3 text-right">Accuracy</th>
                 <th scope="col" className="py-2 pr-3">Bias per session</th>
                 <th scope="col" className="py-2 pr-3">Last check</th>
                 <th scope="col" className="py-2 pr-3">Calibration due</th>
@@ -111,7 +111,11 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                     </td>
                     <td className="py-2 pr-3 text-right">{r.n}{r.excluded ? <span className="block text-sm text-muted">{r.excluded} excl.</span> : null}</td>
                     <td className="py-2 pr-3 text-right">{mmSigned(r.biasMm, 2)}</td>
-                    <td className="py-2 pr-3 text-right">{mm(r.rmseMm, 2)}</td>
+                    <td className="py-2 pr-3 text-right" data-testid="overview-headline" data-statement={r.statement}>
+                      {mm(r.headlineMm, 2)}
+                      <span className="block text-sm text-muted">{r.headlineLabel}</span>
+                      {r.expiredCertificates ? <span className="block text-sm font-bold text-fail">⚠ certificate past due</span> : null}
+                    </td>
                     <td className="py-2 pr-3"><BiasTrace points={r.trace} limitMm={r.toleranceMm} /></td>
                     <td className="py-2 pr-3 whitespace-nowrap">{dateTime(r.lastShotAt)}</td>
                     <td className="py-2 pr-3 whitespace-nowrap">

@@ -22,7 +22,14 @@ export type SensorBody = {
   tolerancePpm: number;
   outdoor?: boolean;
   calibrationDue?: string;
+  // issue 15
+  laserClass?: "1" | "1M" | "2" | "2M" | "3R" | "3B" | "4";
+  certificate?: CertificateBody;
 };
+
+/** issue 15: a calibration certificate (api.md v1.1). */
+export type CertificateBody = { number: string; laboratory: string; issued: string; due: string };
+export type EdmBody = { id?: string; label: string; serial: string; uncertaintyMm: number; uncertaintyPpm?: number; certificate?: CertificateBody };
 
 export type TapeBody = {
   id?: string;
@@ -33,6 +40,9 @@ export type TapeBody = {
   modulusGPa: number;
   weightNPerM: number;
   calibrationPpm: number;
+  uncertaintyMm?: number;
+  uncertaintyPpm?: number;
+  certificate?: CertificateBody;
 };
 
 export type TargetBody = {
@@ -43,8 +53,9 @@ export type TargetBody = {
   referenceM?: number;
   grid?: GridBody;
   geo?: GeoBody;
+  sigmaMm?: number;
 };
-export type StationBody = { id?: string; label: string; grid?: GridBody; geo?: GeoBody };
+export type StationBody = { id?: string; label: string; grid?: GridBody; geo?: GeoBody; sigmaMm?: number };
 export type SiteBody = { id?: string; name: string; lat?: number; lon?: number; targets: TargetBody[]; stations?: StationBody[] };
 
 export type SessionBody = {
@@ -66,6 +77,8 @@ export type ReferenceBody = {
   stationId?: string;
   instrumentHeightM?: number;
   targetHeightM?: number;
+  uncertaintyMm?: number;
+  edmId?: string;
 };
 export type PhaseBody = { frequencyHz: number; samples: number[] };
 export type ReadingsBody = { rangesM: number[] } | { roundTripNs: number[] } | { phase: PhaseBody[] };

@@ -29,6 +29,7 @@ import {
   type SiteBody,
   type StationBody,
   type TapeBody,
+  type EdmBody,
   type TargetBody,
 } from "./builders";
 
@@ -56,6 +57,7 @@ export const DEMO_IDS = {
   yard: "fernhollow-yard",
   roadside: "fernhollow-roadside",
   project: "river-valley-corridor",
+  edm: "fernhollow-ts15", // issue 15
 } as const;
 
 export type SensorKey = "roof" | "tripod" | "camera";
@@ -69,6 +71,20 @@ export const DEMO_TAPE: TapeBody = {
   modulusGPa: 200,
   weightNPerM: 0.16,
   calibrationPpm: 12,
+  // issue 15: the certificate's standard uncertainty and the certificate itself (invented)
+  uncertaintyMm: 0.4,
+  uncertaintyPpm: 15,
+  certificate: { number: "EML-T-2025-0871", laboratory: "Eastbank Metrology Lab (invented)", issued: "2025-11-03", due: "2026-11-03" },
+};
+
+/** issue 15: the reference EDM that measured the EDM distances (invented). */
+export const DEMO_EDM: EdmBody & { id: string } = {
+  id: DEMO_IDS.edm,
+  label: "Total station TS-15 (reference)",
+  serial: "FHG-TS15-05520",
+  uncertaintyMm: 1,
+  uncertaintyPpm: 1.5,
+  certificate: { number: "EML-E-2026-0112", laboratory: "Eastbank Metrology Lab (invented)", issued: "2026-01-20", due: "2027-01-20" },
 };
 
 export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
@@ -83,6 +99,8 @@ export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
     tolerancePpm: 20,
     outdoor: true,
     calibrationDue: "2027-03-31",
+    laserClass: "1",
+    certificate: { number: "EML-S-2026-0301", laboratory: "Eastbank Metrology Lab (invented)", issued: "2026-03-31", due: "2027-03-31" },
   },
   tripod: {
     id: DEMO_IDS.tripod,
@@ -95,7 +113,10 @@ export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
     toleranceMm: 3,
     tolerancePpm: 10,
     outdoor: true,
-    calibrationDue: "2027-06-30",
+    calibrationDue: "2026-05-05",
+    laserClass: "1M",
+    // past due on its 6 May session: the demo shows the traceability flag
+    certificate: { number: "EML-S-2025-0412", laboratory: "Eastbank Metrology Lab (invented)", issued: "2025-05-05", due: "2026-05-05" },
   },
   camera: {
     id: DEMO_IDS.camera,
@@ -109,6 +130,7 @@ export const DEMO_SENSORS: Record<SensorKey, SensorBody> = {
     tolerancePpm: 1000,
     outdoor: false,
     calibrationDue: "2027-09-30",
+    laserClass: "1",
   },
 };
 
@@ -269,7 +291,8 @@ function buildSite(L: SiteLayout): DemoSite {
     name: L.name,
     lat: L.origin.lat,
     lon: L.origin.lon,
-    stations: stations.map((s) => ({ id: s.id, label: s.label, grid: s.grid, geo: s.geo })),
+    // issue 15: the survey's 1-D standard uncertainty of each point (invented: 1.5 mm stations, 2 mm boards)
+    stations: stations.map((s) => ({ id: s.id, label: s.label, grid: s.grid, geo: s.geo, sigmaMm: 1.5 })),
     targets: targets.map((t) => ({
       id: t.id,
       label: t.label,
@@ -278,6 +301,7 @@ function buildSite(L: SiteLayout): DemoSite {
       referenceM: t.referenceM,
       grid: t.grid,
       geo: t.geo,
+      sigmaMm: 2,
     })),
   };
   return { key: L.key, body, targets, stations };
@@ -482,6 +506,7 @@ export type DemoSession = SessionBody & { sensorKey: SensorKey; siteKey: SiteKey
 export type DemoScenario = {
   users: DemoUser[];
   tape: TapeBody & { id: string };
+  edm: EdmBody & { id: string };
   sensors: Record<SensorKey, SensorBody & { id: string }>;
   sites: Record<SiteKey, DemoSite>;
   project: ProjectBody & { id: string };
@@ -590,6 +615,7 @@ export function buildDemoScenario(): DemoScenario {
   return {
     users: DEMO_USERS,
     tape: DEMO_TAPE as TapeBody & { id: string },
+    edm: DEMO_EDM,
     sensors,
     sites,
     project: {
@@ -653,7 +679,7 @@ function referenceFor(
     };
   }
   const d = round(target.referenceM + rng.normal() * 0.0007, 4);
-  return { body: { distanceM: d, method: "edm" }, distanceM: d };
+  return { body: { distanceM: d, method: "edm", edmId: DEMO_IDS.edm }, distanceM: d };
 }
 
 function readingsFor(plan: SessionPlan, spec: SensorSpec, trueRange: number, target: DemoTarget, lux: number, truth: Truth, rng: Rng): ReadingsBody {

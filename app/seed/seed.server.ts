@@ -8,6 +8,7 @@ import {
   auditLog,
   authSessions,
   checkSessions,
+  edms,
   exclusions,
   importMappings,
   loginCodes,
@@ -29,6 +30,7 @@ import { createSensor } from "~/models/sensors.server";
 import { createSite } from "~/models/sites.server";
 import { ingestSync } from "~/models/sync.server";
 import { createTape } from "~/models/tapes.server";
+import { createEdm } from "~/models/edms.server";
 import { upsertUserFromCli } from "~/models/users.server";
 import type { SyncResult } from "~/models/sync-schemas";
 import { buildDemoScenario, DEMO_IDS, DEMO_USERS, type DemoScenario, type DemoUser } from "./scenario";
@@ -75,6 +77,7 @@ export async function seedDemo(scenario: DemoScenario = buildDemoScenario()): Pr
   const actor = { id: admin.id };
 
   expectOk("tape", await createTape(actor, scenario.tape));
+  expectOk("reference EDM", await createEdm(actor, scenario.edm));
   for (const s of Object.values(scenario.sensors)) expectOk(`sensor ${s.label}`, await createSensor(actor, s));
   let targetCount = 0;
   for (const site of Object.values(scenario.sites)) {
@@ -162,6 +165,7 @@ export async function deleteDemoRows(scenario: DemoScenario = buildDemoScenario(
     await tx.delete(sites).where(inArray(sites.id, siteIds));
     await tx.delete(sensors).where(inArray(sensors.id, sensorIds));
     await tx.delete(tapes).where(eq(tapes.id, scenario.tape.id));
+    await tx.delete(edms).where(eq(edms.id, scenario.edm.id));
     if (userIds.length) {
       await tx.delete(apiTokens).where(inArray(apiTokens.userId, userIds));
       await tx.delete(authSessions).where(inArray(authSessions.userId, userIds));
@@ -169,7 +173,7 @@ export async function deleteDemoRows(scenario: DemoScenario = buildDemoScenario(
     }
     await tx.delete(loginCodes).where(inArray(loginCodes.email, emails));
     // the demo's own audit rows go with it, so a re-seeded demo reads as made once
-    const entityIds = [...sensorIds, ...siteIds, scenario.tape.id, scenario.project.id, ...userIds];
+    const entityIds = [...sensorIds, ...siteIds, scenario.tape.id, scenario.edm.id, scenario.project.id, ...userIds];
     await tx.delete(auditLog).where(inArray(auditLog.entityId, entityIds));
   });
 }

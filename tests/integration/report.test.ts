@@ -138,7 +138,19 @@ test("the report's figures match the ones worked out here from the definitions",
   expect(byName.precision.pass).toBe(true);
   expect(byName.precision.limit).toBeCloseTo(precisionLimit, 6);
   expect(R.verdict).toBe("pass");
-  expect(R.rule).toEqual({ minShots: 20, coverageK: 2, minWithinPct: 95 });
+  expect(R.rule).toEqual({ minShots: 20, coverageK: 2, minWithinPct: 95, referenceRatio: 2, referenceInVerdict: false, statement: "rmse", edmUncertaintyMm: null, edmUncertaintyPpm: null });
+  // ranging.md §7 on this set: no reference uncertainty anywhere (EDM, no EDM named, default rule) → unknown, never 0
+  expect(R.referenceUnknownN).toBe(23);
+  expect(R.referenceRmseMm).toBeNull();
+  expect(R.rmseCombinedMm).toBeNull();
+  expect(byName.reference).toEqual({ name: "reference", pass: null, value: null, limit: sigma / 2 });
+  // zero offset t = δ/SE(δ), ν = n − 2, against jstat's t₀.₉₇₅
+  const t = icpt / Math.sqrt(s2 * (1 / n + (dm * dm) / sxx));
+  expect(R.zeroOffsetT).toBeCloseTo(t, 6);
+  expect(R.zeroOffsetSignificant).toBe(Math.abs(t) > J.studentt.inv(0.975, n - 2));
+  expect(R.statement).toBe("rmse");
+  expect(R.ruleProjectId).toBeNull();
+  expect(R.traceability).toEqual([]);
 });
 
 test("the breakdowns, drift, defaulted air and coverage follow the bands of ranging.md §5–6", async () => {
@@ -198,13 +210,18 @@ test("shot rows carry the exclusion, the outlier flag and each shot's own limit"
   expect(Object.keys(first)).toEqual(["id", "takenAt", "sessionId", "referenceM", "rangeM", "errorMm", "limitMm", "within", "repeatabilityMm", "excluded", "flags"]);
 });
 
-test("the answer has exactly api.md's fields, in its order", async () => {
+// api.md "v1.1 additions" of the report (issue 15)
+const V11 = ["ruleProjectId", "zeroOffsetT", "zeroOffsetSignificant", "referenceRmseMm", "referenceUnknownN", "rmseCombinedMm", "statement", "traceability"];
+
+test("the answer has exactly api.md's fields, in its order, plus the v1.1 additions", async () => {
   const R = (await report()).json;
-  expect(Object.keys(R)).toEqual([
+  expect(Object.keys(R).filter((k) => !V11.includes(k))).toEqual([
     "sensorId", "rule", "n", "excluded", "biasMm", "biasCi95Mm", "sdMm", "rmseMm", "accuracy95Mm", "p95AbsMm", "maxAbsMm", "withinPct",
     "zeroOffsetMm", "zeroOffsetSeMm", "scalePpm", "scaleSePpm", "tests", "verdict", "byReflectance", "byIlluminance", "byRange",
     "rSquared", "airDefaulted", "coverage", "drift", "shots",
   ]);
+  for (const k of V11) expect(Object.keys(R)).toContain(k);
+  expect(R.tests.map((t: { name: string }) => t.name)).toEqual(["count", "within", "bias", "precision", "reference"]);
   expect(Object.keys(R.byReflectance[0])).toEqual(["band", "n", "biasMm", "sdMm", "rmseMm", "withinPct"]);
 });
 
@@ -225,7 +242,8 @@ test("from/to select by the shot's own date and session picks sessions", async (
 test("project picks its rule: limits and within are judged with its coverage factor", async () => {
   const p = await makeProject({ coverageK: 0.5, minShots: 30, minWithinPct: 90 });
   const R = (await report(`?project=${p.id}`)).json;
-  expect(R.rule).toEqual({ minShots: 30, coverageK: 0.5, minWithinPct: 90 });
+  expect(R.rule).toMatchObject({ minShots: 30, coverageK: 0.5, minWithinPct: 90 });
+  expect(R.ruleProjectId).toBe(p.id);
   const inc = DATA.filter((_, i) => i !== OUTLIER_INDEX);
   expect(R.withinPct).toBeCloseTo((100 * inc.filter((x) => Math.abs(errOf(x)) <= limitOf(x[0], 0.5)).length) / inc.length, 9);
   expect(R.withinPct).toBeLessThan(100);
@@ -238,7 +256,8 @@ test("a sensor with no shots gives a valid empty report; an unknown sensor is a 
   const R = (await report("", viewer, emptySensorId)).json;
   expect(R.n).toBe(0);
   expect(R.excluded).toBe(0);
-  for (const k of ["biasMm", "biasCi95Mm", "sdMm", "rmseMm", "accuracy95Mm", "p95AbsMm", "maxAbsMm", "withinPct", "zeroOffsetMm", "scalePpm", "rSquared"]) expect(R[k]).toBeNull();
+  for (const k of ["biasMm", "biasCi95Mm", "sdMm", "rmseMm", "accuracy95Mm", "p95AbsMm", "maxAbsMm", "withinPct", "zeroOffsetMm", "scalePpm", "rSquared", "zeroOffsetT", "zeroOffsetSignificant", "referenceRmseMm", "rmseCombinedMm"]) expect(R[k]).toBeNull();
+  expect(R.referenceUnknownN).toBe(0);
   expect(R.verdict).toBe("insufficient");
   expect(R.shots).toEqual([]);
   expect(R.airDefaulted).toEqual([]);

@@ -133,7 +133,7 @@ test("the print page carries the whole report of the selection and who generated
   const day2 = w.shotsOf(w.failing.id).filter((s) => s.takenAt.startsWith("2026-05-05"));
   expect(data.report.n + data.report.excluded).toBe(day2.length);
   expect(data.report.biasMm).toBeCloseTo(meanOf(day2.map((s) => s.errorMm)), 6);
-  expect(data.report.tests.map((t) => t.name).sort()).toEqual(["bias", "count", "precision", "within"]);
+  expect(data.report.tests.map((t) => t.name).sort()).toEqual(["bias", "count", "precision", "reference", "within"]); // issue 15 adds the reference test
   expect(data.project?.name).toBe("River valley corridor");
   expect(data.by).toBe("Fixture viewer");
   expect(Date.now() - Date.parse(data.generatedAt)).toBeLessThan(60_000);

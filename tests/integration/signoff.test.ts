@@ -91,6 +91,9 @@ test("a rejection freezes the full report into the sign-off, lands in the audit 
     expect(mails, to).toHaveLength(1);
     expect(mails[0]!.subject).toContain("Roof scanner RS-1");
     expect(mails[0]!.text).toContain("Dark targets read 18 mm long");
+    // issue 15: the mail leads with the rule's accuracy statement (default "rmse": no 95 % figure)
+    expect(mails[0]!.text).toMatch(/Tested \d+\.\d mm range RMSE against \d+ check-shots, reference not included/);
+    expect(mails[0]!.text).not.toMatch(/95 %/);
     expect(mails[0]!.text).toContain(`http://shotbook.test/review/sensors/${w.failing.id}`);
   }
   expect(mailsTo(mailDir, w.users.viewer.email)).toHaveLength(0);

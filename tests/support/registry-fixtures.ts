@@ -52,7 +52,7 @@ export async function makeTape(over: Partial<typeof tapes.$inferInsert> = {}) {
   return row;
 }
 
-type Place = { id?: string; label?: string; grid?: { e: number; n: number; h: number }; geo?: { lat: number; lon: number; h: number } };
+type Place = { id?: string; label?: string; grid?: { e: number; n: number; h: number }; geo?: { lat: number; lon: number; h: number }; sigmaMm?: number | null };
 type TargetIn = Place & { reflectancePct?: number; retro?: boolean; referenceM?: number };
 
 export async function makeSite(opts: { name?: string; targets?: TargetIn[]; stations?: Place[] } = {}) {
@@ -66,6 +66,7 @@ export async function makeSite(opts: { name?: string; targets?: TargetIn[]; stat
     lat: p.geo?.lat ?? null,
     lon: p.geo?.lon ?? null,
     h: p.geo?.h ?? null,
+    sigmaMm: p.sigmaMm ?? null, // issue 15
   });
   const st = (opts.stations ?? []).map((s, i) => ({ id: s.id ?? uid(), siteId: site.id, label: s.label ?? `S${i + 1}`, ...place(s) }));
   const tg = (opts.targets ?? [{ reflectancePct: 10 }, { reflectancePct: 85 }]).map((t, i) => ({
@@ -82,7 +83,11 @@ export async function makeSite(opts: { name?: string; targets?: TargetIn[]; stat
   return { ...site, stations: st, targets: tg };
 }
 
-export async function makeProject(opts: { sensorIds?: string[]; siteIds?: string[]; minShots?: number; coverageK?: number; minWithinPct?: number; name?: string } = {}) {
+export async function makeProject(
+  opts: { sensorIds?: string[]; siteIds?: string[]; minShots?: number; coverageK?: number; minWithinPct?: number; name?: string } & Partial<
+    Pick<typeof projects.$inferInsert, "referenceRatio" | "referenceInVerdict" | "statement" | "edmUncertaintyMm" | "edmUncertaintyPpm">
+  > = {},
+) {
   const db = getDb();
   const row = {
     id: uid(),
@@ -91,6 +96,12 @@ export async function makeProject(opts: { sensorIds?: string[]; siteIds?: string
     minShots: opts.minShots ?? 20,
     coverageK: opts.coverageK ?? 2,
     minWithinPct: opts.minWithinPct ?? 95,
+    // issue 15: the rule's reference fields, when a test gives them
+    ...(opts.referenceRatio !== undefined ? { referenceRatio: opts.referenceRatio } : {}),
+    ...(opts.referenceInVerdict !== undefined ? { referenceInVerdict: opts.referenceInVerdict } : {}),
+    ...(opts.statement !== undefined ? { statement: opts.statement } : {}),
+    ...(opts.edmUncertaintyMm !== undefined ? { edmUncertaintyMm: opts.edmUncertaintyMm } : {}),
+    ...(opts.edmUncertaintyPpm !== undefined ? { edmUncertaintyPpm: opts.edmUncertaintyPpm } : {}),
   };
   await db.insert(projects).values(row);
   for (const sensorId of opts.sensorIds ?? []) await db.insert(projectSensors).values({ projectId: row.id, sensorId });

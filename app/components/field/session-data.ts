@@ -27,6 +27,7 @@ export function contextOf(session: LocalSession, reference: ReferenceCopy): Prev
     sensor: reference.sensors.find((s) => s.id === session.record.sensorId),
     site: reference.sites.find((s) => s.id === session.record.siteId),
     tapes: reference.tapes,
+    edms: reference.edms ?? [],
     project: session.record.projectId ? reference.projects.find((p) => p.id === session.record.projectId) : undefined,
   };
 }

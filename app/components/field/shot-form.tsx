@@ -24,6 +24,9 @@ export type ShotFormState = {
   stationId: string;
   instrumentHeightM: string;
   targetHeightM: string;
+  // issue 15 (ranging.md §7)
+  edmId: string;
+  refUncertaintyMm: string;
   readingKind: ReadingKind;
   ranges: string[];
   roundTrips: string[];
@@ -51,6 +54,8 @@ function initialState(session: LocalSession, ctx: PreviewContext, existing?: Loc
     stationId: ctx.site?.stations[0]?.id ?? "",
     instrumentHeightM: "",
     targetHeightM: "",
+    edmId: "",
+    refUncertaintyMm: "",
     readingKind: "rangesM",
     ranges: [""],
     roundTrips: [""],
@@ -77,6 +82,8 @@ function initialState(session: LocalSession, ctx: PreviewContext, existing?: Loc
     stationId: r.reference.stationId ?? base.stationId,
     instrumentHeightM: s(r.reference.instrumentHeightM),
     targetHeightM: s(r.reference.targetHeightM),
+    edmId: r.reference.edmId ?? "",
+    refUncertaintyMm: s(r.reference.uncertaintyMm),
     readingKind: "rangesM" in rd ? "rangesM" : "roundTripNs" in rd ? "roundTripNs" : "phase",
     ranges: "rangesM" in rd ? rd.rangesM.map(String) : [""],
     roundTrips: "roundTripNs" in rd ? rd.roundTripNs.map(String) : [""],
@@ -107,6 +114,8 @@ export function toShotDraft(f: ShotFormState, sessionId: string, id?: string, ta
     reference.instrumentHeightM = num(f.instrumentHeightM);
     reference.targetHeightM = num(f.targetHeightM);
   }
+  if (f.method === "edm" && f.edmId) reference.edmId = f.edmId;
+  if (f.refUncertaintyMm.trim() !== "") reference.uncertaintyMm = num(f.refUncertaintyMm);
   const readings: SyncShotRecord["readings"] =
     f.readingKind === "rangesM"
       ? { rangesM: f.ranges.filter((x) => x.trim() !== "").map((x) => num(x) as number) }
@@ -367,6 +376,27 @@ export function ShotForm({
             <p className="text-muted sm:col-span-3">The distance comes from the surveyed positions of the station and the target.</p>
           </div>
         ) : null}
+        {f.method === "edm" ? (
+          <SelectField
+            id="f-edm"
+            label="Reference EDM"
+            value={f.edmId}
+            onChange={(v) => set("edmId", v)}
+            options={(ctx.edms ?? []).map((e) => ({ value: e.id, label: `${e.label} (${e.serial}) — ${e.uncertaintyMm} mm + ${e.uncertaintyPpm} ppm` }))}
+            placeholder="— not listed: the project's EDM figure —"
+            error={errors.edm}
+            optional
+          />
+        ) : null}
+        <NumberField
+          id="f-ref-u"
+          label="Reference uncertainty (mm)"
+          unit="mm"
+          value={f.refUncertaintyMm}
+          onChange={(v) => set("refUncertaintyMm", v)}
+          error={errors.refUncertainty}
+          hint="Standard uncertainty (k = 1) of this reference distance, when known; empty takes it from the tape's certificate, the surveyed points or the EDM."
+        />
       </section>
 
       <section className="card space-y-4">

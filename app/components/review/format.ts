@@ -41,6 +41,8 @@ export const TEST_WORDS: Record<TestName, { title: string; rule: string }> = {
   within: { title: "Share within limit", rule: "at least" },
   bias: { title: "Bias", rule: "|bias| at most" },
   precision: { title: "Precision (SD)", rule: "at most" },
+  // issue 15 (ranging.md §7): advisory unless the rule puts it in the verdict
+  reference: { title: "Reference accuracy", rule: "RMS u_ref at most" },
 };
 
 /** A test's value and limit in its unit: shots, %, mm. */

@@ -4,8 +4,9 @@ import { VerdictBadge, VerdictShape } from "~/components/verdict-badge";
 import { bandWord, mm, mmSigned, num, pct, TEST_WORDS, testLimit, testValue } from "./format";
 import type { BandRow, ReportJson, ReportTest } from "./types";
 
-export function TestsTable({ tests }: { tests: ReportTest[] }) {
+export function TestsTable({ tests, referenceInVerdict = false }: { tests: ReportTest[]; referenceInVerdict?: boolean }) {
   return (
+    <>
     <table className="w-full border-collapse text-left" data-testid="tests-table">
       <caption className="sr-only">Acceptance tests</caption>
       <thead>
@@ -25,12 +26,17 @@ export function TestsTable({ tests }: { tests: ReportTest[] }) {
               <span className="text-muted">{TEST_WORDS[t.name].rule}</span> {testLimit(t.name, t.limit)}
             </td>
             <td className="py-2">
-              <VerdictBadge verdict={t.pass ? "pass" : "fail"} />
+              {t.pass === null ? <span className="font-bold text-warn">Unknown</span> : <VerdictBadge verdict={t.pass ? "pass" : "fail"} />}
+              {t.name === "reference" ? <span className="block text-sm text-muted">{referenceInVerdict ? "in the verdict" : "advisory"}</span> : null}
             </td>
           </tr>
         ))}
       </tbody>
     </table>
+    <p className="mt-1 text-sm text-muted" data-testid="precision-note">
+      Precision test adapted from ISO 17123-4 (reflector EDM); no conformance claimed.
+    </p>
+    </>
   );
 }
 
@@ -38,10 +44,19 @@ export function TestsTable({ tests }: { tests: ReportTest[] }) {
 export function failureSentences(report: Pick<ReportJson, "tests" | "verdict">): string[] {
   if (report.verdict === "insufficient") {
     const c = report.tests.find((t) => t.name === "count");
+    // issue 15: with enough shots, only the reference test (in the verdict) holds a pass back
+    const ref = report.tests.find((t) => t.name === "reference");
+    if (c?.pass && ref) {
+      return [
+        ref.value == null
+          ? "The reference distances' uncertainty is unknown for some shots; the rule needs it in the verdict."
+          : `Reference uncertainty ${mm(ref.value, 2)} is above the limit ${mm(ref.limit, 2)} the rule needs in the verdict.`,
+      ];
+    }
     return c ? [`Only ${c.value ?? 0} included shots; the rule needs ${c.limit}.`] : ["Not enough shots."];
   }
   return report.tests
-    .filter((t) => !t.pass)
+    .filter((t) => t.pass === false && t.name !== "reference")
     .map((t) => {
       const v = testValue(t.name, t.value);
       const l = testLimit(t.name, t.limit);
@@ -70,7 +85,14 @@ export function FiguresGrid({ report }: { report: ReportJson }) {
       <Figure label="Bias" value={mmSigned(report.biasMm, 2)} hint={ci ? `95 % CI ${num(ci[0], 2)} to ${num(ci[1], 2)} mm` : "95 % CI —"} />
       <Figure label="Standard deviation" value={mm(report.sdMm, 2)} />
       <Figure label="RMSE" value={mm(report.rmseMm, 2)} />
-      <Figure label="95 % accuracy (1.96 × RMSE)" value={mm(report.accuracy95Mm, 2)} hint="valid for near-normal, near-unbiased errors" />
+      {report.statement === "nssda95" ? (
+        <Figure label="95 % accuracy (1.96 × RMSE)" value={mm(report.accuracy95Mm, 2)} hint="valid for near-normal, near-unbiased errors" />
+      ) : null}
+      <Figure
+        label="RMSE, reference included"
+        value={mm(report.rmseCombinedMm, 2)}
+        hint={report.referenceRmseMm != null ? `reference ${mm(report.referenceRmseMm, 2)} RMS` : `reference unknown for ${report.referenceUnknownN} shots`}
+      />
       <Figure label="95th percentile |error|" value={mm(report.p95AbsMm, 2)} />
       <Figure label="Max |error|" value={mm(report.maxAbsMm, 2)} />
       <Figure label="Within limit" value={pct(report.withinPct)} hint={`rule: ≥ ${report.rule.minWithinPct} %`} />

@@ -12,8 +12,32 @@ export type BandRow = BandStats;
 /** The report of GET /api/sensors/:sensorId/report: the ranging core's report plus what the server adds. */
 export type ReportJson = Omit<SensorReport, "failed"> & {
   sensorId: string;
-  rule: { minShots: number; coverageK: number; minWithinPct: number };
+  rule: {
+    minShots: number;
+    coverageK: number;
+    minWithinPct: number;
+    // issue 15 (ranging.md §7)
+    referenceRatio: number;
+    referenceInVerdict: boolean;
+    statement: "rmse" | "nssda95";
+    edmUncertaintyMm: number | null;
+    edmUncertaintyPpm: number | null;
+  };
+  ruleProjectId: string | null;
   airDefaulted: string[];
+  traceability: TraceabilityRow[];
+};
+
+/** issue 15: a calibration certificate behind the report (api.md v1.1 traceability). */
+export type TraceabilityRow = {
+  kind: "sensor" | "tape" | "edm";
+  id: string;
+  label: string;
+  number: string | null;
+  laboratory: string | null;
+  issued: string | null;
+  due: string | null;
+  expiredOnSessions: string[];
 };
 
 /** What the review screens need of a shot beyond the report row (from /api/shots). */

@@ -1,0 +1,82 @@
+// /admin/edms (issue 15): reference EDMs whose certificates make EDM reference distances traceable (admin).
+import { data, Link } from "react-router";
+import type { Route } from "./+types/admin.edms";
+import { ADMIN } from "~/auth/access";
+import { takeFlash } from "~/auth/flash.server";
+import { requireRole } from "~/auth/guards.server";
+import { FlashNotice, RegistryNav } from "~/components/forms";
+import { listEdms } from "~/models/edms.server";
+import { calibrationState } from "~/models/registry-schemas";
+
+export const meta: Route.MetaFunction = () => [{ title: "Reference EDMs — Shotbook" }];
+
+export async function loader({ request }: Route.LoaderArgs) {
+  await requireRole(request, ADMIN);
+  const includeRetired = new URL(request.url).searchParams.get("retired") === "show";
+  const [rows, all] = await Promise.all([listEdms({ includeRetired }), listEdms({ includeRetired: true })]);
+  const { flash, headers } = await takeFlash(request);
+  return data({ edms: rows, includeRetired, retiredCount: all.filter((t) => t.retiredAt).length, flash }, { headers });
+}
+
+export default function Edms({ loaderData }: Route.ComponentProps) {
+  const { edms, includeRetired, retiredCount, flash } = loaderData;
+  return (
+    <div className="space-y-4">
+      <RegistryNav />
+      <div className="flex flex-wrap items-center gap-3">
+        <h1 className="text-3xl font-bold">Reference EDMs</h1>
+        <Link to="/admin/edms/new" className="btn ml-auto">
+          + New reference EDM
+        </Link>
+      </div>
+      <FlashNotice flash={flash} />
+      <p>
+        <Link className="btn-secondary" to={includeRetired ? "/admin/edms" : "/admin/edms?retired=show"}>
+          {includeRetired ? "Hide retired EDMs" : `Show retired EDMs (${retiredCount})`}
+        </Link>
+      </p>
+      {edms.length === 0 ? (
+        <div className="card">
+          <p className="text-lg font-bold">No reference EDMs yet.</p>
+          <p>Add the instrument that measures EDM reference distances, with its certificate: shots that name it take their reference uncertainty from it.</p>
+        </div>
+      ) : (
+        <div className="overflow-x-auto">
+          <table className="w-full border-collapse text-left" data-testid="edm-table">
+            <thead>
+              <tr className="border-b-2 border-line">
+                <th className="p-2">Label</th>
+                <th className="p-2">Serial</th>
+                <th className="p-2 text-right">Uncertainty (k = 1)</th>
+                <th className="p-2">Certificate</th>
+              </tr>
+            </thead>
+            <tbody>
+              {edms.map((t) => {
+                const state = calibrationState(t.certDue);
+                return (
+                  <tr key={t.id} className="border-b border-line">
+                    <td className="p-2 font-bold">
+                      <Link className="inline-flex min-h-11 items-center underline underline-offset-4" to={`/admin/edms/${encodeURIComponent(t.id)}`}>
+                        {t.label}
+                      </Link>
+                      {t.retiredAt ? <span className="ml-2 rounded border-2 border-line px-1.5 text-sm uppercase">Retired</span> : null}
+                    </td>
+                    <td className="p-2">{t.serial}</td>
+                    <td className="p-2 num text-right">
+                      {t.uncertaintyMm} mm + {t.uncertaintyPpm} ppm
+                    </td>
+                    <td className="p-2">
+                      {t.certNumber ? `No. ${t.certNumber}, due ${t.certDue}` : "none"}
+                      {state === "overdue" ? <strong className="ml-2 text-fail">⚠ past due</strong> : state === "soon" ? <strong className="ml-2">due soon</strong> : null}
+                    </td>
+                  </tr>
+                );
+              })}
+            </tbody>
+          </table>
+        </div>
+      )}
+    </div>
+  );
+}

@@ -1,0 +1,20 @@
+// POST /api/edms (admin, issue 15): register a reference EDM from a script or pipeline; body and
+// answers in api.md "v1.1 additions" and the README. Authentication (401) and the role check
+// (403) come before validation.
+import type { Route } from "./+types/api.edms";
+import { requireApiUser } from "~/auth/guards.server";
+import { ADMIN } from "~/auth/access";
+import { createEdm } from "~/models/edms.server";
+
+export async function action({ request }: Route.ActionArgs) {
+  const user = await requireApiUser(request, ADMIN);
+  if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
+  let body: unknown;
+  try {
+    body = await request.json();
+  } catch {
+    return Response.json({ error: "The body is not JSON.", errors: [{ path: "", message: "Send a JSON object" }] }, { status: 400 });
+  }
+  const result = await createEdm(user, body);
+  return Response.json(result.body, { status: result.status });
+}
