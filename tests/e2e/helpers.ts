@@ -13,7 +13,7 @@ export function useServerEnv() {
   process.env.DATABASE_URL = inject("databaseUrl");
   process.env.DATA_DIR = inject("dataDir");
   process.env.MAIL_DIR = inject("mailDir");
-  process.env.SESSION_SECRET = "e2e-secret";
+  process.env.SESSION_SECRET = inject("sessionSecret");
   process.env.COOKIE_SECURE = "false";
   process.env.NODE_ENV = "production";
 }

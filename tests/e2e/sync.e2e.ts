@@ -118,7 +118,7 @@ async function startSecondServer(): Promise<{ url: string; proc: ChildProcess }>
       DATABASE_URL: inject("databaseUrl"),
       DATA_DIR: inject("dataDir"),
       MAIL_DIR: inject("mailDir"),
-      SESSION_SECRET: "e2e-secret",
+      SESSION_SECRET: inject("sessionSecret"),
       COOKIE_SECURE: "false",
     },
     stdio: ["ignore", "ignore", "ignore"],
