@@ -11,6 +11,9 @@ import type { Route } from "./+types/root";
 import { UpdatePrompt } from "./components/field/update-prompt";
 import "./app.css";
 import { themeFromRequest } from "./theme.server";
+import { sendQueuedMailAfterAnswer } from "./http/middleware.server";
+
+export const middleware: Route.MiddlewareFunction[] = [sendQueuedMailAfterAnswer];
 
 export const links: Route.LinksFunction = () => [
   { rel: "manifest", href: "/manifest.webmanifest" },

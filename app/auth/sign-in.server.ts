@@ -5,7 +5,7 @@ import { createCookie } from "react-router";
 import { Authenticator } from "remix-auth";
 import { TOTPStrategy } from "remix-auth-totp";
 import { cookieSecure, getEnv } from "~/env.server";
-import { MailNotSentError, sendSignInCodeStrict } from "~/mail/mailer.server";
+import { queueSignInCode } from "~/mail/mailer.server";
 import { createFirstAdmin, findUserByEmail, normalizeEmail, recordSignIn, usersTableIsEmpty } from "~/models/users.server";
 import { safeRedirect } from "~/utils/http";
 import { CODE_TTL_MS, checkLoginCode, codeCheckMessage, issueLoginCode } from "./login-codes.server";
@@ -69,7 +69,7 @@ export function readTotpState(request: Request): { email: string | null; error: 
 
 type Outcome = { response: Response } | { error: string; status: number };
 
-type Run = { redirectTo: string; sendError?: string; sessionCookie?: string };
+type Run = { redirectTo: string; sessionCookie?: string };
 
 function strategyFor(request: Request, run: Run, secret: string) {
   const next = run.redirectTo !== "/" ? `?redirectTo=${encodeURIComponent(run.redirectTo)}` : "";
@@ -86,19 +86,15 @@ function strategyFor(request: Request, run: Run, secret: string) {
       failureRedirect: `${CODE_PAGE}${next}`,
       sendTOTP: async ({ email, code, magicLink }) => {
         const address = normalizeEmail(email);
-        const user = await findUserByEmail(address);
-        const mayEnter = (user?.active ?? false) || (!user && (await usersTableIsEmpty()));
+        // The same queries and the same insert for every address; the mail itself leaves after
+        // the answer (queueSignInCode), so the time taken tells nobody which addresses exist.
+        const [user, empty] = await Promise.all([findUserByEmail(address), usersTableIsEmpty()]);
+        const mayEnter = (user?.active ?? false) || (!user && empty);
         await issueLoginCode(address, mayEnter ? code : null, ip);
-        if (!mayEnter) return; // same answer, no mail: nobody learns which addresses exist
         // Links point at APP_URL, not at whatever host name the request came in by.
         const link = new URL(magicLink);
         const publicLink = new URL(link.pathname + link.search, getEnv().APP_URL).toString();
-        try {
-          await sendSignInCodeStrict(address, { code, magicLink: publicLink, minutes: CODE_TTL_MS / 60_000 });
-        } catch (e) {
-          run.sendError = e instanceof MailNotSentError ? e.message : String(e);
-          throw new Error("The code could not be sent.");
-        }
+        if (mayEnter) queueSignInCode(address, { code, magicLink: publicLink, minutes: CODE_TTL_MS / 60_000 });
       },
     },
     async ({ email, request: req }) => {
@@ -142,9 +138,6 @@ function withForm(request: Request, fields: Record<string, string>) {
   return new Request(request.url, { method: "POST", headers, body: new URLSearchParams(fields) });
 }
 
-const MAIL_FAILED =
-  "The sign-in code could not be sent: the mail server does not answer. Nothing is wrong with your address — try again in a few minutes, or ask an admin.";
-
 /** Step 1: a code (and magic link) by e-mail — the same answer for any address. */
 export async function requestSignInCode(request: Request, input: { email: string; redirectTo?: string }): Promise<Outcome> {
   const email = normalizeEmail(input.email);
@@ -162,7 +155,6 @@ export async function requestSignInCode(request: Request, input: { email: string
   }
   const run: Run = { redirectTo: safeRedirect(input.redirectTo) };
   const response = await runStrategy(withForm(request, { email }), run);
-  if (run.sendError) return { error: MAIL_FAILED, status: 503 };
   if (response.status >= 300 && response.status < 400 && response.headers.get("Location")?.startsWith(CODE_PAGE)) {
     const headers = new Headers(response.headers);
     headers.append("Set-Cookie", await nextCookie.serialize(run.redirectTo, { secure: cookieSecure() }));
