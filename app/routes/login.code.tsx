@@ -6,6 +6,7 @@ import { getOptionalUser } from "~/auth/guards.server";
 import { codeSchema } from "~/auth/schemas";
 import { readTotpState, verifySignInCode } from "~/auth/sign-in.server";
 import { safeRedirect } from "~/utils/http";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Enter your code — Shotbook" }];
 
@@ -20,7 +21,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 }
 
 export async function action({ request }: Route.ActionArgs) {
-  const submission = parseWithZod(await request.clone().formData(), { schema: codeSchema });
+  const submission = parseWithZod(await readFormCapped(request), { schema: codeSchema });
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: 400 });
   const outcome = await verifySignInCode(request, submission.value);
   if ("response" in outcome) return outcome.response;
