@@ -13,6 +13,9 @@ import { getEnv } from "~/env.server";
 // missing or published SESSION_SECRET refuses to start instead of serving forgeable sessions.
 getEnv();
 
+// app/cli/serve.ts sets the socket address under this key (it must be this module graph's key).
+export { clientAddressContext } from "~/http/client-address.server";
+
 export const streamTimeout = 5_000;
 
 export default function handleRequest(

@@ -55,6 +55,16 @@ const schema = z.object({
   APP_URL: z.string().url().default("http://localhost:3000"),
   BASEMAP_STYLE_URL: z.string().url().optional(),
   PHOTO_MAX_BYTES: z.coerce.number().int().positive().default(8 * 1024 * 1024),
+  /**
+   * Proxies in front of the app that append to X-Forwarded-For: the client is the address that
+   * many hops from the right. 0 (default): the socket's address, the header is ignored.
+   */
+  TRUST_PROXY: z.coerce
+    .number({ error: "TRUST_PROXY is the number of proxies in front of the app (0, 1, 2 …)" })
+    .int("TRUST_PROXY is a whole number of proxies (0, 1, 2 …)")
+    .min(0, "TRUST_PROXY is 0 or more")
+    .max(10, "TRUST_PROXY is at most 10")
+    .default(0),
 })
   .superRefine((env, ctx) => {
     if (env.NODE_ENV !== "production") return;

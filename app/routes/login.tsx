@@ -18,10 +18,10 @@ export async function loader({ request }: Route.LoaderArgs) {
   return { redirectTo, email: url.searchParams.get("email") ?? "" };
 }
 
-export async function action({ request }: Route.ActionArgs) {
+export async function action({ request, context }: Route.ActionArgs) {
   const submission = parseWithZod(await readFormCapped(request), { schema: emailSchema });
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: 400 });
-  const outcome = await requestSignInCode(request, submission.value);
+  const outcome = await requestSignInCode(request, submission.value, context);
   if ("response" in outcome) return outcome.response;
   return data({ result: submission.reply({ formErrors: [outcome.error] }) }, { status: outcome.status });
 }

@@ -109,7 +109,7 @@ export async function run(): Promise<string[]> {
     const { cookie } = await createAuthSession({ id: crew.id, role: "crew" });
 
     const port = await freePort();
-    server = spawn("node", ["node_modules/@react-router/serve/bin.js", join(buildDir, "server/index.js")], {
+    server = spawn(process.execPath, ["--import", "tsx", "app/cli/serve.ts", join(buildDir, "server/index.js")], {
       cwd: ROOT,
       env: { ...process.env, PORT: String(port), HOST: "127.0.0.1", APP_URL: `http://127.0.0.1:${port}` },
       stdio: "ignore",

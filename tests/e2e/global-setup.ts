@@ -72,7 +72,8 @@ export default async function setup(project: TestProject) {
   // Migrate and seed the test users with the same CLI code operators use.
   await run(["tsx", "tests/e2e/prepare-db.ts"], env);
 
-  server = spawn("node", ["node_modules/@react-router/serve/bin.js", `${buildDir}/server/index.js`], {
+  // The production server entry (npm start), which also hands the socket address to the app.
+  server = spawn(process.execPath, ["--import", "tsx", "app/cli/serve.ts", `${buildDir}/server/index.js`], {
     env,
     stdio: ["ignore", "inherit", "inherit"],
   });

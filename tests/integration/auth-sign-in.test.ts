@@ -171,7 +171,7 @@ test("code requests over the per-address limit are refused with a clear message,
 test("code requests over the per-IP limit are refused, whatever the address", async () => {
   const ip = "198.51.100.77";
   for (let i = 0; i < RATE_LIMITS.perIp.limit; i++) {
-    const a = await answerOf(() => login.action(args(formRequest("/login", { email: `nobody${i}@elsewhere.test` }, { ip: `${ip}, 10.0.0.1` }))));
+    const a = await answerOf(() => login.action(args(formRequest("/login", { email: `nobody${i}@elsewhere.test` }, { ip, forwardedFor: `10.9.${i}.1` }))));
     expect(a.status).toBe(302);
   }
   const over = await answerOf(() => login.action(args(formRequest("/login", { email: "user3@fernhollow.test" }, { ip }))));
