@@ -1,13 +1,15 @@
 // The server entry: React Router's default Node entry, plus the boot-time environment check.
 import { PassThrough } from "node:stream";
 
-import type { AppLoadContext, EntryContext } from "react-router";
+import type { AppLoadContext, EntryContext, RouterContextProvider } from "react-router";
 import { createReadableStreamFromReadable } from "@react-router/node";
 import { ServerRouter } from "react-router";
 import { isbot } from "isbot";
 import type { RenderToPipeableStreamOptions } from "react-dom/server";
 import { renderToPipeableStream } from "react-dom/server";
 import { getEnv } from "~/env.server";
+import { NonceContext } from "~/components/nonce";
+import { nonceContext } from "~/http/security.server";
 
 // Validate the environment when the server bundle loads, so a production server with a
 // missing or published SESSION_SECRET refuses to start instead of serving forgeable sessions.
@@ -23,8 +25,13 @@ export default function handleRequest(
   responseStatusCode: number,
   responseHeaders: Headers,
   routerContext: EntryContext,
-  _loadContext: AppLoadContext,
+  loadContext: AppLoadContext,
 ) {
+  // Set by the security middleware for this request; the CSP header allows scripts with it.
+  let nonce = "";
+  try {
+    nonce = (loadContext as unknown as RouterContextProvider).get(nonceContext);
+  } catch {}
   // https://httpwg.org/specs/rfc9110.html#HEAD
   if (request.method.toUpperCase() === "HEAD") {
     return new Response(null, {
@@ -52,8 +59,11 @@ export default function handleRequest(
     );
 
     const { pipe, abort } = renderToPipeableStream(
-      <ServerRouter context={routerContext} url={request.url} />,
+      <NonceContext.Provider value={nonce}>
+        <ServerRouter context={routerContext} url={request.url} nonce={nonce} />
+      </NonceContext.Provider>,
       {
+        nonce,
         [readyOption]() {
           shellRendered = true;
           const body = new PassThrough({
