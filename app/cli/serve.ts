@@ -28,13 +28,11 @@ const clientDir = resolve(dirname(buildPath), "../client");
 const app = express();
 app.disable("x-powered-by");
 app.use(compression());
-app.use((_req, res, next) => {
-  res.setHeader("X-Content-Type-Options", "nosniff");
-  next();
-});
-app.use("/assets", express.static(join(clientDir, "assets"), { immutable: true, maxAge: "1y" }));
-app.use(express.static(clientDir));
-app.use(express.static("public", { maxAge: "1h" }));
+// Static files skip the app's middleware (app/http/security.server.ts sets the rest there).
+const setHeaders = (res: express.Response) => res.setHeader("X-Content-Type-Options", "nosniff");
+app.use("/assets", express.static(join(clientDir, "assets"), { immutable: true, maxAge: "1y", setHeaders }));
+app.use(express.static(clientDir, { setHeaders }));
+app.use(express.static("public", { maxAge: "1h", setHeaders }));
 app.use(morgan("tiny"));
 app.all(
   "*",
