@@ -1,3 +1,4 @@
+import "./zod-config";
 import {
   isRouteErrorResponse,
   Links,
@@ -7,10 +8,16 @@ import {
   ScrollRestoration,
   useRouteLoaderData,
 } from "react-router";
+import { useContext } from "react";
 import type { Route } from "./+types/root";
 import { UpdatePrompt } from "./components/field/update-prompt";
 import "./app.css";
 import { themeFromRequest } from "./theme.server";
+import { sendQueuedMailAfterAnswer } from "./http/middleware.server";
+import { securityHeaders } from "./http/security.server";
+import { NonceContext } from "./components/nonce";
+
+export const middleware: Route.MiddlewareFunction[] = [securityHeaders, sendQueuedMailAfterAnswer];
 
 export const links: Route.LinksFunction = () => [
   { rel: "manifest", href: "/manifest.webmanifest" },
@@ -25,6 +32,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 export function Layout({ children }: { children: React.ReactNode }) {
   const data = useRouteLoaderData<typeof loader>("root");
   const theme = data?.theme ?? "light";
+  const nonce = useContext(NonceContext);
   return (
     <html lang="en" className={theme === "dark" ? "dark" : ""}>
       <head>
@@ -37,8 +45,8 @@ export function Layout({ children }: { children: React.ReactNode }) {
       <body>
         {children}
         <UpdatePrompt />
-        <ScrollRestoration />
-        <Scripts />
+        <ScrollRestoration nonce={nonce} />
+        <Scripts nonce={nonce} />
       </body>
     </html>
   );

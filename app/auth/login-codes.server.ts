@@ -1,6 +1,6 @@
 // One-time sign-in codes in the database (hash only): expiry, at most 5 wrong tries and single
 // use hold across every app instance. Only the newest code of an address counts.
-import { and, desc, eq, isNull, lt, sql } from "drizzle-orm";
+import { and, asc, desc, eq, gt, isNull, lt, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { loginCodes } from "~/db/schema";
 import { getEnv } from "~/env.server";
@@ -8,6 +8,35 @@ import { sha256Hex } from "./tokens.server";
 
 export const CODE_TTL_MS = 10 * 60_000;
 export const MAX_CODE_TRIES = 5;
+/**
+ * Wrong codes one address may collect over all its codes in 24 hours. Per code there are only
+ * 5 tries, but fresh codes can be asked for again and again; this caps the guesses at
+ * 20 in a million a day (issue 11). Counted from login_codes, so every instance agrees.
+ */
+export const MAX_WRONG_CODES_PER_DAY = 20;
+const DAY_MS = 86400_000;
+
+/** Whether an address has used up its wrong codes for now, and when one drops out of the 24 h. */
+export async function codeLockout(email: string, now = new Date()): Promise<{ locked: false } | { locked: true; until: Date }> {
+  const rows = await getDb()
+    .select({ createdAt: loginCodes.createdAt, attempts: loginCodes.attempts })
+    .from(loginCodes)
+    .where(and(eq(loginCodes.email, email), gt(loginCodes.createdAt, new Date(now.getTime() - DAY_MS).toISOString()), gt(loginCodes.attempts, 0)))
+    .orderBy(asc(loginCodes.createdAt));
+  let wrong = rows.reduce((n, r) => n + r.attempts, 0);
+  if (wrong < MAX_WRONG_CODES_PER_DAY) return { locked: false };
+  // The lock ends when enough of the oldest wrong tries have left the 24-hour window.
+  for (const r of rows) {
+    wrong -= r.attempts;
+    if (wrong < MAX_WRONG_CODES_PER_DAY) return { locked: true, until: new Date(Date.parse(r.createdAt) + DAY_MS) };
+  }
+  return { locked: true, until: new Date(now.getTime() + DAY_MS) };
+}
+
+export function lockoutMessage(until: Date) {
+  const at = until.toISOString().slice(0, 16).replace("T", " ");
+  return `Too many wrong codes for this address in the last 24 hours (${MAX_WRONG_CODES_PER_DAY}). Signing in with a code is paused for it until ${at} UTC. If these tries were not yours, tell an admin.`;
+}
 
 /** Peppered with the current signing secret, so a leaked table does not give codes away. */
 export async function hashCode(email: string, code: string) {

@@ -2,6 +2,10 @@
 import { z } from "zod";
 import type { Role } from "~/db/schema";
 
+// The registry's rule (app/models/registry-schemas.ts), repeated so the sign-in bundle stays small.
+const CONTROL_CHARS = /[\u0000-\u001f\u007f-\u009f]/;
+const noControlMessage = (what: string) => `Remove the tabs, line breaks or other control characters from ${what}.`;
+
 // Kept here (not imported from the schema) so the browser bundle carries no database code.
 export const ROLE_OPTIONS = ["admin", "qa", "crew", "viewer"] as const satisfies readonly Role[];
 
@@ -30,11 +34,17 @@ export const inviteSchema = z.object({
     .string({ error: "Enter an e-mail address." })
     .trim()
     .pipe(z.email("That does not look like an e-mail address.")),
-  name: z.string().trim().max(120, "At most 120 characters.").optional().default(""),
+  name: z
+    .string()
+    .trim()
+    .max(120, "At most 120 characters.")
+    .refine((s) => !CONTROL_CHARS.test(s), noControlMessage("the name"))
+    .optional()
+    .default(""),
   role: z.enum(ROLE_OPTIONS, { error: "Pick a role." }),
 });
 
 export const tokenSchema = z.object({
   userId: z.string({ error: "Pick the user the token acts as." }).min(1, "Pick the user the token acts as."),
-  name: z.string({ error: "Give the token a name, e.g. the pipeline that uses it." }).trim().min(1, "Give the token a name, e.g. the pipeline that uses it.").max(80, "At most 80 characters."),
+  name: z.string({ error: "Give the token a name, e.g. the pipeline that uses it." }).trim().min(1, "Give the token a name, e.g. the pipeline that uses it.").max(80, "At most 80 characters.").refine((s) => !CONTROL_CHARS.test(s), noControlMessage("the token's name")),
 });

@@ -5,10 +5,11 @@ import { createCookie } from "react-router";
 import { Authenticator } from "remix-auth";
 import { TOTPStrategy } from "remix-auth-totp";
 import { cookieSecure, getEnv } from "~/env.server";
-import { MailNotSentError, sendSignInCodeStrict } from "~/mail/mailer.server";
+import { queueSignInCode } from "~/mail/mailer.server";
 import { createFirstAdmin, findUserByEmail, normalizeEmail, recordSignIn, usersTableIsEmpty } from "~/models/users.server";
 import { safeRedirect } from "~/utils/http";
-import { CODE_TTL_MS, checkLoginCode, codeCheckMessage, issueLoginCode } from "./login-codes.server";
+import { clientIp } from "~/http/client-address.server";
+import { CODE_TTL_MS, checkLoginCode, codeCheckMessage, codeLockout, issueLoginCode, lockoutMessage } from "./login-codes.server";
 import { hitRateLimit } from "./rate-limit.server";
 import { createAuthSession } from "./session.server";
 import { sha256Hex } from "./tokens.server";
@@ -22,15 +23,7 @@ export const RATE_LIMITS = {
   perIp: { limit: 30, windowMs: 15 * 60_000 },
 } as const;
 
-/**
- * The client's address: the first hop of X-Forwarded-For when a proxy sets it, else "unknown".
- * Behind no proxy every client shares the "unknown" bucket, so the per-IP limit is then a
- * limit for the whole server; put the app behind a proxy that sets the header in production.
- */
-export function clientIp(request: Request) {
-  const first = request.headers.get("X-Forwarded-For")?.split(",")[0]?.trim();
-  return first ? first.slice(0, 64) : "unknown";
-}
+export { clientIp };
 
 /** remix-auth-totp needs 64 hex characters; derived from the current signing secret. */
 async function totpSecret() {
@@ -69,11 +62,13 @@ export function readTotpState(request: Request): { email: string | null; error: 
 
 type Outcome = { response: Response } | { error: string; status: number };
 
-type Run = { redirectTo: string; sendError?: string; sessionCookie?: string };
+type Run = { redirectTo: string; ip: string; sessionCookie?: string };
+/** The `context` a loader or action gets: it carries the socket address (serve.ts). */
+type Ctx = Parameters<typeof clientIp>[1];
 
 function strategyFor(request: Request, run: Run, secret: string) {
   const next = run.redirectTo !== "/" ? `?redirectTo=${encodeURIComponent(run.redirectTo)}` : "";
-  const ip = clientIp(request);
+  const ip = run.ip;
   return new TOTPStrategy<{ id: string }>(
     {
       secret,
@@ -86,19 +81,15 @@ function strategyFor(request: Request, run: Run, secret: string) {
       failureRedirect: `${CODE_PAGE}${next}`,
       sendTOTP: async ({ email, code, magicLink }) => {
         const address = normalizeEmail(email);
-        const user = await findUserByEmail(address);
-        const mayEnter = (user?.active ?? false) || (!user && (await usersTableIsEmpty()));
+        // The same queries and the same insert for every address; the mail itself leaves after
+        // the answer (queueSignInCode), so the time taken tells nobody which addresses exist.
+        const [user, empty] = await Promise.all([findUserByEmail(address), usersTableIsEmpty()]);
+        const mayEnter = (user?.active ?? false) || (!user && empty);
         await issueLoginCode(address, mayEnter ? code : null, ip);
-        if (!mayEnter) return; // same answer, no mail: nobody learns which addresses exist
         // Links point at APP_URL, not at whatever host name the request came in by.
         const link = new URL(magicLink);
         const publicLink = new URL(link.pathname + link.search, getEnv().APP_URL).toString();
-        try {
-          await sendSignInCodeStrict(address, { code, magicLink: publicLink, minutes: CODE_TTL_MS / 60_000 });
-        } catch (e) {
-          run.sendError = e instanceof MailNotSentError ? e.message : String(e);
-          throw new Error("The code could not be sent.");
-        }
+        if (mayEnter) queueSignInCode(address, { code, magicLink: publicLink, minutes: CODE_TTL_MS / 60_000 });
       },
     },
     async ({ email, request: req }) => {
@@ -142,13 +133,11 @@ function withForm(request: Request, fields: Record<string, string>) {
   return new Request(request.url, { method: "POST", headers, body: new URLSearchParams(fields) });
 }
 
-const MAIL_FAILED =
-  "The sign-in code could not be sent: the mail server does not answer. Nothing is wrong with your address — try again in a few minutes, or ask an admin.";
-
 /** Step 1: a code (and magic link) by e-mail — the same answer for any address. */
-export async function requestSignInCode(request: Request, input: { email: string; redirectTo?: string }): Promise<Outcome> {
+export async function requestSignInCode(request: Request, input: { email: string; redirectTo?: string }, context?: Ctx): Promise<Outcome> {
   const email = normalizeEmail(input.email);
-  const byIp = await hitRateLimit(`code-ip:${clientIp(request)}`, RATE_LIMITS.perIp.limit, RATE_LIMITS.perIp.windowMs);
+  const ip = clientIp(request, context);
+  const byIp = await hitRateLimit(`code-ip:${ip}`, RATE_LIMITS.perIp.limit, RATE_LIMITS.perIp.windowMs);
   const byAddress = byIp.allowed
     ? await hitRateLimit(`code-email:${email}`, RATE_LIMITS.perAddress.limit, RATE_LIMITS.perAddress.windowMs)
     : byIp;
@@ -160,9 +149,8 @@ export async function requestSignInCode(request: Request, input: { email: string
       status: 429,
     };
   }
-  const run: Run = { redirectTo: safeRedirect(input.redirectTo) };
+  const run: Run = { redirectTo: safeRedirect(input.redirectTo), ip };
   const response = await runStrategy(withForm(request, { email }), run);
-  if (run.sendError) return { error: MAIL_FAILED, status: 503 };
   if (response.status >= 300 && response.status < 400 && response.headers.get("Location")?.startsWith(CODE_PAGE)) {
     const headers = new Headers(response.headers);
     headers.append("Set-Cookie", await nextCookie.serialize(run.redirectTo, { secure: cookieSecure() }));
@@ -172,16 +160,20 @@ export async function requestSignInCode(request: Request, input: { email: string
 }
 
 /** Step 2: the typed code. The database decides (tries, expiry, single use) before the strategy. */
-export async function verifySignInCode(request: Request, input: { code: string; redirectTo?: string }): Promise<Outcome> {
+export async function verifySignInCode(request: Request, input: { code: string; redirectTo?: string }, context?: Ctx): Promise<Outcome> {
   const { email } = readTotpState(request);
   if (!email) return { error: "This browser has no code request waiting. Enter your e-mail address again.", status: 400 };
+  const lock = await codeLockout(email);
+  if (lock.locked) return { error: lockoutMessage(lock.until), status: 429 };
   const check = await checkLoginCode(email, input.code);
   if (!check.ok) return { error: codeCheckMessage(check), status: check.reason === "wrong" ? 400 : 410 };
-  return { response: await runStrategy(withForm(request, { code: input.code }), { redirectTo: safeRedirect(input.redirectTo) }) };
+  return {
+    response: await runStrategy(withForm(request, { code: input.code }), { redirectTo: safeRedirect(input.redirectTo), ip: clientIp(request, context) }),
+  };
 }
 
 /** The magic link: the same checks, with the code taken from the link. */
-export async function verifyMagicLink(request: Request): Promise<Outcome> {
+export async function verifyMagicLink(request: Request, context?: Ctx): Promise<Outcome> {
   const url = new URL(request.url);
   const token = url.searchParams.get("t");
   const parsed = token ? await readMagicLinkToken(token) : null;
@@ -193,10 +185,12 @@ export async function verifyMagicLink(request: Request): Promise<Outcome> {
       status: 400,
     };
   }
+  const lock = await codeLockout(email);
+  if (lock.locked) return { error: lockoutMessage(lock.until), status: 429 };
   const check = await checkLoginCode(email, parsed.code);
   if (!check.ok) return { error: codeCheckMessage(check), status: check.reason === "wrong" ? 400 : 410 };
   const next = safeRedirect(await nextCookie.parse(request.headers.get("Cookie")));
-  return { response: await runStrategy(request, { redirectTo: next }) };
+  return { response: await runStrategy(request, { redirectTo: next, ip: clientIp(request, context) }) };
 }
 
 function b64url(s: string) {

@@ -194,7 +194,7 @@ try {
     start(
       a.name,
       process.execPath,
-      [resolve("node_modules/@react-router/serve/bin.js"), serverEntry],
+      ["--import", "tsx", resolve("app/cli/serve.ts"), serverEntry],
       {
         ...process.env,
         HOST: "127.0.0.1",

@@ -78,7 +78,7 @@ try {
   process.exit(1);
 }
 
-const child: ChildProcess = spawn(process.execPath, [resolve("node_modules/@react-router/serve/bin.js"), serverEntry], {
+const child: ChildProcess = spawn(process.execPath, ["--import", "tsx", resolve("app/cli/serve.ts"), serverEntry], {
   env: {
     ...process.env,
     HOST: "127.0.0.1",

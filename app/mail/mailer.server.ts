@@ -1,8 +1,11 @@
 // One nodemailer transport from SMTP_URL. Every mail lands in mail_log. A mail that cannot
 // be sent never fails the action that caused it (sendTemplateMail never throws); it stays
 // "failed" with its rendered message and is retried later (retryMails) with backoff.
-// Sign-in is the exception: sendSignInCodeStrict reports the failure so the page can say so,
-// and a sign-in code is never retried or stored (a late code is useless and a secret).
+// Sign-in is the exception: its code is a secret, so it is never stored (the log keeps a
+// redacted subject and no payload) and is sent from an in-process queue after the request has
+// answered (queueSignInCode, drained by the root middleware), so a known and an unknown address
+// take the same time to answer (issue 11). A failed code mail is retried from memory a few
+// times while the code is still valid.
 import nodemailer from "nodemailer";
 import type { Transporter } from "nodemailer";
 import { and, asc, eq, inArray, lt } from "drizzle-orm";
@@ -44,13 +47,19 @@ async function deliver(to: string, m: RenderedMail) {
   return String(info.messageId ?? "");
 }
 
+/** What the log may keep of a subject: a sign-in code never reaches the database. */
+function loggedSubject(template: MailTemplate, m: RenderedMail) {
+  return template === "sign-in-code" ? SIGN_IN_SUBJECT_LOGGED : m.subject;
+}
+export const SIGN_IN_SUBJECT_LOGGED = "Your Shotbook sign-in code: (not stored)";
+
 async function sendOne(template: MailTemplate, to: string, m: RenderedMail, keepPayload: boolean): Promise<MailResult> {
   const db = getDb();
   const now = new Date().toISOString();
-  const payload: Payload | null = keepPayload ? { ...m, to, lastAttemptAt: now } : null;
+  const payload: Payload | null = keepPayload && template !== "sign-in-code" ? { ...m, to, lastAttemptAt: now } : null;
   const [row] = await db
     .insert(mailLog)
-    .values({ to, subject: m.subject, template, status: "pending", attempts: 1, payload })
+    .values({ to, subject: loggedSubject(template, m), template, status: "pending", attempts: 1, payload })
     .returning({ id: mailLog.id });
   try {
     const messageId = await deliver(to, m);
@@ -95,16 +104,71 @@ export async function sendTemplateMail(
   }
 }
 
-/** For sign-in only: the caller must tell the person the code did not go out. */
-export async function sendSignInCodeStrict(to: string, vars: { code: string; magicLink?: string; minutes: number }) {
-  const r = await sendOne("sign-in-code", to, renderMail("sign-in-code", vars), false);
-  if (!r.ok) throw new MailNotSentError(r.error ?? "unknown error");
+// ---------- the sign-in code queue (in this process's memory only) ----------
+type CodeJob = { to: string; mail: RenderedMail; logId?: string; attempts: number; validUntil: number };
+const queue: { jobs: CodeJob[]; draining: Promise<void> | null } = { jobs: [], draining: null };
+const codeQueue = () => queue;
+/** Tries of one code mail in all; the waits between them (the code itself lives 10 minutes). */
+export const CODE_MAIL_TRIES = 3;
+const CODE_MAIL_RETRY_MS = [15_000, 60_000];
+
+/**
+ * Queues a sign-in code for sending after the response (no I/O here). The request that asks
+ * for a code does the same work whether or not the address exists; the send happens in
+ * drainSignInMail, which the root middleware starts once the answer is ready.
+ */
+export function queueSignInCode(to: string, vars: { code: string; magicLink?: string; minutes: number }) {
+  codeQueue().jobs.push({ to, mail: renderMail("sign-in-code", vars), attempts: 0, validUntil: Date.now() + vars.minutes * 60_000 });
 }
 
-export class MailNotSentError extends Error {
-  constructor(detail: string) {
-    super(`The mail could not be sent: ${detail}`);
-    this.name = "MailNotSentError";
+/** How many code mails wait to be sent (for tests and the health of the queue). */
+export function queuedSignInMails() {
+  return codeQueue().jobs.length;
+}
+
+/** Sends every queued code mail; resolves when the queue is empty (failed ones are rescheduled). */
+export function drainSignInMail(): Promise<void> {
+  const q = codeQueue();
+  if (q.draining) return q.draining;
+  if (q.jobs.length === 0) return Promise.resolve();
+  q.draining = (async () => {
+    try {
+      for (let job = q.jobs.shift(); job; job = q.jobs.shift()) await sendCodeJob(job);
+    } finally {
+      q.draining = null;
+    }
+  })();
+  return q.draining;
+}
+
+async function sendCodeJob(job: CodeJob) {
+  const db = getDb();
+  job.attempts++;
+  try {
+    if (!job.logId) {
+      const [row] = await db
+        .insert(mailLog)
+        .values({ to: job.to, subject: SIGN_IN_SUBJECT_LOGGED, template: "sign-in-code", status: "pending", attempts: 1, payload: null })
+        .returning({ id: mailLog.id });
+      job.logId = row!.id;
+    } else {
+      await db.update(mailLog).set({ attempts: job.attempts, status: "pending" }).where(eq(mailLog.id, job.logId));
+    }
+    const messageId = await deliver(job.to, job.mail);
+    await db.update(mailLog).set({ status: "sent", messageId, error: null }).where(eq(mailLog.id, job.logId));
+  } catch (e) {
+    const error = errorText(e);
+    if (job.logId) await db.update(mailLog).set({ status: "failed", error }).where(eq(mailLog.id, job.logId)).catch(() => undefined);
+    const wait = CODE_MAIL_RETRY_MS[job.attempts - 1];
+    if (job.attempts < CODE_MAIL_TRIES && wait !== undefined && Date.now() + wait < job.validUntil) {
+      const t = setTimeout(() => {
+        codeQueue().jobs.push(job);
+        void drainSignInMail();
+      }, wait);
+      t.unref?.();
+    } else {
+      console.warn(`A sign-in code mail to ${job.to} could not be sent after ${job.attempts} tries: ${error}`);
+    }
   }
 }
 

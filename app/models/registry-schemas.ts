@@ -19,12 +19,20 @@ function cap(s: string) {
   return s.charAt(0).toUpperCase() + s.slice(1);
 }
 
+/**
+ * Control characters (C0, DEL, C1) in a label: line breaks and escape codes would spoil CSV
+ * rows, mail subjects and terminal output, and are invisible on screen (issue 11).
+ */
+export const CONTROL_CHARS = /[\u0000-\u001f\u007f-\u009f]/;
+export const noControlMessage = (what: string) => `Remove the tabs, line breaks or other control characters from ${what}`;
+
 function text(what: string, max = 80) {
   return z
     .string({ error: (iss) => (given(iss.input) ? `${cap(what)} must be text` : `Enter ${what}`) })
     .trim()
     .min(1, `Enter ${what}`)
-    .max(max, `Keep ${what} to ${max} characters`);
+    .max(max, `Keep ${what} to ${max} characters`)
+    .refine((s) => !CONTROL_CHARS.test(s), noControlMessage(what));
 }
 
 function yesNo(what: string) {
@@ -251,7 +259,12 @@ function listFromText(v: unknown) {
 export const projectSchema = z.object({
   id: idSchema.optional(),
   name: text("the project's name"),
-  client: z.string().trim().max(120, "Keep the client's name to 120 characters").default(""),
+  client: z
+    .string()
+    .trim()
+    .max(120, "Keep the client's name to 120 characters")
+    .refine((s) => !CONTROL_CHARS.test(s), noControlMessage("the client's name"))
+    .default(""),
   notes,
   minShots: num("the minimum number of shots")
     .int("The minimum number of shots is a whole number")

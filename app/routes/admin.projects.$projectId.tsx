@@ -10,6 +10,7 @@ import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/models
 import { registryHistory } from "~/models/sensors.server";
 import { invariantResponse } from "~/utils/http";
 import { ProjectForm, projectDefaults } from "./admin.projects.form";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.project.name ?? "Project"} — Shotbook` }];
 
@@ -23,7 +24,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const formData = await request.formData();
+  const formData = await readFormCapped(request);
   const intent = formData.get("intent");
   const back = async (text: string) => redirect("/admin/projects", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
 

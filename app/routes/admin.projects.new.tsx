@@ -8,6 +8,7 @@ import { RegistryNav } from "~/components/forms";
 import { createProject, projectChoices } from "~/models/projects.server";
 import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/models/registry-schemas";
 import { ProjectForm, projectDefaults } from "./admin.projects.form";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "New project — Shotbook" }];
 
@@ -18,7 +19,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const submission = parseRegistryForm(await request.formData(), projectSchema);
+  const submission = parseRegistryForm(await readFormCapped(request), projectSchema);
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: submission.status === "error" ? 400 : 200 });
   const r = await createProject(user, submission.value);
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }) }, { status: 400 });

@@ -9,6 +9,7 @@ import { parseRegistryForm, sensorSchema, toConformFieldErrors } from "~/models/
 import { getSensor, registryHistory, restoreSensor, retireSensor, sensorUsage, updateSensor } from "~/models/sensors.server";
 import { invariantResponse } from "~/utils/http";
 import { SensorForm, sensorDefaults } from "./admin.sensors.form";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.sensor.label ?? "Sensor"} — Shotbook` }];
 
@@ -22,7 +23,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const formData = await request.formData();
+  const formData = await readFormCapped(request);
   const intent = formData.get("intent");
   const back = async (text: string) => redirect("/admin/sensors", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
 

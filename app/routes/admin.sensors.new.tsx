@@ -8,6 +8,7 @@ import { RegistryNav } from "~/components/forms";
 import { parseRegistryForm, sensorSchema, toConformFieldErrors } from "~/models/registry-schemas";
 import { createSensor } from "~/models/sensors.server";
 import { SensorForm, sensorDefaults } from "./admin.sensors.form";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "New sensor — Shotbook" }];
 
@@ -18,7 +19,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const submission = parseRegistryForm(await request.formData(), sensorSchema);
+  const submission = parseRegistryForm(await readFormCapped(request), sensorSchema);
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: submission.status === "error" ? 400 : 200 });
   const r = await createSensor(user, submission.value);
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }) }, { status: 400 });

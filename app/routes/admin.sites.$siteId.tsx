@@ -11,6 +11,7 @@ import { registryHistory } from "~/models/sensors.server";
 import { getSite, restoreSite, retireSite, siteUsage, updateSite } from "~/models/sites.server";
 import { invariantResponse } from "~/utils/http";
 import { SiteForm, siteDefaults } from "./admin.sites.form";
+import { BODY_LIMITS, readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.site.name ?? "Site"} — Shotbook` }];
 
@@ -24,7 +25,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const formData = await request.formData();
+  const formData = await readFormCapped(request, BODY_LIMITS.siteForm);
   const intent = formData.get("intent");
   const back = async (text: string) => redirect("/admin/sites", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
 

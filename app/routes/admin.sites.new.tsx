@@ -8,6 +8,7 @@ import { RegistryNav } from "~/components/forms";
 import { parseRegistryForm, siteSchema, toConformFieldErrors } from "~/models/registry-schemas";
 import { createSite } from "~/models/sites.server";
 import { SiteForm, siteDefaults } from "./admin.sites.form";
+import { BODY_LIMITS, readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "New site — Shotbook" }];
 
@@ -18,7 +19,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const submission = parseRegistryForm(await request.formData(), siteSchema);
+  const submission = parseRegistryForm(await readFormCapped(request, BODY_LIMITS.siteForm), siteSchema);
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: submission.status === "error" ? 400 : 200 });
   const r = await createSite(user, submission.value);
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }) }, { status: 400 });

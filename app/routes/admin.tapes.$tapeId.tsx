@@ -10,6 +10,7 @@ import { registryHistory } from "~/models/sensors.server";
 import { getTape, restoreTape, retireTape, updateTape } from "~/models/tapes.server";
 import { invariantResponse } from "~/utils/http";
 import { TapeForm, tapeDefaults } from "./admin.tapes.form";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.tape.label ?? "Tape"} — Shotbook` }];
 
@@ -23,7 +24,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const formData = await request.formData();
+  const formData = await readFormCapped(request);
   const intent = formData.get("intent");
   const back = async (text: string) => redirect("/admin/tapes", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
 

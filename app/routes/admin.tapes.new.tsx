@@ -8,6 +8,7 @@ import { RegistryNav } from "~/components/forms";
 import { parseRegistryForm, tapeSchema, toConformFieldErrors } from "~/models/registry-schemas";
 import { createTape } from "~/models/tapes.server";
 import { TapeForm, tapeDefaults } from "./admin.tapes.form";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "New tape — Shotbook" }];
 
@@ -18,7 +19,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const submission = parseRegistryForm(await request.formData(), tapeSchema);
+  const submission = parseRegistryForm(await readFormCapped(request), tapeSchema);
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: submission.status === "error" ? 400 : 200 });
   const r = await createTape(user, submission.value);
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }) }, { status: 400 });

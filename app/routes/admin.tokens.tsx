@@ -10,6 +10,7 @@ import { tokenSchema } from "~/auth/schemas";
 import { formatWhen, Notice } from "~/auth/ui";
 import { createTokenFor, listTokens, revokeToken } from "~/models/tokens.server";
 import { listUsers } from "~/models/users.server";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "API tokens — Admin — Shotbook" }];
 
@@ -25,7 +26,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const actor = await requireRole(request, ADMIN);
-  const form = await request.formData();
+  const form = await readFormCapped(request);
   if (form.get("intent") === "revoke") {
     const id = String(form.get("tokenId") ?? "");
     const row = await revokeToken(actor, id);

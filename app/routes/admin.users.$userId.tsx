@@ -7,6 +7,7 @@ import { requireRole } from "~/auth/guards.server";
 import { ROLE_OPTIONS } from "~/auth/schemas";
 import { formatWhen, Notice, ROLE_TEXT } from "~/auth/ui";
 import { changeRole, getUserDetail, revokeSessions, setUserActive, UserError } from "~/models/users.server";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.detail.user.email ?? "User"} — Admin — Shotbook` }];
 
@@ -27,7 +28,7 @@ const intentSchema = z.discriminatedUnion("intent", [
 
 export async function action({ request, params }: Route.ActionArgs) {
   const actor = await requireRole(request, ADMIN);
-  const parsed = intentSchema.safeParse(Object.fromEntries(await request.formData()));
+  const parsed = intentSchema.safeParse(Object.fromEntries(await readFormCapped(request)));
   if (!parsed.success) return data({ error: parsed.error.issues[0]?.message ?? "Unknown change." }, { status: 400 });
   const input = parsed.data;
   const id = params.userId;

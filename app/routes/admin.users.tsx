@@ -8,6 +8,7 @@ import { requireRole } from "~/auth/guards.server";
 import { inviteSchema, ROLE_OPTIONS } from "~/auth/schemas";
 import { formatWhen, Notice, ROLE_TEXT } from "~/auth/ui";
 import { inviteUser, listUsers, normalizeEmail, UserError } from "~/models/users.server";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Users — Admin — Shotbook" }];
 
@@ -19,7 +20,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const actor = await requireRole(request, ADMIN);
-  const submission = parseWithZod(await request.formData(), { schema: inviteSchema });
+  const submission = parseWithZod(await readFormCapped(request), { schema: inviteSchema });
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: 400 });
   try {
     const { mailSent } = await inviteUser(actor, submission.value);

@@ -5,20 +5,16 @@ import { FIELD } from "~/auth/access";
 import { DatabaseUnavailable, retryTransient, unavailableResponse } from "~/db/transient.server";
 import { listPhotos, photoMaxBytes, savePhoto } from "~/models/photos.server";
 import type { Route } from "./+types/api.photos";
-
-/** Room for the multipart boundaries and the shotId field around the file. */
-const MULTIPART_OVERHEAD = 64 * 1024;
+import { MULTIPART_OVERHEAD, readFormCapped } from "~/http/body.server";
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireApiUser(request, FIELD);
   if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
-  const max = photoMaxBytes();
-  const length = Number(request.headers.get("Content-Length") ?? 0);
-  if (length > max + MULTIPART_OVERHEAD) return Response.json({ error: `The photo is larger than ${max} bytes.` }, { status: 413 });
   let form: FormData;
   try {
-    form = await request.formData();
-  } catch {
+    form = await readFormCapped(request, photoMaxBytes() + MULTIPART_OVERHEAD);
+  } catch (e) {
+    if (e instanceof Response) return e;
     return Response.json({ error: "Send multipart form data with shotId and file." }, { status: 400 });
   }
   let result: Awaited<ReturnType<typeof savePhoto>>;

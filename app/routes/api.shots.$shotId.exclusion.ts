@@ -4,13 +4,14 @@ import { requireApiUser } from "~/auth/guards.server";
 import { REVIEWERS } from "~/auth/access";
 import { excludeShot, restoreShot } from "~/models/exclusions.server";
 import type { Route } from "./+types/api.shots.$shotId.exclusion";
+import { BODY_LIMITS, readFormCapped, readTextCapped } from "~/http/body.server";
 
 async function readBody(request: Request): Promise<unknown> {
   const type = request.headers.get("Content-Type") ?? "";
   if (type.includes("application/x-www-form-urlencoded") || type.includes("multipart/form-data")) {
-    return Object.fromEntries(await request.formData());
+    return Object.fromEntries(await readFormCapped(request));
   }
-  const text = await request.text();
+  const text = await readTextCapped(request, BODY_LIMITS.form);
   if (!text.trim()) return {};
   return JSON.parse(text);
 }

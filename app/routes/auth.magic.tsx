@@ -5,8 +5,8 @@ import { verifyMagicLink } from "~/auth/sign-in.server";
 export const meta: Route.MetaFunction = () => [{ title: "Sign-in link — Shotbook" }];
 
 // Public: the link in the sign-in e-mail. It signs in and redirects, or says why it cannot.
-export async function loader({ request }: Route.LoaderArgs) {
-  const outcome = await verifyMagicLink(request);
+export async function loader({ request, context }: Route.LoaderArgs) {
+  const outcome = await verifyMagicLink(request, context);
   if ("response" in outcome) return outcome.response;
   return { error: outcome.error };
 }

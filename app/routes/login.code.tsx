@@ -6,6 +6,7 @@ import { getOptionalUser } from "~/auth/guards.server";
 import { codeSchema } from "~/auth/schemas";
 import { readTotpState, verifySignInCode } from "~/auth/sign-in.server";
 import { safeRedirect } from "~/utils/http";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Enter your code — Shotbook" }];
 
@@ -19,10 +20,10 @@ export async function loader({ request }: Route.LoaderArgs) {
   return { email, error, redirectTo };
 }
 
-export async function action({ request }: Route.ActionArgs) {
-  const submission = parseWithZod(await request.clone().formData(), { schema: codeSchema });
+export async function action({ request, context }: Route.ActionArgs) {
+  const submission = parseWithZod(await readFormCapped(request), { schema: codeSchema });
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: 400 });
-  const outcome = await verifySignInCode(request, submission.value);
+  const outcome = await verifySignInCode(request, submission.value, context);
   if ("response" in outcome) return outcome.response;
   return data({ result: submission.reply({ formErrors: [outcome.error] }) }, { status: outcome.status });
 }

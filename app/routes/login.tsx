@@ -6,6 +6,7 @@ import { getOptionalUser } from "~/auth/guards.server";
 import { emailSchema } from "~/auth/schemas";
 import { requestSignInCode } from "~/auth/sign-in.server";
 import { safeRedirect } from "~/utils/http";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Sign in — Shotbook" }];
 
@@ -17,10 +18,10 @@ export async function loader({ request }: Route.LoaderArgs) {
   return { redirectTo, email: url.searchParams.get("email") ?? "" };
 }
 
-export async function action({ request }: Route.ActionArgs) {
-  const submission = parseWithZod(await request.clone().formData(), { schema: emailSchema });
+export async function action({ request, context }: Route.ActionArgs) {
+  const submission = parseWithZod(await readFormCapped(request), { schema: emailSchema });
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: 400 });
-  const outcome = await requestSignInCode(request, submission.value);
+  const outcome = await requestSignInCode(request, submission.value, context);
   if ("response" in outcome) return outcome.response;
   return data({ result: submission.reply({ formErrors: [outcome.error] }) }, { status: outcome.status });
 }

@@ -15,6 +15,7 @@ import { ShotTable } from "~/components/review/shot-table";
 import { matrixCells, worstCell } from "~/components/review/matrix";
 import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
 import { bandWord, dateOnly, dateTime, mmSigned } from "~/components/review/format";
+import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.sensor.label ?? "Sensor"} — report · Shotbook` }];
 
@@ -28,7 +29,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, REVIEWERS);
-  const formData = await request.formData();
+  const formData = await readFormCapped(request);
   const submission = parseWithZod(formData, { schema: signOffSchema });
   if (submission.status !== "success") return data({ result: submission.reply(), signedOff: null }, { status: 400 });
   try {

@@ -6,6 +6,7 @@
 // Slow (it builds nothing but starts sqld, s3rver and three app servers): only with
 // BENCH_CLUSTER=1, e.g. `BENCH_CLUSTER=1 npm run bench -- cluster`. Prints, never asserts.
 import { spawn } from "node:child_process";
+import { randomBytes } from "node:crypto";
 import { existsSync, mkdtempSync, rmSync } from "node:fs";
 import { createServer } from "node:net";
 import { tmpdir } from "node:os";
@@ -100,8 +101,8 @@ export async function run(): Promise<string[]> {
   const singleToken = (await createTokenFor(null, crew.id, "bench"))!.token;
   resetDb();
   const port = await freePort();
-  const app = spawn(process.execPath, [resolve("node_modules/@react-router/serve/bin.js"), serverEntry], {
-    env: { ...process.env, HOST: "127.0.0.1", PORT: String(port), NODE_ENV: "production", SESSION_SECRET: "bench", COOKIE_SECURE: "false", DATA_DIR: dir, MAIL_DIR: join(dir, "mail"), SMTP_URL: "smtp://127.0.0.1:9" },
+  const app = spawn(process.execPath, ["--import", "tsx", resolve("app/cli/serve.ts"), serverEntry], {
+    env: { ...process.env, HOST: "127.0.0.1", PORT: String(port), NODE_ENV: "production", SESSION_SECRET: randomBytes(48).toString("base64"), COOKIE_SECURE: "false", DATA_DIR: dir, MAIL_DIR: join(dir, "mail"), SMTP_URL: "smtp://127.0.0.1:9" },
     stdio: "ignore",
   });
   const { startCluster } = await import("../cluster/start.ts");

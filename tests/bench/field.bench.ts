@@ -7,6 +7,7 @@
 //    field layout and log-shot route with their imports). Target ≤ 200 KB; no maplibre.
 // Run alone: npx tsx tests/bench/field.bench.ts (uses RR_BUILD_DIR or build/; builds if missing).
 import { spawn, spawnSync, type ChildProcess } from "node:child_process";
+import { randomBytes } from "node:crypto";
 import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from "node:fs";
 import { createServer } from "node:net";
 import { loadavg, tmpdir } from "node:os";
@@ -87,7 +88,7 @@ export async function run(): Promise<string[]> {
     DATABASE_URL: `file:${join(dir, "bench.db")}`,
     DATA_DIR: dir,
     MAIL_DIR: join(dir, "mail"),
-    SESSION_SECRET: "field-bench-secret",
+    SESSION_SECRET: randomBytes(48).toString("base64"),
     COOKIE_SECURE: "false",
     NODE_ENV: "production",
   });
@@ -108,7 +109,7 @@ export async function run(): Promise<string[]> {
     const { cookie } = await createAuthSession({ id: crew.id, role: "crew" });
 
     const port = await freePort();
-    server = spawn("node", ["node_modules/@react-router/serve/bin.js", join(buildDir, "server/index.js")], {
+    server = spawn(process.execPath, ["--import", "tsx", "app/cli/serve.ts", join(buildDir, "server/index.js")], {
       cwd: ROOT,
       env: { ...process.env, PORT: String(port), HOST: "127.0.0.1", APP_URL: `http://127.0.0.1:${port}` },
       stdio: "ignore",

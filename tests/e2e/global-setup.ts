@@ -1,6 +1,7 @@
 // Starts the BUILT server (npm run build first) on 127.0.0.1 with a fresh database and the
 // mail fake, for browser tests driven by playwright-core through Debian's Chromium.
 import { spawn, type ChildProcess } from "node:child_process";
+import { randomBytes } from "node:crypto";
 import { existsSync, mkdirSync, rmSync } from "node:fs";
 import { createServer } from "node:net";
 import { resolve } from "node:path";
@@ -14,6 +15,7 @@ declare module "vitest" {
     databaseUrl: string;
     mailDir: string;
     dataDir: string;
+    sessionSecret: string;
   }
 }
 
@@ -51,6 +53,7 @@ export default async function setup(project: TestProject) {
   const [port, smtpPort] = [await freePort(), await freePort()];
   smtp = await startFakeSmtp({ port: smtpPort, mailDir });
 
+  const sessionSecret = randomBytes(48).toString("base64");
   const env = {
     ...process.env,
     NODE_ENV: "production",
@@ -60,7 +63,8 @@ export default async function setup(project: TestProject) {
     DATA_DIR: dataDir,
     MAIL_DIR: mailDir,
     SMTP_URL: `smtp://127.0.0.1:${smtpPort}`,
-    SESSION_SECRET: "e2e-secret",
+    // A production build refuses short or published secrets: a fresh strong one per run.
+    SESSION_SECRET: sessionSecret,
     COOKIE_SECURE: "false",
     DEV_MAIL_VIEWER: "true",
     APP_URL: `http://127.0.0.1:${port}`,
@@ -68,7 +72,8 @@ export default async function setup(project: TestProject) {
   // Migrate and seed the test users with the same CLI code operators use.
   await run(["tsx", "tests/e2e/prepare-db.ts"], env);
 
-  server = spawn("node", ["node_modules/@react-router/serve/bin.js", `${buildDir}/server/index.js`], {
+  // The production server entry (npm start), which also hands the socket address to the app.
+  server = spawn(process.execPath, ["--import", "tsx", "app/cli/serve.ts", `${buildDir}/server/index.js`], {
     env,
     stdio: ["ignore", "inherit", "inherit"],
   });
@@ -86,6 +91,7 @@ export default async function setup(project: TestProject) {
   project.provide("databaseUrl", databaseUrl);
   project.provide("mailDir", mailDir);
   project.provide("dataDir", dataDir);
+  project.provide("sessionSecret", sessionSecret);
 
   return async () => {
     server?.kill("SIGTERM");

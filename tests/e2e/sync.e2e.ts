@@ -109,7 +109,7 @@ async function freePort() {
 async function startSecondServer(): Promise<{ url: string; proc: ChildProcess }> {
   const port = await freePort();
   const buildDir = process.env.RR_BUILD_DIR ?? "build";
-  const proc = spawn("node", ["node_modules/@react-router/serve/bin.js", `${buildDir}/server/index.js`], {
+  const proc = spawn(process.execPath, ["--import", "tsx", "app/cli/serve.ts", `${buildDir}/server/index.js`], {
     env: {
       ...process.env,
       NODE_ENV: "production",
@@ -118,7 +118,7 @@ async function startSecondServer(): Promise<{ url: string; proc: ChildProcess }>
       DATABASE_URL: inject("databaseUrl"),
       DATA_DIR: inject("dataDir"),
       MAIL_DIR: inject("mailDir"),
-      SESSION_SECRET: "e2e-secret",
+      SESSION_SECRET: inject("sessionSecret"),
       COOKIE_SECURE: "false",
     },
     stdio: ["ignore", "ignore", "ignore"],

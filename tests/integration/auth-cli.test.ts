@@ -1,6 +1,7 @@
 // The user and token commands, spawned as operators run them, against a fresh (unmigrated)
 // database file; the printed token then authenticates GET /api/me on that database.
 import { spawn } from "node:child_process";
+import { randomBytes } from "node:crypto";
 import { rmSync } from "node:fs";
 import { resolve } from "node:path";
 import { afterAll, expect, test } from "vitest";
@@ -23,7 +24,7 @@ afterAll(() => {
 function run(script: string, argv: string[]) {
   return new Promise<{ code: number | null; stdout: string; stderr: string }>((res) => {
     const p = spawn("npx", ["tsx", script, ...argv], {
-      env: { ...process.env, DATABASE_URL: url, NODE_ENV: "production" },
+      env: { ...process.env, DATABASE_URL: url, NODE_ENV: "production", SESSION_SECRET: randomBytes(48).toString("base64") },
       stdio: ["ignore", "pipe", "pipe"],
     });
     let stdout = "";

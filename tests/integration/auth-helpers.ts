@@ -4,6 +4,7 @@ import { mkdirSync, readdirSync, readFileSync } from "node:fs";
 import { createServer } from "node:net";
 import { join, resolve } from "node:path";
 import { RouterContextProvider } from "react-router";
+import { clientAddressContext } from "~/http/client-address.server";
 import { parseEml, type ParsedMail } from "~/mail/eml.server";
 
 export type Answer = { status: number; location: string | null; body: unknown; setCookies: string[]; headers: Headers };
@@ -64,23 +65,34 @@ export class Jar {
   }
 }
 
-export function formRequest(path: string, fields: Record<string, string>, opts: { cookie?: string; ip?: string } = {}) {
+/** The socket address a request "came from": what app/cli/serve.ts puts in the context. */
+const socketOf = new WeakMap<Request, string>();
+
+/** `ip` is the client's socket address (not a header: X-Forwarded-For is the client's to forge). */
+export function formRequest(path: string, fields: Record<string, string>, opts: { cookie?: string; ip?: string; forwardedFor?: string } = {}) {
   const headers = new Headers({ "Content-Type": "application/x-www-form-urlencoded" });
   if (opts.cookie) headers.set("Cookie", opts.cookie);
-  if (opts.ip) headers.set("X-Forwarded-For", opts.ip);
-  return new Request(`http://localhost${path}`, { method: "POST", body: new URLSearchParams(fields), headers });
+  if (opts.forwardedFor) headers.set("X-Forwarded-For", opts.forwardedFor);
+  const r = new Request(`http://localhost${path}`, { method: "POST", body: new URLSearchParams(fields), headers });
+  if (opts.ip) socketOf.set(r, opts.ip);
+  return r;
 }
 
-export function getRequest(path: string, opts: { cookie?: string; bearer?: string; ip?: string } = {}) {
+export function getRequest(path: string, opts: { cookie?: string; bearer?: string; ip?: string; forwardedFor?: string } = {}) {
   const headers = new Headers();
   if (opts.cookie) headers.set("Cookie", opts.cookie);
   if (opts.bearer) headers.set("Authorization", `Bearer ${opts.bearer}`);
-  if (opts.ip) headers.set("X-Forwarded-For", opts.ip);
-  return new Request(`http://localhost${path}`, { headers });
+  if (opts.forwardedFor) headers.set("X-Forwarded-For", opts.forwardedFor);
+  const r = new Request(`http://localhost${path}`, { headers });
+  if (opts.ip) socketOf.set(r, opts.ip);
+  return r;
 }
 
 export function args(request: Request, params: Record<string, string> = {}) {
-  return { request, params, context: new RouterContextProvider(), unstable_pattern: "" } as never;
+  const context = new RouterContextProvider();
+  const ip = socketOf.get(request);
+  if (ip) context.set(clientAddressContext, ip);
+  return { request, params, context, unstable_pattern: "" } as never;
 }
 
 export async function freePort() {

@@ -1,5 +1,6 @@
 // Session cookie settings: Secure in production (with the documented COOKIE_SECURE=false switch
 // for plain-http local runs) and SESSION_SECRET rotation (first signs, all verify).
+import { randomBytes } from "node:crypto";
 import { afterEach, beforeAll, expect, test } from "vitest";
 import { createAuthSession, resetSessionStorage, userFromCookie } from "~/auth/session.server";
 import { getDb } from "~/db/client.server";
@@ -9,6 +10,8 @@ import { getRequest } from "./auth-helpers";
 
 let user: { id: string; role: "qa" };
 const saved = { ...process.env };
+/** Production refuses short or published secrets (tests/integration/env-secret.test.ts). */
+const STRONG = randomBytes(48).toString("base64");
 
 beforeAll(async () => {
   const [row] = await getDb().insert(users).values({ email: "sessions@fernhollow.test", role: "qa" }).returning();
@@ -34,7 +37,7 @@ function useEnv(env: Record<string, string | undefined>) {
 }
 
 test("the cookie is HttpOnly, SameSite=Lax and Secure in production; COOKIE_SECURE=false turns Secure off", async () => {
-  useEnv({ NODE_ENV: "production", COOKIE_SECURE: undefined });
+  useEnv({ NODE_ENV: "production", COOKIE_SECURE: undefined, SESSION_SECRET: STRONG });
   const prod = (await createAuthSession(user)).cookie;
   expect(prod).toMatch(/; HttpOnly/i);
   expect(prod).toMatch(/; SameSite=Lax/i);

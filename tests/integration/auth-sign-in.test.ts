@@ -1,5 +1,6 @@
 // Sign-in by e-mail code through the real actions and a real SMTP round trip to the local fake.
-import { afterAll, beforeAll, expect, test } from "vitest";
+import { afterAll, beforeAll, expect, test, vi } from "vitest";
+import { drainSignInMail } from "~/mail/mailer.server";
 import { eq } from "drizzle-orm";
 import { startFakeSmtp, type FakeSmtp } from "~/mail/fake-smtp.server";
 import { resetEnvCache } from "~/env.server";
@@ -44,6 +45,7 @@ const nextIp = () => `203.0.113.${++ipSeq}`;
 async function requestCode(email: string, jar = new Jar(), ip = nextIp()) {
   const a = await answerOf(() => login.action(args(formRequest("/login", { email, redirectTo: "/review" }, { cookie: jar.header(), ip }))));
   jar.take(a.setCookies);
+  await drainSignInMail(); // the root middleware's job once the answer is ready
   return { a, jar, ip };
 }
 
@@ -169,7 +171,7 @@ test("code requests over the per-address limit are refused with a clear message,
 test("code requests over the per-IP limit are refused, whatever the address", async () => {
   const ip = "198.51.100.77";
   for (let i = 0; i < RATE_LIMITS.perIp.limit; i++) {
-    const a = await answerOf(() => login.action(args(formRequest("/login", { email: `nobody${i}@elsewhere.test` }, { ip: `${ip}, 10.0.0.1` }))));
+    const a = await answerOf(() => login.action(args(formRequest("/login", { email: `nobody${i}@elsewhere.test` }, { ip, forwardedFor: `10.9.${i}.1` }))));
     expect(a.status).toBe(302);
   }
   const over = await answerOf(() => login.action(args(formRequest("/login", { email: "user3@fernhollow.test" }, { ip }))));
@@ -243,22 +245,25 @@ test("an invalid address is refused with a field message and the typed value kep
   expect(result.initialValue.email).toBe("not-an-address");
 });
 
-test("when the mail server is down, sign-in says clearly that the code could not be sent", async () => {
+test("when the mail server is down, the answer is the same; the failure is logged without the code", async () => {
   process.env.SMTP_URL = `smtp://127.0.0.1:${await freePort()}`;
   resetEnvCache();
+  const warn = vi.spyOn(console, "warn").mockImplementation(() => undefined);
   try {
+    // The mail leaves after the answer (issue 11), so the answer cannot depend on it.
     const { a } = await requestCode("user5@fernhollow.test");
-    expect(a.status).toBe(503);
-    expect(errorText(a.body)).toMatch(/could not be sent/);
+    expect(a.status).toBe(302);
+    expect(a.location).toBe("/login/code?redirectTo=%2Freview");
     const [row] = await getDb()
       .select()
       .from(mailLog)
       .where(eq(mailLog.to, "user5@fernhollow.test"))
       .orderBy(mailLog.at)
       .then((r) => r.slice(-1));
-    expect(row).toMatchObject({ template: "sign-in-code", status: "failed", payload: null });
+    expect(row).toMatchObject({ template: "sign-in-code", status: "failed", payload: null, subject: "Your Shotbook sign-in code: (not stored)" });
     expect(row!.error).toBeTruthy();
   } finally {
+    warn.mockRestore();
     process.env.SMTP_URL = `smtp://127.0.0.1:${smtp.port}`;
     resetEnvCache();
   }
