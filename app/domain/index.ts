@@ -18,3 +18,5 @@ export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflec
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";
 export { isImplausible, MAX_DISTANCE_M, MAX_ROUND_TRIP_NS, MAX_FREQUENCIES, FREQUENCY_MATCH_HZ, IMPLAUSIBLE_ERROR_MM, IMPLAUSIBLE_MIN_REFERENCE_M } from "./plausibility.ts";
+export { explainVerdict, formatSignedMm, STRAY_SHARE } from "./explain.ts";
+export type { ExplainInput, FlaggedGroup, FlaggedShot, VerdictExplanation } from "./explain.ts";

@@ -10,6 +10,7 @@ import { sendTemplateMail } from "~/mail/mailer.server";
 import { listUserEmailsByRole } from "~/models/users.server";
 import { buildSensorReport, computeSensorReport } from "~/models/reports.server";
 import { matrixCells, worstCell, type MatrixCell } from "~/components/review/matrix";
+import { explainVerdict } from "~/domain";
 import type { ReportJson } from "~/components/review/types";
 import type { SignOffInput } from "~/components/review/signoff-schema";
 
@@ -66,6 +67,8 @@ export type SensorOverviewRow = {
   lastSignOff: { decision: "approved" | "rejected"; createdAt: string; byName: string } | null;
   /** Where it goes wrong most: the reflectance × illuminance cell with the largest |bias|. */
   worst: MatrixCell | null;
+  /** Flagged shots (wrap, outlier) that drive a failed test, said before any band explanation. */
+  why: string | null;
 };
 
 /** The report with the per-shot reflectance and illuminance the matrix needs. */
@@ -125,6 +128,7 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
       trace: (r?.drift ?? []).map((d) => ({ startedAt: d.startedAt, biasMm: d.biasMm, flag: d.flag })),
       lastSignOff: last,
       worst: r && r.verdict !== "pass" && rc ? worstCell(rc.cells) : null,
+      why: r ? explainVerdict({ verdict: r.verdict, tests: r.tests, shots: r.shots, coverageK: r.rule.coverageK }).flaggedLine : null,
     });
   }
   // Failing sensors first: the QA lead's first question.
@@ -310,7 +314,7 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
       biasMm: report.biasMm,
       rmseMm: report.rmseMm,
       withinPct: report.withinPct,
-      summary: `Failed tests: ${why}.`,
+      summary: [explainVerdict({ verdict: report.verdict, tests: report.tests, shots: report.shots, coverageK: report.rule.coverageK }).flaggedLine, `Failed tests: ${why}.`].filter(Boolean).join("\n"),
       reportUrl: `/review/sensors/${sensorId}`,
     });
     notified.push(sensorId);

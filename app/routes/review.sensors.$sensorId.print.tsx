@@ -5,7 +5,8 @@ import { requireRole } from "~/auth/guards.server";
 import { listProjectsForFilter, listSignOffs, reportFor, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
 import { DriftChart, ErrorVsDistanceChart } from "~/components/review/charts";
-import { dateOnly, dateTime, mmSigned } from "~/components/review/format";
+import { mmSigned } from "~/components/review/format";
+import { LocalTime } from "~/components/review/local-time";
 import { VerdictBadge } from "~/components/verdict-badge";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `Range verification report — ${data?.sensor.label ?? "sensor"}` }];
@@ -70,7 +71,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <p>
           Project: {project ? `${project.name}${project.client ? ` (client: ${project.client})` : ""}` : "all projects"} · period: {period} · sessions: {used.size} of {sessions.length}
         </p>
-        <p className="text-sm">Generated {dateTime(generatedAt)} by {by}</p>
+        <p className="text-sm">Generated <LocalTime iso={generatedAt} /> by {by}</p>
       </header>
 
       <section className="space-y-2">
@@ -118,7 +119,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
           <ul className="list-disc pl-6">
             {exclusions.map((x) => (
               <li key={x.id} className="num">
-                {dateTime(x.takenAt)}, {x.referenceM.toFixed(3)} m, error {mmSigned(x.errorMm, 2)}: {x.reason || "no reason recorded"}
+                <LocalTime iso={x.takenAt} />, {x.referenceM.toFixed(3)} m, error {mmSigned(x.errorMm, 2)}: {x.reason || "no reason recorded"}
               </li>
             ))}
           </ul>
@@ -129,7 +130,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <h2 className="text-xl font-bold">Sign-off</h2>
         {last ? (
           <p data-testid="print-signoff">
-            {last.decision === "approved" ? "✓ Approved" : "✗ Rejected"} on {dateOnly(last.createdAt)} by {last.byName}; verdict then <VerdictBadge verdict={last.verdict} />, bias {mmSigned(last.biasMm, 2)}
+            {last.decision === "approved" ? "✓ Approved" : "✗ Rejected"} on <LocalTime iso={last.createdAt} /> by {last.byName}; verdict then <VerdictBadge verdict={last.verdict} />, bias {mmSigned(last.biasMm, 2)}
             {last.periodFrom || last.periodTo ? `, period ${last.periodFrom ?? "start"} to ${last.periodTo ?? "end"}` : ""}.{last.note ? ` Note: ${last.note}` : ""}
           </p>
         ) : (

@@ -5,7 +5,8 @@ import { requireRole } from "~/auth/guards.server";
 import { listProjectsForFilter, reviewOverview } from "~/models/signoffs.server";
 import { VerdictBadge } from "~/components/verdict-badge";
 import { BiasTrace } from "~/components/review/sparkline";
-import { dateOnly, dateTime, mm, mmSigned, TEST_WORDS } from "~/components/review/format";
+import { dateOnly, mm, mmSigned, TEST_WORDS } from "~/components/review/format";
+import { LocalTime } from "~/components/review/local-time";
 import type { TestName } from "~/components/review/types";
 
 export const meta: Route.MetaFunction = () => [{ title: "Review — sensor verdicts · Shotbook" }];
@@ -103,6 +104,9 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       {r.verdict === "fail" ? (
                         <span className="block text-sm">on {r.failed.map((f) => TEST_WORDS[f as TestName]?.title.toLowerCase() ?? f).join(", ")}</span>
                       ) : null}
+                      {r.why ? (
+                        <span className="block max-w-md text-sm font-bold" data-testid="why-flagged">⚑ {r.why}</span>
+                      ) : null}
                       {r.worst ? (
                         <span className="block text-sm" data-testid="worst">
                           worst: <strong>{WORST_WORDS[r.worst.reflectance]}</strong> targets in <strong>{WORST_WORDS[r.worst.illuminance]}</strong>, {mmSigned(r.worst.biasMm, 1)} (n {r.worst.n})
@@ -113,7 +117,7 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                     <td className="py-2 pr-3 text-right">{mmSigned(r.biasMm, 2)}</td>
                     <td className="py-2 pr-3 text-right">{mm(r.rmseMm, 2)}</td>
                     <td className="py-2 pr-3"><BiasTrace points={r.trace} limitMm={r.toleranceMm} /></td>
-                    <td className="py-2 pr-3 whitespace-nowrap">{dateTime(r.lastShotAt)}</td>
+                    <td className="py-2 pr-3 whitespace-nowrap"><LocalTime iso={r.lastShotAt} /></td>
                     <td className="py-2 pr-3 whitespace-nowrap">
                       {r.calibrationDue ? (
                         overdue ? (
@@ -129,7 +133,7 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       {r.lastSignOff ? (
                         <span>
                           <span className="font-bold">{r.lastSignOff.decision === "approved" ? "✓ Approved" : "✗ Rejected"}</span>
-                          <span className="block text-sm text-muted">{dateOnly(r.lastSignOff.createdAt)} by {r.lastSignOff.byName}</span>
+                          <span className="block text-sm text-muted"><LocalTime iso={r.lastSignOff.createdAt} /> by {r.lastSignOff.byName}</span>
                         </span>
                       ) : (
                         <span className="text-muted">none yet</span>

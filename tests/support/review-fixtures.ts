@@ -106,3 +106,37 @@ export async function reviewWorld() {
 }
 
 export type ReviewWorld = Awaited<ReturnType<typeof reviewWorld>>;
+
+/**
+ * Issue 12's case: a continuous-wave depth camera (20 and 25 MHz, combined interval ≈ 29.97 m)
+ * with 20 good shots and one on a board at 32 m that wrapped to ~2.05 m (error −29 953 mm).
+ * The sensor corrects for air itself, so each error is exactly the reading minus the reference.
+ */
+export async function addWrapSensor(w: ReviewWorld) {
+  const { makeSensor } = await import("./registry-fixtures");
+  const sensor = await makeSensor({ label: "Depth camera DC-3", kind: "cw", wavelengthNm: 850, modulationHz: [20e6, 25e6], appliesAirCorrection: true, toleranceMm: 10, tolerancePpm: 0 });
+  const sessionId = uid();
+  const errs = [...Array.from({ length: 20 }, (_, i) => 0.8 + noise(i) * 2), -29953];
+  const targets = [w.site.targets[1]!, w.site.targets[2]!];
+  const shots = errs.map((e, i) => {
+    const distanceM = i === 20 ? 32 : DISTANCES[i % 4]!;
+    return {
+      id: uid(),
+      sessionId,
+      takenAt: `2026-05-06T${String(10 + Math.floor(i / 10)).padStart(2, "0")}:${String((i * 5) % 60).padStart(2, "0")}:00+02:00`,
+      targetId: targets[i % 2]!.id,
+      reference: { method: "edm", distanceM },
+      readings: { rangesM: [Math.round((distanceM + e / 1000) * 1e6) / 1e6] },
+      reflectancePct: targets[i % 2]!.reflectancePct,
+      illuminanceKlux: 20,
+    };
+  });
+  const answer = await ingestSync(w.users.crew, {
+    deviceId: "tablet-depth",
+    sessions: [{ id: sessionId, sensorId: sensor.id, siteId: w.site.id, startedAt: "2026-05-06T09:55:00+02:00", airTempC: 18, pressureHpa: 1004, humidityPct: 60 }],
+    shots,
+  });
+  const bad = ((answer.body as { results?: { status: string }[] }).results ?? []).filter((r) => r.status !== "accepted");
+  if (answer.status !== 200 || bad.length) throw new Error(`depth camera sync failed: ${answer.status} ${JSON.stringify(bad.slice(0, 3))}`);
+  return { sensor, wrapShotId: shots[20]!.id };
+}
