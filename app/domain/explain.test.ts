@@ -87,7 +87,7 @@ test("many flagged shots are a pattern, not stray shots: no offer to exclude the
   const e = explainVerdict(input(rows, testsOf(rows, 5, 20, 8)));
   expect(e.stray).toBe(false);
   expect(e.flaggedLine).toBe(
-    "6 shots flagged outlier (+18.5, +18.4, +18.3 … 3 more mm): 30 % of the included shots, too many to be stray shots — look for a pattern (targets, light, range) before excluding any.",
+    "6 shots flagged outlier (largest +18.5, +18.4, +18.3 mm; 3 more): 30 % of the included shots, too many to be stray shots — look for a pattern (targets, light, range) before excluding any.",
   );
 });
 

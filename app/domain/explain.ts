@@ -102,8 +102,8 @@ function groupText(g: FlaggedGroup): string {
   const n = g.shots.length;
   // the largest first; beyond three, the rest are counted
   const sizes = [...g.shots].sort((a, b) => Math.abs(b.errorMm) - Math.abs(a.errorMm)).map((s) => formatSignedMm(s.errorMm, mmDigits(s.errorMm)).replace(/ mm$/, ""));
-  const shown = sizes.length > 3 ? `${sizes.slice(0, 3).join(", ")} … ${sizes.length - 3} more` : sizes.join(", ");
-  return `${n} shot${n === 1 ? "" : "s"} flagged ${g.flag} (${shown} mm)`;
+  const shown = sizes.length > 3 ? `largest ${sizes.slice(0, 3).join(", ")} mm; ${sizes.length - 3} more` : `${sizes.join(", ")} mm`;
+  return `${n} shot${n === 1 ? "" : "s"} flagged ${g.flag} (${shown})`;
 }
 
 /** The four tests of ranging.md §6 over a subset of rows, with the limits the report used. */

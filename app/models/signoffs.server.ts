@@ -72,7 +72,7 @@ export type SensorOverviewRow = {
 };
 
 /** The report with the per-shot reflectance and illuminance the matrix needs. */
-async function reportWithCells(actor: ReviewActor, sensorId: string, q: ReviewQuery) {
+export async function reportWithCells(actor: ReviewActor, sensorId: string, q: ReviewQuery) {
   const r = await computeSensorReport(actor, sensorId, {
     ...(q.from ? { from: q.from } : {}),
     ...(q.to ? { to: q.to } : {}),
