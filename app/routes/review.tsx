@@ -99,13 +99,13 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       </Link>
                       <span className="block text-sm font-normal text-muted">{r.serial} · {r.kind === "cw" ? "continuous-wave" : "pulsed"} · ±({r.toleranceMm} mm + {r.tolerancePpm} ppm)</span>
                     </th>
-                    <td className="py-2 pr-3">
+                    <td className="min-w-[16rem] py-2 pr-3">
                       <VerdictBadge verdict={r.verdict} />
                       {r.verdict === "fail" ? (
-                        <span className="block text-sm">on {r.failed.map((f) => TEST_WORDS[f as TestName]?.title.toLowerCase() ?? f).join(", ")}</span>
+                        <span className="block text-sm">on {r.failed.map((f) => TEST_WORDS[f as TestName]?.title.toLowerCase().replace("(sd)", "(SD)") ?? f).join(", ")}</span>
                       ) : null}
                       {r.why ? (
-                        <span className="block max-w-md text-sm font-bold" data-testid="why-flagged">⚑ {r.why}</span>
+                        <span className="mt-1 block text-sm font-bold" data-testid="why-flagged">⚑ {r.why}</span>
                       ) : null}
                       {r.worst ? (
                         <span className="block text-sm" data-testid="worst">
@@ -117,8 +117,8 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                     <td className="py-2 pr-3 text-right">{mmSigned(r.biasMm, 2)}</td>
                     <td className="py-2 pr-3 text-right">{mm(r.rmseMm, 2)}</td>
                     <td className="py-2 pr-3"><BiasTrace points={r.trace} limitMm={r.toleranceMm} /></td>
-                    <td className="py-2 pr-3 whitespace-nowrap"><LocalTime iso={r.lastShotAt} /></td>
-                    <td className="py-2 pr-3 whitespace-nowrap">
+                    <td className="py-2 pr-3"><LocalTime iso={r.lastShotAt} /></td>
+                    <td className="py-2 pr-3">
                       {r.calibrationDue ? (
                         overdue ? (
                           <span className="font-bold text-warn">⚠ overdue {r.calibrationDue}</span>

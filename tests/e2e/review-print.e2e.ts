@@ -98,7 +98,7 @@ test("every interactive element of the review screens and the shell header is a 
     expect(found).toEqual({});
     await context.close();
   }
-});
+}, 240_000);
 
 test("review times are shown in the device's local time with its offset, after the page hydrates", async () => {
   // St. John's keeps UTC−02:30 in May: an offset no one could mistake for UTC or the server's zone
@@ -163,7 +163,7 @@ test("the printed report numbers its pages, keeps the matrix and the verdict's r
     }
   }
   await context.close();
-});
+}, 120_000);
 
 test.runIf(!!SHOTS)("screenshots of the overview, the reports and the printed pages in both themes", async () => {
   const { context, page } = await as(w.users.qa.email, { viewport: { width: 1180, height: 820 }, timezoneId: "Europe/Berlin" });
@@ -183,9 +183,14 @@ test.runIf(!!SHOTS)("screenshots of the overview, the reports and the printed pa
       await page.getByTestId(testId).waitFor();
       await page.waitForTimeout(900);
       await page.screenshot({ path: join(SHOTS!, `${name}-${theme}.png`), fullPage: true });
+      // the top and the charts of a long page at full size, for a person to read
+      const height = await page.evaluate(() => document.documentElement.scrollHeight);
+      for (const [part, y] of [["top", 0], ["charts", 1250]] as const) {
+        if (y < height) await page.screenshot({ path: join(SHOTS!, `${name}-${theme}-${part}.png`), fullPage: true, clip: { x: 0, y, width: 1180, height: Math.min(1250, height - y) } });
+      }
     }
     const file = await printToPdf(page, `/review/sensors/${wrap.sensor.id}/print`, `print-${theme}`);
     execFileSync("pdftoppm", ["-png", "-r", "70", file, join(SHOTS!, `pdf-${theme}`)]);
   }
   await context.close();
-});
+}, 240_000);

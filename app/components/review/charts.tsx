@@ -63,6 +63,13 @@ export function LegendSwatch({ shape, color, hollow }: { shape: "circle" | "tria
 const figureClass = (beside?: boolean) => (beside ? "chart-figure grid grid-cols-[minmax(0,1fr)_190px] items-start gap-x-[16px]" : "chart-figure");
 const captionClass = (beside?: boolean) => (beside ? "flex flex-col gap-2 pt-2 text-sm" : "mt-2 flex flex-wrap gap-x-5 gap-y-1 text-base");
 
+/** Left margin wide enough for the longest y tick label (e.g. "−30,000" at 15 px), so no minus sign is cut off. */
+export function marginForValues(values: number[], min = 56): number {
+  const ext = Math.max(0, ...values.filter(Number.isFinite).map(Math.abs));
+  const chars = Math.ceil(ext * 1.25).toLocaleString("en-US").length + 1;
+  return Math.max(min, 16 + chars * 9);
+}
+
 const baseStyle = (c: Palette) => ({ background: "transparent", color: c.fg, fontSize: "15px", fontFamily: "inherit", overflow: "visible" });
 
 export function ErrorVsDistanceChart({ report, legendBeside }: { report: ReportJson; legendBeside?: boolean }) {
@@ -85,7 +92,7 @@ export function ErrorVsDistanceChart({ report, legendBeside }: { report: ReportJ
           return P.plot({
             width,
             height,
-            marginLeft: 56,
+            marginLeft: marginForValues([...rows.map((r) => r.errorMm), ...env.map((r) => r.lim)]),
             marginBottom: 46,
             style: baseStyle(c),
             x: { label: "Reference distance (m) →", grid: true, nice: true, zero: true, labelOffset: 40 },
@@ -184,7 +191,7 @@ export function DriftChart({ drift, biasLimitMm, legendBeside }: { drift: DriftR
         build={(P, width, c) => {
           // sessions can lie months apart: a real time axis in the reader's zone, as many ticks as
           // the width holds, and the per-session labels thinned where sessions crowd together
-          const marginLeft = 76;
+          const marginLeft = marginForValues([...data.map((d) => d.biasMm ?? 0), biasLimitMm ?? 0], 60) + 16;
           const marginRight = 36;
           const inset = 24;
           const ts = data.map((d) => d.t.getTime());
