@@ -140,7 +140,8 @@ export function MatrixChart({ cells, worst, legendBeside }: { cells: MatrixCell[
             style: baseStyle(c),
             x: { domain: [...ILLUMINANCE_ORDER], label: "Illuminance at the target (klux)", tickFormat: (b: string) => (b === "low" ? "< 10" : b === "moderate" ? "10–50" : "≥ 50, sun") },
             y: { domain: present, label: null, tickFormat: (b: string) => bandWord(b) },
-            color: { type: "diverging", scheme: "RdBu", reverse: true, domain: [-maxAbs, maxAbs], pivot: 0, legend: true, label: "Bias (mm)" },
+            // the ramp's end labels sit on its ends: margins keep "−4,000" whole
+            color: { type: "diverging", scheme: "RdBu", reverse: true, domain: [-maxAbs, maxAbs], pivot: 0, legend: true, label: "Bias (mm, blue reads short, red reads long)", ...({ marginLeft: 24, marginRight: 24, width: 320 } as object) },
             marks: [
               P.cell(cells, { x: "illuminance", y: "reflectance", fill: "biasMm", inset: 2 }),
               worst ? P.cell([worst], { x: "illuminance", y: "reflectance", stroke: c.fg, strokeWidth: 4, fill: "none", inset: 1 }) : null,
