@@ -103,6 +103,14 @@ test("every interactive element of the review screens and the shell header is a 
 test("review times are shown in the device's local time with its offset, after the page hydrates", async () => {
   // St. John's keeps UTC−02:30 in May: an offset no one could mistake for UTC or the server's zone
   const { context, page } = await as(w.users.qa.email, { timezoneId: "America/St_Johns" });
+  // the server renders UTC and the browser switches after hydration: React must not see a mismatch
+  const mismatches: string[] = [];
+  page.on("console", (m) => {
+    if (m.type() === "error" && /hydrat|did not match/i.test(m.text())) mismatches.push(m.text());
+  });
+  page.on("pageerror", (e) => {
+    if (/hydrat|#418|#423|#425/i.test(e.message)) mismatches.push(e.message);
+  });
   await page.goto("/review");
   const row = page.getByTestId("sensor-overview").locator(`tr[data-sensor="${w.failing.id}"]`);
   await row.locator('time[data-local-time="local"]').first().waitFor();
@@ -121,6 +129,7 @@ test("review times are shown in the device's local time with its offset, after t
   await page.goto(`/review/sensors/${w.failing.id}/print`);
   await page.locator('[data-testid="print-generated"] time[data-local-time="local"]').waitFor();
   expect(await page.getByTestId("print-generated").textContent()).toMatch(/Generated \d{4}-\d\d-\d\d \d\d:\d\d UTC−0[23]:30 by/);
+  expect(mismatches).toEqual([]);
   await context.close();
 });
 
