@@ -91,14 +91,20 @@ test("many flagged shots are a pattern, not stray shots: no offer to exclude the
   );
 });
 
-test("a pass and an insufficient verdict: no flagged sentence, the count sentence for too few shots", () => {
+test("a pass says nothing; too few shots give the count sentence, after a wrap shot that already sinks the other tests", () => {
   const pass = [row(1), row(-1), row(0.5), row(0)];
   expect(explainVerdict(input(pass, testsOf(pass, 4, 9, 0.85))).lines).toEqual([]);
+  // errors +1 and −29 953 mm: with both, 50 % within and bias −14 976 mm fail; with +1 alone, 100 % and +1.00 mm pass
   const few = [row(1), row(-29953, ["wrap"])];
   const e = explainVerdict(input(few, testsOf(few, 4, 9, 21180)));
   expect(e.verdict).toBe("insufficient");
-  expect(e.flaggedLine).toBeNull();
-  expect(e.lines).toEqual(["Only 2 included shots; the rule needs 4."]);
+  expect(e.lines).toEqual([
+    "1 shot flagged wrap (−29\u202f953 mm) drives the share within limit and bias tests; excluding it would give 100.0 % within limit (the rule needs 95.0 %) and bias +1.00 mm (limit ±5.00 mm), but leave only 1 shot where the rule needs 4 (insufficient).",
+    "Only 2 included shots; the rule needs 4.",
+  ]);
+  // a stray outlier that sinks nothing is not mentioned while the count is short
+  const quiet = [row(1), row(2), row(3, ["outlier"])];
+  expect(explainVerdict(input(quiet, testsOf(quiet, 4, 9, 1))).lines).toEqual(["Only 3 included shots; the rule needs 4."]);
 });
 
 test("excluded shots are neither named nor counted again", () => {

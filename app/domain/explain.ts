@@ -30,7 +30,7 @@ export type VerdictExplanation = {
   drives: TestName[];
   /** The four tests recomputed without the flagged shots (null when no included shot is flagged). */
   without: { n: number; verdict: Verdict; tests: AcceptanceTest[] } | null;
-  /** The sentence about flagged shots, or null. */
+  /** The sentence about flagged shots (a failed verdict, or an insufficient one whose tests they sink), or null. */
   flaggedLine: string | null;
   /** One sentence per failed test (or the count sentence when insufficient). */
   testLines: string[];
@@ -176,7 +176,8 @@ export function explainVerdict(input: ExplainInput): VerdictExplanation {
     without = testsWithout(input, included.filter((s) => !ids.has(s.id)));
     const after = new Map(without.tests.map((t) => [t.name, t]));
     drives = failed.filter((name) => name !== "count" && after.get(name)!.pass);
-    if (input.verdict === "fail") {
+    // an insufficient verdict names them too when they already sink a test: the next shots will not mend that
+    if (input.verdict === "fail" || (input.verdict === "insufficient" && stray && drives.length > 0)) {
       const who = list(flagged.map(groupText));
       const one = nFlagged === 1;
       const them = one ? "it" : "them";
@@ -189,7 +190,7 @@ export function explainVerdict(input: ExplainInput): VerdictExplanation {
         const phrases = drives.map((n) => testPhrase(after.get(n)!));
         let outcome: string;
         if (without.verdict === "pass") outcome = ": a pass";
-        else if (without.verdict === "insufficient") outcome = `, but leave only ${without.n} shots where the rule needs ${after.get("count")!.limit} (insufficient)`;
+        else if (without.verdict === "insufficient") outcome = `, but leave only ${without.n} shot${without.n === 1 ? "" : "s"} where the rule needs ${after.get("count")!.limit} (insufficient)`;
         else {
           const other = without.tests.filter((t) => !t.pass).map((t) => TEST_NOUN[t.name]);
           outcome = ` (the ${list(other)} test${other.length === 1 ? "" : "s"} would still fail)`;
