@@ -1,37 +1,24 @@
-// npm run demo (= react-router build && tsx app/cli/demo.ts [--port 3000]) — the invented
-// Fernhollow Geomatics demo on this machine: migrates and (re)seeds a demo database, starts the
-// local mail fake on 127.0.0.1:2525, serves the build on 127.0.0.1 and prints how to sign in.
+// npm run demo (= react-router build && tsx app/cli/demo.ts [--port 3000] [--smtp-port 2525]) — the
+// invented Fernhollow Geomatics demo on this machine: migrates and (re)seeds a demo database, starts
+// the local mail fake on 127.0.0.1:SMTP_PORT (2525), serves the build on 127.0.0.1:PORT (3000) and
+// prints how to sign in.
 // Ctrl-C stops both. DATABASE_URL, when set, is used instead of file:./data/demo.db (its demo
 // rows are replaced; nothing else in it is touched). RR_BUILD_DIR picks another build folder.
 import { spawn, type ChildProcess } from "node:child_process";
 import { randomBytes } from "node:crypto";
 import { existsSync, rmSync } from "node:fs";
 import { resolve } from "node:path";
+import { parseDemoOptions } from "./demo-options";
 
-const SMTP_PORT = 2525;
 const DEFAULT_DB = "file:./data/demo.db";
 
-function parsePort(argv: string[]): number {
-  let port = 3000;
-  for (let i = 0; i < argv.length; i++) {
-    const a = argv[i]!;
-    const v = a === "--port" ? argv[++i] : a.startsWith("--port=") ? a.slice("--port=".length) : undefined;
-    if (a === "--port" || a.startsWith("--port=")) {
-      const n = Number(v);
-      if (!Number.isInteger(n) || n < 1 || n > 65535) {
-        console.error(`--port needs a whole number from 1 to 65535 (got ${v ?? "nothing"}).`);
-        process.exit(2);
-      }
-      port = n;
-    } else {
-      console.error(`Unknown option ${a}. Usage: npm run demo [-- --port 3000]`);
-      process.exit(2);
-    }
-  }
-  return port;
+const parsed = parseDemoOptions(process.argv.slice(2), process.env);
+if (!parsed.ok) {
+  console.error(parsed.error);
+  process.exit(2);
 }
-
-const port = parsePort(process.argv.slice(2));
+const { port, smtpPort: SMTP_PORT } = parsed.options;
+console.log(`Starting the demo: app on port ${port} (PORT), mail fake on port ${SMTP_PORT} (SMTP_PORT).`);
 const ownDatabase = !process.env.DATABASE_URL;
 process.env.DATABASE_URL ??= DEFAULT_DB;
 process.env.DATA_DIR ??= "./data";
@@ -74,7 +61,7 @@ let smtp: Awaited<ReturnType<typeof startFakeSmtp>>;
 try {
   smtp = await startFakeSmtp({ port: SMTP_PORT, mailDir: process.env.MAIL_DIR, host: "127.0.0.1" });
 } catch (e) {
-  console.error(`Could not start the mail fake on 127.0.0.1:${SMTP_PORT} (${(e as Error).message}). Is another demo running?`);
+  console.error(`Could not start the mail fake on 127.0.0.1:${SMTP_PORT} (${(e as Error).message}). Is another demo running? Set SMTP_PORT to a free port.`);
   process.exit(1);
 }
 
@@ -150,6 +137,7 @@ const lines = [
   ...DEMO_USERS.map((u) => `  ${u.role.padEnd(6)}  ${u.email.padEnd(width)}  ${u.name}`),
   `Then read your sign-in code at ${appUrl}/dev/mail`,
   "",
+  `App port: ${port} (PORT)   Mail fake port: ${SMTP_PORT} (SMTP_PORT)`,
   `Database: ${databaseUrl}   Mail: smtp://127.0.0.1:${SMTP_PORT} → ${process.env.MAIL_DIR}`,
 ];
 if (token) {

@@ -40,3 +40,5 @@ export {
   sessionHistoryFigures,
 } from "./uncertainty.ts";
 export type { LinearUncertainty, ReferenceUncertaintyInput, LaserClass, AccuracyStatement, StatementFigures } from "./uncertainty.ts";
+export { explainVerdict, formatSignedMm, STRAY_SHARE } from "./explain.ts";
+export type { ExplainInput, FlaggedGroup, FlaggedShot, VerdictExplanation } from "./explain.ts";

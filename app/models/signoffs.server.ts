@@ -10,6 +10,7 @@ import { sendTemplateMail } from "~/mail/mailer.server";
 import { listUserEmailsByRole } from "~/models/users.server";
 import { buildSensorReport, computeSensorReport } from "~/models/reports.server";
 import { matrixCells, worstCell, type MatrixCell } from "~/components/review/matrix";
+import { explainVerdict } from "~/domain";
 import type { ReportJson } from "~/components/review/types";
 import { accuracyStatement, verdictFailures } from "~/domain";
 import type { SignOffInput } from "~/components/review/signoff-schema";
@@ -73,10 +74,12 @@ export type SensorOverviewRow = {
   statement: "rmse" | "nssda95";
   /** Certificates past due on some session of the selection. */
   expiredCertificates: number;
+  /** Flagged shots (wrap, outlier) that drive a failed test, said before any band explanation. */
+  why: string | null;
 };
 
 /** The report with the per-shot reflectance and illuminance the matrix needs. */
-async function reportWithCells(actor: ReviewActor, sensorId: string, q: ReviewQuery) {
+export async function reportWithCells(actor: ReviewActor, sensorId: string, q: ReviewQuery) {
   const r = await computeSensorReport(actor, sensorId, {
     ...(q.from ? { from: q.from } : {}),
     ...(q.to ? { to: q.to } : {}),
@@ -137,6 +140,7 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
         return { headlineMm: st.headlineMm, headlineLabel: st.headlineLabel, statement: st.style };
       })(),
       expiredCertificates: r ? r.traceability.filter((t) => t.expiredOnSessions.length > 0).length : 0,
+      why: r ? explainVerdict({ verdict: r.verdict, tests: r.tests, shots: r.shots, coverageK: r.rule.coverageK }).flaggedLine : null,
     });
   }
   // Failing sensors first: the QA lead's first question.
@@ -332,7 +336,7 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
       rmseMm: report.rmseMm,
       withinPct: report.withinPct,
       statement: accuracyStatement(report, report.statement).sentence,
-      summary: `Failed tests: ${why}.`,
+      summary: [explainVerdict({ verdict: report.verdict, tests: report.tests, shots: report.shots, coverageK: report.rule.coverageK }).flaggedLine, `Failed tests: ${why}.`].filter(Boolean).join("\n"),
       reportUrl: `/review/sensors/${sensorId}`,
     });
     notified.push(sensorId);

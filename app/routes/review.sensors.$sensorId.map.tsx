@@ -10,7 +10,8 @@ import { autoCellSideM, DIVERGING, hexBins, scaleMaxMm } from "~/components/revi
 import { defaultSite, sessionSites, siteBounds, siteChoices, siteOfShot } from "~/components/review/map-sites";
 import { fetchAllShots } from "~/components/review/use-report";
 import { LegendSwatch } from "~/components/review/charts";
-import { bandWord, dateOnly, dateTime, mm, mmSigned, metres } from "~/components/review/format";
+import { bandWord, dateOnly, mm, mmSigned, metres } from "~/components/review/format";
+import { LocalTime } from "~/components/review/local-time";
 import { WithinWord } from "~/components/review/shot-table";
 import { reflectanceClass } from "~/domain";
 import type { ReportJson, ShotDetail } from "~/components/review/types";
@@ -224,7 +225,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
         <aside aria-label="Selected shot" className="card space-y-2" data-testid="shot-details">
           {pick ? (
             <>
-              <h2 className="text-xl font-bold">Shot {dateTime(pickRow?.takenAt ?? null)}</h2>
+              <h2 className="text-xl font-bold">Shot <LocalTime iso={pickRow?.takenAt ?? null} /></h2>
               <p><WithinWord within={pick.within} /> its limit</p>
               <dl className="num grid grid-cols-2 gap-x-3 gap-y-1">
                 <dt className="font-bold">Error</dt><dd>{mmSigned(pick.errorMm, 2)}</dd>

@@ -2,12 +2,14 @@ import { useMemo } from "react";
 import type { Route } from "./+types/review.sensors.$sensorId.print";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
-import { listProjectsForFilter, listSignOffs, reportFor, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
+import { listProjectsForFilter, listSignOffs, reportWithCells, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
 import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
 import { laserCaution } from "~/domain";
-import { DriftChart, ErrorVsDistanceChart } from "~/components/review/charts";
 import { dateOnly, dateTime, mmSigned } from "~/components/review/format";
+import { DriftChart, ErrorVsDistanceChart, MatrixChart } from "~/components/review/charts";
+import { worstCell } from "~/components/review/matrix";
+import { LocalTime } from "~/components/review/local-time";
 import { VerdictBadge } from "~/components/verdict-badge";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `Range verification report — ${data?.sensor.label ?? "sensor"}` }];
@@ -23,41 +25,59 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const to = url.searchParams.get("to");
   const projectId = url.searchParams.get("project") || null;
   const q = { from: from && DATE.test(from) ? from : null, to: to && DATE.test(to) ? to : null, sessionIds: url.searchParams.getAll("session"), projectId };
-  const [report, signOffs, projects, extras] = await Promise.all([
-    reportFor(user, params.sensorId, q),
+  const [rc, signOffs, projects, extras] = await Promise.all([
+    reportWithCells(user, params.sensorId, q),
     listSignOffs(user, params.sensorId, 5),
     listProjectsForFilter(),
     shotExtras(user, params.sensorId),
   ]);
-  if (!report) throw new Response("There is no sensor with this id.", { status: 404 });
+  if (!rc) throw new Response("There is no sensor with this id.", { status: 404 });
+  const { report, cells } = rc;
   const project = projects.find((p) => p.id === projectId) ?? null;
   const exclusions = report.shots.filter((s) => s.excluded).map((s) => ({ id: s.id, takenAt: s.takenAt, referenceM: s.referenceM, errorMm: s.errorMm, reason: extras.reasons[s.id] ?? "" }));
-  return { ...head, report, signOffs, project, exclusions, query: q, generatedAt: new Date().toISOString(), by: user.name || user.email };
+  return { ...head, report, cells, worst: worstCell(cells), signOffs, project, exclusions, query: q, generatedAt: new Date().toISOString(), by: user.name || user.email };
 }
 
-// The report is paper: always the daylight colours, whatever theme the screen uses.
-const PRINT_CSS = `
+/** A CSS string literal (for the running footer's content). */
+const cssString = (t: string) => `"${t.replace(/[\\"]/g, (c) => `\\${c}`).replace(/[\r\n]+/g, " ").replace(/[<>]/g, "")}"`;
+
+// The report is paper: always the daylight colours, whatever theme the screen uses. Page numbers
+// come from the page-margin boxes of CSS Paged Media (counter(page), counter(pages)); Chromium
+// draws them since version 131, in print preview and in print-to-PDF alike.
+function printCss(footer: string) {
+  return `
 .print-paper { --bg: #ffffff; --surface: #ffffff; --fg: #000000; --muted: #333a45; --border: #555b66; --accent: #0b4fb3; --pass: #0a6b2d; --fail: #b3001b; --warn: #8a4b00; background: var(--bg); color: var(--fg); padding: 16px; border-radius: 8px; }
-@page { size: A4; margin: 14mm 12mm 16mm; }
+/* on screen the sheet is exactly as wide as the printed text block (A4 less the side margins), so the
+   charts, drawn once in the browser, already have their paper width when the page is printed */
+.print-paper { width: 186mm; max-width: 100%; box-sizing: content-box; }
+@page {
+  size: A4;
+  margin: 14mm 12mm 16mm;
+  @bottom-left { content: ${cssString(footer)}; font-family: "Atkinson Hyperlegible", system-ui, sans-serif; font-size: 8.5pt; color: #333a45; }
+  @bottom-right { content: "page " counter(page) " of " counter(pages); font-family: "Atkinson Hyperlegible", system-ui, sans-serif; font-size: 9pt; font-weight: bold; color: #000; }
+}
 @media print {
-  .print-page { font-size: 10.5pt; }
+  .print-page { font-size: 10.5pt; padding: 0; }
   .print-page h1 { font-size: 18pt; }
   .print-page h2 { font-size: 13pt; break-after: avoid; }
-  .print-page section, .print-page figure, .print-page tr { break-inside: avoid; }
+  /* sections may run on over a page (no half-empty pages); what must stay whole stays whole */
+  .print-page figure, .print-page tr, .print-page table, .print-page dl > div, .print-page li, .print-page .keep { break-inside: avoid; }
   .print-page .card { border-color: #000; background: #fff; }
+  .print-page.space-y-5 > :not(:last-child) { margin-bottom: 0.9rem; }
   main#main { max-width: none; padding: 0; }
 }
 `;
+}
 
 export default function PrintReport({ loaderData }: Route.ComponentProps) {
-  const { sensor, sessions, report, signOffs, project, exclusions, query, generatedAt, by } = loaderData;
+  const { sensor, sessions, report, cells, worst, signOffs, project, exclusions, query, generatedAt, by } = loaderData;
   const used = useMemo(() => new Set(report.shots.map((s) => s.sessionId)), [report]);
   const biasLimit = report.tests.find((t) => t.name === "bias")?.limit ?? sensor.toleranceMm;
   const period = query.from || query.to ? `${query.from ?? "first shot"} to ${query.to ?? "last shot"}` : "all dates";
   const last = signOffs[0];
   return (
-    <article className="print-page print-paper mx-auto max-w-4xl space-y-5" data-testid="print-report">
-      <style>{PRINT_CSS}</style>
+    <article className="print-page print-paper mx-auto space-y-5" data-testid="print-report">
+      <style>{printCss(`Range verification report · ${sensor.label} · serial ${sensor.serial}`)}</style>
       <div className="no-print flex flex-wrap gap-2">
         <button type="button" className="btn" onClick={() => window.print()}>Print or save as PDF</button>
         <a href={`/review/sensors/${sensor.id}`} className="btn-secondary">Back to the report</a>
@@ -73,7 +93,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <p>
           Project: {project ? `${project.name}${project.client ? ` (client: ${project.client})` : ""}` : "all projects"} · period: {period} · sessions: {used.size} of {sessions.length}
         </p>
-        <p className="text-sm">Generated {dateTime(generatedAt)} by {by}</p>
+        <p className="text-sm" data-testid="print-generated">Generated <LocalTime iso={generatedAt} /> by {by}</p>
       </header>
 
       <section className="space-y-2">
@@ -108,13 +128,17 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         {report.airDefaulted.length ? <p className="text-sm">{report.airDefaulted.length} session(s) used default air values for a missing reading.</p> : null}
       </section>
 
-      <section className="space-y-2">
+      <section className="keep space-y-2">
         <h2 className="text-xl font-bold">Range error against reference distance</h2>
-        <ErrorVsDistanceChart report={report} />
+        <ErrorVsDistanceChart report={report} legendBeside />
       </section>
-      <section className="space-y-2">
+      <section className="keep space-y-2">
+        <h2 className="text-xl font-bold">Bias by reflectance × illuminance</h2>
+        {cells.length ? <MatrixChart cells={cells} worst={worst} legendBeside /> : <p>No shots with both reflectance and illuminance recorded.</p>}
+      </section>
+      <section className="keep space-y-2">
         <h2 className="text-xl font-bold">Bias per session</h2>
-        {report.drift.length ? <DriftChart drift={report.drift} biasLimitMm={biasLimit} /> : <p>No sessions.</p>}
+        {report.drift.length ? <DriftChart drift={report.drift} biasLimitMm={biasLimit} legendBeside /> : <p>No sessions.</p>}
       </section>
 
       <section className="grid gap-4">
@@ -132,7 +156,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
           <ul className="list-disc pl-6">
             {exclusions.map((x) => (
               <li key={x.id} className="num">
-                {dateTime(x.takenAt)}, {x.referenceM.toFixed(3)} m, error {mmSigned(x.errorMm, 2)}: {x.reason || "no reason recorded"}
+                <LocalTime iso={x.takenAt} />, {x.referenceM.toFixed(3)} m, error {mmSigned(x.errorMm, 2)}: {x.reason || "no reason recorded"}
               </li>
             ))}
           </ul>
@@ -143,7 +167,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <h2 className="text-xl font-bold">Sign-off</h2>
         {last ? (
           <p data-testid="print-signoff">
-            {last.decision === "approved" ? "✓ Approved" : "✗ Rejected"} on {dateOnly(last.createdAt)} by {last.byName}; verdict then <VerdictBadge verdict={last.verdict} />, bias {mmSigned(last.biasMm, 2)}
+            {last.decision === "approved" ? "✓ Approved" : "✗ Rejected"} on <LocalTime iso={last.createdAt} /> by {last.byName}; verdict then <VerdictBadge verdict={last.verdict} />, bias {mmSigned(last.biasMm, 2)}
             {last.periodFrom || last.periodTo ? `, period ${last.periodFrom ?? "start"} to ${last.periodTo ?? "end"}` : ""}.{last.note ? ` Note: ${last.note}` : ""}
           </p>
         ) : (

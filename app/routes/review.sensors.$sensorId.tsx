@@ -16,6 +16,7 @@ import { matrixCells, worstCell } from "~/components/review/matrix";
 import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
 import { bandWord, dateOnly, dateTime, mmSigned } from "~/components/review/format";
 import { readFormCapped } from "~/http/body.server";
+import { LocalTime } from "~/components/review/local-time";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.sensor.label ?? "Sensor"} — report · Shotbook` }];
 
@@ -247,7 +248,7 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
             {signOffs.map((s) => (
               <li key={s.id} className="card">
                 <p className="text-lg font-bold">
-                  {s.decision === "approved" ? "✓ Approved" : "✗ Rejected"} · {dateTime(s.createdAt)} by {s.byName}
+                  {s.decision === "approved" ? "✓ Approved" : "✗ Rejected"} · <LocalTime iso={s.createdAt} /> by {s.byName}
                 </p>
                 <p>
                   Verdict then: <VerdictBadge verdict={s.verdict} /> · bias {mmSigned(s.biasMm, 2)} · {s.projectName ?? "all projects"} · {s.periodFrom || s.periodTo ? `${s.periodFrom ?? "start"} to ${s.periodTo ?? "end"}` : "all dates"}

@@ -5,7 +5,8 @@ import { requireRole } from "~/auth/guards.server";
 import { listProjectsForFilter, reviewOverview } from "~/models/signoffs.server";
 import { VerdictBadge } from "~/components/verdict-badge";
 import { BiasTrace } from "~/components/review/sparkline";
-import { dateOnly, dateTime, mm, mmSigned, TEST_WORDS } from "~/components/review/format";
+import { dateOnly, mm, mmSigned, TEST_WORDS } from "~/components/review/format";
+import { LocalTime } from "~/components/review/local-time";
 import type { TestName } from "~/components/review/types";
 
 export const meta: Route.MetaFunction = () => [{ title: "Review — sensor verdicts · Shotbook" }];
@@ -98,10 +99,13 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       </Link>
                       <span className="block text-sm font-normal text-muted">{r.serial} · {r.kind === "cw" ? "continuous-wave" : "pulsed"} · ±({r.toleranceMm} mm + {r.tolerancePpm} ppm)</span>
                     </th>
-                    <td className="py-2 pr-3">
+                    <td className="min-w-[16rem] py-2 pr-3">
                       <VerdictBadge verdict={r.verdict} />
                       {r.verdict === "fail" ? (
-                        <span className="block text-sm">on {r.failed.map((f) => TEST_WORDS[f as TestName]?.title.toLowerCase() ?? f).join(", ")}</span>
+                        <span className="block text-sm">on {r.failed.map((f) => TEST_WORDS[f as TestName]?.title.toLowerCase().replace("(sd)", "(SD)") ?? f).join(", ")}</span>
+                      ) : null}
+                      {r.why ? (
+                        <span className="mt-1 block text-sm font-bold" data-testid="why-flagged">⚑ {r.why}</span>
                       ) : null}
                       {r.worst ? (
                         <span className="block text-sm" data-testid="worst">
@@ -117,8 +121,8 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       {r.expiredCertificates ? <span className="block text-sm font-bold text-fail">⚠ certificate past due</span> : null}
                     </td>
                     <td className="py-2 pr-3"><BiasTrace points={r.trace} limitMm={r.toleranceMm} /></td>
-                    <td className="py-2 pr-3 whitespace-nowrap">{dateTime(r.lastShotAt)}</td>
-                    <td className="py-2 pr-3 whitespace-nowrap">
+                    <td className="py-2 pr-3"><LocalTime iso={r.lastShotAt} /></td>
+                    <td className="py-2 pr-3">
                       {r.calibrationDue ? (
                         overdue ? (
                           <span className="font-bold text-warn">⚠ overdue {r.calibrationDue}</span>
@@ -133,7 +137,7 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       {r.lastSignOff ? (
                         <span>
                           <span className="font-bold">{r.lastSignOff.decision === "approved" ? "✓ Approved" : "✗ Rejected"}</span>
-                          <span className="block text-sm text-muted">{dateOnly(r.lastSignOff.createdAt)} by {r.lastSignOff.byName}</span>
+                          <span className="block text-sm text-muted"><LocalTime iso={r.lastSignOff.createdAt} /> by {r.lastSignOff.byName}</span>
                         </span>
                       ) : (
                         <span className="text-muted">none yet</span>

@@ -10,7 +10,7 @@ import * as mapPage from "~/routes/review.sensors.$sensorId.map";
 import * as exclusionApi from "~/routes/api.shots.$shotId.exclusion";
 import { buildSensorReport } from "~/models/reports.server";
 import { apiRequest, call } from "../support/registry-fixtures";
-import { reviewWorld, type ReviewWorld } from "../support/review-fixtures";
+import { addWrapSensor, reviewWorld, type ReviewWorld } from "../support/review-fixtures";
 import { booleanPointInPolygon, point } from "@turf/turf";
 import type { Feature, Polygon } from "geojson";
 
@@ -151,4 +151,26 @@ test("the map page gets the site outline, its station and its targets as GeoJSON
     expect(booleanPointInPolygon(point((f.geometry as { coordinates: number[] }).coordinates), outline)).toBe(true);
   }
   expect(data.basemapUrl).toBeNull();
+});
+
+// Issue 12: a sensor failed by one wrap-flagged shot is explained by that shot, before any band.
+test("a failure driven by one wrap-flagged shot is named with its size in the overview, the report page's data and the print", async () => {
+  const { sensor, wrapShotId } = await addWrapSensor(w);
+  const data = (await overview.loader({ request: apiRequest("/review", { user: w.users.qa }), params: {}, context: {} } as never)) as Awaited<ReturnType<typeof overview.loader>>;
+  const row = data.rows.find((r) => r.id === sensor.id)!;
+  expect(row.verdict).toBe("fail");
+  expect(row.failed).toEqual(expect.arrayContaining(["bias", "precision"]));
+  expect(row.why).toMatch(/^1 shot flagged wrap \(−29\u202f953 mm\) drives the bias and precision \(SD\) tests; excluding it would give bias [+−]\d\.\d\d mm \(limit ±10\.00 mm\) and precision \(SD\) \d\.\d\d mm \(limit \d+\.\d\d mm\): a pass\.$/);
+  // the same words from the report the page and the print read
+  const report = (await buildSensorReport(w.users.qa, sensor.id, {}))!;
+  expect(report.shots.find((s) => s.id === wrapShotId)!.flags).toContain("wrap");
+  const { explanationOf } = await import("~/components/review/report-figures");
+  const e = explanationOf(report);
+  expect(e.flaggedLine).toBe(row.why);
+  expect(e.lines[0]).toBe(row.why);
+  expect(e.lines[1]).toMatch(/^Bias −1\d{3}\.\d\d mm is beyond the limit ±10\.00 mm\.$/);
+  const printed = (await printPage.loader({ request: apiRequest(`/review/sensors/${sensor.id}/print`, { user: w.users.viewer }), params: { sensorId: sensor.id }, context: {} } as never)) as Awaited<
+    ReturnType<typeof printPage.loader>
+  >;
+  expect(explanationOf(printed.report).flaggedLine).toBe(row.why);
 });

@@ -106,3 +106,37 @@ export async function reviewWorld() {
 }
 
 export type ReviewWorld = Awaited<ReturnType<typeof reviewWorld>>;
+
+/**
+ * Issue 12's case: a continuous-wave depth camera (20 and 25 MHz, combined interval ≈ 29.97 m)
+ * with 20 good shots and one on a board at 32 m that wrapped to ~2.05 m (error −29 953 mm).
+ * The sensor corrects for air itself, so each error is exactly the reading minus the reference.
+ */
+export async function addWrapSensor(w: ReviewWorld) {
+  const { makeSensor } = await import("./registry-fixtures");
+  const sensor = await makeSensor({ label: "Depth camera DC-3", kind: "cw", wavelengthNm: 850, modulationHz: [20e6, 25e6], appliesAirCorrection: true, toleranceMm: 10, tolerancePpm: 0 });
+  // four sessions months apart (two on one January day), so the bias-per-session chart spans a season
+  const starts = ["2026-01-12T09:00:00+01:00", "2026-01-12T14:30:00+01:00", "2026-03-03T10:00:00+01:00", "2026-05-06T09:55:00+02:00"];
+  const sessions = starts.map((startedAt) => ({ id: uid(), sensorId: sensor.id, siteId: w.site.id, startedAt, airTempC: 18, pressureHpa: 1004, humidityPct: 60 }));
+  const errs = [...Array.from({ length: 20 }, (_, i) => 0.8 + noise(i) * 2), -29953];
+  const targets = [w.site.targets[1]!, w.site.targets[2]!];
+  const shots = errs.map((e, i) => {
+    const distanceM = i === 20 ? 32 : DISTANCES[i % 4]!;
+    const k = Math.min(3, Math.floor(i / 5));
+    const start = starts[k]!;
+    return {
+      id: uid(),
+      sessionId: sessions[k]!.id,
+      takenAt: `${start.slice(0, 11)}${String(Number(start.slice(11, 13)) + 1).padStart(2, "0")}:${String((i * 5) % 60).padStart(2, "0")}:00${start.slice(-6)}`,
+      targetId: targets[i % 2]!.id,
+      reference: { method: "edm", distanceM },
+      readings: { rangesM: [Math.round((distanceM + e / 1000) * 1e6) / 1e6] },
+      reflectancePct: targets[i % 2]!.reflectancePct,
+      illuminanceKlux: i % 3 === 0 ? 4 : 20,
+    };
+  });
+  const answer = await ingestSync(w.users.crew, { deviceId: "tablet-depth", sessions, shots });
+  const bad = ((answer.body as { results?: { status: string }[] }).results ?? []).filter((r) => r.status !== "accepted");
+  if (answer.status !== 200 || bad.length) throw new Error(`depth camera sync failed: ${answer.status} ${JSON.stringify(bad.slice(0, 3))}`);
+  return { sensor, wrapShotId: shots[20]!.id };
+}

@@ -4,7 +4,7 @@ import { useEffect, useRef, useState } from "react";
 import type { MatrixCell } from "./matrix";
 import { ILLUMINANCE_ORDER, REFLECTANCE_ORDER } from "./matrix";
 import type { DriftRow, ReportJson, ReportShotRow } from "./types";
-import { bandWord } from "./format";
+import { bandWord, offsetText } from "./format";
 
 type PlotModule = typeof import("@observablehq/plot");
 type Palette = { fg: string; muted: string; pass: string; fail: string; warn: string; accent: string; bg: string; line: string };
@@ -59,16 +59,28 @@ export function LegendSwatch({ shape, color, hollow }: { shape: "circle" | "tria
   );
 }
 
+/** On paper the legend sits in a column beside its chart (never on another page); on screens, below it. */
+const figureClass = (beside?: boolean) => (beside ? "chart-figure grid grid-cols-[minmax(0,1fr)_190px] items-start gap-x-[16px]" : "chart-figure");
+const captionClass = (beside?: boolean) => (beside ? "flex flex-col gap-2 pt-2 text-sm" : "mt-2 flex flex-wrap gap-x-5 gap-y-1 text-base");
+
+/** Left margin wide enough for the longest y tick label (e.g. "−30,000" at 15 px), so no minus sign is cut off. */
+export function marginForValues(values: number[], min = 56): number {
+  const ext = Math.max(0, ...values.filter(Number.isFinite).map(Math.abs));
+  const chars = Math.ceil(ext * 1.25).toLocaleString("en-US").length + 1;
+  return Math.max(min, 16 + chars * 9);
+}
+
 const baseStyle = (c: Palette) => ({ background: "transparent", color: c.fg, fontSize: "15px", fontFamily: "inherit", overflow: "visible" });
 
-export function ErrorVsDistanceChart({ report }: { report: ReportJson }) {
+export function ErrorVsDistanceChart({ report, legendBeside }: { report: ReportJson; legendBeside?: boolean }) {
   const rows = report.shots;
+  const height = legendBeside ? 300 : 360;
   return (
-    <figure>
+    <figure className={figureClass(legendBeside)}>
       <PlotBox
         label="Range error against reference distance, with the plus and minus limit envelope and the fitted zero offset and scale line"
-        height={360}
-        deps={[report]}
+        height={height}
+        deps={[report, height]}
         build={(P, width, c) => {
           const env = [...rows].sort((a, b) => a.referenceM - b.referenceM).map((r) => ({ d: r.referenceM, lim: r.limitMm }));
           const maxD = env.length ? env[env.length - 1]!.d : 1;
@@ -79,10 +91,11 @@ export function ErrorVsDistanceChart({ report }: { report: ReportJson }) {
           const inc = rows.filter((r) => !r.excluded);
           return P.plot({
             width,
-            height: 360,
-            marginLeft: 56,
+            height,
+            marginLeft: marginForValues([...rows.map((r) => r.errorMm), ...env.map((r) => r.lim)]),
+            marginBottom: 46,
             style: baseStyle(c),
-            x: { label: "Reference distance (m) →", grid: true, nice: true, zero: true },
+            x: { label: "Reference distance (m) →", grid: true, nice: true, zero: true, labelOffset: 40 },
             y: { label: "↑ Range error (mm, + reads long)", grid: true, nice: true },
             marks: [
               P.areaY(env, { x: "d", y1: (r: { lim: number }) => -r.lim, y2: "lim", fill: c.accent, fillOpacity: 0.12 }),
@@ -98,7 +111,7 @@ export function ErrorVsDistanceChart({ report }: { report: ReportJson }) {
           });
         }}
       />
-      <figcaption className="mt-2 flex flex-wrap gap-x-5 gap-y-1 text-base">
+      <figcaption className={captionClass(legendBeside)}>
         <span><LegendSwatch shape="circle" color="var(--pass)" /> within limit</span>
         <span><LegendSwatch shape="triangle" color="var(--fail)" /> outside limit</span>
         <span><LegendSwatch shape="square" color="var(--muted)" hollow /> excluded</span>
@@ -109,11 +122,11 @@ export function ErrorVsDistanceChart({ report }: { report: ReportJson }) {
   );
 }
 
-export function MatrixChart({ cells, worst }: { cells: MatrixCell[]; worst: MatrixCell | null }) {
+export function MatrixChart({ cells, worst, legendBeside }: { cells: MatrixCell[]; worst: MatrixCell | null; legendBeside?: boolean }) {
   const present = REFLECTANCE_ORDER.filter((r) => cells.some((c) => c.reflectance === r));
   const maxAbs = Math.max(1, ...cells.map((c) => Math.abs(c.biasMm)));
   return (
-    <figure>
+    <figure className={figureClass(legendBeside)}>
       <PlotBox
         label="Bias by target reflectance and illuminance, one cell per combination with its shot count"
         height={80 + present.length * 70}
@@ -127,7 +140,8 @@ export function MatrixChart({ cells, worst }: { cells: MatrixCell[]; worst: Matr
             style: baseStyle(c),
             x: { domain: [...ILLUMINANCE_ORDER], label: "Illuminance at the target (klux)", tickFormat: (b: string) => (b === "low" ? "< 10" : b === "moderate" ? "10–50" : "≥ 50, sun") },
             y: { domain: present, label: null, tickFormat: (b: string) => bandWord(b) },
-            color: { type: "diverging", scheme: "RdBu", reverse: true, domain: [-maxAbs, maxAbs], pivot: 0, legend: true, label: "Bias (mm)" },
+            // the ramp's end labels sit on its ends: margins keep "−4,000" whole
+            color: { type: "diverging", scheme: "RdBu", reverse: true, domain: [-maxAbs, maxAbs], pivot: 0, legend: true, label: "Bias (mm, blue reads short, red reads long)", ...({ marginLeft: 24, marginRight: 24, width: 320 } as object) },
             marks: [
               P.cell(cells, { x: "illuminance", y: "reflectance", fill: "biasMm", inset: 2 }),
               worst ? P.cell([worst], { x: "illuminance", y: "reflectance", stroke: c.fg, strokeWidth: 4, fill: "none", inset: 1 }) : null,
@@ -146,43 +160,83 @@ export function MatrixChart({ cells, worst }: { cells: MatrixCell[]; worst: Matr
           })
         }
       />
-      <figcaption className="mt-1 text-base text-muted">Each cell: bias of its included shots (mm) and their count; the framed cell is the largest bias with 3 or more shots.</figcaption>
+      <figcaption className={legendBeside ? "pt-2 text-sm" : "mt-1 text-base text-muted"}>
+        Each cell: bias of its included shots (mm, colour scale above the cells: blue reads short, red reads long) and their count; the framed cell is the
+        largest bias with 3 or more shots.
+      </figcaption>
     </figure>
   );
 }
 
-export function DriftChart({ drift, biasLimitMm }: { drift: DriftRow[]; biasLimitMm: number | null }) {
+/** Keeps labels at least `gap` px apart along x (first one wins), so close sessions do not print over each other. */
+export function thinByX<T>(items: T[], x: (d: T) => number, gap: number): T[] {
+  const out: T[] = [];
+  let last = -Infinity;
+  for (const d of [...items].sort((p, q) => x(p) - x(q))) {
+    if (x(d) - last >= gap) {
+      out.push(d);
+      last = x(d);
+    }
+  }
+  return out;
+}
+
+export function DriftChart({ drift, biasLimitMm, legendBeside }: { drift: DriftRow[]; biasLimitMm: number | null; legendBeside?: boolean }) {
   const data = drift.filter((d) => d.biasMm != null).map((d) => ({ ...d, t: new Date(d.startedAt) }));
   return (
-    <figure>
+    <figure className={figureClass(legendBeside)}>
       <PlotBox
         label="Bias per session over time, sessions flagged for drift drawn as triangles"
         height={260}
         deps={[drift, biasLimitMm]}
-        build={(P, width, c) =>
-          P.plot({
+        build={(P, width, c) => {
+          // sessions can lie months apart: a real time axis in the reader's zone, as many ticks as
+          // the width holds, and the per-session labels thinned where sessions crowd together
+          const marginLeft = marginForValues([...data.map((d) => d.biasMm ?? 0), biasLimitMm ?? 0], 60) + 16;
+          const marginRight = 36;
+          const inset = 24;
+          const ts = data.map((d) => d.t.getTime());
+          const t0 = Math.min(...ts);
+          const t1 = Math.max(...ts);
+          const span = t1 - t0 || 1;
+          const px = (d: { t: Date }) => (data.length < 2 ? 0 : ((d.t.getTime() - t0) / span) * (width - marginLeft - marginRight - 2 * inset));
+          const labelled = thinByX(data, px, 52);
+          const flagged = thinByX(data.filter((d) => d.flag), px, 52);
+          const offsets = [...new Set(data.map((d) => -d.t.getTimezoneOffset()))];
+          const zone = offsets.length === 1 ? `local time, UTC${offsetText(offsets[0]!)}` : "local time";
+          return P.plot({
             width,
             height: 260,
-            marginLeft: 56,
-            marginRight: 36,
+            marginLeft,
+            marginRight,
+            marginTop: 34,
             marginBottom: 48,
             style: baseStyle(c),
-            x: { type: "utc", label: "Session start (UTC) →", ticks: data.length <= 6 ? data.map((d) => d.t) : 5, tickFormat: "%m-%d %H:%M", inset: 40, labelOffset: 40 },
-            y: { label: "↑ Session bias (mm)", grid: true, nice: true },
+            x: {
+              type: "time",
+              label: `Session start (${zone}) →`,
+              ticks: data.length === 1 ? data.map((d) => d.t) : Math.max(2, Math.floor(width / 130)),
+              inset,
+              labelOffset: 40,
+              ...(data.length === 1 ? { tickFormat: "%Y-%m-%d %H:%M" } : {}),
+            },
+            // the y label runs up the axis, leaving the top edge to the shot counts
+            y: { label: "Session bias (mm) →", labelAnchor: "center", grid: true, nice: true },
             marks: [
               biasLimitMm != null ? P.ruleY([biasLimitMm, -biasLimitMm], { stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }) : null,
               P.ruleY([0], { stroke: c.muted }),
               P.line(data, { x: "t", y: "biasMm", stroke: c.fg, strokeWidth: 2 }),
               P.dot(data.filter((d) => !d.flag), { x: "t", y: "biasMm", fill: c.fg, r: 5, symbol: "circle" }),
               P.dot(data.filter((d) => d.flag), { x: "t", y: "biasMm", fill: c.warn, r: 8, symbol: "triangle", stroke: c.fg }),
-              P.text(data.filter((d) => d.flag), { x: "t", y: "biasMm", text: () => "drift", dy: -16, fill: c.fg, fontWeight: "bold" }),
-              P.text(data, { x: "t", y: "biasMm", text: (d: DriftRow) => `n ${d.n}`, dy: 16, fill: c.muted }),
+              P.text(flagged, { x: "t", y: "biasMm", text: () => "drift", dy: -16, fill: c.fg, fontWeight: "bold" }),
+              // shot counts along the top edge, clear of the points and the time axis
+              P.text(labelled, { x: "t", frameAnchor: "top", text: (d: DriftRow) => `n ${d.n}`, dy: -6, fill: c.muted }),
             ],
-          })
-        }
+          });
+        }}
       />
-      <figcaption className="mt-2 flex flex-wrap gap-x-5 gap-y-1 text-base">
-        <span><LegendSwatch shape="circle" color="var(--fg)" /> session bias</span>
+      <figcaption className={captionClass(legendBeside)}>
+        <span><LegendSwatch shape="circle" color="var(--fg)" /> session bias (n = its shots; labels thinned where sessions crowd)</span>
         <span><LegendSwatch shape="triangle" color="var(--warn)" /> drift: moved more than the tolerance from the last sign-off</span>
         <span><span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± bias limit (mm)</span>
       </figcaption>

@@ -31,6 +31,21 @@ export function dateTime(iso: string | null | undefined): string {
   return d.toISOString().slice(0, 16).replace("T", " ") + " UTC";
 }
 
+/** "+02:00" for an offset in minutes east of UTC. */
+export function offsetText(minutesEast: number): string {
+  const a = Math.abs(minutesEast);
+  return `${minutesEast < 0 ? "−" : "+"}${String(Math.floor(a / 60)).padStart(2, "0")}:${String(a % 60).padStart(2, "0")}`;
+}
+
+/** The device's local date and time with its offset, e.g. "2026-05-05 13:07 UTC+02:00" (browser only: the server does not know the reader's zone). */
+export function localDateTime(iso: string | null | undefined): string {
+  if (!iso) return "—";
+  const d = new Date(iso);
+  if (Number.isNaN(d.getTime())) return iso;
+  const p = (n: number) => String(n).padStart(2, "0");
+  return `${d.getFullYear()}-${p(d.getMonth() + 1)}-${p(d.getDate())} ${p(d.getHours())}:${p(d.getMinutes())} UTC${offsetText(-d.getTimezoneOffset())}`;
+}
+
 export function dateOnly(iso: string | null | undefined): string {
   if (!iso) return "—";
   return iso.slice(0, 10);

@@ -1,6 +1,7 @@
 // The figures of a sensor report with their units, and the four acceptance tests as
 // value against limit. Pure presentation: the numbers come from the report API.
 import { VerdictBadge, VerdictShape } from "~/components/verdict-badge";
+import { explainVerdict } from "~/domain";
 import { bandWord, mm, mmSigned, num, pct, TEST_WORDS, testLimit, testValue } from "./format";
 import type { BandRow, ReportJson, ReportTest } from "./types";
 
@@ -40,31 +41,14 @@ export function TestsTable({ tests, referenceInVerdict = false }: { tests: Repor
   );
 }
 
-/** One sentence per failed test, e.g. "Bias +6.20 mm is beyond the limit ±5.00 mm." */
-export function failureSentences(report: Pick<ReportJson, "tests" | "verdict">): string[] {
-  if (report.verdict === "insufficient") {
-    const c = report.tests.find((t) => t.name === "count");
-    // issue 15: with enough shots, only the reference test (in the verdict) holds a pass back
-    const ref = report.tests.find((t) => t.name === "reference");
-    if (c?.pass && ref) {
-      return [
-        ref.value == null
-          ? "The reference distances' uncertainty is unknown for some shots; the rule needs it in the verdict."
-          : `Reference uncertainty ${mm(ref.value, 2)} is above the limit ${mm(ref.limit, 2)} the rule needs in the verdict.`,
-      ];
-    }
-    return c ? [`Only ${c.value ?? 0} included shots; the rule needs ${c.limit}.`] : ["Not enough shots."];
-  }
-  return report.tests
-    .filter((t) => t.pass === false && t.name !== "reference")
-    .map((t) => {
-      const v = testValue(t.name, t.value);
-      const l = testLimit(t.name, t.limit);
-      if (t.name === "bias") return `Bias ${v} is beyond the limit ${l}.`;
-      if (t.name === "precision") return `Precision (SD) ${v} is above the limit ${l}.`;
-      if (t.name === "within") return `Only ${v} of shots lie within their limit; the rule needs ${l}.`;
-      return `${TEST_WORDS[t.name].title} ${v} misses ${l}.`;
-    });
+/** Why the verdict came out so: flagged shots that drive a failed test first, then each failed test (ranging core's explainVerdict). */
+export function explanationOf(report: Pick<ReportJson, "tests" | "verdict" | "shots" | "rule">) {
+  return explainVerdict({ verdict: report.verdict, tests: report.tests, shots: report.shots, coverageK: report.rule.coverageK });
+}
+
+/** One sentence per failed test, e.g. "Bias +6.20 mm is beyond the limit ±5.00 mm.", after any flagged-shot sentence. */
+export function failureSentences(report: Pick<ReportJson, "tests" | "verdict" | "shots" | "rule">): string[] {
+  return explanationOf(report).lines;
 }
 
 function Figure({ label, value, hint }: { label: string; value: string; hint?: string }) {
@@ -152,17 +136,23 @@ function signedOrDash(v: number | null) {
   return v == null ? "—" : (v < 0 ? "−" : "+") + Math.abs(v).toFixed(2);
 }
 
-export function VerdictHeadline({ report }: { report: Pick<ReportJson, "tests" | "verdict"> }) {
-  const lines = failureSentences(report);
+export function VerdictHeadline({ report }: { report: Pick<ReportJson, "tests" | "verdict" | "shots" | "rule"> }) {
+  const { flaggedLine, testLines } = explanationOf(report);
   const tone = report.verdict === "pass" ? "border-pass" : report.verdict === "fail" ? "border-fail" : "border-warn";
   return (
     <div className={`rounded-lg border-4 ${tone} bg-surface p-4`} data-testid="verdict-headline">
       <p className="flex items-center gap-3 text-2xl">
         <VerdictBadge verdict={report.verdict} />
       </p>
-      {lines.length ? (
+      {flaggedLine || testLines.length ? (
         <ul className="mt-2 space-y-1 text-lg" data-testid="why">
-          {lines.map((l) => (
+          {flaggedLine ? (
+            <li className="flex items-start gap-2 font-bold" data-testid="why-flagged">
+              <span className="mt-0.5 text-warn" aria-hidden="true">⚑</span>
+              <span>{flaggedLine}</span>
+            </li>
+          ) : null}
+          {testLines.map((l) => (
             <li key={l} className="flex items-start gap-2">
               <span className="mt-1 text-fail"><VerdictShape verdict="fail" size={14} /></span>
               <span>{l}</span>

@@ -2,7 +2,8 @@
 // photo thumbnail per shot; QA excludes (with a written reason) and restores from here.
 import { useMemo, useState } from "react";
 import { VerdictShape } from "~/components/verdict-badge";
-import { dateTime, num, signed } from "./format";
+import { num, signed } from "./format";
+import { LocalTime } from "./local-time";
 import type { ReportShotRow, ShotDetail } from "./types";
 
 type SortKey = "takenAt" | "referenceM" | "errorMm" | "absError" | "limitMm";
@@ -175,7 +176,7 @@ function ShotRow(props: {
   return (
     <>
       <tr className={`border-b border-line num ${r.excluded ? "text-muted" : ""}`} data-shot={r.id} data-excluded={r.excluded}>
-        <td className="py-1 pr-2 whitespace-nowrap">{dateTime(r.takenAt)}</td>
+        <td className="py-1 pr-2 whitespace-nowrap"><LocalTime iso={r.takenAt} /></td>
         <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.referenceM, 3)}</td>
         <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.rangeM, 3)}</td>
         <td className={`py-1 pr-2 text-right font-bold ${strike}`}>{signed(r.errorMm, 2)}</td>
