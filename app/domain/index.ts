@@ -18,3 +18,10 @@ export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflec
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";
 export { isImplausible, MAX_DISTANCE_M, MAX_ROUND_TRIP_NS, MAX_FREQUENCIES, FREQUENCY_MATCH_HZ, IMPLAUSIBLE_ERROR_MM, IMPLAUSIBLE_MIN_REFERENCE_M } from "./plausibility.ts";
+// issue 18: check-shots from scans and depth frames (ranging.md §8)
+export { symmetricEigen3 } from "./eigen3.ts";
+export type { Vec3, Sym3, Eigen3 } from "./eigen3.ts";
+export { ScanExtractor, planeFromMoments, planeFromPoints, rangeAlongRay, emptyMoments, addToMoments, plotOf, DEFAULT_SEARCH_RADIUS_M, DEFAULT_MIN_POINTS, PLOT_SAMPLE } from "./scan.ts";
+export type { Moments, PlaneFit, ScanTarget, ScanTargetResult } from "./scan.ts";
+export { depthFrameFromRaw, depthFromCorrelation, frameTarget, checkBox, checkIntrinsics } from "./depth.ts";
+export type { Intrinsics, Box, DepthFrame, FrameTargetResult } from "./depth.ts";
