@@ -59,8 +59,8 @@ test("agrees with @loaders.gl/las (64-bit positions) on LAS 1.2 and 1.3 files", 
     const path = resolve(dir, `cross-${o.version}.las`);
     writeFileSync(path, bytes);
     const { out } = await readAll(path, [0, 0, 0]);
-    const ab = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength);
-    const mesh = (await LASLoader.parse!(ab, { las: { fp64: true }, worker: false } as never)) as { attributes: { POSITION: { value: Float64Array } } };
+    const ab = bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength) as ArrayBuffer;
+    const mesh = (await LASLoader.parse!(ab, { las: { fp64: true }, worker: false } as never)) as unknown as { attributes: { POSITION: { value: Float64Array } } };
     const theirs = mesh.attributes.POSITION.value;
     expect(theirs.length).toBe(out.length);
     let worst = 0;
