@@ -61,6 +61,8 @@ function contentOf(b: SensorBody, withNotes: boolean) {
     outdoor: b.outdoor,
     calibrationDue: b.calibrationDue ?? null,
     ...(withNotes ? { notes: b.notes ?? "" } : {}),
+    intrinsics: b.intrinsics ?? null,
+    depthScaleMm: b.depthScaleMm ?? null,
   };
 }
 
@@ -78,6 +80,8 @@ function rowContent(r: SensorRow, withNotes: boolean) {
     outdoor: r.outdoor,
     calibrationDue: r.calibrationDue ?? null,
     ...(withNotes ? { notes: r.notes } : {}),
+    intrinsics: r.intrinsics ?? null,
+    depthScaleMm: r.depthScaleMm ?? null,
   };
 }
 

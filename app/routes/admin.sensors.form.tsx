@@ -1,5 +1,5 @@
 // The sensor form, shared by /admin/sensors/new and /admin/sensors/:sensorId (not a route itself).
-import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react";
+import { getFormProps, useForm, type FieldMetadata, type SubmissionResult } from "@conform-to/react";
 import { Form, useNavigation } from "react-router";
 import { Field, FormSummary, NumberField, RadioGroup, TextArea, countFieldErrors } from "~/components/forms";
 import { formatTolerance, parseRegistryForm, sensorSchema, SENSOR_KIND_LABEL, type SensorInput } from "~/models/registry-schemas";
@@ -20,6 +20,8 @@ export function sensorDefaults(r?: {
   outdoor: boolean;
   calibrationDue: string | null;
   notes: string;
+  intrinsics?: { fx: number; fy: number; cx: number; cy: number } | null;
+  depthScaleMm?: number | null;
 }): SensorFormDefaults {
   if (!r) return { kind: "pulsed", modulationHz: [], outdoor: "true", assumedRefractivity: "0" };
   return {
@@ -35,6 +37,9 @@ export function sensorDefaults(r?: {
     outdoor: String(r.outdoor),
     calibrationDue: r.calibrationDue ?? "",
     notes: r.notes,
+    // issue 18
+    intrinsics: r.intrinsics ? { fx: String(r.intrinsics.fx), fy: String(r.intrinsics.fy), cx: String(r.intrinsics.cx), cy: String(r.intrinsics.cy) } : {},
+    depthScaleMm: r.depthScaleMm == null ? "" : String(r.depthScaleMm),
   };
 }
 
@@ -63,6 +68,8 @@ export function SensorForm({
     onValidate: ({ formData }) => parseRegistryForm(formData, sensorSchema),
   });
   const mods = fields.modulationHz.getFieldList();
+  // intrinsics is preprocessed (all-empty → absent), so its input type is unknown to Conform
+  const intr = (fields.intrinsics as unknown as FieldMetadata<{ fx: number; fy: number; cx: number; cy: number } | undefined, SensorInput, string[]>).getFieldset();
   const a = Number(fields.toleranceMm.value);
   const b = Number(fields.tolerancePpm.value);
   const tolOk = fields.toleranceMm.value !== undefined && fields.tolerancePpm.value !== undefined && Number.isFinite(a) && Number.isFinite(b);
@@ -165,6 +172,27 @@ export function SensorForm({
         />
         <Field meta={fields.calibrationDue} type="date" label="Calibration due" hint="Leave empty when unknown." />
         <TextArea className="sm:col-span-2" meta={fields.notes} label="Notes" />
+      </section>
+
+      {/* issue 18: depth cameras (ranging.md §8) */}
+      <section className="card grid gap-4 sm:grid-cols-2">
+        <h2 className="text-xl font-bold sm:col-span-2">Depth camera (time-of-flight frames)</h2>
+        <p className="text-muted sm:col-span-2">
+          Only for cameras whose depth frames are checked: the pinhole intrinsics from the maker's calibration (pixel centres at
+          whole-number coordinates) and the depth per unit of its 16-bit frames. Leave all empty for other sensors.
+        </p>
+        <NumberField meta={intr.fx} label="Focal length fx" unit="px" />
+        <NumberField meta={intr.fy} label="Focal length fy" unit="px" />
+        <NumberField meta={intr.cx} label="Principal point cx" unit="px" />
+        <NumberField meta={intr.cy} label="Principal point cy" unit="px" />
+        <NumberField meta={fields.depthScaleMm} label="Depth scale" unit="mm per unit" hint="E.g. 1 when the frame stores millimetres, 0.25 for quarter millimetres." />
+        {fields.intrinsics.errors?.length ? (
+          <div id={fields.intrinsics.errorId} className="field-error sm:col-span-2" role="alert">
+            {fields.intrinsics.errors.map((x) => (
+              <p key={x}>⚠ {x}</p>
+            ))}
+          </div>
+        ) : null}
       </section>
 
       <div className="flex flex-wrap gap-3">
