@@ -73,6 +73,9 @@ export default [
     route("photos/:photoId", "routes/api.photos.$photoId.ts"),
     // field
     route("field/reference", "routes/api.field.reference.ts"),
+    // check-shots from scans and depth frames (issue 18)
+    route("scans", "routes/api.scans.ts"),
+    route("frames", "routes/api.frames.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

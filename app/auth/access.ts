@@ -84,4 +84,9 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/field.session-fix.tsx": { GET: FIELD },
   "routes/field.outbox.tsx": { GET: FIELD },
   "routes/api.field.reference.ts": { GET: FIELD },
+
+  // ---- check-shots from scans and depth frames (issue 18) ----
+  // Field roles import (crew at the van, QA in the office); the shots go through the sync ingest.
+  "routes/api.scans.ts": { POST: FIELD },
+  "routes/api.frames.ts": { POST: FIELD },
 };
