@@ -68,3 +68,13 @@ test("plane fit of points far from the origin keeps its digits when taken relati
   expect(fit.planeRmsMm).toBeLessThan(1e-9);
   expect(Math.abs(fit.normal[2])).toBeCloseTo(1 / Math.hypot(1, 0.001), 12);
 });
+
+test("targets kilometres apart and targets side by side are all found (the coarse grid misses none)", () => {
+  const boards = [board([3000, -2500, 10], 2, 15), board([-4000, 3500, -5], -3, 5), board([12, 0.5, 0], 1, 0), board([12, -0.5, 0], -1, 0), board([5, 5, 5], 0, 45)];
+  const res = run(boards);
+  boards.forEach((b, i) => {
+    expect(res[i].status).toBe("found");
+    expect(res[i].points).toBe(1600);
+    expect(res[i].rangeM!).toBeCloseTo(boardTruth(O, b).rangeM, 9);
+  });
+});

@@ -125,6 +125,9 @@ export class ScanExtractor {
   // the targets' boxes, flat, for a quick per-point rejection
   #lo: Float64Array;
   #hi: Float64Array;
+  // a coarse grid over E, N: each cell lists the targets whose box reaches into it, so a point
+  // is tested against the few targets near it, not against every target of the site
+  #g = { x0: 0, y0: 0, x1: -1, y1: -1, cell: 1, nx: 0, start: new Int32Array(1), items: new Int32Array(0) };
   #seed = 0x9e3779b9;
   total = 0;
 
@@ -144,6 +147,36 @@ export class ScanExtractor {
         this.#hi[3 * i + j] = a.t[j] + radiusM;
       }
     });
+    if (k) this.#buildGrid();
+  }
+
+  #buildGrid() {
+    const k = this.#acc.length;
+    let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
+    for (let i = 0; i < k; i++) {
+      x0 = Math.min(x0, this.#lo[3 * i]);
+      y0 = Math.min(y0, this.#lo[3 * i + 1]);
+      x1 = Math.max(x1, this.#hi[3 * i]);
+      y1 = Math.max(y1, this.#hi[3 * i + 1]);
+    }
+    // cells twice the search radius, coarser when the site is large (at most 1024 × 1024 cells)
+    const cell = Math.max(2 * this.radiusM, (x1 - x0) / 1024, (y1 - y0) / 1024);
+    const nx = Math.floor((x1 - x0) / cell) + 1;
+    const ny = Math.floor((y1 - y0) / cell) + 1;
+    const counts = new Int32Array(nx * ny + 1);
+    const each = (i: number, f: (c: number) => void) => {
+      const ix0 = Math.floor((this.#lo[3 * i] - x0) / cell);
+      const ix1 = Math.floor((this.#hi[3 * i] - x0) / cell);
+      const iy0 = Math.floor((this.#lo[3 * i + 1] - y0) / cell);
+      const iy1 = Math.floor((this.#hi[3 * i + 1] - y0) / cell);
+      for (let iy = iy0; iy <= iy1; iy++) for (let ix = ix0; ix <= ix1; ix++) f(iy * nx + ix);
+    };
+    for (let i = 0; i < k; i++) each(i, (c) => counts[c + 1]++);
+    for (let c = 0; c < nx * ny; c++) counts[c + 1] += counts[c];
+    const items = new Int32Array(counts[nx * ny]);
+    const fill = counts.slice(0, nx * ny);
+    for (let i = 0; i < k; i++) each(i, (c) => (items[fill[c]++] = i));
+    this.#g = { x0, y0, x1, y1, cell, nx, start: counts, items };
   }
 
   #random(): number {
@@ -160,13 +193,16 @@ export class ScanExtractor {
   add(xyz: Float64Array, count = Math.floor(xyz.length / 3)): void {
     const lo = this.#lo;
     const hi = this.#hi;
-    const k = this.#acc.length;
+    const { x0, y0, x1, y1, cell, nx, start, items } = this.#g;
     this.total += count;
     for (let p = 0; p < count; p++) {
       const x = xyz[3 * p];
       const y = xyz[3 * p + 1];
+      if (x < x0 || x > x1 || y < y0 || y > y1) continue;
+      const c = Math.floor((y - y0) / cell) * nx + Math.floor((x - x0) / cell);
       const z = xyz[3 * p + 2];
-      for (let i = 0; i < k; i++) {
+      for (let j = start[c], end = start[c + 1]; j < end; j++) {
+        const i = items[j];
         const o = 3 * i;
         if (x < lo[o] || x > hi[o] || y < lo[o + 1] || y > hi[o + 1] || z < lo[o + 2] || z > hi[o + 2]) continue;
         const a = this.#acc[i];

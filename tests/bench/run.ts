@@ -4,6 +4,7 @@ const parts = [
   { name: "ranging core", module: "./domain.bench.ts" },
   { name: "server ingest and report", module: "./server.bench.ts" },
   { name: "field tablet", module: "./field.bench.ts" },
+  { name: "scans (issue 18)", module: "./scan.bench.ts" },
 ];
 
 const only = process.argv.slice(2);
