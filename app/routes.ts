@@ -42,6 +42,9 @@ export default [
     route("review/sensors/:sensorId", "routes/review.sensors.$sensorId.tsx"),
     route("review/sensors/:sensorId/map", "routes/review.sensors.$sensorId.map.tsx"),
     route("review/sensors/:sensorId/print", "routes/review.sensors.$sensorId.print.tsx"),
+    // check-shots from scans and depth frames (issue 18)
+    route("review/scans", "routes/review.scans.tsx"),
+    route("review/frames", "routes/review.frames.tsx"),
 
     // ---- field (crew) ----
     route("field", "routes/field.tsx", [

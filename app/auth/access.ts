@@ -89,4 +89,6 @@ export const ACCESS: Record<string, MethodAccess> = {
   // Field roles import (crew at the van, QA in the office); the shots go through the sync ingest.
   "routes/api.scans.ts": { POST: FIELD },
   "routes/api.frames.ts": { POST: FIELD },
+  "routes/review.scans.tsx": { GET: FIELD },
+  "routes/review.frames.tsx": { GET: FIELD },
 };

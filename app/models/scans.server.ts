@@ -6,10 +6,10 @@
 // `duplicate` for every shot, never a second copy.
 import { createHash } from "node:crypto";
 import { readFile } from "node:fs/promises";
-import { and, eq, isNull } from "drizzle-orm";
+import { and, desc, eq, isNull } from "drizzle-orm";
 import { decode } from "fast-png";
 import { getDb, type Db } from "~/db/client.server";
-import { checkSessions, sensors, targets } from "~/db/schema";
+import { checkSessions, sensors, sites, stations, targets } from "~/db/schema";
 import { depthFrameFromRaw, depthFromCorrelation, DomainError, frameTarget, ScanExtractor, type DepthFrame, type Intrinsics } from "~/domain";
 import { readPointCloud } from "~/scan/point-cloud.server";
 import { LasFormatError } from "~/scan/las";
@@ -289,4 +289,45 @@ export async function importFrames(actor: SyncActor, fields: Record<string, stri
   }
   const body: ScanAnswer = { fileSha256: sha, targets: [row] };
   return { status: 200, body };
+}
+
+// ---------------------------------------------------------------------------------------------
+// What the import screens offer: synced sessions (newest first) with their sensor and site, the
+// site's stations and targets, and which sensors are depth cameras.
+
+export async function scanImportContext(db: Db = getDb()) {
+  const [sessionRows, stationRows, targetRows] = await Promise.all([
+    db
+      .select({
+        id: checkSessions.id,
+        startedAt: checkSessions.startedAt,
+        siteId: checkSessions.siteId,
+        sensorId: checkSessions.sensorId,
+        sensorLabel: sensors.label,
+        siteName: sites.name,
+        intrinsics: sensors.intrinsics,
+        depthScaleMm: sensors.depthScaleMm,
+        assumedRefractivity: sensors.assumedRefractivity,
+      })
+      .from(checkSessions)
+      .innerJoin(sensors, eq(sensors.id, checkSessions.sensorId))
+      .innerJoin(sites, eq(sites.id, checkSessions.siteId))
+      .orderBy(desc(checkSessions.startedAt))
+      .limit(300),
+    db
+      .select({ id: stations.id, siteId: stations.siteId, label: stations.label, gridE: stations.gridE })
+      .from(stations)
+      .where(isNull(stations.retiredAt))
+      .orderBy(stations.label),
+    db
+      .select({ id: targets.id, siteId: targets.siteId, label: targets.label, gridE: targets.gridE, reflectancePct: targets.reflectancePct, referenceM: targets.referenceM })
+      .from(targets)
+      .where(isNull(targets.retiredAt))
+      .orderBy(targets.label),
+  ]);
+  return {
+    sessions: sessionRows,
+    stations: stationRows.map(({ gridE, ...s }) => ({ ...s, hasGrid: gridE != null })),
+    targets: targetRows.map(({ gridE, ...t }) => ({ ...t, hasGrid: gridE != null })),
+  };
 }
