@@ -10,6 +10,7 @@ import { shots } from "~/db/schema";
 import { action as scansAction } from "~/routes/api.scans";
 import { action as framesAction } from "~/routes/api.frames";
 import { action as syncAction } from "~/routes/api.sync";
+import { loader as shotsLoader } from "~/routes/api.shots";
 import { receiveMultipart } from "~/utils/multipart.server";
 import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
 import { boardPoints, boardTruth, clutter, correlationPngs, depthPng, lasFile, planeDepth, rng, type Board, type Camera, type V3 } from "../support/scan-fixtures";
@@ -124,6 +125,9 @@ test("commit stores the found targets through the sync ingest; the same file aga
   expect((again.json.targets as any[]).filter((r) => r.status === "found").map((r) => r.sync.status)).toEqual(["duplicate", "duplicate", "duplicate"]);
   const count = await getDb().select().from(shots).where(eq(shots.sessionId, sessionId));
   expect(count).toHaveLength(3);
+  // the shot details carry the file's hash
+  const listed = await call(shotsLoader, apiRequest(`/api/shots?sessions=${sessionId}&limit=100`, { user: viewer }));
+  expect(listed.json.shots.map((x: { scanSha256: string }) => x.scanSha256)).toEqual([first.json.fileSha256, first.json.fileSha256, first.json.fileSha256]);
 });
 
 test("bad scan requests: field errors, unknown session 404, not a LAS file, a station of another site, the viewer refused", async () => {
