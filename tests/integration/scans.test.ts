@@ -245,3 +245,32 @@ test("bad frame requests get specific errors", async () => {
   const scanner = await postFrames(frameForm({ ...base, sessionId }, "depth", [depthPng(cam, planeDepth(cam, box, 2, 0), 1)]));
   expect(scanner.json.errors[0].message).toMatch(/no intrinsics/);
 });
+
+test("POST /api/sensors keeps a depth camera's intrinsics and depth scale; bad ones are refused with their path", async () => {
+  const { action: sensorsAction } = await import("~/routes/api.sensors");
+  const { sensors } = await import("~/db/schema");
+  const admin = await makeUser("admin");
+  const body = {
+    id: `fh-depth-${crypto.randomUUID().slice(0, 8)}`,
+    label: "Depth camera D3",
+    serial: "FH-D3-0042",
+    kind: "cw",
+    wavelengthNm: 850,
+    modulationHz: [20_000_000],
+    appliesAirCorrection: false,
+    toleranceMm: 8,
+    tolerancePpm: 0,
+    intrinsics: { fx: 504.2, fy: 503.9, cx: 319.5, cy: 239.5 },
+    depthScaleMm: 0.25,
+  };
+  const ok = await call(sensorsAction, apiRequest("/api/sensors", { user: admin, json: body }));
+  expect(ok.status).toBe(201);
+  const [row] = await getDb().select().from(sensors).where(eq(sensors.id, body.id));
+  expect(row.intrinsics).toEqual(body.intrinsics);
+  expect(row.depthScaleMm).toBe(0.25);
+  expect((await call(sensorsAction, apiRequest("/api/sensors", { user: admin, json: body }))).status).toBe(200);
+  const badBody = { ...body, id: undefined, serial: "FH-D3-0043", intrinsics: { fx: 0, fy: 500, cx: 1, cy: 1 }, depthScaleMm: -1 };
+  const bad = await call(sensorsAction, apiRequest("/api/sensors", { user: admin, json: badBody }));
+  expect(bad.status).toBe(400);
+  expect(bad.json.errors.map((e: { path: string }) => e.path).sort()).toEqual(["depthScaleMm", "intrinsics.fx"]);
+});
