@@ -105,6 +105,11 @@ test("a scan: upload, one row per target with its plot, accept; the same file ag
   await page.getByRole("button", { name: "Accept 3 check-shots" }).click();
   await expect.poll(async () => (await page.getByTestId("commit-summary").count()) && page.getByTestId("commit-summary").textContent(), { timeout: 30_000 }).toMatch(/3 shots stored, 0 already stored, 0 refused/);
   await shot(page, "scan-accepted");
+  // a photo of the board, attached as from the tablet
+  const { encode } = await import("fast-png");
+  const photo = Buffer.from(encode({ width: 4, height: 3, data: new Uint8Array(4 * 3 * 3).fill(128), depth: 8, channels: 3 }));
+  await page.getByLabel("Attach a photo of Board 1").setInputFiles({ name: "board1.png", mimeType: "image/png", buffer: photo });
+  await expect.poll(() => page.getByText("Photo board1.png attached.").count(), { timeout: 30_000 }).toBe(1);
 
   // the same file again: found, but nothing new is stored
   await page.getByRole("button", { name: "Find the targets" }).click();

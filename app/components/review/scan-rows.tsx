@@ -1,5 +1,6 @@
 // The per-target rows of a scan or frame import (api.md v1.1 answer), a small plot per target
 // of its points coloured by their distance from the fitted plane, and the upload with progress.
+import { useState } from "react";
 import type { ScanAnswer, ScanTargetRow } from "~/models/scan-schemas";
 import { num, signed } from "./format";
 
@@ -66,6 +67,32 @@ function WithinCell({ within }: { within: boolean | null }) {
   return within ? <span className="font-bold text-pass">✓ within</span> : <span className="font-bold text-fail">✗ outside</span>;
 }
 
+/** A photo of the board, attached to a stored shot as from the tablet (POST /api/photos). */
+function PhotoAttach({ shotId, label }: { shotId: string; label: string }) {
+  const [state, setState] = useState<{ busy: boolean; message: string | null; ok: boolean }>({ busy: false, message: null, ok: false });
+  async function attach(file: File) {
+    setState({ busy: true, message: null, ok: false });
+    const form = new FormData();
+    form.set("shotId", shotId);
+    form.set("file", file);
+    try {
+      const res = await fetch("/api/photos", { method: "POST", body: form });
+      const body = (await res.json().catch(() => ({}))) as { error?: string };
+      setState(res.ok ? { busy: false, message: `Photo ${file.name} attached.`, ok: true } : { busy: false, message: body.error ?? `The server answered ${res.status}.`, ok: false });
+    } catch {
+      setState({ busy: false, message: "The photo did not reach the server (offline?).", ok: false });
+    }
+  }
+  const id = `photo-${shotId}`;
+  return (
+    <span className="mt-1 block text-sm font-normal">
+      <label htmlFor={id} className="underline underline-offset-4">Attach a photo of {label}</label>
+      <input id={id} type="file" accept="image/*" className="mt-1 block max-w-56 text-sm" disabled={state.busy} onChange={(e) => e.target.files?.[0] && void attach(e.target.files[0])} />
+      {state.message ? <span className={`block ${state.ok ? "text-pass" : "text-fail"}`} role="status">{state.message}</span> : null}
+    </span>
+  );
+}
+
 function SyncCell({ row }: { row: ScanTargetRow }) {
   if (!row.sync) return null;
   const s = row.sync;
@@ -78,6 +105,7 @@ function SyncCell({ row }: { row: ScanTargetRow }) {
           {e.path}: {e.message}
         </span>
       ))}
+      {s.status !== "rejected" && row.shotId ? <PhotoAttach shotId={row.shotId} label={row.label ?? "the board"} /> : null}
     </span>
   );
 }
