@@ -85,7 +85,7 @@ function PhotoAttach({ shotId, label }: { shotId: string; label: string }) {
   }
   const id = `photo-${shotId}`;
   return (
-    <span className="mt-1 block text-sm font-normal">
+    <span className="mt-1 block text-sm font-normal text-fg">
       <label htmlFor={id} className="underline underline-offset-4">Attach a photo of {label}</label>
       <input id={id} type="file" accept="image/*" className="mt-1 block max-w-56 text-sm" disabled={state.busy} onChange={(e) => e.target.files?.[0] && void attach(e.target.files[0])} />
       {state.message ? <span className={`block ${state.ok ? "text-pass" : "text-fail"}`} role="status">{state.message}</span> : null}
