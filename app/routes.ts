@@ -48,6 +48,9 @@ export default [
     route("review/sensors/:sensorId/print", "routes/review.sensors.$sensorId.print.tsx"),
     // issue 15: a sensor's history over months
     route("review/sensors/:sensorId/history", "routes/review.sensors.$sensorId.history.tsx"),
+    // check-shots from scans and depth frames (issue 18)
+    route("review/scans", "routes/review.scans.tsx"),
+    route("review/frames", "routes/review.frames.tsx"),
 
     // ---- field (crew) ----
     route("field", "routes/field.tsx", [
@@ -81,6 +84,9 @@ export default [
     route("field/reference", "routes/api.field.reference.ts"),
     // issue 15: reference EDMs (registry)
     route("edms", "routes/api.edms.ts"),
+    // check-shots from scans and depth frames (issue 18)
+    route("scans", "routes/api.scans.ts"),
+    route("frames", "routes/api.frames.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

@@ -91,4 +91,10 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/admin.edms.$edmId.tsx": { GET: ADMIN, POST: ADMIN },
   "routes/api.edms.ts": { POST: ADMIN },
   "routes/review.sensors.$sensorId.history.tsx": { GET: ALL },
+  // ---- check-shots from scans and depth frames (issue 18) ----
+  // Field roles import (crew at the van, QA in the office); the shots go through the sync ingest.
+  "routes/api.scans.ts": { POST: FIELD },
+  "routes/api.frames.ts": { POST: FIELD },
+  "routes/review.scans.tsx": { GET: FIELD },
+  "routes/review.frames.tsx": { GET: FIELD },
 };

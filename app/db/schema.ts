@@ -143,6 +143,9 @@ export const sensors = sqliteTable("sensors", {
   createdAt: createdAt(),
   updatedAt: text("updated_at"),
   retiredAt: text("retired_at"),
+  // ---- issue 18: depth cameras (ranging.md §8): pinhole intrinsics (pixels) and mm per depth unit ----
+  intrinsics: text("intrinsics", { mode: "json" }).$type<{ fx: number; fy: number; cx: number; cy: number }>(),
+  depthScaleMm: real("depth_scale_mm"),
 });
 
 export const tapes = sqliteTable("tapes", {

@@ -42,3 +42,10 @@ export {
 export type { LinearUncertainty, ReferenceUncertaintyInput, LaserClass, AccuracyStatement, StatementFigures } from "./uncertainty.ts";
 export { explainVerdict, formatSignedMm, STRAY_SHARE } from "./explain.ts";
 export type { ExplainInput, FlaggedGroup, FlaggedShot, VerdictExplanation } from "./explain.ts";
+// issue 18: check-shots from scans and depth frames (ranging.md §8)
+export { symmetricEigen3 } from "./eigen3.ts";
+export type { Vec3, Sym3, Eigen3 } from "./eigen3.ts";
+export { ScanExtractor, planeFromMoments, planeFromPoints, rangeAlongRay, emptyMoments, addToMoments, plotOf, DEFAULT_SEARCH_RADIUS_M, DEFAULT_MIN_POINTS, PLOT_SAMPLE } from "./scan.ts";
+export type { Moments, PlaneFit, ScanTarget, ScanTargetResult } from "./scan.ts";
+export { depthFrameFromRaw, depthFromCorrelation, frameTarget, checkBox, checkIntrinsics } from "./depth.ts";
+export type { Intrinsics, Box, DepthFrame, FrameTargetResult } from "./depth.ts";

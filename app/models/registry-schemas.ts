@@ -156,6 +156,20 @@ export const sensorSchema = z
       z.enum(LASER_CLASS_OPTIONS, { error: 'Choose the laser class (IEC 60825-1): "1", "1M", "2", "2M", "3R", "3B" or "4"' }).nullable().optional(),
     ),
     certificate: optionalCertificate,
+    // issue 18: depth cameras (api.md v1.1): pinhole intrinsics in pixels, mm per depth unit
+    intrinsics: z.preprocess(
+      blankToUndefined,
+      z
+        .object({
+          fx: num("the focal length fx (pixels)").positive("fx must be above 0 pixels"),
+          fy: num("the focal length fy (pixels)").positive("fy must be above 0 pixels"),
+          cx: num("the principal point cx (pixels)"),
+          cy: num("the principal point cy (pixels)"),
+        })
+        .nullable()
+        .optional(),
+    ),
+    depthScaleMm: num("the depth scale (mm per unit)").positive("The depth scale must be above 0 mm per unit").max(1000, "The depth scale is at most 1000 mm per unit").nullable().optional(),
   })
   .superRefine((s, ctx) => {
     if (s.kind === "cw" && Array.isArray(s.modulationHz) && s.modulationHz.length === 0) {

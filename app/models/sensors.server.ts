@@ -64,6 +64,8 @@ function contentOf(b: SensorBody, withNotes: boolean) {
     laserClass: b.laserClass ?? null,
     ...certificateColumns(b.certificate),
     ...(withNotes ? { notes: b.notes ?? "" } : {}),
+    intrinsics: b.intrinsics ?? null,
+    depthScaleMm: b.depthScaleMm ?? null,
   };
 }
 
@@ -86,6 +88,8 @@ function rowContent(r: SensorRow, withNotes: boolean) {
     certIssued: r.certIssued ?? null,
     certDue: r.certDue ?? null,
     ...(withNotes ? { notes: r.notes } : {}),
+    intrinsics: r.intrinsics ?? null,
+    depthScaleMm: r.depthScaleMm ?? null,
   };
 }
 

@@ -527,6 +527,8 @@ const shotColumns = {
   targetLabel: sql<string | null>`(SELECT t.label FROM ${targets} t WHERE t.id = "shots"."target_id")`,
   photoIdList: sql<string | null>`(SELECT group_concat(p.id) FROM ${photos} p WHERE p.shot_id = "shots"."id")`,
   exclusionReason: sql<string | null>`(SELECT x.reason FROM ${exclusions} x WHERE x.shot_id = "shots"."id" AND x.restored_at IS NULL ORDER BY x.created_at DESC LIMIT 1)`,
+  // issue 18: the SHA-256 of the scan or frames a shot was made from (null for a tablet shot)
+  scanSha256: sql<string | null>`json_extract(${shots.raw}, '$.scan.fileSha256')`,
 };
 const selectShots = (db: Db) => db.select(shotColumns).from(shots);
 type ShotRow = Awaited<ReturnType<typeof selectShots>>[number];

@@ -137,6 +137,15 @@ export const syncShotSchema = z.object({
     })
     .nullish(),
   note: optionalText("note", 2000),
+  // issue 18: a shot made from a scan or depth frames (ranging.md §8) carries how it was measured
+  scan: z
+    .object({
+      points: z.number({ error: "scan points must be a number" }).int("scan points must be a whole number").min(3, "a plane needs at least 3 points"),
+      planeRmsMm: num("plane RMS").min(0, "plane RMS must not be negative"),
+      incidenceDeg: num("scan incidence angle").min(0, "incidence angle must lie between 0 and 90°").max(90, "incidence angle must lie between 0 and 90°"),
+      fileSha256: z.string({ error: "file hash must be text" }).regex(/^[0-9a-f]{64}$/, "file hash must be a SHA-256 in 64 lower-case hex digits"),
+    })
+    .nullish(),
 });
 export type SyncShot = z.infer<typeof syncShotSchema>;
 

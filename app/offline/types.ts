@@ -44,7 +44,12 @@ export type SyncShotRecord = {
   incidenceDeg?: number;
   position?: { lat: number; lon: number; accuracyM?: number };
   note?: string;
+  /** Set only on shots made from a scan or depth frames (issue 18); the tablet never sends it. */
+  scan?: ScanFacts;
 };
+
+/** api.md v1.1 / ranging.md §8: what a shot made from a point cloud or depth frames carries. */
+export type ScanFacts = { points: number; planeRmsMm: number; incidenceDeg: number; fileSha256: string };
 
 export type FieldError = { path: string; message: string };
 

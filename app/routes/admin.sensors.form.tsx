@@ -1,5 +1,5 @@
 // The sensor form, shared by /admin/sensors/new and /admin/sensors/:sensorId (not a route itself).
-import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react";
+import { getFormProps, useForm, type FieldMetadata, type SubmissionResult } from "@conform-to/react";
 import { Form, useNavigation } from "react-router";
 import { CertificateFields, certificateDefaults } from "~/components/certificate";
 import { Field, FormSummary, NumberField, RadioGroup, Select, TextArea, countFieldErrors } from "~/components/forms";
@@ -26,6 +26,8 @@ export function sensorDefaults(r?: {
   certLaboratory?: string | null;
   certIssued?: string | null;
   certDue?: string | null;
+  intrinsics?: { fx: number; fy: number; cx: number; cy: number } | null;
+  depthScaleMm?: number | null;
 }): SensorFormDefaults {
   if (!r) return { kind: "pulsed", modulationHz: [], outdoor: "true", assumedRefractivity: "0", laserClass: "", certificate: certificateDefaults() };
   return {
@@ -43,6 +45,9 @@ export function sensorDefaults(r?: {
     notes: r.notes,
     laserClass: r.laserClass ?? "",
     certificate: certificateDefaults(r),
+    // issue 18
+    intrinsics: r.intrinsics ? { fx: String(r.intrinsics.fx), fy: String(r.intrinsics.fy), cx: String(r.intrinsics.cx), cy: String(r.intrinsics.cy) } : {},
+    depthScaleMm: r.depthScaleMm == null ? "" : String(r.depthScaleMm),
   };
 }
 
@@ -71,6 +76,8 @@ export function SensorForm({
     onValidate: ({ formData }) => parseRegistryForm(formData, sensorSchema),
   });
   const mods = fields.modulationHz.getFieldList();
+  // intrinsics is preprocessed (all-empty → absent), so its input type is unknown to Conform
+  const intr = (fields.intrinsics as unknown as FieldMetadata<{ fx: number; fy: number; cx: number; cy: number } | undefined, SensorInput, string[]>).getFieldset();
   const a = Number(fields.toleranceMm.value);
   const b = Number(fields.tolerancePpm.value);
   const tolOk = fields.toleranceMm.value !== undefined && fields.tolerancePpm.value !== undefined && Number.isFinite(a) && Number.isFinite(b);
@@ -181,6 +188,27 @@ export function SensorForm({
         />
         <CertificateFields meta={fields.certificate} />
         <TextArea className="sm:col-span-2" meta={fields.notes} label="Notes" />
+      </section>
+
+      {/* issue 18: depth cameras (ranging.md §8) */}
+      <section className="card grid gap-4 sm:grid-cols-2">
+        <h2 className="text-xl font-bold sm:col-span-2">Depth camera (time-of-flight frames)</h2>
+        <p className="text-muted sm:col-span-2">
+          Only for cameras whose depth frames are checked: the pinhole intrinsics from the maker's calibration (pixel centres at
+          whole-number coordinates) and the depth per unit of its 16-bit frames. Leave all empty for other sensors.
+        </p>
+        <NumberField meta={intr.fx} label="Focal length fx" unit="px" />
+        <NumberField meta={intr.fy} label="Focal length fy" unit="px" />
+        <NumberField meta={intr.cx} label="Principal point cx" unit="px" />
+        <NumberField meta={intr.cy} label="Principal point cy" unit="px" />
+        <NumberField meta={fields.depthScaleMm} label="Depth scale" unit="mm per unit" hint="E.g. 1 when the frame stores millimetres, 0.25 for quarter millimetres." />
+        {fields.intrinsics.errors?.length ? (
+          <div id={fields.intrinsics.errorId} className="field-error sm:col-span-2" role="alert">
+            {fields.intrinsics.errors.map((x) => (
+              <p key={x}>⚠ {x}</p>
+            ))}
+          </div>
+        ) : null}
       </section>
 
       <div className="flex flex-wrap gap-3">

@@ -44,6 +44,8 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
       <div className="flex flex-wrap items-center justify-between gap-3">
         <h1 className="text-3xl font-bold">Sensor verdicts</h1>
         {canImport ? <Link to="/review/import" className="btn-secondary">Import a sensor's CSV</Link> : null}
+        {canImport ? <Link to="/review/scans" className="btn-secondary">Check-shots from a scan</Link> : null}
+        {canImport ? <Link to="/review/frames" className="btn-secondary">Check-shots from depth frames</Link> : null}
       </div>
       <Form method="get" className="card flex flex-wrap items-end gap-4" aria-label="Filters">
         <div>

@@ -5,6 +5,7 @@ const parts = [
   { name: "server ingest and report", module: "./server.bench.ts" },
   { name: "field tablet", module: "./field.bench.ts" },
   { name: "sync past one machine (BENCH_CLUSTER=1)", module: "./cluster.bench.ts" },
+  { name: "scans (issue 18)", module: "./scan.bench.ts" },
 ];
 
 const only = process.argv.slice(2);

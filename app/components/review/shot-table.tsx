@@ -185,6 +185,11 @@ function ShotRow(props: {
         <td className="py-1 pr-2">
           {d?.targetLabel ?? "—"}
           {d?.reflectancePct != null ? <span className="block text-sm text-muted">{num(d.reflectancePct, 0)} % · {d.illuminanceKlux == null ? "— klux" : `${num(d.illuminanceKlux, 0)} klux`}</span> : null}
+          {d?.scanSha256 ? (
+            <span className="block text-sm text-muted" title={`SHA-256 of the scan or frames: ${d.scanSha256}`} data-testid="scan-sha">
+              from file {d.scanSha256.slice(0, 12)}…
+            </span>
+          ) : null}
         </td>
         <td className="py-1 pr-2">
           {r.flags.length ? r.flags.map((f) => <span key={f} className="mr-1 rounded border-2 border-warn px-1 text-sm font-bold text-warn">{f === "outlier" ? "◆ outlier" : "↻ wrap"}</span>) : "—"}

@@ -50,4 +50,6 @@ export type ShotDetail = {
   photoIds: string[];
   exclusionReason: string | null;
   note: string | null;
+  /** issue 18: the SHA-256 of the scan or frames the shot was made from. */
+  scanSha256?: string | null;
 };

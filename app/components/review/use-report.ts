@@ -40,6 +40,7 @@ export function toDetail(s: Record<string, unknown>, extras?: ShotExtras): ShotD
     photoIds: photos.length ? photos : extras?.photos[id] ?? [],
     exclusionReason: typeof s.exclusionReason === "string" ? s.exclusionReason : excl?.reason ?? extras?.reasons[id] ?? null,
     note: typeof s.note === "string" ? s.note : null,
+    scanSha256: typeof s.scanSha256 === "string" ? s.scanSha256 : null,
   };
 }
 

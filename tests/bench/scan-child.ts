@@ -1,0 +1,46 @@
+// Child of scan.bench.ts: its own process so the peak RSS is that of the upload and extraction only.
+import { createReadStream } from "node:fs";
+import { stat } from "node:fs/promises";
+import { Readable } from "node:stream";
+import { ScanExtractor } from "~/domain";
+import { readPointCloud } from "~/scan/point-cloud.server";
+import { discard, receiveMultipart } from "~/utils/multipart.server";
+
+const [path, oText, centresText] = process.argv.slice(2);
+const O = JSON.parse(oText) as [number, number, number];
+const centres = JSON.parse(centresText) as [number, number, number][];
+
+// the file as a browser would send it: a multipart body, streamed
+const boundary = "----shotbookbench";
+const head = `--${boundary}\r\nContent-Disposition: form-data; name="sessionId"\r\n\r\nx\r\n--${boundary}\r\nContent-Disposition: form-data; name="file"; filename="bench.las"\r\nContent-Type: application/octet-stream\r\n\r\n`;
+const tail = `\r\n--${boundary}--\r\n`;
+async function* body() {
+  yield new TextEncoder().encode(head);
+  for await (const chunk of createReadStream(path, { highWaterMark: 1 << 20 })) yield new Uint8Array(chunk as Buffer);
+  yield new TextEncoder().encode(tail);
+}
+const size = (await stat(path)).size;
+const request = new Request("http://localhost/api/scans", {
+  method: "POST",
+  body: Readable.toWeb(Readable.from(body())) as ReadableStream,
+  headers: { "Content-Type": `multipart/form-data; boundary=${boundary}`, "Content-Length": String(head.length + size + tail.length) },
+  duplex: "half",
+} as RequestInit);
+let t = performance.now();
+const form = await receiveMultipart(request, { maxBytes: 512 * 1024 * 1024, maxFiles: 1 });
+if ("error" in form) throw new Error(form.error);
+const uploadS = (performance.now() - t) / 1000;
+
+const ex = new ScanExtractor(centres.map((c, i) => ({ id: `b${i}`, t: [c[0] - O[0], c[1] - O[1], c[2] - O[2]] })));
+t = performance.now();
+await readPointCloud(form.files[0].path, O, (xyz, n) => ex.add(xyz, n));
+const extractS = (performance.now() - t) / 1000;
+const res = ex.results();
+let worstMm = 0;
+res.forEach((r, i) => {
+  const d = Math.hypot(centres[i][0] - O[0], centres[i][1] - O[1], centres[i][2] - O[2]);
+  // the bench boards carry offsets i − 6 mm
+  if (r.rangeM != null) worstMm = Math.max(worstMm, Math.abs((r.rangeM - d) * 1000 - (i - 6)));
+});
+await discard(form);
+console.log(JSON.stringify({ uploadS, extractS, found: res.filter((r) => r.status === "found").length, worstMm, maxRssKb: process.resourceUsage().maxRSS }));

@@ -1,0 +1,69 @@
+// Bench of check-shots from a point cloud (issue 18, ranging.md §8): generates a LAS 1.2 file of
+// BENCH_SCAN_MB megabytes (200 by default) with a dozen boards among clutter, then, in a child
+// process, streams it through the multipart reader to disk (as POST /api/scans receives it) and
+// runs the one-pass extraction over it. Prints the extraction rate (million points/s) and the
+// child's peak RSS. Prints, never asserts. Targets: ≥ 5 M points/s, < 400 MB RSS.
+// Run alone: npx tsx tests/bench/run.ts scan   (BENCH_SCAN=0 skips it)
+import { spawnSync } from "node:child_process";
+import { closeSync, mkdtempSync, openSync, rmSync, writeSync } from "node:fs";
+import { tmpdir } from "node:os";
+import { join } from "node:path";
+import { fileURLToPath } from "node:url";
+import { boardPoints, lasHeader, lasRecords, rng, type Board, type V3 } from "../support/scan-fixtures";
+
+const MB = Number(process.env.BENCH_SCAN_MB ?? 200);
+
+export async function run(): Promise<string[]> {
+  if (process.env.BENCH_SCAN === "0") return ["  skipped (BENCH_SCAN=0)"];
+  const dir = mkdtempSync(join(tmpdir(), "shotbook-scan-bench-"));
+  try {
+    const path = join(dir, "bench.las");
+    const O: V3 = [512_345.6789, 6_350_123.4567, 102.7];
+    const boards: Board[] = Array.from({ length: 12 }, (_, i) => {
+      const a = (i / 12) * 2 * Math.PI;
+      const d = 10 + i * 8;
+      return { centre: [O[0] + d * Math.cos(a), O[1] + d * Math.sin(a), O[2] + (i % 3) - 1], offsetMm: i - 6, tiltDeg: (i * 5) % 60, halfM: 0.2, perSide: 60, noiseMm: 1.5 };
+    });
+    const opts = { version: 2 as const, pointFormat: 1, offset: [512_000, 6_350_000, 100] as V3 };
+    const recordLength = 28;
+    const total = Math.floor((MB * 1e6 - 227) / recordLength);
+    const t0 = performance.now();
+    const fd = openSync(path, "w");
+    const { header } = lasHeader(total, { min: [O[0] - 100, O[1] - 100, O[2] - 10], max: [O[0] + 100, O[1] + 100, O[2] + 10] }, opts);
+    writeSync(fd, header);
+    const boardPts = boards.flatMap((b, i) => boardPoints(O, b, rng(i + 1)));
+    writeSync(fd, lasRecords(boardPts, recordLength, opts));
+    const r = rng(77);
+    const BLOCK = 200_000;
+    for (let done = boardPts.length; done < total; ) {
+      const n = Math.min(BLOCK, total - done);
+      const xyz = new Float64Array(3 * n);
+      for (let i = 0; i < n; i++) {
+        // a scanner's spread: ground, walls and trees within 100 m, none on the boards
+        xyz[3 * i] = O[0] + (r.uniform() - 0.5) * 200;
+        xyz[3 * i + 1] = O[1] + (r.uniform() - 0.5) * 200;
+        xyz[3 * i + 2] = O[2] - 1.6 + r.uniform() * (i % 4 === 0 ? 12 : 0.05);
+      }
+      writeSync(fd, lasRecords(xyz, recordLength, opts));
+      done += n;
+    }
+    closeSync(fd);
+    const made = (performance.now() - t0) / 1000;
+    const child = spawnSync(process.execPath, ["--import", "tsx", fileURLToPath(new URL("./scan-child.ts", import.meta.url)), path, JSON.stringify(O), JSON.stringify(boards.map((b) => b.centre))], {
+      encoding: "utf8",
+      env: { ...process.env },
+      maxBuffer: 1 << 20,
+    });
+    if (child.status !== 0) throw new Error(child.stderr || child.stdout || `child exited ${child.status}`);
+    const m = JSON.parse(child.stdout.trim().split("\n").pop()!);
+    return [
+      `  generated ${MB} MB LAS 1.2 (format 1, ${(total / 1e6).toFixed(2)} M points, 12 boards) in ${made.toFixed(1)} s`,
+      `  upload streamed to disk (multipart, SHA-256): ${m.uploadS.toFixed(2)} s (${(MB / m.uploadS).toFixed(0)} MB/s)`,
+      `  extraction, one pass: ${m.extractS.toFixed(2)} s = ${(total / m.extractS / 1e6).toFixed(1)} M points/s (target ≥ 5)`,
+      `  targets found ${m.found}/12, worst |range − analytic| ${m.worstMm.toFixed(3)} mm`,
+      `  peak RSS of the process (upload + extraction): ${(m.maxRssKb / 1024).toFixed(0)} MB (target < 400 MB)`,
+    ];
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
