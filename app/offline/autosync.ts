@@ -10,9 +10,27 @@ let timer: ReturnType<typeof setTimeout> | undefined;
 let retryTimer: ReturnType<typeof setTimeout> | undefined;
 let started = false;
 
+/**
+ * The back-off pause between tries, cut short the moment the server answers again (the
+ * reachability probe), so a run waiting out a long back-off sends as soon as the network returns.
+ */
+function wakeableSleep(ms: number) {
+  return new Promise<void>((resolve) => {
+    const done = () => {
+      clearTimeout(t);
+      off();
+      resolve();
+    };
+    const t = setTimeout(done, ms);
+    const off = onReachChange((r) => {
+      if (r === "reachable") done();
+    });
+  });
+}
+
 export async function syncNow(): Promise<SyncOutcome> {
   clearTimeout(timer);
-  const out = await syncOutbox();
+  const out = await syncOutbox({ sleep: wakeableSleep });
   clearTimeout(retryTimer);
   if (!out.ok && (out.reason === "offline" || out.reason === "server")) {
     retryTimer = setTimeout(() => void syncNow(), 60_000);

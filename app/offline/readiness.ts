@@ -17,6 +17,7 @@ export type Readiness = {
 };
 
 let state: Readiness = { worker: "unknown", copy: null, copying: false };
+let lastWarm = 0;
 const listeners = new Set<() => void>();
 
 function set(p: Partial<Readiness>) {
@@ -74,6 +75,10 @@ export async function prepareOffline({ online }: { online: boolean }) {
   const kept = await ask(active, "FIELD_COPY_STATUS", 5000);
   if (kept) set({ copy: kept });
   if (!online) return;
+  // Every return of the network calls this; a complete copy made minutes ago is enough.
+  const complete = kept != null && kept.total > 0 && kept.pages >= kept.total && kept.data >= kept.total;
+  if (complete && Date.now() - lastWarm < 10 * 60_000) return;
+  lastWarm = Date.now();
   set({ copying: true });
   const warmed = await ask(active, "WARM_FIELD_PAGES", 60_000);
   set({ copying: false, ...(warmed ? { copy: warmed } : {}) });

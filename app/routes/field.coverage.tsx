@@ -3,12 +3,10 @@
 import { Link } from "react-router";
 import type { Route } from "./+types/field.coverage";
 import { FieldLoading } from "~/components/field/chrome";
-import { contextOf, loadSession } from "~/components/field/session-data";
+import { contextOf, loadSession, sessionCoverage } from "~/components/field/session-data";
 import { SessionHeader, SessionMissing } from "~/components/field/session-header";
 import { VerdictShape } from "~/components/verdict-badge";
-import { coverageChecklist, illuminanceBand, rangeBandLabels, rangeBandIndex, type CoverageShot } from "~/domain";
 import { useLiveQuery } from "~/offline/live";
-import { ruleOf } from "~/offline/preview";
 
 export const meta: Route.MetaFunction = () => [{ title: "Coverage checklist — Shotbook field" }];
 
@@ -27,21 +25,8 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
   const data = useLiveQuery(() => loadSession(params.sessionId), [params.sessionId], loaderData);
   if (!data.session) return <SessionMissing />;
   const ctx = contextOf(data.session, data.reference);
-  const rule = ruleOf(ctx.project);
-  const shots: CoverageShot[] = data.shots.flatMap((s) => {
-    const referenceM = s.preview?.referenceM ?? s.record.reference.distanceM;
-    if (referenceM == null) return [];
-    const t = ctx.site?.targets.find((x) => x.id === s.record.targetId);
-    return [{ referenceM, reflectancePct: s.record.reflectancePct, retro: t?.retro ?? false, illuminanceKlux: s.record.illuminanceKlux }];
-  });
+  const { labels, result, light } = sessionCoverage(data, ctx);
   const sensor = ctx.sensor;
-  const labels = rangeBandLabels(rule.rangeBandEdgesM);
-  const result = sensor ? coverageChecklist({ sensor, rule, shots }) : null;
-  const light = labels.map(() => ({ low: 0, moderate: 0, high: 0 }));
-  for (const s of shots) {
-    const b = rangeBandIndex(s.referenceM, rule.rangeBandEdgesM);
-    if (b >= 0 && s.illuminanceKlux != null) light[b]![illuminanceBand(s.illuminanceKlux)]++;
-  }
   const cell = (band: string, refl: "dark" | "bright") => result?.cells.find((c) => c.rangeBand === band && c.reflectance === refl);
 
   return (

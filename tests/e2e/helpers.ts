@@ -70,10 +70,13 @@ export async function signInAs(context: BrowserContext, email: string) {
   const [user] = await getDb().select().from(users).where(eq(users.email, email));
   if (!user) throw new Error(`No test user ${email}`);
   const { cookie } = await createAuthSession(user);
-  const [pair] = cookie.split(";");
+  const [pair, ...attrs] = cookie.split(";");
   const [name, ...rest] = pair!.split("=");
   const url = new URL(baseURL());
-  await context.addCookies([{ name: name!, value: rest.join("="), domain: url.hostname, path: "/", httpOnly: true, sameSite: "Lax" }]);
+  // Keep the server's lifetime, so the sign-in survives a browser restart as it does for a user.
+  const maxAge = attrs.map((a) => a.trim().match(/^Max-Age=(\d+)$/i)?.[1]).find(Boolean);
+  const expires = maxAge ? Math.floor(Date.now() / 1000) + Number(maxAge) : undefined;
+  await context.addCookies([{ name: name!, value: rest.join("="), domain: url.hostname, path: "/", httpOnly: true, sameSite: "Lax", ...(expires ? { expires } : {}) }]);
   return user;
 }
 

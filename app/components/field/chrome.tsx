@@ -54,7 +54,7 @@ function OfflineReadiness({ r, copiedAt }: { r: Readiness; copiedAt: string | nu
       <span className="inline-flex flex-wrap items-center gap-x-2" data-testid="offline-ready" data-ready="true">
         <span className="inline-flex items-center gap-2 font-bold text-pass">
           <VerdictShape verdict="pass" /> Ready to work offline
-        </span>
+        </span>{" "}
         <span>· reference data copied {when}</span>
       </span>
     );
@@ -69,10 +69,10 @@ function OfflineReadiness({ r, copiedAt }: { r: Readiness; copiedAt: string | nu
     <span className="inline-flex flex-wrap items-center gap-x-2" data-testid="offline-ready" data-ready="false">
       <span className="inline-flex items-center gap-2 font-bold text-warn">
         <VerdictShape verdict="insufficient" /> Not ready offline yet — stay online a moment
-      </span>
+      </span>{" "}
       <span className="num">
         ({done} of 3 done: {steps.map((s) => `${s.label} ${s.done ? "✓" : "…"}`).join(", ")})
-      </span>
+      </span>{" "}
       <span>· reference data copied {when}</span>
     </span>
   );
