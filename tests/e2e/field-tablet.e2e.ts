@@ -317,3 +317,74 @@ test("2.0016 typed for 20.016 is caught before saving: confirm or correct", asyn
   expect(await queuedShotCount(page, id)).toBe(2);
   await context.close();
 });
+
+/** Interactive elements smaller than 44 × 44 CSS px (a radio counts by its label). */
+async function smallTargets(page: Page) {
+  return page.evaluate(() => {
+    const out: string[] = [];
+    const sel = "header a, header button, main a, main button, main select, main input, main textarea, [data-testid=field-status] a";
+    for (const el of Array.from(document.querySelectorAll<HTMLElement>(sel))) {
+      const target = el instanceof HTMLInputElement && (el.type === "radio" || el.type === "checkbox") ? (el.closest("label") ?? el) : el;
+      const r = target.getBoundingClientRect();
+      if (r.width === 0 || r.height === 0 || getComputedStyle(target).visibility === "hidden") continue;
+      if (r.height < 44 - 0.5 || r.width < 44 - 0.5) out.push(`${target.tagName.toLowerCase()} "${(target.textContent ?? "").trim().slice(0, 40)}" ${Math.round(r.width)}×${Math.round(r.height)}`);
+    }
+    return out;
+  });
+}
+
+test("every field screen, landscape and portrait, daylight and dark: screenshots, and no touch target under 44 px", async () => {
+  const dir = process.env.FIELD_SHOTS_DIR ?? join(tmpdir(), "shotbook-field-shots");
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  // The server is up but cannot take records (503): everything stays queued, so the edit and
+  // fix screens have something to show, and the outbox its retry message.
+  await context.route("**/api/sync", (r) => r.fulfill({ status: 503, contentType: "application/json", body: '{"error":"maintenance"}' }));
+  const id = await startSessionUi(page);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[0]!.id);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Sensor range (m)").fill("12.503");
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
+  const shotId = await page.evaluate(async (sid) => {
+    const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { first(): Promise<{ id: string }> } } } } }).db;
+    return (await db.shots.where("sessionId").equals(sid).first()).id;
+  }, id);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByLabel("Sensor range (m)").fill("25.031");
+
+  const screens: [string, string, string][] = [
+    ["start", "/field", "Start session"],
+    ["session", `/field/session/${id}`, "Shots in this session"],
+    ["coverage", `/field/session/${id}/coverage`, "Coverage checklist"],
+    ["shot-edit", `/field/session/${id}/shot/${shotId}`, "Edit the queued shot"],
+    ["session-fix", `/field/session/${id}/fix`, "Correct the session's details"],
+    ["outbox", "/field/outbox", "Outbox"],
+  ];
+  const small: string[] = [];
+  for (const theme of ["light", "dark"] as const) {
+    if (theme === "dark") {
+      await page.goto("/field");
+      await page.getByRole("button", { name: "Switch to dark theme" }).click();
+      await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
+    }
+    for (const [w, h] of [[1280, 800], [800, 1280]] as const) {
+      await page.setViewportSize({ width: w, height: h });
+      for (const [name, url, heading] of screens) {
+        await page.goto(url);
+        await page.getByRole("heading", { name: heading }).first().waitFor();
+        await page.waitForTimeout(300);
+        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`) });
+        for (const s of await smallTargets(page)) small.push(`${name} ${w}×${h}: ${s}`);
+      }
+      await page.goto(`/field/session/${id}`);
+      await page.getByRole("button", { name: "End session" }).click();
+      await page.getByTestId("end-summary").waitFor();
+      await page.screenshot({ path: join(dir, `end-summary-${w}x${h}-${theme}.png`) });
+    }
+  }
+  console.info(`field screenshots in ${dir}`);
+  expect([...new Set(small)]).toEqual([]);
+  await context.close();
+}, 180_000);
