@@ -25,7 +25,9 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
   const data = useLiveQuery(() => loadSession(params.sessionId), [params.sessionId], loaderData);
   if (!data.session) return <SessionMissing />;
   const ctx = contextOf(data.session, data.reference);
-  const { labels, result, light } = sessionCoverage(data, ctx);
+  const { labels, result, light, siteCells, missingHere, outOfReach } = sessionCoverage(data, ctx);
+  const siteCell = (band: string, refl: "dark" | "bright") => siteCells.find((c) => c.rangeBand === band && c.reflectance === refl);
+  const bandWord = (b: string) => `${b.replace("-", "–")} m`;
   const sensor = ctx.sensor;
   const cell = (band: string, refl: "dark" | "bright") => result?.cells.find((c) => c.rangeBand === band && c.reflectance === refl);
 
@@ -42,12 +44,33 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
         <p className="field-error">The sensor of this session is not in the tablet's reference data; connect once to copy it.</p>
       ) : (
         <>
-          <p className={`flex items-center gap-2 text-xl font-bold ${result.complete ? "text-pass" : "text-warn"}`} data-testid="coverage-summary">
-            <VerdictShape verdict={result.complete ? "pass" : "insufficient"} size={22} />
+          <p className={`flex items-center gap-2 text-xl font-bold ${result.complete || (missingHere.length === 0 && !result.needsBrightSun) ? "text-pass" : "text-warn"}`} data-testid="coverage-summary">
+            <VerdictShape verdict={result.complete || (missingHere.length === 0 && !result.needsBrightSun) ? "pass" : "insufficient"} size={22} />
             {result.complete
               ? "Coverage complete: every range band has dark and bright shots, and the light is covered."
-              : `Still missing: ${result.missing.length} ${result.missing.length === 1 ? "cell" : "cells"}${result.needsBrightSun ? " and a shot in bright sun" : ""}.`}
+              : missingHere.length === 0 && !result.needsBrightSun
+                ? "Everything this site can give is covered."
+                : `Still missing: ${missingHere.length} ${missingHere.length === 1 ? "cell" : "cells"} this site can fill${result.needsBrightSun ? " and a shot in bright sun" : ""}.`}
           </p>
+          {outOfReach.length ? (
+            <p className="text-lg" data-testid="coverage-out-of-reach">
+              Out of this site's reach (no target there): {outOfReach.map((c) => `${bandWord(c.rangeBand)} ${c.reflectance}`).join(", ")}. Another site has to cover{" "}
+              {outOfReach.length === 1 ? "it" : "them"}.
+            </p>
+          ) : null}
+          {missingHere.length ? (
+            <section className="card space-y-2" aria-labelledby="next-title">
+              <h3 id="next-title" className="text-xl font-bold">Next targets to shoot</h3>
+              <ul className="num list-disc space-y-1 pl-6 text-lg" data-testid="next-targets">
+                {missingHere.map((c) => (
+                  <li key={`${c.rangeBand}-${c.reflectance}`}>
+                    <strong>{siteCell(c.rangeBand, c.reflectance)!.targets.map((t) => `${t.label} (${t.referenceM} m, ${t.reflectancePct} %)`).join(" or ")}</strong>: {c.need - c.have} more for{" "}
+                    {bandWord(c.rangeBand)} {c.reflectance}
+                  </li>
+                ))}
+              </ul>
+            </section>
+          ) : null}
           <div className="overflow-x-auto">
             <table className="w-full border-collapse text-left text-lg" data-testid="coverage-table">
               <caption className="text-left text-muted">
@@ -68,13 +91,20 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
                     {(["dark", "bright"] as const).map((refl) => {
                       const c = cell(band, refl)!;
                       const ok = c.have >= c.need;
+                      const reachable = (siteCell(band, refl)?.targets.length ?? 0) > 0;
                       return (
-                        <td key={refl} className="p-2" data-testid={`cell-${band}-${refl}`}>
-                          <span className={`inline-flex items-center gap-2 font-bold ${ok ? "text-pass" : "text-warn"}`}>
-                            <VerdictShape verdict={ok ? "pass" : "insufficient"} />
-                            <span className="num">{c.have} of {c.need}</span>
-                            <span>{ok ? "done" : `need ${c.need - c.have} more`}</span>
-                          </span>
+                        <td key={refl} className="p-2" data-testid={`cell-${band}-${refl}`} data-reachable={reachable}>
+                          {!ok && !reachable ? (
+                            <span className="num text-muted">
+                              {c.have} of {c.need} · no such target at this site
+                            </span>
+                          ) : (
+                            <span className={`inline-flex items-center gap-2 font-bold ${ok ? "text-pass" : "text-warn"}`}>
+                              <VerdictShape verdict={ok ? "pass" : "insufficient"} />
+                              <span className="num">{c.have} of {c.need}</span>
+                              <span>{ok ? "done" : `need ${c.need - c.have} more`}</span>
+                            </span>
+                          )}
                         </td>
                       );
                     })}

@@ -34,8 +34,8 @@ function EndSummary({ data, ctx, onClose }: { data: SessionData; ctx: PreviewCon
   const outside = shots.filter((s) => s.preview?.within === false).length;
   const unchecked = shots.length - within - outside;
   const waiting = shots.filter((s) => s.state !== "synced").length;
-  const { result } = sessionCoverage(data, ctx);
-  const lacks = result ? [...result.missing.map((c) => `${band(c.rangeBand)} ${c.reflectance}: ${c.need - c.have} more`), ...(result.needsBrightSun ? ["a shot in bright sun (≥ 50 klux)"] : [])] : [];
+  const { result, missingHere, outOfReach } = sessionCoverage(data, ctx);
+  const lacks = result ? [...missingHere.map((c) => `${band(c.rangeBand)} ${c.reflectance}: ${c.need - c.have} more`), ...(result.needsBrightSun ? ["a shot in bright sun (≥ 50 klux)"] : [])] : [];
   return (
     <section className="card space-y-3 border-accent" aria-labelledby="end-title" data-testid="end-summary" tabIndex={-1} id="end-summary">
       <h2 id="end-title" className="text-2xl font-bold">Session summary</h2>
@@ -43,10 +43,10 @@ function EndSummary({ data, ctx, onClose }: { data: SessionData; ctx: PreviewCon
         <strong>{shots.length}</strong> {shots.length === 1 ? "shot" : "shots"}: <strong>{within}</strong> within the limit, <strong>{outside}</strong> outside
         {unchecked ? `, ${unchecked} not checked on the tablet` : ""}.
       </p>
-      <p className="num">{waiting ? `${waiting} ${waiting === 1 ? "shot waits" : "shots wait"} in the outbox and go out with the next sync.` : "Everything of this session is on the server."}</p>
+      <p className="num">{waiting ? `${waiting} ${waiting === 1 ? "shot waits in the outbox and goes" : "shots wait in the outbox and go"} out with the next sync.` : "Everything of this session is on the server."}</p>
       {result ? (
-        result.complete ? (
-          <p className="font-bold text-pass">Coverage complete.</p>
+        result.complete || lacks.length === 0 ? (
+          <p className="font-bold text-pass">{result.complete ? "Coverage complete." : "Everything this site can give is covered."}</p>
         ) : (
           <div>
             <p className="font-bold text-warn">Coverage still lacks:</p>
@@ -60,6 +60,9 @@ function EndSummary({ data, ctx, onClose }: { data: SessionData; ctx: PreviewCon
       ) : (
         <p className="text-muted">The coverage needs the session's sensor in the tablet's reference data.</p>
       )}
+      {outOfReach.length ? (
+        <p className="text-muted">Out of this site's reach: {outOfReach.map((c) => `${band(c.rangeBand)} ${c.reflectance}`).join(", ")}.</p>
+      ) : null}
       <p className="flex flex-wrap gap-3">
         <Link to="/field" className="btn">
           Done: back to the sessions

@@ -176,8 +176,11 @@ test("a crew logs check-shots with no signal, reloads, and everything syncs when
   await page.getByTestId("coverage-table").waitFor();
   expect(await page.getByTestId("cell-10-30-dark").textContent()).toContain("1 of 3");
   expect(await page.getByTestId("cell-30-100-bright").textContent()).toContain("1 of 3");
-  expect(await page.getByTestId("cell-0-10-dark").textContent()).toContain("need 3 more");
-  expect(await page.getByTestId("coverage-summary").textContent()).toContain("Still missing: 8 cells and a shot in bright sun");
+  // The site's targets (12.5 m dark, 25 m grey, 40 m white) can fill only two cells: the rest are out of its reach.
+  expect(await page.getByTestId("cell-0-10-dark").textContent()).toContain("no such target at this site");
+  expect(await page.getByTestId("coverage-summary").textContent()).toContain("Still missing: 2 cells this site can fill and a shot in bright sun");
+  expect(await page.getByTestId("next-targets").textContent()).toContain("Dark board (12.5 m, 10 %): 2 more for 10–30 m dark");
+  expect(await page.getByTestId("coverage-out-of-reach").textContent()).toContain("0–10 m dark");
 
   await page.getByRole("link", { name: "Outbox", exact: true }).click();
   await page.getByTestId("outbox-summary").waitFor();

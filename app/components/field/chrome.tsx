@@ -101,7 +101,8 @@ export function FieldChrome({ children }: { children: React.ReactNode }) {
         </NavLink>
         {status?.running ? (
           <span className="num">
-            Sending {status.done.toLocaleString("en-GB")} of {status.total.toLocaleString("en-GB")}…
+            {status.lastError ? "Retrying: " : "Sending "}
+            {status.done.toLocaleString("en-GB")} of {status.total.toLocaleString("en-GB")} sent…
           </span>
         ) : null}
         {status?.needsSignIn ? (

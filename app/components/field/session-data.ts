@@ -1,5 +1,5 @@
 // What a session's screens read from IndexedDB: the session, its reference context and shots.
-import { coverageChecklist, rangeBandIndex, illuminanceBand, rangeBandLabels, type CoverageResult, type CoverageShot } from "~/domain";
+import { coverageChecklist, rangeBandIndex, illuminanceBand, rangeBandLabels, siteCoverageCells, type CoverageCell, type CoverageResult, type CoverageShot, type SiteCell } from "~/domain";
 import { fieldDb } from "~/offline/db";
 import { ruleOf } from "~/offline/preview";
 import type { PreviewContext } from "~/offline/preview";
@@ -39,7 +39,14 @@ export type SessionCoverage = {
   result: CoverageResult | null;
   /** Per range band: how many shots in low, moderate and high light. */
   light: { low: number; moderate: number; high: number }[];
+  /** Every cell with the site's targets that can fill it (none: out of the site's reach). */
+  siteCells: SiteCell[];
+  /** Missing cells this site can fill, and those it cannot. */
+  missingHere: CoverageCell[];
+  outOfReach: CoverageCell[];
 };
+
+export const cellKey = (c: { rangeBand: string; reflectance: string }) => `${c.rangeBand}|${c.reflectance}`;
 
 /** The coverage checklist of a session's shots (ranging.md §6), shared by the checklist and the end-of-session summary. */
 export function sessionCoverage(data: SessionData, ctx: PreviewContext): SessionCoverage {
@@ -57,5 +64,16 @@ export function sessionCoverage(data: SessionData, ctx: PreviewContext): Session
     const b = rangeBandIndex(s.referenceM, rule.rangeBandEdgesM);
     if (b >= 0 && s.illuminanceKlux != null) light[b]![illuminanceBand(s.illuminanceKlux)]++;
   }
-  return { shots, labels, result, light };
+  const siteCells = siteCoverageCells(ctx.site?.targets ?? [], rule.rangeBandEdgesM);
+  const fillable = new Set(siteCells.filter((c) => c.targets.length).map(cellKey));
+  const missing = result?.missing ?? [];
+  return {
+    shots,
+    labels,
+    result,
+    light,
+    siteCells,
+    missingHere: missing.filter((c) => fillable.has(cellKey(c))),
+    outOfReach: missing.filter((c) => !fillable.has(cellKey(c))),
+  };
 }

@@ -195,6 +195,20 @@ export function ShotForm({
     return previewShot(session.record, record, ctx);
   }, [draft, session.record, ctx, existing?.id]);
 
+  // Coordinates: the computed distance beside the surveyed one, and what the typed heights do to it.
+  const coordinates = useMemo(() => {
+    if (f.method !== "coordinates" || !live?.ok) return null;
+    const target = site?.targets.find((t) => t.id === f.targetId);
+    const base = { id: "00000000-0000-4000-8000-000000000000", takenAt: new Date().toISOString(), ...draft } as SyncShotRecord;
+    const flat = previewShot(session.record, { ...base, reference: { ...base.reference, instrumentHeightM: 0, targetHeightM: 0 } }, ctx);
+    return {
+      computedM: live.preview.referenceM,
+      surveyedM: target?.referenceM ?? null,
+      heightsMm: flat.ok ? (live.preview.referenceM - flat.preview.referenceM) * 1000 : null,
+      limitMm: live.preview.limitMm,
+    };
+  }, [f.method, f.targetId, live, site, draft, session.record, ctx]);
+
   function pickTarget(id: string) {
     const t = site?.targets.find((x) => x.id === id);
     setConfirming(null);
@@ -388,7 +402,31 @@ export function ShotForm({
             <SelectField id="f-station" label="Station (sensor stands on)" value={f.stationId} onChange={(v) => set("stationId", v)} options={(site?.stations ?? []).map((st) => ({ value: st.id, label: st.label }))} placeholder={site?.stations.length ? undefined : "— no stations at this site —"} error={errors.station} />
             <NumberField id="f-ih" label="Instrument height (m)" unit="m" value={f.instrumentHeightM} required onChange={(v) => set("instrumentHeightM", v)} error={errors.ih} />
             <NumberField id="f-th" label="Target height (m)" unit="m" value={f.targetHeightM} required onChange={(v) => set("targetHeightM", v)} error={errors.th} />
-            <p className="text-muted sm:col-span-3">The distance comes from the surveyed positions of the station and the target.</p>
+            <p className="text-muted sm:col-span-3">
+              The distance comes from the surveyed positions of the station and the target. The registry does not record whether a target's
+              surveyed height is its board centre: if it is, the target height here is 0.
+            </p>
+            {coordinates ? (
+              <div className="num space-y-1 sm:col-span-3" data-testid="coordinates-check">
+                <p>
+                  Computed from the coordinates: <strong>{fmt(coordinates.computedM, 4)} m</strong>
+                  {coordinates.surveyedM != null ? (
+                    <>
+                      {" "}· surveyed station-to-target distance in the registry: <strong>{fmt(coordinates.surveyedM, 4)} m</strong> (difference{" "}
+                      {signedMm((coordinates.computedM - coordinates.surveyedM) * 1000)})
+                    </>
+                  ) : (
+                    " · the registry has no surveyed distance for this target"
+                  )}
+                </p>
+                {coordinates.heightsMm != null && Math.abs(coordinates.heightsMm) > coordinates.limitMm ? (
+                  <p className="flex items-center gap-2 font-bold text-warn" role="alert" data-testid="heights-warning">
+                    The heights typed change the distance by {signedMm(coordinates.heightsMm)}, more than the ±{fmt(coordinates.limitMm, 1)} mm limit:
+                    check they are measured from the same points as the site's survey.
+                  </p>
+                ) : null}
+              </div>
+            ) : null}
           </div>
         ) : null}
       </section>
