@@ -3,6 +3,7 @@
 // failed run. Where the browser has Background Sync, the worker is asked to send as well, so
 // the outbox also drains after the tab is closed.
 import { onReachChange, reach, watchReach } from "./reach";
+import { outboxCounts } from "./outbox";
 import { syncOutbox, type SyncOutcome } from "./sync";
 
 const TAG = "shotbook-outbox";
@@ -70,4 +71,12 @@ export function startAutoSync() {
   });
   watchReach();
   if (reach() === "reachable") void syncNow();
+  // A backstop: whatever waits goes out within a minute while the server answers, even when no
+  // save or network change prompted it (a session started and left without shots, say).
+  setInterval(() => {
+    if (reach() === "unreachable") return;
+    void outboxCounts().then((c) => {
+      if (c.total - c.rejected > 0) void syncNow();
+    });
+  }, 45_000);
 }

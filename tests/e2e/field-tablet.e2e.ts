@@ -235,17 +235,6 @@ test("a session started with the wrong sensor is discarded with its shots and ne
   const right = await startSessionUi(page);
   net.setOnline(true);
   await page.getByRole("link", { name: "Outbox", exact: true }).click();
-  if (process.env.DEBUG_FIELD) {
-    for (let i = 0; i < 12; i++) {
-      const st = await page.evaluate(async () => ({
-        reach: document.querySelector("[data-reach]")?.getAttribute("data-reach"),
-        summary: document.querySelector('[data-testid="outbox-summary"]')?.textContent,
-        status: await (window.shotbookField as { syncStatus(): Promise<unknown> }).syncStatus(),
-      }));
-      console.warn("DIAG", JSON.stringify(st));
-      await page.waitForTimeout(2500);
-    }
-  }
   await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
   expect(await serverHasSession(right)).toBe(true);
   expect(await serverHasSession(wrong)).toBe(false);
@@ -388,3 +377,26 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
   expect([...new Set(small)]).toEqual([]);
   await context.close();
 }, 180_000);
+
+test("coordinates: the computed distance stands beside the surveyed one, and heights that move it past the limit are flagged", async () => {
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  await startSessionUi(page);
+  await page.getByLabel("Coordinates", { exact: true }).check();
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByLabel("Instrument height (m)").fill("0");
+  await page.getByLabel("Target height (m)").fill("0");
+  await page.getByLabel("Reflectance (%)").fill("50");
+  await page.getByLabel("Sensor range (m)").fill("25.002");
+  const check = page.getByTestId("coordinates-check");
+  await check.waitFor();
+  // Station (1000, 2000, 50) to target (1000, 2025, 50): 25 m, as surveyed.
+  expect(await check.textContent()).toContain("Computed from the coordinates: 25.0000 m · surveyed station-to-target distance in the registry: 25.0000 m (difference 0.0 mm)");
+  expect(await page.getByTestId("heights-warning").count()).toBe(0);
+  // 1.5 m of instrument height: √(25² + 1.5²) − 25 = 44.96 mm, past the ±10.5 mm limit (5 mm + 10 ppm·25 m, k = 2).
+  await page.getByLabel("Instrument height (m)").fill("1.5");
+  await page.getByTestId("heights-warning").waitFor();
+  expect(await page.getByTestId("heights-warning").textContent()).toContain("change the distance by +45.0 mm");
+  await context.close();
+});
