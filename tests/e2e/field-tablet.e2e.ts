@@ -55,6 +55,21 @@ async function startSessionUi(page: Page) {
   return page.url().split("/").pop()!;
 }
 
+/** Waits for an empty outbox; on a timeout, says what the tablet thought (reach, sync status). */
+async function drained(page: Page, timeout = 30_000) {
+  try {
+    await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout });
+  } catch (e) {
+    const st = await page.evaluate(async () => ({
+      reach: document.querySelector("[data-reach]")?.getAttribute("data-reach"),
+      summary: document.querySelector('[data-testid="outbox-summary"]')?.textContent,
+      status: await (window.shotbookField as { syncStatus(): Promise<unknown> }).syncStatus(),
+      locks: await navigator.locks.query(),
+    }));
+    throw new Error(`outbox not drained: ${JSON.stringify(st)}`, { cause: e });
+  }
+}
+
 async function queuedShotCount(page: Page, sessionId: string) {
   return page.evaluate(async (id) => {
     const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { count(): Promise<number> } } } } }).db;
@@ -122,7 +137,7 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
     expect(await serverShotCount(sessionId)).toBe(1);
     await tablet.close();
   } finally {
-    rmSync(dir, { recursive: true, force: true });
+    rmSync(dir, { recursive: true, force: true, maxRetries: 10, retryDelay: 200 });
   }
 }, 120_000);
 
@@ -235,7 +250,7 @@ test("a session started with the wrong sensor is discarded with its shots and ne
   const right = await startSessionUi(page);
   net.setOnline(true);
   await page.getByRole("link", { name: "Outbox", exact: true }).click();
-  await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
+  await drained(page);
   expect(await serverHasSession(right)).toBe(true);
   expect(await serverHasSession(wrong)).toBe(false);
   expect(await serverShotCount(wrong)).toBe(0);
