@@ -6,8 +6,14 @@ export function registerServiceWorker(onUpdateReady: (apply: () => void) => void
   if (!import.meta.env.PROD || !("serviceWorker" in navigator)) return;
   const wb = new Workbox("/sw.js", { scope: "/" });
   let offered: ServiceWorker | null = null;
+  let registration: ServiceWorkerRegistration | undefined;
   const offer = (waiting: ServiceWorker | null | undefined) => {
     if (!waiting || waiting === offered) return;
+    // On a first visit the new worker passes through "installed" (briefly reg.waiting) on its
+    // way to active: that is no update. An update is a waiting worker beside an active one
+    // that controls this page.
+    const active = registration?.active;
+    if (!active || active === waiting || !navigator.serviceWorker.controller) return;
     offered = waiting;
     document.documentElement.dataset.swUpdate = "waiting";
     onUpdateReady(() => {
@@ -22,11 +28,14 @@ export function registerServiceWorker(onUpdateReady: (apply: () => void) => void
       waiting.postMessage({ type: "SKIP_WAITING" });
     });
   };
-  wb.addEventListener("waiting", (e) => offer(e.sw));
+  wb.addEventListener("waiting", (e) => {
+    if (e.isUpdate) offer(e.sw);
+  });
   void wb
     .register()
     .then((reg) => {
       if (!reg) return;
+      registration = reg;
       // Also catch a worker that was already waiting, or one found by the browser's own checks.
       const check = () => offer(reg.waiting);
       check();

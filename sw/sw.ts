@@ -52,19 +52,32 @@ async function warmFieldPages() {
     FIELD_PAGES.flatMap((path) => [
       (async () => {
         try {
-          const res = await fetch(path, { credentials: "same-origin", headers: { Accept: "text/html" } });
+          const res = await fetchWithTimeout(new Request(path, { credentials: "same-origin", headers: { Accept: "text/html" } }), 15_000);
           if (isHtml(res)) await pages.put(pageKey(new URL(path, self.location.origin)), res);
         } catch {}
       })(),
       (async () => {
         try {
           const url = new URL(`${path}.data`, self.location.origin);
-          const res = await fetch(url, { credentials: "same-origin" });
+          const res = await fetchWithTimeout(new Request(url, { credentials: "same-origin" }), 15_000);
           if (res.status === 200 && !res.redirected) await data.put(dataKey(url), res);
         } catch {}
       })(),
     ]),
   );
+}
+
+/** How many field screens (page and data answer) this worker holds a copy of. */
+async function fieldCopyStatus() {
+  const [pages, data] = await Promise.all([caches.open(PAGES), caches.open(DATA)]);
+  let p = 0;
+  let d = 0;
+  for (const path of FIELD_PAGES) {
+    const url = new URL(path, self.location.origin);
+    if (await pages.match(pageKey(url))) p++;
+    if (await data.match(dataKey(new URL(`${path}.data`, self.location.origin)))) d++;
+  }
+  return { pages: p, data: d, total: FIELD_PAGES.length };
 }
 
 function offlinePage() {
@@ -166,7 +179,17 @@ self.addEventListener("activate", (event) => {
 self.addEventListener("message", (event) => {
   const type = (event.data as { type?: string } | null)?.type;
   if (type === "SKIP_WAITING") void self.skipWaiting();
-  if (type === "WARM_FIELD_PAGES") event.waitUntil(warmFieldPages());
+  // The page asks once this worker is active and the user signed in; the answer (on the
+  // message's port) says how many field screens are kept, for "Ready to work offline".
+  if (type === "WARM_FIELD_PAGES" || type === "FIELD_COPY_STATUS") {
+    const port = event.ports[0];
+    event.waitUntil(
+      (async () => {
+        if (type === "WARM_FIELD_PAGES") await warmFieldPages();
+        port?.postMessage(await fieldCopyStatus());
+      })(),
+    );
+  }
 });
 
 self.addEventListener("sync", (event) => {

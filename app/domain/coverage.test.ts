@@ -58,3 +58,15 @@ test("coverage checklist: every band × {dark, bright} with ≥ 3 shots, bright 
   expect(few.cells[0]).toEqual({ rangeBand: "0-10", reflectance: "dark", have: 0, need: 3 });
   expect(few.needsBrightSun).toBe(false);
 });
+
+test("the cells a site can fill come from its targets' surveyed distances and reflectance classes", async () => {
+  const { siteCoverageCells } = await import("./coverage.ts");
+  // ranging.md §5: bands [lower, upper) of 0–10–30–100–∞ m; dark < 20 %, bright > 60 %, mid and retro fill no cell.
+  const t = (id: string, referenceM: number | null, reflectancePct: number, retro = false) => ({ id, label: id, referenceM, reflectancePct, retro });
+  const cells = siteCoverageCells([t("dark12", 12.5, 10), t("grey25", 25, 50), t("white40", 40, 85), t("white10", 10, 85), t("prism", 60, 90, true), t("nodist", null, 10)], [0, 10, 30, 100]);
+  expect(cells).toHaveLength(8);
+  const filled = cells.filter((c) => c.targets.length).map((c) => `${c.rangeBand} ${c.reflectance}: ${c.targets.map((x) => x.id).join(",")}`);
+  // 10 m is the lower edge of 10–30 (inclusive), so the white board at 10 m is a 10–30 bright target.
+  expect(filled).toEqual(["10-30 dark: dark12", "10-30 bright: white10", "30-100 bright: white40"]);
+  expect(cells.filter((c) => c.targets.length === 0).map((c) => `${c.rangeBand} ${c.reflectance}`)).toEqual(["0-10 dark", "0-10 bright", "30-100 dark", "100+ dark", "100+ bright"]);
+});

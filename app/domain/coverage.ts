@@ -102,3 +102,30 @@ export function coverageFromCounts(sensor: { outdoor: boolean }, labels: string[
   const needsBrightSun = !!sensor.outdoor && !sun;
   return { complete: missing.length === 0 && !needsBrightSun, missing, needsBrightSun, cells };
 }
+
+export type SiteTarget = { id: string; label: string; referenceM: number | null; reflectancePct: number; retro: boolean };
+export type SiteCell = { rangeBand: string; reflectance: "dark" | "bright"; targets: SiteTarget[] };
+
+/**
+ * The checklist cells a site can actually fill (ranging.md §5–6): each target with a surveyed
+ * distance falls in one range band × {dark, bright} cell; mid-grey and retro targets fill none,
+ * nor does a target below the first edge or without a distance. Returns every cell of the
+ * edges, each with the targets that fill it (an empty list: out of this site's reach).
+ */
+export function siteCoverageCells(targets: SiteTarget[], edges: number[]): SiteCell[] {
+  checkEdges(edges);
+  const labels = rangeBandLabels(edges);
+  const cells: SiteCell[] = labels.flatMap((b) => [
+    { rangeBand: b, reflectance: "dark" as const, targets: [] as SiteTarget[] },
+    { rangeBand: b, reflectance: "bright" as const, targets: [] as SiteTarget[] },
+  ]);
+  for (const t of targets) {
+    if (t.referenceM == null || !Number.isFinite(t.referenceM) || t.retro) continue;
+    const b = rangeBandIndex(t.referenceM, edges);
+    if (b < 0) continue;
+    const cls = reflectanceClass(t.reflectancePct, false);
+    if (cls === "dark") cells[2 * b]!.targets.push(t);
+    else if (cls === "bright") cells[2 * b + 1]!.targets.push(t);
+  }
+  return cells;
+}

@@ -177,6 +177,33 @@ export async function discardShot(id: string) {
   });
 }
 
+export type DiscardOutcome = { discarded: true; shots: number } | { discarded: false; reason: string };
+
+/**
+ * Throws away a session that has not reached the server, with its shots and photos (a session
+ * started with the wrong sensor, say). Waits for a running send to finish first (the same Web
+ * Lock as sync.ts), so a batch in flight cannot carry the session out after the crew threw it
+ * away; then checks again that nothing of it is on the server.
+ */
+export async function discardSession(id: string): Promise<DiscardOutcome> {
+  const db = fieldDb();
+  const run = () =>
+    db.transaction("rw", db.sessions, db.shots, db.photos, async (): Promise<DiscardOutcome> => {
+      const s = await db.sessions.get(id);
+      if (!s) return { discarded: false, reason: "No such session on this tablet." };
+      const shots = await db.shots.where("sessionId").equals(id).toArray();
+      if (s.state === "synced" || shots.some((x) => x.state === "synced")) {
+        return { discarded: false, reason: "This session has reached the server: it cannot be thrown away here. A QA lead can exclude its shots with a reason." };
+      }
+      if (shots.length) await db.photos.where("shotId").anyOf(shots.map((x) => x.id)).delete();
+      await db.shots.where("sessionId").equals(id).delete();
+      await db.sessions.delete(id);
+      return { discarded: true, shots: shots.length };
+    });
+  const locks = (globalThis.navigator as Navigator | undefined)?.locks;
+  return locks?.request ? locks.request("shotbook-sync", run) : run();
+}
+
 export type OutboxCounts = { sessions: number; shots: number; photos: number; rejected: number; total: number };
 
 export async function outboxCounts(): Promise<OutboxCounts> {

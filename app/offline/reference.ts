@@ -1,6 +1,7 @@
 // The tablet's copy of the reference data (GET /api/field/reference): refreshed whenever the
 // page is online, read by the field screens' clientLoaders from IndexedDB when it is not.
 import { fieldDb, getMeta, setMeta } from "./db";
+import { trackedFetch } from "./reach";
 import type { FieldReference, RefUser } from "./types";
 
 export type ReferenceCopy = Omit<FieldReference, "user" | "copiedAt"> & { user: RefUser | null; copiedAt: string | null };
@@ -9,10 +10,15 @@ export type RefreshOutcome = { ok: true; copiedAt: string } | { ok: false; statu
 
 export async function refreshReference(fetchImpl: typeof fetch = (i, init) => fetch(i, init)): Promise<RefreshOutcome> {
   let res: Response;
+  // A dead network can hang a request for minutes; past this the copy counts as failed.
+  const ctrl = new AbortController();
+  const timer = setTimeout(() => ctrl.abort(), 20_000);
   try {
-    res = await fetchImpl("/api/field/reference", { headers: { Accept: "application/json" }, credentials: "same-origin" });
+    res = await trackedFetch(fetchImpl, "/api/field/reference", { headers: { Accept: "application/json" }, credentials: "same-origin", signal: ctrl.signal });
   } catch {
     return { ok: false, status: null, message: "No connection: the tablet keeps its last copy." };
+  } finally {
+    clearTimeout(timer);
   }
   if (!res.ok) return { ok: false, status: res.status, message: `The server answered ${res.status}: the tablet keeps its last copy.` };
   const ref = (await res.json()) as FieldReference;

@@ -7,6 +7,7 @@
 // A batch the server keeps failing on (500 while an empty request still succeeds) is split in
 // halves until the record behind it stands alone; that record is marked stuck and the rest go.
 import { deviceId, fieldDb, getMeta, setMeta } from "./db";
+import { trackedFetch } from "./reach";
 import type { FieldError, LocalSession, LocalShot, StuckMark, SyncStatus } from "./types";
 
 export const MAX_BATCH = 500;
@@ -160,7 +161,9 @@ function chunk(items: Item[], size: number): Item[][] {
 
 async function run(opts: SyncOptions): Promise<SyncOutcome> {
   const db = fieldDb();
-  const fetchImpl = opts.fetchImpl ?? ((input: RequestInfo | URL, init?: RequestInit) => fetch(input, init));
+  const baseFetch = opts.fetchImpl ?? ((input: RequestInfo | URL, init?: RequestInit) => fetch(input, init));
+  // Every answer (or its absence) tells the page whether the server is reachable (reach.ts).
+  const fetchImpl = (input: RequestInfo | URL, init?: RequestInit) => trackedFetch(baseFetch, input, init);
   const o = { maxAttempts: opts.maxAttempts ?? 5, baseDelayMs: opts.baseDelayMs ?? 1000, sleep: opts.sleep ?? defaultSleep };
   const size = Math.max(1, Math.min(opts.batchSize ?? MAX_BATCH, MAX_BATCH));
   const outcome: SyncOutcome = { ok: true, sent: 0, rejected: 0, photos: 0, stuck: 0 };

@@ -6,6 +6,7 @@ import type { Route } from "./+types/field._index";
 import { formatWhen, FieldLoading } from "~/components/field/chrome";
 import { Choice, NumberField, parseNum } from "~/components/field/inputs";
 import { EMPTY_SESSION, SessionFields, sessionRecordOf, type SessionValues } from "~/components/field/session-fields";
+import { syncSoon } from "~/offline/autosync";
 import { fieldDb } from "~/offline/db";
 import { useLiveQuery } from "~/offline/live";
 import { OutboxError, startSession } from "~/offline/outbox";
@@ -82,6 +83,7 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
         sessionRecordOf(values),
         { sky: sky === "measured" ? `measured ${klux} klux` : preset.label, illuminanceKlux: klux },
       );
+      syncSoon();
       navigate(`/field/session/${s.id}`);
     } catch (err) {
       if (err instanceof OutboxError) setErrors(Object.fromEntries(err.errors.map((x) => [x.path || "form", x.message])));

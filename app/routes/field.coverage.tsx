@@ -3,12 +3,10 @@
 import { Link } from "react-router";
 import type { Route } from "./+types/field.coverage";
 import { FieldLoading } from "~/components/field/chrome";
-import { contextOf, loadSession } from "~/components/field/session-data";
+import { contextOf, loadSession, sessionCoverage } from "~/components/field/session-data";
 import { SessionHeader, SessionMissing } from "~/components/field/session-header";
 import { VerdictShape } from "~/components/verdict-badge";
-import { coverageChecklist, illuminanceBand, rangeBandLabels, rangeBandIndex, type CoverageShot } from "~/domain";
 import { useLiveQuery } from "~/offline/live";
-import { ruleOf } from "~/offline/preview";
 
 export const meta: Route.MetaFunction = () => [{ title: "Coverage checklist — Shotbook field" }];
 
@@ -27,21 +25,10 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
   const data = useLiveQuery(() => loadSession(params.sessionId), [params.sessionId], loaderData);
   if (!data.session) return <SessionMissing />;
   const ctx = contextOf(data.session, data.reference);
-  const rule = ruleOf(ctx.project);
-  const shots: CoverageShot[] = data.shots.flatMap((s) => {
-    const referenceM = s.preview?.referenceM ?? s.record.reference.distanceM;
-    if (referenceM == null) return [];
-    const t = ctx.site?.targets.find((x) => x.id === s.record.targetId);
-    return [{ referenceM, reflectancePct: s.record.reflectancePct, retro: t?.retro ?? false, illuminanceKlux: s.record.illuminanceKlux }];
-  });
+  const { labels, result, light, siteCells, missingHere, outOfReach } = sessionCoverage(data, ctx);
+  const siteCell = (band: string, refl: "dark" | "bright") => siteCells.find((c) => c.rangeBand === band && c.reflectance === refl);
+  const bandWord = (b: string) => `${b.replace("-", "–")} m`;
   const sensor = ctx.sensor;
-  const labels = rangeBandLabels(rule.rangeBandEdgesM);
-  const result = sensor ? coverageChecklist({ sensor, rule, shots }) : null;
-  const light = labels.map(() => ({ low: 0, moderate: 0, high: 0 }));
-  for (const s of shots) {
-    const b = rangeBandIndex(s.referenceM, rule.rangeBandEdgesM);
-    if (b >= 0 && s.illuminanceKlux != null) light[b]![illuminanceBand(s.illuminanceKlux)]++;
-  }
   const cell = (band: string, refl: "dark" | "bright") => result?.cells.find((c) => c.rangeBand === band && c.reflectance === refl);
 
   return (
@@ -57,12 +44,33 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
         <p className="field-error">The sensor of this session is not in the tablet's reference data; connect once to copy it.</p>
       ) : (
         <>
-          <p className={`flex items-center gap-2 text-xl font-bold ${result.complete ? "text-pass" : "text-warn"}`} data-testid="coverage-summary">
-            <VerdictShape verdict={result.complete ? "pass" : "insufficient"} size={22} />
+          <p className={`flex items-center gap-2 text-xl font-bold ${result.complete || (missingHere.length === 0 && !result.needsBrightSun) ? "text-pass" : "text-warn"}`} data-testid="coverage-summary">
+            <VerdictShape verdict={result.complete || (missingHere.length === 0 && !result.needsBrightSun) ? "pass" : "insufficient"} size={22} />
             {result.complete
               ? "Coverage complete: every range band has dark and bright shots, and the light is covered."
-              : `Still missing: ${result.missing.length} ${result.missing.length === 1 ? "cell" : "cells"}${result.needsBrightSun ? " and a shot in bright sun" : ""}.`}
+              : missingHere.length === 0 && !result.needsBrightSun
+                ? "Everything this site can give is covered."
+                : `Still missing: ${missingHere.length} ${missingHere.length === 1 ? "cell" : "cells"} this site can fill${result.needsBrightSun ? " and a shot in bright sun" : ""}.`}
           </p>
+          {outOfReach.length ? (
+            <p className="text-lg" data-testid="coverage-out-of-reach">
+              Out of this site's reach (no target there): {outOfReach.map((c) => `${bandWord(c.rangeBand)} ${c.reflectance}`).join(", ")}. Another site has to cover{" "}
+              {outOfReach.length === 1 ? "it" : "them"}.
+            </p>
+          ) : null}
+          {missingHere.length ? (
+            <section className="card space-y-2" aria-labelledby="next-title">
+              <h3 id="next-title" className="text-xl font-bold">Next targets to shoot</h3>
+              <ul className="num list-disc space-y-1 pl-6 text-lg" data-testid="next-targets">
+                {missingHere.map((c) => (
+                  <li key={`${c.rangeBand}-${c.reflectance}`}>
+                    <strong>{siteCell(c.rangeBand, c.reflectance)!.targets.map((t) => `${t.label} (${t.referenceM} m, ${t.reflectancePct} %)`).join(" or ")}</strong>: {c.need - c.have} more for{" "}
+                    {bandWord(c.rangeBand)} {c.reflectance}
+                  </li>
+                ))}
+              </ul>
+            </section>
+          ) : null}
           <div className="overflow-x-auto">
             <table className="w-full border-collapse text-left text-lg" data-testid="coverage-table">
               <caption className="text-left text-muted">
@@ -83,13 +91,20 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
                     {(["dark", "bright"] as const).map((refl) => {
                       const c = cell(band, refl)!;
                       const ok = c.have >= c.need;
+                      const reachable = (siteCell(band, refl)?.targets.length ?? 0) > 0;
                       return (
-                        <td key={refl} className="p-2" data-testid={`cell-${band}-${refl}`}>
-                          <span className={`inline-flex items-center gap-2 font-bold ${ok ? "text-pass" : "text-warn"}`}>
-                            <VerdictShape verdict={ok ? "pass" : "insufficient"} />
-                            <span className="num">{c.have} of {c.need}</span>
-                            <span>{ok ? "done" : `need ${c.need - c.have} more`}</span>
-                          </span>
+                        <td key={refl} className="p-2" data-testid={`cell-${band}-${refl}`} data-reachable={reachable}>
+                          {!ok && !reachable ? (
+                            <span className="num text-muted">
+                              {c.have} of {c.need} · no such target at this site
+                            </span>
+                          ) : (
+                            <span className={`inline-flex items-center gap-2 font-bold ${ok ? "text-pass" : "text-warn"}`}>
+                              <VerdictShape verdict={ok ? "pass" : "insufficient"} />
+                              <span className="num">{c.have} of {c.need}</span>
+                              <span>{ok ? "done" : `need ${c.need - c.have} more`}</span>
+                            </span>
+                          )}
                         </td>
                       );
                     })}

@@ -20,6 +20,8 @@ export const meta: Route.MetaFunction = () => [{ title: "Outbox — Shotbook fie
 
 const SHOWN = 100;
 
+const count = (n: number, word: string) => `${n.toLocaleString("en-GB")} ${n === 1 ? word : `${word}s`}`;
+
 async function outboxData() {
   const db = fieldDb();
   const [sessions, shots, photos, reference] = await Promise.all([
@@ -31,15 +33,48 @@ async function outboxData() {
   // a stuck shot is named by its session's sensor and site, and that session may be synced
   const stuckSessionIds = [...new Set(shots.filter((s) => s.stuck).map((s) => s.sessionId))];
   const stuckSessions = stuckSessionIds.length ? await db.sessions.bulkGet(stuckSessionIds) : [];
+  const sensorLabel: Record<string, string> = Object.fromEntries(reference.sensors.map((s) => [s.id, s.label]));
+  const siteName: Record<string, string> = Object.fromEntries(reference.sites.map((s) => [s.id, s.name]));
+  // Every session a message may name (the shots' own too, even when already sent).
+  const sessionIds = [...new Set([...sessions.map((s) => s.id), ...shots.map((s) => s.sessionId)])];
+  const allSessions = (await db.sessions.bulkGet(sessionIds)).filter((s): s is NonNullable<typeof s> => Boolean(s));
+  const names: Record<string, string> = {};
+  for (const x of reference.sensors) names[x.id] = x.label;
+  for (const x of reference.sites) {
+    names[x.id] = x.name;
+    for (const t of x.targets) names[t.id] = t.label;
+    for (const st of x.stations) names[st.id] = `station ${st.label}`;
+  }
+  for (const t of reference.tapes) names[t.id] = t.label;
+  for (const x of reference.projects) names[x.id] = x.name;
+  for (const x of allSessions) names[x.id] = sessionName(x.record, sensorLabel, siteName);
+  const targetLabel: Record<string, string> = {};
+  for (const x of reference.sites) for (const t of x.targets) targetLabel[t.id] = t.label;
   return {
     sessions,
     shots,
     photos: photos.map(({ blob: _blob, ...p }) => p),
-    sensorLabel: Object.fromEntries(reference.sensors.map((s) => [s.id, s.label])),
-    siteName: Object.fromEntries(reference.sites.map((s) => [s.id, s.name])),
+    sensorLabel,
+    siteName,
+    names,
+    targetLabel,
     sessionOf: Object.fromEntries(stuckSessionIds.map((id, i) => [id, stuckSessions[i]])) as Record<string, LocalSession | undefined>,
-    targetLabel: Object.fromEntries(reference.sites.flatMap((s) => s.targets.map((t) => [t.id, t.label]))),
   };
+}
+
+/** A session as the crew knows it: sensor, site and start time (never its id). */
+function sessionName(r: { sensorId: string; siteId: string; startedAt: string }, sensorLabel: Record<string, string>, siteName: Record<string, string>) {
+  return `${sensorLabel[r.sensorId] ?? "an unknown sensor"} at ${siteName[r.siteId] ?? "an unknown site"}, ${formatWhen(r.startedAt)}`;
+}
+
+const UUID = /[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}/gi;
+
+/** The server names records by id; the crew knows them by name. Unknown ids are not shown raw. */
+function withNames(message: string, names: Record<string, string>) {
+  return message.replace(UUID, (id) => {
+    const name = names[id] ?? names[id.toLowerCase()];
+    return name ? `“${name}”` : "(a record this tablet does not know)";
+  });
 }
 
 export async function clientLoader() {
@@ -51,12 +86,12 @@ export function HydrateFallback() {
   return <FieldLoading />;
 }
 
-function Errors({ errors, label = fieldLabelOf }: { errors: FieldError[]; label?: (p: string) => string }) {
+function Errors({ errors, label = fieldLabelOf, names }: { errors: FieldError[]; label?: (p: string) => string; names: Record<string, string> }) {
   return (
     <ul className="list-disc pl-6" data-testid="record-errors">
       {errors.map((e, i) => (
         <li key={i}>
-          <strong>{label(e.path)}</strong>: {e.message}
+          <strong>{label(e.path)}</strong>: {withNames(e.message, names)}
         </li>
       ))}
     </ul>
@@ -83,6 +118,7 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
   const rejectedPhotos = data.photos.filter((p) => p.state === "rejected");
   const queuedPhotos = data.photos.filter((p) => p.state === "queued");
   const nothing = data.sessions.length + data.shots.length + data.photos.length === 0;
+  const refusedTotal = rejectedSessions.length + rejectedShots.length + rejectedPhotos.length;
   const running = Boolean(status?.running);
 
   return (
@@ -93,7 +129,8 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
         <p className="text-xl font-bold" data-testid="outbox-summary">
           {nothing
             ? "Nothing waiting: everything saved on this tablet is on the server."
-            : `Waiting: ${data.sessions.length} ${data.sessions.length === 1 ? "session" : "sessions"}, ${data.shots.length.toLocaleString("en-GB")} ${data.shots.length === 1 ? "shot" : "shots"}, ${data.photos.length} ${data.photos.length === 1 ? "photo" : "photos"}.`}
+            : `Waiting: ${count(queuedSessions.length, "session")}, ${count(queuedShots.length, "shot")}, ${count(queuedPhotos.length, "photo")}.`}
+          {refusedTotal ? ` Refused, to fix: ${[rejectedSessions.length ? count(rejectedSessions.length, "session") : "", rejectedShots.length ? count(rejectedShots.length, "shot") : "", rejectedPhotos.length ? count(rejectedPhotos.length, "photo") : ""].filter(Boolean).join(", ")}.` : ""}
         </p>
         <div className="flex flex-wrap items-center gap-4">
           <button type="button" className="btn min-h-14 px-8 text-xl" disabled={running} onClick={() => void syncNow()}>
@@ -121,7 +158,8 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
         {status?.lastError && !status.needsSignIn ? (
           <p className="font-bold text-warn" role="status">
             {status.lastError}
-            {status.nextRetryAt ? ` Next try about ${formatWhen(status.nextRetryAt)}.` : ""}
+            {/* A retry time means something only while that run is alive (not after a relaunch). */}
+            {running && status.nextRetryAt && Date.parse(status.nextRetryAt) > Date.now() ? ` Next try about ${formatWhen(status.nextRetryAt)}.` : ""}
           </p>
         ) : null}
         <p className="text-muted">Last complete sync: {formatWhen(status?.lastSyncAt)}</p>
@@ -134,9 +172,9 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
             {rejectedSessions.map((s) => (
               <li key={s.id} className="card space-y-2 border-fail" data-testid="rejected-session">
                 <p className="font-bold">
-                  Session: {data.sensorLabel[s.record.sensorId] ?? s.record.sensorId} at {data.siteName[s.record.siteId] ?? s.record.siteId}, {formatWhen(s.record.startedAt)}
+                  Session: {data.names[s.id]}
                 </p>
-                <Errors errors={s.errors} label={sessionFieldLabelOf} />
+                <Errors errors={s.errors} label={sessionFieldLabelOf} names={data.names} />
                 <p className="text-sm">Its shots wait until the session is accepted. Resend it unchanged once an admin has fixed the reference data.</p>
                 <p className="flex flex-wrap gap-3">
                   <Link className="btn" to={`/field/session/${s.id}/fix`}>
@@ -151,10 +189,11 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
             {rejectedShots.map((s) => (
               <li key={s.id} className="card space-y-2 border-fail" data-testid="rejected-shot">
                 <p className="font-bold">
-                  Shot of {formatWhen(s.record.takenAt)}
+                  Shot {s.record.targetId && data.targetLabel[s.record.targetId] ? `at ${data.targetLabel[s.record.targetId]} ` : ""}of {formatWhen(s.record.takenAt)}
                   {s.preview ? `, reference ${s.preview.referenceM.toFixed(3)} m, error ${signedMm(s.preview.errorMm)}` : ""}
                 </p>
-                <Errors errors={s.errors} />
+                <p className="text-sm">Session: {data.names[s.sessionId] ?? "not on this tablet"}</p>
+                <Errors errors={s.errors} names={data.names} />
                 <p className="flex flex-wrap gap-3">
                   <Link className="btn" to={`/field/session/${s.sessionId}/shot/${s.id}`}>
                     Fix and resend
@@ -168,7 +207,7 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
             {rejectedPhotos.map((p) => (
               <li key={p.id} className="card space-y-2 border-fail" data-testid="rejected-photo">
                 <p className="font-bold">Photo {p.name} ({formatBytes(p.bytes)})</p>
-                <Errors errors={p.errors} label={() => "Photo"} />
+                <Errors errors={p.errors} label={() => "Photo"} names={data.names} />
                 <button type="button" className="btn-secondary" onClick={() => void resendPhoto(p.id).then(() => syncNow())}>
                   Resend the photo
                 </button>
@@ -196,8 +235,7 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
             <ul className="space-y-1">
               {queuedSessions.map((s) => (
                 <li key={s.id} className="flex flex-wrap gap-x-3" data-testid="queued-session">
-                  <StateWord state={s.state} /> Session: {data.sensorLabel[s.record.sensorId] ?? s.record.sensorId} at {data.siteName[s.record.siteId] ?? s.record.siteId},{" "}
-                  {formatWhen(s.record.startedAt)}
+                  <StateWord state={s.state} /> Session: {data.names[s.id]}
                 </li>
               ))}
             </ul>

@@ -68,7 +68,8 @@ function FixForm({ data, session }: { data: Route.ComponentProps["loaderData"]; 
       setErrors({});
       setSaved(true);
       syncSoon();
-      navigate("/field/outbox");
+      // A refused session goes back to the outbox that showed it; a queued one to its shots.
+      navigate(session.state === "rejected" ? "/field/outbox" : `/field/session/${session.id}`);
     } catch (err) {
       const errs =
         err instanceof OutboxError
@@ -84,7 +85,7 @@ function FixForm({ data, session }: { data: Route.ComponentProps["loaderData"]; 
   return (
     <div className="space-y-6">
       <SessionHeader data={data} />
-      <h2 className="text-2xl font-bold">{session.state === "rejected" ? "Fix the refused session" : "Edit the queued session"}</h2>
+      <h2 className="text-2xl font-bold">{session.state === "rejected" ? "Fix the refused session" : "Correct the session's details"}</h2>
       <RefusedBox what="session" errors={session.errors} label={sessionFieldLabelOf} />
       <form onSubmit={onSubmit} noValidate className="card space-y-5" aria-label="Session" data-dirty="true">
         {errors.form ? (
@@ -130,7 +131,7 @@ function FixForm({ data, session }: { data: Route.ComponentProps["loaderData"]; 
         </p>
         <div className="flex flex-wrap items-center gap-4">
           <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={saving}>
-            {saving ? "Saving…" : "Save and resend"}
+            {saving ? "Saving…" : session.state === "rejected" ? "Save and resend" : "Save changes"}
           </button>
           <p role="status" className="text-lg font-bold" data-testid="save-status">
             {saved ? "Saved. It goes out with the next sync." : ""}

@@ -7,7 +7,7 @@ import { fieldLabelOf } from "~/components/field/field-errors";
 import { RefusedBox } from "~/components/field/refused";
 import { contextOf, loadSession } from "~/components/field/session-data";
 import { SessionHeader, SessionMissing } from "~/components/field/session-header";
-import { ShotForm } from "~/components/field/shot-form";
+import { editDraftKey, ShotForm } from "~/components/field/shot-form";
 import { syncSoon } from "~/offline/autosync";
 import { fieldDb } from "~/offline/db";
 import { discardShot } from "~/offline/outbox";
@@ -52,12 +52,14 @@ export default function FieldShot({ loaderData }: Route.ComponentProps) {
       <h2 className="text-2xl font-bold">{shot.state === "rejected" ? "Fix the refused shot" : "Edit the queued shot"}</h2>
       <RefusedBox what="shot" errors={shot.errors} label={fieldLabelOf} />
       <ShotForm
+        key={shot.id}
         session={session}
         ctx={ctx}
         existing={shot}
         onSaved={() => {
           syncSoon();
-          navigate("/field/outbox");
+          // Back to the session, where the half-typed new shot waits (its draft is kept apart).
+          navigate(`/field/session/${session.id}`);
         }}
       />
       <button
@@ -66,6 +68,9 @@ export default function FieldShot({ loaderData }: Route.ComponentProps) {
         onClick={async () => {
           if (!window.confirm("Throw this shot away? It has not reached the server.")) return;
           await discardShot(shot.id);
+          try {
+            localStorage.removeItem(editDraftKey(shot.id));
+          } catch {}
           navigate(`/field/session/${session.id}`);
         }}
       >

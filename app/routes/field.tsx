@@ -12,6 +12,8 @@ import { fieldDb } from "~/offline/db";
 import { outboxCounts, saveShot, startSession } from "~/offline/outbox";
 import { readReference, refreshReference } from "~/offline/reference";
 import { previewShot } from "~/offline/preview";
+import { onReachChange } from "~/offline/reach";
+import { prepareOffline } from "~/offline/readiness";
 import { requestPersistence } from "~/offline/storage";
 import { checkShotRecord } from "~/offline/validate";
 import { clearSignInPause, syncOutbox, syncStatus } from "~/offline/sync";
@@ -46,17 +48,21 @@ export default function FieldLayout() {
       db: fieldDb(),
     };
     void (async () => {
-      // The server knows the user (this page rendered), so a stale "sign in to send" is over.
-      if (navigator.onLine) {
-        await clearSignInPause();
-        await refreshReference();
-      }
+      // The reference copy is also the first sign of the server: a 200 means it knows the user,
+      // so a stale "sign in to send" is over (navigator.onLine is no evidence either way).
+      const copied = await refreshReference();
+      if (copied.ok) await clearSignInPause();
       startAutoSync();
       void requestPersistence();
-      if ("serviceWorker" in navigator) {
-        const reg = await navigator.serviceWorker.getRegistration();
-        reg?.active?.postMessage({ type: "WARM_FIELD_PAGES" });
-      }
+      await prepareOffline({ online: copied.ok });
+      // Back in reach after a silence: copy the reference data and the screens again.
+      onReachChange((r) => {
+        if (r !== "reachable") return;
+        void refreshReference().then((again) => {
+          if (again.ok) void clearSignInPause();
+          void prepareOffline({ online: again.ok });
+        });
+      });
     })();
   }, []);
   return (

@@ -2,23 +2,38 @@
 // session, shots, a photo, reload again), everything syncs when the network returns; a big
 // outbox drains in batches with a progress bar; a failing server loses nothing; a refused
 // shot shows the server's message on its field and goes out again once fixed.
+// The network is cut for real: Chromium sends everything (the service worker's requests too)
+// through a local proxy the tests switch off (tests/support/net-proxy.ts); context.setOffline
+// would leave the worker's own network up.
 import { readFileSync, writeFileSync } from "node:fs";
 import { resolve } from "node:path";
-import { afterAll, beforeAll, expect, test } from "vitest";
+import { afterAll, beforeAll, beforeEach, expect, test } from "vitest";
 import type { Browser, BrowserContext, Page } from "playwright-core";
 import { launchBrowser, newContext, seriousA11yViolations, signInAs } from "./helpers";
 import { fieldWorld, serverShotCount, type FieldWorld } from "./field-fixtures";
+import { startNetProxy, type NetProxy } from "../support/net-proxy";
 
 let browser: Browser;
 let world: FieldWorld;
+let net: NetProxy;
 
 beforeAll(async () => {
-  browser = await launchBrowser();
+  net = await startNetProxy();
+  browser = await launchBrowser({ proxy: net });
   world = await fieldWorld("E2E");
+});
+beforeEach(() => {
+  net.setOnline(true);
 });
 afterAll(async () => {
   await browser?.close();
+  await net?.close();
 });
+
+/** Cuts (false) or restores (true) the whole network of the browser, service worker included. */
+function network(on: boolean) {
+  net.setOnline(on);
+}
 
 // 1×1 PNG.
 const PNG = Buffer.from("iVBORw0KGgoAAAANSUhEUgAAAAEAAAABCAYAAAAfFcSJAAAADUlEQVR42mNk+M9QDwADhgGAWjR9awAAAABJRU5ErkJggg==", "base64");
@@ -104,12 +119,13 @@ test("a crew logs check-shots with no signal, reloads, and everything syncs when
   await signInAs(context, "crew@e2e.test");
   const page = await openFieldOnline(context);
 
-  await context.setOffline(true);
+  network(false);
   await page.reload();
-  expect(await page.evaluate(() => navigator.onLine)).toBe(false);
+  // The browser still believes it is online; the server's silence is what counts.
+  expect(await page.evaluate(() => navigator.onLine)).toBe(true);
   expect(await page.evaluate(() => fetch("/healthz").then(() => "reached", () => "offline"))).toBe("offline");
   await page.getByRole("heading", { name: "Start session" }).waitFor();
-  expect(await page.getByText("Offline — saving on this tablet").isVisible()).toBe(true);
+  await page.getByText("Offline — saving on this tablet").waitFor();
 
   await page.getByLabel("Sensor", { exact: true }).selectOption(world.sensor.id);
   await page.getByLabel("Site", { exact: true }).selectOption(world.site.id);
@@ -160,15 +176,18 @@ test("a crew logs check-shots with no signal, reloads, and everything syncs when
   await page.getByTestId("coverage-table").waitFor();
   expect(await page.getByTestId("cell-10-30-dark").textContent()).toContain("1 of 3");
   expect(await page.getByTestId("cell-30-100-bright").textContent()).toContain("1 of 3");
-  expect(await page.getByTestId("cell-0-10-dark").textContent()).toContain("need 3 more");
-  expect(await page.getByTestId("coverage-summary").textContent()).toContain("Still missing: 8 cells and a shot in bright sun");
+  // The site's targets (12.5 m dark, 25 m grey, 40 m white) can fill only two cells: the rest are out of its reach.
+  expect(await page.getByTestId("cell-0-10-dark").textContent()).toContain("no such target at this site");
+  expect(await page.getByTestId("coverage-summary").textContent()).toContain("Still missing: 2 cells this site can fill and a shot in bright sun");
+  expect(await page.getByTestId("next-targets").textContent()).toContain("Dark board (12.5 m, 10 %): 2 more for 10–30 m dark");
+  expect(await page.getByTestId("coverage-out-of-reach").textContent()).toContain("0–10 m dark");
 
   await page.getByRole("link", { name: "Outbox", exact: true }).click();
   await page.getByTestId("outbox-summary").waitFor();
   expect(await page.getByTestId("outbox-summary").textContent()).toBe("Waiting: 1 session, 3 shots, 1 photo.");
   expect(await page.getByTestId("storage-use").textContent()).toMatch(/Used: [\d.]+ (B|KB|MB)/);
 
-  await context.setOffline(false);
+  network(true);
   await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
   expect(await outboxTotal(page)).toBe(0);
 
@@ -195,7 +214,7 @@ test("2,000 queued shots survive a reload and sync in batches of at most 500 wit
   const context = await newContext(browser);
   await signInAs(context, "crew@e2e.test");
   const page = await openFieldOnline(context);
-  await context.setOffline(true);
+  network(false);
   const sessionId = await queueShots(page, 2000);
   await page.goto("/field/outbox");
   await page.getByTestId("outbox-summary").waitFor();
@@ -214,7 +233,7 @@ test("2,000 queued shots survive a reload and sync in batches of at most 500 wit
       if (el && el.value !== w.__progress[w.__progress.length - 1]) w.__progress.push(el.value);
     }, 5);
   });
-  await context.setOffline(false);
+  network(true);
   await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 60_000 });
   const progress = await page.evaluate(() => (window as unknown as { __progress: number[] }).__progress);
   console.info("progress values seen:", progress.join(", "), "| shots per request:", batches.join(", "));
@@ -233,7 +252,7 @@ test("a server that answers 500 mid-sync loses nothing: the rest stays queued an
   const context = await newContext(browser);
   await signInAs(context, "crew@e2e.test");
   const page = await openFieldOnline(context);
-  await context.setOffline(true);
+  network(false);
   const sessionId = await queueShots(page, 1200);
   let calls = 0;
   let failing = true;
@@ -244,7 +263,7 @@ test("a server that answers 500 mid-sync loses nothing: the rest stays queued an
   });
   await page.goto("/field/outbox");
   await page.getByTestId("outbox-summary").waitFor();
-  await context.setOffline(false);
+  network(true);
   // First batch in, the second fails on every try; the run gives up and says so.
   await page.waitForFunction(() => document.body.textContent?.includes("The server answered 500"), undefined, { timeout: 60_000 });
   await page.waitForFunction(() => document.querySelector("button.btn")?.textContent === "Sync now", undefined, { timeout: 60_000 });
@@ -261,7 +280,7 @@ test("a refused shot shows the server's message on its field, and goes out again
   const context = await newContext(browser);
   await signInAs(context, "crew@e2e.test");
   const page = await openFieldOnline(context);
-  await context.setOffline(true);
+  network(false);
   // A tablet whose copy is stale: the shot names a target that belongs to another site.
   const ids = await page.evaluate(
     async ({ sensorId, siteId, stale }) => {
@@ -274,7 +293,7 @@ test("a refused shot shows the server's message on its field, and goes out again
     { sensorId: world.sensor.id, siteId: world.site.id, stale: world.other.targets[0]!.id },
   );
   await page.goto("/field/outbox");
-  await context.setOffline(false);
+  network(true);
   const refused = page.getByTestId("rejected-shot");
   await refused.waitFor({ timeout: 30_000 });
   expect(await refused.textContent()).toContain("Target: target");
@@ -289,7 +308,9 @@ test("a refused shot shows the server's message on its field, and goes out again
   expect(await page.getByLabel("Sensor range (m)").inputValue()).toBe("25.003");
   await target.selectOption(world.site.targets[1]!.id);
   await page.getByRole("button", { name: "Save and resend" }).click();
-  await page.waitForURL(/\/field\/outbox$/);
+  // Back to the session (where a half-typed new shot would wait), not the outbox.
+  await page.waitForURL(new RegExp(`/field/session/${ids.sessionId}$`));
+  await page.getByRole("link", { name: "Outbox", exact: true }).click();
   await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
   expect(await serverShotCount(ids.sessionId)).toBe(1);
   await context.close();
@@ -299,7 +320,7 @@ test("a refused session (unknown sensor) is fixed on its own screen, keeps its i
   const context = await newContext(browser, { viewport: { width: 1024, height: 1366 } });
   await signInAs(context, "crew@e2e.test");
   const page = await openFieldOnline(context);
-  await context.setOffline(true);
+  network(false);
   // A stale tablet: the session names a sensor the server's registry does not have.
   const ghost = "sensor-gone-e2e";
   const ids = await page.evaluate(
@@ -317,7 +338,7 @@ test("a refused session (unknown sensor) is fixed on its own screen, keeps its i
     { ghost, siteId: world.site.id, targets: world.site.targets.slice(0, 2).map((t) => ({ id: t.id, referenceM: t.referenceM!, reflectancePct: t.reflectancePct })) },
   );
   await page.goto("/field/outbox");
-  await context.setOffline(false);
+  network(true);
   const refused = page.getByTestId("rejected-session");
   await refused.waitFor({ timeout: 30_000 });
   const message = `sensor ${ghost} is not in the registry`;
@@ -380,7 +401,7 @@ test("an expired sign-in pauses sending with a sign-in link; after signing in, t
   const context = await newContext(browser);
   const user = await signInAs(context, "crew@e2e.test");
   const page = await openFieldOnline(context);
-  await context.setOffline(true);
+  network(false);
   const sessionId = await queueShots(page, 3);
   // The sign-in ends while the tablet is away.
   const { getDb } = await import("~/db/client.server");
@@ -388,7 +409,7 @@ test("an expired sign-in pauses sending with a sign-in link; after signing in, t
   const { eq } = await import("drizzle-orm");
   await getDb().update(authSessions).set({ revokedAt: new Date().toISOString() }).where(eq(authSessions.userId, user.id));
   await page.goto("/field/outbox");
-  await context.setOffline(false);
+  network(true);
   const link = page.getByTestId("sign-in-to-send");
   await link.waitFor({ timeout: 30_000 });
   expect(await link.getAttribute("href")).toBe("/login?redirectTo=%2Ffield%2Foutbox");

@@ -4,6 +4,7 @@ import { readFileSync } from "node:fs";
 import { createRequire } from "node:module";
 import { chromium, type Browser, type BrowserContext, type Page } from "playwright-core";
 import { inject } from "vitest";
+import type { NetProxy } from "../support/net-proxy";
 import { CHROMIUM_PATH } from "./chromium";
 
 export const baseURL = () => inject("baseURL");
@@ -18,19 +19,40 @@ export function useServerEnv() {
   process.env.NODE_ENV = "production";
 }
 
-export async function launchBrowser(): Promise<Browser> {
+const CHROMIUM_ARGS = [
+  "--no-sandbox",
+  "--disable-gpu",
+  "--disable-quic",
+  "--no-first-run",
+  "--disable-background-networking",
+  "--disable-component-update",
+  "--disable-sync",
+];
+
+/**
+ * Chromium for the browser tests. With `proxy` (tests/support/net-proxy.ts) every request —
+ * the page's and the service worker's — goes through it, so switching it off cuts the network
+ * for real (context.setOffline does not reach the worker).
+ */
+export async function launchBrowser(opts: { proxy?: NetProxy } = {}): Promise<Browser> {
   return chromium.launch({
     executablePath: CHROMIUM_PATH,
     headless: true,
-    args: [
-      "--no-sandbox",
-      "--disable-gpu",
-      "--disable-quic",
-      "--no-first-run",
-      "--disable-background-networking",
-      "--disable-component-update",
-      "--disable-sync",
-    ],
+    args: [...CHROMIUM_ARGS, ...(opts.proxy?.chromiumArgs ?? [])],
+  });
+}
+
+/**
+ * A browser with a profile on disk, as a tablet has: close it and launch again with the same
+ * `userDataDir`, and the service worker, its caches, IndexedDB and cookies are still there.
+ */
+export async function launchTablet(userDataDir: string, proxy: NetProxy, viewport = { width: 1280, height: 800 }): Promise<BrowserContext> {
+  return chromium.launchPersistentContext(userDataDir, {
+    executablePath: CHROMIUM_PATH,
+    headless: true,
+    args: [...CHROMIUM_ARGS, ...proxy.chromiumArgs],
+    baseURL: baseURL(),
+    viewport,
   });
 }
 
@@ -48,10 +70,13 @@ export async function signInAs(context: BrowserContext, email: string) {
   const [user] = await getDb().select().from(users).where(eq(users.email, email));
   if (!user) throw new Error(`No test user ${email}`);
   const { cookie } = await createAuthSession(user);
-  const [pair] = cookie.split(";");
+  const [pair, ...attrs] = cookie.split(";");
   const [name, ...rest] = pair!.split("=");
   const url = new URL(baseURL());
-  await context.addCookies([{ name: name!, value: rest.join("="), domain: url.hostname, path: "/", httpOnly: true, sameSite: "Lax" }]);
+  // Keep the server's lifetime, so the sign-in survives a browser restart as it does for a user.
+  const maxAge = attrs.map((a) => a.trim().match(/^Max-Age=(\d+)$/i)?.[1]).find(Boolean);
+  const expires = maxAge ? Math.floor(Date.now() / 1000) + Number(maxAge) : undefined;
+  await context.addCookies([{ name: name!, value: rest.join("="), domain: url.hostname, path: "/", httpOnly: true, sameSite: "Lax", ...(expires ? { expires } : {}) }]);
   return user;
 }
 

@@ -15,15 +15,30 @@ export function WithinWord({ within }: { within: boolean }) {
   );
 }
 
-export function signedMm(n: number) {
-  return `${n > 0 ? "+" : n < 0 ? "−" : ""}${fmt(Math.abs(n), 1)} mm`;
+/** "+2.0 mm", "−18,000.0 mm"; a value that rounds to zero is "0.0 mm", never "−0.0 mm". */
+export function signedMm(n: number, digits = 1) {
+  const shown = fmt(Math.abs(n), digits);
+  const zero = Number(Math.abs(n).toFixed(digits)) === 0;
+  return `${zero ? "" : n > 0 ? "+" : n < 0 ? "−" : ""}${shown} mm`;
 }
 
-export function ShotFeedback({ preview, title = "Instant check" }: { preview: ShotPreview; title?: string }) {
+export function ShotFeedback({
+  preview,
+  title = "Instant check",
+  compact = false,
+  implausible = false,
+}: {
+  preview: ShotPreview;
+  title?: string;
+  /** Two columns, for the narrow panel beside the form. */
+  compact?: boolean;
+  /** ranging.md §9: |error| over a metre, most often a unit slip. */
+  implausible?: boolean;
+}) {
   return (
     <div className="space-y-2" data-testid="shot-feedback">
       <h3 className="text-lg font-bold">{title}</h3>
-      <dl className="num grid grid-cols-2 gap-x-6 gap-y-1 text-lg sm:grid-cols-4">
+      <dl className={`num grid grid-cols-2 gap-x-6 gap-y-1 text-lg ${compact ? "" : "sm:grid-cols-4"}`}>
         <div>
           <dt className="text-sm text-muted">Range error</dt>
           <dd className="text-2xl font-bold" data-testid="error-mm">{signedMm(preview.errorMm)}</dd>
@@ -44,6 +59,12 @@ export function ShotFeedback({ preview, title = "Instant check" }: { preview: Sh
       <p className="text-xl">
         <WithinWord within={preview.within} />
       </p>
+      {implausible ? (
+        <p className="flex items-center gap-2 font-bold text-warn" data-testid="implausible">
+          <VerdictShape verdict="insufficient" size={20} />
+          Implausible: over a metre off — mm typed as m?
+        </p>
+      ) : null}
       {preview.wrap ? (
         <p className="flex items-center gap-2 font-bold text-warn" role="alert">
           <VerdictShape verdict="insufficient" size={20} />

@@ -5,7 +5,8 @@ import { OutboxError, saveShot, type ShotDraft } from "~/offline/outbox";
 import { previewShot, type PreviewContext } from "~/offline/preview";
 import type { LocalSession, LocalShot, SyncShotRecord } from "~/offline/types";
 import { checkShotRecord } from "~/offline/validate";
-import { ShotFeedback } from "./feedback";
+import { isImplausible } from "~/domain/plausibility";
+import { ShotFeedback, signedMm } from "./feedback";
 import { errorsByField } from "./field-errors";
 import { Choice, NumberField, parseList, parseNum, SelectField, fmt } from "./inputs";
 
@@ -137,7 +138,13 @@ export function toShotDraft(f: ShotFormState, sessionId: string, id?: string, ta
   };
 }
 
-const draftKey = (sessionId: string) => `shotbook-shot-draft:${sessionId}`;
+/**
+ * Where a draft waits in localStorage: the session's half-typed NEW shot under one key, the
+ * edit of a queued shot under that shot's own key, so that saving or leaving an edit never
+ * touches the new shot the crew was typing (and the other way round).
+ */
+export const draftKey = (sessionId: string) => `shotbook-shot-draft:${sessionId}`;
+export const editDraftKey = (shotId: string) => `shotbook-shot-edit-draft:${shotId}`;
 
 export function ShotForm({
   session,
@@ -158,33 +165,36 @@ export function ShotForm({
   const [saving, setSaving] = useState(false);
   const [saved, setSaved] = useState<LocalShot | null>(null);
   const [gps, setGps] = useState<string>("");
+  /** The draft (as JSON) whose implausible error the crew has been asked to confirm. */
+  const [confirming, setConfirming] = useState<string | null>(null);
   const formRef = useRef<HTMLFormElement>(null);
   const sensor = ctx.sensor;
   const site = ctx.site;
 
-  // A draft of a new shot survives a reload or a killed tab (the photo is kept only once saved).
+  // A draft survives a reload or a killed tab (the photo is kept only once saved).
+  const myDraftKey = existing ? editDraftKey(existing.id) : draftKey(session.id);
   useEffect(() => {
-    if (existing) return;
     try {
-      const raw = localStorage.getItem(draftKey(session.id));
+      const raw = localStorage.getItem(myDraftKey);
       if (raw) {
-        setF({ ...initialState(session, ctx), ...(JSON.parse(raw) as Partial<ShotFormState>) });
+        setF({ ...initialState(session, ctx, existing), ...(JSON.parse(raw) as Partial<ShotFormState>) });
         setDirty(true);
       }
     } catch {}
     // eslint-disable-next-line react-hooks/exhaustive-deps
-  }, [session.id]);
+  }, [myDraftKey]);
   useEffect(() => {
-    if (existing || !dirty) return;
+    if (!dirty) return;
     try {
-      localStorage.setItem(draftKey(session.id), JSON.stringify(f));
+      localStorage.setItem(myDraftKey, JSON.stringify(f));
     } catch {}
-  }, [f, dirty, existing, session.id]);
+  }, [f, dirty, myDraftKey]);
 
   const set = <K extends keyof ShotFormState>(k: K, v: ShotFormState[K]) => {
     setF((cur) => ({ ...cur, [k]: v }));
     setDirty(true);
     setSaved(null);
+    setConfirming(null);
   };
 
   const draft = useMemo(() => toShotDraft(f, session.id, existing?.id, existing?.record.takenAt), [f, session.id, existing]);
@@ -194,8 +204,23 @@ export function ShotForm({
     return previewShot(session.record, record, ctx);
   }, [draft, session.record, ctx, existing?.id]);
 
+  // Coordinates: the computed distance beside the surveyed one, and what the typed heights do to it.
+  const coordinates = useMemo(() => {
+    if (f.method !== "coordinates" || !live?.ok) return null;
+    const target = site?.targets.find((t) => t.id === f.targetId);
+    const base = { id: "00000000-0000-4000-8000-000000000000", takenAt: new Date().toISOString(), ...draft } as SyncShotRecord;
+    const flat = previewShot(session.record, { ...base, reference: { ...base.reference, instrumentHeightM: 0, targetHeightM: 0 } }, ctx);
+    return {
+      computedM: live.preview.referenceM,
+      surveyedM: target?.referenceM ?? null,
+      heightsMm: flat.ok ? (live.preview.referenceM - flat.preview.referenceM) * 1000 : null,
+      limitMm: live.preview.limitMm,
+    };
+  }, [f.method, f.targetId, live, site, draft, session.record, ctx]);
+
   function pickTarget(id: string) {
     const t = site?.targets.find((x) => x.id === id);
+    setConfirming(null);
     setF((cur) => ({
       ...cur,
       targetId: id,
@@ -236,10 +261,20 @@ export function ShotForm({
     });
   }
 
-  async function onSubmit(e: React.FormEvent) {
+  const implausible = live?.ok ? isImplausible(live.preview.errorMm, live.preview.referenceM) : false;
+
+  async function onSubmit(e: { preventDefault(): void }, confirmed = false) {
     e.preventDefault();
     if (saving) return;
     setSaved(null);
+    // ranging.md §9: an error over a metre at a real distance is most often a unit slip
+    // (2.0016 typed for 20.016). Ask before saving; the crew may still save it on purpose.
+    const key = JSON.stringify(draft);
+    if (implausible && !(confirmed && confirming === key)) {
+      setConfirming(key);
+      requestAnimationFrame(() => formRef.current?.querySelector<HTMLElement>("#implausible-confirm")?.focus());
+      return;
+    }
     const record = { id: existing?.id ?? "00000000-0000-4000-8000-000000000000", takenAt: new Date().toISOString(), ...draft } as SyncShotRecord;
     const local = checkShotRecord(record);
     if (local.length) {
@@ -254,8 +289,9 @@ export function ShotForm({
       setErrors({});
       setSaved(row);
       setDirty(false);
+      setConfirming(null);
       try {
-        localStorage.removeItem(draftKey(session.id));
+        localStorage.removeItem(myDraftKey);
       } catch {}
       if (!existing) {
         // Ready for the next shot: keep how the distance is measured and the light, clear the rest.
@@ -339,6 +375,8 @@ export function ShotForm({
         </p>
       ) : null}
 
+      <div className="landscape:lg:grid landscape:lg:grid-cols-[minmax(0,1fr)_23rem] landscape:lg:items-start landscape:lg:gap-6">
+      <div className="space-y-6">
       <section className="card space-y-4">
         <h2 className="text-xl font-bold">Target and reference distance</h2>
         <SelectField id="f-target" label="Target" value={f.targetId} onChange={pickTarget} options={targetOptions} placeholder="— no target from the site —" error={errors.target} optional={f.method !== "coordinates"} />
@@ -373,7 +411,31 @@ export function ShotForm({
             <SelectField id="f-station" label="Station (sensor stands on)" value={f.stationId} onChange={(v) => set("stationId", v)} options={(site?.stations ?? []).map((st) => ({ value: st.id, label: st.label }))} placeholder={site?.stations.length ? undefined : "— no stations at this site —"} error={errors.station} />
             <NumberField id="f-ih" label="Instrument height (m)" unit="m" value={f.instrumentHeightM} required onChange={(v) => set("instrumentHeightM", v)} error={errors.ih} />
             <NumberField id="f-th" label="Target height (m)" unit="m" value={f.targetHeightM} required onChange={(v) => set("targetHeightM", v)} error={errors.th} />
-            <p className="text-muted sm:col-span-3">The distance comes from the surveyed positions of the station and the target.</p>
+            <p className="text-muted sm:col-span-3">
+              The distance comes from the surveyed positions of the station and the target. The registry does not record whether a target's
+              surveyed height is its board centre: if it is, the target height here is 0.
+            </p>
+            {coordinates ? (
+              <div className="num space-y-1 sm:col-span-3" data-testid="coordinates-check">
+                <p>
+                  Computed from the coordinates: <strong>{fmt(coordinates.computedM, 4)} m</strong>
+                  {coordinates.surveyedM != null ? (
+                    <>
+                      {" "}· surveyed station-to-target distance in the registry: <strong>{fmt(coordinates.surveyedM, 4)} m</strong> (difference{" "}
+                      {signedMm((coordinates.computedM - coordinates.surveyedM) * 1000)})
+                    </>
+                  ) : (
+                    " · the registry has no surveyed distance for this target"
+                  )}
+                </p>
+                {coordinates.heightsMm != null && Math.abs(coordinates.heightsMm) > coordinates.limitMm ? (
+                  <p className="flex items-center gap-2 font-bold text-warn" role="alert" data-testid="heights-warning">
+                    The heights typed change the distance by {signedMm(coordinates.heightsMm)}, more than the ±{fmt(coordinates.limitMm, 1)} mm limit:
+                    check they are measured from the same points as the site's survey.
+                  </p>
+                ) : null}
+              </div>
+            ) : null}
           </div>
         ) : null}
         {f.method === "edm" ? (
@@ -486,25 +548,56 @@ export function ShotForm({
         </div>
       </section>
 
-      <section className="card" aria-live="polite">
-        {saved?.preview ? (
-          <ShotFeedback preview={saved.preview} title="Saved shot" />
-        ) : live?.ok ? (
-          <ShotFeedback preview={live.preview} />
-        ) : live && !live.ok ? (
-          <p className="font-bold text-warn">{live.message}</p>
-        ) : (
-          <p className="text-muted">Enter the reference distance, a sensor reading, reflectance and illuminance to see the range error here.</p>
-        )}
-      </section>
+      </div>
 
-      <div className="flex flex-wrap items-center gap-4">
-        <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={saving}>
-          {saving ? "Saving…" : existing ? "Save and resend" : "Save shot"}
-        </button>
-        <p role="status" className="text-lg font-bold" data-testid="save-status">
-          {saved ? (existing ? "Saved. It goes out with the next sync." : "Saved on this tablet. It goes out with the next sync.") : ""}
-        </p>
+      {/* The check and Save stay in view while typing: beside the readings in landscape (pinned as
+          the form scrolls), below the form in portrait. */}
+      <aside className="mt-6 space-y-4 landscape:lg:sticky landscape:lg:top-2 landscape:lg:mt-0" data-testid="shot-check-panel" aria-label="Instant check and save">
+        <section className="card" aria-live="polite">
+          {saved?.preview ? (
+            <ShotFeedback preview={saved.preview} title="Saved shot" compact />
+          ) : live?.ok ? (
+            <ShotFeedback preview={live.preview} compact implausible={implausible} />
+          ) : live && !live.ok ? (
+            <p className="font-bold text-warn">{live.message}</p>
+          ) : (
+            <p className="text-muted">Enter the reference distance, a sensor reading, reflectance and illuminance to see the range error here.</p>
+          )}
+        </section>
+
+        {confirming !== null && confirming === JSON.stringify(draft) && live?.ok ? (
+          <div id="implausible-confirm" tabIndex={-1} role="alert" className="card space-y-3 border-warn" data-testid="implausible-confirm">
+            <p className="text-lg font-bold">
+              Check the reading: the error is {signedMm(live.preview.errorMm)} ({fmt(live.preview.errorMm / 1000, 3)} m) at {fmt(live.preview.referenceM, 3)} m.
+            </p>
+            <p>Was a value typed in the wrong unit (mm typed as m?) or a digit left out? Nothing is saved yet.</p>
+            <div className="flex flex-wrap gap-3">
+              <button
+                type="button"
+                className="btn-secondary"
+                onClick={() => {
+                  setConfirming(null);
+                  formRef.current?.querySelector<HTMLElement>("#f-range-0, #f-rtt-0, #f-phase-0")?.focus();
+                }}
+              >
+                Correct the reading
+              </button>
+              <button type="button" className="btn" onClick={(e) => void onSubmit(e, true)}>
+                Save anyway
+              </button>
+            </div>
+          </div>
+        ) : null}
+
+        <div className="flex flex-wrap items-center gap-4">
+          <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={saving}>
+            {saving ? "Saving…" : existing ? "Save and resend" : "Save shot"}
+          </button>
+          <p role="status" className="text-lg font-bold" data-testid="save-status">
+            {saved ? (existing ? "Saved. It goes out with the next sync." : "Saved on this tablet. It goes out with the next sync.") : ""}
+          </p>
+        </div>
+      </aside>
       </div>
     </form>
   );

@@ -44,7 +44,7 @@ export function ShotList({ shots, site, photoShotIds }: { shots: LocalShot[]; si
                   {s.state !== "synced" ? (
                     <>
                       {" "}
-                      <Link className="underline underline-offset-4" to={`/field/session/${s.sessionId}/shot/${s.id}`}>
+                      <Link className="inline-flex min-h-11 min-w-11 items-center justify-center px-2 font-bold underline underline-offset-4" to={`/field/session/${s.sessionId}/shot/${s.id}`}>
                         {s.state === "rejected" ? "Fix" : "Edit"}
                       </Link>
                     </>

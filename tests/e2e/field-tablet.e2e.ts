@@ -1,0 +1,417 @@
+// The tablet as a new crew member meets it (issue 12), in real Chromium with the network cut
+// for real (every request, the service worker's included, goes through a local proxy the test
+// switches off: tests/support/net-proxy.ts): ready offline from a quick first visit, a draft
+// kept across an edit, the instant check in view at 1280×800, a discarded session that never
+// reaches the server, and the "mm typed as m?" confirmation.
+import { mkdtempSync, rmSync } from "node:fs";
+import { tmpdir } from "node:os";
+import { join } from "node:path";
+import { afterAll, beforeAll, beforeEach, expect, test } from "vitest";
+import type { Browser, BrowserContext, Locator, Page } from "playwright-core";
+import { launchBrowser, launchTablet, newContext, signInAs, useServerEnv } from "./helpers";
+import { fieldWorld, serverShotCount, type FieldWorld } from "./field-fixtures";
+import { startNetProxy, type NetProxy } from "../support/net-proxy";
+
+let browser: Browser;
+let world: FieldWorld;
+let net: NetProxy;
+
+beforeAll(async () => {
+  net = await startNetProxy();
+  browser = await launchBrowser({ proxy: net });
+  world = await fieldWorld("Tablet");
+});
+beforeEach(() => {
+  net.setOnline(true);
+});
+afterAll(async () => {
+  await browser?.close();
+  await net?.close();
+});
+
+function watch(page: Page) {
+  page.on("pageerror", (e) => console.warn("pageerror:", e.message));
+  if (process.env.DEBUG_FIELD) {
+    page.on("response", (r) => r.status() >= 400 && console.warn("response", r.status(), r.url()));
+    page.on("console", (m) => console.warn("console", m.type(), m.text()));
+  }
+}
+
+/** Opens /field online and waits for the header's own "Ready to work offline" (nothing hidden). */
+async function openReady(context: BrowserContext): Promise<Page> {
+  const page = await context.newPage();
+  watch(page);
+  await page.goto("/field");
+  await page.locator('[data-testid="offline-ready"][data-ready="true"]').waitFor({ timeout: 30_000 });
+  return page;
+}
+
+async function startSessionUi(page: Page) {
+  await page.getByLabel("Sensor", { exact: true }).selectOption(world.sensor.id);
+  await page.getByLabel("Site", { exact: true }).selectOption(world.site.id);
+  await page.getByLabel("Air temperature (°C)").fill("16");
+  await page.getByRole("button", { name: "Start session" }).click();
+  await page.waitForURL(/\/field\/session\/[0-9a-f-]{36}$/);
+  return page.url().split("/").pop()!;
+}
+
+/** Waits for an empty outbox; on a timeout, says what the tablet thought (reach, sync status). */
+async function drained(page: Page, timeout = 30_000) {
+  try {
+    await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout });
+  } catch (e) {
+    const st = await page.evaluate(async () => ({
+      reach: document.querySelector("[data-reach]")?.getAttribute("data-reach"),
+      summary: document.querySelector('[data-testid="outbox-summary"]')?.textContent,
+      status: await (window.shotbookField as { syncStatus(): Promise<unknown> }).syncStatus(),
+      locks: await navigator.locks.query(),
+    }));
+    throw new Error(`outbox not drained: ${JSON.stringify(st)}`, { cause: e });
+  }
+}
+
+async function queuedShotCount(page: Page, sessionId: string) {
+  return page.evaluate(async (id) => {
+    const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { count(): Promise<number> } } } } }).db;
+    return db.shots.where("sessionId").equals(id).count();
+  }, sessionId);
+}
+
+async function serverHasSession(id: string) {
+  useServerEnv();
+  const { getDb } = await import("~/db/client.server");
+  const { checkSessions } = await import("~/db/schema");
+  const { eq } = await import("drizzle-orm");
+  const rows = await getDb().select({ id: checkSessions.id }).from(checkSessions).where(eq(checkSessions.id, id));
+  return rows.length > 0;
+}
+
+async function inViewport(page: Page, locator: Locator) {
+  const box = await locator.boundingBox();
+  const vp = page.viewportSize()!;
+  expect(box, "element is laid out").not.toBeNull();
+  return { box: box!, inside: box!.y >= 0 && box!.x >= 0 && box!.y + box!.height <= vp.height && box!.x + box!.width <= vp.width };
+}
+
+test("a quick first visit is enough: signed in, Field open a few seconds, browser closed, network cut, reopened — the field screens work", async () => {
+  const dir = mkdtempSync(join(tmpdir(), "shotbook-tablet-"));
+  try {
+    let tablet = await launchTablet(dir, net);
+    const first = tablet.pages()[0] ?? (await tablet.newPage());
+    watch(first);
+    // The first page a new crew member sees is the sign-in page: the worker starts installing
+    // there, signed out. Signing in and opening Field straight away must still end "ready".
+    await first.goto("/login");
+    await signInAs(tablet, "crew@e2e.test");
+    await first.goto("/field");
+    const ready = first.getByTestId("offline-ready");
+    // Until everything is copied the header says so (the screen is honest about it).
+    await first.locator('[data-testid="offline-ready"][data-ready="true"]').waitFor({ timeout: 30_000 });
+    expect(await ready.textContent()).toMatch(/Ready to work offline · reference data copied \d{1,2} \w{3}, \d{2}:\d{2} UTC[+−]\d{2}:\d{2}/);
+    await tablet.close();
+
+    net.setOnline(false);
+    tablet = await launchTablet(dir, net);
+    const page = tablet.pages()[0] ?? (await tablet.newPage());
+    watch(page);
+    await page.goto("/field");
+    await page.getByRole("heading", { name: "Start session" }).waitFor();
+    await page.getByText("Offline — saving on this tablet").waitFor({ timeout: 15_000 });
+    expect(await page.evaluate(() => fetch("/healthz").then(() => "reached", () => "cut"))).toBe("cut");
+    expect(await page.getByTestId("offline-ready").getAttribute("data-ready")).toBe("true");
+    // The reference data is there: the sensor can be chosen, a session started, a shot saved.
+    const sessionId = await startSessionUi(page);
+    await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+    await page.getByLabel("EDM", { exact: true }).check();
+    await page.getByLabel("Sensor range (m)").fill("25.004");
+    await page.getByRole("button", { name: "Save shot" }).click();
+    await page.getByText("Saved on this tablet").waitFor();
+    await page.getByRole("link", { name: "Outbox", exact: true }).click();
+    await page.getByTestId("outbox-summary").waitFor();
+    expect(await page.getByTestId("outbox-summary").textContent()).toBe("Waiting: 1 session, 1 shot, 0 photos.");
+    expect(await serverHasSession(sessionId)).toBe(false);
+
+    // The network returns: the outbox drains by itself.
+    net.setOnline(true);
+    await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
+    expect(await serverShotCount(sessionId)).toBe(1);
+    await tablet.close();
+  } finally {
+    rmSync(dir, { recursive: true, force: true, maxRetries: 10, retryDelay: 200 });
+  }
+}, 120_000);
+
+test("editing a queued shot keeps the half-typed new shot, and saving the edit goes back to the session", async () => {
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  net.setOnline(false);
+  const sessionId = await startSessionUi(page);
+  const target = page.getByRole("combobox", { name: /^Target/ });
+  await target.selectOption(world.site.targets[0]!.id);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Sensor range (m)").fill("12.503");
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
+
+  // Half of the next shot typed…
+  await target.selectOption(world.site.targets[2]!.id);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Sensor range (m)").fill("40.0");
+  await page.getByLabel("Note").fill("white board, second try");
+  // …then the crew spots a slip in the first one and edits it.
+  await page.getByTestId("shot-row").first().getByRole("link", { name: "Edit" }).click();
+  await page.waitForURL(new RegExp(`/field/session/${sessionId}/shot/[0-9a-f-]{36}$`));
+  await page.getByRole("heading", { name: "Edit the queued shot" }).waitFor();
+  expect(await page.getByLabel("Sensor range (m)").inputValue()).toBe("12.503");
+  await page.getByLabel("Sensor range (m)").fill("12.507");
+  await page.getByRole("button", { name: "Save and resend" }).click();
+  await page.waitForURL(new RegExp(`/field/session/${sessionId}$`));
+  await page.getByRole("heading", { name: /^Shots in this session/ }).waitFor();
+
+  // The new shot's fields are as the crew left them, and the edit is saved.
+  await expect.poll(() => page.getByLabel("Note").inputValue()).toBe("white board, second try");
+  expect(await page.getByRole("combobox", { name: /^Target/ }).inputValue()).toBe(world.site.targets[2]!.id);
+  expect(await page.getByLabel("Sensor range (m)").inputValue()).toBe("40.0");
+  const ranges = await page.evaluate(async (id) => {
+    const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { toArray(): Promise<{ record: { readings: { rangesM: number[] } } }[]> } } } } }).db;
+    return (await db.shots.where("sessionId").equals(id).toArray()).map((s) => s.record.readings.rangesM[0]);
+  }, sessionId);
+  expect(ranges).toEqual([12.507]);
+  // And it survives a reload too.
+  await page.reload();
+  await expect.poll(() => page.getByLabel("Note").inputValue()).toBe("white board, second try");
+  await context.close();
+});
+
+test("at 1280×800 landscape the instant check and Save stay in view while typing the reading; portrait stays one column", async () => {
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  await startSessionUi(page);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  // The steel tape method (the longest reference section) pushes the readings furthest down.
+  await page.getByLabel("Steel tape", { exact: true }).check();
+  await page.getByLabel("Tape temperature (°C)").fill("16");
+  const range = page.getByLabel("Sensor range (m)");
+  // Typed key by key, as on the tablet (the browser keeps the caret in view).
+  await range.click();
+  await range.pressSequentially("25.031");
+  await page.getByTestId("error-mm").waitFor();
+  const wanted = {
+    "the reading being typed": range,
+    "the range error": page.getByTestId("error-mm"),
+    "the limit": page.getByTestId("limit-mm"),
+    "within or outside": page.getByTestId("shot-feedback").locator("[data-within]"),
+    "the Save button": page.getByRole("button", { name: "Save shot" }),
+  };
+  for (const [what, loc] of Object.entries(wanted)) {
+    const r = await inViewport(page, loc);
+    expect(r.inside, `${what} at ${JSON.stringify(r.box)} is inside 1280×800`).toBe(true);
+  }
+  // Side by side: the check panel is to the right of the readings.
+  const readingsBox = (await range.boundingBox())!;
+  const panelBox = (await page.getByTestId("shot-check-panel").boundingBox())!;
+  expect(panelBox.x).toBeGreaterThan(readingsBox.x + readingsBox.width);
+
+  await page.setViewportSize({ width: 800, height: 1280 });
+  const portraitPanel = (await page.getByTestId("shot-check-panel").boundingBox())!;
+  const portraitRange = (await range.boundingBox())!;
+  // One column: the panel sits below the form, starting at the same left edge as the cards.
+  expect(portraitPanel.y).toBeGreaterThan(portraitRange.y);
+  expect(portraitPanel.width).toBeGreaterThan(600);
+  await context.close();
+});
+
+test("a session started with the wrong sensor is discarded with its shots and never reaches the server", async () => {
+  const context = await newContext(browser);
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  net.setOnline(false);
+  const wrong = await startSessionUi(page);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Sensor range (m)").fill("25.002");
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
+  expect(await queuedShotCount(page, wrong)).toBe(1);
+
+  const asked: string[] = [];
+  page.once("dialog", (d) => {
+    asked.push(d.message());
+    void d.accept();
+  });
+  await page.getByRole("button", { name: "Discard this session" }).click();
+  await page.waitForURL(/\/field$/);
+  expect(asked[0]).toContain("and its 1 shot?");
+  expect(await queuedShotCount(page, wrong)).toBe(0);
+
+  // The right session, kept: it goes out; the discarded one never does.
+  const right = await startSessionUi(page);
+  net.setOnline(true);
+  await page.getByRole("link", { name: "Outbox", exact: true }).click();
+  await drained(page);
+  expect(await serverHasSession(right)).toBe(true);
+  expect(await serverHasSession(wrong)).toBe(false);
+  expect(await serverShotCount(wrong)).toBe(0);
+  await context.close();
+});
+
+test("a queued session is corrected from its own page, and 'End session' sums it up", async () => {
+  const context = await newContext(browser);
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  net.setOnline(false);
+  const id = await startSessionUi(page);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[0]!.id);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Sensor range (m)").fill("12.503");
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
+  await page.getByRole("link", { name: "Correct session details" }).click();
+  await page.waitForURL(new RegExp(`/field/session/${id}/fix$`));
+  await page.getByLabel("Pressure (hPa)").fill("1002");
+  await page.getByRole("button", { name: "Save changes" }).click();
+  await page.waitForURL(new RegExp(`/field/session/${id}$`));
+  await expect.poll(() => page.locator("main").textContent()).toContain("1002 hPa");
+
+  await page.getByRole("button", { name: "End session" }).click();
+  const summary = page.getByTestId("end-summary");
+  await summary.waitFor();
+  // 12.503 m against 12.5 m: +3 mm, inside ±2·(5 mm + 10 ppm·12.5 m) = ±10.25 mm (ranging.md §4).
+  expect(await summary.textContent()).toContain("1 shot: 1 within the limit, 0 outside");
+  expect(await page.getByTestId("end-lacks").textContent()).toContain("10–30 m dark: 2 more");
+  await context.close();
+});
+
+test("2.0016 typed for 20.016 is caught before saving: confirm or correct", async () => {
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  net.setOnline(false);
+  const id = await startSessionUi(page);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Reflectance (%)").fill("50");
+  await page.getByLabel("Reference distance (m)").fill("20.016");
+  await page.getByLabel("Sensor range (m)").fill("2.0016");
+  // The instant check flags it while typing…
+  await page.getByTestId("implausible").waitFor();
+  expect(await page.getByTestId("implausible").textContent()).toContain("mm typed as m?");
+  await page.getByRole("button", { name: "Save shot" }).click();
+  // …and Save asks first; nothing is written until the crew answers.
+  const ask = page.getByTestId("implausible-confirm");
+  await ask.waitFor();
+  expect(await ask.textContent()).toContain("−18,014.4 mm");
+  expect(await queuedShotCount(page, id)).toBe(0);
+  await ask.getByRole("button", { name: "Correct the reading" }).click();
+  expect(await page.evaluate(() => document.activeElement?.id)).toBe("f-range-0");
+  await page.getByLabel("Sensor range (m)").fill("20.0161");
+  expect(await page.getByTestId("implausible").count()).toBe(0);
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
+  expect(await queuedShotCount(page, id)).toBe(1);
+
+  // A real 18 m miss can still be saved on purpose.
+  await page.getByLabel("Reflectance (%)").fill("50");
+  await page.getByLabel("Reference distance (m)").fill("20.016");
+  await page.getByLabel("Sensor range (m)").fill("2.0016");
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByTestId("implausible-confirm").getByRole("button", { name: "Save anyway" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
+  expect(await queuedShotCount(page, id)).toBe(2);
+  await context.close();
+});
+
+/** Interactive elements smaller than 44 × 44 CSS px (a radio counts by its label). */
+async function smallTargets(page: Page) {
+  return page.evaluate(() => {
+    const out: string[] = [];
+    const sel = "header a, header button, main a, main button, main select, main input, main textarea, [data-testid=field-status] a";
+    for (const el of Array.from(document.querySelectorAll<HTMLElement>(sel))) {
+      const target = el instanceof HTMLInputElement && (el.type === "radio" || el.type === "checkbox") ? (el.closest("label") ?? el) : el;
+      const r = target.getBoundingClientRect();
+      if (r.width === 0 || r.height === 0 || getComputedStyle(target).visibility === "hidden") continue;
+      if (r.height < 44 - 0.5 || r.width < 44 - 0.5) out.push(`${target.tagName.toLowerCase()} "${(target.textContent ?? "").trim().slice(0, 40)}" ${Math.round(r.width)}×${Math.round(r.height)}`);
+    }
+    return out;
+  });
+}
+
+test("every field screen, landscape and portrait, daylight and dark: screenshots, and no touch target under 44 px", async () => {
+  const dir = process.env.FIELD_SHOTS_DIR ?? join(tmpdir(), "shotbook-field-shots");
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  // The server is up but cannot take records (503): everything stays queued, so the edit and
+  // fix screens have something to show, and the outbox its retry message.
+  await context.route("**/api/sync", (r) => r.fulfill({ status: 503, contentType: "application/json", body: '{"error":"maintenance"}' }));
+  const id = await startSessionUi(page);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[0]!.id);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Sensor range (m)").fill("12.503");
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
+  const shotId = await page.evaluate(async (sid) => {
+    const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { first(): Promise<{ id: string }> } } } } }).db;
+    return (await db.shots.where("sessionId").equals(sid).first()).id;
+  }, id);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByLabel("Sensor range (m)").fill("25.031");
+
+  const screens: [string, string, string][] = [
+    ["start", "/field", "Start session"],
+    ["session", `/field/session/${id}`, "Shots in this session"],
+    ["coverage", `/field/session/${id}/coverage`, "Coverage checklist"],
+    ["shot-edit", `/field/session/${id}/shot/${shotId}`, "Edit the queued shot"],
+    ["session-fix", `/field/session/${id}/fix`, "Correct the session's details"],
+    ["outbox", "/field/outbox", "Outbox"],
+  ];
+  const small: string[] = [];
+  for (const theme of ["light", "dark"] as const) {
+    if (theme === "dark") {
+      await page.goto("/field");
+      await page.getByRole("button", { name: "Switch to dark theme" }).click();
+      await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
+    }
+    for (const [w, h] of [[1280, 800], [800, 1280]] as const) {
+      await page.setViewportSize({ width: w, height: h });
+      for (const [name, url, heading] of screens) {
+        await page.goto(url);
+        await page.getByRole("heading", { name: heading }).first().waitFor();
+        await page.waitForTimeout(300);
+        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`) });
+        for (const s of await smallTargets(page)) small.push(`${name} ${w}×${h}: ${s}`);
+      }
+      await page.goto(`/field/session/${id}`);
+      await page.getByRole("button", { name: "End session" }).click();
+      await page.getByTestId("end-summary").waitFor();
+      await page.screenshot({ path: join(dir, `end-summary-${w}x${h}-${theme}.png`) });
+    }
+  }
+  console.info(`field screenshots in ${dir}`);
+  expect([...new Set(small)]).toEqual([]);
+  await context.close();
+}, 180_000);
+
+test("coordinates: the computed distance stands beside the surveyed one, and heights that move it past the limit are flagged", async () => {
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "crew@e2e.test");
+  const page = await openReady(context);
+  await startSessionUi(page);
+  await page.getByLabel("Coordinates", { exact: true }).check();
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByLabel("Instrument height (m)").fill("0");
+  await page.getByLabel("Target height (m)").fill("0");
+  await page.getByLabel("Reflectance (%)").fill("50");
+  await page.getByLabel("Sensor range (m)").fill("25.002");
+  const check = page.getByTestId("coordinates-check");
+  await check.waitFor();
+  // Station (1000, 2000, 50) to target (1000, 2025, 50): 25 m, as surveyed.
+  expect(await check.textContent()).toContain("Computed from the coordinates: 25.0000 m · surveyed station-to-target distance in the registry: 25.0000 m (difference 0.0 mm)");
+  expect(await page.getByTestId("heights-warning").count()).toBe(0);
+  // 1.5 m of instrument height: √(25² + 1.5²) − 25 = 44.96 mm, past the ±10.5 mm limit (5 mm + 10 ppm·25 m, k = 2).
+  await page.getByLabel("Instrument height (m)").fill("1.5");
+  await page.getByTestId("heights-warning").waitFor();
+  expect(await page.getByTestId("heights-warning").textContent()).toContain("change the distance by +45.0 mm");
+  await context.close();
+});
