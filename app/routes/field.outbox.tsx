@@ -119,6 +119,7 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
   const queuedPhotos = data.photos.filter((p) => p.state === "queued");
   const nothing = data.sessions.length + data.shots.length + data.photos.length === 0;
   const refusedTotal = rejectedSessions.length + rejectedShots.length + rejectedPhotos.length;
+  const stuckTotal = stuckSessions.length + stuckShots.length;
   const running = Boolean(status?.running);
 
   return (
@@ -130,6 +131,7 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
           {nothing
             ? "Nothing waiting: everything saved on this tablet is on the server."
             : `Waiting: ${count(queuedSessions.length, "session")}, ${count(queuedShots.length, "shot")}, ${count(queuedPhotos.length, "photo")}.`}
+          {stuckTotal ? ` Set aside, the server fails on them: ${[stuckSessions.length ? count(stuckSessions.length, "session") : "", stuckShots.length ? count(stuckShots.length, "shot") : ""].filter(Boolean).join(", ")}.` : ""}
           {refusedTotal ? ` Refused, to fix: ${[rejectedSessions.length ? count(rejectedSessions.length, "session") : "", rejectedShots.length ? count(rejectedShots.length, "shot") : "", rejectedPhotos.length ? count(rejectedPhotos.length, "photo") : ""].filter(Boolean).join(", ")}.` : ""}
         </p>
         <div className="flex flex-wrap items-center gap-4">

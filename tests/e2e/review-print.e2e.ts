@@ -172,7 +172,9 @@ test("the printed report numbers its pages, keeps the matrix and the verdict's r
     // the first page holds the header, the verdict with its reasons and the four tests
     expect(pages[0]).toMatch(/Range verification report/);
     expect(pages[0]).toMatch(/Verdict/);
-    expect(pages[0]).toMatch(/Shot count/);
+    // the accuracy statement (ranging.md §7) leads, then the rule and its tests start on page 1
+    expect(pages[0]).toMatch(/Acceptance rule and tests/);
+    expect(pages.join("\n")).toMatch(/Shot count/);
     const all = pages.join("\n");
     expect(all).toMatch(/Bias by reflectance × illuminance/);
     if (name === "wrap") expect(all.replace(/\s+/g, " ")).toMatch(/1 shot flagged wrap \(−29\s?953 mm\) drives the bias/);

@@ -88,7 +88,7 @@ test("a shot the server fails on is set aside with the server's message; every o
   await context.setOffline(false);
 
   await page.getByTestId("stuck-shot").waitFor({ timeout: 60_000 });
-  await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent === "Waiting: 0 sessions, 1 shot, 0 photos.", undefined, { timeout: 60_000 });
+  await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent === "Waiting: 0 sessions, 0 shots, 0 photos. Set aside, the server fails on them: 1 shot.", undefined, { timeout: 60_000 });
   console.info("records per request:", sent.join(", "));
   expect(await serverShotCount(sessionId)).toBe(11);
   const card = page.getByTestId("stuck-shot");
