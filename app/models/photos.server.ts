@@ -2,8 +2,10 @@
 // a size limit (PHOTO_MAX_BYTES), a SHA-256 checksum, files in the object store under
 // "photos/" (DATA_DIR/photos by default; STORAGE_URL for one store shared by every instance).
 // The same shot and checksum again is the same photo (the outbox may resend after a dropped answer).
-import { createHash } from "node:crypto";
+import { createReadStream } from "node:fs";
+import { open } from "node:fs/promises";
 import { resolve } from "node:path";
+import { Readable } from "node:stream";
 import { and, asc, eq } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { photos, shots } from "~/db/schema";
@@ -44,28 +46,44 @@ export function photoMaxBytes() {
   return getEnv().PHOTO_MAX_BYTES;
 }
 
-export async function savePhoto(actor: Actor, shotId: unknown, file: unknown, db: Db = getDb()): Promise<Answer> {
+/** The photo as received: a temporary file on disk (see receiveMultipart), its size and checksum. */
+export type ReceivedPhoto = { path: string; bytes: number; sha256: string; type: string };
+
+async function firstBytes(path: string, n: number) {
+  const fh = await open(path, "r");
+  try {
+    const buf = new Uint8Array(n);
+    const { bytesRead } = await fh.read(buf, 0, n, 0);
+    return buf.subarray(0, bytesRead);
+  } finally {
+    await fh.close();
+  }
+}
+
+/**
+ * Checks and stores one received photo. The file stays where receiveMultipart wrote it (the
+ * caller removes that folder); it is read from disk, never held whole in memory.
+ */
+export async function savePhoto(actor: Actor, shotId: unknown, file: ReceivedPhoto | null | undefined, db: Db = getDb()): Promise<Answer> {
   const errors: { path: string; message: string }[] = [];
   if (typeof shotId !== "string" || !shotId) errors.push({ path: "shotId", message: "shotId is required" });
-  if (!(file instanceof File) && !(file instanceof Blob)) errors.push({ path: "file", message: "file is required (a photo as multipart form data)" });
-  if (errors.length) return { status: 400, body: { error: "Send multipart form data with shotId and file.", errors } };
-  const blob = file as Blob;
+  if (!file) errors.push({ path: "file", message: "file is required (a photo as multipart form data)" });
+  if (errors.length || !file) return { status: 400, body: { error: "Send multipart form data with shotId and file.", errors } };
   const max = photoMaxBytes();
-  if (blob.size > max) return { status: 413, body: { error: `The photo is larger than ${max} bytes.` } };
-  if (blob.size === 0) return { status: 400, body: { error: "The photo is empty.", errors: [{ path: "file", message: "the file is empty" }] } };
-  const declared = blob.type;
+  if (file.bytes > max) return { status: 413, body: { error: `The photo is larger than ${max} bytes.` } };
+  if (file.bytes === 0) return { status: 400, body: { error: "The photo is empty.", errors: [{ path: "file", message: "the file is empty" }] } };
+  // busboy names a part with no Content-Type "text/plain": that is no declaration, the bytes decide
+  const declared = file.type === "text/plain" ? "" : file.type;
   if (declared && !declared.startsWith("image/") && declared !== "application/octet-stream") {
     return { status: 415, body: { error: `Only images are accepted (the file says ${declared}).` } };
   }
-  const kind = sniffImageType(new Uint8Array(await blob.slice(0, 16).arrayBuffer()));
+  const kind = sniffImageType(await firstBytes(file.path, 16));
   if (!kind) return { status: 415, body: { error: "Only JPEG, PNG, WebP, HEIC or AVIF images are accepted; this file's content is none of them." } };
 
   const [shot] = await db.select({ id: shots.id }).from(shots).where(eq(shots.id, shotId as string));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId as string}: sync the shot before its photo.` } };
 
-  const hash = createHash("sha256");
-  for await (const part of blob.stream() as unknown as AsyncIterable<Uint8Array>) hash.update(part);
-  const sha256 = hash.digest("hex");
+  const sha256 = file.sha256;
   const same = () => db.select(cols).from(photos).where(and(eq(photos.shotId, shot.id), eq(photos.sha256, sha256)));
   const [existing] = await same();
   if (existing) return { status: 200, body: { photo: toJson(existing) } };
@@ -74,11 +92,11 @@ export async function savePhoto(actor: Actor, shotId: unknown, file: unknown, db
   const name = `${id}.${kind.ext}`;
   const store = getStore();
   // the file first, then its row: a row never points at a file that is not there
-  await store.put(photoKey(name), blob.stream(), { contentType: kind.type, bytes: blob.size });
+  await store.put(photoKey(name), Readable.toWeb(createReadStream(file.path)) as ReadableStream<Uint8Array>, { contentType: kind.type, bytes: file.bytes });
   try {
     const [row] = await db
       .insert(photos)
-      .values({ id, shotId: shot.id, contentType: kind.type, bytes: blob.size, sha256, path: name, uploadedBy: actor.id })
+      .values({ id, shotId: shot.id, contentType: kind.type, bytes: file.bytes, sha256, path: name, uploadedBy: actor.id })
       .returning(cols);
     return { status: 201, body: { photo: toJson(row!) } };
   } catch (e) {

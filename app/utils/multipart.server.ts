@@ -9,32 +9,78 @@ import { join } from "node:path";
 import { Readable } from "node:stream";
 import busboy from "busboy";
 
-export type UploadedFile = { field: string; filename: string; path: string; bytes: number; sha256: string };
+/** `type` is the part's declared Content-Type (busboy says "text/plain" when the part gives none). */
+export type UploadedFile = { field: string; filename: string; path: string; bytes: number; sha256: string; type: string };
 export type Multipart = { fields: Map<string, string>; files: UploadedFile[]; dir: string };
-export type MultipartError = { status: 400 | 413; error: string };
+/** `limit` says which cap a 413 passed: the files' bytes, or the whole body with its framing. */
+export type MultipartError = { status: 400 | 413; error: string; limit?: "files" | "body" };
 
 /** Room for the boundaries and the small text fields around the files. */
 const OVERHEAD = 256 * 1024;
 
-export class UploadTooLarge extends Error {}
+export class UploadTooLarge extends Error {
+  constructor(
+    message: string,
+    readonly limit: "files" | "body",
+  ) {
+    super(message);
+  }
+}
+
+/**
+ * The body as pulled, at most `limit` bytes: past it the source is cancelled and the stream
+ * errors. Counted here, before any buffering, so a body with no part boundary (which busboy
+ * would skip as preamble for ever) is stopped too, one chunk past the cap at most.
+ */
+function capped(body: ReadableStream<Uint8Array>, limit: number, message: string): ReadableStream<Uint8Array> {
+  const reader = body.getReader();
+  let total = 0;
+  return new ReadableStream<Uint8Array>(
+    {
+      async pull(controller) {
+        const { done, value } = await reader.read();
+        if (done) return controller.close();
+        total += value.byteLength;
+        if (total > limit) {
+          await reader.cancel().catch(() => undefined);
+          controller.error(new UploadTooLarge(message, "body"));
+          return;
+        }
+        controller.enqueue(value);
+      },
+      cancel(reason) {
+        return reader.cancel(reason);
+      },
+    },
+    { highWaterMark: 0 },
+  );
+}
+
+const closed = (s: import("node:fs").WriteStream) => (s.closed ? Promise.resolve() : new Promise<void>((r) => s.once("close", () => r())));
 
 /**
  * Parses a multipart request, files to a fresh temporary folder (remove it with `discard`).
- * `maxBytes` caps the files together; text fields are capped at 64 KB each.
+ * `maxBytes` caps the files together; text fields are capped at 64 KB each. `maxBodyBytes`
+ * (default `maxBytes` + 256 KB) caps the whole body, framing included, by its declared length
+ * before reading and by the bytes pulled while streaming.
  */
-export async function receiveMultipart(request: Request, opts: { maxBytes: number; maxFiles: number }): Promise<Multipart | MultipartError> {
+export async function receiveMultipart(request: Request, opts: { maxBytes: number; maxFiles: number; maxBodyBytes?: number }): Promise<Multipart | MultipartError> {
   const type = request.headers.get("Content-Type") ?? "";
   if (!type.toLowerCase().startsWith("multipart/form-data")) return { status: 400, error: "Send multipart/form-data." };
+  const bodyCap = opts.maxBodyBytes ?? opts.maxBytes + OVERHEAD;
+  const tooLarge = `The upload is larger than ${Math.round(opts.maxBytes / 1048576)} MB.`;
   const declared = Number(request.headers.get("Content-Length") ?? NaN);
-  if (Number.isFinite(declared) && declared > opts.maxBytes + OVERHEAD) {
-    return { status: 413, error: `The upload is larger than ${Math.round(opts.maxBytes / 1048576)} MB.` };
+  if (Number.isFinite(declared) && declared > bodyCap) {
+    await request.body?.cancel().catch(() => undefined);
+    return { status: 413, error: tooLarge, limit: "body" };
   }
   if (!request.body) return { status: 400, error: "The request has no body." };
   const dir = await mkdtemp(join(tmpdir(), "shotbook-upload-"));
   const fields = new Map<string, string>();
   const files: UploadedFile[] = [];
+  const outs: import("node:fs").WriteStream[] = [];
   let total = 0;
-  const source = Readable.fromWeb(request.body as import("node:stream/web").ReadableStream<Uint8Array>);
+  const source = Readable.fromWeb(capped(request.body, bodyCap, tooLarge) as import("node:stream/web").ReadableStream<Uint8Array>);
   try {
     await new Promise<void>((resolve, reject) => {
       let bb: busboy.Busboy;
@@ -52,6 +98,8 @@ export async function receiveMultipart(request: Request, opts: { maxBytes: numbe
         failed = true;
         source.unpipe(bb);
         source.destroy();
+        // no half-written file left open once the request is refused
+        for (const o of outs) o.destroy();
         reject(e);
       };
       bb.on("field", (name, value) => fields.set(name, value));
@@ -60,6 +108,7 @@ export async function receiveMultipart(request: Request, opts: { maxBytes: numbe
         const path = join(dir, `${count++}.bin`);
         const hash = createHash("sha256");
         const out = createWriteStream(path);
+        outs.push(out);
         let bytes = 0;
         stream.on("data", (chunk: Buffer) => {
           bytes += chunk.length;
@@ -67,21 +116,22 @@ export async function receiveMultipart(request: Request, opts: { maxBytes: numbe
           if (total > opts.maxBytes) {
             stream.resume();
             out.destroy();
-            fail(new UploadTooLarge(`The upload is larger than ${Math.round(opts.maxBytes / 1048576)} MB.`));
+            fail(new UploadTooLarge(tooLarge, "files"));
             return;
           }
           hash.update(chunk);
         });
-        pending.push(
-          new Promise<void>((res, rej) => {
-            out.on("finish", () => {
-              files.push({ field, filename: info.filename ?? "", path, bytes, sha256: hash.digest("hex") });
-              res();
-            });
-            out.on("error", rej);
-            stream.on("error", rej);
-          }),
-        );
+        const done = new Promise<void>((res, rej) => {
+          out.on("finish", () => {
+            files.push({ field, filename: info.filename ?? "", path, bytes, sha256: hash.digest("hex"), type: info.mimeType ?? "" });
+            res();
+          });
+          out.on("error", rej);
+          stream.on("error", rej);
+        });
+        // a refused request never awaits its parts: their errors are the refusal's, not unhandled
+        done.catch(() => undefined);
+        pending.push(done);
         stream.pipe(out);
       });
       bb.on("error", (e) => fail(e instanceof Error ? e : new Error(String(e))));
@@ -92,8 +142,9 @@ export async function receiveMultipart(request: Request, opts: { maxBytes: numbe
       source.pipe(bb);
     });
   } catch (e) {
+    await Promise.all(outs.map(closed));
     await rm(dir, { recursive: true, force: true });
-    if (e instanceof UploadTooLarge) return { status: 413, error: e.message };
+    if (e instanceof UploadTooLarge) return { status: 413, error: e.message, limit: e.limit };
     return { status: 400, error: e instanceof Error ? e.message : "The multipart body cannot be read." };
   }
   // keep the files in the order they came
