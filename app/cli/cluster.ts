@@ -150,6 +150,10 @@ try {
   s3 = fake;
   const storageUrl = `s3://shotbook?endpoint=http://127.0.0.1:${s3Port}&forcePathStyle=true`;
 
+  // one secret for both app instances (a session cookie made by one is good on the other); set
+  // here too because the app modules read the environment once and refuse a weak production secret
+  const secret = randomBytes(48).toString("base64");
+  process.env.SESSION_SECRET = secret;
   // migrate and seed through the primary; app modules read the environment once, so only now
   process.env.DATABASE_URL = primaryUrl;
   delete process.env.DATABASE_AUTH_TOKEN;
@@ -185,7 +189,6 @@ try {
   const mailDir = resolve(dir, "mail");
   smtp = await startFakeSmtp({ port: smtpPort, mailDir, host: "127.0.0.1" });
 
-  const secret = randomBytes(32).toString("hex");
   const apps = [
     { name: "app A (primary)", port: appPorts[0]!, db: primaryUrl, dataDir: resolve(dir, "app-a") },
     { name: "app B (replica)", port: appPorts[1]!, db: replicaUrl, dataDir: resolve(dir, "app-b") },
