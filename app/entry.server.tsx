@@ -8,12 +8,16 @@ import { isbot } from "isbot";
 import type { RenderToPipeableStreamOptions } from "react-dom/server";
 import { renderToPipeableStream } from "react-dom/server";
 import { getEnv } from "~/env.server";
+import { ensureCertificateTimer } from "~/models/certificates.server";
 import { NonceContext } from "~/components/nonce";
 import { nonceContext } from "~/http/security.server";
 
 // Validate the environment when the server bundle loads, so a production server with a
 // missing or published SESSION_SECRET refuses to start instead of serving forgeable sessions.
 getEnv();
+// The certificate due-date mail (ranging.md §7) is checked at server start and every few hours;
+// started here, not on import, so command-line tools that load the models start no timer.
+ensureCertificateTimer();
 
 // app/cli/serve.ts sets the socket address under this key (it must be this module graph's key).
 export { clientAddressContext } from "~/http/client-address.server";

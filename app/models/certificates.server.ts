@@ -75,11 +75,3 @@ export function ensureCertificateTimer() {
   holder.__shotbookCertificateTimer = timer;
   setTimeout(run, 5_000).unref?.();
 }
-
-// The server bundle loads every route module (and so this one) at boot: the check starts with
-// the server.
-try {
-  ensureCertificateTimer();
-} catch {
-  // An invalid environment is reported by the first getEnv() caller that needs it.
-}

@@ -18,8 +18,6 @@ import {
 } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForEdm } from "~/models/shots.server";
-// the certificate due-date check starts with the server bundle, which loads this module at boot
-import "~/models/certificates.server";
 
 export type EdmRow = typeof edms.$inferSelect;
 
