@@ -118,6 +118,18 @@ export const projectSites = sqliteTable(
   (t) => [primaryKey({ columns: [t.projectId, t.siteId] })],
 );
 
+/** Who may see and work on a project's records (issue 14). Admins see every project without a row. */
+export const projectMembers = sqliteTable(
+  "project_members",
+  {
+    projectId: text("project_id").notNull().references(() => projects.id),
+    userId: text("user_id").notNull().references(() => users.id),
+    addedBy: text("added_by").references(() => users.id),
+    addedAt: createdAt(),
+  },
+  (t) => [primaryKey({ columns: [t.projectId, t.userId] }), index("project_members_user").on(t.userId)],
+);
+
 export const sensors = sqliteTable("sensors", {
   id: id(),
   label: text("label").notNull(),

@@ -6,7 +6,8 @@ import { apiTokens, authSessions, ROLES, users, type Role } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import { sendTemplateMail } from "~/mail/mailer.server";
 
-export type Actor = { id: string; role: Role; name?: string; email?: string };
+export type { Actor } from "./actor";
+import type { Actor } from "./actor";
 
 export function normalizeEmail(email: string) {
   return email.trim().toLowerCase();
