@@ -13,7 +13,8 @@ export { mean, sampleSd, rmse, quantileType7, quantileType7Sorted, median, mad, 
 export type { OlsFit } from "./stats.ts";
 export { tQuantile, chiSquareQuantile, normalQuantile, incompleteBeta, incompleteGamma, logGamma } from "./quantiles.ts";
 export { computeShot, toleranceMm, isWrap, checkSensor, checkRule } from "./shot.ts";
-export { sensorReport, zeroOffsetTest, verdictFailures, inPeriod, sortedAbsDeviations, NSSDA_FACTOR, OUTLIER_K, MAD_TO_SIGMA } from "./report.ts";
+export { sensorReport, reportFromAggregates, reportRows, aggregateShots, orderStatistics, illuminanceIndex, reflectanceIndex, zeroOffsetTest, verdictFailures, inPeriod, sortedAbsDeviations, NSSDA_FACTOR, OUTLIER_K, MAD_TO_SIGMA } from "./report.ts";
+export type { ReportGroup, ReportAggregates } from "./report.ts";
 export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, siteCoverageCells, COVERAGE_NEED } from "./coverage.ts";
 export type { SiteTarget, SiteCell } from "./coverage.ts";
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";

@@ -7,7 +7,7 @@
 // reference test and the zero-offset t test.
 import { DomainError } from "./errors.ts";
 import { chiSquareQuantile, tQuantile } from "./quantiles.ts";
-import { olsFit, quantileType7Sorted } from "./stats.ts";
+import { quantileType7Sorted, type OlsFit } from "./stats.ts";
 import { BRIGHT_SUN_KLUX, coverageFromCounts, rangeBandIndex, rangeBandLabels } from "./coverage.ts";
 import { checkRule, checkSensor, isWrap, toleranceMm } from "./shot.ts";
 import { airState } from "./air.ts";
@@ -21,8 +21,10 @@ import type {
   ReflectanceClass,
   ReportShot,
   ReportShotRow,
+  Rule,
   SensorReport,
   SensorReportInput,
+  SensorSpec,
   ShotFlag,
 } from "./types.ts";
 
@@ -31,35 +33,6 @@ export const NSSDA_FACTOR = 1.96;
 /** Outlier when |e − median| > OUTLIER_K · 1.4826 · MAD. */
 export const OUTLIER_K = 3;
 export const MAD_TO_SIGMA = 1.4826;
-
-/** Running figures of a band: sums shifted by the band's first value (keeps the SD accurate). */
-class Acc {
-  n = 0;
-  k = 0;
-  s1 = 0;
-  s2 = 0;
-  sq = 0;
-  within = 0;
-  add(e: number, w: boolean): void {
-    if (this.n++ === 0) this.k = e;
-    const d = e - this.k;
-    this.s1 += d;
-    this.s2 += d * d;
-    this.sq += e * e;
-    if (w) this.within++;
-  }
-  stats<B extends string>(band: B): BandStats<B> {
-    const n = this.n;
-    return {
-      band,
-      n,
-      biasMm: n ? this.k + this.s1 / n : null,
-      sdMm: n > 1 ? Math.sqrt(Math.max(0, this.s2 - (this.s1 * this.s1) / n) / (n - 1)) : null,
-      rmseMm: n ? Math.sqrt(this.sq / n) : null,
-      withinPct: n ? (100 * this.within) / n : null,
-    };
-  }
-}
 
 const REFLECTANCE: ReflectanceClass[] = ["dark", "mid", "bright", "retro"];
 const ILLUMINANCE: IlluminanceBand[] = ["low", "moderate", "high"];
@@ -136,118 +109,226 @@ export function zeroOffsetTest(fit: { intercept: number; interceptSe: number } |
   return { zeroOffsetT: t, zeroOffsetSignificant: Math.abs(t) > tQuantile(0.975, n - 2) };
 }
 
-type Session = { id: string; startedAt: string; t: number; n: number; sumE: number; sumD: number };
+/**
+ * The shots of a selection that share a session, exclusion, reflectance class, illuminance band
+ * and range band, summed (issue 16: the server sums these in SQL, the tablet and tests in JS;
+ * both then go through reportFromAggregates). Sums of e and D are shifted by the selection's
+ * kE and kD (values taken from the data), which keeps SD, Sxx and Sxy accurate from one pass.
+ */
+export type ReportGroup = {
+  sessionId: string;
+  sessionStartedAt: string;
+  excluded: boolean;
+  /** 0 dark, 1 mid, 2 bright, 3 retro (ranging.md §5). */
+  reflectance: number;
+  /** 0 low, 1 moderate, 2 high; −1 when the shot has no illuminance. */
+  illuminance: number;
+  /** Index of the range band of D (rangeBandIndex); −1 below the first edge. */
+  rangeBand: number;
+  n: number;
+  /** Shots with |e| ≤ k · T(D). */
+  within: number;
+  /** Σ(e − kE), Σ(e − kE)², Σe² */
+  s1: number;
+  s2: number;
+  sq: number;
+  /** Σ(D − kD), Σ(D − kD)², Σ(D − kD)(e − kE), ΣD */
+  d1: number;
+  d2: number;
+  de: number;
+  sumD: number;
+  /** Σu_ref² over shots with a known u_ref, and the count of those without (ranging.md §7). */
+  sumU2: number;
+  unknownU: number;
+  maxAbs: number;
+  /** Any shot at ≥ BRIGHT_SUN_KLUX. */
+  sun: boolean;
+  airDefaulted: boolean;
+};
 
-export function sensorReport(input: SensorReportInput): SensorReport {
-  const { sensor, rule } = input;
-  checkSensor(sensor);
-  checkRule(rule);
-  const shots = input.shots;
-  if (!Array.isArray(shots)) throw new DomainError("shots", "not_list", "shots must be a list");
-  const N = shots.length;
+/** A selection summed by groups, with the included errors in ascending order (exact order statistics). */
+export type ReportAggregates = { kE: number; kD: number; groups: ReportGroup[]; sortedErrors: Float64Array };
+
+export type ReportAggregatesInput = { sensor: SensorSpec; rule: Rule; aggregates: ReportAggregates; lastSignedOffBiasMm?: number | null };
+
+/** Illuminance band index of ranging.md §5 (low < 10 klux, moderate 10 to < 50, high ≥ 50); −1 without a value. */
+export const illuminanceIndex = (lx: number | null | undefined): number => (lx == null ? -1 : lx < 10 ? 0 : lx < 50 ? 1 : 2);
+/** Reflectance class index (dark < 20 %, mid 20–60 % inclusive, bright > 60 %, retro when marked). */
+export const reflectanceIndex = (pct: number, retro: boolean): number => (retro ? 3 : pct < 20 ? 0 : pct <= 60 ? 1 : 2);
+
+/** Sums the shots by group, in JS (the server does the same in SQL). Checks every shot. */
+export function aggregateShots(shots: readonly ReportShot[], sensor: SensorSpec, rule: Rule): ReportAggregates {
   const a = sensor.toleranceMm;
   const b = sensor.tolerancePpm;
   const k = rule.coverageK;
   const edges = rule.rangeBandEdgesM;
-  const labels = rangeBandLabels(edges);
+  let kE = 0;
+  let kD = 0;
+  let first = true;
+  const e = new Float64Array(shots.length);
+  let n = 0;
+  const groups = new Map<string, ReportGroup>();
+  for (let i = 0; i < shots.length; i++) {
+    const s = shots[i];
+    checkShot(s, i);
+    if (!s.excluded && first) {
+      kE = s.errorMm;
+      kD = s.referenceM;
+      first = false;
+    }
+  }
+  for (let i = 0; i < shots.length; i++) {
+    const s = shots[i];
+    const lim = k * (a + (b * s.referenceM) / 1000);
+    const rc = reflectanceIndex(s.reflectancePct, s.retro);
+    const lb = illuminanceIndex(s.illuminanceKlux);
+    const rb = rangeBandIndex(s.referenceM, edges);
+    const key = `${s.sessionId}\u0000${s.excluded ? 1 : 0}|${rc}|${lb}|${rb}`;
+    let g = groups.get(key);
+    if (!g) {
+      g = { sessionId: s.sessionId, sessionStartedAt: s.sessionStartedAt, excluded: !!s.excluded, reflectance: rc, illuminance: lb, rangeBand: rb, n: 0, within: 0, s1: 0, s2: 0, sq: 0, d1: 0, d2: 0, de: 0, sumD: 0, sumU2: 0, unknownU: 0, maxAbs: 0, sun: false, airDefaulted: false };
+      groups.set(key, g);
+    }
+    g.n++;
+    if (s.excluded) continue;
+    const err = s.errorMm;
+    e[n++] = err;
+    if (Math.abs(err) <= lim) g.within++;
+    const x = err - kE;
+    const y = s.referenceM - kD;
+    g.s1 += x;
+    g.s2 += x * x;
+    g.sq += err * err;
+    g.d1 += y;
+    g.d2 += y * y;
+    g.de += x * y;
+    g.sumD += s.referenceM;
+    const u = s.referenceUncertaintyMm;
+    if (typeof u === "number" && Number.isFinite(u) && u >= 0) g.sumU2 += u * u;
+    else g.unknownU++;
+    const ae = Math.abs(err);
+    if (ae > g.maxAbs) g.maxAbs = ae;
+    if (s.illuminanceKlux != null && s.illuminanceKlux >= BRIGHT_SUN_KLUX) g.sun = true;
+    if (s.airDefaulted) g.airDefaulted = true;
+  }
+  return { kE, kD, groups: [...groups.values()], sortedErrors: e.subarray(0, n).sort() };
+}
 
-  const e = new Float64Array(N); // included errors (first n used)
-  const d = new Float64Array(N); // included reference distances
-  const limits = new Float64Array(N);
-  const withinAll = new Uint8Array(N);
-  const refl = REFLECTANCE.map(() => new Acc());
-  const illu = ILLUMINANCE.map(() => new Acc());
-  const range = labels.map(() => new Acc());
-  const below = new Acc();
+/** Median, MAD and the 95th percentile of |e| (type 7) from the included errors in ascending order. */
+export function orderStatistics(sorted: Float64Array): { median: number; mad: number; p95Abs: number } | null {
+  if (!sorted.length) return null;
+  const median = quantileType7Sorted(sorted, 0.5);
+  return {
+    median,
+    mad: quantileType7Sorted(sortedAbsDeviations(sorted, median), 0.5),
+    p95Abs: quantileType7Sorted(sortedAbsDeviations(sorted, 0), 0.95),
+  };
+}
+
+type Session = { id: string; startedAt: string; t: number; n: number; s1: number; sumD: number };
+
+/** A band's figures from its groups (the sums shifted by kE). */
+function bandStats<B extends string>(band: B, gs: readonly ReportGroup[], kE: number): BandStats<B> {
+  let n = 0, s1 = 0, s2 = 0, sq = 0, within = 0;
+  for (const g of gs) {
+    n += g.n;
+    s1 += g.s1;
+    s2 += g.s2;
+    sq += g.sq;
+    within += g.within;
+  }
+  return {
+    band,
+    n,
+    biasMm: n ? kE + s1 / n : null,
+    sdMm: n > 1 ? Math.sqrt(Math.max(0, s2 - (s1 * s1) / n) / (n - 1)) : null,
+    rmseMm: n ? Math.sqrt(sq / n) : null,
+    withinPct: n ? (100 * within) / n : null,
+  };
+}
+
+/** Ordinary least squares e = δ + κ·D from shifted sums (the same figures as olsFit over the shots). */
+function olsFromSums(n: number, kD: number, kE: number, d1: number, d2: number, s1: number, s2: number, de: number): OlsFit | null {
+  if (n < 3) return null;
+  const mx = kD + d1 / n;
+  const my = kE + s1 / n;
+  const sxx = d2 - (d1 * d1) / n;
+  const sxy = de - (d1 * s1) / n;
+  const syy = Math.max(0, s2 - (s1 * s1) / n);
+  const scale = Math.max(1, Math.abs(mx));
+  if (!(sxx > 1e-24 * scale * scale * n)) return null;
+  const slope = sxy / sxx;
+  const intercept = my - slope * mx;
+  const sse = Math.max(0, syy - slope * sxy);
+  const s2r = sse / (n - 2);
+  const slopeSe = Math.sqrt(s2r / sxx);
+  const interceptSe = Math.sqrt(s2r * (1 / n + (mx * mx) / sxx));
+  const rSquared = syy > 0 ? Math.max(0, Math.min(1, 1 - sse / syy)) : null;
+  return { intercept, slope, interceptSe, slopeSe, rSquared, n };
+}
+
+/**
+ * The report of ranging.md §5–7 from a selection's group sums and sorted errors, without the
+ * per-shot rows (`shots` is empty; reportRows makes them). Also gives the outlier rule's median
+ * and cut, which the rows need.
+ */
+export function reportFromAggregates(input: ReportAggregatesInput): SensorReport & { outlier: { median: number; cut: number } | null } {
+  const { sensor, rule } = input;
+  checkSensor(sensor);
+  checkRule(rule);
+  const { kE, kD, groups, sortedErrors } = input.aggregates;
+  const a = sensor.toleranceMm;
+  const edges = rule.rangeBandEdgesM;
+  const labels = rangeBandLabels(edges);
   const sessions = new Map<string, Session>();
-  let lastSes: Session | null = null;
   const covDark = new Int32Array(labels.length);
   const covBright = new Int32Array(labels.length);
   let sun = false;
-  let n = 0;
-  let excluded = 0;
-  let sumD = 0;
-  let withinCount = 0;
-  let maxAbs = 0;
-  let sumU2 = 0; // Σ u_ref² over included shots (ranging.md §7)
-  let unknownU = 0;
-
-  for (let i = 0; i < N; i++) {
-    const s = shots[i];
-    checkShot(s, i);
-    const lim = k * (a + (b * s.referenceM) / 1000);
-    limits[i] = lim;
-    const w = Math.abs(s.errorMm) <= lim;
-    withinAll[i] = w ? 1 : 0;
-    if (s.excluded) {
-      excluded++;
+  let n = 0, excluded = 0, sumD = 0, withinCount = 0, maxAbs = 0, sumU2 = 0, unknownU = 0;
+  let s1 = 0, s2 = 0, sq = 0, d1 = 0, d2 = 0, de = 0;
+  const included: ReportGroup[] = [];
+  for (const g of groups) {
+    if (g.excluded) {
+      excluded += g.n;
       continue;
     }
-    const err = s.errorMm;
-    const u = s.referenceUncertaintyMm;
-    if (typeof u === "number" && Number.isFinite(u) && u >= 0) sumU2 += u * u;
-    else unknownU++;
-    e[n] = err;
-    d[n] = s.referenceM;
-    n++;
-    sumD += s.referenceM;
-    if (w) withinCount++;
-    const ae = Math.abs(err);
-    if (ae > maxAbs) maxAbs = ae;
-    const rc = s.retro ? 3 : s.reflectancePct < 20 ? 0 : s.reflectancePct <= 60 ? 1 : 2;
-    refl[rc].add(err, w);
-    const lx = s.illuminanceKlux;
-    if (lx != null) {
-      illu[lx < 10 ? 0 : lx < 50 ? 1 : 2].add(err, w);
-      if (lx >= BRIGHT_SUN_KLUX) sun = true;
+    if (!g.n) continue;
+    included.push(g);
+    n += g.n;
+    sumD += g.sumD;
+    withinCount += g.within;
+    if (g.maxAbs > maxAbs) maxAbs = g.maxAbs;
+    sumU2 += g.sumU2;
+    unknownU += g.unknownU;
+    s1 += g.s1;
+    s2 += g.s2;
+    sq += g.sq;
+    d1 += g.d1;
+    d2 += g.d2;
+    de += g.de;
+    if (g.sun) sun = true;
+    if (g.rangeBand >= 0) {
+      if (g.reflectance === 0) covDark[g.rangeBand] += g.n;
+      else if (g.reflectance === 2) covBright[g.rangeBand] += g.n;
     }
-    const rb = rangeBandIndex(s.referenceM, edges);
-    if (rb < 0) below.add(err, w);
-    else {
-      range[rb].add(err, w);
-      if (rc === 0) covDark[rb]++;
-      else if (rc === 2) covBright[rb]++;
-    }
-    let ses: Session | undefined = lastSes !== null && lastSes.id === s.sessionId ? lastSes : sessions.get(s.sessionId);
-    if (!ses) {
-      const t = Date.parse(s.sessionStartedAt);
-      ses = { id: s.sessionId, startedAt: s.sessionStartedAt, t, n: 0, sumE: 0, sumD: 0 };
-      sessions.set(s.sessionId, ses);
-    }
-    lastSes = ses;
-    ses.n++;
-    ses.sumE += err;
-    ses.sumD += s.referenceM;
+    let ses = sessions.get(g.sessionId);
+    if (!ses) sessions.set(g.sessionId, (ses = { id: g.sessionId, startedAt: g.sessionStartedAt, t: Date.parse(g.sessionStartedAt), n: 0, s1: 0, sumD: 0 }));
+    ses.n += g.n;
+    ses.s1 += g.s1;
+    ses.sumD += g.sumD;
   }
+  if (sortedErrors.length !== n) throw new DomainError("aggregates", "length_mismatch", `the sorted errors (${sortedErrors.length}) are not the included shots (${n})`);
 
-  const ei = e.subarray(0, n);
-  const di = d.subarray(0, n);
   let biasMm: number | null = null;
   let sdMm: number | null = null;
   let rmseMm: number | null = null;
-  let p95AbsMm: number | null = null;
-  let med = 0;
-  let madv = 0;
+  const order = orderStatistics(sortedErrors);
   if (n > 0) {
-    let s1 = 0;
-    let sq = 0;
-    for (let i = 0; i < n; i++) {
-      s1 += ei[i];
-      sq += ei[i] * ei[i];
-    }
-    biasMm = s1 / n;
+    biasMm = kE + s1 / n;
     rmseMm = Math.sqrt(sq / n);
-    if (n > 1) {
-      let ss = 0;
-      for (let i = 0; i < n; i++) ss += (ei[i] - biasMm) ** 2;
-      sdMm = Math.sqrt(ss / (n - 1));
-    }
-    const sorted = Float64Array.from(ei).sort(); // the one sort
-    med = quantileType7Sorted(sorted, 0.5);
-    madv = quantileType7Sorted(sortedAbsDeviations(sorted, med), 0.5);
-    const abs = sortedAbsDeviations(sorted, 0);
-    p95AbsMm = quantileType7Sorted(abs, 0.95);
+    if (n > 1) sdMm = Math.sqrt(Math.max(0, s2 - (s1 * s1) / n) / (n - 1));
   }
+  const p95AbsMm = order ? order.p95Abs : null;
   const withinPct = n ? (100 * withinCount) / n : null;
   const biasCi95Mm: [number, number] | null =
     n > 1 && biasMm != null && sdMm != null
@@ -256,7 +337,7 @@ export function sensorReport(input: SensorReportInput): SensorReport {
           return [biasMm - h, biasMm + h] as [number, number];
         })()
       : null;
-  const fit = n >= 3 ? olsFit(di, ei, "shots") : null;
+  const fit = olsFromSums(n, kD, kE, d1, d2, s1, s2, de);
 
   // acceptance tests
   const dMean = n ? sumD / n : 0;
@@ -279,50 +360,26 @@ export function sensorReport(input: SensorReportInput): SensorReport {
   let verdict: SensorReport["verdict"] = !tests[0].pass ? "insufficient" : core.length === 0 ? "pass" : "fail";
   if (verdict === "pass" && failed.includes("reference")) verdict = "insufficient";
 
-  // wrap: as computed with the shot, or again here against the sensor's (combined) interval in
-  // default air (the index changes R_u by ~0.03 %, far below any limit's use here)
-  const ruMm =
-    sensor.kind === "cw" && sensor.modulationHz && sensor.modulationHz.length > 0
-      ? unambiguousIntervalM(sensor.modulationHz, airState({}, sensor.wavelengthNm).n) * 1000
-      : null;
-
-  // rows with flags
-  const outlierCut = OUTLIER_K * MAD_TO_SIGMA * madv;
-  const rows: ReportShotRow[] = new Array(N);
-  for (let i = 0; i < N; i++) {
-    const s = shots[i];
-    const outlier = n > 0 && Math.abs(s.errorMm - med) > outlierCut;
-    const wrap = s.wrap || (ruMm != null && isWrap(s.errorMm, limits[i], ruMm));
-    const flags: ShotFlag[] = outlier ? (wrap ? ["outlier", "wrap"] : ["outlier"]) : wrap ? ["wrap"] : [];
-    rows[i] = {
-      id: s.id,
-      takenAt: s.takenAt,
-      sessionId: s.sessionId,
-      referenceM: s.referenceM,
-      rangeM: s.rangeM,
-      errorMm: s.errorMm,
-      limitMm: limits[i],
-      within: withinAll[i] === 1,
-      repeatabilityMm: s.repeatabilityMm ?? null,
-      excluded: !!s.excluded,
-      flags,
-    };
-  }
-
   // drift
   const last = input.lastSignedOffBiasMm;
   const drift: DriftEntry[] = [...sessions.values()]
     .sort((x, y) => (Number.isNaN(x.t) || Number.isNaN(y.t) || x.t === y.t ? (x.startedAt < y.startedAt ? -1 : x.startedAt > y.startedAt ? 1 : x.id < y.id ? -1 : x.id > y.id ? 1 : 0) : x.t - y.t))
     .map((s) => {
-      const bias = s.sumE / s.n;
+      const bias = kE + s.s1 / s.n;
       const tol = toleranceMm(sensor, s.sumD / s.n);
       return { sessionId: s.id, startedAt: s.startedAt, n: s.n, biasMm: bias, flag: last != null && Number.isFinite(last) && Math.abs(bias - last) > tol };
     });
 
   const byRange: BandStats<string>[] = [];
-  if (below.n) byRange.push(below.stats(`<${edges[0]}`));
-  range.forEach((acc, i) => acc.n && byRange.push(acc.stats(labels[i])));
+  const below = included.filter((g) => g.rangeBand < 0);
+  if (below.length) byRange.push(bandStats(`<${edges[0]}`, below, kE));
+  labels.forEach((label, i) => {
+    const gs = included.filter((g) => g.rangeBand === i);
+    if (gs.length) byRange.push(bandStats(label, gs, kE));
+  });
   const cov = coverageFromCounts(sensor, labels, covDark, covBright, sun);
+  const bands = <B extends string>(names: readonly B[], of: (g: ReportGroup) => number) =>
+    names.map((c, i) => bandStats(c, included.filter((g) => of(g) === i), kE)).filter((x) => x.n > 0);
 
   return {
     n,
@@ -348,11 +405,61 @@ export function sensorReport(input: SensorReportInput): SensorReport {
     tests,
     verdict,
     failed,
-    byReflectance: REFLECTANCE.map((c, i) => refl[i].stats(c)).filter((x) => x.n > 0),
-    byIlluminance: ILLUMINANCE.map((c, i) => illu[i].stats(c)).filter((x) => x.n > 0),
+    byReflectance: bands(REFLECTANCE, (g) => g.reflectance),
+    byIlluminance: bands(ILLUMINANCE, (g) => g.illuminance),
     byRange,
     coverage: { complete: cov.complete, missing: cov.missing, needsBrightSun: cov.needsBrightSun },
     drift,
-    shots: rows,
+    shots: [],
+    outlier: order ? { median: order.median, cut: OUTLIER_K * MAD_TO_SIGMA * order.mad } : null,
   };
+}
+
+/**
+ * The per-shot rows of the report (limit, within, outlier and wrap flags) for shots in the
+ * order given; `outlier` is the median and cut over the selection's included shots.
+ */
+export function reportRows(shots: readonly ReportShot[], sensor: SensorSpec, rule: Rule, outlier: { median: number; cut: number } | null): ReportShotRow[] {
+  const a = sensor.toleranceMm;
+  const b = sensor.tolerancePpm;
+  const k = rule.coverageK;
+  // wrap: as computed with the shot, or again here against the sensor's (combined) interval in
+  // default air (the index changes R_u by ~0.03 %, far below any limit's use here)
+  const ruMm =
+    sensor.kind === "cw" && sensor.modulationHz && sensor.modulationHz.length > 0
+      ? unambiguousIntervalM(sensor.modulationHz, airState({}, sensor.wavelengthNm).n) * 1000
+      : null;
+  const rows: ReportShotRow[] = new Array(shots.length);
+  for (let i = 0; i < shots.length; i++) {
+    const s = shots[i];
+    const lim = k * (a + (b * s.referenceM) / 1000);
+    const isOutlier = outlier != null && Math.abs(s.errorMm - outlier.median) > outlier.cut;
+    const wrap = s.wrap || (ruMm != null && isWrap(s.errorMm, lim, ruMm));
+    const flags: ShotFlag[] = isOutlier ? (wrap ? ["outlier", "wrap"] : ["outlier"]) : wrap ? ["wrap"] : [];
+    rows[i] = {
+      id: s.id,
+      takenAt: s.takenAt,
+      sessionId: s.sessionId,
+      referenceM: s.referenceM,
+      rangeM: s.rangeM,
+      errorMm: s.errorMm,
+      limitMm: lim,
+      within: Math.abs(s.errorMm) <= lim,
+      repeatabilityMm: s.repeatabilityMm ?? null,
+      excluded: !!s.excluded,
+      flags,
+    };
+  }
+  return rows;
+}
+
+/** The whole report over the shots themselves (the tablet, and the server's per-shot rows). */
+export function sensorReport(input: SensorReportInput): SensorReport {
+  const { sensor, rule } = input;
+  checkSensor(sensor);
+  checkRule(rule);
+  const shots = input.shots;
+  if (!Array.isArray(shots)) throw new DomainError("shots", "not_list", "shots must be a list");
+  const { outlier, ...r } = reportFromAggregates({ sensor, rule, aggregates: aggregateShots(shots, sensor, rule), lastSignedOffBiasMm: input.lastSignedOffBiasMm });
+  return { ...r, shots: reportRows(shots, sensor, rule, outlier) };
 }
