@@ -1,24 +1,33 @@
-// Sensor reports (api.md GET /api/sensors/:sensorId/report) and the sensor overview: the stored
-// computed shots of a selection through the domain's sensorReport, with the rule of the chosen
-// project (it recomputes each shot's limit and within with that rule's coverage factor).
+// Sensor reports (api.md GET /api/sensors/:sensorId/report) and the sensor overview.
 //
-// Speed: a sensor's report rows (all its shots) are kept in this process, and so are the
-// computed report and its JSON bytes per query. Every request first reads a fingerprint of
-// everything a report depends on, in one read transaction (see readState): the sensor row
-// itself, the rule's project row, the last approved sign-off's bias, and of the sensor's shots
-// their count and rowids (index only), their exclusions (rows are never deleted; a restore
-// fills restored_at) and the recomputation marks recomputeWhere writes with its updates. A
-// cached copy is used only when its fingerprint is the one just read, so several app
-// instances on one database never serve each other's stale figures. Shots appended since
-// (a sync) and changed exclusions are patched in without reloading the rest.
-import { and, asc, desc, eq, gt, inArray, isNull, sql, type SQL } from "drizzle-orm";
+// issue 16: the figures come from the database, not from every shot read into this process:
+// one grouped query sums the selection's shots per (session, exclusion, reflectance class,
+// illuminance band, range band) and one read of the index (sensor_id, excluded, error_mm)
+// gives the included errors already in ascending order, so the median, MAD and P95|e| stay
+// exact order statistics without a sort; app/domain's reportFromAggregates turns both into the
+// report. The per-shot rows are read only when asked for (`?include=shots`, the CSV export and
+// the screens that list shots). A computed report without rows is small, so it is kept per
+// query while a fingerprint of everything it depends on (read first, a few index seeks) is
+// unchanged; several app instances on one database never serve each other's stale figures.
+// See docs/decisions/0001-report-read-path.md.
+//
+// Scoping (api.md v1.1): a non-admin reads only the shots of sessions of their projects
+// (scopeOf); a sensor in none of their projects answers 404 as if unknown.
+import { and, asc, desc, eq, exists, inArray, isNull, or, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, checkSessions, edms, exclusions, projects, projectSensors, sensors, shots, signOffs, tapes, targets } from "~/db/schema";
-import { DEFAULT_RULE, inPeriod, pastDueOn, sensorReport, type ReportShot, type Rule, type SensorReport } from "~/domain";
-import { periodDay, periodWhere, RECOMPUTE_ACTION, RULE_COLUMNS, ruleOf, sensorSpecOf, type Actor, type QueryError } from "./shots.server";
+import { BRIGHT_SUN_KLUX } from "~/domain/coverage";
+import { DEFAULT_RULE, pastDueOn, reportFromAggregates, reportRows, aggregateShots, type ReportGroup, type ReportShot, type ReportShotRow, type Rule, type SensorReport } from "~/domain";
+import type { Actor } from "./actor";
+import { scopeOf } from "./scope.server";
+import { periodDay, periodWhere, RECOMPUTE_ACTION, RULE_COLUMNS, ruleOf, sensorSpecOf, type QueryError } from "./shots.server";
 import type { RecordError } from "./sync-schemas";
 
-export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; projectId?: string };
+/** `includeShots`: the per-shot rows of api.md v1.1 (`?include=shots`). */
+export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; projectId?: string; includeShots?: boolean };
+
+/** Which sessions' shots a reader may see: null = all (admins), else those of these projects. */
+export type ProjectFilter = string[] | null;
 
 /** issue 15: a certificate behind the report and the sessions it was past due on (ranging.md §7). */
 export type TraceabilityEntry = { kind: "sensor" | "tape" | "edm"; id: string; label: string; number: string | null; laboratory: string | null; issued: string | null; due: string | null; expiredOnSessions: string[] };
@@ -40,6 +49,9 @@ export type SensorReportJson = {
   ruleProjectId: string | null;
 } & Omit<SensorReport, "failed"> & { airDefaulted: string[]; traceability: TraceabilityEntry[] };
 
+/** The report without its per-shot rows: what GET …/report answers unless `include=shots`. */
+export type SensorReportSummaryJson = Omit<SensorReportJson, "shots">;
+
 export type SensorSummary = {
   id: string;
   label: string;
@@ -51,7 +63,7 @@ export type SensorSummary = {
   lastShotAt: string | null;
 };
 
-/** from, to (YYYY-MM-DD), session (repeatable), project of GET …/report and …/report.csv. */
+/** from, to (YYYY-MM-DD), session (repeatable), project, include of GET …/report and …/report.csv. */
 export function parseReportQuery(params: URLSearchParams): ReportQuery | QueryError {
   const errors: RecordError[] = [];
   const out: ReportQuery = {};
@@ -66,6 +78,10 @@ export function parseReportQuery(params: URLSearchParams): ReportQuery | QueryEr
   if (sessions.length) out.sessionIds = sessions;
   const project = params.get("project");
   if (project) out.projectId = project;
+  for (const inc of params.getAll("include").flatMap((v) => v.split(",")).filter(Boolean)) {
+    if (inc === "shots") out.includeShots = true;
+    else errors.push({ path: "include", message: `include may only be "shots" (got "${inc}")` });
+  }
   return errors.length ? { status: 400, body: { error: "Invalid query.", errors } } : out;
 }
 
@@ -89,8 +105,20 @@ const reportColumns = {
   referenceUncertaintyMm: shots.referenceUncertaintyMm,
 };
 
+/** The selection's conditions on shots: the sensor, the period, the sessions and the reader's projects. */
+function selectionWhere(db: Db, sensorId: string, q: ReportQuery, projectIds: ProjectFilter): SQL[] {
+  const where = [eq(shots.sensorId, sensorId), ...periodWhere(q.from, q.to)];
+  if (q.sessionIds?.length) where.push(inArray(shots.sessionId, q.sessionIds));
+  if (projectIds) {
+    where.push(
+      projectIds.length ? inArray(shots.sessionId, db.select({ id: checkSessions.id }).from(checkSessions).where(inArray(checkSessions.projectId, projectIds))) : sql`0`,
+    );
+  }
+  return where;
+}
+
 // ---------------------------------------------------------------------------------------------
-// Loading the rows: one query, one text value per column.
+// The per-shot rows (only when asked for): one query, one text value per column.
 
 /**
  * %!.17g writes each double with 17 significant digits so it reads back bit for bit (SQLite's
@@ -227,20 +255,6 @@ function inTimeOrder(list: ReportShot[]): ReportShot[] {
   return list;
 }
 
-/** Two lists in (takenAt, id) order → one. */
-function mergeInOrder(a: ReportShot[], b: ReportShot[]): ReportShot[] {
-  if (!b.length) return a;
-  if (!a.length) return b;
-  const out: ReportShot[] = new Array(a.length + b.length);
-  let i = 0;
-  let j = 0;
-  let k = 0;
-  while (i < a.length && j < b.length) out[k++] = byTimeThenId(a[i]!, b[j]!) <= 0 ? a[i++]! : b[j++]!;
-  while (i < a.length) out[k++] = a[i++]!;
-  while (j < b.length) out[k++] = b[j++]!;
-  return out;
-}
-
 function plainQuery(db: Db, where: SQL[]) {
   return db
     .select({ ...reportColumns, note: shots.note, targetLabel: targets.label })
@@ -251,15 +265,9 @@ function plainQuery(db: Db, where: SQL[]) {
     .orderBy(asc(shots.takenAt), asc(shots.id));
 }
 
-function selectionWhere(sensorId: string, q: ReportQuery): SQL[] {
-  const where = [eq(shots.sensorId, sensorId), ...periodWhere(q.from, q.to)];
-  if (q.sessionIds?.length) where.push(inArray(shots.sessionId, q.sessionIds));
-  return where;
-}
-
-/** The selection's shots, read from the database (no cache), in time order (takenAt, then id). */
-export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<LoadedShot[]> {
-  const where = selectionWhere(sensorId, q);
+/** The selection's shots, read from the database, in time order (takenAt, then id). */
+export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { details?: boolean } = {}, db: Db = getDb(), projectIds: ProjectFilter = null): Promise<LoadedShot[]> {
+  const where = selectionWhere(db, sensorId, q, projectIds);
   if (!opts.details) {
     const [ses, packed] = await db.batch([sessionsQuery(db, sensorId), packedQuery(db, where)]);
     const list = unpack(packed[0], ses);
@@ -267,6 +275,150 @@ export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { 
     // a value needed escaping (not possible for synced records): the plain query
   }
   return plainQuery(db, where);
+}
+
+// ---------------------------------------------------------------------------------------------
+// The figures: group sums and the sorted included errors, in one read transaction.
+
+/** ranging.md §5's bands as SQL, the same comparisons as app/domain's reflectanceIndex, illuminanceIndex, rangeBandIndex. */
+function bandColumns(edges: number[]) {
+  const d = shots.referenceM;
+  const rb = sql.join(
+    [sql`CASE WHEN ${d} < ${edges[0]} THEN -1`, ...edges.slice(1).map((edge, i) => sql`WHEN ${d} < ${edge} THEN ${i}`), sql`ELSE ${edges.length - 1} END`],
+    sql` `,
+  );
+  return {
+    rc: sql`CASE WHEN ${shots.retro} THEN 3 WHEN ${shots.reflectancePct} < 20 THEN 0 WHEN ${shots.reflectancePct} <= 60 THEN 1 ELSE 2 END`,
+    lb: sql`CASE WHEN ${shots.illuminanceKlux} IS NULL THEN -1 WHEN ${shots.illuminanceKlux} < 10 THEN 0 WHEN ${shots.illuminanceKlux} < 50 THEN 1 ELSE 2 END`,
+    rb,
+  };
+}
+
+type GroupRow = {
+  sessionId: string;
+  excluded: number;
+  rc: number;
+  lb: number;
+  rb: number;
+  n: number;
+  within: number | null;
+  s1: number | null;
+  s2: number | null;
+  sq: number | null;
+  d1: number | null;
+  d2: number | null;
+  de: number | null;
+  sumD: number | null;
+  sumU2: number | null;
+  unknownU: number | null;
+  maxAbs: number | null;
+  sun: number | null;
+  air: number | null;
+  kE: number | null;
+  kD: number | null;
+};
+
+/**
+ * The selection summed per group. The shifts kE, kD are the error and distance of the included
+ * shot with the smallest error (the first entry of the error index): a value of the data keeps
+ * the one-pass sums of squares accurate, and the same statement reads it, so the sums and the
+ * shifts always agree. The limit is k·(a + b·D/1000) in the same order of operations as
+ * app/domain, so `within` is decided bit for bit as there.
+ */
+function groupsQuery(db: Db, where: SQL[], sensor: { toleranceMm: number; tolerancePpm: number }, rule: Rule) {
+  const e = shots.errorMm;
+  const d = shots.referenceM;
+  const u = shots.referenceUncertaintyMm;
+  const { rc, lb, rb } = bandColumns(rule.rangeBandEdgesM);
+  const inc = and(...where, eq(shots.excluded, false));
+  const kE = sql`(SELECT ke FROM k)`;
+  const kD = sql`(SELECT kd FROM k)`;
+  const lim = sql`${rule.coverageK} * (${sensor.toleranceMm} + ${sensor.tolerancePpm} * ${d} / 1000)`;
+  return db.all<GroupRow>(sql`
+    WITH k AS (SELECT ${e} AS ke, ${d} AS kd FROM ${shots} WHERE ${inc} ORDER BY ${e} LIMIT 1)
+    SELECT ${shots.sessionId} AS sessionId, ${shots.excluded} AS excluded, ${rc} AS rc, ${lb} AS lb, ${rb} AS rb,
+      count(*) AS n,
+      sum(abs(${e}) <= ${lim}) AS within,
+      sum(${e} - ${kE}) AS s1, sum((${e} - ${kE}) * (${e} - ${kE})) AS s2, sum(${e} * ${e}) AS sq,
+      sum(${d} - ${kD}) AS d1, sum((${d} - ${kD}) * (${d} - ${kD})) AS d2, sum((${d} - ${kD}) * (${e} - ${kE})) AS de,
+      sum(${d}) AS sumD,
+      sum(CASE WHEN ${u} >= 0 AND ${u} <= 1.7976931348623157e308 THEN ${u} * ${u} ELSE 0 END) AS sumU2,
+      sum(NOT (${u} >= 0 AND ${u} <= 1.7976931348623157e308) OR ${u} IS NULL) AS unknownU,
+      max(abs(${e})) AS maxAbs,
+      max(${shots.illuminanceKlux} >= ${BRIGHT_SUN_KLUX}) AS sun,
+      max(${shots.airDefaulted}) AS air,
+      ${kE} AS kE, ${kD} AS kD
+    FROM ${shots} WHERE ${and(...where)}
+    GROUP BY 1, 2, 3, 4, 5`);
+}
+
+/**
+ * The included errors in ascending order, as one text value (%!.17g reads back bit for bit; one
+ * value, not a JS object per row, which costs the client seconds at 100 000 rows). They come
+ * from the index (sensor_id, excluded, error_mm) in its order: no sort here or in JS.
+ */
+function sortedErrorsQuery(db: Db, where: SQL[]) {
+  return db.all<{ v: string | null; n: number }>(sql`
+    SELECT group_concat(v) AS v, count(*) AS n FROM (
+      SELECT printf('%!.17g', ${shots.errorMm}) AS v FROM ${shots} WHERE ${and(...where, eq(shots.excluded, false))} ORDER BY ${shots.errorMm}
+    )`);
+}
+
+function sortedErrorsOf(row: { v: string | null; n: number } | undefined): Float64Array {
+  if (!row || row.v == null) return new Float64Array(0);
+  const list = JSON.parse(`[${row.v}]`) as number[];
+  if (list.length !== Number(row.n)) throw new Error("report: the sorted errors did not read back");
+  const out = Float64Array.from(list);
+  // SQLite keeps a subquery's order through group_concat in practice, though it does not promise it
+  for (let i = 1; i < out.length; i++) if (out[i - 1]! > out[i]!) return out.sort();
+  return out;
+}
+
+/** (session, day, tape, EDM) uses of the selection's shots: a few rows per session (ranging.md §7 traceability). */
+function usesQuery(db: Db, where: SQL[]) {
+  const tapeId = sql<string | null>`json_extract(${shots.raw}, '$.reference.tape.tapeId')`;
+  const edmId = sql<string | null>`json_extract(${shots.raw}, '$.reference.edmId')`;
+  const day = sql<string>`substr(${shots.takenAt}, 1, 10)`;
+  return db
+    .select({ sessionId: shots.sessionId, tapeId, edmId, day })
+    .from(shots)
+    .where(and(...where, inArray(shots.referenceMethod, ["tape", "edm"])))
+    .groupBy(shots.sessionId, tapeId, edmId, day);
+}
+type Use = { sessionId: string; tapeId: string | null; edmId: string | null; day: string };
+
+const num = (v: number | null | undefined) => Number(v ?? 0);
+
+function groupsOf(rows: GroupRow[], startedAt: Map<string, string>): { groups: ReportGroup[]; kE: number; kD: number } {
+  let kE = 0;
+  let kD = 0;
+  const groups = rows.map((r): ReportGroup => {
+    if (r.kE != null) kE = Number(r.kE);
+    if (r.kD != null) kD = Number(r.kD);
+    return {
+      sessionId: r.sessionId,
+      sessionStartedAt: startedAt.get(r.sessionId) ?? "",
+      excluded: !!r.excluded,
+      reflectance: Number(r.rc),
+      illuminance: Number(r.lb),
+      rangeBand: Number(r.rb),
+      n: Number(r.n),
+      within: num(r.within),
+      s1: num(r.s1),
+      s2: num(r.s2),
+      sq: num(r.sq),
+      d1: num(r.d1),
+      d2: num(r.d2),
+      de: num(r.de),
+      sumD: num(r.sumD),
+      sumU2: num(r.sumU2),
+      unknownU: num(r.unknownU),
+      maxAbs: num(r.maxAbs),
+      sun: !!r.sun,
+      airDefaulted: !!r.air,
+    };
+  });
+  return { groups, kE, kD };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -309,8 +461,6 @@ function stampOf([a, b, c]: StampRows): ShotsStamp {
     lastRecompute: Number(c[0]?.last ?? 0),
   };
 }
-const sameStamp = (a: ShotsStamp, b: ShotsStamp) =>
-  a.maxRowid === b.maxRowid && a.exclusions === b.exclusions && a.restored === b.restored && a.recomputes === b.recomputes && a.lastRecompute === b.lastRecompute;
 
 const ruleCols = { id: projects.id, ...RULE_COLUMNS };
 
@@ -326,31 +476,35 @@ const certCols = <T extends typeof tapes | typeof edms>(t: T) => ({
 type CertRow = { id: string; label: string; number: string | null; laboratory: string | null; issued: string | null; due: string | null };
 
 type State = {
+  /** Undefined when unknown or outside the reader's projects (both answer 404). */
   sensor: typeof sensors.$inferSelect | undefined;
   rule: { rule: Rule; projectId: string | null } | QueryError;
   tapeCerts: CertRow[];
   edmCerts: CertRow[];
   lastBias: number | null;
   stamp: ShotsStamp;
-  /** Everything above as one string: the cached report of a query is good while it is unchanged. */
+  /** Everything above as one string: the kept report of a query is good while it is unchanged. */
   fingerprint: string;
 };
 
 /**
- * One read transaction: the sensor, the rule of the report (the chosen project's; without one,
- * the project's when the sensor belongs to exactly one live project, else the default rule of
- * ranging.md §6), the bias of the last approved sign-off (drift) and the stamp of the shots.
+ * One read transaction: the sensor, the rule of the report (the chosen project's, which the
+ * reader must belong to; without one, the project's when the sensor belongs to exactly one live
+ * project of the reader's, else the default rule of ranging.md §6), the bias of the last
+ * approved sign-off (drift), the certificates, the stamp of the shots and the sessions' projects
+ * (an admin assigning a session to a project changes what members see).
  */
-async function readState(db: Db, sensorId: string, projectId: string | undefined): Promise<State> {
-  const [sensorRows, ruleRows, biasRows, tapeCerts, edmCerts, ...stamps] = await db.batch([
+async function readState(db: Db, sensorId: string, projectId: string | undefined, projectIds: ProjectFilter): Promise<State> {
+  const mine = (col: typeof projectSensors.projectId | typeof projects.id) => (projectIds ? (projectIds.length ? inArray(col, projectIds) : sql`0`) : undefined);
+  const [sensorRows, ruleRows, biasRows, tapeCerts, edmCerts, visible, sessionProjects, ...stamps] = await db.batch([
     db.select().from(sensors).where(eq(sensors.id, sensorId)),
     db
       .select(ruleCols)
       .from(projects)
       .where(
         projectId
-          ? eq(projects.id, projectId)
-          : and(isNull(projects.retiredAt), inArray(projects.id, db.select({ id: projectSensors.projectId }).from(projectSensors).where(eq(projectSensors.sensorId, sensorId)))),
+          ? and(eq(projects.id, projectId), mine(projects.id))
+          : and(isNull(projects.retiredAt), mine(projects.id), inArray(projects.id, db.select({ id: projectSensors.projectId }).from(projectSensors).where(eq(projectSensors.sensorId, sensorId)))),
       )
       .limit(2),
     db
@@ -361,6 +515,22 @@ async function readState(db: Db, sensorId: string, projectId: string | undefined
       .limit(1),
     db.select(certCols(tapes)).from(tapes),
     db.select(certCols(edms)).from(edms),
+    // a member sees a sensor linked to one of their projects or used in one of their sessions
+    db
+      .select({ one: sql<number>`1` })
+      .from(sensors)
+      .where(
+        and(
+          eq(sensors.id, sensorId),
+          projectIds
+            ? or(
+                exists(db.select({ one: sql`1` }).from(projectSensors).where(and(eq(projectSensors.sensorId, sensorId), mine(projectSensors.projectId)))),
+                exists(db.select({ one: sql`1` }).from(checkSessions).where(and(eq(checkSessions.sensorId, sensorId), projectIds.length ? inArray(checkSessions.projectId, projectIds) : sql`0`))),
+              )
+            : undefined,
+        ),
+      ),
+    db.select({ v: sql<string | null>`group_concat(${checkSessions.id} || '=' || ifnull(${checkSessions.projectId}, ''))` }).from(checkSessions).where(eq(checkSessions.sensorId, sensorId)),
     ...stampQueries(db, sensorId),
   ]);
   const rule: State["rule"] = projectId
@@ -372,7 +542,7 @@ async function readState(db: Db, sensorId: string, projectId: string | undefined
       : { rule: DEFAULT_RULE, projectId: null };
   const lastBias = biasRows[0]?.biasMm ?? null;
   const stamp = stampOf(stamps as StampRows);
-  const sensor = sensorRows[0];
+  const sensor = visible.length ? sensorRows[0] : undefined;
   // the certificates are part of the report (traceability): an edit to one is a new report
   return {
     sensor,
@@ -381,188 +551,32 @@ async function readState(db: Db, sensorId: string, projectId: string | undefined
     edmCerts,
     lastBias,
     stamp,
-    fingerprint: JSON.stringify([sensor, "rule" in rule ? [rule.rule, rule.projectId] : null, lastBias, stamp, tapeCerts, edmCerts]),
+    fingerprint: JSON.stringify([sensor, "rule" in rule ? [rule.rule, rule.projectId] : null, lastBias, stamp, tapeCerts, edmCerts, sessionProjects[0]?.v ?? null]),
   };
 }
 
 // ---------------------------------------------------------------------------------------------
-// The in-process cache, one per database handle.
+// Computed reports without rows, kept per query while their fingerprint holds (a few KB each).
 
-/** Shots kept as loaded rows across all sensors (about 250 bytes each: some 100 MB at most). */
-const ROWS_BUDGET = 400_000;
-/** Shot rows kept in computed reports across all queries (about 150 bytes each). */
-const REPORT_ROWS_BUDGET = 300_000;
-/** Bytes of report JSON kept (100 000 shots make some 33 MB). */
-const JSON_BUDGET = 96 * 1024 * 1024;
+type Kept = { fingerprint: string; built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
+const KEPT_MAX = 500;
+const keptByDb = new WeakMap<Db, Map<string, Kept>>();
 
-type RowsEntry = { born: string; stamp: ShotsStamp; shots: readonly ReportShot[] };
-type ReportEntry = { fingerprint: string; built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
-type Appended = { rowid: number; shot: ReportShot };
-type Caches = { rows: Map<string, RowsEntry>; reports: Map<string, ReportEntry>; appended: Map<string, Appended[]>; uses: Map<string, UsesEntry> };
-/** issue 15: which tape or EDM each (session, day) of a sensor used; changes only with new or recomputed shots. */
-type Use = { sessionId: string; tapeId: string | null; edmId: string | null; day: string };
-type UsesEntry = { key: string; uses: Use[] };
-const cachesByDb = new WeakMap<Db, Caches>();
-
-function cachesOf(db: Db): Caches {
-  let c = cachesByDb.get(db);
-  if (!c) cachesByDb.set(db, (c = { rows: new Map(), reports: new Map(), appended: new Map(), uses: new Map() }));
-  return c;
+function keptOf(db: Db): Map<string, Kept> {
+  let m = keptByDb.get(db);
+  if (!m) keptByDb.set(db, (m = new Map()));
+  return m;
 }
 
-/** Least recently used first out, until the map's total is within the budget. */
-function evict<V>(map: Map<string, V>, size: (v: V) => number, budget: number) {
-  let total = 0;
-  for (const v of map.values()) total += size(v);
-  for (const [k, v] of map) {
-    if (total <= budget) break;
-    map.delete(k);
-    total -= size(v);
-  }
-}
-function touch<V>(map: Map<string, V>, key: string, v: V) {
-  map.delete(key);
-  map.set(key, v);
-}
-
-/** Rows held for one sensor at most: more, and they are read back instead. */
-const APPENDED_MAX = 20_000;
-
-/**
- * The shots this process has just written (the sync), with their rowids, so the next report
- * of the sensor need not read them back. They are used only when the database confirms they
- * are all of the sensor's rows after the kept ones (another instance may have written more).
- */
-export function noteAppendedShots(db: Db, bySensor: Map<string, Appended[]>) {
-  const caches = cachesOf(db);
-  for (const [sensorId, rows] of bySensor) {
-    if (!caches.rows.has(sensorId)) continue; // nothing kept to add them to
-    const list = caches.appended.get(sensorId) ?? [];
-    for (const r of rows) list.push({ rowid: r.rowid, shot: Object.freeze(r.shot) });
-    if (list.length > APPENDED_MAX) caches.appended.delete(sensorId);
-    else caches.appended.set(sensorId, list);
-  }
-}
-
-/** Drops everything this process keeps for the database (tests; never needed for correctness). */
+/** Forgets the reports this process keeps for the database (tests and the bench; never needed for correctness). */
 export function clearReportCache(db: Db = getDb()) {
-  cachesByDb.delete(db);
-}
-
-/**
- * All shots of the sensor as of `stamp` (or newer), in time order: the kept rows when their
- * stamp is this one; the kept rows plus the shots appended since and the exclusion flags of
- * the shots that have exclusion rows, when only those changed; else everything read again.
- * `fresh` tells whether the rows match the given stamp (so a report of them may be kept).
- */
-async function sensorRows(db: Db, caches: Caches, sensorId: string, born: string, stamp: ShotsStamp): Promise<{ shots: readonly ReportShot[]; fresh: boolean }> {
-  const have = caches.rows.get(sensorId);
-  if (have && have.born === born && sameStamp(have.stamp, stamp)) {
-    touch(caches.rows, sensorId, have);
-    return { shots: have.shots, fresh: true };
-  }
-  let next: RowsEntry | null = null;
-  if (have && have.born === born && have.stamp.recomputes === stamp.recomputes && have.stamp.lastRecompute === stamp.lastRecompute && stamp.maxRowid >= have.stamp.maxRowid) {
-    const after = have.stamp.maxRowid;
-    const exclusionsChanged = have.stamp.exclusions !== stamp.exclusions || have.stamp.restored !== stamp.restored;
-    const pending = (caches.appended.get(sensorId) ?? []).filter((p) => p.rowid > after);
-    caches.appended.delete(sensorId);
-    // "+sensor_id" keeps SQLite off the sensor index: the rows after the kept rowid, walked by rowid
-    const appended = [sql`+${shots.sensorId} = ${sensorId}`, gt(sql`${shots}.rowid`, after)];
-    const [a, b, c, count, added, ses, packed, flags] = await db.batch([
-      ...stampQueries(db, sensorId),
-      db.select({ n: sql<number>`count(*)` }).from(shots).where(eq(shots.sensorId, sensorId)),
-      db.select({ n: sql<number>`count(*)` }).from(shots).where(and(...appended)),
-      sessionsQuery(db, sensorId),
-      // the rows written by this process are at hand: read the appended rows only without them
-      packedQuery(db, pending.length ? [sql`0`] : appended),
-      // every shot of the sensor that ever had an exclusion row: the only way its flag changes
-      db
-        .selectDistinct({ id: shots.id, excluded: shots.excluded })
-        .from(exclusions)
-        .crossJoin(shots)
-        .where(and(eq(shots.id, exclusions.shotId), eq(shots.sensorId, sensorId), exclusionsChanged ? undefined : sql`0`)),
-    ]);
-    const now = stampOf([a, b, c] as StampRows);
-    let inc: ReportShot[] | null;
-    if (!pending.length) inc = unpack(packed[0], ses);
-    else if (pending.length === Number(added[0]?.n ?? -1) && pending.every((p) => p.rowid <= now.maxRowid)) inc = pending.map((p) => p.shot);
-    else {
-      // someone else wrote shots of this sensor too: read the appended rows, up to the stamp's rowid
-      const [ses2, packed2] = await db.batch([sessionsQuery(db, sensorId), packedQuery(db, [...appended, sql`${shots}.rowid <= ${now.maxRowid}`])]);
-      inc = unpack(packed2[0], ses2);
-    }
-    if (
-      inc &&
-      now.recomputes === have.stamp.recomputes &&
-      now.lastRecompute === have.stamp.lastRecompute &&
-      (exclusionsChanged || (now.exclusions === have.stamp.exclusions && now.restored === have.stamp.restored)) &&
-      // only appends since: the kept rows and the new ones are all the sensor's shots
-      have.shots.length + inc.length === Number(count[0]?.n ?? -1)
-    ) {
-      let list = have.shots as ReportShot[];
-      if (exclusionsChanged) {
-        const flag = new Map(flags.map((f) => [f.id, f.excluded] as const));
-        list = list.map((s) => {
-          const x = flag.get(s.id);
-          return x === undefined || x === s.excluded ? s : Object.freeze({ ...s, excluded: x });
-        });
-      }
-      next = { born, stamp: now, shots: mergeInOrder(list, inTimeOrder(inc)) };
-    }
-  }
-  if (!next) {
-    const where = [eq(shots.sensorId, sensorId)];
-    const [a, b, c, ses, packed] = await db.batch([...stampQueries(db, sensorId), sessionsQuery(db, sensorId), packedQuery(db, where)]);
-    const now = stampOf([a, b, c] as StampRows);
-    const list = unpack(packed[0], ses);
-    // a value that needed escaping (not possible for synced records): the plain query, not kept
-    if (!list) return { shots: await plainQuery(db, where), fresh: false };
-    next = { born, stamp: now, shots: inTimeOrder(list) };
-  }
-  Object.freeze(next.shots);
-  caches.rows.delete(sensorId);
-  if (next.shots.length <= ROWS_BUDGET) {
-    caches.rows.set(sensorId, next);
-    evict(caches.rows, (e) => e.shots.length, ROWS_BUDGET);
-  }
-  return { shots: next.shots, fresh: sameStamp(next.stamp, stamp) };
-}
-
-function selectShots(all: readonly ReportShot[], q: ReportQuery): ReportShot[] {
-  if (!q.from && !q.to && !q.sessionIds?.length) return all as ReportShot[];
-  const ses = q.sessionIds?.length ? new Set(q.sessionIds) : null;
-  const from = q.from ? periodDay(q.from) : null;
-  const to = q.to ? periodDay(q.to) : null;
-  // the period of ranging.md: the shot's own calendar date, as the SQL of periodWhere reads it
-  return all.filter((s) => (!ses || ses.has(s.sessionId)) && inPeriod(s.takenAt, from, to));
-}
-
-/** A cached report is shared: nothing may change it in place. */
-function freezeReport(body: SensorReportJson) {
-  for (const list of [body.tests, body.byReflectance, body.byIlluminance, body.byRange, body.drift, body.coverage.missing, body.shots]) {
-    for (const x of list as object[]) Object.freeze(x);
-    Object.freeze(list);
-  }
-  for (const s of body.shots) Object.freeze(s.flags);
-  if (body.biasCi95Mm) Object.freeze(body.biasCi95Mm);
-  Object.freeze(body.airDefaulted);
-  for (const t of body.traceability) {
-    Object.freeze(t.expiredOnSessions);
-    Object.freeze(t);
-  }
-  Object.freeze(body.traceability);
-  Object.freeze(body.coverage);
-  Object.freeze(body.rule);
-  Object.freeze(body);
+  keptByDb.delete(db);
 }
 
 // ---------------------------------------------------------------------------------------------
 // The report.
 
-function toJson(sensorId: string, rule: Rule, ruleProjectId: string | null, r: SensorReport, shotsIn: readonly ReportShot[], traceability: TraceabilityEntry[]): SensorReportJson {
-  const defaulted = new Set<string>();
-  for (const s of shotsIn) if (s.airDefaulted && !s.excluded) defaulted.add(s.sessionId);
+function toJson(sensorId: string, rule: Rule, ruleProjectId: string | null, r: Omit<SensorReport, "shots" | "failed">, defaulted: Set<string>, traceability: TraceabilityEntry[], rows: ReportShotRow[] | null): SensorReportSummaryJson & { shots?: ReportShotRow[] } {
   // api.md's field order
   return {
     sensorId,
@@ -608,52 +622,16 @@ function toJson(sensorId: string, rule: Rule, ruleProjectId: string | null, r: S
     coverage: r.coverage,
     drift: r.drift,
     traceability,
-    shots: r.shots,
+    ...(rows ? { shots: rows } : {}),
   };
 }
 
 /**
  * ranging.md §7 traceability: the sensor when it has a certificate; each tape or reference EDM
  * any shot of the selection used, with the sessions whose own date was after its due date.
- * Uses of a tape or EDM are read per (session, day) from the raw records: a few rows per session.
+ * `startedAt`: every session of the selection (excluded shots too).
  */
-/**
- * The (session, day, tape, EDM) uses of all the sensor's shots, read once per state of its shots
- * (new or recomputed shots; exclusions do not change them) and filtered per selection in memory.
- */
-async function usesOf(db: Db, sensor: typeof sensors.$inferSelect, stamp: ShotsStamp | null): Promise<Use[]> {
-  const caches = cachesOf(db);
-  const key = stamp ? JSON.stringify([sensor.createdAt, stamp.maxRowid, stamp.recomputes, stamp.lastRecompute]) : null;
-  const have = caches.uses.get(sensor.id);
-  if (key && have && have.key === key) return have.uses;
-  const tapeId = sql<string | null>`json_extract(${shots.raw}, '$.reference.tape.tapeId')`;
-  const edmId = sql<string | null>`json_extract(${shots.raw}, '$.reference.edmId')`;
-  const day = sql<string>`substr(${shots.takenAt}, 1, 10)`;
-  const uses = await db
-    .select({ sessionId: shots.sessionId, tapeId, edmId, day })
-    .from(shots)
-    .where(and(eq(shots.sensorId, sensor.id), inArray(shots.referenceMethod, ["tape", "edm"])))
-    .groupBy(shots.sessionId, tapeId, edmId, day);
-  // (max rowid over the whole table: a shot written meanwhile only makes the key stale, never wrong)
-  if (key) {
-    caches.uses.delete(sensor.id);
-    caches.uses.set(sensor.id, { key, uses });
-    if (caches.uses.size > 1000) caches.uses.delete(caches.uses.keys().next().value!);
-  }
-  return uses;
-}
-
-async function traceabilityOf(
-  db: Db,
-  sensor: typeof sensors.$inferSelect,
-  stamp: ShotsStamp | null,
-  q: ReportQuery,
-  selection: readonly ReportShot[],
-  tapeCerts: CertRow[],
-  edmCerts: CertRow[],
-): Promise<TraceabilityEntry[]> {
-  const startedAt = new Map<string, string>();
-  for (const s of selection) if (!startedAt.has(s.sessionId)) startedAt.set(s.sessionId, s.sessionStartedAt);
+function traceabilityOf(sensor: typeof sensors.$inferSelect, startedAt: Map<string, string>, uses: Use[], tapeCerts: CertRow[], edmCerts: CertRow[]): TraceabilityEntry[] {
   const expired = (due: string | null, ids: Iterable<string>) =>
     [...ids].filter((id) => pastDueOn(due, startedAt.get(id) ?? "")).sort((a, b) => (startedAt.get(a)! < startedAt.get(b)! ? -1 : 1));
   const out: TraceabilityEntry[] = [];
@@ -669,13 +647,8 @@ async function traceabilityOf(
       expiredOnSessions: expired(sensor.certDue, startedAt.keys()),
     });
   }
-  if (!selection.length) return out;
-  const from = q.from ? periodDay(q.from) : null;
-  const to = q.to ? periodDay(q.to) : null;
   const used = { tape: new Map<string, Set<string>>(), edm: new Map<string, Set<string>>() };
-  for (const u of await usesOf(db, sensor, stamp)) {
-    // the selection's sessions (startedAt holds them) and its period, by the shot's own day
-    if (!startedAt.has(u.sessionId) || !inPeriod(u.day, from, to)) continue;
+  for (const u of uses) {
     for (const [kind, id] of [["tape", u.tapeId], ["edm", u.edmId]] as const) {
       if (!id) continue;
       if (!used[kind].has(id)) used[kind].set(id, new Set());
@@ -701,10 +674,18 @@ async function traceabilityOf(
   return out;
 }
 
-type Built = { status: 200; body: SensorReportJson; sensor: { id: string; label: string; serial: string; kind: "pulsed" | "cw" }; rule: Rule; details: LoadedShot[] };
+type Built = {
+  status: 200;
+  body: SensorReportSummaryJson & { shots?: ReportShotRow[] };
+  sensor: { id: string; label: string; serial: string; kind: "pulsed" | "cw" };
+  rule: Rule;
+  /** The shots behind the rows (empty without rows). */
+  details: LoadedShot[];
+};
+type BuiltWithRows = Omit<Built, "body"> & { body: SensorReportJson };
 
-const queryKey = (sensorId: string, q: ReportQuery) =>
-  JSON.stringify([sensorId, q.from ? periodDay(q.from) : null, q.to ? periodDay(q.to) : null, [...new Set(q.sessionIds ?? [])].sort(), q.projectId ?? null]);
+const queryKey = (sensorId: string, q: ReportQuery, projectIds: ProjectFilter) =>
+  JSON.stringify([sensorId, q.from ? periodDay(q.from) : null, q.to ? periodDay(q.to) : null, [...new Set(q.sessionIds ?? [])].sort(), q.projectId ?? null, projectIds ? [...projectIds].sort() : null]);
 
 function checkedQuery(query: ReportQuery | URLSearchParams): ReportQuery | QueryError {
   const q = query instanceof URLSearchParams ? parseReportQuery(query) : query;
@@ -716,76 +697,107 @@ function checkedQuery(query: ReportQuery | URLSearchParams): ReportQuery | Query
   return q;
 }
 
-/** The report and, when it may be kept, its cache entry. */
-async function report(sensorId: string, query: ReportQuery | URLSearchParams, opts: { details?: boolean }, db: Db): Promise<{ built: Built; entry: ReportEntry | null } | QueryError> {
+/**
+ * The report of a selection for readers limited to `projectIds` (null: all sessions). With
+ * `rows` (or `details`, which adds each shot's note and target label) it carries the per-shot
+ * rows, computed from the shots read for it; without, it comes from the sums and the error
+ * index and is kept while its fingerprint holds.
+ */
+async function report(sensorId: string, query: ReportQuery | URLSearchParams, projectIds: ProjectFilter, opts: { rows?: boolean; details?: boolean }, db: Db): Promise<{ built: Built; kept: Kept | null } | QueryError> {
   const q = checkedQuery(query);
   if ("status" in q) return q;
-  const state = await readState(db, sensorId, q.projectId);
+  const state = await readState(db, sensorId, q.projectId, projectIds);
   const row = state.sensor;
   if (!row) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
   if ("status" in state.rule) return state.rule;
   const rule = state.rule.rule;
   const ruleProjectId = state.rule.projectId;
+  const spec = sensorSpecOf(row);
   const sensor = { id: row.id, label: row.label, serial: row.serial, kind: row.kind };
-  const compute = async (list: readonly ReportShot[]): Promise<Built> => {
-    const r = sensorReport({ sensor: sensorSpecOf(row), rule, shots: list as ReportShot[], lastSignedOffBiasMm: state.lastBias });
-    const trace = await traceabilityOf(db, row, state.stamp, q, list, state.tapeCerts, state.edmCerts);
-    return { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, list, trace), sensor, rule, details: list as LoadedShot[] };
-  };
-  // note and target label per shot (the CSV export): read as they are, not kept
-  if (opts.details) return { built: await compute(await loadReportShots(sensorId, q, opts, db)), entry: null };
+  const where = selectionWhere(db, sensorId, q, projectIds);
 
-  const caches = cachesOf(db);
-  const key = queryKey(sensorId, q);
-  const hit = caches.reports.get(key);
-  if (hit && hit.fingerprint === state.fingerprint) {
-    touch(caches.reports, key, hit);
-    return { built: hit.built, entry: hit };
+  if (opts.rows || opts.details || q.includeShots) {
+    const [list, uses] = await Promise.all([loadReportShots(sensorId, q, { details: opts.details }, db, projectIds), usesQuery(db, where)]);
+    const { failed: _failed, shots: rows, ...r } = sensorReportOf(spec, rule, list, state.lastBias);
+    const startedAt = new Map<string, string>();
+    const defaulted = new Set<string>();
+    for (const s of list) {
+      if (!startedAt.has(s.sessionId)) startedAt.set(s.sessionId, s.sessionStartedAt);
+      if (s.airDefaulted && !s.excluded) defaulted.add(s.sessionId);
+    }
+    const trace = traceabilityOf(row, startedAt, uses, state.tapeCerts, state.edmCerts);
+    return { built: { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, defaulted, trace, rows), sensor, rule, details: list }, kept: null };
   }
-  const rows = await sensorRows(db, caches, sensorId, row.createdAt, state.stamp);
-  const built = await compute(selectShots(rows.shots, q));
-  caches.reports.delete(key);
-  if (!rows.fresh) return { built, entry: null }; // the shots moved on meanwhile: the next request computes afresh
-  freezeReport(built.body);
-  Object.freeze(built.details);
-  const entry: ReportEntry = { fingerprint: state.fingerprint, built, json: null };
-  caches.reports.set(key, entry);
-  evict(caches.reports, (e) => e.built.body.shots.length + 1, REPORT_ROWS_BUDGET);
-  return { built, entry };
+
+  const kept = keptOf(db);
+  const key = queryKey(sensorId, q, projectIds);
+  const hit = kept.get(key);
+  if (hit && hit.fingerprint === state.fingerprint) {
+    kept.delete(key);
+    kept.set(key, hit);
+    return { built: hit.built, kept: hit };
+  }
+  const [groupRows, sortedRows, ses, uses] = await db.batch([groupsQuery(db, where, row, rule), sortedErrorsQuery(db, where), sessionsQuery(db, sensorId), usesQuery(db, where)]);
+  const startedAt = new Map(ses.map((s) => [s.id, s.startedAt] as const));
+  const { groups, kE, kD } = groupsOf(groupRows, startedAt);
+  const { failed: _failed, shots: _rows, outlier: _outlier, ...r } = reportFromAggregates({ sensor: spec, rule, aggregates: { kE, kD, groups, sortedErrors: sortedErrorsOf(sortedRows[0]) }, lastSignedOffBiasMm: state.lastBias });
+  const inSelection = new Map<string, string>();
+  const defaulted = new Set<string>();
+  for (const g of groups) {
+    inSelection.set(g.sessionId, g.sessionStartedAt);
+    if (g.airDefaulted && !g.excluded) defaulted.add(g.sessionId);
+  }
+  const trace = traceabilityOf(row, inSelection, uses, state.tapeCerts, state.edmCerts);
+  const built: Built = { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, defaulted, trace, null), sensor, rule, details: [] };
+  const entry: Kept = { fingerprint: state.fingerprint, built, json: null };
+  kept.delete(key);
+  kept.set(key, entry);
+  if (kept.size > KEPT_MAX) kept.delete(kept.keys().next().value!);
+  return { built, kept: entry };
 }
 
+/** The domain's report over the shots themselves (the rows path). */
+function sensorReportOf(spec: ReturnType<typeof sensorSpecOf>, rule: Rule, list: readonly ReportShot[], lastBias: number | null): SensorReport {
+  const { outlier, ...r } = reportFromAggregates({ sensor: spec, rule, aggregates: aggregateShots(list, spec, rule), lastSignedOffBiasMm: lastBias });
+  return { ...r, shots: reportRows(list, spec, rule, outlier) };
+}
+
+const filterOf = async (actor: Actor, db: Db): Promise<ProjectFilter> => {
+  const scope = await scopeOf(actor, db);
+  return scope.all ? null : scope.projectIds;
+};
+
 /**
- * The report with what the CSV export and the screens need beside it; a refusal as a QueryError.
- * The body may be shared with other requests: read it, never change it.
+ * The report with its per-shot rows for a reader limited to `projectIds` (null: all sessions);
+ * `details` adds each shot's note and target label (the CSV export). A refusal as a QueryError.
  */
-export async function computeSensorReport(
-  _actor: Actor,
-  sensorId: string,
-  query: ReportQuery | URLSearchParams,
-  opts: { details?: boolean } = {},
-  db: Db = getDb(),
-): Promise<Built | QueryError> {
-  const r = await report(sensorId, query, opts, db);
-  return "built" in r ? r.built : r;
+export async function sensorReportFor(sensorId: string, query: ReportQuery | URLSearchParams, projectIds: ProjectFilter, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<BuiltWithRows | QueryError> {
+  const r = await report(sensorId, query, projectIds, { rows: true, details: opts.details }, db);
+  return "built" in r ? (r.built as BuiltWithRows) : r;
+}
+
+/** The report with its per-shot rows (the screens, the CSV export, sign-offs), in the actor's scope. */
+export async function computeSensorReport(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<BuiltWithRows | QueryError> {
+  return sensorReportFor(sensorId, query, await filterOf(actor, db), opts, db);
 }
 
 const encoder = new TextEncoder();
 
-/** GET /api/sensors/:sensorId/report: the report as JSON bytes (kept with the cached report). */
-export async function sensorReportJson(_actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, db: Db = getDb()): Promise<{ status: 200; json: Uint8Array<ArrayBuffer> } | QueryError> {
-  const r = await report(sensorId, query, {}, db);
+/**
+ * GET /api/sensors/:sensorId/report: the report as JSON bytes; the per-shot rows only with
+ * `include=shots` (api.md v1.1). Without them the bytes are kept with the kept report.
+ */
+export async function sensorReportJson(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, db: Db = getDb()): Promise<{ status: 200; json: Uint8Array<ArrayBuffer> } | QueryError> {
+  const r = await report(sensorId, query, await filterOf(actor, db), {}, db);
   if (!("built" in r)) return r;
   // (a consumer that transferred a chunk's buffer would leave it empty: then it is written again)
-  if (r.entry?.json && r.entry.json.byteLength > 0) return { status: 200, json: r.entry.json };
+  if (r.kept?.json && r.kept.json.byteLength > 0) return { status: 200, json: r.kept.json };
   const json = encoder.encode(JSON.stringify(r.built.body));
-  if (r.entry && json.byteLength <= JSON_BUDGET) {
-    r.entry.json = json;
-    evict(cachesOf(db).reports, (e) => (e.json ? e.json.byteLength : 0), JSON_BUDGET);
-  }
+  if (r.kept) r.kept.json = json;
   return { status: 200, json };
 }
 
-/** Chunks of the kept bytes, sent as they are (views, not copies: a Uint8Array body would be copied whole). */
+/** Chunks of the bytes, sent as they are (views, not copies: a Uint8Array body would be copied whole). */
 const CHUNK = 256 * 1024;
 export function jsonBody(json: Uint8Array<ArrayBuffer>): ReadableStream<Uint8Array<ArrayBuffer>> {
   let at = 0;
@@ -800,8 +812,9 @@ export function jsonBody(json: Uint8Array<ArrayBuffer>): ReadableStream<Uint8Arr
 }
 
 /**
- * The api.md report of a sensor for the review screens: null for an unknown sensor; an invalid
- * query or unknown project throws a JSON Response (400/404).
+ * The api.md report of a sensor with its rows, for the review screens: null for an unknown
+ * sensor (or one outside the actor's projects); an invalid query or unknown project throws a
+ * JSON Response (400/404).
  */
 export async function buildSensorReport(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams = {}): Promise<SensorReportJson | null> {
   const r = await computeSensorReport(actor, sensorId, query);
@@ -810,42 +823,51 @@ export async function buildSensorReport(actor: Actor, sensorId: string, query: R
   throw Response.json(r.body, { status: r.status });
 }
 
-function lastShotAtOf(list: readonly ReportShot[]): string | null {
-  let last: string | null = null;
-  let lastT = -Infinity;
-  for (const s of list) {
-    const t = Date.parse(s.takenAt);
-    if (t > lastT) {
-      lastT = t;
-      last = s.takenAt;
-    }
-  }
-  return last;
+/**
+ * The latest takenAt of a selection as an instant (offsets differ between shots): the
+ * lexicographic maximum comes from the index; any later instant lies at most two local days
+ * before it (offsets span −12 h to +14 h), so only those shots are compared.
+ */
+async function lastShotAtOf(db: Db, where: SQL[]): Promise<string | null> {
+  const [top] = await db.select({ t: sql<string | null>`max(${shots.takenAt})` }).from(shots).where(and(...where));
+  if (!top?.t) return null;
+  const day = Date.parse(`${top.t.slice(0, 10)}T00:00:00Z`);
+  if (Number.isNaN(day)) return top.t;
+  const from = new Date(day - 2 * 86_400_000).toISOString().slice(0, 10);
+  const rows = await db
+    .select({ t: shots.takenAt })
+    .from(shots)
+    .where(and(...where, sql`${shots.takenAt} >= ${from}`))
+    .orderBy(desc(sql`julianday(${shots.takenAt})`), desc(shots.takenAt))
+    .limit(1);
+  return rows[0]?.t ?? top.t;
 }
 
-/** GET /api/sensors: every live sensor with its verdict over all its shots. */
-export async function listSensorSummaries(_actor: Actor, query: { projectId?: string } | URLSearchParams = {}, db: Db = getDb()): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
+/** GET /api/sensors: every live sensor the actor may see, with its verdict over the shots they may see. */
+export async function listSensorSummaries(actor: Actor, query: { projectId?: string } | URLSearchParams = {}, db: Db = getDb()): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
   const projectId = query instanceof URLSearchParams ? (query.get("project") ?? undefined) : query.projectId;
+  const projectIds = await filterOf(actor, db);
   let rows = await db.select().from(sensors).where(isNull(sensors.retiredAt)).orderBy(asc(sensors.label), asc(sensors.id));
   if (projectId) {
     const [p] = await db.select({ id: projects.id }).from(projects).where(eq(projects.id, projectId));
-    if (!p) return { status: 404, body: { error: `No project ${projectId}.` } };
+    if (!p || (projectIds && !projectIds.includes(projectId))) return { status: 404, body: { error: `No project ${projectId}.` } };
     const members = new Set((await db.select({ id: projectSensors.sensorId }).from(projectSensors).where(eq(projectSensors.projectId, projectId))).map((m) => m.id));
     rows = rows.filter((r) => members.has(r.id));
   }
   const out: SensorSummary[] = [];
   for (const row of rows) {
-    const r = await report(row.id, projectId ? { projectId } : {}, {}, db);
+    const q: ReportQuery = projectId ? { projectId } : {};
+    const r = await report(row.id, q, projectIds, {}, db);
     if (!("built" in r)) {
-      if (r.status === 404 && r.body.error.startsWith("No sensor")) continue; // removed meanwhile
+      if (r.status === 404 && r.body.error.startsWith("No sensor")) continue; // removed meanwhile, or not the actor's
       return r;
     }
-    const { body, details } = r.built;
+    const { body } = r.built;
     let last: string | null;
-    if (r.entry && r.entry.lastShotAt !== undefined) last = r.entry.lastShotAt;
+    if (r.kept && r.kept.lastShotAt !== undefined) last = r.kept.lastShotAt;
     else {
-      last = lastShotAtOf(details);
-      if (r.entry) r.entry.lastShotAt = last;
+      last = await lastShotAtOf(db, selectionWhere(db, row.id, q, projectIds));
+      if (r.kept) r.kept.lastShotAt = last;
     }
     out.push({ id: row.id, label: row.label, kind: row.kind, verdict: body.verdict, n: body.n, biasMm: body.biasMm, rmseMm: body.rmseMm, lastShotAt: last });
   }

@@ -8,8 +8,7 @@ import type { ResultSet } from "@libsql/client";
 import { getDb, type Db } from "~/db/client.server";
 import { isTransientDbError, retryTransient } from "~/db/transient.server";
 import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
-import { airState, DomainError, type ReportShot } from "~/domain";
-import { noteAppendedShots } from "./reports.server";
+import { airState, DomainError } from "~/domain";
 import {
   computeShotRecord,
   impliedProjectsOf,
@@ -80,44 +79,6 @@ function insertStatements<T extends SQLiteTable>(table: T, rows: InferInsertMode
     const sql = `INSERT INTO "${getTableName(table)}" (${names}) VALUES ${part.map(() => one).join(", ")} ON CONFLICT("id") DO NOTHING RETURNING "id", rowid`;
     return { sql, args };
   });
-}
-
-/**
- * The report cache's copy of the shots just written, so the verdict notice and the next report
- * need not read them back: each with the rowid its insert returned. The cache uses the rows
- * only once the database confirms the count of the sensor's new rows.
- */
-function handOver(db: Db, rows: (typeof shots.$inferInsert)[], rowidOf: Map<string, number>, startedAtOf: Map<string, string>) {
-  const bySensor = new Map<string, { rowid: number; shot: ReportShot }[]>();
-  for (const r of rows) {
-    const rowid = rowidOf.get(r.id);
-    const startedAt = startedAtOf.get(r.sessionId);
-    if (rowid === undefined || !Number.isSafeInteger(rowid) || startedAt === undefined) return; // not what was sent: read them back
-    const list = bySensor.get(r.sensorId) ?? [];
-    list.push({
-      rowid,
-      shot: {
-        id: r.id,
-        takenAt: r.takenAt,
-        sessionId: r.sessionId,
-        sessionStartedAt: startedAt,
-        // as SQLite gives them back: a REAL −0 is stored as the integer 0
-        referenceM: r.referenceM + 0,
-        rangeM: r.rangeM + 0,
-        errorMm: r.errorMm + 0,
-        repeatabilityMm: r.repeatabilityMm == null ? null : r.repeatabilityMm + 0,
-        reflectancePct: r.reflectancePct + 0,
-        illuminanceKlux: r.illuminanceKlux == null ? null : r.illuminanceKlux + 0,
-        retro: !!r.retro,
-        excluded: !!r.excluded,
-        wrap: !!r.wrap,
-        airDefaulted: !!r.airDefaulted,
-        referenceUncertaintyMm: r.referenceUncertaintyMm == null ? null : r.referenceUncertaintyMm + 0,
-      },
-    });
-    bySensor.set(r.sensorId, list);
-  }
-  noteAppendedShots(db, bySensor);
 }
 
 /** id → rowid of the rows the insert statements wrote (their RETURNING rows). */
@@ -304,7 +265,6 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
       ),
     ]);
     const storedSession = new Map(storedSessions.map((s) => [s.id, s]));
-    const startedAtOf = new Map(storedSessions.map((s) => [s.id, s.startedAt]));
     const storedShot = new Map(storedShots.map((s) => [s.id, s.raw]));
     const implied = impliedProjectsOf(impliedRows);
     const ctx = registryContextOf(registry);
@@ -373,7 +333,6 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         }
         const projectId = s.projectId || implied.get(pairKey(s.sensorId, s.siteId)) || null;
         seenSessions.set(s.id, rec.raw);
-        startedAtOf.set(s.id, s.startedAt);
         usable.set(s.id, { id: s.id, sensorId: s.sensorId, siteId: s.siteId, projectId, air });
         sessionRows.push({
           id: s.id,
@@ -489,7 +448,6 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         ]);
         shotRows = shotRows.filter((r) => shotsWritten.has(r.id));
       }
-      handOver(db, shotRows, shotsWritten, startedAtOf);
     }
     return { status: 200, body: { results }, sensorIds: [...new Set(shotRows.map((r) => r.sensorId))] };
   });

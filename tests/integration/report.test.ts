@@ -37,7 +37,8 @@ const ids: string[] = [];
 const sessionIds = { A: crypto.randomUUID(), B: crypto.randomUUID() };
 
 beforeAll(async () => {
-  [crew, qa, viewer] = await Promise.all([makeUser("crew"), makeUser("qa"), makeUser("viewer")]);
+  // the sessions belong to no project: only an admin sees them (api.md v1.1); scoping has its own tests
+  [crew, qa, viewer] = await Promise.all([makeUser("crew"), makeUser("qa"), makeUser("admin")]);
   const sensor = await makeSensor({ label: "Tripod scanner T2", wavelengthNm: 1550, toleranceMm: A_TOL, tolerancePpm: B_TOL });
   sensorId = sensor.id;
   emptySensorId = (await makeSensor({ label: "Spare depth camera", kind: "cw", wavelengthNm: 850, modulationHz: [20e6] })).id;
@@ -73,6 +74,8 @@ beforeAll(async () => {
 
 const report = (query = "", user: TestUser = viewer, id = sensorId) =>
   call(reportLoader, apiRequest(`/api/sensors/${id}/report${query}`, { user }), { sensorId: id });
+/** The same with the per-shot rows (api.md v1.1 `include=shots`): its figures come from the rows path. */
+const reportWithShots = (query = "", user: TestUser = viewer, id = sensorId) => report(`${query}${query ? "&" : "?"}include=shots`, user, id);
 
 // ---------- first principles ----------
 const errOf = ([D, e]: Row) => ((D + e / 1000) - D) * 1000; // the same float the server stores
@@ -90,8 +93,10 @@ const type7 = (x: number[], p: number) => {
 };
 const limitOf = (D: number, k: number) => k * (A_TOL + (B_TOL * D) / 1000);
 
-test("the report's figures match the ones worked out here from the definitions", async () => {
-  const r = await report();
+const bothPaths = [["from the sums and the error index", report], ["with include=shots, from the rows", reportWithShots]] as const;
+
+test.each(bothPaths)("the report's figures match the ones worked out here from the definitions (%s)", async (_, get) => {
+  const r = await get();
   expect(r.status).toBe(200);
   const R = r.json;
   const inc = DATA.filter((_, i) => i !== OUTLIER_INDEX);
@@ -153,8 +158,8 @@ test("the report's figures match the ones worked out here from the definitions",
   expect(R.traceability).toEqual([]);
 });
 
-test("the breakdowns, drift, defaulted air and coverage follow the bands of ranging.md §5–6", async () => {
-  const R = (await report()).json;
+test.each(bothPaths)("the breakdowns, drift, defaulted air and coverage follow the bands of ranging.md §5–6 (%s)", async (_, get) => {
+  const R = (await get()).json;
   const inc = DATA.filter((_, i) => i !== OUTLIER_INDEX);
   const classOf = (x: Row) => (x[5] ? "retro" : x[2] < 20 ? "dark" : x[2] <= 60 ? "mid" : "bright");
   for (const band of ["dark", "mid", "bright", "retro"]) {
@@ -192,7 +197,7 @@ test("the breakdowns, drift, defaulted air and coverage follow the bands of rang
 });
 
 test("shot rows carry the exclusion, the outlier flag and each shot's own limit", async () => {
-  const R = (await report()).json;
+  const R = (await reportWithShots()).json;
   expect(R.shots).toHaveLength(24);
   expect(R.shots.map((s: { id: string }) => s.id).sort()).toEqual([...ids].sort());
   const out = R.shots.find((s: { id: string }) => s.id === ids[OUTLIER_INDEX]);
@@ -213,13 +218,17 @@ test("shot rows carry the exclusion, the outlier flag and each shot's own limit"
 // api.md "v1.1 additions" of the report (issue 15)
 const V11 = ["ruleProjectId", "zeroOffsetT", "zeroOffsetSignificant", "referenceRmseMm", "referenceUnknownN", "rmseCombinedMm", "statement", "traceability"];
 
-test("the answer has exactly api.md's fields, in its order, plus the v1.1 additions", async () => {
-  const R = (await report()).json;
-  expect(Object.keys(R).filter((k) => !V11.includes(k))).toEqual([
+test("the answer has exactly api.md's fields, in its order, plus the v1.1 additions; rows only with include=shots", async () => {
+  const fields = [
     "sensorId", "rule", "n", "excluded", "biasMm", "biasCi95Mm", "sdMm", "rmseMm", "accuracy95Mm", "p95AbsMm", "maxAbsMm", "withinPct",
     "zeroOffsetMm", "zeroOffsetSeMm", "scalePpm", "scaleSePpm", "tests", "verdict", "byReflectance", "byIlluminance", "byRange",
-    "rSquared", "airDefaulted", "coverage", "drift", "shots",
-  ]);
+    "rSquared", "airDefaulted", "coverage", "drift",
+  ];
+  // api.md v1.1: without include=shots the key is absent
+  expect(Object.keys((await report()).json).filter((k) => !V11.includes(k))).toEqual(fields);
+  expect((await report("?include=photos")).status).toBe(400);
+  const R = (await reportWithShots()).json;
+  expect(Object.keys(R).filter((k) => !V11.includes(k))).toEqual([...fields, "shots"]);
   for (const k of V11) expect(Object.keys(R)).toContain(k);
   expect(R.tests.map((t: { name: string }) => t.name)).toEqual(["count", "within", "bias", "precision", "reference"]);
   expect(Object.keys(R.byReflectance[0])).toEqual(["band", "n", "biasMm", "sdMm", "rmseMm", "withinPct"]);
@@ -241,7 +250,7 @@ test("from/to select by the shot's own date and session picks sessions", async (
 
 test("project picks its rule: limits and within are judged with its coverage factor", async () => {
   const p = await makeProject({ coverageK: 0.5, minShots: 30, minWithinPct: 90 });
-  const R = (await report(`?project=${p.id}`)).json;
+  const R = (await reportWithShots(`?project=${p.id}`)).json;
   expect(R.rule).toMatchObject({ minShots: 30, coverageK: 0.5, minWithinPct: 90 });
   expect(R.ruleProjectId).toBe(p.id);
   const inc = DATA.filter((_, i) => i !== OUTLIER_INDEX);
@@ -259,7 +268,8 @@ test("a sensor with no shots gives a valid empty report; an unknown sensor is a 
   for (const k of ["biasMm", "biasCi95Mm", "sdMm", "rmseMm", "accuracy95Mm", "p95AbsMm", "maxAbsMm", "withinPct", "zeroOffsetMm", "scalePpm", "rSquared", "zeroOffsetT", "zeroOffsetSignificant", "referenceRmseMm", "rmseCombinedMm"]) expect(R[k]).toBeNull();
   expect(R.referenceUnknownN).toBe(0);
   expect(R.verdict).toBe("insufficient");
-  expect(R.shots).toEqual([]);
+  expect(R.shots).toBeUndefined();
+  expect((await reportWithShots("", viewer, emptySensorId)).json.shots).toEqual([]);
   expect(R.airDefaulted).toEqual([]);
   const missing = await report("", viewer, "no-such-sensor");
   expect(missing.status).toBe(404);

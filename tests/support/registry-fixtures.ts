@@ -2,7 +2,7 @@
 // audit): users with a bearer token, sensors, tapes, sites with stations and targets,
 // projects. Invented values in the manner of the demo scenario (brief.md).
 import { getDb } from "~/db/client.server";
-import { projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets, users, type Role } from "~/db/schema";
+import { projectMembers, projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets, users, type Role } from "~/db/schema";
 import { createApiToken } from "~/auth/tokens.server";
 
 const uid = () => crypto.randomUUID();
@@ -137,4 +137,9 @@ export async function call(fn: (args: never) => unknown, request: Request, param
     json = JSON.parse(text);
   } catch {}
   return { status: r.status, headers: r.headers, text, json: json as any };
+}
+
+/** issue 16: makes users members of a project (api.md v1.1 scoping: non-admins see their projects' records only). */
+export async function addMembers(projectId: string, ...userIds: string[]) {
+  for (const userId of userIds) await getDb().insert(projectMembers).values({ projectId, userId });
 }
