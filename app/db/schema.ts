@@ -302,7 +302,8 @@ export const shots = sqliteTable(
     index("shots_session").on(t.sessionId),
     // issue 16: a sensor's included errors in ascending order straight from the index (the
     // report's exact median, MAD and P95|e| without reading the rows or sorting them)
-    index("shots_sensor_error").on(t.sensorId, t.excluded, t.errorMm),
+    // (session_id last: a member's view filters by their sessions without leaving the index)
+    index("shots_sensor_error").on(t.sensorId, t.excluded, t.errorMm, t.sessionId),
   ],
 );
 

@@ -74,7 +74,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
     };
     Promise.all([
       get<FeatureCollection<Point>>(`/api/shots.geojson?sensor=${encodeURIComponent(sensor.id)}`),
-      get<ReportJson>(`/api/sensors/${encodeURIComponent(sensor.id)}/report`),
+      get<ReportJson>(`/api/sensors/${encodeURIComponent(sensor.id)}/report?include=shots`),
       fetchAllShots(sensor.id, ac.signal).catch(() => new Map<string, ShotDetail>()),
     ])
       .then(([g, r, d]) => {

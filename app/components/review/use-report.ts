@@ -75,7 +75,8 @@ export function useSensorReport(sensorId: string, filters: ReportFilters, extras
     abortRef.current = ac;
     setLoading(true);
     Promise.all([
-      fetch(`/api/sensors/${encodeURIComponent(sensorId)}/report?${key}`, { signal: ac.signal, headers: { Accept: "application/json" } }).then(async (r) => {
+      // the per-shot rows feed the charts, the matrix and the table (api.md v1.1: only when asked for)
+      fetch(`/api/sensors/${encodeURIComponent(sensorId)}/report?${key}${key ? "&" : ""}include=shots`, { signal: ac.signal, headers: { Accept: "application/json" } }).then(async (r) => {
         if (!r.ok) throw new Error(await errorOf(r));
         return (await r.json()) as ReportJson;
       }),

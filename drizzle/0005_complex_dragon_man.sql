@@ -1,0 +1,1 @@
+CREATE INDEX `shots_sensor_error` ON `shots` (`sensor_id`,`excluded`,`error_mm`,`session_id`);

@@ -1,0 +1,271 @@
+// Bench of the report read path (issue 16), through the public HTTP API of a real server process
+// (the production entry app/cli/serve.ts on the BUILT app: `npm run build` first):
+// 1. 100,000 shots of one sensor written straight into a fresh database file (multi-row SQL:
+//    seeding only; the figures are read through the API), the server started on it, then
+//    GET /api/sensors/:id/report: the first view after the start, repeated views, the answer's
+//    size without per-shot rows, the same as a project member (scoped), the server's peak RSS;
+// 2. the QA report page in Chromium: navigation until the figures and the charts are drawn;
+// 3. with BENCH_MILLION=1, the same report over 1,000,000 shots (first view, peak RSS).
+// Targets (issue 16): first view < 300 ms, repeated < 50 ms, answer < 50 KB, page < 1.5 s;
+// at 1,000,000: first view < 2 s, RSS < 400 MB throughout. Prints, never asserts.
+// Run alone: npx tsx tests/bench/report.bench.ts
+import { spawn, type ChildProcess } from "node:child_process";
+import { randomBytes } from "node:crypto";
+import { existsSync, mkdtempSync, readFileSync, rmSync } from "node:fs";
+import { createServer } from "node:net";
+import { loadavg, tmpdir } from "node:os";
+import { join, resolve } from "node:path";
+import { pathToFileURL } from "node:url";
+
+const SHOTS = 100_000;
+const MILLION = 1_000_000;
+const SESSIONS = 20;
+const REPEATS = 15;
+const TARGETS = { firstMs: 300, repeatMs: 50, bytes: 50 * 1024, pageMs: 1500, millionFirstMs: 2000, millionRssMb: 400 };
+
+const fmt = (n: number, d = 0) => n.toLocaleString("en-GB", { maximumFractionDigits: d, minimumFractionDigits: d });
+const met = (ok: boolean) => (ok ? "met" : "NOT met");
+const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[xs.length >> 1]!;
+
+function freePort(): Promise<number> {
+  return new Promise((res, rej) => {
+    const s = createServer();
+    s.listen(0, "127.0.0.1", () => {
+      const p = (s.address() as { port: number }).port;
+      s.close(() => res(p));
+    });
+    s.on("error", rej);
+  });
+}
+
+/** Peak and current resident set of a process (Linux /proc), MB. */
+function rssOf(pid: number): { peakMb: number; nowMb: number } {
+  const status = readFileSync(`/proc/${pid}/status`, "utf8");
+  const kb = (k: string) => Number(new RegExp(`^${k}:\\s+(\\d+) kB`, "m").exec(status)?.[1] ?? NaN);
+  return { peakMb: kb("VmHWM") / 1024, nowMb: kb("VmRSS") / 1024 };
+}
+
+/**
+ * n shots of one sensor over SESSIONS sessions, written by SQL: a deterministic spread of
+ * distances (2–152 m) and errors (about 1.5 ± 2 mm, with repeats so quantiles meet ties),
+ * four reflectances, illuminance 0–100 klux, every fifth shot taped, one in 997 excluded.
+ */
+async function seed(url: string, n: number, memberId: string) {
+  const { createClient } = await import("@libsql/client");
+  const c = createClient({ url });
+  await c.execute("PRAGMA journal_mode = WAL");
+  const sensor = "bench-sensor";
+  await c.batch(
+    [
+      {
+        sql: `INSERT INTO sensors (id, label, serial, kind, wavelength_nm, modulation_hz, applies_air_correction, assumed_refractivity, tolerance_mm, tolerance_ppm, outdoor)
+              VALUES (?, 'Bench roof scanner', 'BR-1', 'pulsed', 905, '[]', 1, 0, 5, 10, 1)`,
+        args: [sensor],
+      },
+      { sql: `INSERT INTO sites (id, name) VALUES ('bench-site', 'Fernhollow yard baseline')`, args: [] },
+      { sql: `INSERT INTO projects (id, name, client) VALUES ('bench-project', 'River valley corridor', 'Fernhollow Geomatics')`, args: [] },
+      { sql: `INSERT INTO project_sensors (project_id, sensor_id) VALUES ('bench-project', ?)`, args: [sensor] },
+      { sql: `INSERT INTO project_members (project_id, user_id) VALUES ('bench-project', ?)`, args: [memberId] },
+      ...Array.from({ length: SESSIONS }, (_, i) => ({
+        sql: `INSERT INTO check_sessions (id, sensor_id, site_id, project_id, started_at, raw, device_id) VALUES (?, ?, 'bench-site', 'bench-project', ?, '{}', 'bench-tablet')`,
+        args: [`bench-ses-${i}`, sensor, `2026-05-${String(1 + i).padStart(2, "0")}T08:00:00+02:00`],
+      })),
+    ],
+    "write",
+  );
+  // in slices, so the bench's own memory and the write-ahead log stay small
+  const SLICE = 50_000;
+  for (let from = 0; from < n; from += SLICE) {
+    const to = Math.min(n, from + SLICE);
+    await c.execute({
+      sql: `WITH RECURSIVE k(n) AS (SELECT ? UNION ALL SELECT n + 1 FROM k WHERE n < ?),
+        v AS (SELECT n, 2 + ((n * 7919) % 150000) / 1000.0 AS d,
+                     1.5 + round(((((n * 104729) % 20011) / 20011.0) + (((n * 1299709) % 10007) / 10007.0) - 1.0) * 4.0, 2) AS e FROM k)
+        INSERT INTO shots (id, session_id, sensor_id, taken_at, raw, reference_method, reflectance_pct, illuminance_klux, device_id,
+                           reference_m, range_m, error_mm, tolerance_mm, limit_mm, within, repeatability_mm, retro, excluded, computed_at, reference_uncertainty_mm)
+        SELECT printf('bench-shot-%08d', n), 'bench-ses-' || (n % ${SESSIONS}), ?,
+               printf('2026-05-%02dT%02d:%02d:%02d+02:00', 1 + n % ${SESSIONS}, 9 + (n / 3600) % 10, (n / 60) % 60, n % 60),
+               json_object('id', printf('bench-shot-%08d', n), 'reference', CASE WHEN n % 5 = 4
+                 THEN json_object('method', 'tape', 'distanceM', d, 'tape', json_object('tapeId', 'bench-tape', 'tempC', 18, 'tensionN', 50, 'support', 'ground'))
+                 ELSE json_object('method', 'edm', 'distanceM', d) END,
+                 'readings', json_object('rangesM', json_array(d + e / 1000)), 'reflectancePct', 10, 'illuminanceKlux', (n * 37) % 101),
+               CASE WHEN n % 5 = 4 THEN 'tape' ELSE 'edm' END,
+               CASE n % 4 WHEN 0 THEN 10 WHEN 1 THEN 50 WHEN 2 THEN 85 ELSE 90 END, (n * 37) % 101, 'bench-tablet',
+               d, d + e / 1000, e, 5 + 10 * d / 1000, 2 * (5 + 10 * d / 1000), abs(e) <= 2 * (5 + 10 * d / 1000), 0.3, n % 4 = 3, n % 997 = 5,
+               '2026-05-01T00:00:00Z', 1.0 + d / 1000
+        FROM v`,
+      args: [from, to - 1, sensor],
+    });
+  }
+  await c.execute("PRAGMA wal_checkpoint(TRUNCATE)");
+  c.close();
+  return sensor;
+}
+
+type Server = { proc: ChildProcess; base: string };
+
+async function startServer(env: NodeJS.ProcessEnv, buildDir: string): Promise<Server> {
+  const port = await freePort();
+  const proc = spawn(process.execPath, ["--import", "tsx", "app/cli/serve.ts", `${buildDir}/server/index.js`], {
+    env: { ...env, PORT: String(port) },
+    stdio: ["ignore", "ignore", "inherit"],
+  });
+  const base = `http://127.0.0.1:${port}`;
+  const deadline = Date.now() + 60_000;
+  for (;;) {
+    try {
+      if ((await fetch(`${base}/healthz`)).ok) break;
+    } catch {}
+    if (proc.exitCode != null) throw new Error(`the server exited (${proc.exitCode})`);
+    if (Date.now() > deadline) throw new Error("the server did not answer /healthz within 60 s");
+    await new Promise((r) => setTimeout(r, 100));
+  }
+  return { proc, base };
+}
+
+function stopServer(s: Server): Promise<void> {
+  return new Promise((res) => {
+    if (s.proc.exitCode != null) return res();
+    s.proc.once("exit", () => res());
+    s.proc.kill("SIGTERM");
+  });
+}
+
+async function timedGet(url: string, token: string) {
+  const t = performance.now();
+  const res = await fetch(url, { headers: { Authorization: `Bearer ${token}` } });
+  const bytes = (await res.arrayBuffer()).byteLength;
+  if (!res.ok) throw new Error(`${url} answered ${res.status}`);
+  return { ms: performance.now() - t, bytes };
+}
+
+/** A database, its users (an admin and a QA member of the project) and their credentials, made in a child process. */
+async function prepare(dir: string, env: NodeJS.ProcessEnv): Promise<{ adminToken: string; qaToken: string; qaCookie: string; qaId: string }> {
+  const out = join(dir, "users.json");
+  await new Promise<void>((res, rej) => {
+    const p = spawn(process.execPath, ["--import", "tsx", "tests/bench/report-prepare.ts", out], { env, stdio: ["ignore", "inherit", "inherit"] });
+    p.on("exit", (code) => (code === 0 ? res() : rej(new Error(`report-prepare exited ${code}`))));
+  });
+  return JSON.parse(readFileSync(out, "utf8"));
+}
+
+async function pageTiming(base: string, cookie: string, sensorId: string): Promise<{ ms: number[]; marks: number }> {
+  const { chromium } = await import("playwright-core");
+  const { CHROMIUM_PATH } = await import("../e2e/chromium.ts");
+  const browser = await chromium.launch({ executablePath: CHROMIUM_PATH, headless: true, args: ["--no-sandbox", "--disable-gpu", "--no-first-run", "--disable-background-networking"] });
+  try {
+    const context = await browser.newContext({ viewport: { width: 1280, height: 900 } });
+    const [name, ...rest] = cookie.split(";")[0]!.split("=");
+    await context.addCookies([{ name: name!, value: rest.join("="), domain: "127.0.0.1", path: "/", httpOnly: true, sameSite: "Lax" }]);
+    const page = await context.newPage();
+    const ms: number[] = [];
+    let marks = 0;
+    for (let i = 0; i < 3; i++) {
+      const t = performance.now();
+      await page.goto(`${base}/review/sensors/${sensorId}`, { waitUntil: "commit" });
+      // drawn: the figures grid holds the bias, and every chart box holds its SVG
+      await page.waitForFunction(
+        () => {
+          const boxes = [...document.querySelectorAll('[role="img"]')].filter((b) => b.closest("figure"));
+          return !!document.querySelector('[data-testid="figures"]') && boxes.length >= 2 && boxes.every((b) => b.querySelector("svg"));
+        },
+        null,
+        { timeout: 60_000, polling: "raf" },
+      );
+      ms.push(performance.now() - t);
+      marks = await page.evaluate(() => document.querySelectorAll("figure svg circle, figure svg path[d], figure svg rect").length);
+    }
+    return { ms, marks };
+  } finally {
+    await browser.close();
+  }
+}
+
+export async function run(): Promise<string[]> {
+  const root = process.cwd();
+  const buildDir = process.env.RR_BUILD_DIR ?? "build";
+  if (!existsSync(resolve(root, buildDir, "server/index.js"))) return ["report: no build found: run `npm run build` first (the bench reads the report from the built server)"];
+  const lines: string[] = [];
+  lines.push(`report: load average ${loadavg().map((x) => x.toFixed(1)).join(" ")} on ${(await import("node:os")).cpus().length} cores shared with other work: wall times here are pessimistic`);
+  const sizes = [SHOTS, ...(process.env.BENCH_MILLION === "1" ? [MILLION] : [])];
+  for (const n of sizes) {
+    const dir = mkdtempSync(join(tmpdir(), "shotbook-report-bench-"));
+    const env: NodeJS.ProcessEnv = {
+      ...process.env,
+      NODE_ENV: "production",
+      HOST: "127.0.0.1",
+      DATABASE_URL: `file:${join(dir, "bench.db")}`,
+      DATA_DIR: join(dir, "data"),
+      MAIL_DIR: join(dir, "data", "mail"),
+      SMTP_URL: "smtp://127.0.0.1:9",
+      SESSION_SECRET: randomBytes(48).toString("base64"),
+      COOKIE_SECURE: "false",
+      APP_URL: "http://127.0.0.1",
+    };
+    let server: Server | null = null;
+    try {
+      const creds = await prepare(dir, env);
+      const t0 = performance.now();
+      const sensorId = await seed(env.DATABASE_URL!, n, creds.qaId);
+      const seedMs = performance.now() - t0;
+      // the first start applies nothing new and warms nothing: stop it, then measure a fresh start
+      server = await startServer(env, buildDir);
+      await stopServer(server);
+      server = await startServer(env, buildDir);
+      const pid = server.proc.pid!;
+      const url = `${server.base}/api/sensors/${sensorId}/report`;
+      const first = await timedGet(url, creds.adminToken);
+      const again: number[] = [];
+      let bytes = first.bytes;
+      for (let i = 0; i < REPEATS; i++) {
+        const r = await timedGet(url, creds.adminToken);
+        again.push(r.ms);
+        bytes = r.bytes;
+      }
+      const memberFirst = await timedGet(url, creds.qaToken);
+      const memberTimes: number[] = [];
+      for (let i = 0; i < 5; i++) memberTimes.push((await timedGet(url, creds.qaToken)).ms);
+      const memberAgain = median(memberTimes);
+      const body = (await (await fetch(url, { headers: { Authorization: `Bearer ${creds.adminToken}` } })).json()) as { n: number; excluded: number; shots?: unknown };
+      if (body.n + body.excluded !== n || body.shots !== undefined) throw new Error(`bench: the report covers ${body.n + body.excluded} shots, not ${n}, or carries rows`);
+      const withRows = n <= SHOTS ? await timedGet(`${url}?include=shots`, creds.adminToken) : null;
+      lines.push(`report: ${fmt(n)} shots of one sensor seeded by SQL in ${fmt(seedMs / 1000, 1)} s; the built server started fresh on them (pid ${pid})`);
+      if (n === SHOTS) {
+        lines.push(`report:   first view after a restart     ${fmt(first.ms, 1)} ms (target < ${TARGETS.firstMs} ms): ${met(first.ms < TARGETS.firstMs)}`);
+        lines.push(`report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms (min ${fmt(Math.min(...again), 1)}, max ${fmt(Math.max(...again), 1)}) (target < ${TARGETS.repeatMs} ms): ${met(median(again) < TARGETS.repeatMs)}`);
+        lines.push(`report:   answer without per-shot rows   ${fmt(bytes / 1024, 1)} KB (target < ${TARGETS.bytes / 1024} KB): ${met(bytes < TARGETS.bytes)}`);
+        lines.push(`report:   as a project member (scoped)   first ${fmt(memberFirst.ms, 1)} ms, repeated median ${fmt(memberAgain, 1)} ms (information)`);
+        if (withRows) lines.push(`report:   with include=shots             ${fmt(withRows.ms, 1)} ms, ${fmt(withRows.bytes / 1024 / 1024, 1)} MB (information: rows only when asked for)`);
+        const page = await pageTiming(server.base, creds.qaCookie, sensorId);
+        const best = Math.min(...page.ms);
+        lines.push(
+          `report:   QA page in Chromium, navigation to figures and charts drawn: ${page.ms.map((x) => fmt(x, 0)).join(", ")} ms (best ${fmt(best, 0)}; target < ${TARGETS.pageMs} ms): ${met(median(page.ms) < TARGETS.pageMs)} (median); ${fmt(page.marks)} SVG marks in the charts`,
+        );
+        lines.push(`report:   server peak RSS ${fmt(rssOf(pid).peakMb, 0)} MB (information at 100,000)`);
+      } else {
+        const rss = rssOf(pid);
+        lines.push(`report:   first view after a restart     ${fmt(first.ms, 1)} ms (target < ${TARGETS.millionFirstMs} ms): ${met(first.ms < TARGETS.millionFirstMs)}`);
+        lines.push(`report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms; answer ${fmt(bytes / 1024, 1)} KB`);
+        lines.push(`report:   as a project member (scoped)   first ${fmt(memberFirst.ms, 1)} ms, repeated median ${fmt(memberAgain, 1)} ms`);
+        lines.push(`report:   server peak RSS throughout (VmHWM) ${fmt(rss.peakMb, 0)} MB (target < ${TARGETS.millionRssMb} MB): ${met(rss.peakMb < TARGETS.millionRssMb)}`);
+      }
+    } finally {
+      if (server) await stopServer(server);
+      rmSync(dir, { recursive: true, force: true });
+    }
+  }
+  if (process.env.BENCH_MILLION !== "1") lines.push("report: the 1,000,000-shot run: BENCH_MILLION=1 npm run bench -- report");
+  return lines;
+}
+
+if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
+  run().then(
+    (lines) => {
+      for (const l of lines) console.log(l);
+    },
+    (e) => {
+      console.error(e);
+      process.exitCode = 1;
+    },
+  );
+}
