@@ -301,9 +301,32 @@ export const shots = sqliteTable(
     index("shots_sensor_taken").on(t.sensorId, t.takenAt, t.id),
     index("shots_session").on(t.sessionId),
     // issue 16: a sensor's included errors in ascending order straight from the index (the
-    // report's exact median, MAD and P95|e| without reading the rows or sorting them)
-    // (session_id last: a member's view filters by their sessions without leaving the index)
-    index("shots_sensor_error").on(t.sensorId, t.excluded, t.errorMm, t.sessionId),
+    // report's exact median, MAD and P95|e| without reading the rows or sorting them); the
+    // columns after error_mm make it cover the report's grouped sums and a member's session
+    // filter too, so neither reads the table rows (which carry the raw record)
+    index("shots_sensor_error").on(
+      t.sensorId,
+      t.excluded,
+      t.errorMm,
+      t.sessionId,
+      t.referenceM,
+      t.reflectancePct,
+      t.retro,
+      t.illuminanceKlux,
+      t.referenceUncertaintyMm,
+      t.airDefaulted,
+    ),
+    // issue 16: which tape or reference EDM each session of a sensor used, per day (traceability),
+    // from the index instead of parsing every shot's raw record
+    index("shots_sensor_uses").on(
+      t.sensorId,
+      t.sessionId,
+      // (->> rather than json_extract: drizzle-kit splits an index expression at its commas)
+      sql`(raw ->> '$.reference.tape.tapeId')`,
+      sql`(raw ->> '$.reference.edmId')`,
+      t.takenAt,
+      t.referenceMethod,
+    ),
   ],
 );
 

@@ -376,14 +376,16 @@ function sortedErrorsOf(row: { v: string | null; n: number } | undefined): Float
 
 /** (session, day, tape, EDM) uses of the selection's shots: a few rows per session (ranging.md §7 traceability). */
 function usesQuery(db: Db, where: SQL[]) {
-  const tapeId = sql<string | null>`json_extract(${shots.raw}, '$.reference.tape.tapeId')`;
-  const edmId = sql<string | null>`json_extract(${shots.raw}, '$.reference.edmId')`;
+  // the very expressions of the index shots_sensor_uses (app/db/schema.ts), so it covers this query
+  const tapeId = sql<string | null>`(${shots.raw} ->> '$.reference.tape.tapeId')`;
+  const edmId = sql<string | null>`(${shots.raw} ->> '$.reference.edmId')`;
   const day = sql<string>`substr(${shots.takenAt}, 1, 10)`;
+  // DISTINCT, not GROUP BY: SQLite takes DISTINCT's expressions from the index, while GROUP BY
+  // reads every raw record again (measured: 65 ms against 2 s at 100,000 shots)
   return db
-    .select({ sessionId: shots.sessionId, tapeId, edmId, day })
+    .selectDistinct({ sessionId: shots.sessionId, tapeId, edmId, day })
     .from(shots)
-    .where(and(...where, inArray(shots.referenceMethod, ["tape", "edm"])))
-    .groupBy(shots.sessionId, tapeId, edmId, day);
+    .where(and(...where, inArray(shots.referenceMethod, ["tape", "edm"])));
 }
 type Use = { sessionId: string; tapeId: string | null; edmId: string | null; day: string };
 

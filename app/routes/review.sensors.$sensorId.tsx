@@ -209,7 +209,7 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
           <div className="grid gap-6 lg:grid-cols-2">
             <section aria-labelledby="h-c2" className="card">
               <h2 id="h-c2" className="mb-2 text-2xl font-bold">Bias by reflectance × illuminance</h2>
-              {cells.length ? <MatrixChart cells={cells} worst={worst} /> : <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>}
+              {cells.length ? <MatrixChart cells={cells} worst={worst} /> : details.size === 0 && report.shots.length ? <p className="text-muted">Reading the shots' reflectance and illuminance…</p> : <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>}
             </section>
             <section aria-labelledby="h-c3" className="card">
               <h2 id="h-c3" className="mb-2 text-2xl font-bold">Bias per session</h2>

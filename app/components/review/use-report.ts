@@ -74,20 +74,23 @@ export function useSensorReport(sensorId: string, filters: ReportFilters, extras
     const ac = new AbortController();
     abortRef.current = ac;
     setLoading(true);
-    Promise.all([
-      // the per-shot rows feed the charts, the matrix and the table (api.md v1.1: only when asked for)
-      fetch(`/api/sensors/${encodeURIComponent(sensorId)}/report?${key}${key ? "&" : ""}include=shots`, { signal: ac.signal, headers: { Accept: "application/json" } }).then(async (r) => {
+    // The figures and charts draw as soon as the report is here; the shot details (photos, target
+    // labels, the matrix's classes) page in afterwards.
+    fetch(`/api/sensors/${encodeURIComponent(sensorId)}/report?${key}${key ? "&" : ""}include=shots`, { signal: ac.signal, headers: { Accept: "application/json" } })
+      .then(async (r) => {
         if (!r.ok) throw new Error(await errorOf(r));
         return (await r.json()) as ReportJson;
-      }),
-      fetchAllShots(sensorId, ac.signal, extras).catch(() => new Map<string, ShotDetail>()),
-    ])
-      .then(([r, d]) => {
+      })
+      .then((r) => {
         if (ac.signal.aborted) return;
         setReport(r);
-        setDetails(d);
         setError(null);
         setLoading(false);
+        return fetchAllShots(sensorId, ac.signal, extras)
+          .catch(() => new Map<string, ShotDetail>())
+          .then((d) => {
+            if (!ac.signal.aborted) setDetails(d);
+          });
       })
       .catch((e: unknown) => {
         if (ac.signal.aborted) return;

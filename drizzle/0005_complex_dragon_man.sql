@@ -1,1 +1,0 @@
-CREATE INDEX `shots_sensor_error` ON `shots` (`sensor_id`,`excluded`,`error_mm`,`session_id`);

@@ -1,0 +1,2 @@
+CREATE INDEX `shots_sensor_error` ON `shots` (`sensor_id`,`excluded`,`error_mm`,`session_id`,`reference_m`,`reflectance_pct`,`retro`,`illuminance_klux`,`reference_uncertainty_mm`,`air_defaulted`);--> statement-breakpoint
+CREATE INDEX `shots_sensor_uses` ON `shots` (`sensor_id`,`session_id`,(raw ->> '$.reference.tape.tapeId'),(raw ->> '$.reference.edmId'),`taken_at`,`reference_method`);
