@@ -6,13 +6,13 @@ import { ScanExtractor } from "~/domain";
 import { readPointCloud } from "~/scan/point-cloud.server";
 import { discard, receiveMultipart } from "~/utils/multipart.server";
 
-const [path, oText, centresText] = process.argv.slice(2);
+const [path, oText, centresText, fileName = "bench.las"] = process.argv.slice(2);
 const O = JSON.parse(oText) as [number, number, number];
 const centres = JSON.parse(centresText) as [number, number, number][];
 
 // the file as a browser would send it: a multipart body, streamed
 const boundary = "----shotbookbench";
-const head = `--${boundary}\r\nContent-Disposition: form-data; name="sessionId"\r\n\r\nx\r\n--${boundary}\r\nContent-Disposition: form-data; name="file"; filename="bench.las"\r\nContent-Type: application/octet-stream\r\n\r\n`;
+const head = `--${boundary}\r\nContent-Disposition: form-data; name="sessionId"\r\n\r\nx\r\n--${boundary}\r\nContent-Disposition: form-data; name="file"; filename="${fileName}"\r\nContent-Type: application/octet-stream\r\n\r\n`;
 const tail = `\r\n--${boundary}--\r\n`;
 async function* body() {
   yield new TextEncoder().encode(head);

@@ -328,10 +328,11 @@ export function point10Records(points: ArrayLike<number>, count: number, o: LazO
 
 /**
  * Writes a LAZ file to `path` from blocks of absolute xyz (metres) that `next` yields until it
- * returns null; points go out chunk by chunk, so a file of any size is written in bounded memory.
+ * returns null (it is told the bytes written so far); points go out chunk by chunk, so a file
+ * of any size is written in bounded memory.
  * Returns the point count.
  */
-export function writeLazFile(path: string, bounds: { min: V3; max: V3 }, next: () => Float64Array | null, o: LazOptions = {}): { points: number; bytes: number } {
+export function writeLazFile(path: string, bounds: { min: V3; max: V3 }, next: (bytesSoFar: number) => Float64Array | null, o: LazOptions = {}): { points: number; bytes: number } {
   const chunkSize = o.chunkSize ?? 50_000;
   const fd = openSync(path, "w");
   try {
@@ -349,7 +350,7 @@ export function writeLazFile(path: string, bounds: { min: V3; max: V3 }, next: (
       sizes.push(chunk.length);
       total += n;
     };
-    for (let block = next(); block; block = next()) {
+    for (let block = next(pos); block; block = next(pos)) {
       const all = new Float64Array(pending.length + block.length);
       all.set(pending);
       all.set(block, pending.length);
