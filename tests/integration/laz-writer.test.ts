@@ -120,7 +120,7 @@ test("the streaming reader returns the same points as the writer's input, chunk 
   expect(theirs.count).toBe(n);
 });
 
-test("LAZ faults get specific errors: no LASzip record, a chunk table outside the file", async () => {
+test("LAZ faults get specific errors: no LASzip record, no chunks, a chunk table outside the file", async () => {
   const n = 5000;
   const good = lazFileFromRecords(busyRecords(n, 9), n, { min: [0, 0, 0], max: [1, 1, 1] }, { chunkSize: 1000 });
   const noVlr = Uint8Array.from(good);
@@ -131,6 +131,10 @@ test("LAZ faults get specific errors: no LASzip record, a chunk table outside th
   new DataView(badTable.buffer).setBigInt64(parseLasHeader(good).pointsOffset, BigInt(good.length + 100), true);
   writeFileSync(resolve(dir, "badtable.laz"), badTable);
   await expect(readPointCloud(resolve(dir, "badtable.laz"), [0, 0, 0], () => {})).rejects.toThrow(/chunk table offset points outside the file/);
+  const unchunked = Uint8Array.from(good);
+  new DataView(unchunked.buffer).setUint16(227 + 54, 1, true); // LASzip compressor 1: no chunks
+  writeFileSync(resolve(dir, "unchunked.laz"), unchunked);
+  await expect(readPointCloud(resolve(dir, "unchunked.laz"), [0, 0, 0], () => {})).rejects.toThrow(/without chunks \(LASzip compressor 1\); re-compress it/);
   const cut = good.subarray(0, Math.floor(good.length / 2));
   writeFileSync(resolve(dir, "cut.laz"), cut);
   await expect(readPointCloud(resolve(dir, "cut.laz"), [0, 0, 0], () => {})).rejects.toThrow(/chunk table offset points outside the file/);
