@@ -16,8 +16,12 @@ import { rng, type V3 } from "../support/scan-fixtures";
 const dir = resolve(process.env.DATA_DIR!, "laz");
 mkdirSync(dir, { recursive: true });
 
-/** Records whose every field moves: returns, intensity, classification, angle, user data, source. */
-function busyRecords(n: number, seed: number) {
+/**
+ * Records whose every field moves: returns, intensity, classification, angle, user data, source;
+ * in format 1 also the GPS time: regular pulses, repeats (several returns of one pulse), pulses
+ * missed, gaps, steps back, and jumps to other time sequences (flight lines) and back.
+ */
+function busyRecords(n: number, seed: number, pointFormat: 0 | 1 = 0) {
   const r = rng(seed);
   const xyz = new Float64Array(3 * n);
   let x = 512_000;
@@ -28,7 +32,23 @@ function busyRecords(n: number, seed: number) {
     xyz[3 * i + 1] = 6_350_000 + (i % 89 === 0 ? r.uniform() * 1000 : r.uniform() * 0.3);
     xyz[3 * i + 2] = 100 + r.normal() * (i % 50 === 0 ? 50 : 0.02);
   }
-  const records = point10Records(xyz, n, { offset: [512_000, 6_350_000, 100] }, (dv, at, i) => {
+  const lines = [1_000_000.5, 1_003_600.25, 250_000_000.125, 1e9];
+  let line = 0;
+  let gps = lines[0];
+  const records = point10Records(xyz, n, { offset: [512_000, 6_350_000, 100], pointFormat }, (dv, at, i) => {
+    if (pointFormat === 1) {
+      const u = r.uniform();
+      if (u < 0.02) (line = (line + 1 + Math.floor(r.uniform() * 3)) % 4), (gps = lines[line] + r.uniform() * 10);
+      else if (u < 0.3) {
+        /* another return of the same pulse: the same time */
+      } else if (u < 0.33) gps += r.uniform() * 5; // a gap
+      else if (u < 0.35) gps -= r.uniform() * 1e-3; // a step back
+      else if (u < 0.4) gps += 1e-5 * (2 + Math.floor(r.uniform() * 8)); // a few pulses missed
+      else if (u < 0.43) gps += 1e-5 * (10 + Math.floor(r.uniform() * 480)); // many missed
+      else gps += 1e-5 * (1 + (i % 3 === 0 ? 0 : r.uniform() * 1e-3));
+      lines[line] = gps;
+      dv.setFloat64(at + 20, gps, true);
+    }
     const nret = 1 + Math.floor(r.uniform() * (i % 3 === 0 ? 5 : 1));
     const ret = 1 + Math.floor(r.uniform() * nret);
     dv.setUint16(at + 12, i % 7 === 0 ? Math.floor(r.uniform() * 65536) : 1000 + (i % 5), true);
@@ -62,16 +82,19 @@ async function lazPerfDecode(bytes: Uint8Array) {
 }
 
 test.each([
-  ["several chunks and a last chunk of one point", 12_001, 2000],
-  ["one chunk", 3000, 50_000],
-  ["a single point", 1, 50_000],
-])("laz-perf decodes every point the writer encoded (%s)", async (_name, n, chunkSize) => {
-  const records = busyRecords(n, n);
-  const bytes = lazFileFromRecords(records, n, { min: [0, 0, 0], max: [1, 1, 1] }, { offset: [512_000, 6_350_000, 100], chunkSize });
+  ["format 0, several chunks and a last chunk of one point", 12_001, 2000, 0],
+  ["format 0, one chunk", 3000, 50_000, 0],
+  ["format 0, a single point", 1, 50_000, 0],
+  ["format 1 (GPS time), several chunks", 20_001, 4000, 1],
+  ["format 1 (GPS time), a single point", 1, 50_000, 1],
+] as const)("laz-perf decodes every point the writer encoded (%s)", async (_name, n, chunkSize, pointFormat) => {
+  const records = busyRecords(n, n, pointFormat);
+  const bytes = lazFileFromRecords(records, n, { min: [0, 0, 0], max: [1, 1, 1] }, { offset: [512_000, 6_350_000, 100], chunkSize, pointFormat });
   expect(parseLasHeader(bytes).compressed).toBe(true);
+  expect(parseLasHeader(bytes).pointFormat).toBe(pointFormat);
   const theirs = await lazPerfDecode(bytes);
   expect(theirs.count).toBe(n);
-  expect(theirs.len).toBe(20);
+  expect(theirs.len).toBe(pointFormat === 1 ? 28 : 20);
   let firstBad = -1;
   for (let i = 0; i < records.length; i++) {
     if (records[i] !== theirs.out[i]) {
@@ -81,7 +104,7 @@ test.each([
   }
   expect(firstBad).toBe(-1);
   // and it is compressed: busy records of 20 bytes come out well under 20 bytes each
-  if (n > 1000) expect(bytes.length / n).toBeLessThan(14);
+  if (n > 1000) expect(bytes.length / n).toBeLessThan(pointFormat === 1 ? 20 : 14);
 });
 
 test("the streaming reader returns the same points as the writer's input, chunk by chunk, from a file on disk", async () => {

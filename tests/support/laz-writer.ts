@@ -1,13 +1,14 @@
 // A minimal LAZ writer for test fixtures (issue 18): LASzip-compatible chunked compression
-// ("compressor" 2, coder 0) of LAS 1.2 point format 0 (the POINT10 item, version 2). No LAZ
-// encoder runs on Node from the npm registry (laz-perf ships only decoders in its wasm), so the
-// encoder side is ported from the open LASzip sources as laz-perf carries them (M. Isenburg,
-// rapidlasso; Apache-2.0): cpp/lazperf/encoder.hpp (arithmetic encoder), compressor.hpp
-// (integer compressor), detail/field_point10.cpp (Point10Compressor), utils.hpp
-// (streaming_median), writers.cpp and lazperf.cpp (chunk table, compress_chunk_table), vlr.cpp
-// (the LASzip VLR). The adaptive models are shared with the app's chunk-table decoder
-// (app/scan/laszip.ts). tests/integration/laz-writer.test.ts proves the output by decoding it
-// with laz-perf and comparing every byte of every point.
+// ("compressor" 2, coder 0) of LAS 1.2 point formats 0 and 1 (the POINT10 and GPSTIME11 items,
+// version 2). No LAZ encoder runs on Node from the npm registry (laz-perf ships only decoders
+// in its wasm), so the encoder side is ported from the open LASzip sources as laz-perf carries
+// them (M. Isenburg, rapidlasso; Apache-2.0): cpp/lazperf/encoder.hpp (arithmetic encoder),
+// compressor.hpp (integer compressor), detail/field_point10.cpp (Point10Compressor),
+// detail/field_gpstime10.cpp (Gpstime10Compressor), utils.hpp (streaming_median), writers.cpp
+// and lazperf.cpp (chunk table, compress_chunk_table), vlr.cpp (the LASzip VLR). The adaptive
+// models are shared with the app's chunk-table decoder (app/scan/laszip.ts).
+// tests/integration/laz-writer.test.ts proves the output by decoding it with laz-perf and
+// comparing every byte of every point.
 import { closeSync, openSync, writeSync } from "node:fs";
 import { AC_MAX_LENGTH, AC_MIN_LENGTH, BitModel, BM_LENGTH_SHIFT, DM_LENGTH_SHIFT, IntegerModels, SymbolModel } from "~/scan/laszip";
 import { lasHeader, type V3 } from "./scan-fixtures";
@@ -202,13 +203,135 @@ function unpack(dv: DataView, o: number): P10 {
   };
 }
 
+// GPSTIME11 version 2 (field_gpstime10.cpp): the time as the 64-bit integer of its double's bits
+const GPS_MULTI = 500;
+const GPS_MULTI_MINUS = -10;
+const GPS_MULTI_UNCHANGED = GPS_MULTI - GPS_MULTI_MINUS + 1;
+const GPS_MULTI_CODE_FULL = GPS_MULTI - GPS_MULTI_MINUS + 2;
+const GPS_MULTI_TOTAL = GPS_MULTI - GPS_MULTI_MINUS + 6;
+
+class GpsTimeCompressor {
+  private readonly mMulti = new SymbolModel(GPS_MULTI_TOTAL);
+  private readonly m0diff = new SymbolModel(6);
+  private readonly ic = new IntegerModels(32, 9);
+  private last = 0;
+  private next = 0;
+  private readonly lastGps: bigint[];
+  private readonly lastDiff = [0, 0, 0, 0];
+  private readonly extreme = [0, 0, 0, 0];
+  constructor(first: bigint) {
+    this.lastGps = [first, 0n, 0n, 0n];
+  }
+  /** The difference when it fits 32 bits, else null. */
+  private diff32(v: bigint, i: number): number | null {
+    const d = BigInt.asIntN(64, v - this.lastGps[i]);
+    return d === BigInt.asIntN(32, d) ? Number(d) : null;
+  }
+  private startSequence(enc: ArithmeticEncoder, v: bigint) {
+    enc.compressInt(this.ic, Number(BigInt.asIntN(32, this.lastGps[this.last] >> 32n)), Number(BigInt.asIntN(32, v >> 32n)), 8);
+    const low = Number(BigInt.asUintN(32, v));
+    enc.writeBits(16, low & 0xffff);
+    enc.writeBits(16, low >>> 16);
+    this.next = (this.next + 1) & 3;
+    this.last = this.next;
+    this.lastDiff[this.last] = 0;
+    this.extreme[this.last] = 0;
+  }
+  private extremeSeen(curr: number) {
+    if (++this.extreme[this.last] > 3) {
+      this.lastDiff[this.last] = curr;
+      this.extreme[this.last] = 0;
+    }
+  }
+  compress(enc: ArithmeticEncoder, v: bigint): void {
+    const last = this.last;
+    if (this.lastDiff[last] === 0) {
+      if (v === this.lastGps[last]) return enc.encodeSymbol(this.m0diff, 0);
+      const curr = this.diff32(v, last);
+      if (curr != null) {
+        enc.encodeSymbol(this.m0diff, 1);
+        enc.compressInt(this.ic, 0, curr, 0);
+        this.lastDiff[last] = curr;
+        this.extreme[last] = 0;
+      } else {
+        for (let i = 1; i < 4; i++) {
+          if (this.diff32(v, (last + i) & 3) != null) {
+            enc.encodeSymbol(this.m0diff, i + 2);
+            this.last = (last + i) & 3;
+            return this.compress(enc, v);
+          }
+        }
+        enc.encodeSymbol(this.m0diff, 2);
+        this.startSequence(enc, v);
+      }
+      this.lastGps[this.last] = v;
+      return;
+    }
+    if (v === this.lastGps[last]) return enc.encodeSymbol(this.mMulti, GPS_MULTI_UNCHANGED);
+    const curr = this.diff32(v, last);
+    if (curr != null) {
+      const f = Math.fround(Math.fround(curr) / Math.fround(this.lastDiff[last]));
+      const multi = Math.sign(f) * Math.round(Math.abs(f)); // std::round: halves away from zero
+      const ld = this.lastDiff[last];
+      if (multi === 1) {
+        enc.encodeSymbol(this.mMulti, 1);
+        enc.compressInt(this.ic, ld, curr, 1);
+        this.extreme[last] = 0;
+      } else if (multi > 0) {
+        if (multi < GPS_MULTI) {
+          enc.encodeSymbol(this.mMulti, multi);
+          enc.compressInt(this.ic, Math.imul(multi, ld), curr, multi < 10 ? 2 : 3);
+        } else {
+          enc.encodeSymbol(this.mMulti, GPS_MULTI);
+          enc.compressInt(this.ic, Math.imul(GPS_MULTI, ld), curr, 4);
+          this.extremeSeen(curr);
+        }
+      } else if (multi < 0) {
+        if (multi > GPS_MULTI_MINUS) {
+          enc.encodeSymbol(this.mMulti, GPS_MULTI - multi);
+          enc.compressInt(this.ic, Math.imul(multi, ld), curr, 5);
+        } else {
+          enc.encodeSymbol(this.mMulti, GPS_MULTI - GPS_MULTI_MINUS);
+          enc.compressInt(this.ic, Math.imul(GPS_MULTI_MINUS, ld), curr, 6);
+          this.extremeSeen(curr);
+        }
+      } else {
+        enc.encodeSymbol(this.mMulti, 0);
+        enc.compressInt(this.ic, 0, curr, 7);
+        this.extremeSeen(curr);
+      }
+    } else {
+      for (let i = 1; i < 4; i++) {
+        if (this.diff32(v, (last + i) & 3) != null) {
+          enc.encodeSymbol(this.mMulti, GPS_MULTI_CODE_FULL + i);
+          this.last = (last + i) & 3;
+          return this.compress(enc, v);
+        }
+      }
+      enc.encodeSymbol(this.mMulti, GPS_MULTI_CODE_FULL);
+      this.startSequence(enc, v);
+    }
+    this.lastGps[this.last] = v;
+  }
+}
+
 /** Compresses one chunk of POINT10 records (20 bytes each) as LASzip does. */
 export function compressPoint10Chunk(records: Uint8Array, count: number): Uint8Array {
+  return compressChunk(records, count, 0);
+}
+
+/**
+ * Compresses one chunk of point records as LASzip does: format 0 (POINT10, 20 bytes) or
+ * format 1 (POINT10 then GPSTIME11, 28 bytes).
+ */
+export function compressChunk(records: Uint8Array, count: number, format: 0 | 1): Uint8Array {
+  const len = format === 1 ? 28 : 20;
   const out = new ByteSink();
   const enc = new ArithmeticEncoder(out);
   const dv = new DataView(records.buffer, records.byteOffset, records.byteLength);
   // the first point goes out raw, ahead of the arithmetic-coded stream
-  for (let i = 0; i < 20; i++) out.push(records[i]);
+  for (let i = 0; i < len; i++) out.push(records[i]);
+  const gps = format === 1 ? new GpsTimeCompressor(dv.getBigInt64(20, true)) : null;
   let last = unpack(dv, 0);
   const lastIntensity = new Array<number>(16).fill(0);
   const medX = Array.from({ length: 16 }, () => new Median5());
@@ -227,7 +350,7 @@ export function compressPoint10Chunk(records: Uint8Array, count: number): Uint8A
   const icZ = new IntegerModels(32, 20);
   const clearBit0 = (k: number) => k & ~1;
   for (let i = 1; i < count; i++) {
-    const p = unpack(dv, 20 * i);
+    const p = unpack(dv, len * i);
     const r = p.bits & 7;
     const n = (p.bits >> 3) & 7;
     const m = NUMBER_RETURN_MAP[n][r];
@@ -261,6 +384,7 @@ export function compressPoint10Chunk(records: Uint8Array, count: number): Uint8A
     enc.compressInt(icZ, lastHeight[l], p.z, (n === 1 ? 1 : 0) + (kBits < 18 ? clearBit0(kBits) : 18));
     lastHeight[l] = p.z;
     last = p;
+    if (gps) gps.compress(enc, dv.getBigInt64(len * i + 20, true));
   }
   enc.done();
   return out.bytes();
@@ -281,18 +405,21 @@ export function chunkTable(chunkBytes: number[]): Uint8Array {
   return out.bytes();
 }
 
-export type LazOptions = { scale?: V3; offset?: V3; chunkSize?: number; vlrOtherFirst?: boolean };
+export type LazOptions = { scale?: V3; offset?: V3; chunkSize?: number; pointFormat?: 0 | 1 };
 
-/** LAS 1.2 header + LASzip VLR for format 0 (compressed), `count` points. */
+/** LAS 1.2 header + LASzip VLR for format 0 or 1 (compressed), `count` points. */
 export function lazHeader(count: number, bounds: { min: V3; max: V3 }, o: LazOptions = {}): Uint8Array {
-  const { header } = lasHeader(count, bounds, { version: 2, pointFormat: 0, scale: o.scale, offset: o.offset, vlrBytes: 40 });
+  const fmt = o.pointFormat ?? 0;
+  const items = fmt === 1 ? 2 : 1;
+  const vlrBytes = 34 + 6 * items;
+  const { header } = lasHeader(count, bounds, { version: 2, pointFormat: fmt, scale: o.scale, offset: o.offset, vlrBytes });
   const dv = new DataView(header.buffer);
-  header[104] = 0x80; // format 0, LASzip-compressed (bit 7)
+  header[104] = 0x80 | fmt; // LASzip-compressed (bit 7)
   const at = 227;
   header.fill(0, at + 2, at + 54);
   [..."laszip encoded"].forEach((ch, i) => (header[at + 2 + i] = ch.charCodeAt(0)));
   dv.setUint16(at + 18, 22204, true);
-  dv.setUint16(at + 20, 40, true);
+  dv.setUint16(at + 20, vlrBytes, true);
   [..."Shotbook test writer"].forEach((ch, i) => (header[at + 22 + i] = ch.charCodeAt(0)));
   const b = at + 54;
   dv.setUint16(b, 2, true); // compressor: pointwise chunked
@@ -304,24 +431,34 @@ export function lazHeader(count: number, bounds: { min: V3; max: V3 }, o: LazOpt
   dv.setUint32(b + 12, o.chunkSize ?? 50_000, true);
   dv.setBigInt64(b + 16, -1n, true); // number of special EVLRs: none
   dv.setBigInt64(b + 24, -1n, true);
-  dv.setUint16(b + 32, 1, true); // one item: POINT10 (type 6), 20 bytes, version 2
+  dv.setUint16(b + 32, items, true); // POINT10 (type 6), 20 bytes, version 2; GPSTIME11 (type 7), 8 bytes, version 2
   dv.setUint16(b + 34, 6, true);
   dv.setUint16(b + 36, 20, true);
   dv.setUint16(b + 38, 2, true);
+  if (fmt === 1) {
+    dv.setUint16(b + 40, 7, true);
+    dv.setUint16(b + 42, 8, true);
+    dv.setUint16(b + 44, 2, true);
+  }
   return header;
 }
 
-/** POINT10 records of absolute coordinates; `fill` sets the other fields of record i. */
+/**
+ * Point records (format 0: 20 bytes, format 1: 28 with the GPS time, here 0.1 ms apart from
+ * 1 000 000 s) of absolute coordinates; `fill` sets the other fields of record i.
+ */
 export function point10Records(points: ArrayLike<number>, count: number, o: LazOptions = {}, fill?: (dv: DataView, at: number, i: number) => void): Uint8Array {
   const scale = o.scale ?? [0.0001, 0.0001, 0.0001];
   const offset = o.offset ?? [0, 0, 0];
-  const buf = new Uint8Array(count * 20);
+  const len = o.pointFormat === 1 ? 28 : 20;
+  const buf = new Uint8Array(count * len);
   const dv = new DataView(buf.buffer);
   for (let i = 0; i < count; i++) {
-    for (let k = 0; k < 3; k++) dv.setInt32(20 * i + 4 * k, Math.round((points[3 * i + k] - offset[k]) / scale[k]), true);
-    dv.setUint16(20 * i + 12, 1000, true);
-    dv.setUint8(20 * i + 14, 0b001001); // return 1 of 1
-    if (fill) fill(dv, 20 * i, i);
+    for (let k = 0; k < 3; k++) dv.setInt32(len * i + 4 * k, Math.round((points[3 * i + k] - offset[k]) / scale[k]), true);
+    dv.setUint16(len * i + 12, 1000, true);
+    dv.setUint8(len * i + 14, 0b001001); // return 1 of 1
+    if (len === 28) dv.setFloat64(len * i + 20, 1_000_000 + i * 1e-4, true);
+    if (fill) fill(dv, len * i, i);
   }
   return buf;
 }
@@ -344,7 +481,7 @@ export function writeLazFile(path: string, bounds: { min: V3; max: V3 }, next: (
     let total = 0;
     let pending = new Float64Array(0);
     const flush = (xyz: Float64Array, n: number) => {
-      const chunk = compressPoint10Chunk(point10Records(xyz, n, o), n);
+      const chunk = compressChunk(point10Records(xyz, n, o), n, o.pointFormat ?? 0);
       writeSync(fd, chunk, 0, chunk.length, pos);
       pos += chunk.length;
       sizes.push(chunk.length);
@@ -378,14 +515,15 @@ export function writeLazFile(path: string, bounds: { min: V3; max: V3 }, next: (
   }
 }
 
-/** A whole LAZ file in memory from point records (20-byte POINT10), for small fixtures. */
+/** A whole LAZ file in memory from point records (format 0 or 1), for small fixtures. */
 export function lazFileFromRecords(records: Uint8Array, count: number, bounds: { min: V3; max: V3 }, o: LazOptions = {}): Uint8Array {
   const chunkSize = o.chunkSize ?? 50_000;
   const head = lazHeader(count, bounds, o);
   const chunks: Uint8Array[] = [];
+  const len = o.pointFormat === 1 ? 28 : 20;
   for (let at = 0; at < count; at += chunkSize) {
     const n = Math.min(chunkSize, count - at);
-    chunks.push(compressPoint10Chunk(records.subarray(20 * at, 20 * (at + n)), n));
+    chunks.push(compressChunk(records.subarray(len * at, len * (at + n)), n, o.pointFormat ?? 0));
   }
   const table = chunkTable(chunks.map((c) => c.length));
   const size = head.length + 8 + chunks.reduce((s, c) => s + c.length, 0) + table.length;
