@@ -51,3 +51,5 @@ export { ScanExtractor, planeFromMoments, planeFromPoints, rangeAlongRay, emptyM
 export type { Moments, PlaneFit, ScanTarget, ScanTargetResult } from "./scan.ts";
 export { depthFrameFromRaw, depthFromCorrelation, frameTarget, checkBox, checkIntrinsics } from "./depth.ts";
 export type { Intrinsics, Box, DepthFrame, FrameTargetResult } from "./depth.ts";
+export { biasDrift, DRIFT_RUN_LENGTH } from "./drift.ts";
+export type { BiasDrift } from "./drift.ts";

@@ -4,7 +4,7 @@
 import { and, asc, desc, eq, inArray, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { auditLog, checkSessions, exclusions, shots, sites, users } from "~/db/schema";
-import { pastDueOn, sessionHistoryFigures } from "~/domain";
+import { biasDrift, pastDueOn, sessionHistoryFigures } from "~/domain";
 import { listSignOffs, sensorReviewHeader, type ReviewActor } from "~/models/signoffs.server";
 import { getSensor } from "~/models/sensors.server";
 
@@ -97,6 +97,8 @@ export async function sensorHistory(actor: ReviewActor, sensorId: string, months
     sensor: { ...head.sensor, certNumber: row.certNumber, certLaboratory: row.certLaboratory, certIssued: row.certIssued, certDue: row.certDue },
     months,
     sessions,
+    // drift across sessions: bias trend (t test of the slope) and Nelson's test 3 (ranging.md §7 history)
+    drift: biasDrift(sessions),
     signOffs,
     certificateEvents: certEvents,
     exclusions: excl.map(({ byEmail, ...x }) => ({ ...x, byName: x.byName || byEmail })),

@@ -1,7 +1,7 @@
 // Shots: the server's authoritative computation from the raw observation (every derived
 // column comes from ~/domain's computeShot, never from the tablet), its recomputation when a
 // sensor's spec, a rule, a tape or a site changes, and the shot table / map queries.
-import { and, asc, eq, gt, gte, inArray, isNotNull, lt, lte, or, sql, type SQL } from "drizzle-orm";
+import { and, asc, eq, gt, gte, inArray, isNotNull, isNull, lt, lte, or, sql, type SQL } from "drizzle-orm";
 import type { SQLiteColumn } from "drizzle-orm/sqlite-core";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, checkSessions, edms, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
@@ -487,6 +487,24 @@ export function recomputeShotsForEdm(edmId: string): Promise<number> {
 /** After a tape's constants changed. */
 export function recomputeShotsForTape(tapeId: string): Promise<number> {
   return recomputeWhere(sql`json_extract(${shots.raw}, '$.reference.tape.tapeId') = ${tapeId}`);
+}
+
+/** The audit mark of the one-time backfill of u_ref (issue 15). */
+export const BACKFILL_REFERENCE_UNCERTAINTY_ACTION = "shots.backfill_reference_uncertainty";
+
+/**
+ * Shots stored before migration 0002 have no reference uncertainty (the column came in empty),
+ * which the report would count as "unknown" until something recomputed them. Run after the
+ * migrations: recomputes, once, every shot whose u_ref is empty, then leaves a mark in the audit
+ * log so later starts skip it. Idempotent: recomputation from the raw record gives the same
+ * figures, and shots whose u_ref is truly unknown simply stay null.
+ */
+export async function backfillReferenceUncertainty(db: Db = getDb()): Promise<{ ran: boolean; updated: number }> {
+  const mark = await db.select({ id: auditLog.id }).from(auditLog).where(eq(auditLog.action, BACKFILL_REFERENCE_UNCERTAINTY_ACTION)).limit(1);
+  if (mark.length) return { ran: false, updated: 0 };
+  const updated = await recomputeWhere(isNull(shots.referenceUncertaintyMm), db);
+  await db.insert(auditLog).values({ actorUserId: null, action: BACKFILL_REFERENCE_UNCERTAINTY_ACTION, entity: "shots", entityId: null, detail: { shots: updated } });
+  return { ran: true, updated };
 }
 
 // ---------------------------------------------------------------------------------------------

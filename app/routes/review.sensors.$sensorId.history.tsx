@@ -21,9 +21,13 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 }
 
 export default function SensorHistory({ loaderData }: Route.ComponentProps) {
-  const { sensor, months, sessions, signOffs, certificateEvents, exclusions } = loaderData;
-  // the chart's triangles mean drift against a sign-off; sessions past a certificate's due date are marked in the table below
-  const drift = sessions.map((s) => ({ sessionId: s.sessionId, startedAt: s.startedAt, n: s.n, biasMm: s.biasMm, flag: false }));
+  const { sensor, months, sessions, signOffs, certificateEvents, exclusions, drift: trend } = loaderData;
+  // here the triangles are the sessions of a run moving one way (Nelson's test 3); squares the
+  // sessions held while the certificate was past due; the dotted line the least-squares trend
+  const inRun = new Set(trend.runIndices);
+  const drift = sessions.map((s, i) => ({ sessionId: s.sessionId, startedAt: s.startedAt, n: s.n, biasMm: s.biasMm, flag: inRun.has(i) }));
+  const pastDueIds = sessions.filter((s) => s.certificatePastDue).map((s) => s.sessionId);
+  const slope = trend.slopeMmPerYear;
   return (
     <div className="space-y-6" data-testid="sensor-history">
       <p>
@@ -49,7 +53,50 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
       <section className="card" aria-labelledby="h-drift">
         <h2 id="h-drift" className="mb-2 text-2xl font-bold">Bias per session</h2>
         {drift.some((d) => d.biasMm != null) ? (
-          <DriftChart drift={drift} biasLimitMm={sensor.toleranceMm} />
+          <>
+            <ul className="mb-3 space-y-1" data-testid="history-drift">
+              <li>
+                <strong>Trend:</strong>{" "}
+                {slope == null || trend.df == null ? (
+                  <span className="text-muted">needs at least 3 sessions with shots on different dates</span>
+                ) : (
+                  <>
+                    {slope >= 0 ? "+" : "−"}
+                    {Math.abs(slope).toFixed(2)} mm per year (± {trend.slopeSeMmPerYear!.toFixed(2)}), t = {trend.t == null ? "—" : trend.t.toFixed(2)} with {trend.df} degrees of freedom:{" "}
+                    {trend.trendSignificant ? (
+                      <strong className="text-fail">⚠ significant drift (|t| above the 97.5 % t quantile)</strong>
+                    ) : (
+                      "not significant at 95 %"
+                    )}
+                  </>
+                )}{" "}
+                <span className="text-sm text-muted">(least-squares slope of session bias on time, t test of a zero slope)</span>
+              </li>
+              <li>
+                <strong>Run:</strong>{" "}
+                {trend.runIndices.length ? (
+                  <strong className="text-fail">
+                    ⚠ {trend.runIndices.length} sessions in a row moving {trend.runDirection === "up" ? "up" : "down"}
+                  </strong>
+                ) : (
+                  "no six sessions in a row moving one way"
+                )}{" "}
+                <span className="text-sm text-muted">(Nelson's test 3: six in a row steadily increasing or decreasing)</span>
+              </li>
+              {pastDueIds.length ? (
+                <li>
+                  <strong className="text-fail">⚠ {pastDueIds.length} session{pastDueIds.length === 1 ? "" : "s"} held with the certificate past due</strong>
+                </li>
+              ) : null}
+            </ul>
+            <DriftChart
+              drift={drift}
+              biasLimitMm={sensor.toleranceMm}
+              pastDueIds={pastDueIds}
+              trendLine={trend.line}
+              flagLegend="drift: in a run of six or more sessions moving one way (Nelson's test 3)"
+            />
+          </>
         ) : (
           <p className="text-muted">No included shots in this period.</p>
         )}
@@ -69,11 +116,12 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
                   <th scope="col" className="py-2 pr-3 text-right">n</th>
                   <th scope="col" className="py-2 pr-3 text-right">Bias</th>
                   <th scope="col" className="py-2 pr-3 text-right">RMSE</th>
+                  <th scope="col" className="py-2 pr-3">Drift</th>
                   <th scope="col" className="py-2">Certificate</th>
                 </tr>
               </thead>
               <tbody>
-                {sessions.map((s) => (
+                {sessions.map((s, i) => (
                   <tr key={s.sessionId} className="border-b border-line num">
                     <td className="py-2 pr-3 whitespace-nowrap">{dateTime(s.startedAt)}</td>
                     <td className="py-2 pr-3">{s.siteName}</td>
@@ -83,6 +131,7 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
                     </td>
                     <td className={`py-2 pr-3 text-right ${s.biasMm != null && Math.abs(s.biasMm) > sensor.toleranceMm ? "font-bold text-fail" : ""}`}>{mmSigned(s.biasMm, 2)}</td>
                     <td className="py-2 pr-3 text-right">{mm(s.rmseMm, 2)}</td>
+                    <td className="py-2 pr-3">{inRun.has(i) ? <strong className="text-warn">▲ in a run {trend.runDirection === "up" ? "up" : "down"}</strong> : ""}</td>
                     <td className="py-2">{s.certificatePastDue ? <strong className="text-fail">⚠ past due</strong> : "valid"}</td>
                   </tr>
                 ))}

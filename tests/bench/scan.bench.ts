@@ -1,14 +1,17 @@
-// Bench of check-shots from a point cloud (issue 18, ranging.md §8): generates a LAS 1.2 file of
-// BENCH_SCAN_MB megabytes (200 by default) with a dozen boards among clutter, then, in a child
-// process, streams it through the multipart reader to disk (as POST /api/scans receives it) and
-// runs the one-pass extraction over it. Prints the extraction rate (million points/s) and the
-// child's peak RSS. Prints, never asserts. Targets: ≥ 5 M points/s, < 400 MB RSS.
-// Run alone: npx tsx tests/bench/run.ts scan   (BENCH_SCAN=0 skips it)
+// Bench of check-shots from a point cloud (issue 18, ranging.md §8): generates a LAS 1.2 file and
+// a LAZ file (LASzip-compressed, written by tests/support/laz-writer.ts) of BENCH_SCAN_MB
+// megabytes each (200 by default) with a dozen boards among clutter, then, in a child process
+// per file, streams it through the multipart reader to disk (as POST /api/scans receives it) and
+// runs the one-pass extraction over it (the LAZ decoded chunk by chunk). Prints the extraction
+// rate (million points/s) and the child's peak RSS. Prints, never asserts. Targets: ≥ 5 M
+// points/s, < 400 MB RSS. Run alone: npx tsx tests/bench/run.ts scan   (BENCH_SCAN=0 skips it;
+// BENCH_SCAN_LAZ=0 skips the LAZ file)
 import { spawnSync } from "node:child_process";
 import { closeSync, mkdtempSync, openSync, rmSync, writeSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { fileURLToPath } from "node:url";
+import { writeLazFile } from "../support/laz-writer";
 import { boardPoints, lasHeader, lasRecords, rng, type Board, type V3 } from "../support/scan-fixtures";
 
 const MB = Number(process.env.BENCH_SCAN_MB ?? 200);
@@ -33,37 +36,72 @@ export async function run(): Promise<string[]> {
     writeSync(fd, header);
     const boardPts = boards.flatMap((b, i) => boardPoints(O, b, rng(i + 1)));
     writeSync(fd, lasRecords(boardPts, recordLength, opts));
-    const r = rng(77);
     const BLOCK = 200_000;
-    for (let done = boardPts.length; done < total; ) {
-      const n = Math.min(BLOCK, total - done);
+    // a scanner's spread: ground, walls and trees within 100 m, none on the boards
+    const clutterBlock = (r: ReturnType<typeof rng>, n: number) => {
       const xyz = new Float64Array(3 * n);
       for (let i = 0; i < n; i++) {
-        // a scanner's spread: ground, walls and trees within 100 m, none on the boards
         xyz[3 * i] = O[0] + (r.uniform() - 0.5) * 200;
         xyz[3 * i + 1] = O[1] + (r.uniform() - 0.5) * 200;
         xyz[3 * i + 2] = O[2] - 1.6 + r.uniform() * (i % 4 === 0 ? 12 : 0.05);
       }
-      writeSync(fd, lasRecords(xyz, recordLength, opts));
+      return xyz;
+    };
+    let r = rng(77);
+    for (let done = boardPts.length; done < total; ) {
+      const n = Math.min(BLOCK, total - done);
+      writeSync(fd, lasRecords(clutterBlock(r, n), recordLength, opts));
       done += n;
     }
     closeSync(fd);
     const made = (performance.now() - t0) / 1000;
-    const child = spawnSync(process.execPath, ["--import", "tsx", fileURLToPath(new URL("./scan-child.ts", import.meta.url)), path, JSON.stringify(O), JSON.stringify(boards.map((b) => b.centre))], {
-      encoding: "utf8",
-      env: { ...process.env },
-      maxBuffer: 1 << 20,
-    });
-    if (child.status !== 0) throw new Error(child.stderr || child.stdout || `child exited ${child.status}`);
-    const m = JSON.parse(child.stdout.trim().split("\n").pop()!);
+    const lines = [`  LAS: generated ${MB} MB LAS 1.2 (format 1, ${(total / 1e6).toFixed(2)} M points, 12 boards) in ${made.toFixed(1)} s`, ...measure(path, "bench.las", total, MB, O, boards)];
+    rmSync(path, { force: true });
+    if (process.env.BENCH_SCAN_LAZ === "0") return [...lines, "  LAZ: skipped (BENCH_SCAN_LAZ=0)"];
+
+    // the same scene LASzip-compressed (format 0), points added until the file is MB megabytes
+    const lazPath = join(dir, "bench.laz");
+    const t1 = performance.now();
+    r = rng(78);
+    let first = true;
+    const written = writeLazFile(
+      lazPath,
+      { min: [O[0] - 100, O[1] - 100, O[2] - 10], max: [O[0] + 100, O[1] + 100, O[2] + 10] },
+      (bytes) => {
+        if (first) {
+          first = false;
+          const xyz = new Float64Array(boardPts.flat());
+          return xyz;
+        }
+        return bytes >= MB * 1e6 ? null : clutterBlock(r, BLOCK);
+      },
+      { offset: opts.offset },
+    );
+    const madeLaz = (performance.now() - t1) / 1000;
+    const lazMb = written.bytes / 1e6;
     return [
-      `  generated ${MB} MB LAS 1.2 (format 1, ${(total / 1e6).toFixed(2)} M points, 12 boards) in ${made.toFixed(1)} s`,
-      `  upload streamed to disk (multipart, SHA-256): ${m.uploadS.toFixed(2)} s (${(MB / m.uploadS).toFixed(0)} MB/s)`,
-      `  extraction, one pass: ${m.extractS.toFixed(2)} s = ${(total / m.extractS / 1e6).toFixed(1)} M points/s (target ≥ 5)`,
-      `  targets found ${m.found}/12, worst |range − analytic| ${m.worstMm.toFixed(3)} mm`,
-      `  peak RSS of the process (upload + extraction): ${(m.maxRssKb / 1024).toFixed(0)} MB (target < 400 MB)`,
+      ...lines,
+      `  LAZ: generated ${lazMb.toFixed(0)} MB LAZ 1.2 (format 0, LASzip chunks of 50 000, ${(written.points / 1e6).toFixed(2)} M points, ${(written.bytes / written.points).toFixed(1)} bytes/point) in ${madeLaz.toFixed(1)} s`,
+      ...measure(lazPath, "bench.laz", written.points, lazMb, O, boards),
     ];
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }
+}
+
+/** Upload and extraction of one file in a child process of its own (its peak RSS is theirs). */
+function measure(path: string, name: string, total: number, MB: number, O: V3, boards: Board[]): string[] {
+  const child = spawnSync(process.execPath, ["--import", "tsx", fileURLToPath(new URL("./scan-child.ts", import.meta.url)), path, JSON.stringify(O), JSON.stringify(boards.map((b) => b.centre)), name], {
+    encoding: "utf8",
+    env: { ...process.env },
+    maxBuffer: 1 << 20,
+  });
+  if (child.status !== 0) throw new Error(child.stderr || child.stdout || `child exited ${child.status}`);
+  const m = JSON.parse(child.stdout.trim().split("\n").pop()!);
+  return [
+    `    upload streamed to disk (multipart, SHA-256): ${m.uploadS.toFixed(2)} s (${(MB / m.uploadS).toFixed(0)} MB/s)`,
+    `    extraction, one pass: ${m.extractS.toFixed(2)} s = ${(total / m.extractS / 1e6).toFixed(1)} M points/s (target ≥ 5); CPU ${m.extractCpuS.toFixed(2)} s = ${(total / m.extractCpuS / 1e6).toFixed(1)} M points per CPU-second`,
+    `    targets found ${m.found}/12, worst |range − analytic| ${m.worstMm.toFixed(3)} mm`,
+    `    peak RSS of the process (upload + extraction): ${(m.maxRssKb / 1024).toFixed(0)} MB (target < 400 MB)`,
+  ];
 }

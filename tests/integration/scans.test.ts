@@ -14,6 +14,7 @@ import { loader as shotsLoader } from "~/routes/api.shots";
 import { receiveMultipart } from "~/utils/multipart.server";
 import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
 import { boardPoints, boardTruth, clutter, correlationPngs, depthPng, lasFile, planeDepth, rng, type Board, type Camera, type V3 } from "../support/scan-fixtures";
+import { lazFile } from "../support/laz-writer";
 
 let crew: TestUser;
 let viewer: TestUser;
@@ -34,6 +35,8 @@ const boards: Board[] = [
 // a fourth board with too few points, a fifth target never surveyed on the grid
 const sparse: Board = { centre: [O[0] + 10, O[1] - 10, O[2]], offsetMm: 0, tiltDeg: 0, halfM: 0.2, perSide: 5, noiseMm: 1 };
 let las: Uint8Array;
+let laz: Uint8Array;
+let laz1: Uint8Array;
 
 beforeAll(async () => {
   [crew, viewer] = await Promise.all([makeUser("crew"), makeUser("viewer")]);
@@ -67,6 +70,10 @@ beforeAll(async () => {
   expect(s.json.results.map((r: { status: string }) => r.status)).toEqual(["accepted", "accepted"]);
   const pts = [...boards.flatMap((b, i) => boardPoints(O, b, rng(10 + i))), ...boardPoints(O, sparse), ...clutter(O, [...boards, sparse].map((b) => b.centre), 30_000)];
   las = lasFile(pts, { version: 4, pointFormat: 6, offset: [512_000, 6_350_000, 100] });
+  // the same points LASzip-compressed (formats 0 and 1) in chunks of a few thousand, so the reader streams
+  // several chunks (tests/support/laz-writer.ts, proved against laz-perf in laz-writer.test.ts)
+  laz = lazFile(pts, { offset: [512_000, 6_350_000, 100], chunkSize: 4000 });
+  laz1 = lazFile(pts, { offset: [512_000, 6_350_000, 100], chunkSize: 5000, pointFormat: 1 });
 });
 
 function scanForm(fields: Record<string, string>, file?: Uint8Array, name = "scan.las") {
@@ -77,10 +84,15 @@ function scanForm(fields: Record<string, string>, file?: Uint8Array, name = "sca
 }
 const postScan = (user: TestUser | undefined, form: FormData) => call(scansAction, apiRequest("/api/scans", { user, method: "POST", body: form }));
 
-test("a scan gives one row per target: range, error and incidence match the analytic values to 0.2 mm", async () => {
-  const res = await postScan(crew, scanForm({ sessionId, stationId: site.stations[0].id, instrumentHeightM: String(IH) }, las));
+test.each([
+  ["LAS 1.4", "scan.las"],
+  ["LAZ (LAS 1.2 format 0, chunked)", "scan.laz"],
+  ["LAZ (LAS 1.2 format 1, GPS time, chunked)", "scan-gps.laz"],
+])("a scan (%s) gives one row per target: range, error and incidence match the analytic values to 0.2 mm", async (_kind, name) => {
+  const file = name === "scan-gps.laz" ? laz1 : name.endsWith(".laz") ? laz : las;
+  const res = await postScan(crew, scanForm({ sessionId, stationId: site.stations[0].id, instrumentHeightM: String(IH) }, file, name));
   expect(res.status).toBe(200);
-  const sha = createHash("sha256").update(las).digest("hex");
+  const sha = createHash("sha256").update(file).digest("hex");
   expect(res.json.fileSha256).toBe(sha);
   const rows = res.json.targets as Record<string, any>[];
   expect(rows).toHaveLength(5);

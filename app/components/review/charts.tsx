@@ -181,14 +181,33 @@ export function thinByX<T>(items: T[], x: (d: T) => number, gap: number): T[] {
   return out;
 }
 
-export function DriftChart({ drift, biasLimitMm, legendBeside }: { drift: DriftRow[]; biasLimitMm: number | null; legendBeside?: boolean }) {
+export function DriftChart({
+  drift,
+  biasLimitMm,
+  legendBeside,
+  pastDueIds,
+  trendLine,
+  flagLegend,
+}: {
+  drift: DriftRow[];
+  biasLimitMm: number | null;
+  legendBeside?: boolean;
+  /** Sessions held while the sensor's certificate was past due (the history page). */
+  pastDueIds?: readonly string[];
+  /** A fitted bias trend to draw, from its first to its last session (the history page). */
+  trendLine?: { startedAt: string; biasMm: number }[] | null;
+  /** What the triangles mean where it is not drift against the last sign-off. */
+  flagLegend?: string;
+}) {
   const data = drift.filter((d) => d.biasMm != null).map((d) => ({ ...d, t: new Date(d.startedAt) }));
+  const pastDue = data.filter((d) => pastDueIds?.includes(d.sessionId));
+  const trend = (trendLine ?? []).map((p) => ({ t: new Date(p.startedAt), biasMm: p.biasMm }));
   return (
     <figure className={figureClass(legendBeside)}>
       <PlotBox
         label="Bias per session over time, sessions flagged for drift drawn as triangles"
         height={260}
-        deps={[drift, biasLimitMm]}
+        deps={[drift, biasLimitMm, pastDueIds, trendLine]}
         build={(P, width, c) => {
           // sessions can lie months apart: a real time axis in the reader's zone, as many ticks as
           // the width holds, and the per-session labels thinned where sessions crowd together
@@ -226,6 +245,9 @@ export function DriftChart({ drift, biasLimitMm, legendBeside }: { drift: DriftR
               biasLimitMm != null ? P.ruleY([biasLimitMm, -biasLimitMm], { stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }) : null,
               P.ruleY([0], { stroke: c.muted }),
               P.line(data, { x: "t", y: "biasMm", stroke: c.fg, strokeWidth: 2 }),
+              trend.length ? P.line(trend, { x: "t", y: "biasMm", stroke: c.accent, strokeWidth: 2, strokeDasharray: "2,4" }) : null,
+              pastDue.length ? P.dot(pastDue, { x: "t", y: "biasMm", symbol: "square", r: 12, stroke: c.fail, strokeWidth: 2.5, fill: "none" }) : null,
+              pastDue.length ? P.text(thinByX(pastDue, px, 52), { x: "t", y: "biasMm", text: () => "cert. past due", dy: 22, fill: c.fail, fontWeight: "bold" }) : null,
               P.dot(data.filter((d) => !d.flag), { x: "t", y: "biasMm", fill: c.fg, r: 5, symbol: "circle" }),
               P.dot(data.filter((d) => d.flag), { x: "t", y: "biasMm", fill: c.warn, r: 8, symbol: "triangle", stroke: c.fg }),
               P.text(flagged, { x: "t", y: "biasMm", text: () => "drift", dy: -16, fill: c.fg, fontWeight: "bold" }),
@@ -237,7 +259,13 @@ export function DriftChart({ drift, biasLimitMm, legendBeside }: { drift: DriftR
       />
       <figcaption className={captionClass(legendBeside)}>
         <span><LegendSwatch shape="circle" color="var(--fg)" /> session bias (n = its shots; labels thinned where sessions crowd)</span>
-        <span><LegendSwatch shape="triangle" color="var(--warn)" /> drift: moved more than the tolerance from the last sign-off</span>
+        <span><LegendSwatch shape="triangle" color="var(--warn)" /> {flagLegend ?? "drift: moved more than the tolerance from the last sign-off"}</span>
+        {trend.length ? (
+          <span><span className="inline-block h-0 w-6 border-t-2 border-dotted border-accent align-middle" /> bias trend (least squares)</span>
+        ) : null}
+        {pastDue.length ? (
+          <span><LegendSwatch shape="square" color="var(--fail)" hollow /> certificate past due on the session's date</span>
+        ) : null}
         <span><span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± bias limit (mm)</span>
       </figcaption>
     </figure>
