@@ -36,6 +36,8 @@ export function ReshootPanel({ sensorLabel, reshoots, options, actionData }: { s
   const [form, fields] = useForm({
     id: "reshoot",
     lastResult: nav.state === "idle" ? result : undefined,
+    // Empty, not undefined: after a reset the selects fall back to their "Choose…" line.
+    defaultValue: { siteId: "", projectId: "", wanted: "", reason: "" },
     onValidate({ formData }) {
       return parseWithZod(formData, { schema: reshootSchema });
     },
