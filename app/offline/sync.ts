@@ -6,6 +6,7 @@
 // "duplicate" (client-made ids), so an interrupted batch is simply sent again.
 // A batch the server keeps failing on (500 while an empty request still succeeds) is split in
 // halves until the record behind it stands alone; that record is marked stuck and the rest go.
+import type { UpdateSpec } from "dexie";
 import { deviceId, fieldDb, getMeta, setMeta } from "./db";
 import { trackedFetch } from "./reach";
 import type { FieldError, LocalSession, LocalShot, StuckMark, SyncStatus } from "./types";
@@ -334,28 +335,37 @@ async function applyResults(results: { kind: string; id: string; status: string;
   const now = new Date().toISOString();
   let synced = 0;
   let rejected = 0;
-  await db.transaction("rw", db.sessions, db.shots, async () => {
-    for (const r of results) {
-      const table = r.kind === "session" ? db.sessions : r.kind === "shot" ? db.shots : null;
-      if (!table) continue;
-      if (r.status === "accepted" || r.status === "duplicate") {
-        await table.update(r.id, { state: "synced", result: r.status, syncedAt: now, errors: [], stuck: undefined });
-        synced++;
-        // a session the server took at last: its shots refused only for its sake go again
-        if (r.kind === "session") {
-          await db.shots.where("[sessionId+state]").equals([r.id, "rejected"]).modify((s) => {
-            if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
-              s.state = "queued";
-              s.errors = [];
-            }
-          });
-        }
-      } else if (r.status === "rejected") {
-        const errors = Array.isArray(r.errors) && r.errors.length ? r.errors : [{ path: "", message: "The server refused this record." }];
-        await table.update(r.id, { state: "rejected", errors, stuck: undefined });
-        rejected++;
-      }
+  const sessionChanges: { key: string; changes: UpdateSpec<LocalSession> }[] = [];
+  const shotChanges: { key: string; changes: UpdateSpec<LocalShot> }[] = [];
+  const acceptedSessions: string[] = [];
+  for (const r of results) {
+    if (r.kind !== "session" && r.kind !== "shot") continue;
+    const list = (r.kind === "session" ? sessionChanges : shotChanges) as { key: string; changes: UpdateSpec<LocalShot & LocalSession> }[];
+    if (r.status === "accepted" || r.status === "duplicate") {
+      list.push({ key: r.id, changes: { state: "synced", result: r.status, syncedAt: now, errors: [], stuck: undefined } });
+      synced++;
+      if (r.kind === "session") acceptedSessions.push(r.id);
+    } else if (r.status === "rejected") {
+      const errors = Array.isArray(r.errors) && r.errors.length ? r.errors : [{ path: "", message: "The server refused this record." }];
+      list.push({ key: r.id, changes: { state: "rejected", errors, stuck: undefined } });
+      rejected++;
     }
+  }
+  // One bulk write per table, not one update per record: a 500-record answer used to queue a
+  // thousand IndexedDB requests (a read and a write each) on the page's main thread.
+  await db.transaction("rw", db.sessions, db.shots, async () => {
+    if (sessionChanges.length) await db.sessions.bulkUpdate(sessionChanges);
+    // a session the server took at last: its shots refused only for its sake go again (before
+    // this answer's own shot results, which stand)
+    for (const id of acceptedSessions) {
+      await db.shots.where("[sessionId+state]").equals([id, "rejected"]).modify((s) => {
+        if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
+          s.state = "queued";
+          s.errors = [];
+        }
+      });
+    }
+    if (shotChanges.length) await db.shots.bulkUpdate(shotChanges);
   });
   return { synced, rejected };
 }
