@@ -58,6 +58,29 @@ async function patchStatus(p: Partial<SyncStatus>) {
 
 let runningHere = false;
 
+// A run waiting out a back-off holds the send lock for up to a quarter of a minute while the
+// network is gone; discarding a session waits for that lock (outbox.ts). The page asks its own
+// run to give up instead: the sleep ends at once and nothing more is sent in that run.
+let interrupted = false;
+const wakers = new Set<() => void>();
+
+/** Ends this page's sync run at its next back-off (or before its next request); the next run starts afresh. */
+export function interruptSync() {
+  interrupted = true;
+  for (const wake of wakers) wake();
+}
+
+function interruptibleSleep(sleep: (ms: number) => Promise<void>, ms: number) {
+  return new Promise<void>((resolve) => {
+    const wake = () => {
+      wakers.delete(wake);
+      resolve();
+    };
+    wakers.add(wake);
+    void sleep(ms).then(wake);
+  });
+}
+
 /** Runs one sync unless another tab or the worker is already sending. */
 export async function syncOutbox(opts: SyncOptions = {}): Promise<SyncOutcome> {
   const busy: SyncOutcome = { ok: false, reason: "busy", sent: 0, rejected: 0, photos: 0, stuck: 0 };
@@ -123,8 +146,9 @@ async function send(
     if (attempt > 0) {
       const wait = Math.max(backoff(o.baseDelayMs, attempt - 1), asked ?? 0);
       await patchStatus({ nextRetryAt: new Date(Date.now() + wait).toISOString(), lastError: lastMessage });
-      await o.sleep(wait);
+      await interruptibleSleep(o.sleep, wait);
     }
+    if (interrupted) return { kind: "stop", outcome: "busy", message: "Sending paused for a change on this tablet; it goes on in a moment." };
     try {
       const res = await make();
       if (res.status === 401) return { kind: "stop", outcome: "auth", message: "Your sign-in has ended: sign in to send. Everything stays queued." };
@@ -161,6 +185,7 @@ function chunk(items: Item[], size: number): Item[][] {
 }
 
 async function run(opts: SyncOptions): Promise<SyncOutcome> {
+  interrupted = false;
   const db = fieldDb();
   const baseFetch = opts.fetchImpl ?? ((input: RequestInfo | URL, init?: RequestInit) => fetch(input, init));
   // Every answer (or its absence) tells the page whether the server is reachable (reach.ts).

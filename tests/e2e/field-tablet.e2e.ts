@@ -236,6 +236,16 @@ test("a session started with the wrong sensor is discarded with its shots and ne
   await page.getByText("Saved on this tablet").waitFor();
   expect(await queuedShotCount(page, wrong)).toBe(1);
 
+  // The race that made this test flaky under load: a send that began as the network went is
+  // still waiting out its back-off (up to a quarter of a minute) with the send lock held, and
+  // the discard waited for that lock. Make that happen every time, not by chance: start a send
+  // now and wait until it sleeps between tries.
+  void page.evaluate(() => (window.shotbookField as { syncNow(): Promise<unknown> }).syncNow());
+  await page.waitForFunction(async () => {
+    const s = (await (window.shotbookField as { syncStatus(): Promise<{ running: boolean; nextRetryAt: string | null }> }).syncStatus());
+    return s.running && s.nextRetryAt != null;
+  });
+
   const asked: string[] = [];
   page.once("dialog", (d) => {
     asked.push(d.message());
