@@ -217,8 +217,14 @@ test("at 1280×800 landscape the instant check and Save stay in view while typin
   await page.setViewportSize({ width: 800, height: 1280 });
   const portraitPanel = (await page.getByTestId("shot-check-panel").boundingBox())!;
   const portraitRange = (await range.boundingBox())!;
-  // One column: the panel sits below the form, starting at the same left edge as the cards.
+  // One column: the check sits directly under the readings card it judges (only the gap between
+  // cards apart, not below the light, GPS and note cards), as wide as the cards.
+  const readingsCard = (await page.locator("section", { has: page.getByRole("heading", { name: "Sensor readings" }) }).boundingBox())!;
+  const lightCard = (await page.locator("section", { has: page.getByRole("heading", { name: "Target and light" }) }).boundingBox())!;
   expect(portraitPanel.y).toBeGreaterThan(portraitRange.y);
+  expect(portraitPanel.y).toBeGreaterThanOrEqual(readingsCard.y + readingsCard.height);
+  expect(portraitPanel.y - (readingsCard.y + readingsCard.height)).toBeLessThanOrEqual(32);
+  expect(lightCard.y).toBeGreaterThan(portraitPanel.y + portraitPanel.height);
   expect(portraitPanel.width).toBeGreaterThan(600);
   await context.close();
 });
@@ -389,7 +395,7 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
         await page.goto(url);
         await page.getByRole("heading", { name: heading }).first().waitFor();
         await page.waitForTimeout(300);
-        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`) });
+        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`), fullPage: true });
         for (const s of await smallTargets(page)) small.push(`${name} ${w}×${h}: ${s}`);
       }
       await page.goto(`/field/session/${id}`);
