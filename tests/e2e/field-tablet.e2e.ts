@@ -395,7 +395,8 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
         await page.goto(url);
         await page.getByRole("heading", { name: heading }).first().waitFor();
         await page.waitForTimeout(300);
-        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`), fullPage: true });
+        // Whole pages when someone asked to look at them (FIELD_SHOTS_DIR); the viewport otherwise.
+        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`), fullPage: Boolean(process.env.FIELD_SHOTS_DIR) });
         for (const s of await smallTargets(page)) small.push(`${name} ${w}×${h}: ${s}`);
       }
       await page.goto(`/field/session/${id}`);
@@ -407,7 +408,7 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
   console.info(`field screenshots in ${dir}`);
   expect([...new Set(small)]).toEqual([]);
   await context.close();
-}, 180_000);
+}, 360_000);
 
 test("coordinates: the computed distance stands beside the surveyed one, and heights that move it past the limit are flagged", async () => {
   const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
