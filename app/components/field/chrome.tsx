@@ -62,6 +62,14 @@ function OfflineReadiness({ r, copiedAt }: { r: Readiness; copiedAt: string | nu
       </span>
     );
   }
+  if (r.worker === "unknown") {
+    // Not looked yet (the first moments after a page load): no false "not ready" alarm.
+    return (
+      <span className="text-muted" data-testid="offline-ready" data-ready="false">
+        Checking that this tablet is ready offline… · reference data copied {when}
+      </span>
+    );
+  }
   const steps = [
     { label: "app files", done: r.worker === "active" },
     { label: r.copy ? `field screens ${Math.min(r.copy.pages, r.copy.data)} of ${r.copy.total}` : "field screens", done: r.copy != null && r.copy.total > 0 && r.copy.pages >= r.copy.total && r.copy.data >= r.copy.total },
