@@ -118,7 +118,14 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
     await page.getByRole("heading", { name: "Start session" }).waitFor();
     await page.getByText("Offline — saving on this tablet").waitFor({ timeout: 15_000 });
     expect(await page.evaluate(() => fetch("/healthz").then(() => "reached", () => "cut"))).toBe("cut");
-    expect(await page.getByTestId("offline-ready").getAttribute("data-ready")).toBe("true");
+    // The readiness check runs after the failed reference copy that also flips the status line
+    // to "Offline": wait for its own answer rather than read it in the same instant (a race under load).
+    await page
+      .locator('[data-testid="offline-ready"][data-ready="true"]')
+      .waitFor({ timeout: 15_000 })
+      .catch(async (e) => {
+        throw new Error(`readiness line: ${await page.getByTestId("offline-ready").textContent()}`, { cause: e });
+      });
     // The reference data is there: the sensor can be chosen, a session started, a shot saved.
     const sessionId = await startSessionUi(page);
     await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
