@@ -449,3 +449,24 @@ export const certificateNotices = sqliteTable(
   },
   (t) => [primaryKey({ columns: [t.kind, t.entityId, t.number, t.due] })],
 );
+
+// ---------- issue 12: QA re-shoot requests ----------
+/** QA asks the crew to shoot a sensor again at a site (what, why); shown on the tablet while open. */
+export const reshootRequests = sqliteTable(
+  "reshoot_requests",
+  {
+    id: id(),
+    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+    siteId: text("site_id").notNull().references(() => sites.id),
+    /** The project the request is for; null: any project holding the sensor and the site. */
+    projectId: text("project_id").references(() => projects.id),
+    wanted: text("wanted").notNull(),
+    reason: text("reason").notNull(),
+    byUserId: text("by_user_id").notNull().references(() => users.id),
+    createdAt: createdAt(),
+    state: text("state", { enum: ["open", "done", "withdrawn"] }).notNull().default("open"),
+    closedAt: text("closed_at"),
+    closedBy: text("closed_by").references(() => users.id),
+  },
+  (t) => [index("reshoot_requests_sensor").on(t.sensorId, t.createdAt), index("reshoot_requests_site").on(t.siteId)],
+);

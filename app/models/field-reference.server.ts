@@ -6,6 +6,7 @@ import { edms, projectSensors, projectSites, projects, sensors, sites, stations,
 import { ruleOf, RULE_COLUMNS } from "~/models/shots.server";
 import type { SessionUser } from "~/auth/guards.server";
 import type { FieldReference } from "~/offline/types";
+import { openReshootsFor } from "~/models/reshoots.server";
 
 const point = (r: { gridE: number | null; gridN: number | null; gridH: number | null; lat: number | null; lon: number | null; h: number | null }) => ({
   grid: r.gridE != null && r.gridN != null ? { e: r.gridE, n: r.gridN, h: r.gridH ?? 0 } : null,
@@ -14,6 +15,8 @@ const point = (r: { gridE: number | null; gridN: number | null; gridH: number | 
 
 export async function fieldReference(user: SessionUser): Promise<FieldReference> {
   const db = getDb();
+  // issue 12: open re-shoot requests travel with the reference data, scoped like the rest
+  const reshootsP = openReshootsFor(user);
   const [sensorRows, siteRows, stationRows, targetRows, tapeRows, projectRows, ps, pSites, edmRows] = await Promise.all([
     db
       .select({
@@ -121,6 +124,7 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
       siteIds: pSites.filter((x) => x.projectId === p.id).map((x) => x.siteId),
     })),
     edms: edmRows,
+    reshoots: await reshootsP,
     copiedAt: new Date().toISOString(),
   };
 }

@@ -2,6 +2,7 @@
 // "saved", and stays there (surviving reloads, tab kills and days offline) until the server
 // has answered for it. Validation runs first, with the paths the server would use.
 import { fieldDb, queueStamp } from "./db";
+import { interruptSync } from "./sync";
 import { previewShot, type PreviewContext } from "./preview";
 import type { FieldError, LocalPhoto, LocalSession, LocalShot, SyncSessionRecord, SyncShotRecord } from "./types";
 import { checkSessionRecord, checkShotRecord } from "./validate";
@@ -201,6 +202,9 @@ export async function discardSession(id: string): Promise<DiscardOutcome> {
       return { discarded: true, shots: shots.length };
     });
   const locks = (globalThis.navigator as Navigator | undefined)?.locks;
+  // This page's own run may be sleeping out a back-off with the lock held: end it now rather
+  // than keep the crew waiting; the outbox starts a fresh run afterwards.
+  interruptSync();
   return locks?.request ? locks.request("shotbook-sync", run) : run();
 }
 

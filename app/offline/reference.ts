@@ -2,7 +2,7 @@
 // page is online, read by the field screens' clientLoaders from IndexedDB when it is not.
 import { fieldDb, getMeta, setMeta } from "./db";
 import { trackedFetch } from "./reach";
-import type { FieldReference, RefUser } from "./types";
+import type { FieldReference, RefReshoot, RefUser } from "./types";
 
 export type ReferenceCopy = Omit<FieldReference, "user" | "copiedAt"> & { user: RefUser | null; copiedAt: string | null };
 
@@ -28,19 +28,22 @@ export async function refreshReference(fetchImpl: typeof fetch = (i, init) => fe
     await Promise.all([db.sensors.bulkPut(ref.sensors), db.sites.bulkPut(ref.sites), db.tapes.bulkPut(ref.tapes), db.projects.bulkPut(ref.projects)]);
     await setMeta("user", ref.user);
     await setMeta("referenceCopiedAt", ref.copiedAt);
+    // issue 12: kept in meta (no schema bump); a copy without the field clears old requests
+    await setMeta("reshoots", ref.reshoots ?? []);
   });
   return { ok: true, copiedAt: ref.copiedAt };
 }
 
 export async function readReference(): Promise<ReferenceCopy> {
   const db = fieldDb();
-  const [sensors, sites, tapes, projects, user, copiedAt] = await Promise.all([
+  const [sensors, sites, tapes, projects, user, copiedAt, reshoots] = await Promise.all([
     db.sensors.toArray(),
     db.sites.toArray(),
     db.tapes.toArray(),
     db.projects.toArray(),
     getMeta<RefUser>("user"),
     getMeta<string>("referenceCopiedAt"),
+    getMeta<RefReshoot[]>("reshoots"),
   ]);
   const byLabel = (a: { label: string }, b: { label: string }) => a.label.localeCompare(b.label);
   return {
@@ -50,5 +53,6 @@ export async function readReference(): Promise<ReferenceCopy> {
     projects: projects.sort((a, b) => a.name.localeCompare(b.name)),
     user: user ?? null,
     copiedAt: copiedAt ?? null,
+    reshoots: reshoots ?? [],
   };
 }

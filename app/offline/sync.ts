@@ -6,6 +6,7 @@
 // "duplicate" (client-made ids), so an interrupted batch is simply sent again.
 // A batch the server keeps failing on (500 while an empty request still succeeds) is split in
 // halves until the record behind it stands alone; that record is marked stuck and the rest go.
+import type { UpdateSpec } from "dexie";
 import { deviceId, fieldDb, getMeta, setMeta } from "./db";
 import { trackedFetch } from "./reach";
 import type { FieldError, LocalSession, LocalShot, StuckMark, SyncStatus } from "./types";
@@ -56,6 +57,29 @@ async function patchStatus(p: Partial<SyncStatus>) {
 }
 
 let runningHere = false;
+
+// A run waiting out a back-off holds the send lock for up to a quarter of a minute while the
+// network is gone; discarding a session waits for that lock (outbox.ts). The page asks its own
+// run to give up instead: the sleep ends at once and nothing more is sent in that run.
+let interrupted = false;
+const wakers = new Set<() => void>();
+
+/** Ends this page's sync run at its next back-off (or before its next request); the next run starts afresh. */
+export function interruptSync() {
+  interrupted = true;
+  for (const wake of wakers) wake();
+}
+
+function interruptibleSleep(sleep: (ms: number) => Promise<void>, ms: number) {
+  return new Promise<void>((resolve) => {
+    const wake = () => {
+      wakers.delete(wake);
+      resolve();
+    };
+    wakers.add(wake);
+    void sleep(ms).then(wake);
+  });
+}
 
 /** Runs one sync unless another tab or the worker is already sending. */
 export async function syncOutbox(opts: SyncOptions = {}): Promise<SyncOutcome> {
@@ -122,8 +146,9 @@ async function send(
     if (attempt > 0) {
       const wait = Math.max(backoff(o.baseDelayMs, attempt - 1), asked ?? 0);
       await patchStatus({ nextRetryAt: new Date(Date.now() + wait).toISOString(), lastError: lastMessage });
-      await o.sleep(wait);
+      await interruptibleSleep(o.sleep, wait);
     }
+    if (interrupted) return { kind: "stop", outcome: "busy", message: "Sending paused for a change on this tablet; it goes on in a moment." };
     try {
       const res = await make();
       if (res.status === 401) return { kind: "stop", outcome: "auth", message: "Your sign-in has ended: sign in to send. Everything stays queued." };
@@ -160,6 +185,7 @@ function chunk(items: Item[], size: number): Item[][] {
 }
 
 async function run(opts: SyncOptions): Promise<SyncOutcome> {
+  interrupted = false;
   const db = fieldDb();
   const baseFetch = opts.fetchImpl ?? ((input: RequestInfo | URL, init?: RequestInit) => fetch(input, init));
   // Every answer (or its absence) tells the page whether the server is reachable (reach.ts).
@@ -334,28 +360,37 @@ async function applyResults(results: { kind: string; id: string; status: string;
   const now = new Date().toISOString();
   let synced = 0;
   let rejected = 0;
-  await db.transaction("rw", db.sessions, db.shots, async () => {
-    for (const r of results) {
-      const table = r.kind === "session" ? db.sessions : r.kind === "shot" ? db.shots : null;
-      if (!table) continue;
-      if (r.status === "accepted" || r.status === "duplicate") {
-        await table.update(r.id, { state: "synced", result: r.status, syncedAt: now, errors: [], stuck: undefined });
-        synced++;
-        // a session the server took at last: its shots refused only for its sake go again
-        if (r.kind === "session") {
-          await db.shots.where("[sessionId+state]").equals([r.id, "rejected"]).modify((s) => {
-            if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
-              s.state = "queued";
-              s.errors = [];
-            }
-          });
-        }
-      } else if (r.status === "rejected") {
-        const errors = Array.isArray(r.errors) && r.errors.length ? r.errors : [{ path: "", message: "The server refused this record." }];
-        await table.update(r.id, { state: "rejected", errors, stuck: undefined });
-        rejected++;
-      }
+  const sessionChanges: { key: string; changes: UpdateSpec<LocalSession> }[] = [];
+  const shotChanges: { key: string; changes: UpdateSpec<LocalShot> }[] = [];
+  const acceptedSessions: string[] = [];
+  for (const r of results) {
+    if (r.kind !== "session" && r.kind !== "shot") continue;
+    const list = (r.kind === "session" ? sessionChanges : shotChanges) as { key: string; changes: UpdateSpec<LocalShot & LocalSession> }[];
+    if (r.status === "accepted" || r.status === "duplicate") {
+      list.push({ key: r.id, changes: { state: "synced", result: r.status, syncedAt: now, errors: [], stuck: undefined } });
+      synced++;
+      if (r.kind === "session") acceptedSessions.push(r.id);
+    } else if (r.status === "rejected") {
+      const errors = Array.isArray(r.errors) && r.errors.length ? r.errors : [{ path: "", message: "The server refused this record." }];
+      list.push({ key: r.id, changes: { state: "rejected", errors, stuck: undefined } });
+      rejected++;
     }
+  }
+  // One bulk write per table, not one update per record: a 500-record answer used to queue a
+  // thousand IndexedDB requests (a read and a write each) on the page's main thread.
+  await db.transaction("rw", db.sessions, db.shots, async () => {
+    if (sessionChanges.length) await db.sessions.bulkUpdate(sessionChanges);
+    // a session the server took at last: its shots refused only for its sake go again (before
+    // this answer's own shot results, which stand)
+    for (const id of acceptedSessions) {
+      await db.shots.where("[sessionId+state]").equals([id, "rejected"]).modify((s) => {
+        if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
+          s.state = "queued";
+          s.errors = [];
+        }
+      });
+    }
+    if (shotChanges.length) await db.shots.bulkUpdate(shotChanges);
   });
   return { synced, rejected };
 }

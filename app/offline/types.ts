@@ -138,6 +138,8 @@ export type RefTape = TapeSpec & { id: string; label: string; uncertaintyMm?: nu
 export type RefEdm = { id: string; label: string; serial: string; uncertaintyMm: number; uncertaintyPpm: number; certNumber: string | null; certDue: string | null };
 export type RefProject = { id: string; name: string; client: string; rule: Rule; sensorIds: string[]; siteIds: string[] };
 export type RefUser = { id: string; email: string; name: string; role: "admin" | "qa" | "crew" | "viewer" };
+/** issue 12: an open re-shoot request QA sent for a sensor at a site. */
+export type RefReshoot = { id: string; sensorId: string; siteId: string; projectId: string | null; wanted: string; reason: string; byName: string; createdAt: string };
 
 export type FieldReference = {
   user: RefUser;
@@ -147,6 +149,8 @@ export type FieldReference = {
   projects: RefProject[];
   /** issue 15 (absent in copies made before it) */
   edms?: RefEdm[];
+  /** issue 12: open re-shoot requests the user may see (absent in copies made before it) */
+  reshoots?: RefReshoot[];
   copiedAt: string;
 };
 

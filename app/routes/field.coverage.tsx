@@ -7,6 +7,7 @@ import { contextOf, loadSession, sessionCoverage } from "~/components/field/sess
 import { SessionHeader, SessionMissing } from "~/components/field/session-header";
 import { VerdictShape } from "~/components/verdict-badge";
 import { useLiveQuery } from "~/offline/live";
+import { ReshootNotice } from "~/components/field/reshoot-notice";
 
 export const meta: Route.MetaFunction = () => [{ title: "Coverage checklist — Shotbook field" }];
 
@@ -40,6 +41,7 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
         </Link>
       </div>
       <h2 className="text-2xl font-bold">Coverage checklist</h2>
+      <ReshootNotice reference={data.reference} sensorId={data.session.record.sensorId} siteId={data.session.record.siteId} />
       {!result ? (
         <p className="field-error">The sensor of this session is not in the tablet's reference data; connect once to copy it.</p>
       ) : (

@@ -9,6 +9,7 @@ import { FieldLoading } from "~/components/field/chrome";
 import { SessionHeader, SessionMissing } from "~/components/field/session-header";
 import { syncSoon } from "~/offline/autosync";
 import { useLiveQuery } from "~/offline/live";
+import { ReshootNotice } from "~/components/field/reshoot-notice";
 import { discardSession } from "~/offline/outbox";
 import { draftKey, editDraftKey, ShotForm } from "~/components/field/shot-form";
 import { ShotList } from "~/components/field/shot-list";
@@ -135,6 +136,7 @@ export default function FieldSession({ loaderData, params }: Route.ComponentProp
       ) : null}
       {ending ? <EndSummary data={data} ctx={ctx} onClose={() => setEnding(false)} /> : null}
       {!ctx.sensor ? <p className="field-error">This session's sensor is missing from the tablet's reference data: shots are saved, the instant check waits.</p> : null}
+      <ReshootNotice reference={data.reference} sensorId={session.record.sensorId} siteId={session.record.siteId} />
       <SessionTraceability session={session} ctx={ctx} />
       <ShotForm key={session.id} session={session} ctx={ctx} onSaved={() => syncSoon()} />
       <section className="space-y-3" aria-labelledby="shots-title">

@@ -17,6 +17,9 @@ import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "
 import { bandWord, dateOnly, dateTime, mmSigned } from "~/components/review/format";
 import { readFormCapped } from "~/http/body.server";
 import { LocalTime } from "~/components/review/local-time";
+import { reshootSchema, reshootStateSchema } from "~/components/review/reshoot-schema";
+import { createReshoot, listReshoots, reshootChoices, ReshootError, setReshootState } from "~/models/reshoots.server";
+import { ReshootPanel } from "~/components/review/reshoot-panel";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.sensor.label ?? "Sensor"} — report · Shotbook` }];
 
@@ -24,13 +27,46 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const head = await sensorReviewHeader(user, params.sensorId);
   if (!head) throw new Response("There is no sensor with this id.", { status: 404 });
-  const [projects, signOffs, extras] = await Promise.all([listProjectsForFilter(), listSignOffs(user, params.sensorId), shotExtras(user, params.sensorId)]);
-  return { ...head, projects, signOffs, extras, canReview: REVIEWERS.includes(user.role) };
+  const canReview = REVIEWERS.includes(user.role);
+  const [projects, signOffs, extras, reshoots, reshootOptions] = await Promise.all([
+    listProjectsForFilter(),
+    listSignOffs(user, params.sensorId),
+    shotExtras(user, params.sensorId),
+    listReshoots(user, params.sensorId),
+    canReview ? reshootChoices(user, params.sensorId) : null,
+  ]);
+  return { ...head, projects, signOffs, extras, canReview, reshoots, reshootOptions };
+}
+
+/** issue 12: a re-shoot request, or closing one; the answers share the sign-off's shape (result + its own key). */
+async function reshootAction(user: Parameters<typeof createReshoot>[0], sensorId: string, formData: FormData, intent: string) {
+  const schema = intent === "reshoot" ? reshootSchema : reshootStateSchema;
+  const submission = parseWithZod(formData, { schema });
+  const none = { result: undefined, signedOff: null, reshoot: null, reshootState: null };
+  if (submission.status !== "success") return data({ ...none, [intent === "reshoot" ? "reshootResult" : "reshootStateResult"]: submission.reply() }, { status: 400 });
+  try {
+    if (submission.value.intent === "reshoot") {
+      const { intent: _i, ...input } = submission.value;
+      const reshoot = await createReshoot(user, sensorId, input);
+      return { ...none, reshoot, reshootResult: submission.reply({ resetForm: true }) };
+    }
+    const row = await setReshootState(user, sensorId, submission.value.requestId, submission.value.state);
+    return { ...none, reshootState: row, reshootStateResult: submission.reply() };
+  } catch (e) {
+    if (e instanceof ReshootError) {
+      if (e.status === 404) throw new Response(e.message, { status: 404 });
+      const key = intent === "reshoot" ? "reshootResult" : "reshootStateResult";
+      return data({ ...none, [key]: submission.reply({ fieldErrors: { [e.field ?? "wanted"]: [e.message] } }) }, { status: 400 });
+    }
+    throw e;
+  }
 }
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, REVIEWERS);
   const formData = await readFormCapped(request);
+  const intent = String(formData.get("intent") ?? "");
+  if (intent === "reshoot" || intent === "reshoot-state") return reshootAction(user, params.sensorId, formData, intent);
   const submission = parseWithZod(formData, { schema: signOffSchema });
   if (submission.status !== "success") return data({ result: submission.reply(), signedOff: null }, { status: 400 });
   try {
@@ -57,7 +93,7 @@ function filtersFrom(sp: URLSearchParams): ReportFilters {
 }
 
 export default function SensorReport({ loaderData, actionData }: Route.ComponentProps) {
-  const { sensor, sessions, projects, signOffs, extras, canReview } = loaderData;
+  const { sensor, sessions, projects, signOffs, extras, canReview, reshoots, reshootOptions } = loaderData;
   const [sp, setSp] = useSearchParams();
   const f = filtersFrom(sp);
   const effective = f;
@@ -238,6 +274,8 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
           {canReview ? <SignOffForm verdict={report.verdict} filters={f} projects={projects} actionData={actionData} /> : null}
         </div>
       ) : null}
+
+      <ReshootPanel sensorLabel={sensor.label} reshoots={reshoots} options={reshootOptions} actionData={actionData} />
 
       <section aria-labelledby="h-history" className="space-y-2">
         <h2 id="h-history" className="text-2xl font-bold">Sign-offs</h2>

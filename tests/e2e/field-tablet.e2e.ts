@@ -118,7 +118,14 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
     await page.getByRole("heading", { name: "Start session" }).waitFor();
     await page.getByText("Offline — saving on this tablet").waitFor({ timeout: 15_000 });
     expect(await page.evaluate(() => fetch("/healthz").then(() => "reached", () => "cut"))).toBe("cut");
-    expect(await page.getByTestId("offline-ready").getAttribute("data-ready")).toBe("true");
+    // The readiness check runs after the failed reference copy that also flips the status line
+    // to "Offline": wait for its own answer rather than read it in the same instant (a race under load).
+    await page
+      .locator('[data-testid="offline-ready"][data-ready="true"]')
+      .waitFor({ timeout: 15_000 })
+      .catch(async (e) => {
+        throw new Error(`readiness line: ${await page.getByTestId("offline-ready").textContent()}`, { cause: e });
+      });
     // The reference data is there: the sensor can be chosen, a session started, a shot saved.
     const sessionId = await startSessionUi(page);
     await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
@@ -217,8 +224,14 @@ test("at 1280×800 landscape the instant check and Save stay in view while typin
   await page.setViewportSize({ width: 800, height: 1280 });
   const portraitPanel = (await page.getByTestId("shot-check-panel").boundingBox())!;
   const portraitRange = (await range.boundingBox())!;
-  // One column: the panel sits below the form, starting at the same left edge as the cards.
+  // One column: the check sits directly under the readings card it judges (only the gap between
+  // cards apart, not below the light, GPS and note cards), as wide as the cards.
+  const readingsCard = (await page.locator("section", { has: page.getByRole("heading", { name: "Sensor readings" }) }).boundingBox())!;
+  const lightCard = (await page.locator("section", { has: page.getByRole("heading", { name: "Target and light" }) }).boundingBox())!;
   expect(portraitPanel.y).toBeGreaterThan(portraitRange.y);
+  expect(portraitPanel.y).toBeGreaterThanOrEqual(readingsCard.y + readingsCard.height);
+  expect(portraitPanel.y - (readingsCard.y + readingsCard.height)).toBeLessThanOrEqual(32);
+  expect(lightCard.y).toBeGreaterThan(portraitPanel.y + portraitPanel.height);
   expect(portraitPanel.width).toBeGreaterThan(600);
   await context.close();
 });
@@ -235,6 +248,16 @@ test("a session started with the wrong sensor is discarded with its shots and ne
   await page.getByRole("button", { name: "Save shot" }).click();
   await page.getByText("Saved on this tablet").waitFor();
   expect(await queuedShotCount(page, wrong)).toBe(1);
+
+  // The race that made this test flaky under load: a send that began as the network went is
+  // still waiting out its back-off (up to a quarter of a minute) with the send lock held, and
+  // the discard waited for that lock. Make that happen every time, not by chance: start a send
+  // now and wait until it sleeps between tries.
+  void page.evaluate(() => (window.shotbookField as { syncNow(): Promise<unknown> }).syncNow());
+  await page.waitForFunction(async () => {
+    const s = (await (window.shotbookField as { syncStatus(): Promise<{ running: boolean; nextRetryAt: string | null }> }).syncStatus());
+    return s.running && s.nextRetryAt != null;
+  });
 
   const asked: string[] = [];
   page.once("dialog", (d) => {
@@ -379,7 +402,8 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
         await page.goto(url);
         await page.getByRole("heading", { name: heading }).first().waitFor();
         await page.waitForTimeout(300);
-        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`) });
+        // Whole pages when someone asked to look at them (FIELD_SHOTS_DIR); the viewport otherwise.
+        await page.screenshot({ path: join(dir, `${name}-${w}x${h}-${theme}.png`), fullPage: Boolean(process.env.FIELD_SHOTS_DIR) });
         for (const s of await smallTargets(page)) small.push(`${name} ${w}×${h}: ${s}`);
       }
       await page.goto(`/field/session/${id}`);
@@ -391,7 +415,7 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
   console.info(`field screenshots in ${dir}`);
   expect([...new Set(small)]).toEqual([]);
   await context.close();
-}, 180_000);
+}, 360_000);
 
 test("coordinates: the computed distance stands beside the surveyed one, and heights that move it past the limit are flagged", async () => {
   const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });

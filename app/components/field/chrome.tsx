@@ -30,12 +30,15 @@ export function offsetLabel(d: Date) {
   return `UTC${off >= 0 ? "+" : "−"}${String(Math.floor(a / 60)).padStart(2, "0")}:${String(a % 60).padStart(2, "0")}`;
 }
 
+// One formatter for every call (the outbox lists up to a hundred times at once).
+const WHEN = new Intl.DateTimeFormat("en-GB", { day: "numeric", month: "short", hour: "2-digit", minute: "2-digit" });
+
 /** A time in the tablet's local time with its offset: "2 Dec, 09:41 UTC+01:00". */
 export function formatWhen(iso: string | null | undefined) {
   if (!iso) return "never";
   const d = new Date(iso);
   if (Number.isNaN(d.getTime())) return iso;
-  return `${d.toLocaleString("en-GB", { day: "numeric", month: "short", hour: "2-digit", minute: "2-digit" })} ${offsetLabel(d)}`;
+  return `${WHEN.format(d)} ${offsetLabel(d)}`;
 }
 
 const EMPTY_COUNTS: OutboxCounts = { sessions: 0, shots: 0, photos: 0, rejected: 0, total: 0 };
@@ -56,6 +59,14 @@ function OfflineReadiness({ r, copiedAt }: { r: Readiness; copiedAt: string | nu
           <VerdictShape verdict="pass" /> Ready to work offline
         </span>{" "}
         <span>· reference data copied {when}</span>
+      </span>
+    );
+  }
+  if (r.worker === "unknown") {
+    // Not looked yet (the first moments after a page load): no false "not ready" alarm.
+    return (
+      <span className="text-muted" data-testid="offline-ready" data-ready="false">
+        Checking that this tablet is ready offline… · reference data copied {when}
       </span>
     );
   }

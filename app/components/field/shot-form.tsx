@@ -375,9 +375,12 @@ export function ShotForm({
         </p>
       ) : null}
 
-      <div className="landscape:lg:grid landscape:lg:grid-cols-[minmax(0,1fr)_23rem] landscape:lg:items-start landscape:lg:gap-6">
-      <div className="space-y-6">
-      <section className="card space-y-4">
+      {/* Landscape: the form left, the check and Save pinned right. Portrait: one column in which
+          the check sits directly under the readings it judges (the wrappers step aside with
+          display: contents and `order` places each card), and Save closes the form. */}
+      <div className="grid gap-6 landscape:lg:grid-cols-[minmax(0,1fr)_23rem] landscape:lg:items-start">
+      <div className="contents landscape:lg:block landscape:lg:space-y-6">
+      <section className="card order-1 space-y-4">
         <h2 className="text-xl font-bold">Target and reference distance</h2>
         <SelectField id="f-target" label="Target" value={f.targetId} onChange={pickTarget} options={targetOptions} placeholder="— no target from the site —" error={errors.target} optional={f.method !== "coordinates"} />
         <Choice
@@ -461,7 +464,7 @@ export function ShotForm({
         />
       </section>
 
-      <section className="card space-y-4">
+      <section className="card order-2 space-y-4">
         <h2 className="text-xl font-bold">Sensor readings</h2>
         <Choice name="f-kind" legend="The sensor gives" value={f.readingKind} onChange={(v) => set("readingKind", v)} options={kinds} />
         {f.readingKind === "rangesM" ? listField("ranges", "range", "Sensor range", "m") : null}
@@ -492,14 +495,14 @@ export function ShotForm({
         ) : null}
       </section>
 
-      <section className="card grid gap-4 sm:grid-cols-3">
+      <section className="card order-4 grid gap-4 sm:grid-cols-3">
         <h2 className="text-xl font-bold sm:col-span-3">Target and light</h2>
         <NumberField id="f-reflectance" label="Reflectance (%)" unit="%" value={f.reflectancePct} required onChange={(v) => set("reflectancePct", v)} error={errors.reflectance} />
         <NumberField id="f-illuminance" label="Illuminance (klux)" unit="klux" value={f.illuminanceKlux} required onChange={(v) => set("illuminanceKlux", v)} error={errors.illuminance} hint={session.sky ? `Session sky: ${session.sky}` : undefined} />
         <NumberField id="f-incidence" label="Incidence angle (°)" unit="°" value={f.incidenceDeg} onChange={(v) => set("incidenceDeg", v)} error={errors.incidence} />
       </section>
 
-      <section className="card grid gap-4 sm:grid-cols-2">
+      <section className="card order-5 grid gap-4 sm:grid-cols-2">
         <div>
           <p className="field-label" id="f-gps-label">GPS fix <span className="font-normal text-muted">(optional)</span></p>
           <div className="flex flex-wrap items-center gap-2">
@@ -551,8 +554,9 @@ export function ShotForm({
       </div>
 
       {/* The check and Save stay in view while typing: beside the readings in landscape (pinned as
-          the form scrolls), below the form in portrait. */}
-      <aside className="mt-6 space-y-4 landscape:lg:sticky landscape:lg:top-2 landscape:lg:mt-0" data-testid="shot-check-panel" aria-label="Instant check and save">
+          the form scrolls); in portrait the check under the readings, Save at the end. */}
+      <div className="contents landscape:lg:sticky landscape:lg:top-2 landscape:lg:block landscape:lg:space-y-4">
+      <div className="order-3 space-y-4" data-testid="shot-check-panel" role="region" aria-label="Instant check">
         <section className="card" aria-live="polite">
           {saved?.preview ? (
             <ShotFeedback preview={saved.preview} title="Saved shot" compact />
@@ -588,8 +592,9 @@ export function ShotForm({
             </div>
           </div>
         ) : null}
+      </div>
 
-        <div className="flex flex-wrap items-center gap-4">
+        <div className="order-6 flex flex-wrap items-center gap-4">
           <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={saving}>
             {saving ? "Saving…" : existing ? "Save and resend" : "Save shot"}
           </button>
@@ -597,7 +602,7 @@ export function ShotForm({
             {saved ? (existing ? "Saved. It goes out with the next sync." : "Saved on this tablet. It goes out with the next sync.") : ""}
           </p>
         </div>
-      </aside>
+      </div>
       </div>
     </form>
   );
