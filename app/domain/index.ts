@@ -50,3 +50,6 @@ export { ScanExtractor, planeFromMoments, planeFromPoints, rangeAlongRay, emptyM
 export type { Moments, PlaneFit, ScanTarget, ScanTargetResult } from "./scan.ts";
 export { depthFrameFromRaw, depthFromCorrelation, frameTarget, checkBox, checkIntrinsics } from "./depth.ts";
 export type { Intrinsics, Box, DepthFrame, FrameTargetResult } from "./depth.ts";
+// issue 14: the project verification report
+export { PROJECT_REPORT_FORMAT, ruleInWords, documentNumber, versionedNumber } from "./project-report.ts";
+export type { ProjectReportContent, ProjectReportSensor, ProjectSensorFigures, ProjectReportRule } from "./project-report.ts";
