@@ -150,14 +150,16 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
   const styleWords = rule.statement === "nssda95" ? "NSSDA 95 % accuracy (1.96 × RMSE, FGDC-STD-007.3-1998)" : "RMSE only, reference included where known (ASPRS Edition 2, 2023)";
   const laserClasses = [...new Set(c.sensors.map((s) => s.laserClass).filter((x): x is string => !!x))];
   return (
-    <article className="print-page print-paper mx-auto space-y-6" data-testid="project-report" data-version={shown.version} data-sha256={shown.sha256} data-statement={rule.statement}>
-      <style>{printCss(`Project verification report ${shown.number} · SHA-256 ${shortHash}… · ${c.project.name}`)}</style>
-      <nav className="no-print flex flex-wrap gap-2" aria-label="Report actions">
+    <div className="space-y-4">
+    <style>{printCss(`Project verification report ${shown.number} · SHA-256 ${shortHash}… · ${c.project.name}`)}</style>
+      <nav className="no-print mx-auto flex max-w-[186mm] flex-wrap gap-2" aria-label="Report actions">
         <button type="button" className="btn" onClick={() => window.print()}>Print or save as PDF</button>
         <a className="btn-secondary" href={`${base}/bundle.zip`} download data-testid="download-bundle">Download CSV bundle with photos (.zip)</a>
         <a className="btn-secondary" href={`${base}/shots.geojson?download=1`} download data-testid="download-geojson">Download GeoJSON</a>
         <Link to="/review" className="btn-secondary">Back to the overview</Link>
       </nav>
+    <article className="print-page print-paper mx-auto space-y-6" data-testid="project-report" data-version={shown.version} data-sha256={shown.sha256} data-statement={rule.statement}>
+      <style>{printCss(`Project verification report ${shown.number} · SHA-256 ${shortHash}… · ${c.project.name}`)}</style>
 
       {shown.version !== latest ? (
         <p role="status" className="rounded-lg border-4 border-warn p-3 font-bold" data-testid="superseded">
@@ -181,7 +183,7 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
           <dt className="font-bold">Version</dt>
           <dd className="num">{shown.version} of {latest}, issued <LocalTime iso={shown.createdAt} /> (first opened by {shown.createdBy})</dd>
           <dt className="font-bold">SHA-256</dt>
-          <dd className="hash text-sm" data-testid="document-hash">{shown.sha256}</dd>
+          <dd className="hash text-[13px] leading-6" data-testid="document-hash">{shown.sha256}</dd>
         </dl>
         <p className="mt-1 text-sm">The SHA-256 is of the report's content as canonical JSON (RFC 8785), as returned by GET {base}/report?version={shown.version}; any change of the content makes a new version.</p>
       </header>
@@ -193,9 +195,9 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
           <caption className="sr-only">Verdict and accuracy per sensor</caption>
           <thead>
             <tr className="border-b-2 border-line">
-              <th scope="col" className="py-1 pr-2">Sensor</th>
+              <th scope="col" className="w-[26%] py-1 pr-2">Sensor</th>
               <th scope="col" className="py-1 pr-2">Verdict</th>
-              <th scope="col" className="py-1 pr-2 text-right">{rule.statement === "nssda95" ? "Accuracy at 95 %" : "RMSE"}</th>
+              <th scope="col" className="whitespace-nowrap py-1 pr-2 text-right">{rule.statement === "nssda95" ? "95 % accuracy" : "RMSE"}</th>
               <th scope="col" className="py-1">Statement</th>
             </tr>
           </thead>
@@ -205,10 +207,10 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
               return (
                 <tr key={s.id} className="border-b border-line align-top" data-sensor={s.id}>
                   <th scope="row" className="py-1 pr-2 text-left">{s.label}<span className="block text-sm font-normal">serial {s.serial}</span></th>
-                  <td className="py-1 pr-2"><VerdictBadge verdict={s.verdict} /></td>
-                  <td className="num py-1 pr-2 text-right">
+                  <td className="whitespace-nowrap py-1 pr-2"><VerdictBadge verdict={s.verdict} /></td>
+                  <td className="num whitespace-nowrap py-1 pr-2 text-right">
                     <strong>{mm(st?.headlineMm ?? null, 1)}</strong>
-                    {st ? <span className="block text-sm">{HEADLINE_LABEL[st.headline]}</span> : null}
+                    {st && st.headline !== "accuracy95" ? <span className="block whitespace-normal text-sm">{HEADLINE_LABEL[st.headline]}</span> : null}
                   </td>
                   <td className="py-1" data-testid="statement-line">{s.statementSentence}</td>
                 </tr>
@@ -362,5 +364,6 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
         </table>
       </section>
     </article>
+    </div>
   );
 }

@@ -48,6 +48,21 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
         {canImport ? <Link to="/review/scans" className="btn-secondary">Check-shots from a scan</Link> : null}
         {canImport ? <Link to="/review/frames" className="btn-secondary">Check-shots from depth frames</Link> : null}
       </div>
+      {/* issue 14: what the client receives, per project */}
+      {reportList.length ? (
+        <section className="space-y-2" data-testid="project-reports">
+          <h2 className="text-xl font-bold">Project verification reports</h2>
+          <ul className="flex flex-wrap gap-2">
+            {reportList.map((p) => (
+              <li key={p.id}>
+                <Link to={`/review/projects/${p.id}/report`} className="btn-secondary">
+                  {p.name}{p.client ? ` — ${p.client}` : ""}
+                </Link>
+              </li>
+            ))}
+          </ul>
+        </section>
+      ) : null}
       <Form method="get" className="card flex flex-wrap items-end gap-4" aria-label="Filters">
         <div>
           <label htmlFor="f-project" className="field-label">Project</label>
@@ -152,21 +167,6 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
             </tbody>
           </table>
         </div>
-      ) : null}
-      {/* issue 14: what the client receives, per project */}
-      {reportList.length ? (
-        <section className="space-y-2" data-testid="project-reports">
-          <h2 className="text-2xl font-bold">Project verification reports</h2>
-          <ul className="flex flex-wrap gap-2">
-            {reportList.map((p) => (
-              <li key={p.id}>
-                <Link to={`/review/projects/${p.id}/report`} className="btn-secondary">
-                  {p.name}{p.client ? ` — ${p.client}` : ""}
-                </Link>
-              </li>
-            ))}
-          </ul>
-        </section>
       ) : null}
     </div>
   );
