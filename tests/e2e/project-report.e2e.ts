@@ -115,6 +115,7 @@ test("printed, the report numbers its pages, has no empty page, carries its numb
     // the statement leads: on page 1, before the acceptance rule, one line per sensor
     expect(first).toMatch(/Accuracy statement/);
     const statementAt = firstRead.indexOf("Accuracy statement");
+    expect(statementAt).toBeGreaterThan(-1);
     expect(statementAt).toBeLessThan(firstRead.indexOf("Acceptance rule"));
     const sentence = style === "rmse" ? /Tested \d+\.\d mm range RMSE against \d+ check-shots, reference not included/ : /Tested \d+\.\d mm range accuracy at 95 % confidence level \(NSSDA\) against \d+ check-shots, reference not included/;
     const hit = firstRead.slice(statementAt).match(sentence);
