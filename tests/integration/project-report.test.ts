@@ -231,3 +231,14 @@ test("access: members of any role and admins read it; a non-member and an unknow
     expect(a.status).toBe(200);
   }
 });
+
+test("a sign-off for the project makes a new version that names who signed and when", async () => {
+  const before = (await currentProjectReport(viewer(), w.project.id))!;
+  const { createSignOff } = await import("~/models/signoffs.server");
+  const s = await createSignOff({ id: w.users.qa.id, role: "qa", email: w.users.qa.email }, w.passing.id, { decision: "approved", projectId: w.project.id, note: "fit for the corridor survey" });
+  const after = (await currentProjectReport(viewer(), w.project.id))!;
+  expect(after.version).toBe(before.version + 1);
+  expect(after.content.signOffs).toHaveLength(1);
+  expect(after.content.signOffs[0]).toMatchObject({ id: s.id, sensorId: w.passing.id, decision: "approved", by: "Fixture qa", note: "fit for the corridor survey" });
+  expect(Date.parse(after.content.signOffs[0]!.at)).not.toBeNaN();
+});
