@@ -66,8 +66,6 @@ function printCss(footer: string) {
 `;
 }
 
-const HEADLINE_LABEL = { rmse: "RMSE", rmseCombined: "RMSE, reference included", accuracy95: "Accuracy at 95 %" } as const;
-
 /** The report API's shape for the shared figure components (the per-shot rows are not part of the document). */
 function asReport(s: ProjectReportSensor, rule: Route.ComponentProps["loaderData"]["shown"]["content"]["rule"]): ReportJson {
   return { ...s.figures!, sensorId: s.id, rule: { ...rule }, ruleProjectId: null, shots: [] } as unknown as ReportJson;
@@ -209,8 +207,7 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
                   <th scope="row" className="py-1 pr-2 text-left">{s.label}<span className="block text-sm font-normal">serial {s.serial}</span></th>
                   <td className="whitespace-nowrap py-1 pr-2"><VerdictBadge verdict={s.verdict} /></td>
                   <td className="num whitespace-nowrap py-1 pr-2 text-right">
-                    <strong>{mm(st?.headlineMm ?? null, 1)}</strong>
-                    {st && st.headline !== "accuracy95" ? <span className="block whitespace-normal text-sm">{HEADLINE_LABEL[st.headline]}</span> : null}
+                    <strong data-headline={st?.headline}>{mm(st?.headlineMm ?? null, 1)}</strong>
                   </td>
                   <td className="py-1" data-testid="statement-line">{s.statementSentence}</td>
                 </tr>

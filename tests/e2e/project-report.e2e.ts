@@ -114,6 +114,7 @@ test("printed, the report numbers its pages, has no empty page, carries its numb
     expect(pages[0]!.replace(/\s+/g, "")).toContain(hash);
     // the statement leads: on page 1, before the acceptance rule, one line per sensor
     expect(first).toMatch(/Accuracy statement/);
+    if (SHOTS) writeFileSync(join(SHOTS, `project-print-${style}-page1.txt`), firstRead);
     const statementAt = firstRead.indexOf("Accuracy statement");
     expect(statementAt).toBeGreaterThan(-1);
     expect(statementAt).toBeLessThan(firstRead.indexOf("Acceptance rule"));
@@ -134,6 +135,9 @@ test("printed, the report numbers its pages, has no empty page, carries its numb
 
 test("older versions stay readable and say they are superseded; a non-member gets 404", async () => {
   const { context, page } = await as(w.users.qa.email);
+  // a change of the rule's statement style makes a new version
+  await openReport(page);
+  await setStatement(await page.getByTestId("project-report").getAttribute("data-statement") === "rmse" ? "nssda95" : "rmse");
   await openReport(page);
   const latest = Number(await page.getByTestId("project-report").getAttribute("data-version"));
   expect(latest).toBeGreaterThan(1); // the statement switches above made new versions
@@ -141,6 +145,7 @@ test("older versions stay readable and say they are superseded; a non-member get
   await page.getByTestId("superseded").waitFor();
   expect(await page.getByTestId("project-report").getAttribute("data-version")).toBe("1");
   expect(await page.getByTestId("superseded").textContent()).toContain(`the current version is ${latest}`);
+  await setStatement("rmse");
   await context.close();
 
   const other = await as(outsiderEmail);
