@@ -51,6 +51,8 @@ export default [
     // check-shots from scans and depth frames (issue 18)
     route("review/scans", "routes/review.scans.tsx"),
     route("review/frames", "routes/review.frames.tsx"),
+    // issue 14: the project verification report
+    route("review/projects/:projectId/report", "routes/review.projects.$projectId.report.tsx"),
 
     // ---- field (crew) ----
     route("field", "routes/field.tsx", [
@@ -87,6 +89,10 @@ export default [
     // check-shots from scans and depth frames (issue 18)
     route("scans", "routes/api.scans.ts"),
     route("frames", "routes/api.frames.ts"),
+    // issue 14: the project verification report, its CSV bundle and GeoJSON
+    route("projects/:projectId/report", "routes/api.projects.$projectId.report.ts"),
+    route("projects/:projectId/bundle.zip", "routes/api.projects.$projectId.bundle[.]zip.ts"),
+    route("projects/:projectId/shots.geojson", "routes/api.projects.$projectId.shots[.]geojson.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

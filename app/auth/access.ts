@@ -97,4 +97,10 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/api.frames.ts": { POST: FIELD },
   "routes/review.scans.tsx": { GET: FIELD },
   "routes/review.frames.tsx": { GET: FIELD },
+  // ---- issue 14: the project verification report ----
+  // Every role reads it; the models answer 404 unless the reader is a member of the project (or admin).
+  "routes/review.projects.$projectId.report.tsx": { GET: ALL },
+  "routes/api.projects.$projectId.report.ts": { GET: ALL },
+  "routes/api.projects.$projectId.bundle[.]zip.ts": { GET: ALL },
+  "routes/api.projects.$projectId.shots[.]geojson.ts": { GET: ALL },
 };

@@ -470,3 +470,22 @@ export const reshootRequests = sqliteTable(
   },
   (t) => [index("reshoot_requests_sensor").on(t.sensorId, t.createdAt), index("reshoot_requests_site").on(t.siteId)],
 );
+
+// ---------- issue 14: the project verification report, numbered and versioned ----------
+/**
+ * Every version of a project's verification report the client may have received: the content
+ * exactly as hashed (RFC 8785 canonical JSON) and its SHA-256. Never updated or deleted; a new
+ * version is written whenever the content differs from the last one.
+ */
+export const projectReportVersions = sqliteTable(
+  "project_report_versions",
+  {
+    projectId: text("project_id").notNull().references(() => projects.id),
+    version: integer("version").notNull(),
+    content: text("content").notNull(),
+    sha256: text("sha256").notNull(),
+    createdAt: createdAt(),
+    createdBy: text("created_by").references(() => users.id),
+  },
+  (t) => [primaryKey({ columns: [t.projectId, t.version] })],
+);

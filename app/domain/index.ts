@@ -53,3 +53,6 @@ export { depthFrameFromRaw, depthFromCorrelation, frameTarget, checkBox, checkIn
 export type { Intrinsics, Box, DepthFrame, FrameTargetResult } from "./depth.ts";
 export { biasDrift, DRIFT_RUN_LENGTH } from "./drift.ts";
 export type { BiasDrift } from "./drift.ts";
+// issue 14: the project verification report
+export { PROJECT_REPORT_FORMAT, ruleInWords, documentNumber, versionedNumber } from "./project-report.ts";
+export type { ProjectReportContent, ProjectReportSensor, ProjectSensorFigures, ProjectReportRule } from "./project-report.ts";

@@ -67,6 +67,12 @@ export default function EditProject({ loaderData, actionData }: Route.ComponentP
       <p className="text-muted">
         Id <code className="num">{project.id}</code>.
       </p>
+      {/* issue 14 */}
+      <p>
+        <Link to={`/review/projects/${project.id}/report`} className="btn-secondary">
+          Project verification report
+        </Link>
+      </p>
       <ProjectForm lastResult={actionData?.result} defaultValue={projectDefaults(project)} submitLabel="Save changes" choices={choices} />
       <RetirePanel what="project" label={project.name} retiredAt={project.retiredAt} error={actionData?.retireError} />
       <RecordHistory rows={history} />

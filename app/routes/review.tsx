@@ -1,4 +1,5 @@
 import { Form, Link, useNavigation } from "react-router";
+import { reportProjects } from "~/models/project-report.server";
 import type { Route } from "./+types/review";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
@@ -26,12 +27,12 @@ export function parseFilters(url: URL) {
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const filters = parseFilters(new URL(request.url));
-  const [rows, projects] = await Promise.all([reviewOverview(user, filters), listProjectsForFilter()]);
-  return { rows, projects, filters, canImport: user.role !== "viewer", today: new Date().toISOString().slice(0, 10) };
+  const [rows, projects, reportList] = await Promise.all([reviewOverview(user, filters), listProjectsForFilter(), reportProjects(user)]);
+  return { rows, projects, reportList, filters, canImport: user.role !== "viewer", today: new Date().toISOString().slice(0, 10) };
 }
 
 export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
-  const { rows, projects, filters, canImport, today } = loaderData;
+  const { rows, projects, reportList, filters, canImport, today } = loaderData;
   const nav = useNavigation();
   const failing = rows.filter((r) => r.verdict === "fail").length;
   const qs = new URLSearchParams();
@@ -47,6 +48,21 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
         {canImport ? <Link to="/review/scans" className="btn-secondary">Check-shots from a scan</Link> : null}
         {canImport ? <Link to="/review/frames" className="btn-secondary">Check-shots from depth frames</Link> : null}
       </div>
+      {/* issue 14: what the client receives, per project */}
+      {reportList.length ? (
+        <section className="space-y-2" data-testid="project-reports">
+          <h2 className="text-xl font-bold">Project verification reports</h2>
+          <ul className="flex flex-wrap gap-2">
+            {reportList.map((p) => (
+              <li key={p.id}>
+                <Link to={`/review/projects/${p.id}/report`} className="btn-secondary">
+                  {p.name}{p.client ? ` — ${p.client}` : ""}
+                </Link>
+              </li>
+            ))}
+          </ul>
+        </section>
+      ) : null}
       <Form method="get" className="card flex flex-wrap items-end gap-4" aria-label="Filters">
         <div>
           <label htmlFor="f-project" className="field-label">Project</label>
