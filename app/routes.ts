@@ -87,6 +87,8 @@ export default [
     // check-shots from scans and depth frames (issue 18)
     route("scans", "routes/api.scans.ts"),
     route("frames", "routes/api.frames.ts"),
+    // issue 14: projects with their members (registry)
+    route("projects", "routes/api.projects.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

@@ -97,4 +97,6 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/api.frames.ts": { POST: FIELD },
   "routes/review.scans.tsx": { GET: FIELD },
   "routes/review.frames.tsx": { GET: FIELD },
+  // ---- issue 14: projects with their members from a script (admin) ----
+  "routes/api.projects.ts": { POST: ADMIN },
 };
