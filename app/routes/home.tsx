@@ -47,14 +47,14 @@ function ProjectReports({ projects }: { projects: HomeProject[] }) {
                     <th scope="col" className="p-2">Verdict</th>
                     <th scope="col" className="p-2 text-right">Shots</th>
                     <th scope="col" className="p-2 text-right">RMSE</th>
-                    <th scope="col" className="p-2">Last shot</th>
+                    <th scope="col" className="p-2">Last session</th>
                   </tr>
                 </thead>
                 <tbody>
                   {p.sensors.map((s) => (
                     <tr key={s.id} className="border-b border-line">
                       <td className="p-2">
-                        <Link to={`/review/sensors/${s.id}?project=${encodeURIComponent(p.id)}`} className="inline-flex min-h-11 items-center font-bold underline underline-offset-4">
+                        <Link to={s.href} className="inline-flex min-h-11 items-center font-bold underline underline-offset-4">
                           {s.label}
                         </Link>
                       </td>
@@ -63,7 +63,7 @@ function ProjectReports({ projects }: { projects: HomeProject[] }) {
                       </td>
                       <td className="num p-2 text-right">{s.n}</td>
                       <td className="num p-2 text-right">{s.rmseMm == null ? "—" : `${s.rmseMm.toFixed(1)} mm`}</td>
-                      <td className="num p-2">{s.lastShotAt ? s.lastShotAt.slice(0, 10) : "—"}</td>
+                      <td className="num p-2">{s.lastSessionAt ? s.lastSessionAt.slice(0, 10) : "—"}</td>
                     </tr>
                   ))}
                 </tbody>
