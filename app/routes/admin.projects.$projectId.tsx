@@ -138,6 +138,8 @@ export default function EditProject({ loaderData, actionData }: Route.ComponentP
       <FlashNotice flash={flash} />
       <ProjectForm lastResult={actionData?.result} defaultValue={projectDefaults(project)} submitLabel="Save changes" choices={choices} />
       <ProjectMembers
+        // A new member list is a fresh start for the add and invite forms (nothing left typed after a success).
+        key={members.map((m) => m.userId).join(",")}
         projectName={project.name}
         members={members}
         people={people}

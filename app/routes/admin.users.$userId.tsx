@@ -121,6 +121,7 @@ export default function AdminUser({ loaderData, actionData }: Route.ComponentPro
       </section>
 
       <UserProjects
+        key={loaderData.memberships.map((m) => m.projectId).join(",")}
         userLabel={user.name || user.email}
         role={user.role}
         memberships={loaderData.memberships}

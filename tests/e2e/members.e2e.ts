@@ -21,10 +21,11 @@ let w: {
   newcomerEmail: string;
 };
 
-async function shoot(page: Page, name: string) {
+async function shoot(page: Page, name: string, selector?: string) {
   if (!shots) return;
   mkdirSync(shots, { recursive: true });
-  await page.screenshot({ path: join(shots, `${name}.png`), fullPage: true });
+  if (selector) await page.locator(selector).screenshot({ path: join(shots, `${name}.png`) });
+  else await page.screenshot({ path: join(shots, `${name}.png`), fullPage: true });
 }
 
 beforeAll(async () => {
@@ -89,8 +90,21 @@ test("an admin adds a person to a project by e-mail (a wrong address is refused,
   // The change is in the project's history.
   expect(await page.getByRole("heading", { name: "History" }).locator("..").textContent()).toContain("member.add");
   expect(await seriousA11yViolations(page)).toEqual([]);
-  await section.scrollIntoViewIfNeeded();
-  await shoot(page, "project-members");
+  // After a success the add form starts empty again.
+  expect(await section.getByLabel("E-mail address").first().inputValue()).toBe("");
+  expect(await page.getByRole("heading", { name: "History" }).locator("..").textContent()).toContain(w.newcomerEmail);
+  await shoot(page, "project-members", "#members");
+
+  // The person's own page lists the project, with a way to add them to another one.
+  await section.getByTestId("members").getByRole("link").first().click();
+  await page.locator("#projects").getByRole("heading", { name: "Projects (1)" }).waitFor();
+  expect(await page.getByTestId("user-projects").textContent()).toContain(w.quarry.name);
+  const options = await page.getByRole("combobox", { name: /to a project$/ }).locator("option").allTextContents();
+  expect(options.some((o) => o.startsWith(w.river.name))).toBe(true);
+  expect(options.some((o) => o.startsWith(w.quarry.name))).toBe(false);
+  await shoot(page, "user-projects", "#projects");
+  await page.goBack();
+  await section.getByRole("heading", { name: "Members (1)" }).waitFor();
 
   // Removing takes a second, explicit step.
   await section.getByText("Remove…").click();
