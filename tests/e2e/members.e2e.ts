@@ -19,6 +19,8 @@ let w: {
   other: { id: string; label: string };
   viewerEmail: string;
   newcomerEmail: string;
+  site: { id: string };
+  lone: { id: string };
 };
 
 async function shoot(page: Page, name: string, selector?: string) {
@@ -37,6 +39,7 @@ beforeAll(async () => {
   // Invented, in the manner of the demo: two clients of Fernhollow Geomatics sharing a tripod scanner.
   const sensor = await fx.makeSensor({ label: `Tripod scanner ${stamp}`, appliesAirCorrection: true, toleranceMm: 3, tolerancePpm: 10 });
   const other = await fx.makeSensor({ label: `Roof scanner ${stamp}`, appliesAirCorrection: true });
+  const lone = await fx.makeSensor({ label: `Spare scanner ${stamp}`, appliesAirCorrection: true });
   const site = await fx.makeSite({ name: `Fernhollow yard ${stamp}`, targets: [{ label: "Grey board", reflectancePct: 45, referenceM: 25 }] });
   const river = await fx.makeProject({ name: `Valley road ${stamp}`, sensorIds: [sensor.id], siteIds: [site.id] });
   const quarry = await fx.makeProject({ name: `Quarry stockpiles ${stamp}`, sensorIds: [sensor.id, other.id], siteIds: [site.id] });
@@ -59,6 +62,8 @@ beforeAll(async () => {
     other: { id: other.id, label: other.label },
     viewerEmail: viewer.email,
     newcomerEmail: `newcomer-${stamp}@fernhollow.example`,
+    site: { id: site.id },
+    lone: { id: lone.id },
   };
 });
 afterAll(async () => {
@@ -145,5 +150,47 @@ test("a client's viewer lands on their own project's sensor verdicts, sees nothi
   expect(body).not.toMatch(/outbox|queued|tablet/i);
   expect(await page.getByRole("link", { name: "Go to your start page" }).count()).toBe(1);
   await shoot(page, "viewer-403-field");
+  await context.close();
+});
+
+test("the tablet asks which project when sensor and site share two, implies the only one, and cannot start with none", async () => {
+  // As an admin: their tablet copy holds every project, whatever the crews' memberships.
+  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
+  await signInAs(context, "admin@e2e.test");
+  const page = await context.newPage();
+  await page.goto("/field");
+  await page.getByRole("heading", { name: "Start session" }).waitFor();
+  await page.waitForFunction((id) => [...document.querySelectorAll("option")].some((o) => (o as HTMLOptionElement).value === id), w.lone.id);
+  const start = page.getByRole("button", { name: "Start session" });
+
+  // No project holds this sensor: the form says so and cannot start.
+  await page.getByLabel("Sensor", { exact: true }).selectOption(w.lone.id);
+  await page.getByLabel("Site", { exact: true }).selectOption(w.site.id);
+  await page.getByTestId("no-shared-project").waitFor();
+  expect(await start.isDisabled()).toBe(true);
+
+  // One shared project (the quarry holds the roof scanner): implied and shown, no choice asked.
+  await page.getByLabel("Sensor", { exact: true }).selectOption(w.other.id);
+  expect(await page.getByTestId("implied-project").textContent()).toContain(w.quarry.name);
+  expect(await start.isDisabled()).toBe(false);
+
+  // Two shared projects: a required choice.
+  await page.getByLabel("Sensor", { exact: true }).selectOption(w.sensor.id);
+  const project = page.getByLabel("Project", { exact: true });
+  const options = await project.locator("option").allTextContents();
+  expect(options.filter((o) => o.startsWith(w.river.name) || o.startsWith(w.quarry.name))).toHaveLength(2);
+  await start.click();
+  await page.getByText("Choose the project this session belongs to").waitFor();
+  expect(page.url()).toMatch(/\/field$/);
+  await project.selectOption(w.river.id);
+  await start.click();
+  await page.waitForURL(/\/field\/session\/[0-9a-f-]{36}$/);
+  const sessionId = page.url().split("/").pop()!;
+  const record = await page.evaluate(async (id) => {
+    const db = (window.shotbookField as { db: { sessions: { get(id: string): Promise<{ record: { projectId?: string } }> } } }).db;
+    return (await db.sessions.get(id))!.record;
+  }, sessionId);
+  expect(record.projectId).toBe(w.river.id);
+  await shoot(page, "tablet-project");
   await context.close();
 });

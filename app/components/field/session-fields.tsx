@@ -96,7 +96,11 @@ export function SessionFields({
     values.pressureHpa.trim() === "" ? `pressure ${AIR_DEFAULTS.pressureHpa} hPa` : null,
     values.humidityPct.trim() === "" ? `humidity ${AIR_DEFAULTS.humidityPct} %` : null,
   ].filter(Boolean);
-  const set = (key: keyof SessionValues) => (v: string) => onChange(key, v);
+  const set = (key: keyof SessionValues) => (v: string) => {
+    onChange(key, v);
+    // Another sensor or site: the project is chosen again (an implied one must not stay as a silent choice).
+    if ((key === "sensorId" || key === "siteId") && values.projectId) onChange("projectId", "");
+  };
 
   return (
     <>
