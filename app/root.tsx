@@ -59,6 +59,7 @@ export default function App() {
 export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
   let title = "Something went wrong";
   let detail = "An unexpected error stopped this page. Your queued field records are safe on this device.";
+  let forbidden = false;
   let stack: string | undefined;
   if (isRouteErrorResponse(error)) {
     if (error.status === 404) {
@@ -70,6 +71,8 @@ export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
     } else if (error.status === 403) {
       title = "Not allowed";
       detail = typeof error.data === "string" && error.data ? error.data : "Your role may not open this page.";
+      // Only the way back to what the role can use: no sign-in prompt, no talk of a tablet's queue (issue 14).
+      forbidden = true;
     } else {
       title = `Error ${error.status}`;
       detail = typeof error.data === "string" ? error.data : error.statusText;
@@ -84,7 +87,7 @@ export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
       <p className="mt-3 text-lg">{detail}</p>
       <p className="mt-6 flex gap-3">
         <a className="btn" href="/">Go to the start page</a>
-        <a className="btn-secondary" href="/login">Sign in</a>
+        {forbidden ? null : <a className="btn-secondary" href="/login">Sign in</a>}
       </p>
       {stack ? <pre className="mt-6 overflow-auto text-sm">{stack}</pre> : null}
     </main>

@@ -93,6 +93,8 @@ export default [
     route("projects/:projectId/report", "routes/api.projects.$projectId.report.ts"),
     route("projects/:projectId/bundle.zip", "routes/api.projects.$projectId.bundle[.]zip.ts"),
     route("projects/:projectId/shots.geojson", "routes/api.projects.$projectId.shots[.]geojson.ts"),
+    // issue 14: projects with their members (registry)
+    route("projects", "routes/api.projects.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

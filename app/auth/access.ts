@@ -103,4 +103,6 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/api.projects.$projectId.report.ts": { GET: ALL },
   "routes/api.projects.$projectId.bundle[.]zip.ts": { GET: ALL },
   "routes/api.projects.$projectId.shots[.]geojson.ts": { GET: ALL },
+  // ---- issue 14: projects with their members from a script (admin) ----
+  "routes/api.projects.ts": { POST: ADMIN },
 };

@@ -25,7 +25,7 @@ export type ProjectWithLinks = ProjectRow & { sensorIds: string[]; siteIds: stri
 // the EDM figures are each EDM shot's stored u_ref (ranging.md §7): they recompute too
 const RULE_FIELDS = ["minShots", "coverageK", "minWithinPct", "rangeBandEdgesM", "edmUncertaintyMm", "edmUncertaintyPpm"] as const;
 
-function contentOf(b: ProjectBody, withNotes: boolean) {
+export function contentOf(b: ProjectBody, withNotes: boolean) {
   return {
     name: b.name,
     client: b.client,
@@ -44,7 +44,7 @@ function contentOf(b: ProjectBody, withNotes: boolean) {
   };
 }
 
-function rowContent(r: ProjectWithLinks, withNotes: boolean) {
+export function rowContent(r: ProjectWithLinks, withNotes: boolean) {
   return {
     name: r.name,
     client: r.client,

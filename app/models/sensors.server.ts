@@ -239,7 +239,12 @@ export async function registryHistory(entity: "sensor" | "tape" | "site" | "proj
     at: r.at,
     action: r.action,
     by: r.actorName || r.actorEmail || "system",
-    fields: r.action === "update" && r.detail && typeof r.detail === "object" ? summariseChange(r.detail as Record<string, unknown>) : [],
+    fields:
+      r.action === "update" && r.detail && typeof r.detail === "object"
+        ? summariseChange(r.detail as Record<string, unknown>)
+        : r.action.startsWith("member.") && r.detail && typeof r.detail === "object" && "email" in r.detail
+          ? [String((r.detail as { email: unknown }).email)] // issue 14: who joined or left the project
+          : [],
     reason: r.detail && typeof r.detail === "object" && "reason" in r.detail ? String((r.detail as { reason: unknown }).reason ?? "") : "",
   }));
 }

@@ -1,3 +1,5 @@
+import type { SubmissionResult } from "@conform-to/react";
+import { parseWithZod } from "@conform-to/zod/v4";
 import { data, Form, Link, redirect, useNavigation } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/admin.users.$userId";
@@ -8,6 +10,9 @@ import { ROLE_OPTIONS } from "~/auth/schemas";
 import { formatWhen, Notice, ROLE_TEXT } from "~/auth/ui";
 import { changeRole, getUserDetail, revokeSessions, setUserActive, UserError } from "~/models/users.server";
 import { readFormCapped } from "~/http/body.server";
+import { UserProjects } from "~/components/members";
+import { joinProjectSchema } from "~/models/member-schemas";
+import { addMember, projectsOfUser, projectsToJoin, removeMember } from "~/models/members.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.detail.user.email ?? "User"} — Admin — Shotbook` }];
 
@@ -15,8 +20,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const actor = await requireRole(request, ADMIN);
   const detail = await getUserDetail(actor, params.userId);
   if (!detail) throw data("There is no user with this id.", { status: 404 });
-  const { flash, headers } = await takeFlash(request);
-  return data({ detail, flash, isMe: actor.id === params.userId }, { headers });
+  const [{ flash, headers }, memberships, joinable] = await Promise.all([takeFlash(request), projectsOfUser(actor, params.userId), projectsToJoin(actor, params.userId)]);
+  return data({ detail, flash, isMe: actor.id === params.userId, memberships: memberships ?? [], joinable }, { headers });
 }
 
 const intentSchema = z.discriminatedUnion("intent", [
@@ -26,9 +31,34 @@ const intentSchema = z.discriminatedUnion("intent", [
   z.object({ intent: z.literal("revoke-sessions"), sessionId: z.string().optional() }),
 ]);
 
+/** Project membership from the user's side (issue 14): add to a project, remove from one. */
+async function membershipAction(request: Request, actor: Awaited<ReturnType<typeof requireRole>>, userId: string, formData: FormData) {
+  const intent = formData.get("intent");
+  const back = async (text: string) => redirect(`/admin/users/${userId}#projects`, { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
+  if (intent === "join-project") {
+    const submission = parseWithZod(formData, { schema: joinProjectSchema });
+    if (submission.status !== "success") return data({ error: null, joinResult: submission.reply() as SubmissionResult<string[]> }, { status: 400 });
+    const r = await addMember(actor, submission.value.projectId, userId);
+    if (r.status === 404) {
+      if (r.body.error.startsWith("No user")) throw data("There is no user with this id.", { status: 404 });
+      return data({ error: null, joinResult: submission.reply({ fieldErrors: { projectId: ["That project no longer exists: reload the page."] } }) as SubmissionResult<string[]> }, { status: 400 });
+    }
+    return back(r.body.changed ? "Added to the project." : "Already a member; nothing changed.");
+  }
+  if (intent === "leave-project") {
+    const r = await removeMember(actor, String(formData.get("projectId") ?? ""), userId);
+    if (r.status === 404) throw data(r.body.error, { status: 404 });
+    return back(r.body.changed ? "Removed from the project: they no longer see its records." : "Not a member of that project; nothing changed.");
+  }
+  return null;
+}
+
 export async function action({ request, params }: Route.ActionArgs) {
   const actor = await requireRole(request, ADMIN);
-  const parsed = intentSchema.safeParse(Object.fromEntries(await readFormCapped(request)));
+  const formData = await readFormCapped(request);
+  const membership = await membershipAction(request, actor, params.userId, formData);
+  if (membership) return membership;
+  const parsed = intentSchema.safeParse(Object.fromEntries(formData));
   if (!parsed.success) return data({ error: parsed.error.issues[0]?.message ?? "Unknown change." }, { status: 400 });
   const input = parsed.data;
   const id = params.userId;
@@ -89,6 +119,15 @@ export default function AdminUser({ loaderData, actionData }: Route.ComponentPro
           <button type="submit" className="btn" disabled={busy}>Change role</button>
         </Form>
       </section>
+
+      <UserProjects
+        key={loaderData.memberships.map((m) => m.projectId).join(",")}
+        userLabel={user.name || user.email}
+        role={user.role}
+        memberships={loaderData.memberships}
+        choices={loaderData.joinable}
+        joinResult={actionData && "joinResult" in actionData ? actionData.joinResult : undefined}
+      />
 
       <section className="card space-y-3" aria-labelledby="sessions-heading">
         <h2 id="sessions-heading" className="text-2xl font-bold">Signed-in devices ({sessions.length})</h2>

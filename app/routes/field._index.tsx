@@ -5,7 +5,7 @@ import { Link, useNavigate } from "react-router";
 import type { Route } from "./+types/field._index";
 import { formatWhen, FieldLoading } from "~/components/field/chrome";
 import { Choice, NumberField, parseNum } from "~/components/field/inputs";
-import { EMPTY_SESSION, SessionFields, sessionRecordOf, type SessionValues } from "~/components/field/session-fields";
+import { EMPTY_SESSION, projectProblem, SessionFields, sessionRecordOf, sharedProjects, type SessionValues } from "~/components/field/session-fields";
 import { syncSoon } from "~/offline/autosync";
 import { fieldDb } from "~/offline/db";
 import { useLiveQuery } from "~/offline/live";
@@ -65,11 +65,18 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
   const { sensorId, siteId } = values;
   const dirty = Boolean(sensorId || siteId || values.airTempC || values.pressureHpa || values.humidityPct || values.note || measuredKlux);
 
+  const implied = (v: SessionValues) => {
+    const shared = sharedProjects(reference.projects, v.sensorId, v.siteId);
+    return shared.length === 1 ? shared[0]!.id : v.projectId;
+  };
+
   async function onSubmit(e: React.FormEvent) {
     e.preventDefault();
     const errs: Record<string, string> = {};
     if (!sensorId) errs.sensorId = "Choose the sensor";
     if (!siteId) errs.siteId = "Choose the site";
+    const projectError = projectProblem(reference.projects, values);
+    if (projectError) errs.projectId = projectError;
     const preset = SKY.find((x) => x.value === sky)!;
     const klux = sky === "measured" ? parseNum(measuredKlux) : preset.klux;
     if (sky === "measured" && (klux === undefined || Number.isNaN(klux) || klux < 0)) errs.illuminance = "Enter the measured illuminance (klux), 0 or more";
@@ -80,7 +87,8 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
     setBusy(true);
     try {
       const s = await startSession(
-        sessionRecordOf(values),
+        // The implied project goes with the record even if the screen has not caught up yet.
+        sessionRecordOf({ ...values, projectId: implied(values) }),
         { sky: sky === "measured" ? `measured ${klux} klux` : preset.label, illuminanceKlux: klux },
       );
       syncSoon();
@@ -94,6 +102,8 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
   }
 
   const noReference = reference.sensors.length === 0 || reference.sites.length === 0;
+  // Sensor and site chosen but in no project of this crew: the server would refuse the session (api.md v1.1).
+  const noProject = Boolean(sensorId && siteId) && sharedProjects(reference.projects, sensorId, siteId).length === 0;
 
   return (
     <div className="grid gap-6 lg:grid-cols-[3fr_2fr]">
@@ -113,7 +123,8 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
           errors={errors}
           onChange={(key, v) => {
             setValues((cur) => ({ ...cur, [key]: v }));
-            if (key === "sensorId" || key === "siteId") setErrors((e) => ({ ...e, [key]: "" }));
+            if (key === "sensorId" || key === "siteId") setErrors((e) => ({ ...e, [key]: "", projectId: "" }));
+            if (key === "projectId") setErrors((e) => ({ ...e, projectId: "" }));
           }}
         >
           <fieldset className="space-y-3">
@@ -124,7 +135,7 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
           </fieldset>
         </SessionFields>
 
-        <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={busy || noReference}>
+        <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={busy || noReference || noProject}>
           Start session
         </button>
       </form>

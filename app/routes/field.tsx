@@ -73,6 +73,18 @@ export default function FieldLayout() {
 }
 
 export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
+  // A role without field work (a viewer) is sent to its reports, never offered the tablet's queue (issue 14).
+  if (isRouteErrorResponse(error) && error.status === 403) {
+    return (
+      <div className="card space-y-3" role="alert">
+        <h1 className="text-2xl font-bold">Not allowed</h1>
+        <p>The field screens are for crews logging check-shots. Your role reads the reports of your projects.</p>
+        <p>
+          <a className="btn" href="/">Go to your start page</a>
+        </p>
+      </div>
+    );
+  }
   const message = isRouteErrorResponse(error) ? (typeof error.data === "string" ? error.data : error.statusText) : error instanceof Error ? error.message : String(error);
   return (
     <div className="card space-y-3" role="alert">

@@ -53,7 +53,15 @@ test("the scenario is the same on every build and has the promised size", () => 
   const a = buildDemoScenario();
   const b = buildDemoScenario();
   expect(JSON.stringify(a)).toBe(JSON.stringify(b));
-  expect(a.users.map((u) => u.role).sort()).toEqual(["admin", "crew", "qa", "viewer"]);
+  expect(a.users.map((u) => u.role).sort()).toEqual(["admin", "crew", "qa", "viewer", "viewer"]);
+  // issue 14: two client projects sharing the tripod scanner and the yard, a viewer each, crew and QA in both
+  expect(a.projects.map((p) => p.id)).toEqual(["river-valley-corridor", "kestrel-quarry-stockpiles"]);
+  const [river, quarry] = a.projects;
+  expect(river!.sensorIds.filter((x) => quarry!.sensorIds.includes(x))).toEqual(["fernhollow-ts9"]);
+  for (const p of a.projects) {
+    const roles = p.memberEmails.map((e) => a.users.find((u) => u.email === e)!.role).sort();
+    expect(roles).toEqual(["crew", "qa", "viewer"]);
+  }
   expect(Object.keys(a.sensors)).toHaveLength(3);
   expect(a.sessions.length).toBeGreaterThanOrEqual(6);
   expect(a.shots.length).toBeGreaterThanOrEqual(300);

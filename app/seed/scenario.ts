@@ -44,6 +44,8 @@ export const DEMO_USERS: DemoUser[] = [
   { email: "oren@fernhollow.example", name: "Oren Lindqvist", role: "qa" },
   { email: "priya@fernhollow.example", name: "Priya Castellano", role: "crew" },
   { email: "client.viewer@fernhollow.example", name: "Wendel Okafor", role: "viewer" },
+  // issue 14: the second client's viewer (invented); sees only the quarry project
+  { email: "maren.holt@kestrel-aggregates.example", name: "Maren Holt", role: "viewer" },
 ];
 
 /** Client-made records (sessions, shots) carry UUIDs; the registry keeps readable ids. */
@@ -57,6 +59,7 @@ export const DEMO_IDS = {
   yard: "fernhollow-yard",
   roadside: "fernhollow-roadside",
   project: "river-valley-corridor",
+  quarry: "kestrel-quarry-stockpiles", // issue 14: the second client's project
   edm: "fernhollow-ts15", // issue 15
 } as const;
 
@@ -501,7 +504,20 @@ export type ShotMeta = {
   outlier: boolean;
 };
 
-export type DemoSession = SessionBody & { sensorKey: SensorKey; siteKey: SiteKey };
+export type DemoSession = SessionBody & { sensorKey: SensorKey; siteKey: SiteKey; projectId: string };
+
+/**
+ * issue 14: the firm works for two invented clients at once. The river valley road (Eastbank
+ * Roads Office) uses all three sensors at both sites; the quarry stockpile survey (Kestrel
+ * Aggregates) uses the tripod scanner, verified at the yard. The tripod's dawn repeat at the
+ * yard (s5) was done for the quarry job, so the two projects share the sensor and the site and
+ * the tablet asked which project; each client's viewer sees only their own project's shots.
+ */
+const QUARRY_SESSIONS = new Set(["s5"]);
+export const DEMO_MEMBERS: Record<string, string[]> = {
+  "river-valley-corridor": ["oren@fernhollow.example", "priya@fernhollow.example", "client.viewer@fernhollow.example"],
+  "kestrel-quarry-stockpiles": ["oren@fernhollow.example", "priya@fernhollow.example", "maren.holt@kestrel-aggregates.example"],
+};
 
 export type DemoScenario = {
   users: DemoUser[];
@@ -510,6 +526,8 @@ export type DemoScenario = {
   sensors: Record<SensorKey, SensorBody & { id: string }>;
   sites: Record<SiteKey, DemoSite>;
   project: ProjectBody & { id: string };
+  /** Every client project (the river valley road first, then the quarry), with its members' e-mails. */
+  projects: (ProjectBody & { id: string; memberEmails: string[] })[];
   deviceId: string;
   sessions: DemoSession[];
   shots: ShotBody[];
@@ -555,6 +573,7 @@ export function buildDemoScenario(): DemoScenario {
       startedAt: plan.startedAt,
       ...plan.recorded,
       note: plan.note,
+      projectId: QUARRY_SESSIONS.has(plan.key) ? DEMO_IDS.quarry : DEMO_IDS.project,
       sensorKey: plan.sensor,
       siteKey: plan.site,
     } as DemoSession);
@@ -612,20 +631,30 @@ export function buildDemoScenario(): DemoScenario {
     });
   }
 
+  const river = {
+    id: DEMO_IDS.project,
+    name: "River valley corridor",
+    client: "Eastbank Roads Office (invented)",
+    sensorIds: [DEMO_IDS.roof, DEMO_IDS.tripod, DEMO_IDS.camera],
+    siteIds: [DEMO_IDS.yard, DEMO_IDS.roadside],
+    notes: "Corridor survey of the valley road; sensors verified at the yard baseline and the roadside test range.",
+  } as ProjectBody & { id: string };
+  const quarry = {
+    id: DEMO_IDS.quarry,
+    name: "Kestrel quarry stockpiles",
+    client: "Kestrel Aggregates (invented)",
+    sensorIds: [DEMO_IDS.tripod],
+    siteIds: [DEMO_IDS.yard],
+    notes: "Monthly stockpile volumes at an invented hillside quarry; the tripod scanner is verified at the yard baseline before each visit.",
+  } as ProjectBody & { id: string };
   return {
     users: DEMO_USERS,
     tape: DEMO_TAPE as TapeBody & { id: string },
     edm: DEMO_EDM,
     sensors,
     sites,
-    project: {
-      id: DEMO_IDS.project,
-      name: "River valley corridor",
-      client: "Eastbank Roads Office (invented)",
-      sensorIds: [DEMO_IDS.roof, DEMO_IDS.tripod, DEMO_IDS.camera],
-      siteIds: [DEMO_IDS.yard, DEMO_IDS.roadside],
-      notes: "Corridor survey of the valley road; sensors verified at the yard baseline and the roadside test range.",
-    },
+    project: river,
+    projects: [river, quarry].map((p) => ({ ...p, memberEmails: DEMO_MEMBERS[p.id]! })),
     deviceId: DEMO_DEVICE_ID,
     sessions,
     shots,

@@ -13,6 +13,7 @@ import {
   importMappings,
   loginCodes,
   photos,
+  projectMembers,
   projects,
   projectSensors,
   projectSites,
@@ -26,6 +27,7 @@ import {
   users,
 } from "~/db/schema";
 import { createProject } from "~/models/projects.server";
+import { addMember } from "~/models/members.server";
 import { createSensor } from "~/models/sensors.server";
 import { createSite } from "~/models/sites.server";
 import { ingestSync } from "~/models/sync.server";
@@ -84,7 +86,13 @@ export async function seedDemo(scenario: DemoScenario = buildDemoScenario()): Pr
     expectOk(`site ${site.body.name}`, await createSite(actor, site.body));
     targetCount += site.body.targets.length;
   }
-  expectOk("project", await createProject(actor, scenario.project));
+  // issue 14: both client projects, and their members before the crew's tablet syncs into them
+  const adminActor = { id: admin.id, role: "admin" as const };
+  const idByEmail = new Map(seededUsers.map((u) => [u.email, u.id]));
+  for (const { memberEmails, ...body } of scenario.projects) {
+    expectOk(`project ${body.name}`, await createProject(actor, body));
+    for (const email of memberEmails) expectOk(`member ${email}`, await addMember(adminActor, body.id, idByEmail.get(email)!).then((r) => ({ status: r.status, body: { id: email } })));
+  }
 
   // One sync request per field day (and at most BATCH_SHOTS shots), as a tablet would send them.
   const results: SeedSummary["results"] = { accepted: 0, duplicate: 0, rejected: [] };
@@ -119,7 +127,7 @@ export async function seedDemo(scenario: DemoScenario = buildDemoScenario()): Pr
     sensors: Object.keys(scenario.sensors).length,
     sites: Object.keys(scenario.sites).length,
     targets: targetCount,
-    projects: 1,
+    projects: scenario.projects.length,
     sessions: scenario.sessions.length,
     shots: scenario.shots.length,
     results,
@@ -157,9 +165,11 @@ export async function deleteDemoRows(scenario: DemoScenario = buildDemoScenario(
     for (const c of chunks(sessionIds)) await tx.delete(checkSessions).where(inArray(checkSessions.id, c));
     await tx.delete(signOffs).where(inArray(signOffs.sensorId, sensorIds));
     await tx.delete(importMappings).where(inArray(importMappings.sensorId, sensorIds));
-    await tx.delete(projectSensors).where(or(eq(projectSensors.projectId, scenario.project.id), inArray(projectSensors.sensorId, sensorIds)));
-    await tx.delete(projectSites).where(or(eq(projectSites.projectId, scenario.project.id), inArray(projectSites.siteId, siteIds)));
-    await tx.delete(projects).where(eq(projects.id, scenario.project.id));
+    const projectIds = scenario.projects.map((p) => p.id);
+    await tx.delete(projectSensors).where(or(inArray(projectSensors.projectId, projectIds), inArray(projectSensors.sensorId, sensorIds)));
+    await tx.delete(projectSites).where(or(inArray(projectSites.projectId, projectIds), inArray(projectSites.siteId, siteIds)));
+    await tx.delete(projectMembers).where(or(inArray(projectMembers.projectId, projectIds), ...(userIds.length ? [inArray(projectMembers.userId, userIds)] : [])));
+    await tx.delete(projects).where(inArray(projects.id, projectIds));
     await tx.delete(targets).where(inArray(targets.siteId, siteIds));
     await tx.delete(stations).where(inArray(stations.siteId, siteIds));
     await tx.delete(sites).where(inArray(sites.id, siteIds));
@@ -173,7 +183,7 @@ export async function deleteDemoRows(scenario: DemoScenario = buildDemoScenario(
     }
     await tx.delete(loginCodes).where(inArray(loginCodes.email, emails));
     // the demo's own audit rows go with it, so a re-seeded demo reads as made once
-    const entityIds = [...sensorIds, ...siteIds, scenario.tape.id, scenario.edm.id, scenario.project.id, ...userIds];
+    const entityIds = [...sensorIds, ...siteIds, scenario.tape.id, scenario.edm.id, ...scenario.projects.map((p) => p.id), ...userIds];
     await tx.delete(auditLog).where(inArray(auditLog.entityId, entityIds));
   });
 }
@@ -188,7 +198,7 @@ export function localDatabaseFile(url: string): string | null {
 /** Lines for a terminal: what the seed loaded and who may sign in. */
 export function describeSeed(s: SeedSummary): string[] {
   const lines = [
-    `Loaded the Fernhollow Geomatics demo: ${s.sensors} sensors, ${s.sites} sites (${s.targets} targets), ${s.tapes} steel tape, ${s.projects} project,`,
+    `Loaded the Fernhollow Geomatics demo: ${s.sensors} sensors, ${s.sites} sites (${s.targets} targets), ${s.tapes} steel tape, ${s.projects} client projects,`,
     `${s.sessions} sessions and ${s.shots} shots (sync: ${s.results.accepted} accepted, ${s.results.duplicate} already had, ${s.results.rejected.length} rejected).`,
   ];
   for (const r of s.results.rejected) lines.push(`  rejected ${r.kind} ${r.id}: ${(r.errors ?? []).map((e) => `${e.path} ${e.message}`).join("; ")}`);

@@ -7,7 +7,7 @@ export type FieldWorld = Awaited<ReturnType<typeof fieldWorld>>;
 
 export async function fieldWorld(tag: string) {
   useServerEnv();
-  const { makeSensor, makeSite, makeTape } = await import("../support/registry-fixtures");
+  const { makeSensor, makeSite, makeTape, makeProject, addMembers } = await import("../support/registry-fixtures");
   const sensor = await makeSensor({ label: `Roof scanner ${tag}`, kind: "pulsed", wavelengthNm: 905, toleranceMm: 5, tolerancePpm: 10, appliesAirCorrection: true });
   const site = await makeSite({
     name: `Fernhollow yard ${tag}`,
@@ -20,7 +20,10 @@ export async function fieldWorld(tag: string) {
   });
   const other = await makeSite({ name: `Roadside range ${tag}`, targets: [{ label: "Far board", reflectancePct: 85, referenceM: 60 }] });
   const tape = await makeTape({ label: `Steel tape 50 m ${tag}` });
-  return { sensor, site, other, tape };
+  // Sessions belong to a project holding both the sensor and the site (issue 14): one, so the tablet implies it.
+  const project = await makeProject({ name: `River valley corridor ${tag}`, sensorIds: [sensor.id], siteIds: [site.id, other.id] });
+  await addMembers(project.id, ["crew@e2e.test", "qa@e2e.test"]);
+  return { sensor, site, other, tape, project };
 }
 
 /** Sessions in the e2e database's checkSessions table by id (what the server keeps). */

@@ -41,13 +41,13 @@ test("seeding a fresh database gives the demo's counts and every synced record i
   expect(summary.results.accepted).toBe(scenario.sessions.length + scenario.shots.length);
   expect(await rows(sensors)).toBe(3);
   expect(await rows(sites)).toBe(2);
-  expect(await rows(users)).toBe(4);
-  expect(await rows(projects)).toBe(1);
+  expect(await rows(users)).toBe(5);
+  expect(await rows(projects)).toBe(2);
   expect(await rows(targets)).toBe(summary.targets);
   expect(await rows(checkSessions)).toBeGreaterThanOrEqual(6);
   expect(await rows(shots)).toBeGreaterThanOrEqual(300);
   const roles = (await getDb().select({ role: users.role }).from(users)).map((u) => u.role).sort();
-  expect(roles).toEqual(["admin", "crew", "qa", "viewer"]);
+  expect(roles).toEqual(["admin", "crew", "qa", "viewer", "viewer"]);
   expect(await demoIsSeeded()).toBe(true);
 });
 
@@ -60,7 +60,12 @@ test("the sensor overview (GET /api/sensors) shows pass, fail and not enough sho
 
 test("sessions land in the project and the session without humidity is marked as defaulted air", async () => {
   const sessionRows = await getDb().select({ id: checkSessions.id, projectId: checkSessions.projectId, humidityPct: checkSessions.humidityPct }).from(checkSessions);
-  expect(sessionRows.every((s) => s.projectId === DEMO_IDS.project)).toBe(true);
+  // issue 14: the tripod's dawn repeat at the yard belongs to the quarry client; every other session to the river valley road
+  const byProject = (p: string) => sessionRows.filter((s) => s.projectId === p).map((s) => s.id).sort();
+  const quarry = scenario.sessions.filter((s) => s.projectId === DEMO_IDS.quarry).map((s) => s.id).sort();
+  expect(quarry).toHaveLength(1);
+  expect(byProject(DEMO_IDS.quarry)).toEqual(quarry);
+  expect(byProject(DEMO_IDS.project)).toHaveLength(sessionRows.length - 1);
   const noHumidity = sessionRows.filter((s) => s.humidityPct == null).map((s) => s.id);
   expect(noHumidity).toHaveLength(1);
   const defaulted = await getDb().selectDistinct({ sessionId: shots.sessionId }).from(shots).where(eq(shots.airDefaulted, true));
@@ -115,4 +120,25 @@ test("the depth camera has a phase-wrap shot on the target beyond its combined i
   expect(wraps[0]!.rangeM).toBeLessThan(3);
   expect(r.verdict).toBe("insufficient");
   expect(r.shots.filter((s) => !s.flags.includes("wrap")).every((s) => s.within)).toBe(true);
+});
+
+test("each client's viewer lands on their own project only, judged on its own shots (issue 14)", async () => {
+  const { projectsHome } = await import("~/models/home.server");
+  const viewer = (email: string) => {
+    const u = summary.users.find((x) => x.email === email)!;
+    return { id: u.id, role: u.role };
+  };
+  const quarrySessions = new Set(scenario.sessions.filter((s) => s.projectId === DEMO_IDS.quarry).map((s) => s.id));
+  const quarryShots = scenario.shots.filter((s) => quarrySessions.has(s.sessionId)).length;
+
+  const maren = await projectsHome(viewer("maren.holt@kestrel-aggregates.example"));
+  expect(maren.map((p) => p.id)).toEqual([DEMO_IDS.quarry]);
+  expect(maren[0]!.sensors.map((s) => [s.id, s.n])).toEqual([[DEMO_IDS.tripod, quarryShots]]);
+
+  const wendel = await projectsHome(viewer("client.viewer@fernhollow.example"));
+  expect(wendel.map((p) => p.id)).toEqual([DEMO_IDS.project]);
+  expect(wendel[0]!.sensors.map((s) => s.id).sort()).toEqual([DEMO_IDS.camera, DEMO_IDS.roof, DEMO_IDS.tripod].sort());
+  // The shared tripod: the river project's n plus the quarry's n is the sensor's whole history.
+  const allTripod = scenario.shots.filter((s) => scenario.sessions.find((x) => x.id === s.sessionId)!.sensorKey === "tripod").length;
+  expect(wendel[0]!.sensors.find((s) => s.id === DEMO_IDS.tripod)!.n).toBe(allTripod - quarryShots);
 });

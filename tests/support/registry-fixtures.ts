@@ -3,6 +3,7 @@
 // projects. Invented values in the manner of the demo scenario (brief.md).
 import { getDb } from "~/db/client.server";
 import { projectMembers, projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets, users, type Role } from "~/db/schema";
+import { inArray } from "drizzle-orm";
 import { createApiToken } from "~/auth/tokens.server";
 
 const uid = () => crypto.randomUUID();
@@ -107,6 +108,14 @@ export async function makeProject(
   for (const sensorId of opts.sensorIds ?? []) await db.insert(projectSensors).values({ projectId: row.id, sensorId });
   for (const siteId of opts.siteIds ?? []) await db.insert(projectSites).values({ projectId: row.id, siteId });
   return row;
+}
+
+/** Makes these users (by e-mail) members of the project (issue 14): their scope then holds it. */
+export async function addMembers(projectId: string, emails: string[]) {
+  const db = getDb();
+  const rows = emails.length ? await db.select({ id: users.id }).from(users).where(inArray(users.email, emails)) : [];
+  for (const r of rows) await db.insert(projectMembers).values({ projectId, userId: r.id }).onConflictDoNothing();
+  return rows.length;
 }
 
 /** A Request as a user (bearer token), JSON body when given. */
