@@ -18,7 +18,7 @@ import { createSignOff } from "~/models/signoffs.server";
 import { action as syncAction } from "~/routes/api.sync";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
 import { action as exclusionAction } from "~/routes/api.shots.$shotId.exclusion";
-import { addMembers, apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
 import { tempMailDir } from "./auth-helpers";
 
 const A_TOL = 1; // mm
@@ -122,7 +122,7 @@ beforeAll(async () => {
   // the one project listing the sensor and the site: its rule judges the report
   projectId = (await makeProject({ sensorIds: [sensorId], siteIds: [siteId], minShots: 4, coverageK: 2, minWithinPct: 50 })).id;
   // api.md v1.1: the QA reader is a member of it (the sessions are implied into it)
-  await addMembers(projectId, qa.id);
+  await addMemberIds(projectId, qa.id);
   // session A reads about 3 mm long, session B about 3 mm short
   await sync(
     [

@@ -9,7 +9,7 @@ import jStat from "jstat";
 import { action as syncAction } from "~/routes/api.sync";
 import { action as edmAction } from "~/routes/api.edms";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
-import { addMembers, apiRequest, call, makeProject, makeSensor, makeSite, makeTape, makeUser, type TestUser } from "../support/registry-fixtures";
+import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, makeTape, makeUser, type TestUser } from "../support/registry-fixtures";
 
 const J = jStat as { studentt: { inv(p: number, df: number): number } };
 
@@ -51,7 +51,7 @@ beforeAll(async () => {
   });
   const project = await makeProject({ sensorIds: [sensorId], siteIds: [site.id], minShots: 3, statement: "nssda95", edmUncertaintyMm: 2, edmUncertaintyPpm: 1 });
   projectId = project.id;
-  await addMembers(projectId, viewer.id); // api.md v1.1: a member sees the project's sessions
+  await addMemberIds(projectId, viewer.id); // api.md v1.1: a member sees the project's sessions
   const edm = await call(
     edmAction,
     apiRequest("/api/edms", {
@@ -189,7 +189,7 @@ test("traceability lists the sensor, the tape and the EDM, with the sessions pas
 
 test("a rule with the reference in the verdict holds a pass back when the reference is unknown", async () => {
   const strict = await makeProject({ sensorIds: [], minShots: 3, referenceInVerdict: true });
-  await addMembers(strict.id, viewer.id); // a rule the reader may pick: one of their projects
+  await addMemberIds(strict.id, viewer.id); // a rule the reader may pick: one of their projects
   const R = (await report(`?project=${strict.id}`)).json;
   expect(R.tests.find((t: { name: string }) => t.name === "reference").pass).toBeNull();
   expect(R.verdict).toBe("insufficient");

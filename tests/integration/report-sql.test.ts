@@ -9,7 +9,7 @@ import { action as syncAction } from "~/routes/api.sync";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
 import { loader as sensorsLoader } from "~/routes/api.sensors";
 import { action as exclusionAction } from "~/routes/api.shots.$shotId.exclusion";
-import { addMembers, apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
 
 // [reference D (m), error (mm), session]; D on the default band edges 10, 30 and 100 m on purpose
 type Row = [number, number, "A" | "B"];
@@ -38,9 +38,9 @@ beforeAll(async () => {
   // two projects share the sensor and site: each session names its own
   const pA = await makeProject({ name: "Quarry north face", sensorIds: [sensorId], siteIds: [site.id] });
   const pB = await makeProject({ name: "Harbour wall", sensorIds: [sensorId], siteIds: [site.id] });
-  await addMembers(pA.id, memberA.id, crew.id, qa.id);
-  await addMembers(pB.id, crew.id, qa.id);
-  await makeProject({ name: "Unrelated survey" }).then((p) => addMembers(p.id, outsider.id));
+  await addMemberIds(pA.id, memberA.id, crew.id, qa.id);
+  await addMemberIds(pB.id, crew.id, qa.id);
+  await makeProject({ name: "Unrelated survey" }).then((p) => addMemberIds(p.id, outsider.id));
   const sessions = [
     { id: ses.A, sensorId, siteId: site.id, projectId: pA.id, startedAt: "2026-06-01T08:00:00+02:00", airTempC: 15, pressureHpa: 1010, humidityPct: 60 },
     { id: ses.B, sensorId, siteId: site.id, projectId: pB.id, startedAt: "2026-06-02T08:00:00+02:00", airTempC: 15, pressureHpa: 1010, humidityPct: 60 },

@@ -149,6 +149,6 @@ export async function call(fn: (args: never) => unknown, request: Request, param
 }
 
 /** issue 16: makes users members of a project (api.md v1.1 scoping: non-admins see their projects' records only). */
-export async function addMembers(projectId: string, ...userIds: string[]) {
+export async function addMemberIds(projectId: string, ...userIds: string[]) {
   for (const userId of userIds) await getDb().insert(projectMembers).values({ projectId, userId });
 }

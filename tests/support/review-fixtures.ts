@@ -3,7 +3,7 @@
 // a yard baseline with geographic positions, one project. Registry rows go in through drizzle
 // (registry-fixtures), field records through the real ingest (ingestSync) as a crew member.
 import { ingestSync } from "~/models/sync.server";
-import { addMembers, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "./registry-fixtures";
+import { addMemberIds, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "./registry-fixtures";
 
 const uid = () => crypto.randomUUID();
 
@@ -34,7 +34,7 @@ export async function reviewWorld() {
   const [dark, grey, white] = site.targets as [(typeof site.targets)[0], (typeof site.targets)[0], (typeof site.targets)[0]];
   const project = await makeProject({ name: "River valley corridor", sensorIds: [failing.id, passing.id], siteIds: [site.id] });
   // api.md v1.1: everyone but the admin sees the project's records as a member of it
-  await addMembers(project.id, qa.id, crew.id, crew2.id, viewer.id);
+  await addMemberIds(project.id, qa.id, crew.id, crew2.id, viewer.id);
 
   const sessions: { id: string; sensorId: string; startedAt: string; by: TestUser }[] = [];
   const shots: FixtureShot[] = [];
