@@ -35,7 +35,7 @@ export type ShotFormState = {
   reflectancePct: string;
   illuminanceKlux: string;
   incidenceDeg: string;
-  position: { lat: number; lon: number; accuracyM?: number } | null;
+  position: NonNullable<SyncShotRecord["position"]> | null;
   note: string;
 };
 
