@@ -6,6 +6,8 @@ import type { SQLiteColumn } from "drizzle-orm/sqlite-core";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, checkSessions, edms, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
 import {
+  BRIGHT_ABOVE_PCT,
+  DARK_BELOW_PCT,
   DEFAULT_RULE,
   mad,
   MAD_TO_SIGMA,
@@ -676,9 +678,10 @@ async function filteredRows(q: ShotQuery, db: Db, extra: SQL[]): Promise<Filter>
   if (q.reflectance === "retro") w.push(eq(shots.retro, true));
   else if (q.reflectance) {
     w.push(eq(shots.retro, false));
-    if (q.reflectance === "dark") w.push(lt(shots.reflectancePct, 20));
-    if (q.reflectance === "mid") w.push(and(gte(shots.reflectancePct, 20), lte(shots.reflectancePct, 60))!);
-    if (q.reflectance === "bright") w.push(gt(shots.reflectancePct, 60));
+    // the domain's classes (reflectanceClass), as SQL
+    if (q.reflectance === "dark") w.push(lt(shots.reflectancePct, DARK_BELOW_PCT));
+    if (q.reflectance === "mid") w.push(and(gte(shots.reflectancePct, DARK_BELOW_PCT), lte(shots.reflectancePct, BRIGHT_ABOVE_PCT))!);
+    if (q.reflectance === "bright") w.push(gt(shots.reflectancePct, BRIGHT_ABOVE_PCT));
   }
   const k = await kFor(q.project, db);
   if (k === null) return { error: { status: 404, body: { error: `No project ${q.project}.` } } };
