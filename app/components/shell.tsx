@@ -1,6 +1,7 @@
 import { Form, NavLink, useLocation } from "react-router";
-import type { Role } from "~/db/schema";
+import type { ALL } from "~/auth/access";
 
+type Role = (typeof ALL)[number];
 export type ShellUser = { email: string; name: string; role: Role } | null;
 
 const AREAS: { to: string; label: string; roles: Role[] }[] = [

@@ -51,12 +51,16 @@ export function rangeBandOf(distanceM: number, edges: number[]): string {
   return i === edges.length - 1 ? `${edges[i]}+` : `${edges[i]}-${edges[i + 1]}`;
 }
 
+/** ranging.md §5: a board under this reflectance (%) is dark; above BRIGHT_ABOVE_PCT, bright. The only copy of both. */
+export const DARK_BELOW_PCT = 20;
+export const BRIGHT_ABOVE_PCT = 60;
+
 export function reflectanceClass(pct: number, retro: boolean): ReflectanceClass {
   if (retro) return "retro";
   const p = requireFinite(pct, "reflectancePct", "reflectance (%)");
   if (p < 0) throw new DomainError("reflectancePct", "negative", `reflectance must not be negative (got ${p})`);
-  if (p < 20) return "dark";
-  if (p <= 60) return "mid";
+  if (p < DARK_BELOW_PCT) return "dark";
+  if (p <= BRIGHT_ABOVE_PCT) return "mid";
   return "bright";
 }
 
@@ -85,8 +89,8 @@ export function coverageChecklist(input: CoverageInput): CoverageResult {
     if (s.retro) continue;
     const b = rangeBandIndex(s.referenceM, edges);
     if (b < 0) continue;
-    if (s.reflectancePct < 20) dark[b]++;
-    else if (s.reflectancePct > 60) bright[b]++;
+    if (s.reflectancePct < DARK_BELOW_PCT) dark[b]++;
+    else if (s.reflectancePct > BRIGHT_ABOVE_PCT) bright[b]++;
   }
   return coverageFromCounts(sensor, labels, dark, bright, sun);
 }

@@ -16,6 +16,7 @@ export { computeShot, toleranceMm, isWrap, checkSensor, checkRule } from "./shot
 export { sensorReport, reportFromAggregates, reportRows, aggregateShots, orderStatistics, illuminanceIndex, reflectanceIndex, zeroOffsetTest, verdictFailures, inPeriod, sortedAbsDeviations, NSSDA_FACTOR, OUTLIER_K, MAD_TO_SIGMA } from "./report.ts";
 export type { ReportGroup, ReportAggregates } from "./report.ts";
 export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, siteCoverageCells, COVERAGE_NEED } from "./coverage.ts";
+export { DARK_BELOW_PCT, BRIGHT_ABOVE_PCT } from "./coverage.ts";
 export type { SiteTarget, SiteCell } from "./coverage.ts";
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";

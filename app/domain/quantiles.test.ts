@@ -1,6 +1,4 @@
 import { expect, test } from "vitest";
-// jstat ships no type declarations
-// @ts-ignore
 import jStat from "jstat";
 import { chiSquareQuantile, normalQuantile, tQuantile } from "./quantiles.ts";
 import { DomainError } from "./errors.ts";

@@ -1,6 +1,4 @@
 import { expect, test } from "vitest";
-// jstat ships no type declarations
-// @ts-ignore
 import jStat from "jstat";
 import { accuracyStatement, combinedRmseMm, daysUntil, linearUncertaintyMm, pastDueOn, referenceUncertaintyMm } from "./uncertainty.ts";
 import { sensorReport, zeroOffsetTest } from "./report.ts";

@@ -9,7 +9,7 @@ import { audit } from "~/models/audit.server";
 import { ingestSync } from "~/models/sync.server";
 import { notifyFailedVerdicts } from "~/models/signoffs.server";
 import { sensorSpecOf } from "~/models/sensors.server";
-import { IMPORT_FIELDS, mapRow, type ImportMapping, type ImportTarget, type RowError } from "~/components/review/import-rows";
+import { IMPORT_FIELDS, mapRow, type ImportMapping, type ImportTarget, type RowError } from "~/contract/import-rows";
 
 export type ImportActor = { id: string; role: Role; name?: string; email?: string };
 

@@ -6,9 +6,9 @@ import type { SQLiteColumn } from "drizzle-orm/sqlite-core";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, checkSessions, edms, exclusions, photos, projects, projectSensors, projectSites, sensors, shots, sites, stations, tapes, targets } from "~/db/schema";
 import {
-  computeShot,
+  BRIGHT_ABOVE_PCT,
+  DARK_BELOW_PCT,
   DEFAULT_RULE,
-  DomainError,
   mad,
   MAD_TO_SIGMA,
   median,
@@ -17,13 +17,12 @@ import {
   type AirInput,
   type LinearUncertainty,
   type Position,
-  type ReferenceInput,
   type Rule,
   type SensorSpec,
   type ShotComputed,
   type TapeSpec,
 } from "~/domain";
-import { validateShot, type RecordError, type SyncShot } from "./sync-schemas";
+import { computeShotRecordWith, SERVER_WORDING, validateShot, type RecordError, type ShotRegistry, type SyncShot } from "~/contract";
 
 export type Actor = { id: string; role: string };
 
@@ -245,97 +244,59 @@ export type ComputedColumns = Pick<
 
 export type ShotOutcome = { ok: true; columns: ComputedColumns; computed: ShotComputed } | { ok: false; errors: RecordError[] };
 
-const TAPE_FIELD = /^reference\.(tempC|tensionN|support|spans)$/;
-
-/** A domain path (relative to the domain's ShotInput) → the path of the field in the sync record. */
-function recordPath(e: DomainError): RecordError {
-  const p = e.path ?? "";
-  if (TAPE_FIELD.test(p)) return { path: p.replace("reference.", "reference.tape."), message: e.message };
-  if (p.startsWith("reference.tape.")) return { path: "reference.tape.tapeId", message: `the tape's registry constants are not usable: ${e.message}` };
-  if (p.startsWith("reference.station")) return { path: "reference.stationId", message: e.message };
-  if (p.startsWith("reference.target")) return { path: "targetId", message: e.message };
-  if (p.startsWith("sensor") || p.startsWith("rule")) return { path: "sessionId", message: `the session's sensor or acceptance rule is not usable: ${e.message}` };
-  if (p === "airTempC" || p === "pressureHpa" || p === "humidityPct") return { path: "sessionId", message: `the session's air is not usable: ${e.message}` };
-  return { path: p, message: e.message };
-}
-
 export function ruleFor(session: Pick<SessionFacts, "projectId">, ctx: RegistryContext): Rule {
   return (session.projectId && ctx.rules.get(session.projectId)) || DEFAULT_RULE;
 }
 
-export function computeShotRecord(shot: SyncShot, session: SessionFacts, ctx: RegistryContext): ShotOutcome {
-  const sensor = ctx.sensors.get(session.sensorId);
-  if (!sensor) return { ok: false, errors: [{ path: "sessionId", message: `the session's sensor ${session.sensorId} is not in the registry` }] };
-  let target: TargetEntry | undefined;
-  if (shot.targetId) {
-    target = ctx.targets.get(shot.targetId);
-    if (!target || target.siteId !== session.siteId) {
-      return { ok: false, errors: [{ path: "targetId", message: `target ${shot.targetId} is not a target of the session's site` }] };
-    }
-  }
-  const ref = shot.reference;
-  let reference: ReferenceInput;
-  // ranging.md §7: the sources of u_ref, resolved with the rest of the registry
-  let edm: LinearUncertainty | null = null;
-  let tapeEntry: TapeEntry | null = null;
-  let station: PlaceEntry | undefined;
-  if (ref.method === "edm") {
-    reference = { method: "edm", distanceM: ref.distanceM };
-    if (ref.edmId) {
-      edm = ctx.edms.get(ref.edmId) ?? null;
-      if (!edm) return { ok: false, errors: [{ path: "reference.edmId", message: `reference EDM ${ref.edmId} is not in the registry` }] };
-    }
-  } else if (ref.method === "tape") {
-    const tape = ctx.tapes.get(ref.tape.tapeId);
-    if (!tape) return { ok: false, errors: [{ path: "reference.tape.tapeId", message: `tape ${ref.tape.tapeId} is not in the registry` }] };
-    tapeEntry = tape;
-    reference = { method: "tape", distanceM: ref.distanceM, tape, tempC: ref.tape.tempC, tensionN: ref.tape.tensionN, support: ref.tape.support, spans: ref.tape.spans };
-  } else {
-    station = ctx.stations.get(ref.stationId);
-    if (!station || station.siteId !== session.siteId) {
-      return { ok: false, errors: [{ path: "reference.stationId", message: `station ${ref.stationId} is not a station of the session's site` }] };
-    }
-    if (!target) return { ok: false, errors: [{ path: "targetId", message: "a target is needed when the reference comes from coordinates" }] };
-    reference = { method: "coordinates", station: station.position, target: target.position, instrumentHeightM: ref.instrumentHeightM, targetHeightM: ref.targetHeightM };
-  }
-  try {
-    const rule = ruleFor(session, ctx);
-    const computed = computeShot({ sensor, air: session.air, reference, readings: shot.readings as ShotInputReadings, rule });
-    const u = referenceUncertaintyMm({
-      method: ref.method,
-      explicitMm: ref.uncertaintyMm ?? null,
-      distanceM: ref.method === "coordinates" ? computed.referenceM : ref.distanceM,
-      tape: tapeEntry,
-      stationSigmaMm: station?.sigmaMm ?? null,
-      targetSigmaMm: target?.sigmaMm ?? null,
-      edm,
-      ruleEdm: rule,
-    });
-    return {
-      ok: true,
-      computed,
-      columns: {
-        referenceM: computed.referenceM,
-        rangeM: computed.rangeM,
-        errorMm: computed.errorMm,
-        toleranceMm: computed.toleranceMm,
-        limitMm: computed.limitMm,
-        within: computed.within,
-        repeatabilityMm: computed.repeatabilityMm,
-        readingsCount: computed.readingsCount,
-        wrap: computed.wrap,
-        unambiguousM: computed.unambiguousM,
-        retro: target?.retro ?? false,
-        airDefaulted: computed.airDefaulted.length > 0,
-        referenceUncertaintyMm: u,
-      },
-    };
-  } catch (e) {
-    if (e instanceof DomainError) return { ok: false, errors: [recordPath(e)] };
-    throw e;
-  }
+/** The registry context as the contract's mapping looks it up: places only of the session's site. */
+function shotRegistry(session: SessionFacts, ctx: RegistryContext): ShotRegistry<TapeEntry> {
+  const atSite = <P extends { siteId: string }>(p: P | undefined) => (p && p.siteId === session.siteId ? p : undefined);
+  return {
+    sensor: ctx.sensors.get(session.sensorId),
+    tape: (id) => ctx.tapes.get(id),
+    station: (id) => atSite(ctx.stations.get(id)),
+    target: (id) => atSite(ctx.targets.get(id)),
+    edm: (id) => ctx.edms.get(id),
+  };
 }
-type ShotInputReadings = Parameters<typeof computeShot>[0]["readings"];
+
+export function computeShotRecord(shot: SyncShot, session: SessionFacts, ctx: RegistryContext): ShotOutcome {
+  const rule = ruleFor(session, ctx);
+  const out = computeShotRecordWith(shot, { sensorId: session.sensorId, air: session.air, rule }, shotRegistry(session, ctx), SERVER_WORDING);
+  if (!out.ok) return { ok: false, errors: [out.error] };
+  const { computed, sources } = out;
+  const ref = shot.reference;
+  // ranging.md §7: the sources of u_ref, resolved with the rest of the registry
+  const u = referenceUncertaintyMm({
+    method: ref.method,
+    explicitMm: ref.uncertaintyMm ?? null,
+    distanceM: ref.method === "coordinates" ? computed.referenceM : ref.distanceM,
+    tape: sources.tape,
+    stationSigmaMm: sources.station?.sigmaMm ?? null,
+    targetSigmaMm: sources.target?.sigmaMm ?? null,
+    edm: sources.edm,
+    ruleEdm: rule,
+  });
+  return {
+    ok: true,
+    computed,
+    columns: {
+      referenceM: computed.referenceM,
+      rangeM: computed.rangeM,
+      errorMm: computed.errorMm,
+      toleranceMm: computed.toleranceMm,
+      limitMm: computed.limitMm,
+      within: computed.within,
+      repeatabilityMm: computed.repeatabilityMm,
+      readingsCount: computed.readingsCount,
+      wrap: computed.wrap,
+      unambiguousM: computed.unambiguousM,
+      retro: sources.target?.retro ?? false,
+      airDefaulted: computed.airDefaulted.length > 0,
+      referenceUncertaintyMm: u,
+    },
+  };
+}
 
 /** The insert row of an accepted shot. */
 export function shotInsertRow(
@@ -735,9 +696,10 @@ async function filteredRows(q: ShotQuery, db: Db, extra: SQL[]): Promise<Filter>
   if (q.reflectance === "retro") w.push(eq(shots.retro, true));
   else if (q.reflectance) {
     w.push(eq(shots.retro, false));
-    if (q.reflectance === "dark") w.push(lt(shots.reflectancePct, 20));
-    if (q.reflectance === "mid") w.push(and(gte(shots.reflectancePct, 20), lte(shots.reflectancePct, 60))!);
-    if (q.reflectance === "bright") w.push(gt(shots.reflectancePct, 60));
+    // the domain's classes (reflectanceClass), as SQL
+    if (q.reflectance === "dark") w.push(lt(shots.reflectancePct, DARK_BELOW_PCT));
+    if (q.reflectance === "mid") w.push(and(gte(shots.reflectancePct, DARK_BELOW_PCT), lte(shots.reflectancePct, BRIGHT_ABOVE_PCT))!);
+    if (q.reflectance === "bright") w.push(gt(shots.reflectancePct, BRIGHT_ABOVE_PCT));
   }
   const k = await kFor(q.project, db);
   if (k === null) return { error: { status: 404, body: { error: `No project ${q.project}.` } } };

@@ -9,11 +9,11 @@ import { audit } from "~/models/audit.server";
 import { sendTemplateMail } from "~/mail/mailer.server";
 import { listUserEmailsByRole } from "~/models/users.server";
 import { buildSensorReport, computeSensorReport } from "~/models/reports.server";
-import { matrixCells, worstCell, type MatrixCell } from "~/components/review/matrix";
+import { matrixCells, worstCell, type MatrixCell } from "~/contract/report-matrix";
 import { explainVerdict } from "~/domain";
-import type { ReportJson } from "~/components/review/types";
+import type { ReportJson } from "~/contract/report";
 import { accuracyStatement, verdictFailures } from "~/domain";
-import type { SignOffInput } from "~/components/review/signoff-schema";
+import type { SignOffInput } from "~/contract/signoff";
 
 export type ReviewActor = { id: string; role: Role; name?: string; email?: string };
 export type ReviewQuery = { from?: string | null; to?: string | null; sessionIds?: string[]; projectId?: string | null };

@@ -2,7 +2,7 @@
 // is validated on its own (a rejected one never blocks the others), every derived figure is
 // recomputed here from the raw observation, and all accepted records of one request are
 // written in one transaction. Used by the sync route, the CSV import and the demo seed.
-import { getTableColumns, getTableName, inArray, type InferInsertModel } from "drizzle-orm";
+import { getTableColumns, getTableName, type InferInsertModel } from "drizzle-orm";
 import type { SQLiteTable } from "drizzle-orm/sqlite-core";
 import type { ResultSet } from "@libsql/client";
 import { getDb, type Db } from "~/db/client.server";

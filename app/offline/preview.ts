@@ -1,7 +1,9 @@
 // Instant feedback on the tablet: the shared ranging core (app/domain) run on the record about
-// to be queued. The server recomputes everything itself; this is only for the crew's eyes.
-import { computeShot, DEFAULT_RULE, DomainError, type ReferenceInput, type Rule, type ShotComputed } from "~/domain";
-import type { RefEdm, RefProject, RefSensor, RefSite, RefTape, ShotPreview, SyncSessionRecord, SyncShotRecord } from "./types";
+// to be queued, through the contract's record → core mapping (the server runs the same one).
+// The server recomputes everything itself; this is only for the crew's eyes.
+import { computeShotRecordWith, TABLET_WORDING, type ShotRegistry } from "~/contract";
+import { DEFAULT_RULE, type Rule, type ShotComputed } from "~/domain";
+import type { RefEdm, RefPoint, RefProject, RefSensor, RefSite, RefTape, ShotPreview, SyncSessionRecord, SyncShotRecord } from "./types";
 
 export type PreviewContext = {
   sensor: RefSensor | undefined;
@@ -20,47 +22,35 @@ export type PreviewResult =
   | { ok: true; preview: ShotPreview; computed: ShotComputed }
   | { ok: false; path: string; message: string };
 
-function referenceInput(shot: SyncShotRecord, ctx: PreviewContext): ReferenceInput | { path: string; message: string } {
-  const r = shot.reference;
-  if (r.method === "edm") return { method: "edm", distanceM: r.distanceM as number };
-  if (r.method === "tape") {
-    const tape = ctx.tapes.find((t) => t.id === r.tape?.tapeId);
-    if (!tape || !r.tape) return { path: "reference.tape.tapeId", message: "Choose the tape" };
-    return {
-      method: "tape",
-      distanceM: r.distanceM as number,
-      tape,
-      tempC: r.tape.tempC,
-      tensionN: r.tape.tensionN,
-      support: r.tape.support,
-      spans: r.tape.spans,
-    };
-  }
-  const station = ctx.site?.stations.find((s) => s.id === r.stationId);
-  const target = ctx.site?.targets.find((t) => t.id === shot.targetId);
-  if (!station) return { path: "reference.stationId", message: "Choose the station the sensor stands on" };
-  if (!target) return { path: "targetId", message: "Choose the target: its coordinates give the distance" };
+const place = (p: RefPoint | undefined) => (p ? { position: { grid: p.grid, geo: p.geo } } : undefined);
+
+/** The tablet's copy of the registry as the contract's mapping looks it up. */
+function registryOf(ctx: PreviewContext): ShotRegistry<RefTape> {
   return {
-    method: "coordinates",
-    station: { grid: station.grid, geo: station.geo },
-    target: { grid: target.grid, geo: target.geo },
-    instrumentHeightM: r.instrumentHeightM ?? 0,
-    targetHeightM: r.targetHeightM ?? 0,
+    sensor: ctx.sensor,
+    tape: (id) => ctx.tapes.find((t) => t.id === id),
+    station: (id) => place(ctx.site?.stations.find((s) => s.id === id)),
+    target: (id) => {
+      const t = ctx.site?.targets.find((x) => x.id === id);
+      return t ? { position: { grid: t.grid, geo: t.geo }, retro: t.retro } : undefined;
+    },
   };
 }
 
 export function previewShot(session: SyncSessionRecord, shot: SyncShotRecord, ctx: PreviewContext): PreviewResult {
-  if (!ctx.sensor) return { ok: false, path: "", message: "This sensor is not in the tablet's reference data: connect once to copy it." };
-  const reference = referenceInput(shot, ctx);
-  if ("path" in reference) return { ok: false, ...reference };
   try {
-    const computed = computeShot({
-      sensor: ctx.sensor,
-      air: { airTempC: session.airTempC, pressureHpa: session.pressureHpa, humidityPct: session.humidityPct },
-      reference,
-      readings: shot.readings,
-      rule: ruleOf(ctx.project),
-    });
+    const out = computeShotRecordWith(
+      shot,
+      {
+        sensorId: session.sensorId,
+        air: { airTempC: session.airTempC, pressureHpa: session.pressureHpa, humidityPct: session.humidityPct },
+        rule: ruleOf(ctx.project),
+      },
+      registryOf(ctx),
+      TABLET_WORDING,
+    );
+    if (!out.ok) return { ok: false, ...out.error };
+    const { computed } = out;
     return {
       ok: true,
       computed,
@@ -75,7 +65,6 @@ export function previewShot(session: SyncSessionRecord, shot: SyncShotRecord, ct
       },
     };
   } catch (e) {
-    if (e instanceof DomainError) return { ok: false, path: e.path, message: e.message.replace(/^[^:]*: /, "") };
     return { ok: false, path: "", message: e instanceof Error ? e.message : String(e) };
   }
 }

@@ -1,57 +1,15 @@
 // Shapes of the tablet's queue and of its copy of the reference data. The records inside
 // `record` are exactly the bodies POST /api/sync expects (api.md); the rest is
 // the tablet's own bookkeeping (state, the server's answer, the instant preview).
+import type { FieldError } from "~/contract";
 import type { Rule, SensorSpec, TapeSpec } from "~/domain";
 
-export type SyncSessionRecord = {
-  id: string;
-  sensorId: string;
-  siteId: string;
-  projectId?: string;
-  startedAt: string;
-  airTempC?: number;
-  pressureHpa?: number;
-  humidityPct?: number;
-  note?: string;
-};
-
-export type SyncReference = {
-  distanceM?: number;
-  method: "tape" | "edm" | "coordinates";
-  tape?: { tapeId: string; tempC: number; tensionN: number; support: "ground" | "ends"; spans: number };
-  stationId?: string;
-  instrumentHeightM?: number;
-  targetHeightM?: number;
-  /** issue 15: the shot's own u_ref (mm, k = 1) and, for EDM, the reference EDM used */
-  uncertaintyMm?: number;
-  edmId?: string;
-};
-
-export type SyncReadings =
-  | { rangesM: number[] }
-  | { roundTripNs: number[] }
-  | { phase: { frequencyHz: number; samples: number[] }[] };
-
-export type SyncShotRecord = {
-  id: string;
-  sessionId: string;
-  takenAt: string;
-  targetId?: string;
-  reference: SyncReference;
-  readings: SyncReadings;
-  reflectancePct: number;
-  illuminanceKlux: number;
-  incidenceDeg?: number;
-  position?: { lat: number; lon: number; accuracyM?: number };
-  note?: string;
-  /** Set only on shots made from a scan or depth frames (issue 18); the tablet never sends it. */
-  scan?: ScanFacts;
-};
-
-/** api.md v1.1 / ranging.md §8: what a shot made from a point cloud or depth frames carries. */
-export type ScanFacts = { points: number; planeRmsMm: number; incidenceDeg: number; fileSha256: string };
-
-export type FieldError = { path: string; message: string };
+// The record shapes live in the contract (app/contract/sync.ts), derived from the schemas the
+// server validates with; the names below are the tablet's.
+import type { SessionRecord as SyncSessionRecord, ShotRecord as SyncShotRecord } from "~/contract";
+export type { SyncSessionRecord, SyncShotRecord };
+export type { ReferenceRecord as SyncReference, ScanFacts, FieldError } from "~/contract";
+export type { Readings as SyncReadings } from "~/domain";
 
 /** queued: waits to be sent; synced: the server accepted it (or already had it); rejected: the server said why. */
 export type RecordState = "queued" | "synced" | "rejected";

@@ -24,9 +24,9 @@ test("a complete shot passes both the form's and the server's schema", () => {
 test("blank boxes get a plain message on their own field", () => {
   const errors = checkShotRecord(shot({ reference: { method: "edm" }, readings: { rangesM: [] }, reflectancePct: undefined as unknown as number }));
   const byField = Object.fromEntries(errors.map((e) => [fieldKeyOf(e.path), e.message]));
-  expect(byField.distance).toBe("Enter the reference distance (m)");
-  expect(byField["range-0"]).toBe("Enter at least one sensor range (m)");
-  expect(byField.reflectance).toBe("Enter the reflectance (%)");
+  expect(byField["reference.distanceM"]).toBe("Enter the reference distance (m)");
+  expect(byField["readings.rangesM.0"]).toBe("Enter at least one sensor range (m)");
+  expect(byField.reflectancePct).toBe("Enter the reflectance (%)");
 });
 
 test("a bad second reading is reported on the second range box", () => {
@@ -37,7 +37,7 @@ test("a bad second reading is reported on the second range box", () => {
 
 test("coordinates need a station, a target and both heights, and no distance", () => {
   const errors = checkShotRecord(shot({ reference: { method: "coordinates" } }));
-  expect(errors.map((e) => fieldKeyOf(e.path)).sort()).toEqual(["ih", "station", "target", "th"]);
+  expect(errors.map((e) => fieldKeyOf(e.path)).sort()).toEqual(["reference.instrumentHeightM", "reference.stationId", "reference.targetHeightM", "targetId"]);
 });
 
 test("the server's own rules apply too: a time without an offset is refused", () => {
@@ -54,9 +54,9 @@ test("a session needs its sensor and site; missing air is allowed", () => {
 });
 
 test("server paths map to the form's fields", () => {
-  expect(fieldKeyOf("reference.tape.tensionN")).toBe("tension");
-  expect(fieldKeyOf("readings.phase.1.samples.3")).toBe("phase-1");
-  expect(fieldKeyOf("targetId")).toBe("target");
+  expect(fieldKeyOf("reference.tape.tensionN")).toBe("reference.tape.tensionN");
+  expect(fieldKeyOf("readings.phase.1.samples.3")).toBe("readings.phase.1");
+  expect(fieldKeyOf("targetId")).toBe("targetId");
   expect(fieldKeyOf("sessionId")).toBe("form");
 });
 

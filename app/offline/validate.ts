@@ -1,9 +1,9 @@
 // Checks a record before it is queued, with the same paths the server answers with, so a
 // message lands on the same field whether it came from the tablet or from POST /api/sync.
 // Two passes: the form's own schema below (plain "Enter …" words for blank boxes), then the
-// server's schema itself (app/models/sync-schemas.ts), which has the last word.
+// server's schema itself (app/contract/sync.ts), which has the last word.
 import { z } from "zod";
-import { validateSession, validateShot } from "~/models/sync-schemas";
+import { validateSession, validateShot } from "~/contract";
 import type { FieldError, SyncSessionRecord, SyncShotRecord } from "./types";
 
 const finite = (what: string) =>

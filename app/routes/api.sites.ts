@@ -1,5 +1,5 @@
 // POST /api/sites (admin): create a site from a script or pipeline; body and answers in api.md
-// and app/docs/api/registry.md. Authentication (401) and the role check (403) come first.
+// and the README, "Registry API (admin): sensors, tapes, sites". Authentication (401) and the role check (403) come first.
 import type { Route } from "./+types/api.sites";
 import { requireApiUser } from "~/auth/guards.server";
 import { ADMIN } from "~/auth/access";

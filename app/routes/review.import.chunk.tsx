@@ -1,5 +1,5 @@
 // POST /review/import/chunk (crew, qa, admin): one chunk of a CSV import, as JSON, for the
-// import page's progress bar. Answers per CSV row; see app/docs/api/review.md.
+// import page's progress bar. Answers per CSV row; see the README, "Review (QA): pages and the import route".
 import type { Route } from "./+types/review.import.chunk";
 import { FIELD } from "~/auth/access";
 import { requireApiUser } from "~/auth/guards.server";

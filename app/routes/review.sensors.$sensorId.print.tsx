@@ -6,7 +6,7 @@ import { listProjectsForFilter, listSignOffs, reportWithCells, sensorReviewHeade
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
 import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
 import { laserCaution } from "~/domain";
-import { dateOnly, dateTime, mmSigned } from "~/components/review/format";
+import { dateTime, mmSigned } from "~/components/review/format";
 import { DriftChart, ErrorVsDistanceChart, MatrixChart } from "~/components/review/charts";
 import { worstCell } from "~/components/review/matrix";
 import { LocalTime } from "~/components/review/local-time";

@@ -14,7 +14,7 @@ import { DriftChart, ErrorVsDistanceChart, MatrixChart } from "~/components/revi
 import { ShotTable } from "~/components/review/shot-table";
 import { matrixCells, worstCell } from "~/components/review/matrix";
 import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
-import { bandWord, dateOnly, dateTime, mmSigned } from "~/components/review/format";
+import { bandWord, dateOnly, mmSigned } from "~/components/review/format";
 import { readFormCapped } from "~/http/body.server";
 import { LocalTime } from "~/components/review/local-time";
 import { reshootSchema, reshootStateSchema } from "~/components/review/reshoot-schema";

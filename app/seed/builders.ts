@@ -3,7 +3,8 @@
 // Also the inverse of the server's range maths, so invented readings come out at a chosen
 // range after the server's own corrections: reported ranges, round-trip times and
 // correlation samples. Pure: no I/O, no Node-only imports (runs in tests and the browser).
-import { airState, C0, firstVelocityCorrectionPpm, type AirInput, type SensorSpec } from "~/domain";
+import type { ReferenceRecord, SessionRecord, ShotRecord, TapeUse } from "~/contract";
+import { airState, C0, firstVelocityCorrectionPpm, type AirInput, type PhaseReading, type Readings, type SensorSpec } from "~/domain";
 
 // ---------- body shapes of api.md ----------
 export type GridBody = { e: number; n: number; h: number };
@@ -58,44 +59,13 @@ export type TargetBody = {
 export type StationBody = { id?: string; label: string; grid?: GridBody; geo?: GeoBody; sigmaMm?: number };
 export type SiteBody = { id?: string; name: string; lat?: number; lon?: number; targets: TargetBody[]; stations?: StationBody[] };
 
-export type SessionBody = {
-  id: string;
-  sensorId: string;
-  siteId: string;
-  startedAt: string;
-  airTempC?: number;
-  pressureHpa?: number;
-  humidityPct?: number;
-  note?: string;
-};
-
-export type TapeUse = { tapeId: string; tempC: number; tensionN: number; support: "ground" | "ends"; spans: number };
-export type ReferenceBody = {
-  distanceM?: number;
-  method: "tape" | "edm" | "coordinates";
-  tape?: TapeUse;
-  stationId?: string;
-  instrumentHeightM?: number;
-  targetHeightM?: number;
-  uncertaintyMm?: number;
-  edmId?: string;
-};
-export type PhaseBody = { frequencyHz: number; samples: number[] };
-export type ReadingsBody = { rangesM: number[] } | { roundTripNs: number[] } | { phase: PhaseBody[] };
-
-export type ShotBody = {
-  id: string;
-  sessionId: string;
-  takenAt: string;
-  targetId?: string;
-  reference: ReferenceBody;
-  readings: ReadingsBody;
-  reflectancePct: number;
-  illuminanceKlux: number;
-  incidenceDeg?: number;
-  position?: { lat: number; lon: number; accuracyM: number };
-  note?: string;
-};
+// The field records are the contract's (app/contract/sync.ts): one shape for tablet, server and seed.
+export type SessionBody = SessionRecord;
+export type { TapeUse };
+export type ReferenceBody = ReferenceRecord;
+export type PhaseBody = PhaseReading;
+export type ReadingsBody = Readings;
+export type ShotBody = ShotRecord;
 
 export type SyncBody = { deviceId: string; sessions: SessionBody[]; shots: ShotBody[] };
 

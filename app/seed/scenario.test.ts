@@ -8,7 +8,7 @@ import { buildDemoScenario, DEMO_TAPE, sensorSpec, type DemoScenario, type Senso
 function referenceInput(s: DemoScenario, shot: ShotBody, siteKey: "yard" | "roadside"): ReferenceInput {
   const r = shot.reference;
   if (r.method === "edm") return { method: "edm", distanceM: r.distanceM! };
-  if (r.method === "tape") return { method: "tape", distanceM: r.distanceM!, tape: DEMO_TAPE, ...r.tape! };
+  if (r.method === "tape") return { method: "tape", distanceM: r.distanceM!, tape: DEMO_TAPE, ...(r.tape as Required<NonNullable<typeof r.tape>>) };
   const site = s.sites[siteKey];
   const st = site.stations.find((x) => x.id === r.stationId)!;
   const tg = site.targets.find((x) => x.id === shot.targetId)!;
@@ -72,7 +72,7 @@ test("the scenario is the same on every build and has the promised size", () => 
   expect(a.shots.some((x) => "rangesM" in x.readings && x.readings.rangesM.length > 1)).toBe(true);
   expect(a.shots.some((x) => "phase" in x.readings)).toBe(true);
   expect(a.sessions.filter((x) => x.humidityPct === undefined)).toHaveLength(1);
-  const lux = a.shots.map((x) => x.illuminanceKlux);
+  const lux = a.shots.map((x) => x.illuminanceKlux as number);
   expect(Math.min(...lux)).toBeLessThan(5);
   expect(Math.max(...lux)).toBeGreaterThan(90);
 });

@@ -8,25 +8,14 @@
 import { spawn } from "node:child_process";
 import { randomBytes } from "node:crypto";
 import { existsSync, mkdtempSync, rmSync } from "node:fs";
-import { createServer } from "node:net";
 import { tmpdir } from "node:os";
 import { join, resolve } from "node:path";
+import { freePort } from "../support/ports";
 
 const SHOTS = 5_000;
 const PER_REQUEST = 500;
 
 const fmt = (n: number, d = 0) => n.toLocaleString("en-GB", { maximumFractionDigits: d, minimumFractionDigits: d });
-
-async function freePort(): Promise<number> {
-  return new Promise((res, rej) => {
-    const s = createServer();
-    s.once("error", rej);
-    s.listen(0, "127.0.0.1", () => {
-      const a = s.address();
-      s.close(() => res(typeof a === "object" && a ? a.port : 0));
-    });
-  });
-}
 
 function batches(n: number, tag: string, sensorId: string, siteId: string) {
   const out = [];

@@ -9,11 +9,11 @@
 import { spawn, spawnSync, type ChildProcess } from "node:child_process";
 import { randomBytes } from "node:crypto";
 import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from "node:fs";
-import { createServer } from "node:net";
 import { loadavg, tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 import { pathToFileURL } from "node:url";
 import { gzipSync } from "node:zlib";
+import { freePort } from "../support/ports";
 
 const SAVES = 200;
 const FORM_SAVES = 40;
@@ -29,18 +29,6 @@ function quantile(sorted: number[], p: number) {
   const h = (sorted.length - 1) * p;
   const lo = Math.floor(h);
   return sorted[lo]! + (h - lo) * ((sorted[Math.min(lo + 1, sorted.length - 1)] ?? sorted[lo]!) - sorted[lo]!);
-}
-
-async function freePort() {
-  return new Promise<number>((res, rej) => {
-    const s = createServer();
-    s.once("error", rej);
-    s.listen(0, "127.0.0.1", () => {
-      const a = s.address();
-      const p = typeof a === "object" && a ? a.port : 0;
-      s.close(() => res(p));
-    });
-  });
 }
 
 type Manifest = { entry: { module: string; imports?: string[] }; routes: Record<string, { module: string; imports?: string[]; css?: string[] }> };

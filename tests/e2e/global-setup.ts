@@ -3,11 +3,11 @@
 import { spawn, type ChildProcess } from "node:child_process";
 import { randomBytes } from "node:crypto";
 import { existsSync, mkdirSync, rmSync } from "node:fs";
-import { createServer } from "node:net";
 import { resolve } from "node:path";
 import type { TestProject } from "vitest/node";
 import { startFakeSmtp, type FakeSmtp } from "../../app/mail/fake-smtp.server";
 import { CHROMIUM_PATH } from "./chromium";
+import { freePort } from "../support/ports";
 
 declare module "vitest" {
   export interface ProvidedContext {
@@ -17,18 +17,6 @@ declare module "vitest" {
     dataDir: string;
     sessionSecret: string;
   }
-}
-
-async function freePort() {
-  return new Promise<number>((res, rej) => {
-    const s = createServer();
-    s.once("error", rej);
-    s.listen(0, "127.0.0.1", () => {
-      const a = s.address();
-      const p = typeof a === "object" && a ? a.port : 0;
-      s.close(() => res(p));
-    });
-  });
 }
 
 let server: ChildProcess | undefined;

@@ -3,11 +3,11 @@
 // large sync, and the batch sent again lands every record exactly once. Expected figures come
 // from ranging.md §4 (e = R̄ − D in mm, T = a + b·D/1000, L = k·T with the default k = 2).
 import { spawn, type ChildProcess } from "node:child_process";
-import { createServer } from "node:net";
 import { afterAll, beforeAll, expect, test } from "vitest";
 import type { Browser } from "playwright-core";
 import { inject } from "vitest";
 import { baseURL, launchBrowser, newContext, signInAs, useServerEnv } from "./helpers";
+import { freePort } from "../support/ports";
 
 let browser: Browser;
 let sensorId: string;
@@ -93,18 +93,6 @@ test("a crew's browser syncs a session and shots; the report shows the server's 
   await viewerContext.close();
   await context.close();
 });
-
-async function freePort() {
-  return new Promise<number>((res, rej) => {
-    const s = createServer();
-    s.once("error", rej);
-    s.listen(0, "127.0.0.1", () => {
-      const a = s.address();
-      const p = typeof a === "object" && a ? a.port : 0;
-      s.close(() => res(p));
-    });
-  });
-}
 
 async function startSecondServer(): Promise<{ url: string; proc: ChildProcess }> {
   const port = await freePort();

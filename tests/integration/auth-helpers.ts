@@ -1,11 +1,13 @@
 // Helpers for the sign-in, token, mail and access-matrix tests: call real loaders/actions,
 // read what they answer, carry cookies like a browser, read mail the fake SMTP wrote.
 import { mkdirSync, readdirSync, readFileSync } from "node:fs";
-import { createServer } from "node:net";
 import { join, resolve } from "node:path";
 import { RouterContextProvider } from "react-router";
 import { clientAddressContext } from "~/http/client-address.server";
 import { parseEml, type ParsedMail } from "~/mail/eml.server";
+import { freePort } from "../support/ports";
+
+export { freePort };
 
 export type Answer = { status: number; location: string | null; body: unknown; setCookies: string[]; headers: Headers };
 
@@ -93,18 +95,6 @@ export function args(request: Request, params: Record<string, string> = {}) {
   const ip = socketOf.get(request);
   if (ip) context.set(clientAddressContext, ip);
   return { request, params, context, unstable_pattern: "" } as never;
-}
-
-export async function freePort() {
-  return new Promise<number>((res, rej) => {
-    const s = createServer();
-    s.once("error", rej);
-    s.listen(0, "127.0.0.1", () => {
-      const a = s.address();
-      const p = typeof a === "object" && a ? a.port : 0;
-      s.close(() => res(p));
-    });
-  });
 }
 
 export function tempMailDir(tag: string) {

@@ -10,7 +10,7 @@ import { MAX_MAIL_ATTEMPTS, retryDelayMs, retryMails, sendTemplateMail } from "~
 import { parseEml } from "~/mail/eml.server";
 import { renderMail, TEMPLATES } from "~/mail/templates.server";
 import * as devMail from "~/routes/dev.mail";
-import { answerOf, args, freePort, mailsTo, tempMailDir } from "./auth-helpers";
+import { answerOf, freePort, mailsTo, tempMailDir } from "./auth-helpers";
 
 let smtp: FakeSmtp;
 let mailDir: string;

@@ -4,7 +4,6 @@
 import { afterAll, beforeAll, expect, test } from "vitest";
 import { createHash } from "node:crypto";
 import { existsSync, mkdtempSync, rmSync } from "node:fs";
-import { createServer } from "node:net";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { GetObjectCommand, ListObjectsV2Command, S3Client } from "@aws-sdk/client-s3";
@@ -15,6 +14,7 @@ import { action as syncAction } from "~/routes/api.sync";
 import { getEnv, resetEnvCache } from "~/env.server";
 import { parseStorageUrl } from "~/storage/url";
 import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { freePort } from "../support/ports";
 
 // a 1×1 PNG (written by Chromium's canvas encoder)
 const PNG = Buffer.from("iVBORw0KGgoAAAANSUhEUgAAAAIAAAACCAYAAABytg0kAAAAEklEQVR4AWIyXlX+H4SZGKAAAAAA///5ejD3AAAABklEQVQDADzYBKuqbfebAAAAAElFTkSuQmCC", "base64");
@@ -25,17 +25,6 @@ let endpoint: string;
 let crew: TestUser;
 let shotId: string;
 const saved = { url: process.env.STORAGE_URL, id: process.env.STORAGE_ACCESS_KEY_ID, secret: process.env.STORAGE_SECRET_ACCESS_KEY };
-
-async function freePort() {
-  return new Promise<number>((res, rej) => {
-    const s = createServer();
-    s.once("error", rej);
-    s.listen(0, "127.0.0.1", () => {
-      const a = s.address();
-      s.close(() => res(typeof a === "object" && a ? a.port : 0));
-    });
-  });
-}
 
 beforeAll(async () => {
   dir = mkdtempSync(join(tmpdir(), "shotbook-s3-"));

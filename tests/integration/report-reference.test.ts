@@ -3,8 +3,6 @@
 // project's EDM figures; unknown stays null. Every expected figure is worked out HERE by hand
 // from the definitions (never by calling app/domain); t quantiles from jstat (outside library).
 import { beforeAll, expect, test } from "vitest";
-// jstat ships no type declarations
-// @ts-ignore
 import jStat from "jstat";
 import { action as syncAction } from "~/routes/api.sync";
 import { action as edmAction } from "~/routes/api.edms";

@@ -3,8 +3,6 @@
 // mean, SD (n − 1), RMSE, Student t and χ² quantiles from jstat (an outside library), OLS
 // by the normal equations, Hyndman–Fan type 7 percentile by hand — never by calling app/domain.
 import { beforeAll, expect, test } from "vitest";
-// jstat ships no type declarations
-// @ts-ignore
 import jStat from "jstat";
 import { action as syncAction } from "~/routes/api.sync";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";

@@ -2,7 +2,7 @@
 // diverging colour scale, the SDF triangle, and the reflectance × illuminance cells.
 import { expect, test } from "vitest";
 import type { FeatureCollection, Point } from "geojson";
-import { area, booleanPointInPolygon, point } from "@turf/turf";
+import { area, booleanPointInPolygon } from "@turf/turf";
 import { autoCellSideM, colourStops, DIVERGING, hexBins, offlineStyle, scaleMaxMm, triangleSdf } from "~/components/review/map-style";
 import { matrixCells, worstCell } from "~/components/review/matrix";
 import { defaultSite, FIT_MAX_ZOOM, siteBounds, siteChoices, type SessionSite } from "~/components/review/map-sites";

@@ -12,6 +12,9 @@ import { action as framesAction } from "~/routes/api.frames";
 import { action as syncAction } from "~/routes/api.sync";
 import { loader as shotsLoader } from "~/routes/api.shots";
 import { receiveMultipart } from "~/utils/multipart.server";
+import type { ScanTargetRow as AnswerRow } from "~/contract/scan";
+/** The rows these tests read are found targets: every figure is there. */
+type ScanTargetRow = { [K in keyof AnswerRow]-?: NonNullable<AnswerRow[K]> };
 import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
 import { boardPoints, boardTruth, clutter, correlationPngs, depthPng, lasFile, planeDepth, rng, type Board, type Camera, type V3 } from "../support/scan-fixtures";
 import { lazFile } from "../support/laz-writer";
@@ -94,7 +97,7 @@ test.each([
   expect(res.status).toBe(200);
   const sha = createHash("sha256").update(file).digest("hex");
   expect(res.json.fileSha256).toBe(sha);
-  const rows = res.json.targets as Record<string, any>[];
+  const rows = res.json.targets as ScanTargetRow[];
   expect(rows).toHaveLength(5);
   boards.forEach((b, i) => {
     const t = boardTruth(O, b);
@@ -125,7 +128,7 @@ test("commit stores the found targets through the sync ingest; the same file aga
   const fields = { sessionId, stationId: site.stations[0].id, instrumentHeightM: String(IH), commit: "true" };
   const first = await postScan(crew, scanForm(fields, las));
   expect(first.status).toBe(200);
-  const found = (first.json.targets as any[]).filter((r) => r.status === "found");
+  const found = (first.json.targets as ScanTargetRow[]).filter((r) => r.status === "found");
   expect(found.map((r) => r.sync)).toEqual(found.map(() => ({ status: "accepted", errors: [] })));
   const [row] = await getDb().select().from(shots).where(eq(shots.id, found[1].shotId));
   expect(row.errorMm).toBeCloseTo(found[1].errorMm, 9);
@@ -134,7 +137,7 @@ test("commit stores the found targets through the sync ingest; the same file aga
   expect(raw.scan).toEqual({ points: found[1].points, planeRmsMm: found[1].planeRmsMm, incidenceDeg: found[1].incidenceDeg, fileSha256: first.json.fileSha256 });
   expect(raw.reference).toEqual({ method: "coordinates", stationId: site.stations[0].id, instrumentHeightM: IH, targetHeightM: 0 });
   const again = await postScan(crew, scanForm(fields, las, "scan-copy.las"));
-  expect((again.json.targets as any[]).filter((r) => r.status === "found").map((r) => r.sync.status)).toEqual(["duplicate", "duplicate", "duplicate"]);
+  expect((again.json.targets as ScanTargetRow[]).filter((r) => r.status === "found").map((r) => r.sync.status)).toEqual(["duplicate", "duplicate", "duplicate"]);
   const count = await getDb().select().from(shots).where(eq(shots.sessionId, sessionId));
   expect(count).toHaveLength(3);
   // the shot details carry the file's hash

@@ -40,7 +40,7 @@ function prng(seed: number) {
 }
 
 const KEYS = ["id", "b", "a", "Z", "é", "10", "9", "0", "01", "__proto__", "constructor", "", "readings", "rangesM", "x y", '"q"'];
-const STRINGS = ["", "plain", 'with "quotes"', "back\\slash", "line\nbreak", "tab\t", "\u2028\u2029", "ünïcödé", "😀", "\ud800", "<\/script>"];
+const STRINGS = ["", "plain", 'with "quotes"', "back\\slash", "line\nbreak", "tab\t", "\u2028\u2029", "ünïcödé", "😀", "\ud800", "</script>"];
 
 function randomValue(rnd: () => number, depth: number): unknown {
   const r = rnd();

@@ -161,7 +161,11 @@ export function lasRecords(points: V3[] | Float64Array, recordLength: number, o:
 export function lasFile(points: V3[], o: LasOptions = {}): Uint8Array {
   const min: V3 = [Infinity, Infinity, Infinity];
   const max: V3 = [-Infinity, -Infinity, -Infinity];
-  for (const p of points) for (let k = 0; k < 3; k++) (min[k] = Math.min(min[k], p[k])), (max[k] = Math.max(max[k], p[k]));
+  for (const p of points)
+    for (let k = 0; k < 3; k++) {
+      min[k] = Math.min(min[k], p[k]);
+      max[k] = Math.max(max[k], p[k]);
+    }
   const { header, recordLength } = lasHeader(points.length, { min, max }, o);
   const recs = lasRecords(points, recordLength, o);
   const out = new Uint8Array(header.length + recs.length);

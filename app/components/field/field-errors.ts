@@ -1,73 +1,59 @@
-// Where a message belongs on the log-shot form: the paths of the tablet's own checks, of the
-// ranging core and of the server's answers ("readings.rangesM.0") all map to one field.
-const RULES: [RegExp, (m: RegExpMatchArray) => string][] = [
-  [/^targetId$/, () => "target"],
-  [/^reference\.distanceM/, () => "distance"],
-  [/^reference\.method/, () => "method"],
-  [/^reference\.tape\.tapeId/, () => "tape"],
-  [/^reference\.tape\.tempC/, () => "tapeTemp"],
-  [/^reference\.tape\.tensionN/, () => "tension"],
-  [/^reference\.tape\.support/, () => "support"],
-  [/^reference\.tape\.spans/, () => "spans"],
-  [/^reference\.tape/, () => "tape"],
-  [/^reference\.stationId/, () => "station"],
-  [/^reference\.edmId/, () => "edm"],
-  [/^reference\.uncertaintyMm/, () => "refUncertainty"],
-  [/^reference\.instrumentHeightM/, () => "ih"],
-  [/^reference\.targetHeightM/, () => "th"],
-  [/^reference\.(station|target)/, () => "station"],
-  [/^readings\.rangesM(?:\.(\d+))?/, (m) => `range-${m[1] ?? 0}`],
-  [/^readings\.roundTripNs(?:\.(\d+))?/, (m) => `rtt-${m[1] ?? 0}`],
-  [/^readings\.phase(?:\.(\d+))?/, (m) => `phase-${m[1] ?? 0}`],
-  [/^reflectancePct/, () => "reflectance"],
-  [/^illuminanceKlux/, () => "illuminance"],
-  [/^incidenceDeg/, () => "incidence"],
-  [/^position/, () => "gps"],
-  [/^note/, () => "note"],
-  [/^(file|photo)/, () => "photo"],
-];
+// Where a message belongs on the log-shot form. The form names its fields by their record paths
+// (api.md), so the tablet's own checks, the ranging core (through the contract's mapping) and the
+// server's answers all name a field the same way. A message goes to the field its path names, or
+// to the nearest field above it ("position.lat" → "position", "readings.phase.1.samples.3" →
+// "readings.phase.1"); a list of readings without an index goes to its first box; anything else
+// to the form as a whole ("form").
+const SHOT_FIELDS: Record<string, string> = {
+  targetId: "Target",
+  "reference.distanceM": "Reference distance (m)",
+  "reference.method": "How the distance was measured",
+  "reference.tape.tapeId": "Tape",
+  "reference.tape.tempC": "Tape temperature (°C)",
+  "reference.tape.tensionN": "Pull (N)",
+  "reference.tape.support": "Tape support",
+  "reference.tape.spans": "Spans",
+  "reference.stationId": "Station",
+  "reference.edmId": "Reference EDM",
+  "reference.uncertaintyMm": "Reference uncertainty (mm)",
+  "reference.instrumentHeightM": "Instrument height (m)",
+  "reference.targetHeightM": "Target height (m)",
+  reflectancePct: "Reflectance (%)",
+  illuminanceKlux: "Illuminance (klux)",
+  incidenceDeg: "Incidence angle (°)",
+  position: "GPS fix",
+  note: "Note",
+  // POST /api/photos names the upload "file" (api.md)
+  file: "Photo",
+};
 
+/** The lists of readings: one box per reading, labelled with its number. */
+const READING_LISTS: Record<string, (n: number) => string> = {
+  "readings.rangesM": (n) => `Sensor range ${n} (m)`,
+  "readings.roundTripNs": (n) => `Round-trip time ${n} (ns)`,
+  "readings.phase": (n) => `Correlation samples ${n}`,
+};
+
+/** The form's field a record path belongs to: the path itself or the nearest one above it. */
 export function fieldKeyOf(path: string): string {
-  for (const [re, key] of RULES) {
-    const m = path.match(re);
-    if (m) return key(m);
+  const parts = path.split(".");
+  const list = parts.slice(0, 2).join(".");
+  if (READING_LISTS[list]) return `${list}.${/^\d+$/.test(parts[2] ?? "") ? parts[2] : 0}`;
+  for (let n = parts.length; n > 0; n--) {
+    const head = parts.slice(0, n).join(".");
+    if (SHOT_FIELDS[head]) return head;
   }
   return "form";
 }
 
-const LABELS: Record<string, string> = {
-  target: "Target",
-  distance: "Reference distance (m)",
-  method: "How the distance was measured",
-  tape: "Tape",
-  tapeTemp: "Tape temperature (°C)",
-  tension: "Pull (N)",
-  support: "Tape support",
-  spans: "Spans",
-  station: "Station",
-  edm: "Reference EDM",
-  refUncertainty: "Reference uncertainty (mm)",
-  ih: "Instrument height (m)",
-  th: "Target height (m)",
-  reflectance: "Reflectance (%)",
-  illuminance: "Illuminance (klux)",
-  incidence: "Incidence angle (°)",
-  gps: "GPS fix",
-  note: "Note",
-  photo: "Photo",
-  form: "Shot",
-};
-
 export function fieldLabelOf(path: string): string {
   const key = fieldKeyOf(path);
-  const m = key.match(/^(range|rtt|phase)-(\d+)$/);
-  if (m) {
-    const n = Number(m[2]) + 1;
-    return m[1] === "range" ? `Sensor range ${n} (m)` : m[1] === "rtt" ? `Round-trip time ${n} (ns)` : `Correlation samples ${n}`;
-  }
-  return LABELS[key] ?? path;
+  const list = READING_LISTS[key.split(".").slice(0, 2).join(".")];
+  if (list) return list(Number(key.split(".")[2]) + 1);
+  return key === "form" ? "Shot" : SHOT_FIELDS[key]!;
 }
 
+/** Messages keyed by the form's field (a record path, or "form"); two on one field are joined. */
 export function errorsByField(errors: { path: string; message: string }[]): Record<string, string> {
   const out: Record<string, string> = {};
   for (const e of errors) {

@@ -12,7 +12,7 @@ export type SessionValues = { sensorId: string; siteId: string; projectId: strin
 export const EMPTY_SESSION: SessionValues = { sensorId: "", siteId: "", projectId: "", airTempC: "", pressureHpa: "", humidityPct: "", note: "" };
 
 export function sessionValuesOf(r: SyncSessionRecord): SessionValues {
-  const str = (n: number | undefined) => (n === undefined ? "" : String(n));
+  const str = (n: number | null | undefined) => (n == null ? "" : String(n));
   return {
     sensorId: r.sensorId,
     siteId: r.siteId,

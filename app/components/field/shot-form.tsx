@@ -35,7 +35,7 @@ export type ShotFormState = {
   reflectancePct: string;
   illuminanceKlux: string;
   incidenceDeg: string;
-  position: { lat: number; lon: number; accuracyM?: number } | null;
+  position: NonNullable<SyncShotRecord["position"]> | null;
   note: string;
 };
 
@@ -339,7 +339,7 @@ export function ShotForm({
           { value: "roundTripNs", label: "Round-trip times (ns)" },
         ];
 
-  const listField = (key: "ranges" | "roundTrips", prefix: string, label: string, unit: string) => (
+  const listField = (key: "ranges" | "roundTrips", prefix: string, path: "readings.rangesM" | "readings.roundTripNs", label: string, unit: string) => (
     <div className="space-y-3">
       {f[key].map((v, i) => (
         <div key={i} className="flex items-end gap-2">
@@ -350,7 +350,7 @@ export function ShotForm({
               unit={unit}
               value={v}
               required
-              error={errors[`${prefix}-${i}`]}
+              error={errors[`${path}.${i}`]}
               onChange={(nv) => set(key, f[key].map((x, j) => (j === i ? nv : x)))}
             />
           </div>
@@ -382,13 +382,13 @@ export function ShotForm({
       <div className="contents landscape:lg:block landscape:lg:space-y-6">
       <section className="card order-1 space-y-4">
         <h2 className="text-xl font-bold">Target and reference distance</h2>
-        <SelectField id="f-target" label="Target" value={f.targetId} onChange={pickTarget} options={targetOptions} placeholder="— no target from the site —" error={errors.target} optional={f.method !== "coordinates"} />
+        <SelectField id="f-target" label="Target" value={f.targetId} onChange={pickTarget} options={targetOptions} placeholder="— no target from the site —" error={errors["targetId"]} optional={f.method !== "coordinates"} />
         <Choice
           name="f-method"
           legend="How the reference distance was measured"
           value={f.method}
           onChange={(v) => set("method", v)}
-          error={errors.method}
+          error={errors["reference.method"]}
           options={[
             { value: "tape", label: "Steel tape" },
             { value: "edm", label: "EDM" },
@@ -396,24 +396,24 @@ export function ShotForm({
           ]}
         />
         {f.method !== "coordinates" ? (
-          <NumberField id="f-distance" label="Reference distance (m)" unit="m" value={f.distanceM} required onChange={(v) => set("distanceM", v)} error={errors.distance} hint={f.method === "tape" ? "As read on the tape; the corrections below are applied to it." : undefined} />
+          <NumberField id="f-distance" label="Reference distance (m)" unit="m" value={f.distanceM} required onChange={(v) => set("distanceM", v)} error={errors["reference.distanceM"]} hint={f.method === "tape" ? "As read on the tape; the corrections below are applied to it." : undefined} />
         ) : null}
         {f.method === "tape" ? (
           <div className="grid gap-4 sm:grid-cols-2">
-            <SelectField id="f-tape" label="Tape" value={f.tapeId} onChange={pickTape} options={ctx.tapes.map((t) => ({ value: t.id, label: t.label }))} placeholder={ctx.tapes.length ? undefined : "— no tapes on this tablet —"} error={errors.tape} />
-            <NumberField id="f-tapeTemp" label="Tape temperature (°C)" unit="°C" value={f.tapeTempC} required onChange={(v) => set("tapeTempC", v)} error={errors.tapeTemp} />
-            <NumberField id="f-tension" label="Pull (N)" unit="N" value={f.tensionN} required onChange={(v) => set("tensionN", v)} error={errors.tension} />
-            <NumberField id="f-spans" label="Spans" unit="spans" inputMode="numeric" value={f.spans} required onChange={(v) => set("spans", v)} error={errors.spans} />
+            <SelectField id="f-tape" label="Tape" value={f.tapeId} onChange={pickTape} options={ctx.tapes.map((t) => ({ value: t.id, label: t.label }))} placeholder={ctx.tapes.length ? undefined : "— no tapes on this tablet —"} error={errors["reference.tape.tapeId"]} />
+            <NumberField id="f-tapeTemp" label="Tape temperature (°C)" unit="°C" value={f.tapeTempC} required onChange={(v) => set("tapeTempC", v)} error={errors["reference.tape.tempC"]} />
+            <NumberField id="f-tension" label="Pull (N)" unit="N" value={f.tensionN} required onChange={(v) => set("tensionN", v)} error={errors["reference.tape.tensionN"]} />
+            <NumberField id="f-spans" label="Spans" unit="spans" inputMode="numeric" value={f.spans} required onChange={(v) => set("spans", v)} error={errors["reference.tape.spans"]} />
             <div className="sm:col-span-2">
-              <Choice name="f-support" legend="Tape support" value={f.support} onChange={(v) => set("support", v)} error={errors.support} options={[{ value: "ground", label: "Lying on the ground" }, { value: "ends", label: "Held at the ends (sag)" }]} />
+              <Choice name="f-support" legend="Tape support" value={f.support} onChange={(v) => set("support", v)} error={errors["reference.tape.support"]} options={[{ value: "ground", label: "Lying on the ground" }, { value: "ends", label: "Held at the ends (sag)" }]} />
             </div>
           </div>
         ) : null}
         {f.method === "coordinates" ? (
           <div className="grid gap-4 sm:grid-cols-3">
-            <SelectField id="f-station" label="Station (sensor stands on)" value={f.stationId} onChange={(v) => set("stationId", v)} options={(site?.stations ?? []).map((st) => ({ value: st.id, label: st.label }))} placeholder={site?.stations.length ? undefined : "— no stations at this site —"} error={errors.station} />
-            <NumberField id="f-ih" label="Instrument height (m)" unit="m" value={f.instrumentHeightM} required onChange={(v) => set("instrumentHeightM", v)} error={errors.ih} />
-            <NumberField id="f-th" label="Target height (m)" unit="m" value={f.targetHeightM} required onChange={(v) => set("targetHeightM", v)} error={errors.th} />
+            <SelectField id="f-station" label="Station (sensor stands on)" value={f.stationId} onChange={(v) => set("stationId", v)} options={(site?.stations ?? []).map((st) => ({ value: st.id, label: st.label }))} placeholder={site?.stations.length ? undefined : "— no stations at this site —"} error={errors["reference.stationId"]} />
+            <NumberField id="f-ih" label="Instrument height (m)" unit="m" value={f.instrumentHeightM} required onChange={(v) => set("instrumentHeightM", v)} error={errors["reference.instrumentHeightM"]} />
+            <NumberField id="f-th" label="Target height (m)" unit="m" value={f.targetHeightM} required onChange={(v) => set("targetHeightM", v)} error={errors["reference.targetHeightM"]} />
             <p className="text-muted sm:col-span-3">
               The distance comes from the surveyed positions of the station and the target. The registry does not record whether a target's
               surveyed height is its board centre: if it is, the target height here is 0.
@@ -449,7 +449,7 @@ export function ShotForm({
             onChange={(v) => set("edmId", v)}
             options={(ctx.edms ?? []).map((e) => ({ value: e.id, label: `${e.label} (${e.serial}) — ${e.uncertaintyMm} mm + ${e.uncertaintyPpm} ppm` }))}
             placeholder="— not listed: the project's EDM figure —"
-            error={errors.edm}
+            error={errors["reference.edmId"]}
             optional
           />
         ) : null}
@@ -459,7 +459,7 @@ export function ShotForm({
           unit="mm"
           value={f.refUncertaintyMm}
           onChange={(v) => set("refUncertaintyMm", v)}
-          error={errors.refUncertainty}
+          error={errors["reference.uncertaintyMm"]}
           hint="Standard uncertainty (k = 1) of this reference distance, when known; empty takes it from the tape's certificate, the surveyed points or the EDM."
         />
       </section>
@@ -467,8 +467,8 @@ export function ShotForm({
       <section className="card order-2 space-y-4">
         <h2 className="text-xl font-bold">Sensor readings</h2>
         <Choice name="f-kind" legend="The sensor gives" value={f.readingKind} onChange={(v) => set("readingKind", v)} options={kinds} />
-        {f.readingKind === "rangesM" ? listField("ranges", "range", "Sensor range", "m") : null}
-        {f.readingKind === "roundTripNs" ? listField("roundTrips", "rtt", "Round-trip time", "ns") : null}
+        {f.readingKind === "rangesM" ? listField("ranges", "range", "readings.rangesM", "Sensor range", "m") : null}
+        {f.readingKind === "roundTripNs" ? listField("roundTrips", "rtt", "readings.roundTripNs", "Round-trip time", "ns") : null}
         {f.readingKind === "phase" ? (
           <div className="space-y-3">
             {f.phase.length === 0 ? <p className="field-error">This sensor has no modulation frequencies in the registry.</p> : null}
@@ -483,12 +483,12 @@ export function ShotForm({
                   rows={2}
                   inputMode="decimal"
                   value={p.samples}
-                  aria-invalid={errors[`phase-${i}`] ? true : undefined}
-                  aria-describedby={`f-phase-${i}-hint${errors[`phase-${i}`] ? ` f-phase-${i}-error` : ""}`}
+                  aria-invalid={errors[`readings.phase.${i}`] ? true : undefined}
+                  aria-describedby={`f-phase-${i}-hint${errors[`readings.phase.${i}`] ? ` f-phase-${i}-error` : ""}`}
                   onChange={(e) => set("phase", f.phase.map((x, j) => (j === i ? { ...x, samples: e.target.value } : x)))}
                 />
                 <p id={`f-phase-${i}-hint`} className="mt-1 text-sm text-muted">Equally spaced samples over one period, separated by spaces or commas (decimals with a point).</p>
-                {errors[`phase-${i}`] ? <p id={`f-phase-${i}-error`} className="field-error" role="alert">{errors[`phase-${i}`]}</p> : null}
+                {errors[`readings.phase.${i}`] ? <p id={`f-phase-${i}-error`} className="field-error" role="alert">{errors[`readings.phase.${i}`]}</p> : null}
               </div>
             ))}
           </div>
@@ -497,9 +497,9 @@ export function ShotForm({
 
       <section className="card order-4 grid gap-4 sm:grid-cols-3">
         <h2 className="text-xl font-bold sm:col-span-3">Target and light</h2>
-        <NumberField id="f-reflectance" label="Reflectance (%)" unit="%" value={f.reflectancePct} required onChange={(v) => set("reflectancePct", v)} error={errors.reflectance} />
-        <NumberField id="f-illuminance" label="Illuminance (klux)" unit="klux" value={f.illuminanceKlux} required onChange={(v) => set("illuminanceKlux", v)} error={errors.illuminance} hint={session.sky ? `Session sky: ${session.sky}` : undefined} />
-        <NumberField id="f-incidence" label="Incidence angle (°)" unit="°" value={f.incidenceDeg} onChange={(v) => set("incidenceDeg", v)} error={errors.incidence} />
+        <NumberField id="f-reflectance" label="Reflectance (%)" unit="%" value={f.reflectancePct} required onChange={(v) => set("reflectancePct", v)} error={errors["reflectancePct"]} />
+        <NumberField id="f-illuminance" label="Illuminance (klux)" unit="klux" value={f.illuminanceKlux} required onChange={(v) => set("illuminanceKlux", v)} error={errors["illuminanceKlux"]} hint={session.sky ? `Session sky: ${session.sky}` : undefined} />
+        <NumberField id="f-incidence" label="Incidence angle (°)" unit="°" value={f.incidenceDeg} onChange={(v) => set("incidenceDeg", v)} error={errors["incidenceDeg"]} />
       </section>
 
       <section className="card order-5 grid gap-4 sm:grid-cols-2">
@@ -520,7 +520,7 @@ export function ShotForm({
               ? `${fmt(f.position.lat, 6)}°, ${fmt(f.position.lon, 6)}°${f.position.accuracyM != null ? ` ± ${fmt(f.position.accuracyM, 0)} m` : ""}`
               : gps || "No fix taken."}
           </p>
-          {errors.gps ? <p className="field-error" role="alert">{errors.gps}</p> : null}
+          {errors["position"] ? <p className="field-error" role="alert">{errors["position"]}</p> : null}
         </div>
         <div>
           <label htmlFor="f-photo" className="field-label">
@@ -540,14 +540,14 @@ export function ShotForm({
             }}
           />
           {photo ? <p className="mt-1 text-sm">{photo.name} · {fmt(photo.size / 1024, 0)} KB, kept with the shot</p> : null}
-          {errors.photo ? <p className="field-error" role="alert">{errors.photo}</p> : null}
+          {errors["file"] ? <p className="field-error" role="alert">{errors["file"]}</p> : null}
         </div>
         <div className="sm:col-span-2">
           <label htmlFor="f-note" className="field-label">
             Note <span className="font-normal text-muted">(optional)</span>
           </label>
-          <textarea id="f-note" className="input" rows={2} value={f.note} onChange={(e) => set("note", e.target.value)} aria-invalid={errors.note ? true : undefined} />
-          {errors.note ? <p className="field-error" role="alert">{errors.note}</p> : null}
+          <textarea id="f-note" className="input" rows={2} value={f.note} onChange={(e) => set("note", e.target.value)} aria-invalid={errors["note"] ? true : undefined} />
+          {errors["note"] ? <p className="field-error" role="alert">{errors["note"]}</p> : null}
         </div>
       </section>
 

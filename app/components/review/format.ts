@@ -1,6 +1,7 @@
 // Number formatting for the review screens: units always shown, "—" for a figure that
 // cannot be computed (null on the wire).
 import type { TestName } from "./types";
+import { BRIGHT_ABOVE_PCT, DARK_BELOW_PCT } from "~/domain";
 
 export function num(v: number | null | undefined, digits = 1): string {
   if (v == null || !Number.isFinite(v)) return "—";
@@ -76,9 +77,9 @@ export function testLimit(name: TestName, v: number): string {
 }
 
 export const BAND_WORDS: Record<string, string> = {
-  dark: "Dark (< 20 %)",
-  mid: "Mid (20–60 %)",
-  bright: "Bright (> 60 %)",
+  dark: `Dark (< ${DARK_BELOW_PCT} %)`,
+  mid: `Mid (${DARK_BELOW_PCT}–${BRIGHT_ABOVE_PCT} %)`,
+  bright: `Bright (> ${BRIGHT_ABOVE_PCT} %)`,
   retro: "Retro-reflective",
   low: "Low (< 10 klux)",
   moderate: "Moderate (10–50 klux)",

@@ -117,7 +117,6 @@ export default function RangeMap({ sources, maxMm, showHex, basemapUrl, onSelect
 
   useEffect(() => {
     if (map.current && ready.current) apply(map.current);
-    // eslint-disable-next-line react-hooks/exhaustive-deps
   }, [sources, maxMm, showHex, frame.key]);
 
   return <div ref={el} className="h-[62vh] min-h-[420px] w-full rounded-lg border-2 border-line" data-testid="range-map" role="region" aria-label="Range-error map" />;

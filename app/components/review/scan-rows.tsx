@@ -1,7 +1,7 @@
 // The per-target rows of a scan or frame import (api.md v1.1 answer), a small plot per target
 // of its points coloured by their distance from the fitted plane, and the upload with progress.
 import { useState } from "react";
-import type { ScanAnswer, ScanTargetRow } from "~/models/scan-schemas";
+import type { ScanAnswer, ScanTargetRow } from "~/contract/scan";
 import { num, signed } from "./format";
 
 export type UploadOutcome = { status: number; body: ScanAnswer & { error?: string; errors?: { path: string; message: string }[] } };

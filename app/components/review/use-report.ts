@@ -98,7 +98,6 @@ export function useSensorReport(sensorId: string, filters: ReportFilters, extras
         setLoading(false);
       });
     return () => ac.abort();
-    // eslint-disable-next-line react-hooks/exhaustive-deps
   }, [sensorId, key, version, extras]);
 
   const reload = useCallback(() => setVersion((v) => v + 1), []);

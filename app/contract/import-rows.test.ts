@@ -4,7 +4,7 @@
 import { expect, test } from "vitest";
 import { classifyRow, IMPLAUSIBLE_MESSAGE, mapRow, type ImportMapping } from "./import-rows";
 import type { SensorSpec } from "~/domain";
-import { syncShotSchema } from "~/models/sync-schemas";
+import { syncShotSchema } from "~/contract/sync";
 
 const sensor: SensorSpec = { id: "r1", kind: "pulsed", wavelengthNm: 905, modulationHz: [], appliesAirCorrection: true, assumedRefractivity: 0, toleranceMm: 5, tolerancePpm: 10, outdoor: true };
 const targets = [{ id: "t-dark", label: "D10", reflectancePct: 10, referenceM: 4.5 }];
