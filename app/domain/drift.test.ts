@@ -1,7 +1,5 @@
 import { expect, test } from "vitest";
 import { Matrix, inverse, solve } from "ml-matrix";
-// jstat ships no type declarations
-// @ts-ignore
 import jStat from "jstat";
 import { biasDrift } from "./drift.ts";
 

@@ -29,6 +29,8 @@ afterAll(async () => {
   await net?.close();
 });
 
+// The page's Dexie database, reached through the window hook the field screens expose to tests.
+// eslint-disable-next-line @typescript-eslint/no-explicit-any
 type Win = { __longTasks: number[]; shotbookField: { db: any } };
 
 async function longTasks(page: Page) {

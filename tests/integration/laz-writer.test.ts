@@ -38,7 +38,10 @@ function busyRecords(n: number, seed: number, pointFormat: 0 | 1 = 0) {
   const records = point10Records(xyz, n, { offset: [512_000, 6_350_000, 100], pointFormat }, (dv, at, i) => {
     if (pointFormat === 1) {
       const u = r.uniform();
-      if (u < 0.02) (line = (line + 1 + Math.floor(r.uniform() * 3)) % 4), (gps = lines[line] + r.uniform() * 10);
+      if (u < 0.02) {
+        line = (line + 1 + Math.floor(r.uniform() * 3)) % 4;
+        gps = lines[line] + r.uniform() * 10;
+      }
       else if (u < 0.3) {
         /* another return of the same pulse: the same time */
       } else if (u < 0.33) gps += r.uniform() * 5; // a gap

@@ -3,8 +3,6 @@
 // whose t test is significant), the last three held after the certificate fell due. Expected
 // figures worked out here from the synced offsets; the t quantile from jStat (outside library).
 import { beforeAll, expect, test } from "vitest";
-// jstat ships no type declarations
-// @ts-ignore
 import jStat from "jstat";
 import { action as syncAction } from "~/routes/api.sync";
 import { sensorHistory } from "~/models/history.server";

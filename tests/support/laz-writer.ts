@@ -148,11 +148,21 @@ class Median5 {
       if (x < v[2]) {
         v[4] = v[3];
         v[3] = v[2];
-        if (x < v[0]) (v[2] = v[1]), (v[1] = v[0]), (v[0] = x);
-        else if (x < v[1]) (v[2] = v[1]), (v[1] = x);
+        if (x < v[0]) {
+          v[2] = v[1];
+          v[1] = v[0];
+          v[0] = x;
+        }
+        else if (x < v[1]) {
+          v[2] = v[1];
+          v[1] = x;
+        }
         else v[2] = x;
       } else {
-        if (x < v[3]) (v[4] = v[3]), (v[3] = x);
+        if (x < v[3]) {
+          v[4] = v[3];
+          v[3] = x;
+        }
         else v[4] = x;
         this.high = false;
       }
@@ -160,11 +170,21 @@ class Median5 {
       if (v[2] < x) {
         v[0] = v[1];
         v[1] = v[2];
-        if (v[4] < x) (v[2] = v[3]), (v[3] = v[4]), (v[4] = x);
-        else if (v[3] < x) (v[2] = v[3]), (v[3] = x);
+        if (v[4] < x) {
+          v[2] = v[3];
+          v[3] = v[4];
+          v[4] = x;
+        }
+        else if (v[3] < x) {
+          v[2] = v[3];
+          v[3] = x;
+        }
         else v[2] = x;
       } else {
-        if (v[1] < x) (v[0] = v[1]), (v[1] = x);
+        if (v[1] < x) {
+          v[0] = v[1];
+          v[1] = x;
+        }
         else v[0] = x;
         this.high = true;
       }
@@ -530,7 +550,10 @@ export function lazFileFromRecords(records: Uint8Array, count: number, bounds: {
   const out = new Uint8Array(size);
   out.set(head, 0);
   let pos = head.length + 8;
-  for (const c of chunks) out.set(c, pos), (pos += c.length);
+  for (const c of chunks) {
+    out.set(c, pos);
+    pos += c.length;
+  }
   new DataView(out.buffer).setBigInt64(head.length, BigInt(pos), true);
   out.set(table, pos);
   return out;
@@ -540,6 +563,9 @@ export function lazFileFromRecords(records: Uint8Array, count: number, bounds: {
 export function lazFile(points: V3[], o: LazOptions = {}): Uint8Array {
   const min: V3 = [Infinity, Infinity, Infinity];
   const max: V3 = [-Infinity, -Infinity, -Infinity];
-  for (const p of points) for (let k = 0; k < 3; k++) (min[k] = Math.min(min[k], p[k])), (max[k] = Math.max(max[k], p[k]));
+  for (const p of points) for (let k = 0; k < 3; k++) {
+      min[k] = Math.min(min[k], p[k]);
+      max[k] = Math.max(max[k], p[k]);
+    }
   return lazFileFromRecords(point10Records(points.flat(), points.length, o), points.length, { min, max }, o);
 }
