@@ -37,12 +37,11 @@ export function syncPool(): Tinypool | null {
     return (pool = null);
   }
   pool = new Tinypool({
-    filename: syncWorkerUrl,
+    // from the sources the worker is TypeScript: a small JavaScript module loads it through tsx
+    filename: file.endsWith(".ts") ? new URL("./sync-worker-tsx.mjs", import.meta.url).href : syncWorkerUrl,
     // the threads stay up between batches: starting one costs more than a batch
     minThreads: threads,
     maxThreads: threads,
-    // from the sources the worker is TypeScript, loaded as the server is (tsx); the built one is JavaScript
-    execArgv: file.endsWith(".ts") ? ["--import", "tsx"] : [],
   });
   return pool;
 }
