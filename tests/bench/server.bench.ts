@@ -276,7 +276,8 @@ export async function run(): Promise<string[]> {
     let reportBytes = 0;
     const reader2 = (async () => {
       await new Promise((r) => setTimeout(r, 1000));
-      while (!stop) {
+      // BENCH_LOAD_REPORT=0: no report reader, to see what the syncs alone do to the event loop
+      while (!stop && process.env.BENCH_LOAD_REPORT !== "0") {
         const r = await report();
         reports.push(r.ms);
         reportBytes = r.bytes;
