@@ -121,7 +121,8 @@ export async function run(): Promise<string[]> {
       stdio: "ignore",
     });
     const base = `http://127.0.0.1:${port}`;
-    for (const deadline = Date.now() + 30_000; ; ) {
+    // a loaded machine may take a while to start the server (tsx, the build, migrations checked)
+    for (const deadline = Date.now() + 90_000; ; ) {
       try {
         if ((await fetch(`${base}/healthz`)).ok) break;
       } catch {}
