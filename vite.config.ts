@@ -1,6 +1,7 @@
 import { reactRouter } from "@react-router/dev/vite";
 import tailwindcss from "@tailwindcss/vite";
 import { defineConfig } from "vitest/config";
+import type { Plugin } from "vite";
 import { fileURLToPath } from "node:url";
 import { VitePWA } from "vite-plugin-pwa";
 
@@ -27,11 +28,24 @@ const pwa = () =>
     },
   });
 
+// issue 16: the sync worker thread's module (app/models/sync.worker.ts) becomes its own chunk
+// of the server build, and app/models/sync-worker-url.server.ts the URL of that chunk, so
+// build/server runs its worker without the sources or tsx.
+const syncWorker = (): Plugin => ({
+  name: "shotbook-sync-worker",
+  apply: "build",
+  load(id, options) {
+    if (!options?.ssr || !id.replace(/\\/g, "/").endsWith("/app/models/sync-worker-url.server.ts")) return;
+    const ref = this.emitFile({ type: "chunk", id: fileURLToPath(new URL("./app/models/sync.worker.ts", import.meta.url)), name: "sync-worker" });
+    return `export const syncWorkerUrl = import.meta.ROLLUP_FILE_URL_${ref};`;
+  },
+});
+
 export default defineConfig({
   resolve: {
     alias: { "~": fileURLToPath(new URL("./app", import.meta.url)) },
   },
-  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa()],
+  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa(), syncWorker()],
   test: {
     include: ["app/**/*.test.ts", "tests/integration/**/*.test.ts"],
     environment: "node",

@@ -47,6 +47,19 @@ app.all(
   }),
 );
 
+// issue 16, for `npm run bench`: with SHOTBOOK_LOOP_STATS=1, SIGUSR2 prints how long the event
+// loop was held since the previous signal (node:perf_hooks, sampled every 5 ms), then resets.
+if (process.env.SHOTBOOK_LOOP_STATS === "1") {
+  const { monitorEventLoopDelay } = await import("node:perf_hooks");
+  const loop = monitorEventLoopDelay({ resolution: 5 });
+  loop.enable();
+  process.on("SIGUSR2", () => {
+    const ms = (ns: number) => Math.round(ns / 1e4) / 100;
+    console.log(`[loop] ${JSON.stringify({ maxMs: ms(loop.max), p99Ms: ms(loop.percentile(99)), p50Ms: ms(loop.percentile(50)), meanMs: ms(loop.mean), samples: loop.count })}`);
+    loop.reset();
+  });
+}
+
 const port = Number(process.env.PORT ?? 3000);
 const host = process.env.HOST;
 const onListen = () => console.log(`[shotbook] http://${host ?? "localhost"}:${port}`);

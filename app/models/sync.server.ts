@@ -20,20 +20,9 @@ import {
   shotInsertRow,
   type SessionFacts,
 } from "./shots.server";
-import {
-  canonicalJson,
-  issuesToErrors,
-  recordIdOf,
-  SYNC_MAX_SESSIONS,
-  SYNC_MAX_SHOTS,
-  syncEnvelopeSchema,
-  validateSession,
-  validateShot,
-  type RecordError,
-  type SyncResult,
-  type SyncSession,
-  type SyncShot,
-} from "./sync-schemas";
+import { type RecordError, type SyncResult, type SyncSession } from "./sync-schemas";
+import { syncPool } from "./sync-pool.server";
+import { conflict, internalErrors, shotStage, validateRecords, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
 
 export type SyncActor = { id: string; role: Role };
 
@@ -116,26 +105,8 @@ async function reclassify(db: Db, results: SyncResult[], lost: { kind: "session"
   }
 }
 
-const conflict = (kind: string): RecordError[] => [
-  { path: "id", message: `a different ${kind} with this id is already synced; synced records are never overwritten — give the changed record a new id` },
-];
-
-/**
- * An unexpected failure while handling one record (a bug, a registry row the code did not
- * foresee): that record alone is refused, in plain words, and the cause goes to the server log.
- * The tablet keeps the record and may send it again; the rest of the batch is stored.
- */
-function internalErrors(kind: "session" | "shot", id: string, e: unknown): RecordError[] {
-  if (e instanceof DomainError) return [{ path: e.path, message: e.message }];
-  console.error(`sync: ${kind} ${id || "(no id)"} could not be processed`, e);
-  return [{ path: "", message: `this ${kind} could not be processed by the server and was not stored; the error is logged — send it again later or ask an admin` }];
-}
-
-/** The column of an insert row holding a number SQLite cannot store (NaN, ±Infinity), if any. */
-function unstorableColumn(row: Record<string, unknown>): string | null {
-  for (const [k, v] of Object.entries(row)) if (typeof v === "number" && !Number.isFinite(v)) return k;
-  return null;
-}
+/** Lets the requests that waited run between two slices of a batch on this thread. */
+const yieldToLoop = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 function chunks<T>(xs: T[], n: number): T[][] {
   const out: T[][] = [];
@@ -190,40 +161,11 @@ async function writeOneAtATime(
 }
 
 export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb()): Promise<Answer> {
-  const env = syncEnvelopeSchema.safeParse(body);
-  if (!env.success) {
-    return {
-      status: 400,
-      body: { error: "The body must be a JSON object { deviceId, sessions: [...], shots: [...] }; nothing was written.", errors: issuesToErrors(env.error.issues) },
-    };
-  }
-  const { deviceId } = env.data;
-  const rawSessions = env.data.sessions;
-  const rawShots = env.data.shots;
-  if (rawShots.length > SYNC_MAX_SHOTS || rawSessions.length > SYNC_MAX_SESSIONS) {
-    return {
-      status: 413,
-      body: { error: `At most ${SYNC_MAX_SHOTS} shots and ${SYNC_MAX_SESSIONS} sessions a request (got ${rawShots.length} shots, ${rawSessions.length} sessions); send the rest in later requests.` },
-    };
-  }
-
-  // 1. Each record on its own: zod, then the canonical raw content used for duplicate checks.
-  const sessionRecs = rawSessions.map((r) => {
-    try {
-      const v = validateSession(r);
-      return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
-    } catch (e) {
-      return { id: recordIdOf(r), value: null, raw: "", errors: internalErrors("session", recordIdOf(r), e) };
-    }
-  });
-  const shotRecs = rawShots.map((r) => {
-    try {
-      const v = validateShot(r);
-      return v.ok ? { id: v.value.id, value: v.value, raw: canonicalJson(v.value), errors: null } : { id: recordIdOf(r), value: null, raw: "", errors: v.errors };
-    } catch (e) {
-      return { id: recordIdOf(r), value: null, raw: "", errors: internalErrors("shot", recordIdOf(r), e) };
-    }
-  });
+  // 1. The envelope, then each record on its own (zod, canonical raw): off this thread.
+  const pool = syncPool();
+  const v: Validated = pool ? await pool.run(body, { name: "validate" }) : await validateRecords(body, yieldToLoop);
+  if (!v.ok) return { status: v.status, body: v.body };
+  const { deviceId, sessionRecs, shotRecs } = v;
 
   return retryTransient(async () => {
     // 2. What is stored already, and the registry rows the computation needs: one batch (one
@@ -272,7 +214,6 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
     const receivedAt = new Date().toISOString();
     const results: SyncResult[] = [];
     const sessionRows: (typeof checkSessions.$inferInsert)[] = [];
-    let shotRows: (typeof shots.$inferInsert)[] = [];
 
     // 3. Sessions before their shots.
     /** Session facts a shot of this batch may use: stored ones and the ones accepted now. */
@@ -355,46 +296,14 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
       }
     }
 
-    // 4. Shots: duplicates, their session, then the authoritative computation.
-    const seenShots = new Map<string, string>();
-    for (const rec of shotRecs) {
-      if (!rec.value) {
-        results.push({ kind: "shot", id: rec.id, status: "rejected", errors: rec.errors! });
-        continue;
-      }
-      const shot: SyncShot = rec.value;
-      const stored = storedShot.get(shot.id) ?? seenShots.get(shot.id);
-      if (stored !== undefined) {
-        if (stored === rec.raw) results.push({ kind: "shot", id: shot.id, status: "duplicate" });
-        else results.push({ kind: "shot", id: shot.id, status: "rejected", errors: conflict("shot") });
-        continue;
-      }
-      const session = usable.get(shot.sessionId);
-      if (!session) {
-        const message = rejectedSessions.has(shot.sessionId)
-          ? `its session ${shot.sessionId} was rejected in this request: fix the session and send both again`
-          : `session ${shot.sessionId} is unknown: send the session first or in the same request`;
-        results.push({ kind: "shot", id: shot.id, status: "rejected", errors: [{ path: "sessionId", message }] });
-        continue;
-      }
-      let row: typeof shots.$inferInsert;
-      try {
-        const out = computeShotRecord(shot, session, ctx);
-        if (!out.ok) {
-          results.push({ kind: "shot", id: shot.id, status: "rejected", errors: out.errors });
-          continue;
-        }
-        row = shotInsertRow(shot, rec.raw, session, out.columns, { deviceId, syncedBy: actor.id, receivedAt });
-        const bad = unstorableColumn(row);
-        if (bad) throw new Error(`computed column ${bad} is ${String((row as Record<string, unknown>)[bad])}`);
-      } catch (e) {
-        results.push({ kind: "shot", id: shot.id, status: "rejected", errors: internalErrors("shot", shot.id, e) });
-        continue;
-      }
-      seenShots.set(shot.id, rec.raw);
-      shotRows.push(row);
-      results.push({ kind: "shot", id: shot.id, status: "accepted" });
-    }
+    // 4. Shots: duplicates, their session, then the authoritative computation and the
+    //    insert rows: off this thread too (sync-work.ts).
+    const stageInput: ShotStageInput = { shotRecs, storedShot, usable, rejectedSessions, ctx, meta: { deviceId, syncedBy: actor.id, receivedAt } };
+    const stage: { results: SyncResult[]; rows: ShotRow[] } = pool
+      ? await pool.run(stageInput, { name: "shots" })
+      : await shotStage(stageInput, { computeShotRecord, shotInsertRow }, yieldToLoop);
+    results.push(...stage.results);
+    let shotRows = stage.rows;
 
     // 5. One write transaction for the whole request (one batch; the local client runs it
     //    synchronously between BEGIN IMMEDIATE and COMMIT, so it cannot half-happen).

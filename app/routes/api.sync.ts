@@ -2,8 +2,8 @@
 import { requireApiUser } from "~/auth/guards.server";
 import { FIELD } from "~/auth/access";
 import { DatabaseUnavailable, unavailableResponse } from "~/db/transient.server";
-import { notifyFailedVerdicts } from "~/models/signoffs.server";
 import { ingestSync } from "~/models/sync.server";
+import { noticeFailedVerdicts } from "~/models/verdict-notice.server";
 import type { Route } from "./+types/api.sync";
 import { BODY_LIMITS, readJsonCapped } from "~/http/body.server";
 
@@ -28,7 +28,8 @@ export async function action({ request }: Route.ActionArgs) {
     throw e;
   }
   // A sensor whose verdict turned to fail on this sync: QA hears of it by mail. The mail
-  // module never throws; a notice that cannot be sent is logged and retried.
-  if (answer.sensorIds?.length) await notifyFailedVerdicts(answer.sensorIds);
+  // module never throws; a notice that cannot be sent is logged and retried. On the production
+  // server the notice runs after the answer, coalesced across syncs (verdict-notice.server.ts).
+  if (answer.sensorIds?.length) await noticeFailedVerdicts(answer.sensorIds);
   return Response.json(answer.body, { status: answer.status, headers: { "Cache-Control": "no-store", ...answer.headers } });
 }

@@ -5,6 +5,7 @@ import { createRequire } from "node:module";
 import { chromium, type Browser, type BrowserContext, type Page } from "playwright-core";
 import { inject } from "vitest";
 import type { NetProxy } from "../support/net-proxy";
+import { CHROMIUM_ARGS } from "../support/browser";
 import { CHROMIUM_PATH } from "./chromium";
 
 export const baseURL = () => inject("baseURL");
@@ -19,28 +20,8 @@ export function useServerEnv() {
   process.env.NODE_ENV = "production";
 }
 
-const CHROMIUM_ARGS = [
-  "--no-sandbox",
-  "--disable-gpu",
-  "--disable-quic",
-  "--no-first-run",
-  "--disable-background-networking",
-  "--disable-component-update",
-  "--disable-sync",
-];
-
-/**
- * Chromium for the browser tests. With `proxy` (tests/support/net-proxy.ts) every request —
- * the page's and the service worker's — goes through it, so switching it off cuts the network
- * for real (context.setOffline does not reach the worker).
- */
-export async function launchBrowser(opts: { proxy?: NetProxy } = {}): Promise<Browser> {
-  return chromium.launch({
-    executablePath: CHROMIUM_PATH,
-    headless: true,
-    args: [...CHROMIUM_ARGS, ...(opts.proxy?.chromiumArgs ?? [])],
-  });
-}
+// Chromium's flags and launchBrowser({ proxy }) live in tests/support/browser.ts (the field bench uses them too).
+export { launchBrowser } from "../support/browser";
 
 /**
  * A browser with a profile on disk, as a tablet has: close it and launch again with the same

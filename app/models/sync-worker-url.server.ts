@@ -1,0 +1,5 @@
+// Where the sync worker's module is (issue 16). From the sources (vitest, dev, tsx) it is the
+// TypeScript file beside this one; in `npm run build` the vite plugin in vite.config.ts
+// ("shotbook-sync-worker") replaces this module with the URL of the worker chunk it emits
+// into build/server/assets, so the built server needs no source tree.
+export const syncWorkerUrl: string = new URL("./sync.worker.ts", import.meta.url).href;

@@ -1,0 +1,42 @@
+// The failed-verdict notice after a sync (issue 16). notifyFailedVerdicts computes each synced
+// sensor's report; on the production server (sync worker pool on) a sync is answered first and
+// the notice runs afterwards, one run at a time: sensors synced while a run is under way are
+// gathered and checked together by the next run, so six tablets syncing the same sensor cost
+// one report computation per run, not one per batch. Without the pool (tests, dev, the CLI)
+// the request still waits for the notice, as before.
+import { notifyFailedVerdicts } from "./signoffs.server";
+import { syncPool } from "./sync-pool.server";
+
+const pending = new Set<string>();
+let running: Promise<void> | null = null;
+
+async function drain() {
+  // let the sync's answer leave first
+  await new Promise<void>((resolve) => setImmediate(resolve));
+  while (pending.size) {
+    const ids = [...pending];
+    pending.clear();
+    try {
+      await notifyFailedVerdicts(ids);
+    } catch (e) {
+      // the sync is stored and answered; the next sync of the sensor checks its verdict again
+      console.error("sync: the failed-verdict check after a sync failed", e);
+    }
+  }
+  running = null;
+}
+
+export async function noticeFailedVerdicts(sensorIds: string[]): Promise<void> {
+  if (!sensorIds.length) return;
+  if (!syncPool()) {
+    await notifyFailedVerdicts(sensorIds);
+    return;
+  }
+  for (const id of sensorIds) pending.add(id);
+  running ??= drain();
+}
+
+/** For tests and shutdown: the notice runs under way, finished. */
+export function verdictNoticesSettled(): Promise<void> {
+  return running ?? Promise.resolve();
+}
