@@ -20,7 +20,7 @@ import {
   type SensorSpec,
   type TapeSpec,
 } from "~/domain";
-import { computeShotRecordWith, SERVER_WORDING, validateShot, type RecordError, type ShotRegistry, type SyncShot } from "~/contract";
+import { validateShot, type RecordError } from "~/contract";
 
 export type Actor = { id: string; role: string };
 
