@@ -15,7 +15,10 @@ import { and, asc, desc, eq, gt, inArray, isNull, sql, type SQL } from "drizzle-
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, checkSessions, edms, exclusions, projects, projectSensors, sensors, shots, signOffs, tapes, targets } from "~/db/schema";
 import { DEFAULT_RULE, inPeriod, pastDueOn, sensorReport, type ReportShot, type Rule, type SensorReport } from "~/domain";
-import { periodDay, periodWhere, RECOMPUTE_ACTION, RULE_COLUMNS, ruleOf, sensorSpecOf, type Actor, type QueryError } from "./shots.server";
+import { inIds, periodDay, periodWhere, RECOMPUTE_ACTION, RULE_COLUMNS, ruleOf, sensorSpecOf, type QueryError } from "./shots.server";
+import type { Actor } from "./actor";
+// issue 14 (a14s): project scoping — a minimal change marked "issue 14 scope" below, for the lead to carry onto h16r's rewrite
+import { canSeeProject, canSeeSensor, scopeOf, scopeProjectIds, sensorIdInScope } from "./scope.server";
 import type { RecordError } from "./sync-schemas";
 
 export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; projectId?: string };
@@ -251,15 +254,23 @@ function plainQuery(db: Db, where: SQL[]) {
     .orderBy(asc(shots.takenAt), asc(shots.id));
 }
 
-function selectionWhere(sensorId: string, q: ReportQuery): SQL[] {
+function selectionWhere(sensorId: string, q: ReportQuery, scopeSessions: readonly string[] | null = null): SQL[] {
   const where = [eq(shots.sensorId, sensorId), ...periodWhere(q.from, q.to)];
   if (q.sessionIds?.length) where.push(inArray(shots.sessionId, q.sessionIds));
+  // issue 14 scope: only the shots of sessions of the reader's projects
+  if (scopeSessions) where.push(inIds(shots.sessionId, scopeSessions));
   return where;
 }
 
 /** The selection's shots, read from the database (no cache), in time order (takenAt, then id). */
-export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<LoadedShot[]> {
-  const where = selectionWhere(sensorId, q);
+export async function loadReportShots(
+  sensorId: string,
+  q: ReportQuery,
+  opts: { details?: boolean } = {},
+  db: Db = getDb(),
+  scopeSessions: readonly string[] | null = null,
+): Promise<LoadedShot[]> {
+  const where = selectionWhere(sensorId, q, scopeSessions);
   if (!opts.details) {
     const [ses, packed] = await db.batch([sessionsQuery(db, sensorId), packedQuery(db, where)]);
     const list = unpack(packed[0], ses);
@@ -341,7 +352,7 @@ type State = {
  * the project's when the sensor belongs to exactly one live project, else the default rule of
  * ranging.md §6), the bias of the last approved sign-off (drift) and the stamp of the shots.
  */
-async function readState(db: Db, sensorId: string, projectId: string | undefined): Promise<State> {
+async function readState(db: Db, sensorId: string, projectId: string | undefined, projectIds: string[] | null = null): Promise<State> {
   const [sensorRows, ruleRows, biasRows, tapeCerts, edmCerts, ...stamps] = await db.batch([
     db.select().from(sensors).where(eq(sensors.id, sensorId)),
     db
@@ -350,7 +361,12 @@ async function readState(db: Db, sensorId: string, projectId: string | undefined
       .where(
         projectId
           ? eq(projects.id, projectId)
-          : and(isNull(projects.retiredAt), inArray(projects.id, db.select({ id: projectSensors.projectId }).from(projectSensors).where(eq(projectSensors.sensorId, sensorId)))),
+          : and(
+              isNull(projects.retiredAt),
+              inArray(projects.id, db.select({ id: projectSensors.projectId }).from(projectSensors).where(eq(projectSensors.sensorId, sensorId))),
+              // issue 14 scope: api.md v1.1 — the reader's only project holding the sensor
+              projectIds ? inIds(projects.id, projectIds) : undefined,
+            ),
       )
       .limit(2),
     db
@@ -529,13 +545,13 @@ async function sensorRows(db: Db, caches: Caches, sensorId: string, born: string
   return { shots: next.shots, fresh: sameStamp(next.stamp, stamp) };
 }
 
-function selectShots(all: readonly ReportShot[], q: ReportQuery): ReportShot[] {
-  if (!q.from && !q.to && !q.sessionIds?.length) return all as ReportShot[];
+function selectShots(all: readonly ReportShot[], q: ReportQuery, scopeSessions: ReadonlySet<string> | null = null): ReportShot[] {
+  if (!q.from && !q.to && !q.sessionIds?.length && !scopeSessions) return all as ReportShot[];
   const ses = q.sessionIds?.length ? new Set(q.sessionIds) : null;
   const from = q.from ? periodDay(q.from) : null;
   const to = q.to ? periodDay(q.to) : null;
   // the period of ranging.md: the shot's own calendar date, as the SQL of periodWhere reads it
-  return all.filter((s) => (!ses || ses.has(s.sessionId)) && inPeriod(s.takenAt, from, to));
+  return all.filter((s) => (!ses || ses.has(s.sessionId)) && (!scopeSessions || scopeSessions.has(s.sessionId)) && inPeriod(s.takenAt, from, to));
 }
 
 /** A cached report is shared: nothing may change it in place. */
@@ -716,11 +732,31 @@ function checkedQuery(query: ReportQuery | URLSearchParams): ReportQuery | Query
   return q;
 }
 
-/** The report and, when it may be kept, its cache entry. */
-async function report(sensorId: string, query: ReportQuery | URLSearchParams, opts: { details?: boolean }, db: Db): Promise<{ built: Built; entry: ReportEntry | null } | QueryError> {
+/** issue 14 scope: the sensor's sessions that belong to these projects (sorted). */
+async function sessionsInProjects(db: Db, sensorId: string, projectIds: string[]): Promise<string[]> {
+  const rows = await db
+    .select({ id: checkSessions.id })
+    .from(checkSessions)
+    .where(and(eq(checkSessions.sensorId, sensorId), inIds(checkSessions.projectId, projectIds)));
+  return rows.map((r) => r.id).sort();
+}
+
+/**
+ * The report and, when it may be kept, its cache entry. issue 14 scope: `projectIds` limits the
+ * shots to those of sessions of these projects (null: all — admins).
+ */
+async function report(
+  sensorId: string,
+  query: ReportQuery | URLSearchParams,
+  opts: { details?: boolean },
+  db: Db,
+  projectIds: string[] | null = null,
+): Promise<{ built: Built; entry: ReportEntry | null } | QueryError> {
   const q = checkedQuery(query);
   if ("status" in q) return q;
-  const state = await readState(db, sensorId, q.projectId);
+  const state = await readState(db, sensorId, q.projectId, projectIds);
+  const scopeList = projectIds ? await sessionsInProjects(db, sensorId, projectIds) : null;
+  const scopeSessions = scopeList ? new Set(scopeList) : null;
   const row = state.sensor;
   if (!row) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
   if ("status" in state.rule) return state.rule;
@@ -733,17 +769,17 @@ async function report(sensorId: string, query: ReportQuery | URLSearchParams, op
     return { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, list, trace), sensor, rule, details: list as LoadedShot[] };
   };
   // note and target label per shot (the CSV export): read as they are, not kept
-  if (opts.details) return { built: await compute(await loadReportShots(sensorId, q, opts, db)), entry: null };
+  if (opts.details) return { built: await compute(await loadReportShots(sensorId, q, opts, db, scopeList)), entry: null };
 
   const caches = cachesOf(db);
-  const key = queryKey(sensorId, q);
+  const key = queryKey(sensorId, q) + (scopeList ? JSON.stringify(scopeList) : "");
   const hit = caches.reports.get(key);
   if (hit && hit.fingerprint === state.fingerprint) {
     touch(caches.reports, key, hit);
     return { built: hit.built, entry: hit };
   }
   const rows = await sensorRows(db, caches, sensorId, row.createdAt, state.stamp);
-  const built = await compute(selectShots(rows.shots, q));
+  const built = await compute(selectShots(rows.shots, q, scopeSessions));
   caches.reports.delete(key);
   if (!rows.fresh) return { built, entry: null }; // the shots moved on meanwhile: the next request computes afresh
   freezeReport(built.body);
@@ -758,22 +794,40 @@ async function report(sensorId: string, query: ReportQuery | URLSearchParams, op
  * The report with what the CSV export and the screens need beside it; a refusal as a QueryError.
  * The body may be shared with other requests: read it, never change it.
  */
+/**
+ * issue 14 scope: what the actor may read of the sensor's report — 404 (as for an unknown
+ * sensor or project) outside their projects, else the projects whose shots it covers (null: all).
+ * `only` narrows it further (a sign-off covers the shots of its own project).
+ */
+async function reportScope(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, db: Db, only?: string[]): Promise<{ projectIds: string[] | null } | QueryError> {
+  const scope = await scopeOf(actor, db);
+  if (!(await canSeeSensor(scope, sensorId, db))) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
+  const projectId = query instanceof URLSearchParams ? query.get("project") : query.projectId;
+  if (projectId && !(await canSeeProject(scope, projectId, db))) return { status: 404, body: { error: `No project ${projectId}.` } };
+  const mine = scopeProjectIds(scope);
+  return { projectIds: only ? (mine ? only.filter((p) => mine.includes(p)) : only) : mine };
+}
+
 export async function computeSensorReport(
-  _actor: Actor,
+  actor: Actor,
   sensorId: string,
   query: ReportQuery | URLSearchParams,
-  opts: { details?: boolean } = {},
+  opts: { details?: boolean; onlyProjectIds?: string[] } = {},
   db: Db = getDb(),
 ): Promise<Built | QueryError> {
-  const r = await report(sensorId, query, opts, db);
+  const sc = await reportScope(actor, sensorId, query, db, opts.onlyProjectIds);
+  if ("status" in sc) return sc;
+  const r = await report(sensorId, query, { details: opts.details }, db, sc.projectIds);
   return "built" in r ? r.built : r;
 }
 
 const encoder = new TextEncoder();
 
 /** GET /api/sensors/:sensorId/report: the report as JSON bytes (kept with the cached report). */
-export async function sensorReportJson(_actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, db: Db = getDb()): Promise<{ status: 200; json: Uint8Array<ArrayBuffer> } | QueryError> {
-  const r = await report(sensorId, query, {}, db);
+export async function sensorReportJson(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, db: Db = getDb()): Promise<{ status: 200; json: Uint8Array<ArrayBuffer> } | QueryError> {
+  const sc = await reportScope(actor, sensorId, query, db);
+  if ("status" in sc) return sc;
+  const r = await report(sensorId, query, {}, db, sc.projectIds);
   if (!("built" in r)) return r;
   // (a consumer that transferred a chunk's buffer would leave it empty: then it is written again)
   if (r.entry?.json && r.entry.json.byteLength > 0) return { status: 200, json: r.entry.json };
@@ -824,18 +878,25 @@ function lastShotAtOf(list: readonly ReportShot[]): string | null {
 }
 
 /** GET /api/sensors: every live sensor with its verdict over all its shots. */
-export async function listSensorSummaries(_actor: Actor, query: { projectId?: string } | URLSearchParams = {}, db: Db = getDb()): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
+export async function listSensorSummaries(actor: Actor, query: { projectId?: string } | URLSearchParams = {}, db: Db = getDb()): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
   const projectId = query instanceof URLSearchParams ? (query.get("project") ?? undefined) : query.projectId;
-  let rows = await db.select().from(sensors).where(isNull(sensors.retiredAt)).orderBy(asc(sensors.label), asc(sensors.id));
+  // issue 14 scope: the sensors of the reader's projects; another project answers as an unknown one
+  const scope = await scopeOf(actor, db);
+  const projectIds = scopeProjectIds(scope);
+  let rows = await db
+    .select()
+    .from(sensors)
+    .where(and(isNull(sensors.retiredAt), sensorIdInScope(scope, sensors.id)))
+    .orderBy(asc(sensors.label), asc(sensors.id));
   if (projectId) {
-    const [p] = await db.select({ id: projects.id }).from(projects).where(eq(projects.id, projectId));
+    const p = await canSeeProject(scope, projectId, db);
     if (!p) return { status: 404, body: { error: `No project ${projectId}.` } };
     const members = new Set((await db.select({ id: projectSensors.sensorId }).from(projectSensors).where(eq(projectSensors.projectId, projectId))).map((m) => m.id));
     rows = rows.filter((r) => members.has(r.id));
   }
   const out: SensorSummary[] = [];
   for (const row of rows) {
-    const r = await report(row.id, projectId ? { projectId } : {}, {}, db);
+    const r = await report(row.id, projectId ? { projectId } : {}, {}, db, projectIds);
     if (!("built" in r)) {
       if (r.status === 404 && r.body.error.startsWith("No sensor")) continue; // removed meanwhile
       return r;

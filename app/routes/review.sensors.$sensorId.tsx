@@ -24,7 +24,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const head = await sensorReviewHeader(user, params.sensorId);
   if (!head) throw new Response("There is no sensor with this id.", { status: 404 });
-  const [projects, signOffs, extras] = await Promise.all([listProjectsForFilter(), listSignOffs(user, params.sensorId), shotExtras(user, params.sensorId)]);
+  const [projects, signOffs, extras] = await Promise.all([listProjectsForFilter(user), listSignOffs(user, params.sensorId), shotExtras(user, params.sensorId)]);
   return { ...head, projects, signOffs, extras, canReview: REVIEWERS.includes(user.role) };
 }
 

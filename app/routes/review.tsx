@@ -26,7 +26,7 @@ export function parseFilters(url: URL) {
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const filters = parseFilters(new URL(request.url));
-  const [rows, projects] = await Promise.all([reviewOverview(user, filters), listProjectsForFilter()]);
+  const [rows, projects] = await Promise.all([reviewOverview(user, filters), listProjectsForFilter(user)]);
   return { rows, projects, filters, canImport: user.role !== "viewer", today: new Date().toISOString().slice(0, 10) };
 }
 
