@@ -13,6 +13,7 @@ import {
   importMappings,
   loginCodes,
   photos,
+  projectMembers,
   projects,
   projectSensors,
   projectSites,
@@ -26,6 +27,7 @@ import {
   users,
 } from "~/db/schema";
 import { createProject } from "~/models/projects.server";
+import { addMember } from "~/models/members.server";
 import { createSensor } from "~/models/sensors.server";
 import { createSite } from "~/models/sites.server";
 import { ingestSync } from "~/models/sync.server";
@@ -85,6 +87,12 @@ export async function seedDemo(scenario: DemoScenario = buildDemoScenario()): Pr
     targetCount += site.body.targets.length;
   }
   expectOk("project", await createProject(actor, scenario.project));
+  // issue 14: the demo's crew, QA lead and client viewer are members of the demo project, so
+  // they see its records (admins see every project without a membership)
+  for (const u of seededUsers.filter((x) => x.role !== "admin")) {
+    const m = await addMember({ id: admin.id, role: "admin" }, scenario.project.id, u.id);
+    if (m.status !== 200 && m.status !== 201) throw new Error(`The demo membership of ${u.email} was refused: ${JSON.stringify(m.body)}`);
+  }
 
   // One sync request per field day (and at most BATCH_SHOTS shots), as a tablet would send them.
   const results: SeedSummary["results"] = { accepted: 0, duplicate: 0, rejected: [] };
@@ -159,6 +167,7 @@ export async function deleteDemoRows(scenario: DemoScenario = buildDemoScenario(
     await tx.delete(importMappings).where(inArray(importMappings.sensorId, sensorIds));
     await tx.delete(projectSensors).where(or(eq(projectSensors.projectId, scenario.project.id), inArray(projectSensors.sensorId, sensorIds)));
     await tx.delete(projectSites).where(or(eq(projectSites.projectId, scenario.project.id), inArray(projectSites.siteId, siteIds)));
+    await tx.delete(projectMembers).where(or(eq(projectMembers.projectId, scenario.project.id), userIds.length ? inArray(projectMembers.userId, userIds) : undefined));
     await tx.delete(projects).where(eq(projects.id, scenario.project.id));
     await tx.delete(targets).where(inArray(targets.siteId, siteIds));
     await tx.delete(stations).where(inArray(stations.siteId, siteIds));
