@@ -5,7 +5,7 @@ import { beforeAll, expect, test } from "vitest";
 import Papa from "papaparse";
 import { action as syncAction } from "~/routes/api.sync";
 import { loader as csvLoader } from "~/routes/api.sensors.$sensorId.report[.]csv";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 let viewer: TestUser;
 let sensorId: string;
@@ -16,6 +16,7 @@ beforeAll(async () => {
   viewer = await makeUser("viewer");
   sensorId = (await makeSensor({ label: "Roof scanner R1 / 905" })).id;
   const site = await makeSite({ targets: [{ label: "=HYPERLINK(\"http://x.invalid\")", reflectancePct: 10 }] });
+  await shareProject([{ id: sensorId }], [site], [crew, viewer]); // issue 14
   const sessionId = crypto.randomUUID();
   const notes = ["=1+2", "+49 tablet", "-mud on the board", "@SUM(A1)", "plain note"];
   const shots = notes.map((note, i) => {
