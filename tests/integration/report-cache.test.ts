@@ -99,7 +99,7 @@ beforeAll(async () => {
   const site = await makeSite({ targets: [{ reflectancePct: 50 }] });
   siteId = site.id;
   // the one project listing the sensor and the site: its rule judges the report
-  projectId = (await makeProject({ sensorIds: [sensorId], siteIds: [siteId], minShots: 4, coverageK: 2, minWithinPct: 50 })).id;
+  projectId = (await makeProject({ sensorIds: [sensorId], siteIds: [siteId], minShots: 4, coverageK: 2, minWithinPct: 50, memberIds: [crew.id, qa.id] })).id;
   // session A reads about 3 mm long, session B about 3 mm short
   await sync(
     [
