@@ -14,7 +14,7 @@ import { loader as photoLoader } from "~/routes/api.photos.$photoId";
 import { action as syncAction } from "~/routes/api.sync";
 import { getEnv, resetEnvCache } from "~/env.server";
 import { parseStorageUrl } from "~/storage/url";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 // a 1×1 PNG (written by Chromium's canvas encoder)
 const PNG = Buffer.from("iVBORw0KGgoAAAANSUhEUgAAAAIAAAACCAYAAABytg0kAAAAEklEQVR4AWIyXlX+H4SZGKAAAAAA///5ejD3AAAABklEQVQDADzYBKuqbfebAAAAAElFTkSuQmCC", "base64");
@@ -50,6 +50,7 @@ beforeAll(async () => {
   resetEnvCache();
   crew = await makeUser("crew");
   const [sensor, site] = await Promise.all([makeSensor(), makeSite()]);
+  await shareProject([sensor], [site], [crew]); // issue 14
   const sessionId = crypto.randomUUID();
   shotId = crypto.randomUUID();
   const a = await call(
