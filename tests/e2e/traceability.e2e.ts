@@ -27,6 +27,8 @@ beforeAll(async () => {
   });
   current = await makeSensor({ label: "Roof scanner RS-2 (current)", laserClass: "1", certNumber: "EML-S-2099-0001", certIssued: "2026-01-01", certDue: "2099-12-31" });
   site = await makeSite({ name: "Fernhollow yard (traceability)", targets: [{ label: "Grey board", reflectancePct: 50, referenceM: 25 }] });
+  const { e2eProject } = await import("./field-fixtures");
+  await e2eProject("traceability", [late.id, current.id], [site.id]); // issue 14
 });
 afterAll(async () => {
   await browser?.close();
