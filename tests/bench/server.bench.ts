@@ -63,6 +63,7 @@ export async function run(): Promise<string[]> {
     const crew = await fx.makeUser("crew");
     const sensor = await fx.makeSensor({ label: "Bench roof scanner", appliesAirCorrection: false, assumedRefractivity: 281.3 });
     const site = await fx.makeSite({ targets: [{ reflectancePct: 10 }, { reflectancePct: 50 }, { reflectancePct: 85 }, { reflectancePct: 90, retro: true }] });
+    const project = await fx.shareProject([sensor], [site], [crew]); // issue 14
     const tape = await fx.makeTape();
 
     // ---- the 5,000 shots, as tablets would send them ----
@@ -188,6 +189,7 @@ export async function run(): Promise<string[]> {
     const { clearReportCache } = await import("../../app/models/reports.server.ts");
     const { excludeShot } = await import("../../app/models/exclusions.server.ts");
     const qa = await fx.makeUser("qa");
+    await fx.addMembers(project.id, [qa]);
     const get = async () => {
       const req = new Request(`http://localhost/api/sensors/${sensor.id}/report`, { headers: { Authorization: `Bearer ${crew.token}` } });
       const t = performance.now();
