@@ -3,7 +3,9 @@
 import { and, desc, eq, isNull } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog, exclusions, shots } from "~/db/schema";
-import { getShotJson, type Actor, type ShotJson } from "./shots.server";
+import { getShotJson, type ShotJson } from "./shots.server";
+import type { Actor } from "./actor";
+import { scopeOf, sessionIdInScope } from "./scope.server";
 import { exclusionSchema, issuesToErrors, type RecordError } from "./sync-schemas";
 
 export type ExclusionRow = {
@@ -46,7 +48,9 @@ function parseReason(body: unknown): { reason: string } | { errors: RecordError[
 
 /** Excludes a shot from the reports (the QA lead's reason is required). */
 export async function excludeShot(actor: Actor, shotId: string, body: unknown, db: Db = getDb()): Promise<Answer> {
-  const [shot] = await db.select({ id: shots.id, excluded: shots.excluded }).from(shots).where(eq(shots.id, shotId));
+  // issue 14: a shot outside the actor's projects answers as an unknown one
+  const scope = await scopeOf(actor, db);
+  const [shot] = await db.select({ id: shots.id, excluded: shots.excluded }).from(shots).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId}.` } };
   const parsed = parseReason(body);
   if ("errors" in parsed) return { status: 400, body: { error: "A reason is required.", errors: parsed.errors } };
@@ -64,7 +68,8 @@ export async function excludeShot(actor: Actor, shotId: string, body: unknown, d
 
 /** Restores an excluded shot: the exclusion row stays, closed with who, when and why. */
 export async function restoreShot(actor: Actor, shotId: string, body: unknown, db: Db = getDb()): Promise<Answer> {
-  const [shot] = await db.select({ id: shots.id }).from(shots).where(eq(shots.id, shotId));
+  const scope = await scopeOf(actor, db);
+  const [shot] = await db.select({ id: shots.id }).from(shots).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId}.` } };
   const parsed = parseReason(body);
   if ("errors" in parsed) return { status: 400, body: { error: "A reason is required.", errors: parsed.errors } };

@@ -1,10 +1,11 @@
 // The reference data a tablet copies before going into the field: active sensors, sites with
 // their stations and targets, tapes, projects with their acceptance rules, and who is asking.
-import { isNull } from "drizzle-orm";
+import { and, isNull, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { edms, projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets } from "~/db/schema";
 import { ruleOf, RULE_COLUMNS } from "~/models/shots.server";
 import type { SessionUser } from "~/auth/guards.server";
+import { projectColInScope, scopeOf, sensorListedInScope, siteListedInScope } from "~/models/scope.server";
 import type { FieldReference } from "~/offline/types";
 import { openReshootsFor } from "~/models/reshoots.server";
 
@@ -13,10 +14,18 @@ const point = (r: { gridE: number | null; gridN: number | null; gridH: number | 
   geo: r.lat != null && r.lon != null ? { lat: r.lat, lon: r.lon, h: r.h ?? 0 } : null,
 });
 
+/**
+ * issue 14: a tablet copies only its user's projects — their live projects, the sensors and
+ * sites those list (with the sites' stations and targets). Tapes and reference EDMs belong to
+ * the firm, not to a project (nothing links them to one): a user with at least one project gets
+ * them all, a user with none gets none. Admins get everything.
+ */
 export async function fieldReference(user: SessionUser): Promise<FieldReference> {
   const db = getDb();
   // issue 12: open re-shoot requests travel with the reference data, scoped like the rest
   const reshootsP = openReshootsFor(user);
+  const scope = await scopeOf(user, db);
+  const noProjects = !scope.all && scope.projectIds.length === 0;
   const [sensorRows, siteRows, stationRows, targetRows, tapeRows, projectRows, ps, pSites, edmRows] = await Promise.all([
     db
       .select({
@@ -37,8 +46,11 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         certDue: sensors.certDue,
       })
       .from(sensors)
-      .where(isNull(sensors.retiredAt)),
-    db.select({ id: sites.id, name: sites.name, lat: sites.lat, lon: sites.lon }).from(sites).where(isNull(sites.retiredAt)),
+      .where(and(isNull(sensors.retiredAt), sensorListedInScope(scope, sensors.id))),
+    db
+      .select({ id: sites.id, name: sites.name, lat: sites.lat, lon: sites.lon })
+      .from(sites)
+      .where(and(isNull(sites.retiredAt), siteListedInScope(scope, sites.id))),
     db
       .select({
         id: stations.id,
@@ -52,7 +64,7 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         h: stations.h,
       })
       .from(stations)
-      .where(isNull(stations.retiredAt)),
+      .where(and(isNull(stations.retiredAt), siteListedInScope(scope, stations.siteId))),
     db
       .select({
         id: targets.id,
@@ -69,7 +81,7 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         h: targets.h,
       })
       .from(targets)
-      .where(isNull(targets.retiredAt)),
+      .where(and(isNull(targets.retiredAt), siteListedInScope(scope, targets.siteId))),
     db
       .select({
         id: tapes.id,
@@ -86,7 +98,7 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         certDue: tapes.certDue,
       })
       .from(tapes)
-      .where(isNull(tapes.retiredAt)),
+      .where(and(isNull(tapes.retiredAt), noProjects ? sql`0` : undefined)),
     db
       .select({
         id: projects.id,
@@ -95,13 +107,13 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         ...RULE_COLUMNS,
       })
       .from(projects)
-      .where(isNull(projects.retiredAt)),
-    db.select({ projectId: projectSensors.projectId, sensorId: projectSensors.sensorId }).from(projectSensors),
-    db.select({ projectId: projectSites.projectId, siteId: projectSites.siteId }).from(projectSites),
+      .where(and(isNull(projects.retiredAt), projectColInScope(scope, projects.id))),
+    db.select({ projectId: projectSensors.projectId, sensorId: projectSensors.sensorId }).from(projectSensors).where(projectColInScope(scope, projectSensors.projectId)),
+    db.select({ projectId: projectSites.projectId, siteId: projectSites.siteId }).from(projectSites).where(projectColInScope(scope, projectSites.projectId)),
     db
       .select({ id: edms.id, label: edms.label, serial: edms.serial, uncertaintyMm: edms.uncertaintyMm, uncertaintyPpm: edms.uncertaintyPpm, certNumber: edms.certNumber, certDue: edms.certDue })
       .from(edms)
-      .where(isNull(edms.retiredAt)),
+      .where(and(isNull(edms.retiredAt), noProjects ? sql`0` : undefined)),
   ]);
 
   return {

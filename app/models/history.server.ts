@@ -5,7 +5,9 @@ import { and, asc, desc, eq, inArray, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { auditLog, checkSessions, exclusions, shots, sites, users } from "~/db/schema";
 import { biasDrift, pastDueOn, sessionHistoryFigures } from "~/domain";
-import { listSignOffs, sensorReviewHeader, type ReviewActor } from "~/models/signoffs.server";
+import { listSignOffs, sensorReviewHeader } from "~/models/signoffs.server";
+import type { Actor } from "~/models/actor";
+import { projectColInScope, scopeOf, sessionIdInScope } from "~/models/scope.server";
 import { getSensor } from "~/models/sensors.server";
 
 export type HistorySession = {
@@ -20,11 +22,13 @@ export type HistorySession = {
   certificatePastDue: boolean;
 };
 
-export async function sensorHistory(actor: ReviewActor, sensorId: string, months = 24) {
+export async function sensorHistory(actor: Actor, sensorId: string, months = 24) {
+  // null (404) outside the reader's projects, as for an unknown sensor (issue 14)
   const head = await sensorReviewHeader(actor, sensorId);
   const row = await getSensor(sensorId);
   if (!head || !row) return null;
   const db = getDb();
+  const scope = await scopeOf(actor, db);
   const since = new Date(Date.now() - months * 31 * 86_400_000).toISOString().slice(0, 10);
   const included = sql`CASE WHEN ${shots.excluded} THEN 0 ELSE 1 END`;
   const perSession = await db
@@ -40,7 +44,7 @@ export async function sensorHistory(actor: ReviewActor, sensorId: string, months
     .from(checkSessions)
     .innerJoin(sites, eq(sites.id, checkSessions.siteId))
     .leftJoin(shots, eq(shots.sessionId, checkSessions.id))
-    .where(and(eq(checkSessions.sensorId, sensorId), sql`substr(${checkSessions.startedAt}, 1, 10) >= ${since}`))
+    .where(and(eq(checkSessions.sensorId, sensorId), sql`substr(${checkSessions.startedAt}, 1, 10) >= ${since}`, projectColInScope(scope, checkSessions.projectId)))
     .groupBy(checkSessions.id)
     .orderBy(asc(checkSessions.startedAt));
   const sessions: HistorySession[] = perSession.map((s) => ({
@@ -76,7 +80,7 @@ export async function sensorHistory(actor: ReviewActor, sensorId: string, months
       .from(exclusions)
       .innerJoin(shots, eq(shots.id, exclusions.shotId))
       .innerJoin(users, eq(users.id, exclusions.byUserId))
-      .where(eq(shots.sensorId, sensorId))
+      .where(and(eq(shots.sensorId, sensorId), sessionIdInScope(scope, shots.sessionId)))
       .orderBy(desc(exclusions.createdAt))
       .limit(200),
   ]);

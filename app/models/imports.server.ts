@@ -4,30 +4,40 @@
 import { and, asc, eq, isNull } from "drizzle-orm";
 import { z } from "zod";
 import { getDb } from "~/db/client.server";
-import { importMappings, projects, sensors, sites, targets, type Role } from "~/db/schema";
+import { importMappings, projects, sensors, sites, targets } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import { ingestSync } from "~/models/sync.server";
 import { notifyFailedVerdicts } from "~/models/signoffs.server";
 import { sensorSpecOf } from "~/models/sensors.server";
 import { IMPORT_FIELDS, mapRow, type ImportMapping, type ImportTarget, type RowError } from "~/contract/import-rows";
 
-export type ImportActor = { id: string; role: Role; name?: string; email?: string };
+import type { Actor } from "~/models/actor";
+import { canSeeSensor, canSeeSite, projectColInScope, scopeOf, sensorListedInScope, siteListedInScope } from "~/models/scope.server";
 
 /** At most this many rows a request (the sync limit is 500 shots). */
 export const IMPORT_CHUNK_MAX = 500;
 
-export async function importContext(_actor: ImportActor) {
+/** What the import screen offers: issue 14 — only the sensors, sites and projects of the actor's projects. */
+export async function importContext(actor: Actor) {
   const db = getDb();
+  const scope = await scopeOf(actor, db);
   const [sensorRows, siteRows, targetRows, mappingRows, projectRows] = await Promise.all([
-    db.select().from(sensors).where(isNull(sensors.retiredAt)).orderBy(asc(sensors.label)),
-    db.select({ id: sites.id, name: sites.name }).from(sites).where(isNull(sites.retiredAt)).orderBy(asc(sites.name)),
+    db.select().from(sensors).where(and(isNull(sensors.retiredAt), sensorListedInScope(scope, sensors.id))).orderBy(asc(sensors.label)),
+    db.select({ id: sites.id, name: sites.name }).from(sites).where(and(isNull(sites.retiredAt), siteListedInScope(scope, sites.id))).orderBy(asc(sites.name)),
     db
       .select({ id: targets.id, siteId: targets.siteId, label: targets.label, reflectancePct: targets.reflectancePct, referenceM: targets.referenceM })
       .from(targets)
-      .where(isNull(targets.retiredAt))
+      .where(and(isNull(targets.retiredAt), siteListedInScope(scope, targets.siteId)))
       .orderBy(asc(targets.label)),
-    db.select({ sensorId: importMappings.sensorId, mapping: importMappings.mapping, updatedAt: importMappings.updatedAt }).from(importMappings),
-    db.select({ id: projects.id, name: projects.name }).from(projects).where(isNull(projects.retiredAt)).orderBy(asc(projects.name)),
+    db
+      .select({ sensorId: importMappings.sensorId, mapping: importMappings.mapping, updatedAt: importMappings.updatedAt })
+      .from(importMappings)
+      .where(sensorListedInScope(scope, importMappings.sensorId)),
+    db
+      .select({ id: projects.id, name: projects.name })
+      .from(projects)
+      .where(and(isNull(projects.retiredAt), projectColInScope(scope, projects.id)))
+      .orderBy(asc(projects.name)),
   ]);
   return {
     sensors: sensorRows.map((s) => ({ id: s.id, label: s.label, serial: s.serial, spec: sensorSpecOf(s) })),
@@ -81,7 +91,7 @@ export type ChunkAnswer =
   | { status: 200; body: { session: { status: string; errors: RowError[] }; rows: RowResult[] } }
   | { status: 400 | 404; body: { error: string; errors?: RowError[] } };
 
-export async function saveMapping(actor: ImportActor, sensorId: string, mapping: ImportMapping) {
+export async function saveMapping(actor: Actor, sensorId: string, mapping: ImportMapping) {
   const db = getDb();
   const clean = Object.fromEntries(Object.entries(mapping).filter(([, v]) => typeof v === "string" && v !== "")) as Record<string, string>;
   const now = new Date().toISOString();
@@ -98,17 +108,18 @@ export async function saveMapping(actor: ImportActor, sensorId: string, mapping:
  * One chunk of an import: remembers the mapping, maps every row again, sends the valid rows
  * with the import's session through ingestSync, and answers per row (by CSV row number).
  */
-export async function importChunk(actor: ImportActor, body: unknown): Promise<ChunkAnswer> {
+export async function importChunk(actor: Actor, body: unknown): Promise<ChunkAnswer> {
   const parsed = chunkSchema.safeParse(body);
   if (!parsed.success) {
     return { status: 400, body: { error: "The import request is not valid.", errors: parsed.error.issues.map((i) => ({ field: i.path.join("."), message: i.message })) } };
   }
   const c = parsed.data;
   const db = getDb();
-  const [sensor] = await db.select({ id: sensors.id }).from(sensors).where(eq(sensors.id, c.sensorId));
-  if (!sensor) return { status: 404, body: { error: `No sensor ${c.sensorId}.` } };
-  const [site] = await db.select({ id: sites.id }).from(sites).where(eq(sites.id, c.siteId));
-  if (!site) return { status: 404, body: { error: `No site ${c.siteId}.` } };
+  // issue 14: only into the actor's sensors and sites (others answer as unknown); the
+  // session's project is checked by the ingest like a tablet's
+  const scope = await scopeOf(actor, db);
+  if (!(await canSeeSensor(scope, c.sensorId, db))) return { status: 404, body: { error: `No sensor ${c.sensorId}.` } };
+  if (!(await canSeeSite(scope, c.siteId, db))) return { status: 404, body: { error: `No site ${c.siteId}.` } };
   const siteTargets: ImportTarget[] = await db
     .select({ id: targets.id, label: targets.label, reflectancePct: targets.reflectancePct, referenceM: targets.referenceM })
     .from(targets)

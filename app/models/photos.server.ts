@@ -11,7 +11,8 @@ import { getDb, type Db } from "~/db/client.server";
 import { photos, shots } from "~/db/schema";
 import { getEnv } from "~/env.server";
 import { getStore } from "~/storage/store.server";
-import type { Actor } from "./shots.server";
+import type { Actor } from "./actor";
+import { scopeOf, sessionIdInScope, shotIdInScope } from "./scope.server";
 
 export type PhotoJson = { id: string; shotId: string; contentType: string; bytes: number; sha256: string; createdAt: string; url: string };
 type Answer = { status: 200 | 201; body: { photo: PhotoJson } } | { status: 400 | 404 | 413 | 415; body: { error: string; errors?: { path: string; message: string }[] } };
@@ -80,7 +81,9 @@ export async function savePhoto(actor: Actor, shotId: unknown, file: ReceivedPho
   const kind = sniffImageType(await firstBytes(file.path, 16));
   if (!kind) return { status: 415, body: { error: "Only JPEG, PNG, WebP, HEIC or AVIF images are accepted; this file's content is none of them." } };
 
-  const [shot] = await db.select({ id: shots.id }).from(shots).where(eq(shots.id, shotId as string));
+  // issue 14: a shot outside the actor's projects answers as an unknown one
+  const scope = await scopeOf(actor, db);
+  const [shot] = await db.select({ id: shots.id }).from(shots).where(and(eq(shots.id, shotId as string), sessionIdInScope(scope, shots.sessionId)));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId as string}: sync the shot before its photo.` } };
 
   const sha256 = file.sha256;
@@ -111,13 +114,21 @@ export async function savePhoto(actor: Actor, shotId: unknown, file: ReceivedPho
 /** Stored names are ours (uuid.ext); never a path from the request. */
 const photoKey = (name: string) => `photos/${name.replace(/[/\\]/g, "")}`;
 
-export async function listPhotos(_actor: Actor, shotId: string, db: Db = getDb()): Promise<PhotoJson[]> {
+/** The photos of a shot; null when the shot is unknown or outside the actor's projects (404 either way). */
+export async function listPhotos(actor: Actor, shotId: string, db: Db = getDb()): Promise<PhotoJson[] | null> {
+  const scope = await scopeOf(actor, db);
+  const [shot] = await db.select({ id: shots.id }).from(shots).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
+  if (!shot) return null;
   const rows = await db.select(cols).from(photos).where(eq(photos.shotId, shotId)).orderBy(asc(photos.createdAt), asc(photos.id));
   return rows.map(toJson);
 }
 
-export async function findPhoto(_actor: Actor, photoId: string, db: Db = getDb()) {
-  const [row] = await db.select({ ...cols, path: photos.path }).from(photos).where(eq(photos.id, photoId));
+export async function findPhoto(actor: Actor, photoId: string, db: Db = getDb()) {
+  const scope = await scopeOf(actor, db);
+  const [row] = await db
+    .select({ ...cols, path: photos.path })
+    .from(photos)
+    .where(and(eq(photos.id, photoId), shotIdInScope(scope, photos.shotId)));
   return row ?? null;
 }
 

@@ -779,8 +779,18 @@ export async function sensorReportFor(sensorId: string, query: ReportQuery | URL
 }
 
 /** The report with its per-shot rows (the screens, the CSV export, sign-offs), in the actor's scope. */
-export async function computeSensorReport(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<BuiltWithRows | QueryError> {
-  return sensorReportFor(sensorId, query, await filterOf(actor, db), opts, db);
+export async function computeSensorReport(
+  actor: Actor,
+  sensorId: string,
+  query: ReportQuery | URLSearchParams,
+  opts: { details?: boolean; onlyProjectIds?: string[] } = {},
+  db: Db = getDb(),
+): Promise<BuiltWithRows | QueryError> {
+  const base = await filterOf(actor, db);
+  // a sign-off freezes its own project's shots only, within what the actor may see
+  const only = opts.onlyProjectIds;
+  const filter = only ? (base === null ? [...only] : base.filter((p) => only.includes(p))) : base;
+  return sensorReportFor(sensorId, query, filter, { details: opts.details }, db);
 }
 
 const encoder = new TextEncoder();

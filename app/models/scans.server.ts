@@ -14,7 +14,9 @@ import { depthFrameFromRaw, depthFromCorrelation, DomainError, frameTarget, Scan
 import { readPointCloud } from "~/scan/point-cloud.server";
 import { LasFormatError } from "~/scan/las";
 import { computeShotRecord, loadRegistryContext, type RegistryContext, type SessionFacts } from "./shots.server";
-import { ingestSync, type SyncActor } from "./sync.server";
+import { ingestSync } from "./sync.server";
+import type { Actor } from "./actor";
+import { projectColInScope, scopeOf, siteIdInScope, type Scope } from "./scope.server";
 import { frameFieldsSchema, scanFieldsSchema, type ScanAnswer, type ScanTargetRow } from "./scan-schemas";
 import { issuesToErrors, type RecordError, type SyncResult, type SyncShot } from "./sync-schemas";
 import type { UploadedFile } from "~/utils/multipart.server";
@@ -39,7 +41,8 @@ export function scanShotId(fileSha256: string, targetId: string): string {
 
 type SessionRow = { id: string; sensorId: string; siteId: string; projectId: string | null; startedAt: string; airTempC: number | null; pressureHpa: number | null; humidityPct: number | null };
 
-async function loadSession(sessionId: string, db: Db) {
+/** The stored session; null when unknown or (issue 14) outside the actor's projects — the same 404. */
+async function loadSession(sessionId: string, scope: Scope, db: Db) {
   const [s] = await db
     .select({
       id: checkSessions.id,
@@ -52,7 +55,7 @@ async function loadSession(sessionId: string, db: Db) {
       humidityPct: checkSessions.humidityPct,
     })
     .from(checkSessions)
-    .where(eq(checkSessions.id, sessionId));
+    .where(and(eq(checkSessions.id, sessionId), projectColInScope(scope, checkSessions.projectId)));
   return (s as SessionRow | undefined) ?? null;
 }
 
@@ -81,7 +84,7 @@ function preview(shot: SyncShot, session: SessionFacts, ctx: RegistryContext) {
 }
 
 /** Stores the shots through the sync ingest and writes each one's outcome on its row. */
-async function commitRows(actor: SyncActor, rows: ScanTargetRow[], shots: Map<string, SyncShot>, db: Db): Promise<Answer | null> {
+async function commitRows(actor: Actor, rows: ScanTargetRow[], shots: Map<string, SyncShot>, db: Db): Promise<Answer | null> {
   const list = rows.flatMap((r) => (r.shotId && shots.has(r.shotId) ? [shots.get(r.shotId)!] : []));
   if (!list.length) return null;
   const res = await ingestSync(actor, { deviceId: SCAN_DEVICE_ID, sessions: [], shots: list }, db);
@@ -97,14 +100,14 @@ async function commitRows(actor: SyncActor, rows: ScanTargetRow[], shots: Map<st
 // ---------------------------------------------------------------------------------------------
 // Point clouds
 
-export async function importScan(actor: SyncActor, fields: Record<string, string | undefined>, file: UploadedFile | undefined, db: Db = getDb()): Promise<Answer> {
+export async function importScan(actor: Actor, fields: Record<string, string | undefined>, file: UploadedFile | undefined, db: Db = getDb()): Promise<Answer> {
   const parsed = scanFieldsSchema.safeParse(fields);
   const errors: RecordError[] = parsed.success ? [] : issuesToErrors(parsed.error.issues);
   if (!file) errors.push({ path: "file", message: "attach the scan as a LAS or LAZ file" });
   else if (file.bytes === 0) errors.push({ path: "file", message: "the file is empty" });
   if (!parsed.success || errors.length) return bad(errors);
   const f = parsed.data;
-  const session = await loadSession(f.sessionId, db);
+  const session = await loadSession(f.sessionId, await scopeOf(actor, db), db);
   if (!session) return { status: 404, body: { error: `No synced session ${f.sessionId}: sync the session first.` } };
   const facts = factsOf(session);
   const ctx = await loadRegistryContext({ sensorIds: [], siteIds: [], tapeIds: [], projectIds: [], sessionIds: [session.id] }, db);
@@ -191,7 +194,7 @@ async function readGreyPng(file: UploadedFile, path: string): Promise<{ width: n
   return { width: img.width, height: img.height, data: img.data as Uint16Array };
 }
 
-export async function importFrames(actor: SyncActor, fields: Record<string, string | undefined>, files: UploadedFile[], db: Db = getDb()): Promise<Answer> {
+export async function importFrames(actor: Actor, fields: Record<string, string | undefined>, files: UploadedFile[], db: Db = getDb()): Promise<Answer> {
   const parsed = frameFieldsSchema.safeParse(fields);
   const errors: RecordError[] = parsed.success ? [] : issuesToErrors(parsed.error.issues);
   const depth = files.filter((x) => x.field === "depth");
@@ -202,7 +205,7 @@ export async function importFrames(actor: SyncActor, fields: Record<string, stri
   if (corr.length && parsed.success && parsed.data.frequencyHz === undefined) errors.push({ path: "frequencyHz", message: "correlation frames need their modulation frequency (Hz)" });
   if (!parsed.success || errors.length) return bad(errors);
   const f = parsed.data;
-  const session = await loadSession(f.sessionId, db);
+  const session = await loadSession(f.sessionId, await scopeOf(actor, db), db);
   if (!session) return { status: 404, body: { error: `No synced session ${f.sessionId}: sync the session first.` } };
   const [sensor] = await db.select().from(sensors).where(eq(sensors.id, session.sensorId));
   const intrinsics = sensor?.intrinsics as Intrinsics | null;
@@ -295,7 +298,9 @@ export async function importFrames(actor: SyncActor, fields: Record<string, stri
 // What the import screens offer: synced sessions (newest first) with their sensor and site, the
 // site's stations and targets, and which sensors are depth cameras.
 
-export async function scanImportContext(db: Db = getDb()) {
+export async function scanImportContext(actor: Actor, db: Db = getDb()) {
+  // issue 14: only the sessions of the actor's projects
+  const scope = await scopeOf(actor, db);
   const [sessionRows, stationRows, targetRows] = await Promise.all([
     db
       .select({
@@ -312,17 +317,18 @@ export async function scanImportContext(db: Db = getDb()) {
       .from(checkSessions)
       .innerJoin(sensors, eq(sensors.id, checkSessions.sensorId))
       .innerJoin(sites, eq(sites.id, checkSessions.siteId))
+      .where(projectColInScope(scope, checkSessions.projectId))
       .orderBy(desc(checkSessions.startedAt))
       .limit(300),
     db
       .select({ id: stations.id, siteId: stations.siteId, label: stations.label, gridE: stations.gridE })
       .from(stations)
-      .where(isNull(stations.retiredAt))
+      .where(and(isNull(stations.retiredAt), siteIdInScope(scope, stations.siteId)))
       .orderBy(stations.label),
     db
       .select({ id: targets.id, siteId: targets.siteId, label: targets.label, gridE: targets.gridE, reflectancePct: targets.reflectancePct, referenceM: targets.referenceM })
       .from(targets)
-      .where(isNull(targets.retiredAt))
+      .where(and(isNull(targets.retiredAt), siteIdInScope(scope, targets.siteId)))
       .orderBy(targets.label),
   ]);
   return {

@@ -6,6 +6,8 @@ import type { SensorSpec } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { auditLog, checkSessions, sensors, users } from "~/db/schema";
 import { audit } from "~/models/audit.server";
+import type { Actor } from "~/models/actor";
+import { scopeOf, sensorIdInScope } from "~/models/scope.server";
 import { recomputeShotsForSensor } from "~/models/shots.server";
 import {
   certificateColumns,
@@ -181,11 +183,13 @@ export async function restoreSensor(actor: RegistryActor, id: string): Promise<R
   return { status: 200, body: { id } };
 }
 
-export async function listSensors({ includeRetired = false }: { includeRetired?: boolean } = {}): Promise<SensorRow[]> {
+/** The registry's sensors the actor may see (issue 14: those of their projects; admins all). */
+export async function listSensors(actor: Actor, { includeRetired = false }: { includeRetired?: boolean } = {}): Promise<SensorRow[]> {
+  const scope = await scopeOf(actor);
   return getDb()
     .select()
     .from(sensors)
-    .where(includeRetired ? undefined : isNull(sensors.retiredAt))
+    .where(and(includeRetired ? undefined : isNull(sensors.retiredAt), sensorIdInScope(scope, sensors.id)))
     .orderBy(asc(sensors.label), asc(sensors.serial));
 }
 

@@ -21,8 +21,8 @@ import {
   type TapeSpec,
 } from "~/domain";
 import { validateShot, type RecordError } from "~/contract";
-
-export type Actor = { id: string; role: string };
+import type { Actor } from "./actor";
+import { canSeeProject, canSeeSensor, scopeOf, sessionIdInScope, visibleSessionIds, type Scope } from "./scope.server";
 
 // ---------------------------------------------------------------------------------------------
 // Registry data a computation needs, loaded once per request (or per recompute).
@@ -210,6 +210,16 @@ export function impliedProjectsQuery(pairs: { sensorId: string; siteId: string }
     .innerJoin(projectSites, eq(projectSites.projectId, projectSensors.projectId))
     .innerJoin(projects, eq(projects.id, projectSensors.projectId))
     .where(and(inArray(projectSensors.sensorId, uniq(pairs.map((p) => p.sensorId))), sql`${projects.retiredAt} is null`));
+}
+
+/** issue 14: every project (retired ones too) listing both a sensor and a site, for the sensors of these pairs. */
+export function holdingProjectsQuery(pairs: { sensorId: string; siteId: string }[], db: Db = getDb()) {
+  return db
+    .select({ projectId: projectSensors.projectId, sensorId: projectSensors.sensorId, siteId: projectSites.siteId, name: projects.name, retiredAt: projects.retiredAt })
+    .from(projectSensors)
+    .innerJoin(projectSites, eq(projectSites.projectId, projectSensors.projectId))
+    .innerJoin(projects, eq(projects.id, projectSensors.projectId))
+    .where(inIds(projectSensors.sensorId, uniq(pairs.map((p) => p.sensorId))));
 }
 
 /** The one non-retired project that lists both the sensor and the site, per (sensor, site) pair. */
@@ -544,9 +554,12 @@ export function parseShotQuery(url: URL, opts: { paged: boolean }): ShotQuery | 
   return out;
 }
 
-/** The selection conditions (sensor, sessions, period) that outliers are judged within. */
-function selectionWhere(q: ShotQuery): SQL[] {
+/** The selection conditions (sensor, sessions, period, the reader's projects) that outliers are judged within. */
+function selectionWhere(q: ShotQuery, scope: Scope): SQL[] {
   const w: SQL[] = [];
+  // issue 14: only shots of sessions of the reader's projects (admins: all)
+  const inScope = sessionIdInScope(scope, shots.sessionId);
+  if (inScope) w.push(inScope);
   if (q.sensor) w.push(eq(shots.sensorId, q.sensor));
   if (q.sessions.length) w.push(inArray(shots.sessionId, q.sessions));
   w.push(...periodWhere(q.from, q.to));
@@ -554,19 +567,21 @@ function selectionWhere(q: ShotQuery): SQL[] {
 }
 
 /** Median and cut of the outlier flag over the included shots of the selection (ranging.md §4). */
-async function outlierCut(q: ShotQuery, db: Db): Promise<{ med: number; cut: number } | null> {
+async function outlierCut(q: ShotQuery, scope: Scope, db: Db): Promise<{ med: number; cut: number } | null> {
   if (!q.sensor) return null;
   const rows = await db
     .select({ e: shots.errorMm })
     .from(shots)
-    .where(and(...selectionWhere(q), eq(shots.excluded, false)));
+    .where(and(...selectionWhere(q, scope), eq(shots.excluded, false)));
   if (!rows.length) return null;
   const e = Float64Array.from(rows, (r) => r.e);
   return { med: median(e), cut: OUTLIER_K * MAD_TO_SIGMA * mad(e) };
 }
 
-async function kFor(projectId: string | undefined, db: Db): Promise<number | null | undefined> {
+async function kFor(projectId: string | undefined, scope: Scope, db: Db): Promise<number | null | undefined> {
   if (!projectId) return undefined;
+  // a project outside the reader's ones answers as an unknown one
+  if (!(await canSeeProject(scope, projectId, db))) return null;
   const [p] = await db.select({ k: projects.coverageK }).from(projects).where(eq(projects.id, projectId));
   return p ? p.k : null;
 }
@@ -589,10 +604,26 @@ function toJson(r: ShotRow, k: number | undefined, out: { med: number; cut: numb
 
 type Filter = { w: SQL[] | null; k: number | undefined; cut: { med: number; cut: number } | null } | { error: QueryError };
 
+/**
+ * issue 14: a list filtered by a sensor or session the reader may not see (or that does not
+ * exist) answers 404, the same either way.
+ */
+async function unseenFilter(q: ShotQuery, scope: Scope, db: Db): Promise<QueryError | null> {
+  if (q.sensor && !(await canSeeSensor(scope, q.sensor, db))) return { status: 404, body: { error: `No sensor ${q.sensor}.` } };
+  if (q.sessions.length) {
+    const seen = await visibleSessionIds(scope, q.sessions, db);
+    const missing = q.sessions.find((id) => !seen.has(id));
+    if (missing) return { status: 404, body: { error: `No session ${missing}.` } };
+  }
+  return null;
+}
+
 /** The WHERE of a shot query; w null when nothing can match. */
-async function filteredRows(q: ShotQuery, db: Db, extra: SQL[]): Promise<Filter> {
-  const cut = await outlierCut(q, db);
-  const w = [...selectionWhere(q), ...extra];
+async function filteredRows(q: ShotQuery, scope: Scope, db: Db, extra: SQL[]): Promise<Filter> {
+  const unseen = await unseenFilter(q, scope, db);
+  if (unseen) return { error: unseen };
+  const cut = await outlierCut(q, scope, db);
+  const w = [...selectionWhere(q, scope), ...extra];
   if (q.band) {
     const b = rangeBandBounds(q.band)!;
     if (b.lo != null) w.push(gte(shots.referenceM, b.lo));
@@ -606,7 +637,7 @@ async function filteredRows(q: ShotQuery, db: Db, extra: SQL[]): Promise<Filter>
     if (q.reflectance === "mid") w.push(and(gte(shots.reflectancePct, DARK_BELOW_PCT), lte(shots.reflectancePct, BRIGHT_ABOVE_PCT))!);
     if (q.reflectance === "bright") w.push(gt(shots.reflectancePct, BRIGHT_ABOVE_PCT));
   }
-  const k = await kFor(q.project, db);
+  const k = await kFor(q.project, scope, db);
   if (k === null) return { error: { status: 404, body: { error: `No project ${q.project}.` } } };
   if (q.within !== undefined) {
     // with another project's rule the limit is k·T(D), T(D) stored per shot
@@ -623,10 +654,10 @@ async function filteredRows(q: ShotQuery, db: Db, extra: SQL[]): Promise<Filter>
   return { w, k, cut };
 }
 
-export async function listShots(_actor: Actor, q: ShotQuery, db: Db = getDb()): Promise<{ status: 200; body: { shots: ShotJson[]; nextCursor: string | null } } | QueryError> {
+export async function listShots(actor: Actor, q: ShotQuery, db: Db = getDb()): Promise<{ status: 200; body: { shots: ShotJson[]; nextCursor: string | null } } | QueryError> {
   const extra: SQL[] = [];
   if (q.cursor) extra.push(or(gt(shots.takenAt, q.cursor.takenAt), and(eq(shots.takenAt, q.cursor.takenAt), gt(shots.id, q.cursor.id)))!);
-  const f = await filteredRows(q, db, extra);
+  const f = await filteredRows(q, await scopeOf(actor, db), db, extra);
   if ("error" in f) return f.error;
   if (!f.w) return { status: 200, body: { shots: [], nextCursor: null } };
   const rows = await selectShots(db)
@@ -644,8 +675,8 @@ export async function listShots(_actor: Actor, q: ShotQuery, db: Db = getDb()): 
   };
 }
 
-export async function shotsGeoJson(_actor: Actor, q: ShotQuery, db: Db = getDb()) {
-  const f = await filteredRows(q, db, [isNotNull(shots.lat), isNotNull(shots.lon)]);
+export async function shotsGeoJson(actor: Actor, q: ShotQuery, db: Db = getDb()) {
+  const f = await filteredRows(q, await scopeOf(actor, db), db, [isNotNull(shots.lat), isNotNull(shots.lon)]);
   if ("error" in f) return f.error;
   const rows = f.w ? await selectShots(db).where(and(...f.w)).orderBy(asc(shots.takenAt), asc(shots.id)) : [];
   return {
@@ -679,7 +710,8 @@ export async function shotsGeoJson(_actor: Actor, q: ShotQuery, db: Db = getDb()
   };
 }
 
-export async function getShotJson(shotId: string, db: Db = getDb()): Promise<ShotJson | null> {
-  const [r] = await selectShots(db).where(eq(shots.id, shotId));
+/** One shot as the table shows it; null when unknown or (with a scope) outside the reader's projects. */
+export async function getShotJson(shotId: string, db: Db = getDb(), scope: Scope = { all: true }): Promise<ShotJson | null> {
+  const [r] = await selectShots(db).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
   return r ? toJson(r, undefined, null) : null;
 }

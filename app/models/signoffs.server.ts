@@ -1,8 +1,8 @@
 // QA review: the sensors overview, sign-offs (the report frozen into sign_offs.snapshot, mail
 // to the crew who logged the shots and to the admins) and the failed-verdict notice to QA.
-import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
+import { and, asc, desc, eq, inArray, isNull, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
-import { auditLog, checkSessions, exclusions, photos, projects, projectSensors, sensors, shots, signOffs, sites, stations, targets, users, type Role } from "~/db/schema";
+import { auditLog, checkSessions, exclusions, photos, projectMembers, projects, projectSensors, sensors, shots, signOffs, sites, stations, targets, users } from "~/db/schema";
 import { buffer, convex, featureCollection, point } from "@turf/turf";
 import type { Feature, Point } from "geojson";
 import { audit } from "~/models/audit.server";
@@ -14,12 +14,12 @@ import { explainVerdict } from "~/domain";
 import type { ReportJson } from "~/contract/report";
 import { accuracyStatement, verdictFailures } from "~/domain";
 import type { SignOffInput } from "~/contract/signoff";
-
-export type ReviewActor = { id: string; role: Role; name?: string; email?: string };
+import type { Actor } from "~/models/actor";
+import { canSeeProject, canSeeSensor, projectColInScope, scopeOf, sensorIdInScope, sessionIdInScope, type Scope } from "~/models/scope.server";
 export type ReviewQuery = { from?: string | null; to?: string | null; sessionIds?: string[]; projectId?: string | null };
 
 /** Who acts when the server itself asks (the notice after a sync). */
-const SYSTEM: ReviewActor = { id: "system", role: "admin", name: "Shotbook" };
+const SYSTEM: Actor = { id: "system", role: "admin", name: "Shotbook" };
 
 export class ReviewError extends Error {
   constructor(
@@ -31,16 +31,18 @@ export class ReviewError extends Error {
   }
 }
 
-export async function listProjectsForFilter() {
+/** The live projects the actor may choose from (issue 14: their own; admins all). */
+export async function listProjectsForFilter(actor: Actor) {
+  const scope = await scopeOf(actor);
   return getDb()
     .select({ id: projects.id, name: projects.name, client: projects.client })
     .from(projects)
-    .where(isNull(projects.retiredAt))
+    .where(and(isNull(projects.retiredAt), projectColInScope(scope, projects.id)))
     .orderBy(asc(projects.name));
 }
 
 /** The report of the contract (api.md) for a selection; null when the sensor is unknown. */
-export async function reportFor(actor: ReviewActor, sensorId: string, q: ReviewQuery): Promise<ReportJson | null> {
+export async function reportFor(actor: Actor, sensorId: string, q: ReviewQuery): Promise<ReportJson | null> {
   return buildSensorReport(actor, sensorId, {
     ...(q.from ? { from: q.from } : {}),
     ...(q.to ? { to: q.to } : {}),
@@ -79,7 +81,7 @@ export type SensorOverviewRow = {
 };
 
 /** The report with the per-shot reflectance and illuminance the matrix needs. */
-export async function reportWithCells(actor: ReviewActor, sensorId: string, q: ReviewQuery) {
+export async function reportWithCells(actor: Actor, sensorId: string, q: ReviewQuery) {
   const r = await computeSensorReport(actor, sensorId, {
     ...(q.from ? { from: q.from } : {}),
     ...(q.to ? { to: q.to } : {}),
@@ -96,8 +98,11 @@ export async function reportWithCells(actor: ReviewActor, sensorId: string, q: R
   return { report: r.body as unknown as ReportJson, cells: matrixCells(r.body.shots, details) };
 }
 
-export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promise<SensorOverviewRow[]> {
+export async function reviewOverview(actor: Actor, q: ReviewQuery): Promise<SensorOverviewRow[]> {
   const db = getDb();
+  // issue 14: the sensors of the reader's projects; a project filter outside them answers as unknown
+  const scope = await scopeOf(actor, db);
+  if (q.projectId && !(await canSeeProject(scope, q.projectId, db))) throw Response.json({ error: `No project ${q.projectId}.` }, { status: 404 });
   let list = await db
     .select({
       id: sensors.id,
@@ -109,7 +114,7 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
       calibrationDue: sensors.calibrationDue,
     })
     .from(sensors)
-    .where(isNull(sensors.retiredAt))
+    .where(and(isNull(sensors.retiredAt), sensorIdInScope(scope, sensors.id)))
     .orderBy(asc(sensors.label));
   if (q.projectId) {
     const linked = await db.select({ id: projectSensors.sensorId }).from(projectSensors).where(eq(projectSensors.projectId, q.projectId));
@@ -121,7 +126,7 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
   for (const s of list) {
     const rc = await reportWithCells(actor, s.id, q);
     const r = rc?.report ?? null;
-    const last = await lastSignOff(s.id, q.projectId ?? null);
+    const last = await lastSignOff(s.id, q.projectId ?? null, scope);
     const times = r?.shots.map((x) => x.takenAt).sort() ?? [];
     out.push({
       ...s,
@@ -148,12 +153,12 @@ export async function reviewOverview(actor: ReviewActor, q: ReviewQuery): Promis
   return out.sort((a, b) => rank[a.verdict] - rank[b.verdict] || a.label.localeCompare(b.label));
 }
 
-async function lastSignOff(sensorId: string, projectId: string | null) {
+async function lastSignOff(sensorId: string, projectId: string | null, scope: Scope) {
   const [row] = await getDb()
     .select({ decision: signOffs.decision, createdAt: signOffs.createdAt, byName: users.name, byEmail: users.email })
     .from(signOffs)
     .innerJoin(users, eq(users.id, signOffs.byUserId))
-    .where(projectId ? and(eq(signOffs.sensorId, sensorId), eq(signOffs.projectId, projectId)) : eq(signOffs.sensorId, sensorId))
+    .where(and(eq(signOffs.sensorId, sensorId), projectId ? eq(signOffs.projectId, projectId) : undefined, projectColInScope(scope, signOffs.projectId)))
     .orderBy(desc(signOffs.createdAt))
     .limit(1);
   return row ? { decision: row.decision, createdAt: row.createdAt, byName: row.byName || row.byEmail } : null;
@@ -173,7 +178,9 @@ export type SignOffRow = {
   createdAt: string;
 };
 
-export async function listSignOffs(_actor: ReviewActor, sensorId: string, limit = 20): Promise<SignOffRow[]> {
+/** The sensor's sign-offs the actor may see: those of their projects (issue 14; no project: admins only). */
+export async function listSignOffs(actor: Actor, sensorId: string, limit = 20): Promise<SignOffRow[]> {
+  const scope = await scopeOf(actor);
   const rows = await getDb()
     .select({
       id: signOffs.id,
@@ -192,14 +199,19 @@ export async function listSignOffs(_actor: ReviewActor, sensorId: string, limit 
     .from(signOffs)
     .innerJoin(users, eq(users.id, signOffs.byUserId))
     .leftJoin(projects, eq(projects.id, signOffs.projectId))
-    .where(eq(signOffs.sensorId, sensorId))
+    .where(and(eq(signOffs.sensorId, sensorId), projectColInScope(scope, signOffs.projectId)))
     .orderBy(desc(signOffs.createdAt))
     .limit(limit);
   return rows.map(({ byEmail, ...r }) => ({ ...r, byName: r.byName || byEmail }));
 }
 
-export async function getSignOff(_actor: ReviewActor, id: string) {
-  const [row] = await getDb().select().from(signOffs).where(eq(signOffs.id, id)).limit(1);
+export async function getSignOff(actor: Actor, id: string) {
+  const scope = await scopeOf(actor);
+  const [row] = await getDb()
+    .select()
+    .from(signOffs)
+    .where(and(eq(signOffs.id, id), projectColInScope(scope, signOffs.projectId)))
+    .limit(1);
   return row ?? null;
 }
 
@@ -225,18 +237,35 @@ export type SignOffResult = { id: string; verdict: ReportJson["verdict"]; recipi
  * Approves or rejects a sensor for a project and period. The report as it stands is frozen
  * into the row; approving a sensor whose verdict is not "pass" needs a note saying why.
  */
-export async function createSignOff(actor: ReviewActor, sensorId: string, input: Omit<SignOffInput, "intent">): Promise<SignOffResult> {
+export async function createSignOff(actor: Actor, sensorId: string, input: Omit<SignOffInput, "intent">): Promise<SignOffResult> {
   if (actor.role !== "qa" && actor.role !== "admin") throw new ReviewError("Only QA or an admin may sign a sensor off.", 403);
   const db = getDb();
+  const scope = await scopeOf(actor, db);
   const [sensor] = await db.select({ id: sensors.id, label: sensors.label, serial: sensors.serial }).from(sensors).where(eq(sensors.id, sensorId)).limit(1);
-  if (!sensor) throw new ReviewError("No such sensor.", 404);
+  // issue 14: a sensor outside the actor's projects is "no such sensor"
+  if (!sensor || !(await canSeeSensor(scope, sensorId, db))) throw new ReviewError("No such sensor.", 404);
+  // issue 14: a sign-off is per project and sensor. A QA member signs off for a project they
+  // belong to (implied when exactly one of theirs holds the sensor); an admin may still sign
+  // off the whole history without one.
+  let projectId = input.projectId || null;
+  if (!projectId && !scope.all) {
+    const mine = await db
+      .select({ id: projectSensors.projectId })
+      .from(projectSensors)
+      .where(and(eq(projectSensors.sensorId, sensorId), projectColInScope(scope, projectSensors.projectId)));
+    if (mine.length !== 1) throw new ReviewError("Choose the project this sign-off is for.", 400, "projectId");
+    projectId = mine[0]!.id;
+  }
   let projectName: string | null = null;
-  if (input.projectId) {
-    const [p] = await db.select({ name: projects.name }).from(projects).where(eq(projects.id, input.projectId)).limit(1);
+  if (projectId) {
+    const [p] = await db.select({ name: projects.name }).from(projects).where(and(eq(projects.id, projectId), projectColInScope(scope, projects.id))).limit(1);
     if (!p) throw new ReviewError("No such project.", 400, "projectId");
     projectName = p.name;
   }
-  const report = await reportFor(actor, sensorId, { from: input.from, to: input.to, projectId: input.projectId });
+  // the shots of the sign-off's project only (ranging.md's report, for that project's sessions)
+  const rc = await computeSensorReport(actor, sensorId, { ...(input.from ? { from: input.from } : {}), ...(input.to ? { to: input.to } : {}), ...(projectId ? { projectId } : {}) }, projectId ? { onlyProjectIds: [projectId] } : {});
+  if (rc.status !== 200 && !(rc.status === 404 && rc.body.error.startsWith("No sensor"))) throw Response.json(rc.body, { status: rc.status });
+  const report = rc.status === 200 ? (rc.body as unknown as ReportJson) : null;
   if (!report) throw new ReviewError("No such sensor.", 404);
   if (report.n + report.excluded === 0) throw new ReviewError("There are no shots in this selection to sign off.", 400, "from");
   const note = input.note ?? "";
@@ -248,7 +277,7 @@ export async function createSignOff(actor: ReviewActor, sensorId: string, input:
     .insert(signOffs)
     .values({
       sensorId,
-      projectId: input.projectId || null,
+      projectId,
       decision: input.decision,
       periodFrom: input.from ?? null,
       periodTo: input.to ?? null,
@@ -264,7 +293,7 @@ export async function createSignOff(actor: ReviewActor, sensorId: string, input:
   await audit(actor.id, `sign-off.${input.decision}`, "sensor", sensorId, {
     signOffId: id,
     verdict: report.verdict,
-    projectId: input.projectId ?? null,
+    projectId,
     from: input.from ?? null,
     to: input.to ?? null,
     n: report.n,
@@ -302,6 +331,24 @@ function expiredSummary(report: ReportJson): string {
 
 const VERDICT_SEEN = "sensor.verdict";
 
+/** issue 14: the active QA users who are members of a project of the sensor (listed or used). */
+async function qaWhoSee(sensorId: string): Promise<string[]> {
+  const qa = await listUserEmailsByRole(["qa"]);
+  if (!qa.length) return [];
+  const rows = await getDb()
+    .selectDistinct({ email: users.email })
+    .from(projectMembers)
+    .innerJoin(users, eq(users.id, projectMembers.userId))
+    .where(and(eq(users.role, "qa"), eq(users.active, true), sensorIdInScopeOfProject(projectMembers.projectId, sensorId)));
+  const ok = new Set(rows.map((r) => r.email));
+  return qa.filter((e) => ok.has(e));
+}
+
+/** The project (column) lists the sensor or has a session of it. */
+function sensorIdInScopeOfProject(projectCol: typeof projectMembers.projectId, sensorId: string) {
+  return sql`(${projectCol} IN (SELECT ${projectSensors.projectId} FROM ${projectSensors} WHERE ${projectSensors.sensorId} = ${sensorId}) OR ${projectCol} IN (SELECT ${checkSessions.projectId} FROM ${checkSessions} WHERE ${checkSessions.sensorId} = ${sensorId}))`;
+}
+
 /**
  * After a sync: for each sensor whose overall verdict has turned to "fail" since the last
  * time this looked, mail a "sensor-failed" notice to the QA users. The last verdict seen is
@@ -329,7 +376,7 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
       .filter((t) => verdictFailures([t], report.rule.referenceInVerdict).length > 0)
       .map((t) => `${t.name} ${t.value == null ? "—" : t.value.toFixed(2)} (limit ${t.limit.toFixed(2)})`)
       .join("; ");
-    await sendTemplateMail("sensor-failed", await listUserEmailsByRole(["qa"]), {
+    await sendTemplateMail("sensor-failed", await qaWhoSee(sensorId), {
       sensorId,
       sensorLabel: `${sensor.label} (${sensor.serial})`,
       biasMm: report.biasMm,
@@ -345,8 +392,11 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
 }
 
 /** What the report page shows around the client-fetched report. */
-export async function sensorReviewHeader(_actor: ReviewActor, sensorId: string) {
+export async function sensorReviewHeader(actor: Actor, sensorId: string) {
   const db = getDb();
+  // issue 14: outside the reader's projects the sensor is not there
+  const scope = await scopeOf(actor, db);
+  if (!(await canSeeSensor(scope, sensorId, db))) return null;
   const [sensor] = await db
     .select({
       id: sensors.id,
@@ -368,7 +418,7 @@ export async function sensorReviewHeader(_actor: ReviewActor, sensorId: string) 
     .select({ id: checkSessions.id, startedAt: checkSessions.startedAt, siteId: checkSessions.siteId, siteName: sites.name, projectId: checkSessions.projectId, note: checkSessions.note })
     .from(checkSessions)
     .innerJoin(sites, eq(sites.id, checkSessions.siteId))
-    .where(eq(checkSessions.sensorId, sensorId))
+    .where(and(eq(checkSessions.sensorId, sensorId), projectColInScope(scope, checkSessions.projectId)))
     .orderBy(asc(checkSessions.startedAt));
   return { sensor, sessions };
 }
@@ -377,13 +427,15 @@ export async function sensorReviewHeader(_actor: ReviewActor, sensorId: string) 
  * The sites where this sensor was checked, as GeoJSON for the map: stations and targets with
  * geographic positions, and an outline (the convex hull of them, 10 m around).
  */
-export async function reviewSiteFeatures(_actor: ReviewActor, sensorId: string) {
+export async function reviewSiteFeatures(actor: Actor, sensorId: string) {
   const db = getDb();
+  // issue 14: the sites of the sessions of the reader's projects
+  const scope = await scopeOf(actor, db);
   const siteRows = await db
     .selectDistinct({ id: sites.id, name: sites.name, lat: sites.lat, lon: sites.lon })
     .from(checkSessions)
     .innerJoin(sites, eq(sites.id, checkSessions.siteId))
-    .where(eq(checkSessions.sensorId, sensorId));
+    .where(and(eq(checkSessions.sensorId, sensorId), projectColInScope(scope, checkSessions.projectId)));
   const siteIds = siteRows.map((s) => s.id);
   const [st, tg] = siteIds.length
     ? await Promise.all([
@@ -411,16 +463,19 @@ export async function reviewSiteFeatures(_actor: ReviewActor, sensorId: string) 
 }
 
 /** Per shot of a sensor: its photo ids, the labels of its targets and open exclusion reasons. */
-export async function shotExtras(_actor: ReviewActor, sensorId: string) {
+export async function shotExtras(actor: Actor, sensorId: string) {
   const db = getDb();
+  // issue 14: the shots of sessions of the reader's projects
+  const scope = await scopeOf(actor, db);
+  const mine = (col: typeof shots.sessionId) => sessionIdInScope(scope, col);
   const [photoRows, targetRows, reasonRows] = await Promise.all([
-    db.select({ id: photos.id, shotId: photos.shotId }).from(photos).innerJoin(shots, eq(shots.id, photos.shotId)).where(eq(shots.sensorId, sensorId)).orderBy(asc(photos.createdAt)),
-    db.selectDistinct({ id: targets.id, label: targets.label }).from(shots).innerJoin(targets, eq(targets.id, shots.targetId)).where(eq(shots.sensorId, sensorId)),
+    db.select({ id: photos.id, shotId: photos.shotId }).from(photos).innerJoin(shots, eq(shots.id, photos.shotId)).where(and(eq(shots.sensorId, sensorId), mine(shots.sessionId))).orderBy(asc(photos.createdAt)),
+    db.selectDistinct({ id: targets.id, label: targets.label }).from(shots).innerJoin(targets, eq(targets.id, shots.targetId)).where(and(eq(shots.sensorId, sensorId), mine(shots.sessionId))),
     db
       .select({ shotId: exclusions.shotId, reason: exclusions.reason })
       .from(exclusions)
       .innerJoin(shots, eq(shots.id, exclusions.shotId))
-      .where(and(eq(shots.sensorId, sensorId), isNull(exclusions.restoredAt))),
+      .where(and(eq(shots.sensorId, sensorId), isNull(exclusions.restoredAt), mine(shots.sessionId))),
   ]);
   const photoMap: Record<string, string[]> = {};
   for (const p of photoRows) (photoMap[p.shotId] ??= []).push(p.id);

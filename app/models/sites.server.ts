@@ -16,6 +16,8 @@ import {
   type SiteBody,
 } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
+import type { Actor } from "~/models/actor";
+import { scopeOf, siteIdInScope } from "~/models/scope.server";
 import { recomputeShotsForSite } from "~/models/shots.server";
 
 export type SiteRow = typeof sites.$inferSelect;
@@ -285,7 +287,9 @@ export async function restoreSite(actor: RegistryActor, id: string): Promise<Reg
 
 export type SiteListRow = SiteRow & { targetCount: number; stationCount: number; targetLabels: string };
 
-export async function listSites({ includeRetired = false }: { includeRetired?: boolean } = {}): Promise<SiteListRow[]> {
+/** The registry's sites the actor may see (issue 14: those of their projects; admins all). */
+export async function listSites(actor: Actor, { includeRetired = false }: { includeRetired?: boolean } = {}): Promise<SiteListRow[]> {
+  const scope = await scopeOf(actor);
   const rows = await getDb()
     .select({
       site: sites,
@@ -294,7 +298,7 @@ export async function listSites({ includeRetired = false }: { includeRetired?: b
       targetLabels: sql<string>`coalesce((select group_concat(label, ', ') from (select label from targets t where t.site_id = "sites"."id" and t.retired_at is null order by t.rowid)), '')`,
     })
     .from(sites)
-    .where(includeRetired ? undefined : isNull(sites.retiredAt))
+    .where(and(includeRetired ? undefined : isNull(sites.retiredAt), siteIdInScope(scope, sites.id)))
     .orderBy(asc(sites.name));
   return rows.map((r) => ({ ...r.site, targetCount: Number(r.targetCount), stationCount: Number(r.stationCount), targetLabels: String(r.targetLabels) }));
 }

@@ -7,12 +7,11 @@ import type { SQLiteTable } from "drizzle-orm/sqlite-core";
 import type { ResultSet } from "@libsql/client";
 import { getDb, type Db } from "~/db/client.server";
 import { isTransientDbError, retryTransient } from "~/db/transient.server";
-import { auditLog, checkSessions, shots, type Role } from "~/db/schema";
+import { auditLog, checkSessions, shots } from "~/db/schema";
 import { airState, DomainError } from "~/domain";
 import {
   computeShotRecord,
-  impliedProjectsOf,
-  impliedProjectsQuery,
+  holdingProjectsQuery,
   inIds,
   pairKey,
   registryContextOf,
@@ -24,7 +23,8 @@ import { type RecordError, type SyncResult, type SyncSession } from "./sync-sche
 import { syncPool } from "./sync-pool.server";
 import { conflict, internalErrors, shotStage, validateRecords, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
 
-export type SyncActor = { id: string; role: Role };
+import type { Actor } from "./actor";
+import { inScope, scopeOf, type Scope } from "./scope.server";
 
 /**
  * Idempotency lives in the database, not in this process: several app instances (and a libSQL
@@ -160,7 +160,48 @@ async function writeOneAtATime(
   return { sessions, shots: stored };
 }
 
-export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb()): Promise<Answer> {
+type Holder = { projectId: string; name: string; retiredAt: string | null };
+
+/**
+ * issue 14 (api.md v1.1): the project a new session belongs to. A given projectId must be a
+ * project of the syncing user that lists both the sensor and the site; without one, it is
+ * implied when the sensor and site share exactly one of the user's live projects. Otherwise
+ * the session is refused on path projectId, saying what to do.
+ */
+function sessionProject(s: SyncSession, holders: Holder[], known: boolean, scope: Scope): { projectId: string } | { error: RecordError } {
+  const mine = holders.filter((h) => inScope(scope, h.projectId));
+  if (s.projectId) {
+    const id = s.projectId;
+    // an unknown project and one the user is not a member of answer alike
+    if (!known || !inScope(scope, id)) {
+      return { error: { path: "projectId", message: scope.all ? `project ${id} is not in the registry` : `project ${id} is not one of your projects (or does not exist): choose one of your projects` } };
+    }
+    if (!holders.some((h) => h.projectId === id)) {
+      return { error: { path: "projectId", message: `project ${id} does not list both this session's sensor and its site: choose the project that uses them, or ask an admin to add them to it` } };
+    }
+    return { projectId: id };
+  }
+  const live = mine.filter((h) => !h.retiredAt);
+  if (live.length === 1) return { projectId: live[0]!.projectId };
+  if (live.length === 0) {
+    return {
+      error: {
+        path: "projectId",
+        message: scope.all
+          ? "no project lists both this session's sensor and its site: add them to a project (admin), then send the session again"
+          : "none of your projects lists both this session's sensor and its site, so the session cannot be stored: check the sensor and site chosen, or ask an admin to add you to their project",
+      },
+    };
+  }
+  return {
+    error: {
+      path: "projectId",
+      message: `the sensor and site are used by several of your projects (${live.map((h) => h.name).sort().join(", ")}): choose the project of this session`,
+    },
+  };
+}
+
+export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()): Promise<Answer> {
   // 1. The envelope, then each record on its own (zod, canonical raw): off this thread.
   const pool = syncPool();
   const v: Validated = pool ? await pool.run(body, { name: "validate" }) : await validateRecords(body, yieldToLoop);
@@ -168,6 +209,8 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
   const { deviceId, sessionRecs, shotRecs } = v;
 
   return retryTransient(async () => {
+    // issue 14: the syncing user's projects (admins: all)
+    const scope = await scopeOf(actor, db);
     // 2. What is stored already, and the registry rows the computation needs: one batch (one
     //    read transaction, one round trip). The registry of sessions stored earlier comes by
     //    their ids; the projects of the new sessions' sensors come along for implied projects.
@@ -177,7 +220,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
     const shotIds = [...new Set(shotRecs.flatMap((s) => (s.value ? [s.value.id] : [])))];
     const incoming = sessionRecs.flatMap((s) => (s.value ? [s.value] : []));
     const impliedNeed = incoming.filter((s) => !s.projectId).map((s) => ({ sensorId: s.sensorId, siteId: s.siteId }));
-    const [storedSessions, storedShots, impliedRows, ...registry] = await db.batch([
+    const [storedSessions, storedShots, holderRows, ...registry] = await db.batch([
       db
         .select({
           id: checkSessions.id,
@@ -193,7 +236,7 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
         .from(checkSessions)
         .where(inIds(checkSessions.id, sessionIds)),
       db.select({ id: shots.id, raw: shots.raw }).from(shots).where(inIds(shots.id, shotIds)),
-      impliedProjectsQuery(impliedNeed, db),
+      holdingProjectsQuery(incoming, db),
       ...registryQueries(
         {
           sensorIds: incoming.map((s) => s.sensorId),
@@ -208,7 +251,12 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
     ]);
     const storedSession = new Map(storedSessions.map((s) => [s.id, s]));
     const storedShot = new Map(storedShots.map((s) => [s.id, s.raw]));
-    const implied = impliedProjectsOf(impliedRows);
+    const holders = new Map<string, Holder[]>();
+    for (const h of holderRows) {
+      const k = pairKey(h.sensorId, h.siteId);
+      if (!holders.has(k)) holders.set(k, []);
+      holders.get(k)!.push({ projectId: h.projectId, name: h.name, retiredAt: h.retiredAt });
+    }
     const ctx = registryContextOf(registry);
 
     const receivedAt = new Date().toISOString();
@@ -219,6 +267,8 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
     /** Session facts a shot of this batch may use: stored ones and the ones accepted now. */
     const usable = new Map<string, SessionFacts>();
     for (const s of storedSessions) {
+      // issue 14: a stored session outside the user's projects takes no shots from them (unknown to them)
+      if (!inScope(scope, s.projectId)) continue;
       usable.set(s.id, {
         id: s.id,
         sensorId: s.sensorId,
@@ -258,7 +308,13 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
           });
         }
         if (!ctx.sites.has(s.siteId)) errors.push({ path: "siteId", message: `site ${s.siteId} is not in the registry` });
-        if (s.projectId && !ctx.rules.has(s.projectId)) errors.push({ path: "projectId", message: `project ${s.projectId} is not in the registry` });
+        // issue 14: the session's project (given or implied), checked against the user's projects
+        let projectId: string | null = null;
+        if (sensor && ctx.sites.has(s.siteId)) {
+          const p = sessionProject(s, holders.get(pairKey(s.sensorId, s.siteId)) ?? [], !s.projectId || ctx.rules.has(s.projectId), scope);
+          if ("error" in p) errors.push(p.error);
+          else projectId = p.projectId;
+        }
         const air = { airTempC: s.airTempC, pressureHpa: s.pressureHpa, humidityPct: s.humidityPct };
         if (sensor) {
           try {
@@ -272,7 +328,6 @@ export async function ingestSync(actor: SyncActor, body: unknown, db: Db = getDb
           reject(errors);
           continue;
         }
-        const projectId = s.projectId || implied.get(pairKey(s.sensorId, s.siteId)) || null;
         seenSessions.set(s.id, rec.raw);
         usable.set(s.id, { id: s.id, sensorId: s.sensorId, siteId: s.siteId, projectId, air });
         sessionRows.push({

@@ -13,7 +13,7 @@ export const meta: Route.MetaFunction = () => [{ title: "Sensors — Shotbook" }
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const includeRetired = new URL(request.url).searchParams.get("retired") === "show";
-  const [rows, all] = await Promise.all([listSensors({ includeRetired }), listSensors({ includeRetired: true })]);
+  const [rows, all] = await Promise.all([listSensors(user, { includeRetired }), listSensors(user, { includeRetired: true })]);
   const { flash, headers } = await takeFlash(request);
   return data(
     {

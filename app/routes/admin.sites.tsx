@@ -12,7 +12,7 @@ export const meta: Route.MetaFunction = () => [{ title: "Sites — Shotbook" }];
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const includeRetired = new URL(request.url).searchParams.get("retired") === "show";
-  const [rows, all] = await Promise.all([listSites({ includeRetired }), listSites({ includeRetired: true })]);
+  const [rows, all] = await Promise.all([listSites(user, { includeRetired }), listSites(user, { includeRetired: true })]);
   const { flash, headers } = await takeFlash(request);
   return data(
     {

@@ -38,5 +38,8 @@ export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireApiUser(request);
   const shotId = new URL(request.url).searchParams.get("shotId");
   if (!shotId) return Response.json({ error: "Give shotId.", errors: [{ path: "shotId", message: "shotId is required" }] }, { status: 400 });
-  return Response.json({ photos: await listPhotos(user, shotId) }, { headers: { "Cache-Control": "private, no-store" } });
+  const list = await listPhotos(user, shotId);
+  // issue 14: an unknown shot and one outside the reader's projects answer alike
+  if (!list) return Response.json({ error: `No shot ${shotId}.` }, { status: 404 });
+  return Response.json({ photos: list }, { headers: { "Cache-Control": "private, no-store" } });
 }

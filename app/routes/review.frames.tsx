@@ -17,8 +17,8 @@ import { depthFromCorrelation, type Intrinsics } from "~/domain";
 export const meta: Route.MetaFunction = () => [{ title: "Check-shots from depth frames · Shotbook" }];
 
 export async function loader({ request }: Route.LoaderArgs) {
-  await requireRole(request, FIELD);
-  return scanImportContext();
+  const user = await requireRole(request, FIELD);
+  return scanImportContext(user);
 }
 
 type Frame = { width: number; height: number; zM: Float64Array };

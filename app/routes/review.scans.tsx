@@ -14,8 +14,8 @@ import { dateTime } from "~/components/review/format";
 export const meta: Route.MetaFunction = () => [{ title: "Check-shots from a scan · Shotbook" }];
 
 export async function loader({ request }: Route.LoaderArgs) {
-  await requireRole(request, FIELD);
-  return scanImportContext();
+  const user = await requireRole(request, FIELD);
+  return scanImportContext(user);
 }
 
 type Phase = "idle" | "uploading" | "working" | "done";

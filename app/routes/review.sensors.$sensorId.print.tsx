@@ -28,7 +28,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const [rc, signOffs, projects, extras] = await Promise.all([
     reportWithCells(user, params.sensorId, q),
     listSignOffs(user, params.sensorId, 5),
-    listProjectsForFilter(),
+    listProjectsForFilter(user),
     shotExtras(user, params.sensorId),
   ]);
   if (!rc) throw new Response("There is no sensor with this id.", { status: 404 });

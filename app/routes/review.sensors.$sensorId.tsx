@@ -29,7 +29,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   if (!head) throw new Response("There is no sensor with this id.", { status: 404 });
   const canReview = REVIEWERS.includes(user.role);
   const [projects, signOffs, extras, reshoots, reshootOptions] = await Promise.all([
-    listProjectsForFilter(),
+    listProjectsForFilter(user),
     listSignOffs(user, params.sensorId),
     shotExtras(user, params.sensorId),
     listReshoots(user, params.sensorId),

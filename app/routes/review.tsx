@@ -27,7 +27,7 @@ export function parseFilters(url: URL) {
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const filters = parseFilters(new URL(request.url));
-  const [rows, projects, reportList] = await Promise.all([reviewOverview(user, filters), listProjectsForFilter(), reportProjects(user)]);
+  const [rows, projects, reportList] = await Promise.all([reviewOverview(user, filters), listProjectsForFilter(user), reportProjects(user)]);
   return { rows, projects, reportList, filters, canImport: user.role !== "viewer", today: new Date().toISOString().slice(0, 10) };
 }
 

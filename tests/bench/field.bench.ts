@@ -101,6 +101,7 @@ export async function run(): Promise<string[]> {
     const sensor = await fx.makeSensor({ label: "Bench roof scanner" });
     const site = await fx.makeSite({ targets: [{ reflectancePct: 10, referenceM: 12.5 }, { reflectancePct: 50, referenceM: 25 }, { reflectancePct: 85, referenceM: 40 }] });
     await fx.makeTape();
+    await fx.shareProject([sensor], [site], [crew]); // issue 14
     const { cookie } = await createAuthSession({ id: crew.id, role: "crew" });
 
     const port = await freePort();

@@ -162,6 +162,7 @@ export async function run(): Promise<string[]> {
     const sensor = await fx.makeSensor({ label: "Bench roof scanner" });
     const loadSensor = await fx.makeSensor({ label: "Bench tripod scanner" });
     const site = await fx.makeSite({ targets: [{ reflectancePct: 10 }, { reflectancePct: 50 }, { reflectancePct: 85 }, { reflectancePct: 90, retro: true }] });
+    await fx.shareProject([sensor, loadSensor], [site], [crew]); // issue 14
     const tape = await fx.makeTape();
     const w: World = { sensorId: sensor.id, siteId: site.id, targetIds: site.targets.map((t: { id: string }) => t.id), tapeId: tape.id };
     const rnd = prng(7);

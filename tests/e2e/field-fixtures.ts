@@ -7,7 +7,7 @@ export type FieldWorld = Awaited<ReturnType<typeof fieldWorld>>;
 
 export async function fieldWorld(tag: string) {
   useServerEnv();
-  const { makeSensor, makeSite, makeTape, makeProject, addMembers } = await import("../support/registry-fixtures");
+  const { makeSensor, makeSite, makeTape } = await import("../support/registry-fixtures");
   const sensor = await makeSensor({ label: `Roof scanner ${tag}`, kind: "pulsed", wavelengthNm: 905, toleranceMm: 5, tolerancePpm: 10, appliesAirCorrection: true });
   const site = await makeSite({
     name: `Fernhollow yard ${tag}`,
@@ -20,10 +20,22 @@ export async function fieldWorld(tag: string) {
   });
   const other = await makeSite({ name: `Roadside range ${tag}`, targets: [{ label: "Far board", reflectancePct: 85, referenceM: 60 }] });
   const tape = await makeTape({ label: `Steel tape 50 m ${tag}` });
-  // Sessions belong to a project holding both the sensor and the site (issue 14): one, so the tablet implies it.
-  const project = await makeProject({ name: `River valley corridor ${tag}`, sensorIds: [sensor.id], siteIds: [site.id, other.id] });
-  await addMembers(project.id, ["crew@e2e.test", "qa@e2e.test"]);
+  const project = await e2eProject(tag, [sensor.id], [site.id, other.id]);
   return { sensor, site, other, tape, project };
+}
+
+/**
+ * issue 14: a project listing these sensors and sites whose members are the e2e crew, QA and
+ * viewer (the admin sees every project), so their tablets and screens see its records.
+ */
+export async function e2eProject(tag: string, sensorIds: string[], siteIds: string[]) {
+  useServerEnv();
+  const { makeProject } = await import("../support/registry-fixtures");
+  const { getDb } = await import("~/db/client.server");
+  const { users } = await import("~/db/schema");
+  const { inArray } = await import("drizzle-orm");
+  const members = await getDb().select({ id: users.id }).from(users).where(inArray(users.email, ["crew@e2e.test", "qa@e2e.test", "viewer@e2e.test"]));
+  return makeProject({ name: `E2E project ${tag}`, sensorIds, siteIds, memberIds: members.map((m) => m.id) });
 }
 
 /** Sessions in the e2e database's checkSessions table by id (what the server keeps). */

@@ -18,6 +18,8 @@ beforeAll(async () => {
   const site = await fx.makeSite({ name: "Fernhollow quarry range", targets: [{ label: "Board A", reflectancePct: 50 }] });
   sensorId = sensor.id;
   siteId = site.id;
+  const { e2eProject } = await import("./field-fixtures");
+  await e2eProject("import", [sensorId], [siteId]); // issue 14
   browser = await launchBrowser();
 });
 afterAll(async () => {

@@ -127,6 +127,10 @@ async function addRoadsideShots() {
   const at = { lat: YARD.lat, lon: YARD.lon + 0.03, h: 50 };
   const board = { lat: at.lat + 3 / 110_574, lon: at.lon, h: 50 };
   const site = await makeSite({ name: "Valley road test range", stations: [{ label: "V1", geo: at }], targets: [{ label: "Roadside board", reflectancePct: 85, geo: board }] });
+  // issue 14: the world's project uses this range too, so the session implies it
+  const { getDb } = await import("~/db/client.server");
+  const { projectSites } = await import("~/db/schema");
+  await getDb().insert(projectSites).values({ projectId: w.project.id, siteId: site.id });
   const sessionId = crypto.randomUUID();
   const answer = await ingestSync(w.users.crew, {
     deviceId: "tablet-roadside",

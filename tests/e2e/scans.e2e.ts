@@ -47,6 +47,10 @@ beforeAll(async () => {
   });
   const camera = await makeSensor({ label: "Depth camera DC-1", intrinsics: { fx: cam.fx, fy: cam.fy, cx: cam.cx, cy: cam.cy }, depthScaleMm: 0.25, appliesAirCorrection: true });
   const lab = await makeSite({ name: "Fernhollow lab wall", targets: [{ label: "Wall board", reflectancePct: 85, referenceM: 3 }] });
+  // issue 14: each session's sensor and site share one project of the crew's
+  const { makeProject } = await import("../support/registry-fixtures");
+  await makeProject({ name: "Scan workspace", sensorIds: [scanner.id], siteIds: [site.id], memberIds: [crew.id] });
+  await makeProject({ name: "Lab workspace", sensorIds: [camera.id], siteIds: [lab.id], memberIds: [crew.id] });
   const sessionId = crypto.randomUUID();
   const camSessionId = crypto.randomUUID();
   const res = await ingestSync({ id: crew.id, role: "crew" }, {

@@ -27,6 +27,8 @@ beforeAll(async () => {
   const site = await fx.makeSite({ name: "E2E yard baseline", targets: [{ label: "grey board", reflectancePct: 50 }] });
   sensorId = sensor.id;
   siteId = site.id;
+  const { e2eProject } = await import("./field-fixtures");
+  await e2eProject("sync", [sensorId], [siteId]); // issue 14
   targetId = site.targets[0]!.id;
   const [crew] = await getDb().select({ id: users.id }).from(users).where(eq(users.email, "crew@e2e.test"));
   token = (await createApiToken(crew!.id, "e2e sync")).token;

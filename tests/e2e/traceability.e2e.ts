@@ -15,7 +15,7 @@ const SHOT_DIR = process.env.SHOT_DIR ?? "/tmp";
 beforeAll(async () => {
   browser = await launchBrowser();
   useServerEnv();
-  const { makeSensor, makeSite, makeProject, addMembers } = await import("../support/registry-fixtures");
+  const { makeSensor, makeSite } = await import("../support/registry-fixtures");
   late = await makeSensor({
     label: "Tripod scanner TS-9 (lapsed)",
     wavelengthNm: 1550,
@@ -27,9 +27,8 @@ beforeAll(async () => {
   });
   current = await makeSensor({ label: "Roof scanner RS-2 (current)", laserClass: "1", certNumber: "EML-S-2099-0001", certIssued: "2026-01-01", certDue: "2099-12-31" });
   site = await makeSite({ name: "Fernhollow yard (traceability)", targets: [{ label: "Grey board", reflectancePct: 50, referenceM: 25 }] });
-  // A session starts only inside a project holding its sensor and site (issue 14).
-  const project = await makeProject({ name: "Fernhollow traceability checks", sensorIds: [late.id, current.id], siteIds: [site.id] });
-  await addMembers(project.id, ["crew@e2e.test"]);
+  const { e2eProject } = await import("./field-fixtures");
+  await e2eProject("traceability", [late.id, current.id], [site.id]); // issue 14
 });
 afterAll(async () => {
   await browser?.close();

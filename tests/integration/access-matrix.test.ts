@@ -1,8 +1,10 @@
 // The role × route matrix, checked against the real route config: every route file in
 // app/routes.ts must be listed in ACCESS, and for every route × method × role (and anonymous)
 // the real loader/action answers exactly as ACCESS says. A new route cannot skip the check.
-import { existsSync } from "node:fs";
-import { resolve } from "node:path";
+import { createHash } from "node:crypto";
+import { existsSync, mkdtempSync, rmSync, writeFileSync } from "node:fs";
+import { tmpdir } from "node:os";
+import { join, resolve } from "node:path";
 import { beforeAll, expect, test } from "vitest";
 import routes from "~/routes";
 import { ACCESS, type Allowed } from "~/auth/access";
@@ -10,6 +12,9 @@ import { createAuthSession } from "~/auth/session.server";
 import { getDb } from "~/db/client.server";
 import { ROLES, users, type Role } from "~/db/schema";
 import { answerOf, args, type Answer } from "./auth-helpers";
+import { ingestSync } from "~/models/sync.server";
+import { savePhoto } from "~/models/photos.server";
+import { makeProject, makeSensor, makeSite } from "../support/registry-fixtures";
 
 type Entry = { file: string; path?: string; index?: boolean; children?: Entry[] };
 /** A route with its full path and its layouts, nearest last. */
@@ -161,6 +166,136 @@ for (const route of FLAT) {
         } else if (a.status !== 403) {
           problems.push(`${where}, expected 403`);
         }
+      }
+    }
+    expect(problems).toEqual([]);
+  });
+}
+
+// ---------------------------------------------------------------------------------------------
+// issue 14: the membership dimension. The matrix users of qa, crew and viewer are members of
+// project A only; project B holds the same kinds of records (sensor, site, session, shot,
+// photo). For every route that takes a sensor, shot or photo id, and for every list filtered by
+// a sensor, session, shot or project id, each role that ACCESS allows gets: with A's record an
+// answer (not 404, 401, 403 or 5xx); with B's record — as a non-member — exactly the answer of
+// an unknown id (same status, same body), a 404 for every read. The admin (no membership rows)
+// gets B's records too.
+
+type Kind = "sensor" | "shot" | "photo" | "session" | "project";
+type Side = { sensor: string; site: string; session: string; shot: string; photo: string; project: string };
+const sides: { A?: Side; B?: Side } = {};
+
+async function sideWorld(name: string, memberIds: string[], admin: { id: string; role: Role }): Promise<Side> {
+  const sensor = await makeSensor({ label: `Scanner of ${name}` });
+  const site = await makeSite({ name: `Yard of ${name}` });
+  const project = await makeProject({ name, sensorIds: [sensor.id], siteIds: [site.id], memberIds });
+  const session = crypto.randomUUID();
+  const shot = crypto.randomUUID();
+  const out = await ingestSync(admin, {
+    deviceId: `matrix-${name}`,
+    sessions: [{ id: session, sensorId: sensor.id, siteId: site.id, startedAt: "2026-05-04T08:00:00+02:00" }],
+    shots: [
+      {
+        id: shot,
+        sessionId: session,
+        takenAt: "2026-05-04T08:10:00+02:00",
+        reference: { method: "edm", distanceM: 20 },
+        readings: { rangesM: [20.002] },
+        reflectancePct: 50,
+        illuminanceKlux: 20,
+        position: { lat: 10, lon: -30, accuracyM: 3 },
+      },
+    ],
+  });
+  expect(JSON.stringify(out.body), JSON.stringify(out.body)).not.toContain("rejected");
+  const dir = mkdtempSync(join(tmpdir(), "matrix-photo-"));
+  const file = join(dir, "p.png");
+  writeFileSync(file, PNG);
+  const saved = await savePhoto(admin, shot, { path: file, bytes: PNG.length, sha256: createHash("sha256").update(PNG).digest("hex"), type: "image/png" });
+  rmSync(dir, { recursive: true, force: true });
+  const photo = (saved.body as { photo: { id: string } }).photo.id;
+  return { sensor: sensor.id, site: site.id, session, shot, photo, project: project.id };
+}
+
+const PNG = Buffer.from("iVBORw0KGgoAAAANSUhEUgAAAAIAAAACCAYAAABytg0kAAAAEklEQVR4AWIyXlX+H4SZGKAAAAAA///5ejD3AAAABklEQVQDADzYBKuqbfebAAAAAElFTkSuQmCC", "base64");
+
+beforeAll(async () => {
+  const admin = { id: userIds.get("admin")!, role: "admin" as const };
+  const members = (["qa", "crew", "viewer"] as const).map((r) => userIds.get(r)!);
+  sides.A = await sideWorld("Matrix project A", members, admin);
+  sides.B = await sideWorld("Matrix project B", [], admin);
+});
+
+const PARAM_KIND: Record<string, Kind> = { sensorId: "sensor", shotId: "shot", photoId: "photo" };
+
+/** The cases: a route file, the URL with `{id}` where the record's id goes, and its kind. */
+type Case = { file: string; url: string; kind: Kind; params: (id: string) => Record<string, string> };
+const CASES: Case[] = [
+  ...FLAT.flatMap((r): Case[] => {
+    const segs = r.path.split("/");
+    const named = segs.map((s) => s.match(/^:(\w+)/)?.[1]).filter((n): n is string => !!n);
+    if (named.length !== 1 || !PARAM_KIND[named[0]!]) return [];
+    const name = named[0]!;
+    return [{ file: r.file, url: r.path.replace(`:${name}`, "{id}"), kind: PARAM_KIND[name]!, params: (id) => ({ [name]: id }) }];
+  }),
+  // lists filtered by an id (api.md v1.1: such an id, or an unknown one, answers 404)
+  { file: "routes/api.shots.ts", url: "/api/shots?sensor={id}", kind: "sensor", params: () => ({}) },
+  { file: "routes/api.shots.ts", url: "/api/shots?session={id}", kind: "session", params: () => ({}) },
+  { file: "routes/api.shots.ts", url: "/api/shots?project={id}", kind: "project", params: () => ({}) },
+  { file: "routes/api.shots[.]geojson.ts", url: "/api/shots.geojson?sensor={id}", kind: "sensor", params: () => ({}) },
+  { file: "routes/api.shots[.]geojson.ts", url: "/api/shots.geojson?session={id}", kind: "session", params: () => ({}) },
+  { file: "routes/api.photos.ts", url: "/api/photos?shotId={id}", kind: "shot", params: () => ({}) },
+  { file: "routes/api.sensors.ts", url: "/api/sensors?project={id}", kind: "project", params: () => ({}) },
+  { file: "routes/review.tsx", url: "/review?project={id}", kind: "project", params: () => ({}) },
+];
+
+test("the membership cases cover every object kind, including photos by id and the exports", () => {
+  const files = new Set(CASES.map((c) => c.file));
+  for (const f of [
+    "routes/api.photos.$photoId.ts",
+    "routes/api.sensors.$sensorId.report.ts",
+    "routes/api.sensors.$sensorId.report[.]csv.ts",
+    "routes/review.sensors.$sensorId.print.tsx",
+    "routes/review.sensors.$sensorId.map.tsx",
+    "routes/api.shots.$shotId.exclusion.ts",
+    "routes/api.shots[.]geojson.ts",
+  ]) {
+    expect(files, `${f} has no membership case`).toContain(f);
+  }
+  expect(new Set(CASES.map((c) => c.kind))).toEqual(new Set(["sensor", "shot", "photo", "session", "project"]));
+});
+
+const masked = (a: Answer, id: string) => ({ status: a.status, body: JSON.stringify(a.body ?? null).split(id).join("{id}") });
+
+for (const c of CASES) {
+  test(`${c.url} (${c.file}): a member gets their project's ${c.kind}; a non-member gets exactly the unknown id's answer`, async () => {
+    const access = ACCESS[c.file]!;
+    const mod = await load(c.file);
+    const api = c.url.startsWith("/api/");
+    const problems: string[] = [];
+    for (const method of METHODS) {
+      const allowed = access[method];
+      const fn = method === "GET" ? mod.loader : mod.action;
+      if (!allowed || allowed === "public" || !fn) continue;
+      for (const role of allowed) {
+        const ask = async (id: string) => {
+          const url = c.url.replace("{id}", id);
+          const request = requestFor(method, url, api, (await cookieFor(role))!);
+          return answerOf(() => fn(args(request, c.params(id))));
+        };
+        const unknown = await ask(MADE_UP_ID);
+        const mine = await ask(sides.A![c.kind]);
+        const theirs = await ask(sides.B![c.kind]);
+        const where = `${method} ${c.url} as ${role}`;
+        if (mine.status === 404 || mine.status === 401 || mine.status === 403 || mine.status >= 500) problems.push(`${where} with a record of their project: ${mine.status}`);
+        if (role === "admin") {
+          if (theirs.status === 404 || theirs.status >= 500) problems.push(`${where}: the admin got ${theirs.status} for another project's record`);
+          continue;
+        }
+        if (method === "GET" && unknown.status !== 404) problems.push(`${where} with an unknown id: ${unknown.status}, expected 404`);
+        const t = masked(theirs, sides.B![c.kind]);
+        const u = masked(unknown, MADE_UP_ID);
+        if (t.status !== u.status || t.body !== u.body) problems.push(`${where} as a non-member: ${t.status} ${t.body.slice(0, 120)} — an unknown id gives ${u.status} ${u.body.slice(0, 120)}`);
       }
     }
     expect(problems).toEqual([]);

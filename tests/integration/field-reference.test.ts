@@ -6,7 +6,7 @@ import { getDb } from "~/db/client.server";
 import { sensors } from "~/db/schema";
 import { eq } from "drizzle-orm";
 
-test("a crew member gets every active sensor, site (stations, targets), tape and project rule, and who they are", async () => {
+test("a crew member gets their project's active sensors, sites (stations, targets), the tapes and the project rule, and who they are", async () => {
   const crew = await makeUser("crew");
   const sensor = await makeSensor({ label: "Tripod scanner T2", kind: "cw", modulationHz: [20e6, 2.5e6] });
   const retired = await makeSensor({ label: "Old scanner" });
@@ -17,7 +17,7 @@ test("a crew member gets every active sensor, site (stations, targets), tape and
     targets: [{ label: "Dark board", reflectancePct: 10, referenceM: 12.5, geo: { lat: 10, lon: -30, h: 50 } }],
   });
   const tape = await makeTape({ label: "Steel tape 30 m" });
-  const project = await makeProject({ sensorIds: [sensor.id], siteIds: [site.id], minShots: 30, coverageK: 2.5 });
+  const project = await makeProject({ sensorIds: [sensor.id], siteIds: [site.id], minShots: 30, coverageK: 2.5, memberIds: [crew.id] });
 
   const res = await call(loader as never, apiRequest("/api/field/reference", { user: crew }));
   expect(res.status).toBe(200);

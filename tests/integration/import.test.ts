@@ -8,7 +8,7 @@ import { importMappings, shots } from "~/db/schema";
 import * as importPage from "~/routes/review.import";
 import * as chunkRoute from "~/routes/review.import.chunk";
 import { guessMapping, mapRow, parseNumber, parseTime, type ImportMapping } from "~/components/review/import-rows";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 let crew: TestUser;
 let viewer: TestUser;
@@ -25,6 +25,7 @@ beforeAll(async () => {
       { label: "W85", reflectancePct: 85 },
     ],
   });
+  await shareProject([sensor], [site], [crew, viewer]); // issue 14
 });
 
 // A sensor's own export, invented: its headers, a decimal comma in one row, mm ranges.

@@ -13,7 +13,7 @@ import { loader as photoLoader } from "~/routes/api.photos.$photoId";
 import { action as syncAction } from "~/routes/api.sync";
 import { getEnv, resetEnvCache } from "~/env.server";
 import { parseStorageUrl } from "~/storage/url";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 import { freePort } from "../support/ports";
 
 // a 1×1 PNG (written by Chromium's canvas encoder)
@@ -39,6 +39,7 @@ beforeAll(async () => {
   resetEnvCache();
   crew = await makeUser("crew");
   const [sensor, site] = await Promise.all([makeSensor(), makeSite()]);
+  await shareProject([sensor], [site], [crew]); // issue 14
   const sessionId = crypto.randomUUID();
   shotId = crypto.randomUUID();
   const a = await call(

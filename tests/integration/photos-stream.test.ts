@@ -12,7 +12,7 @@ import { photoMaxBytes } from "~/models/photos.server";
 import { action as photoAction } from "~/routes/api.photos";
 import { action as syncAction } from "~/routes/api.sync";
 import { getEnv } from "~/env.server";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 const CHUNK = 4096;
 const HUGE = 300 * 1024 * 1024;
@@ -31,6 +31,7 @@ beforeAll(async () => {
   process.env.TMPDIR = tmp;
   crew = await makeUser("crew");
   const [sensor, site] = await Promise.all([makeSensor(), makeSite()]);
+  await shareProject([sensor], [site], [crew]); // issue 14
   const sessionId = crypto.randomUUID();
   shotId = crypto.randomUUID();
   const a = await call(

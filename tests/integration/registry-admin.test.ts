@@ -27,7 +27,7 @@ import * as projectNew from "~/routes/admin.projects.new";
 import * as projectEdit from "~/routes/admin.projects.$projectId";
 import * as projectList from "~/routes/admin.projects";
 import { answerOf } from "./auth-helpers";
-import { makeUser, type TestUser } from "../support/registry-fixtures";
+import { makeUser, type TestUser, shareProject, addMemberUsers } from "../support/registry-fixtures";
 
 const uid = () => crypto.randomUUID();
 
@@ -146,6 +146,7 @@ test("editing a sensor's tolerance saves, lands in the audit trail and recompute
   const s = await ok(createSensor(null, { label: "Roof scanner R9", serial: `FH-${uid()}`, kind: "pulsed", wavelengthNm: 905, appliesAirCorrection: true, toleranceMm: 5, tolerancePpm: 10 }));
   const site = await ok(createSite("system", { name: `Yard ${uid()}`, targets: [{ label: "T1", reflectancePct: 50 }] }));
   const sensorId = s.body.id;
+  await shareProject([{ id: sensorId }], [{ id: site.body.id }], [crew]); // issue 14
   const sessionId = uid();
   const shotId = uid();
   const sync = await ingestSync(crew, {
@@ -399,6 +400,7 @@ test("changing a project's coverage factor recomputes the limits of its shots (L
   const p = await ok(createProject(null, { id: `prj-${uid()}`, name: "Valley road", sensorIds: [s.body.id], siteIds: [site.body.id] }));
   expect(p.status).toBe(201);
   const projectId = p.body.id;
+  await addMemberUsers(projectId, [crew]); // issue 14
   const sessionId = uid();
   const shotId = uid();
   await ingestSync(crew, {

@@ -18,7 +18,7 @@ import { createSignOff } from "~/models/signoffs.server";
 import { action as syncAction } from "~/routes/api.sync";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
 import { action as exclusionAction } from "~/routes/api.shots.$shotId.exclusion";
-import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
 import { tempMailDir } from "./auth-helpers";
 
 const A_TOL = 1; // mm
@@ -120,9 +120,7 @@ beforeAll(async () => {
   const site = await makeSite({ targets: [{ reflectancePct: 50 }] });
   siteId = site.id;
   // the one project listing the sensor and the site: its rule judges the report
-  projectId = (await makeProject({ sensorIds: [sensorId], siteIds: [siteId], minShots: 4, coverageK: 2, minWithinPct: 50 })).id;
-  // api.md v1.1: the QA reader is a member of it (the sessions are implied into it)
-  await addMemberIds(projectId, qa.id);
+  projectId = (await makeProject({ sensorIds: [sensorId], siteIds: [siteId], minShots: 4, coverageK: 2, minWithinPct: 50, memberIds: [crew.id, qa.id] })).id;
   // session A reads about 3 mm long, session B about 3 mm short
   await sync(
     [

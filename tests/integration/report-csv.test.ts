@@ -5,7 +5,7 @@ import { beforeAll, expect, test } from "vitest";
 import Papa from "papaparse";
 import { action as syncAction } from "~/routes/api.sync";
 import { loader as csvLoader } from "~/routes/api.sensors.$sensorId.report[.]csv";
-import { makeProject, addMemberIds, apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 let viewer: TestUser;
 let sensorId: string;
@@ -16,8 +16,7 @@ beforeAll(async () => {
   viewer = await makeUser("viewer");
   sensorId = (await makeSensor({ label: "Roof scanner R1 / 905" })).id;
   const site = await makeSite({ targets: [{ label: "=HYPERLINK(\"http://x.invalid\")", reflectancePct: 10 }] });
-  // api.md v1.1: the session is implied into the one project of the sensor and site; the viewer is a member
-  await addMemberIds((await makeProject({ sensorIds: [sensorId], siteIds: [site.id] })).id, viewer.id);
+  await shareProject([{ id: sensorId }], [site], [crew, viewer]); // issue 14
   const sessionId = crypto.randomUUID();
   const notes = ["=1+2", "+49 tablet", "-mud on the board", "@SUM(A1)", "plain note"];
   const shots = notes.map((note, i) => {

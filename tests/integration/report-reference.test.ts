@@ -47,7 +47,7 @@ beforeAll(async () => {
       { label: "T40", reflectancePct: 50, grid: { e: 1000, n: 2040, h: 100 } }, // no σ: unknown
     ],
   });
-  const project = await makeProject({ sensorIds: [sensorId], siteIds: [site.id], minShots: 3, statement: "nssda95", edmUncertaintyMm: 2, edmUncertaintyPpm: 1 });
+  const project = await makeProject({ sensorIds: [sensorId], siteIds: [site.id], minShots: 3, statement: "nssda95", edmUncertaintyMm: 2, edmUncertaintyPpm: 1, memberIds: [crew.id, viewer.id] });
   projectId = project.id;
   await addMemberIds(projectId, viewer.id); // api.md v1.1: a member sees the project's sessions
   const edm = await call(
@@ -186,8 +186,7 @@ test("traceability lists the sensor, the tape and the EDM, with the sessions pas
 });
 
 test("a rule with the reference in the verdict holds a pass back when the reference is unknown", async () => {
-  const strict = await makeProject({ sensorIds: [], minShots: 3, referenceInVerdict: true });
-  await addMemberIds(strict.id, viewer.id); // a rule the reader may pick: one of their projects
+  const strict = await makeProject({ sensorIds: [], minShots: 3, referenceInVerdict: true, memberIds: [crew.id, viewer.id] });
   const R = (await report(`?project=${strict.id}`)).json;
   expect(R.tests.find((t: { name: string }) => t.name === "reference").pass).toBeNull();
   expect(R.verdict).toBe("insufficient");

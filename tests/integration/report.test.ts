@@ -8,7 +8,7 @@ import { action as syncAction } from "~/routes/api.sync";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
 import { loader as sensorsLoader } from "~/routes/api.sensors";
 import { action as exclusionAction } from "~/routes/api.shots.$shotId.exclusion";
-import { apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeProject, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 const J = jStat as { studentt: { inv(p: number, df: number): number }; chisquare: { inv(p: number, df: number): number } };
 
@@ -31,6 +31,7 @@ let qa: TestUser;
 let viewer: TestUser;
 let sensorId: string;
 let emptySensorId: string;
+let fixtureProjectId: string;
 const ids: string[] = [];
 const sessionIds = { A: crypto.randomUUID(), B: crypto.randomUUID() };
 
@@ -41,6 +42,8 @@ beforeAll(async () => {
   sensorId = sensor.id;
   emptySensorId = (await makeSensor({ label: "Spare depth camera", kind: "cw", wavelengthNm: 850, modulationHz: [20e6] })).id;
   const site = await makeSite({ targets: [{ reflectancePct: 50 }, { reflectancePct: 90, retro: true }] });
+  // issue 14: the readers are members of the one project using the sensors (its rule is the default)
+  fixtureProjectId = (await shareProject([sensor, { id: emptySensorId }], [site], [crew, qa, viewer])).id;
   const sessions = [
     { id: sessionIds.A, sensorId, siteId: site.id, startedAt: "2026-05-04T08:00:00+02:00", airTempC: 16, pressureHpa: 1008, humidityPct: 70 },
     { id: sessionIds.B, sensorId, siteId: site.id, startedAt: "2026-05-05T09:00:00+02:00" }, // no air: defaults
@@ -152,7 +155,8 @@ test.each(bothPaths)("the report's figures match the ones worked out here from t
   expect(R.zeroOffsetT).toBeCloseTo(t, 6);
   expect(R.zeroOffsetSignificant).toBe(Math.abs(t) > J.studentt.inv(0.975, n - 2));
   expect(R.statement).toBe("rmse");
-  expect(R.ruleProjectId).toBeNull();
+  // api.md v1.1: the rule of the reader's only project holding the sensor (here the default values)
+  expect(R.ruleProjectId).toBe(fixtureProjectId);
   expect(R.traceability).toEqual([]);
 });
 
@@ -247,7 +251,7 @@ test("from/to select by the shot's own date and session picks sessions", async (
 });
 
 test("project picks its rule: limits and within are judged with its coverage factor", async () => {
-  const p = await makeProject({ coverageK: 0.5, minShots: 30, minWithinPct: 90 });
+  const p = await makeProject({ coverageK: 0.5, minShots: 30, minWithinPct: 90, memberIds: [crew.id, qa.id, viewer.id] });
   const R = (await reportWithShots(`?project=${p.id}`)).json;
   expect(R.rule).toMatchObject({ minShots: 30, coverageK: 0.5, minWithinPct: 90 });
   expect(R.ruleProjectId).toBe(p.id);

@@ -15,7 +15,7 @@ import { receiveMultipart } from "~/utils/multipart.server";
 import type { ScanTargetRow as AnswerRow } from "~/contract/scan";
 /** The rows these tests read are found targets: every figure is there. */
 type ScanTargetRow = { [K in keyof AnswerRow]-?: NonNullable<AnswerRow[K]> };
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 import { boardPoints, boardTruth, clutter, correlationPngs, depthPng, lasFile, planeDepth, rng, type Board, type Camera, type V3 } from "../support/scan-fixtures";
 import { lazFile } from "../support/laz-writer";
 
@@ -56,6 +56,9 @@ beforeAll(async () => {
   const cam = await makeSensor({ label: "Depth camera DC-1", intrinsics: { fx: 120, fy: 121, cx: 79.5, cy: 60.2 }, depthScaleMm: 0.25, appliesAirCorrection: true });
   camSite = await makeSite({ name: "Fernhollow lab wall", targets: [{ label: "Wall board", reflectancePct: 85 }] });
   camSessionId = crypto.randomUUID();
+  // issue 14: each session's sensor and site share one project of the crew's
+  await shareProject([sensor], [site], [crew, viewer]);
+  await shareProject([cam], [camSite], [crew, viewer], { name: "Lab workspace" });
   const s = await call(
     syncAction,
     apiRequest("/api/sync", {

@@ -1,6 +1,7 @@
 // The shared builders as test factories: their default bodies pass the real registry and sync,
 // and the invented readings (reported ranges, round-trip times, correlation samples) come back
 // from the server's own corrections at the range they were made for.
+import { shareProject } from "../support/registry-fixtures";
 import { eq } from "drizzle-orm";
 import { beforeAll, expect, test } from "vitest";
 import { getDb } from "~/db/client.server";
@@ -64,6 +65,7 @@ test("readings made for a chosen range come back from the server at that range",
   const pulsedId = idOf(await createSensor(null, pulsed));
   const cwId = idOf(await createSensor(null, cw));
   const siteId = idOf(await createSite(null, buildSiteBody()));
+  await shareProject([{ id: pulsedId }, { id: cwId }], [{ id: siteId }], [crew]); // issue 14
 
   const s1 = buildSessionBody({ sensorId: pulsedId, siteId, ...air });
   const s2 = buildSessionBody({ sensorId: cwId, siteId, ...air });

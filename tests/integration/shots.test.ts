@@ -10,7 +10,7 @@ import { loader as shotsLoader } from "~/routes/api.shots";
 import { loader as geoLoader } from "~/routes/api.shots[.]geojson";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
 import { action as exclusionAction } from "~/routes/api.shots.$shotId.exclusion";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 let crew: TestUser;
 let qa: TestUser;
@@ -28,6 +28,8 @@ beforeAll(async () => {
   [crew, qa, viewer] = await Promise.all([makeUser("crew"), makeUser("qa"), makeUser("viewer")]);
   sensorId = (await makeSensor({ label: "Roof scanner R1", toleranceMm: 2, tolerancePpm: 0 })).id;
   const site = await makeSite();
+  // issue 14: the readers are members of the project the shots belong to
+  await shareProject([{ id: sensorId }], [site], [crew, qa, viewer]);
   const sessionId = crypto.randomUUID();
   const list = Array.from({ length: N }, (_, i) => {
     const id = crypto.randomUUID();

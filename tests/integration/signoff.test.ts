@@ -12,7 +12,7 @@ import * as exclusionApi from "~/routes/api.shots.$shotId.exclusion";
 import { buildSensorReport } from "~/models/reports.server";
 import { notifyFailedVerdicts } from "~/models/signoffs.server";
 import { answerOf, args, mailsTo, tempMailDir } from "./auth-helpers";
-import { apiRequest, call, makeUser } from "../support/registry-fixtures";
+import { addMemberUsers, apiRequest, call, makeUser } from "../support/registry-fixtures";
 import { reviewWorld, type ReviewWorld } from "../support/review-fixtures";
 
 let smtp: FakeSmtp;
@@ -135,6 +135,9 @@ test("a passing sensor is approved without a note; a period approval freezes onl
 
 test("notifyFailedVerdicts mails QA once when a sensor's verdict turns to fail, not again while it stays failed", async () => {
   const qa2 = await makeUser("qa");
+  // issue 14: only QA members of a project of the sensor hear of it
+  await addMemberUsers(w.project.id, [qa2]);
+  const outsider = await makeUser("qa");
   const before = mailsTo(mailDir, qa2.email).length;
   const first = await notifyFailedVerdicts([w.failing.id, w.passing.id]);
   expect(first.notified).toEqual([w.failing.id]);
@@ -147,4 +150,5 @@ test("notifyFailedVerdicts mails QA once when a sensor's verdict turns to fail, 
   expect(second.notified).toEqual([]);
   expect(mailsTo(mailDir, qa2.email).length).toBe(before + 1);
   expect(mailsTo(mailDir, w.users.crew.email).filter((m) => /failed its range check/.test(m.subject))).toHaveLength(0);
+  expect(mailsTo(mailDir, outsider.email)).toHaveLength(0);
 });

@@ -8,7 +8,7 @@ import { checkSessions, shots } from "~/db/schema";
 import { isTransientDbError } from "~/db/transient.server";
 import { ingestSync } from "~/models/sync.server";
 import { action } from "~/routes/api.sync";
-import { apiRequest, call, makeSensor, makeSite, makeUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, shareProject } from "../support/registry-fixtures";
 
 const uid = () => crypto.randomUUID();
 const opened: Db[] = [];
@@ -16,6 +16,7 @@ afterAll(() => opened.forEach((d) => d.$client.close()));
 
 async function world() {
   const [crew, sensor, site] = await Promise.all([makeUser("crew"), makeSensor(), makeSite({ targets: [{ label: "grey", reflectancePct: 18 }] })]);
+  await shareProject([sensor], [site], [crew]); // issue 14
   const s = { id: uid(), sensorId: sensor.id, siteId: site.id, startedAt: "2026-05-04T08:10:00+02:00", airTempC: 18.5, pressureHpa: 1004.2, humidityPct: 62 };
   const shot = (d: number) => ({
     id: uid(),

@@ -11,7 +11,7 @@ import { action } from "~/routes/api.sync";
 import * as chunkRoute from "~/routes/review.import.chunk";
 import { computeShotRecord, shotInsertRow } from "~/models/shots.server";
 import type { ImportMapping } from "~/components/review/import-rows";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 import { airState, C0 } from "~/domain";
 
 // computeShotRecord stays real unless a test makes it throw for one shot
@@ -38,6 +38,7 @@ async function world() {
     makeSensor({ label: "Depth camera DC-3", kind: "cw", wavelengthNm: 850, modulationHz: [20e6, 25e6], appliesAirCorrection: true, toleranceMm: 10, tolerancePpm: 0 }),
     makeSite({ targets: [{ label: "D10", reflectancePct: 10 }] }),
   ]);
+  await shareProject([sensor], [site], [crew]); // issue 14
   return { crew, sensor, site };
 }
 
@@ -154,6 +155,7 @@ test("a malformed body still answers 400 and writes nothing", async () => {
 test("the CSV import chunk rejects an overflowing row with its message and imports the others", async () => {
   const w = await world();
   const sensor = await makeSensor({ label: "Roof scanner R1", kind: "pulsed", appliesAirCorrection: true, toleranceMm: 8, tolerancePpm: 0 });
+  await shareProject([sensor], [w.site], [w.crew], { name: "Import workspace" });
   const mapping: ImportMapping = { takenAt: "Timestamp", target: "Board", distanceM: "Ref dist [m]", rangeM: "Range [m]", _timeOffset: "+02:00" };
   const row = (n: number, range: string) => ({ row: n, id: uid(), values: { Timestamp: `2026-05-06 09:00:${String(n).padStart(2, "0")}`, Board: "D10", "Ref dist [m]": "20.000", "Range [m]": range } });
   const rows = [row(2, "20.003"), row(3, "1e308"), row(4, "20.001"), row(5, "1.5e4"), row(6, "19.998")];

@@ -9,11 +9,11 @@ import { auditLog, checkSessions, sensors, shots } from "~/db/schema";
 import { action } from "~/routes/api.sync";
 import { recomputeShotsForSensor } from "~/models/shots.server";
 import { ingestSync } from "~/models/sync.server";
-import { apiRequest, call, makeProject, makeSensor, makeSite, makeTape, makeUser, type TestUser } from "../support/registry-fixtures";
+import { addMemberUsers, apiRequest, call, makeSensor, makeSite, makeTape, makeUser, shareProject, type TestUser } from "../support/registry-fixtures";
 
 const uid = () => crypto.randomUUID();
 
-async function world(opts: { sensor?: Parameters<typeof makeSensor>[0] } = {}) {
+async function world(opts: { sensor?: Parameters<typeof makeSensor>[0]; project?: Parameters<typeof shareProject>[3] } = {}) {
   const [crew, sensor, site, tape] = await Promise.all([
     makeUser("crew"),
     makeSensor(opts.sensor),
@@ -26,7 +26,9 @@ async function world(opts: { sensor?: Parameters<typeof makeSensor>[0] } = {}) {
     }),
     makeTape(),
   ]);
-  return { crew, sensor, site, tape, dark: site.targets[0]!, retro: site.targets[1]! };
+  // issue 14: the crew's project lists the sensor and the site, so a session implies it
+  const project = await shareProject([sensor], [site], [crew], opts.project);
+  return { crew, sensor, site, tape, project, dark: site.targets[0]!, retro: site.targets[1]! };
 }
 
 function session(w: Awaited<ReturnType<typeof world>>, over: Record<string, unknown> = {}) {
@@ -153,6 +155,7 @@ test("401 without a sign-in, 403 for a viewer; crew, qa and admin may sync", asy
   expect((await call(action, apiRequest("/api/sync", { user: viewer, body: "nonsense" }))).status).toBe(403);
   for (const role of ["crew", "qa", "admin"] as const) {
     const u = await makeUser(role);
+    await addMemberUsers(w.project.id, [u]);
     const s = session(w);
     const a = await sync(u, { deviceId: `tablet-${role}`, sessions: [s] });
     expect(a.status).toBe(200);
@@ -305,8 +308,7 @@ test("zod errors name the field relative to the record, one entry per field", as
 });
 
 test("a session in a project is stored with its rule: the per-shot limit uses that k", async () => {
-  const w = await world();
-  await makeProject({ sensorIds: [w.sensor.id], siteIds: [w.site.id], coverageK: 3 });
+  const w = await world({ project: { coverageK: 3 } });
   const s = session(w);
   const shot = edmShot(s.id, w.dark.id, 100, [100.014]);
   await sync(w.crew, { deviceId: "t", sessions: [s], shots: [shot] });

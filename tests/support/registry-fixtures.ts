@@ -85,7 +85,7 @@ export async function makeSite(opts: { name?: string; targets?: TargetIn[]; stat
 }
 
 export async function makeProject(
-  opts: { sensorIds?: string[]; siteIds?: string[]; minShots?: number; coverageK?: number; minWithinPct?: number; name?: string } & Partial<
+  opts: { sensorIds?: string[]; siteIds?: string[]; memberIds?: string[]; minShots?: number; coverageK?: number; minWithinPct?: number; name?: string } & Partial<
     Pick<typeof projects.$inferInsert, "referenceRatio" | "referenceInVerdict" | "statement" | "edmUncertaintyMm" | "edmUncertaintyPpm">
   > = {},
 ) {
@@ -107,6 +107,8 @@ export async function makeProject(
   await db.insert(projects).values(row);
   for (const sensorId of opts.sensorIds ?? []) await db.insert(projectSensors).values({ projectId: row.id, sensorId });
   for (const siteId of opts.siteIds ?? []) await db.insert(projectSites).values({ projectId: row.id, siteId });
+  // issue 14: members see the project's records (admins see every project without a row)
+  for (const userId of opts.memberIds ?? []) await db.insert(projectMembers).values({ projectId: row.id, userId });
   return row;
 }
 
@@ -116,6 +118,21 @@ export async function addMembers(projectId: string, emails: string[]) {
   const rows = emails.length ? await db.select({ id: users.id }).from(users).where(inArray(users.email, emails)) : [];
   for (const r of rows) await db.insert(projectMembers).values({ projectId, userId: r.id }).onConflictDoNothing();
   return rows.length;
+
+}
+
+/**
+ * issue 14: the project a test world works in — it lists the sensors and sites (so a session
+ * of them implies it) and the users are its members (so they see its records). The rule is the
+ * default of ranging.md §6 unless given.
+ */
+export function shareProject(sensors: { id: string }[], sites: { id: string }[], members: { id: string }[], opts: Parameters<typeof makeProject>[0] = {}) {
+  return makeProject({ name: "Fixture workspace", ...opts, sensorIds: sensors.map((s) => s.id), siteIds: sites.map((s) => s.id), memberIds: members.map((u) => u.id) });
+}
+
+/** issue 14: makes users members of an existing project. */
+export async function addMemberUsers(projectId: string, members: { id: string }[]) {
+  for (const u of members) await getDb().insert(projectMembers).values({ projectId, userId: u.id }).onConflictDoNothing();
 }
 
 /** A Request as a user (bearer token), JSON body when given. */

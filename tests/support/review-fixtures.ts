@@ -3,7 +3,9 @@
 // a yard baseline with geographic positions, one project. Registry rows go in through drizzle
 // (registry-fixtures), field records through the real ingest (ingestSync) as a crew member.
 import { ingestSync } from "~/models/sync.server";
-import { addMemberIds, makeProject, makeSensor, makeSite, makeUser, type TestUser } from "./registry-fixtures";
+import { getDb } from "~/db/client.server";
+import { projectSensors } from "~/db/schema";
+import { makeProject, makeSensor, makeSite, makeUser, type TestUser } from "./registry-fixtures";
 
 const uid = () => crypto.randomUUID();
 
@@ -32,9 +34,13 @@ export async function reviewWorld() {
     ],
   });
   const [dark, grey, white] = site.targets as [(typeof site.targets)[0], (typeof site.targets)[0], (typeof site.targets)[0]];
-  const project = await makeProject({ name: "River valley corridor", sensorIds: [failing.id, passing.id], siteIds: [site.id] });
-  // api.md v1.1: everyone but the admin sees the project's records as a member of it
-  await addMemberIds(project.id, qa.id, crew.id, crew2.id, viewer.id);
+  const project = await makeProject({
+    name: "River valley corridor",
+    sensorIds: [failing.id, passing.id],
+    siteIds: [site.id],
+    // issue 14: everyone but the admin is a member (admins see every project)
+    memberIds: [qa.id, crew.id, crew2.id, viewer.id],
+  });
 
   const sessions: { id: string; sensorId: string; startedAt: string; by: TestUser }[] = [];
   const shots: FixtureShot[] = [];
@@ -117,9 +123,7 @@ export type ReviewWorld = Awaited<ReturnType<typeof reviewWorld>>;
 export async function addWrapSensor(w: ReviewWorld) {
   const { makeSensor } = await import("./registry-fixtures");
   const sensor = await makeSensor({ label: "Depth camera DC-3", kind: "cw", wavelengthNm: 850, modulationHz: [20e6, 25e6], appliesAirCorrection: true, toleranceMm: 10, tolerancePpm: 0 });
-  // api.md v1.1: in the world's project, so its sessions land there and the members see them
-  const { getDb } = await import("~/db/client.server");
-  const { projectSensors } = await import("~/db/schema");
+  // issue 14: the world's project uses it too, so its sessions imply the project
   await getDb().insert(projectSensors).values({ projectId: w.project.id, sensorId: sensor.id });
   // four sessions months apart (two on one January day), so the bias-per-session chart spans a season
   const starts = ["2026-01-12T09:00:00+01:00", "2026-01-12T14:30:00+01:00", "2026-03-03T10:00:00+01:00", "2026-05-06T09:55:00+02:00"];
