@@ -6,7 +6,7 @@ import { parseWithZod } from "@conform-to/zod/v4";
 import { Form, Link, useNavigation } from "react-router";
 import { ROLE_OPTIONS } from "~/auth/schemas";
 import { Field, FieldErrors, Select } from "~/components/forms";
-import { addMemberSchema, inviteMemberSchema, joinProjectSchema } from "~/models/member-schemas";
+import { addMemberSchema, inviteMemberSchema, joinProjectSchema } from "~/components/member-schemas";
 
 type Member = { userId: string; email: string; name: string; role: string; active: boolean; addedAt: string };
 type Result = SubmissionResult<string[]> | null | undefined;

@@ -10,7 +10,7 @@ import { projects, projectSensors, projectSites, reshootRequests, sensors, sites
 import { audit } from "~/models/audit.server";
 import { anyInScope, inScope, scopeOf, type Scope } from "~/models/scope.server";
 import type { Actor } from "~/models/actor";
-import type { ReshootInput } from "~/components/review/reshoot-schema";
+import type { ReshootInput } from "~/contract/reshoot";
 import type { RefReshoot } from "~/offline/types";
 
 export type ReshootState = "open" | "done" | "withdrawn";

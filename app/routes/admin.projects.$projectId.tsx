@@ -8,7 +8,7 @@ import { setFlash, takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { FlashNotice, RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
 import { ProjectMembers } from "~/components/members";
-import { addMemberSchema, inviteMemberSchema } from "~/models/member-schemas";
+import { addMemberSchema, inviteMemberSchema } from "~/components/member-schemas";
 import { addMember, inviteMember, listMembers, removeMember, usersByEmail } from "~/models/members.server";
 import { listUsers, normalizeEmail, UserError } from "~/models/users.server";
 import { getProject, projectChoices, restoreProject, retireProject, updateProject } from "~/models/projects.server";

@@ -11,7 +11,7 @@ import { formatWhen, Notice, ROLE_TEXT } from "~/auth/ui";
 import { changeRole, getUserDetail, revokeSessions, setUserActive, UserError } from "~/models/users.server";
 import { readFormCapped } from "~/http/body.server";
 import { UserProjects } from "~/components/members";
-import { joinProjectSchema } from "~/models/member-schemas";
+import { joinProjectSchema } from "~/components/member-schemas";
 import { addMember, projectsOfUser, projectsToJoin, removeMember } from "~/models/members.server";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.detail.user.email ?? "User"} — Admin — Shotbook` }];

@@ -17,7 +17,7 @@ import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "
 import { bandWord, dateOnly, mmSigned } from "~/components/review/format";
 import { readFormCapped } from "~/http/body.server";
 import { LocalTime } from "~/components/review/local-time";
-import { reshootSchema, reshootStateSchema } from "~/components/review/reshoot-schema";
+import { reshootSchema, reshootStateSchema } from "~/contract/reshoot";
 import { createReshoot, listReshoots, reshootChoices, ReshootError, setReshootState } from "~/models/reshoots.server";
 import { ReshootPanel } from "~/components/review/reshoot-panel";
 

@@ -35,7 +35,7 @@ beforeAll(async () => {
   w = await reviewWorld();
   outsider = await makeUser("viewer");
   const db = getDb();
-  for (const u of [w.users.viewer, w.users.qa, w.users.crew]) await db.insert(projectMembers).values({ projectId: w.project.id, userId: u.id });
+  for (const u of [w.users.viewer, w.users.qa, w.users.crew]) await db.insert(projectMembers).values({ projectId: w.project.id, userId: u.id }).onConflictDoNothing();
 }, 60_000);
 
 const viewer = () => ({ id: w.users.viewer.id, role: "viewer" as const });

@@ -9,7 +9,7 @@ import { auditLog, shots } from "~/db/schema";
 import { migrateDb } from "~/db/migrate.server";
 import { BACKFILL_REFERENCE_UNCERTAINTY_ACTION, backfillReferenceUncertainty } from "~/models/shots.server";
 import { action as syncAction } from "~/routes/api.sync";
-import { apiRequest, call, makeSensor, makeSite, makeTape, makeUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeTape, makeUser, shareProject } from "../support/registry-fixtures";
 
 const ids = [crypto.randomUUID(), crypto.randomUUID(), crypto.randomUUID()];
 
@@ -18,6 +18,7 @@ beforeAll(async () => {
   const sensor = await makeSensor({ label: "Backfill rangefinder" });
   const tape = await makeTape({ uncertaintyMm: 0.5, uncertaintyPpm: 20 });
   const site = await makeSite({ name: "Fernhollow depot" });
+  await shareProject([sensor], [site], [crew]); // api.md v1.1: sessions belong to a project of the crew's
   const sessionId = crypto.randomUUID();
   const tapeUse = { tapeId: tape.id, tempC: 20, tensionN: 50, support: "ground", spans: 1 };
   const refs = [

@@ -35,19 +35,19 @@ test("db:seed loads the demo, refuses a second time, and --reset replaces only t
   expect(first.out).toContain(`${shotsInDemo} shots`);
   expect(first.out).toContain("0 rejected");
   for (const u of DEMO_USERS) expect(first.out).toContain(u.email);
-  expect(await counts()).toEqual({ sensors: 4, shots: shotsInDemo, users: 4 });
+  expect(await counts()).toEqual({ sensors: 4, shots: shotsInDemo, users: 5 });
   resetDb();
 
   const again = seedCli();
   expect(again.code).toBe(1);
   expect(again.err).toContain("--reset");
-  expect(await counts()).toEqual({ sensors: 4, shots: shotsInDemo, users: 4 });
+  expect(await counts()).toEqual({ sensors: 4, shots: shotsInDemo, users: 5 });
   resetDb();
 
   const reset = seedCli("--reset");
   expect(reset.code).toBe(0);
   expect(reset.out).toContain("Deleted the previous demo rows.");
-  expect(await counts()).toEqual({ sensors: 4, shots: shotsInDemo, users: 4 });
+  expect(await counts()).toEqual({ sensors: 4, shots: shotsInDemo, users: 5 });
   const kept = await getDb().select({ id: sensors.id }).from(sensors).where(eq(sensors.serial, "OWN-1"));
   expect(kept.map((k) => k.id)).toEqual([(own.body as { id: string }).id]);
 

@@ -6,7 +6,7 @@ import { beforeAll, expect, test } from "vitest";
 import jStat from "jstat";
 import { action as syncAction } from "~/routes/api.sync";
 import { sensorHistory } from "~/models/history.server";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeUser, shareProject, type TestUser } from "../support/registry-fixtures";
 
 const J = jStat as { studentt: { inv(p: number, df: number): number } };
 let qa: TestUser;
@@ -21,6 +21,7 @@ beforeAll(async () => {
   const sensor = await makeSensor({ label: "Drifting rangefinder", toleranceMm: 5, tolerancePpm: 10, certNumber: "FG-CAL-0777", certLaboratory: "Fernhollow calibration bench", certIssued: "2025-07-01", certDue: "2026-07-01" });
   sensorId = sensor.id;
   const site = await makeSite({ name: "Fernhollow quarry baseline" });
+  await shareProject([sensor], [site], [crew, qa]); // api.md v1.1: the crew syncs into, and QA reads, their project
   const sessions = dates.map((d) => ({ id: crypto.randomUUID(), sensorId, siteId: site.id, startedAt: `${d}T08:00:00+02:00`, airTempC: 15, pressureHpa: 1010, humidityPct: 60 }));
   const shots = sessions.flatMap((s, i) =>
     [-0.4, 0, 0.4].map((d, k) => ({

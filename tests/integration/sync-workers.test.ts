@@ -9,7 +9,7 @@ import { getDb } from "~/db/client.server";
 import { shots } from "~/db/schema";
 import { closeSyncPool, syncPool, syncWorkerCount } from "~/models/sync-pool.server";
 import { action } from "~/routes/api.sync";
-import { apiRequest, call, makeSensor, makeSite, makeTape, makeUser, type TestUser } from "../support/registry-fixtures";
+import { apiRequest, call, makeSensor, makeSite, makeTape, makeUser, shareProject, type TestUser } from "../support/registry-fixtures";
 
 const uid = () => crypto.randomUUID();
 const sync = (user: TestUser, body: unknown) => call(action, apiRequest("/api/sync", { user, json: body }));
@@ -28,6 +28,7 @@ async function world() {
     makeSite({ targets: [{ label: "dark", reflectancePct: 10 }] }),
     makeTape(),
   ]);
+  await shareProject([sensor], [site], [crew]); // api.md v1.1: sessions belong to one of the crew's projects
   return { crew, sensor, site, tape };
 }
 

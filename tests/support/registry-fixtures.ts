@@ -169,5 +169,5 @@ export async function call(fn: (args: never) => unknown, request: Request, param
 
 /** issue 16: makes users members of a project (api.md v1.1 scoping: non-admins see their projects' records only). */
 export async function addMemberIds(projectId: string, ...userIds: string[]) {
-  for (const userId of userIds) await getDb().insert(projectMembers).values({ projectId, userId });
+  for (const userId of userIds) await getDb().insert(projectMembers).values({ projectId, userId }).onConflictDoNothing();
 }

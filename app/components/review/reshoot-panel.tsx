@@ -3,7 +3,7 @@
 import { Form, useNavigation } from "react-router";
 import { getFormProps, getInputProps, getSelectProps, getTextareaProps, useForm, type SubmissionResult } from "@conform-to/react";
 import { parseWithZod } from "@conform-to/zod/v4";
-import { reshootSchema } from "./reshoot-schema";
+import { reshootSchema } from "~/contract/reshoot";
 import { LocalTime } from "./local-time";
 
 type Row = {
