@@ -9,9 +9,7 @@ export default {
   // React Router writes build/client/assets/manifest-*.js after vite-plugin-pwa made its
   // precache list: build the worker again now so the offline app knows every route.
   async buildEnd({ viteConfig, reactRouterConfig }) {
-    const pwa = viteConfig.plugins.find((p) => p.name === "vite-plugin-pwa") as
-      | { api?: { disabled?: boolean; generateSW(): Promise<unknown> } }
-      | undefined;
+    const pwa = viteConfig.plugins.find((p) => p.name === "vite-plugin-pwa") as { api?: { disabled?: boolean; generateSW(): Promise<unknown> } } | undefined;
     if (!pwa?.api || pwa.api.disabled) return;
     await pwa.api.generateSW();
     const client = join(reactRouterConfig.buildDirectory, "client");

@@ -1,13 +1,5 @@
 import "./zod-config";
-import {
-  isRouteErrorResponse,
-  Links,
-  Meta,
-  Outlet,
-  Scripts,
-  ScrollRestoration,
-  useRouteLoaderData,
-} from "react-router";
+import { isRouteErrorResponse, Links, Meta, Outlet, Scripts, ScrollRestoration, useRouteLoaderData } from "react-router";
 import { useContext } from "react";
 import type { Route } from "./+types/root";
 import { UpdatePrompt } from "./components/field/update-prompt";
@@ -86,8 +78,14 @@ export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
       <h1 className="text-3xl font-bold">{title}</h1>
       <p className="mt-3 text-lg">{detail}</p>
       <p className="mt-6 flex gap-3">
-        <a className="btn" href="/">Go to the start page</a>
-        {forbidden ? null : <a className="btn-secondary" href="/login">Sign in</a>}
+        <a className="btn" href="/">
+          Go to the start page
+        </a>
+        {forbidden ? null : (
+          <a className="btn-secondary" href="/login">
+            Sign in
+          </a>
+        )}
       </p>
       {stack ? <pre className="mt-6 overflow-auto text-sm">{stack}</pre> : null}
     </main>

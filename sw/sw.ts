@@ -24,7 +24,14 @@ const DATA = `field-data-${VERSION}`;
 const UUID = /[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}/gi;
 const SAMPLE_ID = "00000000-0000-4000-8000-000000000000";
 /** One page per field screen; opened with any id, the same server HTML serves (the screen reads IndexedDB). */
-const FIELD_PAGES = ["/field", "/field/outbox", `/field/session/${SAMPLE_ID}`, `/field/session/${SAMPLE_ID}/coverage`, `/field/session/${SAMPLE_ID}/shot/${SAMPLE_ID}`, `/field/session/${SAMPLE_ID}/fix`];
+const FIELD_PAGES = [
+  "/field",
+  "/field/outbox",
+  `/field/session/${SAMPLE_ID}`,
+  `/field/session/${SAMPLE_ID}/coverage`,
+  `/field/session/${SAMPLE_ID}/shot/${SAMPLE_ID}`,
+  `/field/session/${SAMPLE_ID}/fix`,
+];
 
 function pageKey(url: URL) {
   const path = url.pathname.replace(UUID, ":id").replace(/\/+$/, "") || "/";
@@ -168,9 +175,7 @@ self.addEventListener("activate", (event) => {
   event.waitUntil(
     (async () => {
       const names = await caches.keys();
-      await Promise.all(
-        names.filter((n) => (n.startsWith("field-pages-") && n !== PAGES) || (n.startsWith("field-data-") && n !== DATA)).map((n) => caches.delete(n)),
-      );
+      await Promise.all(names.filter((n) => (n.startsWith("field-pages-") && n !== PAGES) || (n.startsWith("field-data-") && n !== DATA)).map((n) => caches.delete(n)));
       await self.clients.claim();
     })(),
   );

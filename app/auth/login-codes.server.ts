@@ -62,9 +62,7 @@ export async function issueLoginCode(email: string, code: string | null, ip: str
   return row!.id;
 }
 
-export type CodeCheck =
-  | { ok: true; id: string }
-  | { ok: false; reason: "none" | "expired" | "used" | "locked" | "wrong"; triesLeft?: number };
+export type CodeCheck = { ok: true; id: string } | { ok: false; reason: "none" | "expired" | "used" | "locked" | "wrong"; triesLeft?: number };
 
 export async function checkLoginCode(email: string, code: string, now = new Date()): Promise<CodeCheck> {
   const db = getDb();

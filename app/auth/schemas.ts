@@ -30,10 +30,7 @@ export const codeSchema = z.object({
 });
 
 export const inviteSchema = z.object({
-  email: z
-    .string({ error: "Enter an e-mail address." })
-    .trim()
-    .pipe(z.email("That does not look like an e-mail address.")),
+  email: z.string({ error: "Enter an e-mail address." }).trim().pipe(z.email("That does not look like an e-mail address.")),
   name: z
     .string()
     .trim()
@@ -46,5 +43,10 @@ export const inviteSchema = z.object({
 
 export const tokenSchema = z.object({
   userId: z.string({ error: "Pick the user the token acts as." }).min(1, "Pick the user the token acts as."),
-  name: z.string({ error: "Give the token a name, e.g. the pipeline that uses it." }).trim().min(1, "Give the token a name, e.g. the pipeline that uses it.").max(80, "At most 80 characters.").refine((s) => !CONTROL_CHARS.test(s), noControlMessage("the token's name")),
+  name: z
+    .string({ error: "Give the token a name, e.g. the pipeline that uses it." })
+    .trim()
+    .min(1, "Give the token a name, e.g. the pipeline that uses it.")
+    .max(80, "At most 80 characters.")
+    .refine((s) => !CONTROL_CHARS.test(s), noControlMessage("the token's name")),
 });

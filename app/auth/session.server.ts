@@ -43,10 +43,7 @@ export function sessionDaysFor(role: Role) {
 }
 
 /** Creates the server-side session row and returns the Set-Cookie header value. */
-export async function createAuthSession(
-  user: { id: string; role: Role },
-  meta: { userAgent?: string | null; ip?: string | null } = {},
-) {
+export async function createAuthSession(user: { id: string; role: Role }, meta: { userAgent?: string | null; ip?: string | null } = {}) {
   const db = getDb();
   const days = sessionDaysFor(user.role);
   const expiresAt = new Date(Date.now() + days * 86400_000).toISOString();
@@ -64,10 +61,7 @@ export async function destroyAuthSession(request: Request) {
   const session = await getCookieSession(request);
   const sid = session.get("sid") as string | undefined;
   if (sid) {
-    await getDb()
-      .update(authSessions)
-      .set({ revokedAt: new Date().toISOString() })
-      .where(eq(authSessions.id, sid));
+    await getDb().update(authSessions).set({ revokedAt: new Date().toISOString() }).where(eq(authSessions.id, sid));
   }
   return getSessionStorage().destroySession(session);
 }
@@ -81,14 +75,7 @@ export async function userFromCookie(request: Request): Promise<SessionUser | nu
     .select({ id: users.id, email: users.email, name: users.name, role: users.role, sessionId: authSessions.id })
     .from(authSessions)
     .innerJoin(users, eq(users.id, authSessions.userId))
-    .where(
-      and(
-        eq(authSessions.id, sid),
-        isNull(authSessions.revokedAt),
-        gt(authSessions.expiresAt, now),
-        eq(users.active, true),
-      ),
-    )
+    .where(and(eq(authSessions.id, sid), isNull(authSessions.revokedAt), gt(authSessions.expiresAt, now), eq(users.active, true)))
     .limit(1);
   const row = rows[0];
   return row ? { ...row, via: "cookie" } : null;

@@ -138,9 +138,7 @@ export async function requestSignInCode(request: Request, input: { email: string
   const email = normalizeEmail(input.email);
   const ip = clientIp(request, context);
   const byIp = await hitRateLimit(`code-ip:${ip}`, RATE_LIMITS.perIp.limit, RATE_LIMITS.perIp.windowMs);
-  const byAddress = byIp.allowed
-    ? await hitRateLimit(`code-email:${email}`, RATE_LIMITS.perAddress.limit, RATE_LIMITS.perAddress.windowMs)
-    : byIp;
+  const byAddress = byIp.allowed ? await hitRateLimit(`code-email:${email}`, RATE_LIMITS.perAddress.limit, RATE_LIMITS.perAddress.windowMs) : byIp;
   if (!byIp.allowed || !byAddress.allowed) {
     const minutes = Math.ceil((byIp.allowed ? byAddress : byIp).retryAfterS / 60);
     const what = byIp.allowed ? "this address" : "this network";
@@ -213,11 +211,7 @@ async function readMagicLinkToken(token: string): Promise<{ code: string; expire
     const data = new Uint8Array(ct.length + t.length);
     data.set(ct);
     data.set(t, ct.length);
-    const plain = await crypto.subtle.decrypt(
-      { name: "AES-GCM", iv: b64url(iv), additionalData: new TextEncoder().encode(header), tagLength: 128 },
-      key,
-      data,
-    );
+    const plain = await crypto.subtle.decrypt({ name: "AES-GCM", iv: b64url(iv), additionalData: new TextEncoder().encode(header), tagLength: 128 }, key, data);
     const params = JSON.parse(new TextDecoder().decode(plain)) as { code?: unknown; expires?: unknown };
     if (typeof params.code !== "string" || typeof params.expires !== "number") return null;
     return { code: params.code, expires: params.expires };

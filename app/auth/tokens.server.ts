@@ -42,7 +42,10 @@ export async function userFromBearer(request: Request): Promise<SessionUser | nu
   // "Last used" to the minute is enough, and spares a write on every request of a busy pipeline.
   const now = Date.now();
   if (!row.lastUsedAt || now - Date.parse(row.lastUsedAt) > LAST_USED_RESOLUTION_MS) {
-    await db.update(apiTokens).set({ lastUsedAt: new Date(now).toISOString() }).where(eq(apiTokens.id, row.tokenId));
+    await db
+      .update(apiTokens)
+      .set({ lastUsedAt: new Date(now).toISOString() })
+      .where(eq(apiTokens.id, row.tokenId));
   }
   return { id: row.id, email: row.email, name: row.name, role: row.role, sessionId: null, via: "token" };
 }

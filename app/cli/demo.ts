@@ -141,10 +141,7 @@ const lines = [
   `Database: ${databaseUrl}   Mail: smtp://127.0.0.1:${SMTP_PORT} → ${process.env.MAIL_DIR}`,
 ];
 if (token) {
-  lines.push(
-    `API token (acts as ${admin.email}, admin; shown once): ${token.token}`,
-    `  curl -H "Authorization: Bearer ${token.token}" ${appUrl}/api/sensors`,
-  );
+  lines.push(`API token (acts as ${admin.email}, admin; shown once): ${token.token}`, `  curl -H "Authorization: Bearer ${token.token}" ${appUrl}/api/sensors`);
 }
 lines.push("", "Press Ctrl-C to stop.", "");
 console.log(lines.join("\n"));

@@ -16,9 +16,7 @@ export function CertificateFields({ meta }: { meta: unknown }) {
   return (
     <fieldset className="grid gap-4 sm:col-span-2 sm:grid-cols-2" data-testid="certificate-fields">
       <legend className="mb-2 text-lg font-bold">Calibration certificate</legend>
-      <p className="text-sm text-muted sm:col-span-2">
-        Makes a check traceable. Leave all four empty when there is none; a session after the due date is flagged on the tablet and the report.
-      </p>
+      <p className="text-sm text-muted sm:col-span-2">Makes a check traceable. Leave all four empty when there is none; a session after the due date is flagged on the tablet and the report.</p>
       <Field meta={f.number} label="Certificate number" />
       <Field meta={f.laboratory} label="Calibration laboratory" />
       <Field meta={f.issued} type="date" label="Issued" />

@@ -69,16 +69,7 @@ export function Field({
  * A number with its unit shown beside the box. A text box in decimal input mode (not
  * type=number), so whatever was typed — "12,5", "abc" — comes back on an error and is seen.
  */
-export function NumberField({
-  meta,
-  label,
-  unit,
-  hint,
-  className,
-  integer,
-  placeholder,
-  allErrors,
-}: Common & { unit?: string; integer?: boolean; placeholder?: string; allErrors?: boolean }) {
+export function NumberField({ meta, label, unit, hint, className, integer, placeholder, allErrors }: Common & { unit?: string; integer?: boolean; placeholder?: string; allErrors?: boolean }) {
   const errors = errorsOf(meta, allErrors);
   const unitId = `${meta.id}-unit`;
   const { key, ...props } = getInputProps(meta, {
@@ -93,14 +84,7 @@ export function NumberField({
       </label>
       <Hint id={`${meta.id}-hint`}>{hint}</Hint>
       <div className="flex items-stretch">
-        <input
-          key={key}
-          {...props}
-          inputMode={integer ? "numeric" : "decimal"}
-          autoComplete="off"
-          placeholder={placeholder}
-          className={`input num ${unit ? "rounded-r-none" : ""}`}
-        />
+        <input key={key} {...props} inputMode={integer ? "numeric" : "decimal"} autoComplete="off" placeholder={placeholder} className={`input num ${unit ? "rounded-r-none" : ""}`} />
         {unit ? (
           <span id={unitId} className="flex min-w-14 items-center justify-center rounded-r-md border-2 border-l-0 border-line bg-surface px-3 font-bold">
             {unit}
@@ -126,14 +110,7 @@ export function TextArea({ meta, label, hint, className, rows = 3 }: Common & { 
   );
 }
 
-export function Select({
-  meta,
-  label,
-  hint,
-  className,
-  options,
-  placeholder,
-}: Common & { options: readonly { value: string; label: string }[]; placeholder?: string }) {
+export function Select({ meta, label, hint, className, options, placeholder }: Common & { options: readonly { value: string; label: string }[]; placeholder?: string }) {
   const { key, ...props } = getSelectProps(meta, { ariaDescribedBy: describedBy(meta, hint) });
   return (
     <div className={className}>
@@ -170,13 +147,7 @@ export function Checkbox({ meta, label, hint, className }: Common) {
 }
 
 /** Choices as large radio rows; for yes/no use values "true"/"false" (the registry's form parser reads them). */
-export function RadioGroup({
-  meta,
-  label,
-  hint,
-  className,
-  options,
-}: Common & { options: readonly { value: string; label: React.ReactNode; hint?: React.ReactNode }[] }) {
+export function RadioGroup({ meta, label, hint, className, options }: Common & { options: readonly { value: string; label: React.ReactNode; hint?: React.ReactNode }[] }) {
   const errors = errorsOf(meta);
   const items = getCollectionProps(meta, { type: "radio", options: options.map((o) => o.value), ariaDescribedBy: describedBy(meta, hint) });
   return (
@@ -204,14 +175,7 @@ export function RadioGroup({
 }
 
 /** Several tick boxes under one name (a list of ids). */
-export function CheckboxGroup({
-  meta,
-  label,
-  hint,
-  className,
-  options,
-  empty,
-}: Common & { options: readonly { value: string; label: React.ReactNode }[]; empty?: React.ReactNode }) {
+export function CheckboxGroup({ meta, label, hint, className, options, empty }: Common & { options: readonly { value: string; label: React.ReactNode }[]; empty?: React.ReactNode }) {
   const errors = errorsOf(meta, true);
   const items = options.length ? getCollectionProps(meta, { type: "checkbox", options: options.map((o) => o.value), ariaDescribedBy: describedBy(meta, hint) }) : [];
   return (
@@ -240,9 +204,7 @@ export function FormSummary({ errors, fieldErrorCount }: { errors?: string[]; fi
     <div role="alert" className="rounded-md border-2 border-fail p-3 font-bold text-fail">
       <p>
         <span aria-hidden="true">⚠ </span>
-        {fieldErrorCount > 0
-          ? `Not saved: ${fieldErrorCount === 1 ? "1 field needs" : `${fieldErrorCount} fields need`} a fix — see the messages below.`
-          : "Not saved."}
+        {fieldErrorCount > 0 ? `Not saved: ${fieldErrorCount === 1 ? "1 field needs" : `${fieldErrorCount} fields need`} a fix — see the messages below.` : "Not saved."}
       </p>
       {form.map((e) => (
         <p key={e}>{e}</p>
@@ -279,13 +241,7 @@ export function RegistryNav() {
   return (
     <nav aria-label="Registry" className="no-print mb-4 flex flex-wrap gap-1 border-b-2 border-line pb-2">
       {tabs.map((t) => (
-        <NavLink
-          key={t.to}
-          to={t.to}
-          className={({ isActive }) =>
-            `flex min-h-11 items-center rounded-md px-4 font-bold ${isActive ? "bg-accent text-accent-fg" : "underline underline-offset-4"}`
-          }
-        >
+        <NavLink key={t.to} to={t.to} className={({ isActive }) => `flex min-h-11 items-center rounded-md px-4 font-bold ${isActive ? "bg-accent text-accent-fg" : "underline underline-offset-4"}`}>
           {t.label}
         </NavLink>
       ))}
@@ -297,19 +253,7 @@ export function RegistryNav() {
  * Retire (with a written confirmation) or bring back a registry record. Retiring hides it from
  * new work and keeps it, and everything that refers to it, for history. A plain form: works without JS.
  */
-export function RetirePanel({
-  what,
-  label,
-  retiredAt,
-  usage,
-  error,
-}: {
-  what: string;
-  label: string;
-  retiredAt: string | null;
-  usage?: React.ReactNode;
-  error?: string | null;
-}) {
+export function RetirePanel({ what, label, retiredAt, usage, error }: { what: string; label: string; retiredAt: string | null; usage?: React.ReactNode; error?: string | null }) {
   if (retiredAt) {
     return (
       <section className="card space-y-3" aria-labelledby="retire-heading">
@@ -332,8 +276,7 @@ export function RetirePanel({
         Retire this {what}
       </h2>
       <p>
-        Retiring hides “{label}” from new sessions and lists. Nothing is deleted: shots, sessions and reports that refer to it stay as they
-        are. {usage}
+        Retiring hides “{label}” from new sessions and lists. Nothing is deleted: shots, sessions and reports that refer to it stay as they are. {usage}
       </p>
       <details open={Boolean(error)} className="rounded-md border-2 border-line p-3">
         <summary className="flex min-h-11 cursor-pointer items-center font-bold">Retire “{label}”…</summary>

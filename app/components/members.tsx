@@ -73,10 +73,7 @@ export function ProjectMembers({
       <h2 id="members-heading" className="text-2xl font-bold">
         Members ({members.length})
       </h2>
-      <p>
-        Members see this project's sensors, sites, sessions, shots and reports, and nothing of other projects. Admins see every project
-        without being listed.
-      </p>
+      <p>Members see this project's sensors, sites, sessions, shots and reports, and nothing of other projects. Admins see every project without being listed.</p>
       {members.length === 0 ? (
         <p className="font-bold" data-testid="no-members">
           No members yet: only admins see this project.
@@ -86,10 +83,18 @@ export function ProjectMembers({
           <table className="w-full border-collapse text-left" data-testid="members">
             <thead>
               <tr className="border-b-2 border-line">
-                <th scope="col" className="p-2">Person</th>
-                <th scope="col" className="p-2">Role</th>
-                <th scope="col" className="p-2">Member since</th>
-                <th scope="col" className="p-2"><span className="sr-only">Remove</span></th>
+                <th scope="col" className="p-2">
+                  Person
+                </th>
+                <th scope="col" className="p-2">
+                  Role
+                </th>
+                <th scope="col" className="p-2">
+                  Member since
+                </th>
+                <th scope="col" className="p-2">
+                  <span className="sr-only">Remove</span>
+                </th>
               </tr>
             </thead>
             <tbody>

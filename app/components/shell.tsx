@@ -15,7 +15,9 @@ export function AppShell({ user, theme, children }: { user: ShellUser; theme: "l
   const here = location.pathname + location.search;
   return (
     <div className="flex min-h-screen flex-col">
-      <a href="#main" className="sr-only focus:not-sr-only">Skip to content</a>
+      <a href="#main" className="sr-only focus:not-sr-only">
+        Skip to content
+      </a>
       <header className="no-print border-b-2 border-line bg-surface">
         <div className="mx-auto flex max-w-6xl flex-wrap items-center gap-x-4 gap-y-2 px-4 py-2">
           <NavLink to="/" className="flex min-h-11 items-center gap-2 text-xl font-bold">
@@ -32,9 +34,7 @@ export function AppShell({ user, theme, children }: { user: ShellUser; theme: "l
                 <NavLink
                   key={a.to}
                   to={a.to}
-                  className={({ isActive }) =>
-                    `flex min-h-11 items-center rounded-md px-4 text-lg font-bold ${isActive ? "bg-accent text-accent-fg" : "underline-offset-4 hover:underline"}`
-                  }
+                  className={({ isActive }) => `flex min-h-11 items-center rounded-md px-4 text-lg font-bold ${isActive ? "bg-accent text-accent-fg" : "underline-offset-4 hover:underline"}`}
                 >
                   {a.label}
                 </NavLink>
@@ -52,25 +52,29 @@ export function AppShell({ user, theme, children }: { user: ShellUser; theme: "l
             {user ? (
               <>
                 <span className="text-base" data-testid="signed-in-user">
-                  <span className="font-bold">{user.name || user.email}</span>{" "}
-                  <span className="rounded border-2 border-line px-1.5 text-sm uppercase">{user.role}</span>
+                  <span className="font-bold">{user.name || user.email}</span> <span className="rounded border-2 border-line px-1.5 text-sm uppercase">{user.role}</span>
                 </span>
                 <Form method="post" action="/logout">
-                  <button type="submit" className="btn-secondary">Sign out</button>
+                  <button type="submit" className="btn-secondary">
+                    Sign out
+                  </button>
                 </Form>
               </>
             ) : (
-              <NavLink to="/login" className="btn">Sign in</NavLink>
+              <NavLink to="/login" className="btn">
+                Sign in
+              </NavLink>
             )}
           </div>
         </div>
       </header>
-      <main id="main" className="mx-auto w-full max-w-6xl flex-1 px-4 py-6">{children}</main>
+      <main id="main" className="mx-auto w-full max-w-6xl flex-1 px-4 py-6">
+        {children}
+      </main>
       <footer className="no-print border-t-2 border-line px-4 py-3 text-sm text-muted">
         <p className="mx-auto max-w-6xl">
-          Laser safety: follow your sensor's IEC 60825-1 class and the maker's manual; never aim at people, vehicles or
-          aircraft; set out traffic control when targets stand by a road. Shotbook checks range performance; it is no
-          calibration certificate.
+          Laser safety: follow your sensor's IEC 60825-1 class and the maker's manual; never aim at people, vehicles or aircraft; set out traffic control when targets stand by a road. Shotbook checks
+          range performance; it is no calibration certificate.
         </p>
       </footer>
     </div>

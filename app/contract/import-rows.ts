@@ -112,7 +112,11 @@ export function mapRow(raw: Record<string, string | undefined>, mapping: ImportM
   let distanceM = distance == null ? null : toMetres(distance, mapping._distanceUnit);
   if (distanceM == null && !unknownTarget && !errors.some((e) => e.field === "distanceM")) {
     if (target?.referenceM != null) distanceM = target.referenceM;
-    else errors.push({ field: "distanceM", message: target ? `Reference distance is missing and target “${target.label}” has no surveyed distance` : "Reference distance is missing (map a column or a target with a surveyed distance)" });
+    else
+      errors.push({
+        field: "distanceM",
+        message: target ? `Reference distance is missing and target “${target.label}” has no surveyed distance` : "Reference distance is missing (map a column or a target with a surveyed distance)",
+      });
   }
 
   let reflectancePct = number("reflectancePct", "Reflectance", (v) => (v >= 0 && v <= 100 ? null : "must lie between 0 and 100 %"));

@@ -106,8 +106,7 @@ export const LASER_CLASS_OPTIONS = ["1", "1M", "2", "2M", "3R", "3B", "4"] as co
 function blankNumber(v: unknown) {
   return typeof v === "string" && v.trim() === "" ? undefined : v;
 }
-const uncertaintyMm = (what: string) =>
-  z.preprocess(blankNumber, num(what).min(0, "An uncertainty is 0 or more").max(10000, "An uncertainty is at most 10000").nullable().optional());
+const uncertaintyMm = (what: string) => z.preprocess(blankNumber, num(what).min(0, "An uncertainty is 0 or more").max(10000, "An uncertainty is at most 10000").nullable().optional());
 
 /** The row's certificate columns → the API's certificate object (null when none). */
 export function certificateOf(r: { certNumber: string | null; certLaboratory: string | null; certIssued: string | null; certDue: string | null }): Certificate | null {
@@ -134,9 +133,7 @@ export const sensorSchema = z
     label: text("a label"),
     serial: text("the serial number"),
     kind: z.enum(SENSOR_KINDS, { error: 'Choose the kind: pulsed or continuous-wave ("pulsed" or "cw")' }),
-    wavelengthNm: num("the laser wavelength (nm)")
-      .min(300, "The wavelength lies between 300 and 2000 nm")
-      .max(2000, "The wavelength lies between 300 and 2000 nm"),
+    wavelengthNm: num("the laser wavelength (nm)").min(300, "The wavelength lies between 300 and 2000 nm").max(2000, "The wavelength lies between 300 and 2000 nm"),
     modulationHz: z
       .array(num("the modulation frequency (Hz)").positive("A modulation frequency must be above 0 Hz"), {
         error: "Modulation frequencies are a list of numbers (Hz)",
@@ -193,9 +190,7 @@ export type SensorBody = z.output<typeof sensorSchema>;
 export const tapeSchema = z.object({
   id: idSchema.optional(),
   label: text("a label"),
-  standardTempC: num("the standard temperature (°C)")
-    .min(-50, "The standard temperature lies between −50 and 60 °C")
-    .max(60, "The standard temperature lies between −50 and 60 °C"),
+  standardTempC: num("the standard temperature (°C)").min(-50, "The standard temperature lies between −50 and 60 °C").max(60, "The standard temperature lies between −50 and 60 °C"),
   standardTensionN: num("the standard tension (N)").positive("The tension must be above 0 N").max(1000, "The tension is at most 1000 N"),
   areaMm2: num("the cross-section (mm²)").positive("The cross-section must be above 0 mm²").max(100, "The cross-section is at most 100 mm²"),
   modulusGPa: num("the modulus of elasticity (GPa)").positive("The modulus must be above 0 GPa").max(1000, "The modulus is at most 1000 GPa"),
@@ -283,16 +278,9 @@ export const projectSchema = z.object({
     .refine((s) => !CONTROL_CHARS.test(s), noControlMessage("the client's name"))
     .default(""),
   notes,
-  minShots: num("the minimum number of shots")
-    .int("The minimum number of shots is a whole number")
-    .min(2, "At least 2 shots (the spread needs two)")
-    .max(100000, "At most 100000 shots")
-    .default(20),
+  minShots: num("the minimum number of shots").int("The minimum number of shots is a whole number").min(2, "At least 2 shots (the spread needs two)").max(100000, "At most 100000 shots").default(20),
   coverageK: num("the coverage factor k").positive("The coverage factor must be above 0").max(10, "The coverage factor is at most 10").default(2),
-  minWithinPct: num("the minimum share within tolerance (%)")
-    .min(0, "The share lies between 0 and 100 %")
-    .max(100, "The share lies between 0 and 100 %")
-    .default(95),
+  minWithinPct: num("the minimum share within tolerance (%)").min(0, "The share lies between 0 and 100 %").max(100, "The share lies between 0 and 100 %").default(95),
   rangeBandEdgesM: z
     .preprocess(
       listFromText,
@@ -340,9 +328,7 @@ export type EdmBody = z.output<typeof edmSchema>;
 
 // ---------- results shared by the models and the API ----------
 export type RegistryResult =
-  | { status: 201 | 200; body: { id: string; [k: string]: unknown } }
-  | { status: 400; body: { error: string; errors: FieldError[] } }
-  | { status: 409; body: { error: string } };
+  { status: 201 | 200; body: { id: string; [k: string]: unknown } } | { status: 400; body: { error: string; errors: FieldError[] } } | { status: 409; body: { error: string } };
 export type NotFound = { status: 404; body: { error: string } };
 
 export function invalid(errors: FieldError[]): { status: 400; body: { error: string; errors: FieldError[] } } {

@@ -17,16 +17,27 @@ const numberText = (what: string) =>
     .transform(Number);
 const optionalNumber = (what: string, check: z.ZodNumber, dflt: number) =>
   z.preprocess((v) => (v === undefined || v === null || (typeof v === "string" && v.trim() === "") ? undefined : v), numberText(what).pipe(check).optional()).transform((v) => v ?? dflt);
-const flag = z.preprocess((v) => (typeof v === "string" ? v.trim().toLowerCase() : v), z.enum(["true", "false", "1", "0", "on", ""]).optional()).transform((v) => v === "true" || v === "1" || v === "on");
+const flag = z
+  .preprocess((v) => (typeof v === "string" ? v.trim().toLowerCase() : v), z.enum(["true", "false", "1", "0", "on", ""]).optional())
+  .transform((v) => v === "true" || v === "1" || v === "on");
 const sessionId = z.uuid({ error: "sessionId must be the UUID of a synced session" });
-const id = (what: string) => z.string({ error: `${what} is required` }).trim().min(1, `${what} is required`).max(100, `${what} is at most 100 characters`);
+const id = (what: string) =>
+  z
+    .string({ error: `${what} is required` })
+    .trim()
+    .min(1, `${what} is required`)
+    .max(100, `${what} is at most 100 characters`);
 
 export const scanFieldsSchema = z.object({
   sessionId,
   stationId: id("stationId"),
   instrumentHeightM: optionalNumber("instrumentHeightM", z.number().min(-100, "instrumentHeightM must lie between −100 and 100 m").max(100, "instrumentHeightM must lie between −100 and 100 m"), 0),
   searchRadiusM: optionalNumber("searchRadiusM", z.number().positive("searchRadiusM must be greater than 0 m").max(5, "searchRadiusM must be at most 5 m"), DEFAULT_SEARCH_RADIUS_M),
-  minPoints: optionalNumber("minPoints", z.number().int("minPoints must be a whole number").min(3, "minPoints must be at least 3").max(10_000_000, "minPoints is at most 10 000 000"), DEFAULT_MIN_POINTS),
+  minPoints: optionalNumber(
+    "minPoints",
+    z.number().int("minPoints must be a whole number").min(3, "minPoints must be at least 3").max(10_000_000, "minPoints is at most 10 000 000"),
+    DEFAULT_MIN_POINTS,
+  ),
   commit: flag,
   /** Not in api.md: the screens ask for each target's plot sample (left out otherwise). */
   plot: flag,
@@ -48,7 +59,10 @@ export const frameFieldsSchema = z
     sessionId,
     targetId: id("targetId"),
     box: boxText,
-    referenceM: z.preprocess((v) => (typeof v === "string" && v.trim() === "" ? undefined : v), numberText("referenceM").pipe(z.number().positive("referenceM must be greater than 0 m").max(10_000, "referenceM must be at most 10 000 m")).optional()),
+    referenceM: z.preprocess(
+      (v) => (typeof v === "string" && v.trim() === "" ? undefined : v),
+      numberText("referenceM").pipe(z.number().positive("referenceM must be greater than 0 m").max(10_000, "referenceM must be at most 10 000 m")).optional(),
+    ),
     reference: z
       .preprocess((v) => (typeof v === "string" && v.trim() === "" ? undefined : v), z.string().optional())
       .transform((s, ctx) => {
@@ -56,12 +70,15 @@ export const frameFieldsSchema = z
         try {
           return JSON.parse(s) as unknown;
         } catch {
-          ctx.addIssue({ code: "custom", message: "reference must be a JSON object, e.g. {\"method\":\"edm\",\"distanceM\":3.2}" });
+          ctx.addIssue({ code: "custom", message: 'reference must be a JSON object, e.g. {"method":"edm","distanceM":3.2}' });
           return z.NEVER;
         }
       })
       .pipe(referenceSchema.optional()),
-    frequencyHz: z.preprocess((v) => (typeof v === "string" && v.trim() === "" ? undefined : v), numberText("frequencyHz").pipe(z.number().positive("frequencyHz must be greater than 0 Hz")).optional()),
+    frequencyHz: z.preprocess(
+      (v) => (typeof v === "string" && v.trim() === "" ? undefined : v),
+      numberText("frequencyHz").pipe(z.number().positive("frequencyHz must be greater than 0 Hz")).optional(),
+    ),
     minPoints: optionalNumber("minPoints", z.number().int("minPoints must be a whole number").min(3, "minPoints must be at least 3"), DEFAULT_MIN_POINTS),
     minAmplitude: optionalNumber("minAmplitude", z.number().min(0, "minAmplitude must not be negative"), 0),
     commit: flag,

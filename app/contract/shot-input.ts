@@ -74,9 +74,7 @@ export const TABLET_WORDING: Wording = {
 /** Where a computation's figures came from, for the reference uncertainty (ranging.md §7). */
 export type ShotSources<T extends TapeSpec = TapeSpec> = { tape: T | null; station: PlaceFacts | null; target: TargetFacts | null; edm: LinearUncertainty | null };
 
-export type RecordComputation<T extends TapeSpec = TapeSpec> =
-  | { ok: true; computed: ShotComputed; sources: ShotSources<T> }
-  | { ok: false; error: FieldError };
+export type RecordComputation<T extends TapeSpec = TapeSpec> = { ok: true; computed: ShotComputed; sources: ShotSources<T> } | { ok: false; error: FieldError };
 
 const TAPE_FIELD = /^reference\.(tempC|tensionN|support|spans)$/;
 
@@ -98,12 +96,7 @@ export function recordErrorOf(e: DomainError, bare = false): FieldError {
  * the record names but the registry lacks, and the core's own refusals (DomainError), come back
  * as one field error on the record's path; anything else is thrown.
  */
-export function computeShotRecordWith<T extends TapeSpec>(
-  shot: ShotFacts,
-  session: { sensorId: string; air: AirInput; rule: Rule },
-  registry: ShotRegistry<T>,
-  say: Wording,
-): RecordComputation<T> {
+export function computeShotRecordWith<T extends TapeSpec>(shot: ShotFacts, session: { sensorId: string; air: AirInput; rule: Rule }, registry: ShotRegistry<T>, say: Wording): RecordComputation<T> {
   const fail = (path: string, message: string) => ({ ok: false as const, error: { path, message } });
   const sensor = registry.sensor;
   if (!sensor) return { ok: false, error: say.missingSensor(session.sensorId) };

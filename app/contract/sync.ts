@@ -24,15 +24,21 @@ export type SyncResult = {
 
 const num = (what: string) => z.number({ error: `${what} must be a number` });
 const text = (what: string, max: number) =>
-  z.string({ error: `${what} must be text` }).trim().min(1, `${what} is required`).max(max, `${what} is at most ${max} characters`);
+  z
+    .string({ error: `${what} must be text` })
+    .trim()
+    .min(1, `${what} is required`)
+    .max(max, `${what} is at most ${max} characters`);
 const recordId = (what: string) => z.uuid({ error: `${what} must be a UUID made by the tablet` });
 /** ISO 8601 with an offset ("Z" or ±hh:mm), as api.md asks. */
-const isoTime = (what: string) =>
-  z.iso.datetime({ offset: true, error: `${what} must be an ISO 8601 time with an offset, e.g. 2026-05-04T08:10:00+02:00` });
+const isoTime = (what: string) => z.iso.datetime({ offset: true, error: `${what} must be an ISO 8601 time with an offset, e.g. 2026-05-04T08:10:00+02:00` });
 /** null and absent mean the same (not measured); canonicalJson drops both, so the raw matches. */
 const optionalNum = (schema: z.ZodNumber) => schema.nullish();
 const optionalText = (what: string, max: number) =>
-  z.string({ error: `${what} must be text` }).max(max, `${what} is at most ${max} characters`).nullish();
+  z
+    .string({ error: `${what} must be text` })
+    .max(max, `${what} is at most ${max} characters`)
+    .nullish();
 
 const airNum = (field: keyof typeof AIR_LIMITS, what: string, unit: string) => {
   const [lo, hi] = AIR_LIMITS[field];
@@ -64,18 +70,11 @@ export const tapeUseSchema = z.object({
   tempC: num("tape temperature").min(-80, "tape temperature must lie between −80 and 90 °C").max(90, "tape temperature must lie between −80 and 90 °C"),
   tensionN: num("tape pull").positive("tape pull must be greater than 0 N").max(1000, "tape pull must be at most 1000 N"),
   support: z.enum(["ground", "ends"], { error: 'support must be "ground" or "ends"' }),
-  spans: z
-    .number({ error: "spans must be a whole number" })
-    .int("spans must be a whole number")
-    .min(1, "spans must be at least 1")
-    .max(100, "spans must be at most 100")
-    .default(1),
+  spans: z.number({ error: "spans must be a whole number" }).int("spans must be a whole number").min(1, "spans must be at least 1").max(100, "spans must be at most 100").default(1),
 });
 
 /** issue 15: the shot's own standard uncertainty of its reference (mm, k = 1; ranging.md §7). */
-const refUncertainty = optionalNum(
-  num("reference uncertainty").min(0, "reference uncertainty must not be negative").max(1000, "reference uncertainty must be at most 1000 mm"),
-);
+const refUncertainty = optionalNum(num("reference uncertainty").min(0, "reference uncertainty must not be negative").max(1000, "reference uncertainty must be at most 1000 mm"));
 
 export const referenceSchema = z.discriminatedUnion(
   "method",
@@ -108,10 +107,7 @@ export const readingsSchema = z
       .array(
         z.object({
           frequencyHz: num("modulation frequency").positive("modulation frequency must be greater than 0 Hz"),
-          samples: z
-            .array(num("sample"), { error: "samples must be a list of numbers" })
-            .min(3, "at least 3 correlation samples are needed")
-            .max(1024, "at most 1024 samples"),
+          samples: z.array(num("sample"), { error: "samples must be a list of numbers" }).min(3, "at least 3 correlation samples are needed").max(1024, "at most 1024 samples"),
         }),
         { error: "phase must be a list of frequency readings" },
       )

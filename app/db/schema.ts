@@ -7,7 +7,10 @@ import { index, integer, primaryKey, real, sqliteTable, text, uniqueIndex } from
 export const ROLES = ["admin", "qa", "crew", "viewer"] as const;
 export type Role = (typeof ROLES)[number];
 
-const id = () => text("id").primaryKey().$defaultFn(() => crypto.randomUUID());
+const id = () =>
+  text("id")
+    .primaryKey()
+    .$defaultFn(() => crypto.randomUUID());
 const createdAt = () =>
   text("created_at")
     .notNull()
@@ -30,7 +33,9 @@ export const authSessions = sqliteTable(
   "auth_sessions",
   {
     id: id(),
-    userId: text("user_id").notNull().references(() => users.id),
+    userId: text("user_id")
+      .notNull()
+      .references(() => users.id),
     createdAt: createdAt(),
     expiresAt: text("expires_at").notNull(),
     lastSeenAt: text("last_seen_at"),
@@ -70,7 +75,9 @@ export const rateLimits = sqliteTable(
 
 export const apiTokens = sqliteTable("api_tokens", {
   id: id(),
-  userId: text("user_id").notNull().references(() => users.id),
+  userId: text("user_id")
+    .notNull()
+    .references(() => users.id),
   name: text("name").notNull(),
   tokenHash: text("token_hash").notNull().unique(),
   createdAt: createdAt(),
@@ -87,11 +94,16 @@ export const projects = sqliteTable("projects", {
   coverageK: real("coverage_k").notNull().default(2),
   minWithinPct: real("min_within_pct").notNull().default(95),
   /** Lower edges of the range bands in metres, e.g. [0,10,30,100]. */
-  rangeBandEdgesM: text("range_band_edges_m", { mode: "json" }).$type<number[]>().notNull().default(sql`'[0,10,30,100]'`),
+  rangeBandEdgesM: text("range_band_edges_m", { mode: "json" })
+    .$type<number[]>()
+    .notNull()
+    .default(sql`'[0,10,30,100]'`),
   // issue 15: reference uncertainty and statement style of the rule (ranging.md §7)
   referenceRatio: real("reference_ratio").notNull().default(2),
   referenceInVerdict: integer("reference_in_verdict", { mode: "boolean" }).notNull().default(false),
-  statement: text("statement", { enum: ["rmse", "nssda95"] }).notNull().default("rmse"),
+  statement: text("statement", { enum: ["rmse", "nssda95"] })
+    .notNull()
+    .default("rmse"),
   edmUncertaintyMm: real("edm_uncertainty_mm"),
   edmUncertaintyPpm: real("edm_uncertainty_ppm"),
   notes: text("notes").notNull().default(""),
@@ -103,8 +115,12 @@ export const projects = sqliteTable("projects", {
 export const projectSensors = sqliteTable(
   "project_sensors",
   {
-    projectId: text("project_id").notNull().references(() => projects.id),
-    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+    projectId: text("project_id")
+      .notNull()
+      .references(() => projects.id),
+    sensorId: text("sensor_id")
+      .notNull()
+      .references(() => sensors.id),
   },
   (t) => [primaryKey({ columns: [t.projectId, t.sensorId] })],
 );
@@ -112,8 +128,12 @@ export const projectSensors = sqliteTable(
 export const projectSites = sqliteTable(
   "project_sites",
   {
-    projectId: text("project_id").notNull().references(() => projects.id),
-    siteId: text("site_id").notNull().references(() => sites.id),
+    projectId: text("project_id")
+      .notNull()
+      .references(() => projects.id),
+    siteId: text("site_id")
+      .notNull()
+      .references(() => sites.id),
   },
   (t) => [primaryKey({ columns: [t.projectId, t.siteId] })],
 );
@@ -122,8 +142,12 @@ export const projectSites = sqliteTable(
 export const projectMembers = sqliteTable(
   "project_members",
   {
-    projectId: text("project_id").notNull().references(() => projects.id),
-    userId: text("user_id").notNull().references(() => users.id),
+    projectId: text("project_id")
+      .notNull()
+      .references(() => projects.id),
+    userId: text("user_id")
+      .notNull()
+      .references(() => users.id),
     addedBy: text("added_by").references(() => users.id),
     addedAt: createdAt(),
   },
@@ -136,7 +160,10 @@ export const sensors = sqliteTable("sensors", {
   serial: text("serial").notNull(),
   kind: text("kind", { enum: ["pulsed", "cw"] }).notNull(),
   wavelengthNm: real("wavelength_nm").notNull(),
-  modulationHz: text("modulation_hz", { mode: "json" }).$type<number[]>().notNull().default(sql`'[]'`),
+  modulationHz: text("modulation_hz", { mode: "json" })
+    .$type<number[]>()
+    .notNull()
+    .default(sql`'[]'`),
   appliesAirCorrection: integer("applies_air_correction", { mode: "boolean" }).notNull(),
   /** N_ref in ppm, (n−1)·10⁶ the sensor assumes; 0 = vacuum speed of light. */
   assumedRefractivity: real("assumed_refractivity").notNull().default(0),
@@ -199,7 +226,9 @@ export const stations = sqliteTable(
   "stations",
   {
     id: id(),
-    siteId: text("site_id").notNull().references(() => sites.id),
+    siteId: text("site_id")
+      .notNull()
+      .references(() => sites.id),
     label: text("label").notNull(),
     gridE: real("grid_e"),
     gridN: real("grid_n"),
@@ -218,7 +247,9 @@ export const targets = sqliteTable(
   "targets",
   {
     id: id(),
-    siteId: text("site_id").notNull().references(() => sites.id),
+    siteId: text("site_id")
+      .notNull()
+      .references(() => sites.id),
     label: text("label").notNull(),
     reflectancePct: real("reflectance_pct").notNull(),
     retro: integer("retro", { mode: "boolean" }).notNull().default(false),
@@ -242,8 +273,12 @@ export const checkSessions = sqliteTable(
   "check_sessions",
   {
     id: text("id").primaryKey(),
-    sensorId: text("sensor_id").notNull().references(() => sensors.id),
-    siteId: text("site_id").notNull().references(() => sites.id),
+    sensorId: text("sensor_id")
+      .notNull()
+      .references(() => sensors.id),
+    siteId: text("site_id")
+      .notNull()
+      .references(() => sites.id),
     projectId: text("project_id").references(() => projects.id),
     startedAt: text("started_at").notNull(),
     airTempC: real("air_temp_c"),
@@ -263,8 +298,12 @@ export const shots = sqliteTable(
   "shots",
   {
     id: text("id").primaryKey(),
-    sessionId: text("session_id").notNull().references(() => checkSessions.id),
-    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+    sessionId: text("session_id")
+      .notNull()
+      .references(() => checkSessions.id),
+    sensorId: text("sensor_id")
+      .notNull()
+      .references(() => sensors.id),
     takenAt: text("taken_at").notNull(),
     targetId: text("target_id").references(() => targets.id),
     raw: text("raw").notNull(),
@@ -304,18 +343,7 @@ export const shots = sqliteTable(
     // report's exact median, MAD and P95|e| without reading the rows or sorting them); the
     // columns after error_mm make it cover the report's grouped sums and a member's session
     // filter too, so neither reads the table rows (which carry the raw record)
-    index("shots_sensor_error").on(
-      t.sensorId,
-      t.excluded,
-      t.errorMm,
-      t.sessionId,
-      t.referenceM,
-      t.reflectancePct,
-      t.retro,
-      t.illuminanceKlux,
-      t.referenceUncertaintyMm,
-      t.airDefaulted,
-    ),
+    index("shots_sensor_error").on(t.sensorId, t.excluded, t.errorMm, t.sessionId, t.referenceM, t.reflectancePct, t.retro, t.illuminanceKlux, t.referenceUncertaintyMm, t.airDefaulted),
     // issue 16: which tape or reference EDM each session of a sensor used, per day (traceability),
     // from the index instead of parsing every shot's raw record
     index("shots_sensor_uses").on(
@@ -335,9 +363,13 @@ export const exclusions = sqliteTable(
   "exclusions",
   {
     id: id(),
-    shotId: text("shot_id").notNull().references(() => shots.id),
+    shotId: text("shot_id")
+      .notNull()
+      .references(() => shots.id),
     reason: text("reason").notNull(),
-    byUserId: text("by_user_id").notNull().references(() => users.id),
+    byUserId: text("by_user_id")
+      .notNull()
+      .references(() => users.id),
     createdAt: createdAt(),
     restoredAt: text("restored_at"),
     restoredBy: text("restored_by").references(() => users.id),
@@ -350,18 +382,25 @@ export const signOffs = sqliteTable(
   "sign_offs",
   {
     id: id(),
-    sensorId: text("sensor_id").notNull().references(() => sensors.id),
+    sensorId: text("sensor_id")
+      .notNull()
+      .references(() => sensors.id),
     projectId: text("project_id").references(() => projects.id),
     decision: text("decision", { enum: ["approved", "rejected"] }).notNull(),
     periodFrom: text("period_from"),
     periodTo: text("period_to"),
-    sessionIds: text("session_ids", { mode: "json" }).$type<string[]>().notNull().default(sql`'[]'`),
+    sessionIds: text("session_ids", { mode: "json" })
+      .$type<string[]>()
+      .notNull()
+      .default(sql`'[]'`),
     verdict: text("verdict", { enum: ["pass", "fail", "insufficient"] }).notNull(),
     biasMm: real("bias_mm"),
     /** The full report as it stood when signed, frozen. */
     snapshot: text("snapshot", { mode: "json" }).notNull(),
     note: text("note").notNull().default(""),
-    byUserId: text("by_user_id").notNull().references(() => users.id),
+    byUserId: text("by_user_id")
+      .notNull()
+      .references(() => users.id),
     createdAt: createdAt(),
   },
   (t) => [index("sign_offs_sensor").on(t.sensorId, t.createdAt)],
@@ -385,7 +424,9 @@ export const photos = sqliteTable(
   "photos",
   {
     id: id(),
-    shotId: text("shot_id").notNull().references(() => shots.id),
+    shotId: text("shot_id")
+      .notNull()
+      .references(() => shots.id),
     contentType: text("content_type").notNull(),
     bytes: integer("bytes").notNull(),
     sha256: text("sha256").notNull(),
@@ -412,7 +453,9 @@ export const mailLog = sqliteTable("mail_log", {
 
 /** Column mapping of a sensor's own CSV export, remembered once per sensor. */
 export const importMappings = sqliteTable("import_mappings", {
-  sensorId: text("sensor_id").primaryKey().references(() => sensors.id),
+  sensorId: text("sensor_id")
+    .primaryKey()
+    .references(() => sensors.id),
   mapping: text("mapping", { mode: "json" }).$type<Record<string, string>>().notNull(),
   updatedAt: text("updated_at").notNull(),
   updatedBy: text("updated_by").references(() => users.id),
@@ -456,15 +499,23 @@ export const reshootRequests = sqliteTable(
   "reshoot_requests",
   {
     id: id(),
-    sensorId: text("sensor_id").notNull().references(() => sensors.id),
-    siteId: text("site_id").notNull().references(() => sites.id),
+    sensorId: text("sensor_id")
+      .notNull()
+      .references(() => sensors.id),
+    siteId: text("site_id")
+      .notNull()
+      .references(() => sites.id),
     /** The project the request is for; null: any project holding the sensor and the site. */
     projectId: text("project_id").references(() => projects.id),
     wanted: text("wanted").notNull(),
     reason: text("reason").notNull(),
-    byUserId: text("by_user_id").notNull().references(() => users.id),
+    byUserId: text("by_user_id")
+      .notNull()
+      .references(() => users.id),
     createdAt: createdAt(),
-    state: text("state", { enum: ["open", "done", "withdrawn"] }).notNull().default("open"),
+    state: text("state", { enum: ["open", "done", "withdrawn"] })
+      .notNull()
+      .default("open"),
     closedAt: text("closed_at"),
     closedBy: text("closed_by").references(() => users.id),
   },
@@ -480,7 +531,9 @@ export const reshootRequests = sqliteTable(
 export const projectReportVersions = sqliteTable(
   "project_report_versions",
   {
-    projectId: text("project_id").notNull().references(() => projects.id),
+    projectId: text("project_id")
+      .notNull()
+      .references(() => projects.id),
     version: integer("version").notNull(),
     content: text("content").notNull(),
     sha256: text("sha256").notNull(),

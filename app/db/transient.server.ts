@@ -14,7 +14,8 @@ export class DatabaseUnavailable extends Error {
 }
 
 const TRANSIENT_CODES = /^(SQLITE_BUSY|SQLITE_LOCKED|SQLITE_IOERR_LOCK|ECONNRESET|ECONNREFUSED|ETIMEDOUT|EPIPE|UND_ERR_|HRANA_WEBSOCKET_ERROR|SERVER_ERROR|STREAM_EXPIRED)/;
-const TRANSIENT_TEXT = /database is locked|database table is locked|SQLITE_BUSY|fetch failed|socket hang up|ECONNRESET|ECONNREFUSED|other side closed|stream (?:expired|closed)|Server returned HTTP status 5\d\d/i;
+const TRANSIENT_TEXT =
+  /database is locked|database table is locked|SQLITE_BUSY|fetch failed|socket hang up|ECONNRESET|ECONNREFUSED|other side closed|stream (?:expired|closed)|Server returned HTTP status 5\d\d/i;
 /** A replica's forwarding error carries the primary's own message; a refused write is not transient. */
 const PERMANENT_TEXT = /constraint failed|no such (?:table|column)|syntax error|datatype mismatch/i;
 

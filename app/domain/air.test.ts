@@ -30,7 +30,11 @@ test("IAG 1999 group refractivity agrees with the Ciddor group index within 0.2 
     const std = (ciddorGroupIndex({ tempC: 0, humidityPct: 0, pressureKpa: 101.325, wavelengthNm: nm, co2Ppm: 375 }) - 1) * 1e6;
     expect(Math.abs(std - groupRefractivityIag(nm))).toBeLessThan(0.2);
     const ng = groupRefractivityIag(nm);
-    for (const [t, rh, hpa] of [[20, 50, 1013.25], [30, 80, 900], [-10, 30, 1040]]) {
+    for (const [t, rh, hpa] of [
+      [20, 50, 1013.25],
+      [30, 80, 900],
+      [-10, 30, 1040],
+    ]) {
       const c = (ciddorGroupIndex({ tempC: t, humidityPct: rh, pressureKpa: hpa / 10, wavelengthNm: nm, co2Ppm: 375 }) - 1) * 1e6;
       expect(Math.abs(c - airGroupRefractivity(ng, t, hpa, rh))).toBeLessThan(0.2);
     }

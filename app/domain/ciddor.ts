@@ -10,10 +10,15 @@ const R = 8.31451; // J/(mol·K), as in Ciddor 1996
 
 function compressibility(pPa: number, TK: number, xw: number): number {
   const t = TK - 273.15;
-  const a0 = 1.58123e-6, a1 = -2.9331e-8, a2 = 1.1043e-10;
-  const b0 = 5.707e-6, b1 = -2.051e-8;
-  const c0 = 1.9898e-4, c1 = -2.376e-6;
-  const d = 1.83e-11, e = -0.765e-8;
+  const a0 = 1.58123e-6,
+    a1 = -2.9331e-8,
+    a2 = 1.1043e-10;
+  const b0 = 5.707e-6,
+    b1 = -2.051e-8;
+  const c0 = 1.9898e-4,
+    c1 = -2.376e-6;
+  const d = 1.83e-11,
+    e = -0.765e-8;
   const pt = pPa / TK;
   return 1 - pt * (a0 + a1 * t + a2 * t * t + (b0 + b1 * t) * xw + (c0 + c1 * t) * xw * xw) + pt * pt * (d + e * xw * xw);
 }
@@ -28,10 +33,17 @@ export function ciddorPhaseIndex(input: CiddorInput): number {
   const TK = t + 273.15;
   const s2 = 1 / (lamUm * lamUm);
   // standard dry air (15 °C, 101 325 Pa, 0 % H2O, 450 ppm CO2) and standard water vapour (20 °C, 1333 Pa)
-  const k0 = 238.0185, k1 = 5792105, k2 = 57.362, k3 = 167917;
+  const k0 = 238.0185,
+    k1 = 5792105,
+    k2 = 57.362,
+    k3 = 167917;
   const nas = 1 + (k1 / (k0 - s2) + k3 / (k2 - s2)) * 1e-8;
   const naxs = 1 + (nas - 1) * (1 + 0.534e-6 * (xc - 450));
-  const w0 = 295.235, w1 = 2.6422, w2 = -0.03238, w3 = 0.004028, cf = 1.022;
+  const w0 = 295.235,
+    w1 = 2.6422,
+    w2 = -0.03238,
+    w3 = 0.004028,
+    cf = 1.022;
   const nws = 1 + cf * (w0 + w1 * s2 + w2 * s2 * s2 + w3 * s2 * s2 * s2) * 1e-8;
   // saturation vapour pressure over water (Davis 1992) and enhancement factor
   const svp = Math.exp(1.2378847e-5 * TK * TK - 1.9121316e-2 * TK + 33.93711047 - 6.3431645e3 / TK);

@@ -53,7 +53,14 @@ test("coverage checklist: every band × {dark, bright} with ≥ 3 shots, bright 
   const indoor = coverageChecklist({ sensor: { ...sensor, outdoor: false }, rule: DEFAULT_RULE, shots });
   expect(indoor.complete).toBe(true);
   // mid and retro targets count for neither cell
-  const few = coverageChecklist({ sensor, rule: DEFAULT_RULE, shots: [{ referenceM: 5, reflectancePct: 50, retro: false, illuminanceKlux: 80 }, { referenceM: 5, reflectancePct: 90, retro: true, illuminanceKlux: null }] });
+  const few = coverageChecklist({
+    sensor,
+    rule: DEFAULT_RULE,
+    shots: [
+      { referenceM: 5, reflectancePct: 50, retro: false, illuminanceKlux: 80 },
+      { referenceM: 5, reflectancePct: 90, retro: true, illuminanceKlux: null },
+    ],
+  });
   expect(few.missing).toHaveLength(8);
   expect(few.cells[0]).toEqual({ rangeBand: "0-10", reflectance: "dark", have: 0, need: 3 });
   expect(few.needsBrightSun).toBe(false);

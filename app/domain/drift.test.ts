@@ -63,6 +63,9 @@ test("run: six sessions in a row moving one way are marked (Nelson's test 3); fi
 });
 
 test("too few sessions: no trend figures (null), never a made-up 0", () => {
-  const d = biasDrift([{ startedAt: at(0), biasMm: 1 }, { startedAt: at(1), biasMm: 2 }]);
+  const d = biasDrift([
+    { startedAt: at(0), biasMm: 1 },
+    { startedAt: at(1), biasMm: 2 },
+  ]);
   expect(d).toMatchObject({ n: 2, slopeMmPerYear: null, t: null, df: null, trendSignificant: null, line: null, runIndices: [] });
 });

@@ -18,7 +18,10 @@ function reference(m: Sym3) {
 
 // values to 1e-6 between ±1000 (ml-matrix's QL trips over subnormal numbers, ours does not)
 const sym = fc
-  .array(fc.integer({ min: -1e9, max: 1e9 }).map((i) => i / 1e6), { minLength: 6, maxLength: 6 })
+  .array(
+    fc.integer({ min: -1e9, max: 1e9 }).map((i) => i / 1e6),
+    { minLength: 6, maxLength: 6 },
+  )
   .map((a) => a as Sym3);
 
 test("eigenvalues and eigenvectors agree with ml-matrix on random symmetric matrices", () => {

@@ -120,7 +120,22 @@ test("the tests without the flagged shots equal the ranging core's report with t
   const errs = [0.4, -1.1, 2.0, 0.8, -0.6, 1.5, 0.2, -29953, 35];
   const shots: ReportShot[] = errs.map((e, i) => {
     const referenceM = 5 + 11 * i;
-    return { id: `c${i}`, takenAt: "2026-05-01T10:00:00+02:00", sessionId: "s1", sessionStartedAt: "2026-05-01T09:00:00+02:00", referenceM, rangeM: referenceM + e / 1000, errorMm: e, repeatabilityMm: null, reflectancePct: 50, retro: false, illuminanceKlux: 20, excluded: false, wrap: e === -29953, airDefaulted: false };
+    return {
+      id: `c${i}`,
+      takenAt: "2026-05-01T10:00:00+02:00",
+      sessionId: "s1",
+      sessionStartedAt: "2026-05-01T09:00:00+02:00",
+      referenceM,
+      rangeM: referenceM + e / 1000,
+      errorMm: e,
+      repeatabilityMm: null,
+      reflectancePct: 50,
+      retro: false,
+      illuminanceKlux: 20,
+      excluded: false,
+      wrap: e === -29953,
+      airDefaulted: false,
+    };
   });
   const report = sensorReport({ sensor, rule, shots });
   const e = explainVerdict({ ...report, coverageK: rule.coverageK });

@@ -190,7 +190,10 @@ export function explainVerdict(input: ExplainInput): VerdictExplanation {
   let flaggedLine: string | null = null;
   if (nFlagged > 0) {
     const ids = new Set(flagged.flatMap((g) => g.shots.map((s) => s.id)));
-    without = testsWithout(input, included.filter((s) => !ids.has(s.id)));
+    without = testsWithout(
+      input,
+      included.filter((s) => !ids.has(s.id)),
+    );
     const after = new Map(without.tests.map((t) => [t.name, t]));
     drives = failed.filter((name) => name !== "count" && after.get(name)!.pass);
     // an insufficient verdict names them too when they already sink a test: the next shots will not mend that

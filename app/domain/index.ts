@@ -13,7 +13,22 @@ export { mean, sampleSd, rmse, quantileType7, quantileType7Sorted, median, mad, 
 export type { OlsFit } from "./stats.ts";
 export { tQuantile, chiSquareQuantile, normalQuantile, incompleteBeta, incompleteGamma, logGamma } from "./quantiles.ts";
 export { computeShot, toleranceMm, isWrap, checkSensor, checkRule } from "./shot.ts";
-export { sensorReport, reportFromAggregates, reportRows, aggregateShots, orderStatistics, illuminanceIndex, reflectanceIndex, zeroOffsetTest, verdictFailures, inPeriod, sortedAbsDeviations, NSSDA_FACTOR, OUTLIER_K, MAD_TO_SIGMA } from "./report.ts";
+export {
+  sensorReport,
+  reportFromAggregates,
+  reportRows,
+  aggregateShots,
+  orderStatistics,
+  illuminanceIndex,
+  reflectanceIndex,
+  zeroOffsetTest,
+  verdictFailures,
+  inPeriod,
+  sortedAbsDeviations,
+  NSSDA_FACTOR,
+  OUTLIER_K,
+  MAD_TO_SIGMA,
+} from "./report.ts";
 export type { ReportGroup, ReportAggregates } from "./report.ts";
 export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, siteCoverageCells, COVERAGE_NEED } from "./coverage.ts";
 export { DARK_BELOW_PCT, BRIGHT_ABOVE_PCT } from "./coverage.ts";
@@ -21,15 +36,7 @@ export type { SiteTarget, SiteCell } from "./coverage.ts";
 export { ciddorPhaseIndex, ciddorGroupIndex } from "./ciddor.ts";
 export type { CiddorInput } from "./ciddor.ts";
 export { isImplausible, MAX_DISTANCE_M, MAX_ROUND_TRIP_NS, MAX_FREQUENCIES, FREQUENCY_MATCH_HZ, IMPLAUSIBLE_ERROR_MM, IMPLAUSIBLE_MIN_REFERENCE_M } from "./plausibility.ts";
-export {
-  distanceBoundsMessage,
-  roundTripBoundsMessage,
-  requireDistanceM,
-  requireRoundTripNs,
-  requireFigure,
-  requireFrequencyCount,
-  requireRegisteredFrequency,
-} from "./plausibility.ts";
+export { distanceBoundsMessage, roundTripBoundsMessage, requireDistanceM, requireRoundTripNs, requireFigure, requireFrequencyCount, requireRegisteredFrequency } from "./plausibility.ts";
 export {
   referenceUncertaintyMm,
   linearUncertaintyMm,

@@ -42,7 +42,10 @@ test("20 and 25 MHz: a 17 m target wraps to 2.010377 m and 5.008302 m and unwrap
   const r25 = rangeFromPhase(phaseFromSamples(samplesFor(phaseOf(17, 25e6), 400, 900)).phaseRad, 25e6);
   expect(r20).toBeCloseTo(2.010377, 6);
   expect(r25).toBeCloseTo(5.008302, 6);
-  const u = unwrapFrequencies([{ frequencyHz: 20e6, rangeM: r20 }, { frequencyHz: 25e6, rangeM: r25 }]);
+  const u = unwrapFrequencies([
+    { frequencyHz: 20e6, rangeM: r20 },
+    { frequencyHz: 25e6, rangeM: r25 },
+  ]);
   expect(u.rangeM).toBeCloseTo(17, 6);
   expect(u.wraps).toEqual([2, 2]);
   expect(u.spreadM).toBeLessThan(1e-6);
@@ -88,7 +91,12 @@ test("property: the phase estimator is unchanged by offset and positive gain", (
 });
 
 test("property: unwrapping recovers any distance inside the combined interval from noiseless samples", () => {
-  const sets = [[20e6, 25e6], [60e6, 80e6], [10e6, 12e6, 15e6], [100e6, 120e6]];
+  const sets = [
+    [20e6, 25e6],
+    [60e6, 80e6],
+    [10e6, 12e6, 15e6],
+    [100e6, 120e6],
+  ];
   fc.assert(
     fc.property(fc.constantFrom(...sets), fc.double({ min: 0.001, max: 0.999, noNaN: true }), fc.double({ min: 1.0, max: 1.0004, noNaN: true }), (fs, frac, n) => {
       const combined = unambiguousIntervalM(fs, n);
@@ -102,7 +110,7 @@ test("property: unwrapping recovers any distance inside the combined interval fr
 
 test("advisory CW repeatability (Lange & Seitz 2001, from memory)", () => {
   // σ_R ≈ (R_u/√8)·√B/(2A): R_u 7.5 m, B 1000, A 500 → 7.5/√8·√1000/1000 m
-  expect(cwRepeatabilityMm(7.5, 500, 1000)).toBeCloseTo(((7.5 / Math.sqrt(8)) * Math.sqrt(1000)) / 1000 * 1000, 9);
+  expect(cwRepeatabilityMm(7.5, 500, 1000)).toBeCloseTo((((7.5 / Math.sqrt(8)) * Math.sqrt(1000)) / 1000) * 1000, 9);
   expect(cwRepeatabilityMm(7.5, 500, -5)).toBeNull();
   expect(() => cwRepeatabilityMm(7.5, 0, 10)).toThrow(DomainError);
 });
@@ -151,21 +159,17 @@ test("adversarial frequency sets are refused before any candidate is made, or co
 
 test("property: any set of up to four frequencies is refused or walks at most MAX_UNWRAP_CANDIDATES", () => {
   fc.assert(
-    fc.property(
-      fc.array(fc.integer({ min: 1_000_000, max: 1_000_000_000 }), { minLength: 2, maxLength: 4 }),
-      fc.double({ min: 0, max: 0.99, noNaN: true }),
-      (fs, frac) => {
-        const parts = fs.map((f) => ({ frequencyHz: f, rangeM: frac * unambiguousIntervalM(f) }));
-        let u;
-        try {
-          u = unwrapFrequencies(parts);
-        } catch (e) {
-          expect(e).toMatchObject({ code: "unwrap_too_wide" });
-          return;
-        }
-        expect(u.candidates).toBeLessThanOrEqual(MAX_UNWRAP_CANDIDATES);
-        expect(Number.isFinite(u.rangeM)).toBe(true);
-      },
-    ),
+    fc.property(fc.array(fc.integer({ min: 1_000_000, max: 1_000_000_000 }), { minLength: 2, maxLength: 4 }), fc.double({ min: 0, max: 0.99, noNaN: true }), (fs, frac) => {
+      const parts = fs.map((f) => ({ frequencyHz: f, rangeM: frac * unambiguousIntervalM(f) }));
+      let u;
+      try {
+        u = unwrapFrequencies(parts);
+      } catch (e) {
+        expect(e).toMatchObject({ code: "unwrap_too_wide" });
+        return;
+      }
+      expect(u.candidates).toBeLessThanOrEqual(MAX_UNWRAP_CANDIDATES);
+      expect(Number.isFinite(u.rangeM)).toBe(true);
+    }),
   );
 });

@@ -103,7 +103,11 @@ export function unwrapFrequencies(parts: UnwrapInput[], n = 1, path = "readings.
   const k = parts.length;
   const ru = parts.map((p, i) => unambiguousIntervalM(p.frequencyHz, n, `${path}.${i}.frequencyHz`));
   const r = parts.map((p, i) => requireFinite(p.rangeM, `${path}.${i}`, "wrapped range (m)"));
-  const combinedM = unambiguousIntervalM(parts.map((p) => p.frequencyHz), n, path);
+  const combinedM = unambiguousIntervalM(
+    parts.map((p) => p.frequencyHz),
+    n,
+    path,
+  );
   if (k === 1) return { rangeM: r[0], spreadM: 0, wraps: [0], unwrappedM: [r[0]], combinedM, candidates: 1 };
   // candidates per frequency, counted before any is made: a set that needs too many is refused
   const horizonM = Math.min(combinedM, MAX_DISTANCE_M);
@@ -190,5 +194,5 @@ export function cwRepeatabilityMm(unambiguousM: number, amplitude: number, offse
   const a = requirePositive(amplitude, "amplitude", "amplitude");
   const b = requireFinite(offset, "offset", "offset");
   if (b < 0) return null;
-  return ((u / Math.sqrt(8)) * Math.sqrt(b)) / (2 * a) * 1000;
+  return (((u / Math.sqrt(8)) * Math.sqrt(b)) / (2 * a)) * 1000;
 }

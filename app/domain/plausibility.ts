@@ -71,11 +71,7 @@ export function requireRegisteredFrequency(frequencyHz: unknown, registeredHz: r
   }
   if (!registeredHz.some((r) => Math.abs(r - frequencyHz) <= FREQUENCY_MATCH_HZ)) {
     const list = registeredHz.length ? registeredHz.map((f) => `${f} Hz`).join(", ") : "none";
-    throw new DomainError(
-      path,
-      "unregistered_frequency",
-      `modulation frequency ${frequencyHz} Hz is not one the sensor has registered (registered: ${list})`,
-    );
+    throw new DomainError(path, "unregistered_frequency", `modulation frequency ${frequencyHz} Hz is not one the sensor has registered (registered: ${list})`);
   }
   return frequencyHz;
 }

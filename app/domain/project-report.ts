@@ -43,7 +43,16 @@ export type ProjectSensorFigures = {
   coverage: Coverage;
   drift: DriftEntry[];
   airDefaulted: string[];
-  traceability: { kind: "sensor" | "tape" | "edm"; id: string; label: string; number: string | null; laboratory: string | null; issued: string | null; due: string | null; expiredOnSessions: string[] }[];
+  traceability: {
+    kind: "sensor" | "tape" | "edm";
+    id: string;
+    label: string;
+    number: string | null;
+    laboratory: string | null;
+    issued: string | null;
+    due: string | null;
+    expiredOnSessions: string[];
+  }[];
 };
 
 export type ProjectReportSensor = {
@@ -102,7 +111,19 @@ export type ProjectReportContent = {
     restoredBy: string | null;
     restoreReason: string | null;
   }[];
-  signOffs: { id: string; sensorId: string; sensorLabel: string; decision: "approved" | "rejected"; verdict: "pass" | "fail" | "insufficient"; biasMm: number | null; note: string; by: string; at: string; periodFrom: string | null; periodTo: string | null }[];
+  signOffs: {
+    id: string;
+    sensorId: string;
+    sensorLabel: string;
+    decision: "approved" | "rejected";
+    verdict: "pass" | "fail" | "insufficient";
+    biasMm: number | null;
+    note: string;
+    by: string;
+    at: string;
+    periodFrom: string | null;
+    periodTo: string | null;
+  }[];
   totals: { shots: number; excluded: number; photos: number };
 };
 
@@ -122,7 +143,7 @@ export function ruleInWords(rule: ProjectReportRule): string[] {
     `at least ${num(rule.minWithinPct)} % of the shots lie within k × tolerance at their distance, with coverage factor k = ${num(rule.coverageK)};`,
     `the standard deviation is at most σ·√(χ²₀.₉₅(ν)/ν), ν = n − 1, σ the tolerance at the mean distance (adapted from ISO 17123-4, reflector EDM; no conformance claimed).`,
     `With fewer shots the verdict is "not enough shots"; otherwise a failed test makes it "fail".`,
-    `The reference distances must be at least ${num(rule.referenceRatio)} times as accurate as the tolerance at the mean distance (RMS of their standard uncertainties); this test is ${rule.referenceInVerdict ? "part of the verdict: failed or unknown, it turns a pass into \"not enough shots\"" : "advisory and does not change the verdict"}.`,
+    `The reference distances must be at least ${num(rule.referenceRatio)} times as accurate as the tolerance at the mean distance (RMS of their standard uncertainties); this test is ${rule.referenceInVerdict ? 'part of the verdict: failed or unknown, it turns a pass into "not enough shots"' : "advisory and does not change the verdict"}.`,
     rule.statement === "nssda95"
       ? "Accuracy is stated as the NSSDA 95 % figure, 1.96 × RMSE (FGDC-STD-007.3-1998), reference uncertainty not included."
       : "Accuracy is stated as RMSE only (ASPRS Positional Accuracy Standards, Edition 2, 2023), with the reference's own uncertainty added in quadrature where it is known.",

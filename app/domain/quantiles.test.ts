@@ -59,7 +59,14 @@ test("non-integer and large df, and the normal limit", () => {
 });
 
 test("quantile functions reject impossible arguments", () => {
-  for (const [p, df] of [[0, 5], [1, 5], [NaN, 5], [0.5, 0], [0.5, -1], [0.5, NaN]]) {
+  for (const [p, df] of [
+    [0, 5],
+    [1, 5],
+    [NaN, 5],
+    [0.5, 0],
+    [0.5, -1],
+    [0.5, NaN],
+  ]) {
     expect(() => tQuantile(p, df)).toThrow(DomainError);
     expect(() => chiSquareQuantile(p, df)).toThrow(DomainError);
   }

@@ -19,12 +19,7 @@ export function rangeFromRoundTrip(roundTripNs: number, n = 1, path = "readings.
  * A sensor's own reported range corrected to the session's air.
  * When the sensor applies its own atmospheric correction the range is used as is.
  */
-export function correctReportedRange(
-  rangeM: number,
-  sensor: { appliesAirCorrection: boolean; assumedRefractivity?: number | null },
-  groupRefractivity: number,
-  path = "readings.rangesM.0",
-): number {
+export function correctReportedRange(rangeM: number, sensor: { appliesAirCorrection: boolean; assumedRefractivity?: number | null }, groupRefractivity: number, path = "readings.rangesM.0"): number {
   const r = requireDistanceM(requirePositive(rangeM, path, "reported range (m)"), path, "range");
   if (sensor.appliesAirCorrection) return r;
   const k = firstVelocityCorrectionPpm(sensor.assumedRefractivity ?? 0, requireFinite(groupRefractivity, "groupRefractivity"));

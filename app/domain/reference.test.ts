@@ -98,7 +98,7 @@ test("coordinates: grid 3-D distance with heights, geographic chord, never haver
   const g = referenceDistance({
     method: "coordinates",
     station: { geo: { lat: 50, lon: 8, h: 100 } },
-    target: { geo: { lat: 50, lon: 8, h: 100 } , grid: null },
+    target: { geo: { lat: 50, lon: 8, h: 100 }, grid: null },
     instrumentHeightM: 0,
     targetHeightM: 25,
   });

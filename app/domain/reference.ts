@@ -24,10 +24,7 @@ export function tapeSagCorrection(weightPerLength: number, spanLength: number, p
 
 export type TapeCorrections = { temperatureM: number; tensionM: number; sagM: number; calibrationM: number; totalM: number; distanceM: number };
 
-export function tapeCorrections(
-  input: { distanceM: number; tape: TapeSpec; tempC: number; tensionN: number; support: "ground" | "ends"; spans: number },
-  path = "reference",
-): TapeCorrections {
+export function tapeCorrections(input: { distanceM: number; tape: TapeSpec; tempC: number; tensionN: number; support: "ground" | "ends"; spans: number }, path = "reference"): TapeCorrections {
   const L = requireDistanceM(requirePositive(input.distanceM, `${path}.distanceM`, "taped distance (m)"), `${path}.distanceM`, "taped distance");
   const tape = input.tape;
   if (!tape || typeof tape !== "object") throw new DomainError(`${path}.tape`, "missing", "the tape's constants are needed");

@@ -104,10 +104,18 @@ test("breakdowns by reflectance, illuminance and range band leave empty bands ou
   expect(dark.withinPct).toBe(100);
   expect(r.byReflectance[1].sdMm).toBeNull();
   // illuminance: 5 → low, 20 → moderate, 60 and 100 → high, null left out
-  expect(r.byIlluminance.map((b) => [b.band, b.n])).toEqual([["low", 1], ["moderate", 1], ["high", 2]]);
+  expect(r.byIlluminance.map((b) => [b.band, b.n])).toEqual([
+    ["low", 1],
+    ["moderate", 1],
+    ["high", 2],
+  ]);
   expect(r.byIlluminance[2].rmseMm).toBeCloseTo(2, 12);
   // range: 5, 8 → 0-10; 15 → 10-30; 50, 60 → 30-100; no 100+ shots → band left out
-  expect(r.byRange.map((b) => [b.band, b.n])).toEqual([["0-10", 2], ["10-30", 1], ["30-100", 2]]);
+  expect(r.byRange.map((b) => [b.band, b.n])).toEqual([
+    ["0-10", 2],
+    ["10-30", 1],
+    ["30-100", 2],
+  ]);
 });
 
 test("drift: sessions in time order, flagged against the last signed-off bias", () => {

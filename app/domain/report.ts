@@ -13,20 +13,7 @@ import { checkRule, checkSensor, isWrap, toleranceMm } from "./shot.ts";
 import { airState } from "./air.ts";
 import { unambiguousIntervalM } from "./phase.ts";
 import { combinedRmseMm } from "./uncertainty.ts";
-import type {
-  AcceptanceTest,
-  BandStats,
-  DriftEntry,
-  IlluminanceBand,
-  ReflectanceClass,
-  ReportShot,
-  ReportShotRow,
-  Rule,
-  SensorReport,
-  SensorReportInput,
-  SensorSpec,
-  ShotFlag,
-} from "./types.ts";
+import type { AcceptanceTest, BandStats, DriftEntry, IlluminanceBand, ReflectanceClass, ReportShot, ReportShotRow, Rule, SensorReport, SensorReportInput, SensorSpec, ShotFlag } from "./types.ts";
 
 /** NSSDA factor: 95 % accuracy = 1.9600 · RMSE. */
 export const NSSDA_FACTOR = 1.96;
@@ -186,7 +173,28 @@ export function aggregateShots(shots: readonly ReportShot[], sensor: SensorSpec,
     const key = `${s.sessionId}\u0000${s.excluded ? 1 : 0}|${rc}|${lb}|${rb}`;
     let g = groups.get(key);
     if (!g) {
-      g = { sessionId: s.sessionId, sessionStartedAt: s.sessionStartedAt, excluded: !!s.excluded, reflectance: rc, illuminance: lb, rangeBand: rb, n: 0, within: 0, s1: 0, s2: 0, sq: 0, d1: 0, d2: 0, de: 0, sumD: 0, sumU2: 0, unknownU: 0, maxAbs: 0, sun: false, airDefaulted: false };
+      g = {
+        sessionId: s.sessionId,
+        sessionStartedAt: s.sessionStartedAt,
+        excluded: !!s.excluded,
+        reflectance: rc,
+        illuminance: lb,
+        rangeBand: rb,
+        n: 0,
+        within: 0,
+        s1: 0,
+        s2: 0,
+        sq: 0,
+        d1: 0,
+        d2: 0,
+        de: 0,
+        sumD: 0,
+        sumU2: 0,
+        unknownU: 0,
+        maxAbs: 0,
+        sun: false,
+        airDefaulted: false,
+      };
       groups.set(key, g);
     }
     g.n++;
@@ -229,7 +237,11 @@ type Session = { id: string; startedAt: string; t: number; n: number; s1: number
 
 /** A band's figures from its groups (the sums shifted by kE). */
 function bandStats<B extends string>(band: B, gs: readonly ReportGroup[], kE: number): BandStats<B> {
-  let n = 0, s1 = 0, s2 = 0, sq = 0, within = 0;
+  let n = 0,
+    s1 = 0,
+    s2 = 0,
+    sq = 0,
+    within = 0;
   for (const g of gs) {
     n += g.n;
     s1 += g.s1;
@@ -284,8 +296,19 @@ export function reportFromAggregates(input: ReportAggregatesInput): SensorReport
   const covDark = new Int32Array(labels.length);
   const covBright = new Int32Array(labels.length);
   let sun = false;
-  let n = 0, excluded = 0, sumD = 0, withinCount = 0, maxAbs = 0, sumU2 = 0, unknownU = 0;
-  let s1 = 0, s2 = 0, sq = 0, d1 = 0, d2 = 0, de = 0;
+  let n = 0,
+    excluded = 0,
+    sumD = 0,
+    withinCount = 0,
+    maxAbs = 0,
+    sumU2 = 0,
+    unknownU = 0;
+  let s1 = 0,
+    s2 = 0,
+    sq = 0,
+    d1 = 0,
+    d2 = 0,
+    de = 0;
   const included: ReportGroup[] = [];
   for (const g of groups) {
     if (g.excluded) {
@@ -379,7 +402,15 @@ export function reportFromAggregates(input: ReportAggregatesInput): SensorReport
   });
   const cov = coverageFromCounts(sensor, labels, covDark, covBright, sun);
   const bands = <B extends string>(names: readonly B[], of: (g: ReportGroup) => number) =>
-    names.map((c, i) => bandStats(c, included.filter((g) => of(g) === i), kE)).filter((x) => x.n > 0);
+    names
+      .map((c, i) =>
+        bandStats(
+          c,
+          included.filter((g) => of(g) === i),
+          kE,
+        ),
+      )
+      .filter((x) => x.n > 0);
 
   return {
     n,
@@ -425,10 +456,7 @@ export function reportRows(shots: readonly ReportShot[], sensor: SensorSpec, rul
   const k = rule.coverageK;
   // wrap: as computed with the shot, or again here against the sensor's (combined) interval in
   // default air (the index changes R_u by ~0.03 %, far below any limit's use here)
-  const ruMm =
-    sensor.kind === "cw" && sensor.modulationHz && sensor.modulationHz.length > 0
-      ? unambiguousIntervalM(sensor.modulationHz, airState({}, sensor.wavelengthNm).n) * 1000
-      : null;
+  const ruMm = sensor.kind === "cw" && sensor.modulationHz && sensor.modulationHz.length > 0 ? unambiguousIntervalM(sensor.modulationHz, airState({}, sensor.wavelengthNm).n) * 1000 : null;
   const rows: ReportShotRow[] = new Array(shots.length);
   for (let i = 0; i < shots.length; i++) {
     const s = shots[i];

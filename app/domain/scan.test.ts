@@ -11,7 +11,11 @@ const board = (centre: V3, offsetMm: number, tiltDeg: number, noiseMm = 0, perSi
 
 function run(boards: Board[], extra: V3[] = [], radius = 0.3, minPoints = 50) {
   const pts = [...boards.flatMap((b, i) => boardPoints(O, b, rng(100 + i))), ...extra];
-  const ex = new ScanExtractor(boards.map((b, i) => ({ id: `t${i}`, t: b.centre })), radius, minPoints);
+  const ex = new ScanExtractor(
+    boards.map((b, i) => ({ id: `t${i}`, t: b.centre })),
+    radius,
+    minPoints,
+  );
   const xyz = new Float64Array(pts.flatMap((p) => p));
   // in two blocks, as the reader hands them over
   const half = Math.floor(pts.length / 2);
@@ -36,7 +40,14 @@ test("noiseless boards at known distances, tilts and offsets: range and incidenc
 
 test("noise and clutter: range to 0.2 mm, plane RMS ≈ the noise, clutter ignored", () => {
   const boards = [board([25, 5, 0.3], 3, 20, 2), board([60, -10, 2], -5, 40, 1.5)];
-  const res = run(boards, clutter(O, boards.map((b) => b.centre), 20000));
+  const res = run(
+    boards,
+    clutter(
+      O,
+      boards.map((b) => b.centre),
+      20000,
+    ),
+  );
   boards.forEach((b, i) => {
     const t = boardTruth(O, b);
     expect(res[i].points).toBe(1600);
@@ -50,7 +61,14 @@ test("noise and clutter: range to 0.2 mm, plane RMS ≈ the noise, clutter ignor
 
 test("too few points, no coordinates, edge-on: not found with the reason", () => {
   const sparse = board([12, 3, 0], 0, 0, 0, 6); // 36 points
-  const ex = new ScanExtractor([{ id: "sparse", t: sparse.centre }, { id: "nogrid", t: null }], 0.3, 50);
+  const ex = new ScanExtractor(
+    [
+      { id: "sparse", t: sparse.centre },
+      { id: "nogrid", t: null },
+    ],
+    0.3,
+    50,
+  );
   ex.add(new Float64Array(boardPoints(O, sparse).flatMap((p) => p)));
   const [a, b] = ex.results();
   expect(a).toMatchObject({ status: "not_found", points: 36, rangeM: null });

@@ -152,7 +152,10 @@ export class ScanExtractor {
 
   #buildGrid() {
     const k = this.#acc.length;
-    let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
+    let x0 = Infinity,
+      y0 = Infinity,
+      x1 = -Infinity,
+      y1 = -Infinity;
     for (let i = 0; i < k; i++) {
       x0 = Math.min(x0, this.#lo[3 * i]);
       y0 = Math.min(y0, this.#lo[3 * i + 1]);

@@ -109,7 +109,16 @@ test("every readings field error carries its path", () => {
   bad({ phase: [] }, "readings.phase", cw);
   bad({ phase: [{ frequencyHz: 20e6, samples: [1, 2] }] }, "readings.phase.0.samples", cw);
   bad({ phase: [{ frequencyHz: 20e6, samples: [7, 7, 7, 7] }] }, "readings.phase.0.samples", cw);
-  bad({ phase: [{ frequencyHz: 20e6, samples: [1, 2, 3, 4] }, { frequencyHz: 0, samples: [1, 2, 3, 4] }] }, "readings.phase.1.frequencyHz", cw);
+  bad(
+    {
+      phase: [
+        { frequencyHz: 20e6, samples: [1, 2, 3, 4] },
+        { frequencyHz: 0, samples: [1, 2, 3, 4] },
+      ],
+    },
+    "readings.phase.1.frequencyHz",
+    cw,
+  );
   bad({ phase: [{ frequencyHz: 20e6, samples: [1, 2, Infinity] }] }, "readings.phase.0.samples.2", cw);
   bad({}, "readings");
   bad({ rangesM: [25], roundTripNs: [166] }, "readings");

@@ -31,9 +31,7 @@ export function tooLarge(request: Request, limit: number): Response {
   const message = `The request body is larger than ${sizeText(limit)} (${limit} bytes), the most this address accepts.`;
   const path = new URL(request.url).pathname;
   const json = path.startsWith("/api/") || path.endsWith("/chunk") || (request.headers.get("Accept") ?? "").includes("application/json");
-  return json
-    ? Response.json({ error: message }, { status: 413 })
-    : new Response(message, { status: 413, statusText: "Content Too Large", headers: { "Content-Type": "text/plain; charset=utf-8" } });
+  return json ? Response.json({ error: message }, { status: 413 }) : new Response(message, { status: 413, statusText: "Content Too Large", headers: { "Content-Type": "text/plain; charset=utf-8" } });
 }
 
 /**

@@ -49,9 +49,7 @@ export function decodeHeader(value: string) {
   return value
     .replace(/(=\?[^?]+\?[QqBb]\?[^?]*\?=)\s+(?==\?)/g, "$1")
     .replace(/=\?([^?]+)\?([QqBb])\?([^?]*)\?=/g, (_m, _charset: string, enc: string, text: string) =>
-      enc.toUpperCase() === "B"
-        ? Buffer.from(text, "base64").toString("utf8")
-        : decodeQuotedPrintable(text.replace(/_/g, " ")),
+      enc.toUpperCase() === "B" ? Buffer.from(text, "base64").toString("utf8") : decodeQuotedPrintable(text.replace(/_/g, " ")),
     );
 }
 

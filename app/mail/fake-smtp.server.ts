@@ -19,7 +19,10 @@ export async function startFakeSmtp(opts: { port: number; mailDir: string; host?
       stream.on("data", (c: Buffer) => chunks.push(c));
       stream.on("end", () => {
         const stamp = new Date().toISOString().replace(/[:.]/g, "-");
-        const to = session.envelope.rcptTo.map((r) => r.address).join(",").replace(/[^a-zA-Z0-9@._,-]/g, "_");
+        const to = session.envelope.rcptTo
+          .map((r) => r.address)
+          .join(",")
+          .replace(/[^a-zA-Z0-9@._,-]/g, "_");
         const name = `${stamp}-${String(++seq).padStart(4, "0")}-${to}.eml`;
         writeFileSync(join(opts.mailDir, name), Buffer.concat(chunks));
         callback();

@@ -158,7 +158,12 @@ async function sendCodeJob(job: CodeJob) {
     await db.update(mailLog).set({ status: "sent", messageId, error: null }).where(eq(mailLog.id, job.logId));
   } catch (e) {
     const error = errorText(e);
-    if (job.logId) await db.update(mailLog).set({ status: "failed", error }).where(eq(mailLog.id, job.logId)).catch(() => undefined);
+    if (job.logId)
+      await db
+        .update(mailLog)
+        .set({ status: "failed", error })
+        .where(eq(mailLog.id, job.logId))
+        .catch(() => undefined);
     const wait = CODE_MAIL_RETRY_MS[job.attempts - 1];
     if (job.attempts < CODE_MAIL_TRIES && wait !== undefined && Date.now() + wait < job.validUntil) {
       const t = setTimeout(() => {
@@ -209,7 +214,10 @@ export async function retryMails(opts: { limit?: number; now?: Date } = {}) {
       await db.update(mailLog).set({ status: "sent", messageId, error: null }).where(eq(mailLog.id, row.id));
       sent++;
     } catch (e) {
-      await db.update(mailLog).set({ status: "failed", error: errorText(e) }).where(eq(mailLog.id, row.id));
+      await db
+        .update(mailLog)
+        .set({ status: "failed", error: errorText(e) })
+        .where(eq(mailLog.id, row.id));
       failed++;
     }
   }

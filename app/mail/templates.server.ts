@@ -93,13 +93,9 @@ ${button(url, "Open Shotbook")}`,
       const subject = `Sensor failed its range check: ${label}`;
       const statement = str(vars.statement);
       const figures = `Bias ${mm(vars.biasMm)}, RMSE ${mm(vars.rmseMm)}${typeof vars.withinPct === "number" ? `, within tolerance ${vars.withinPct.toFixed(1)} %` : ""}.`;
-      const text = [
-        `${label} did not pass its range check (verdict: FAIL).`,
-        ...(statement ? [statement] : []),
-        figures,
-        summary ? `\n${summary}\n` : ``,
-        `See why in the sensor report: ${url}`,
-      ].join("\n");
+      const text = [`${label} did not pass its range check (verdict: FAIL).`, ...(statement ? [statement] : []), figures, summary ? `\n${summary}\n` : ``, `See why in the sensor report: ${url}`].join(
+        "\n",
+      );
       const html = page(
         `Sensor failed: ${label}`,
         `<p><strong>${escapeHtml(label)}</strong> did not pass its range check — verdict: <strong>✗ FAIL</strong>.</p>
@@ -118,14 +114,7 @@ ${button(url, "Open the sensor report")}`,
       const url = link(vars.reportUrl, vars.sensorId ? `/review/sensors/${str(vars.sensorId)}` : "/review");
       const word = decision === "rejected" ? "pulled from the job (rejected)" : "signed off (approved)";
       const subject = `Sensor ${decision === "rejected" ? "rejected" : "signed off"}: ${label}`;
-      const text = [
-        `${by} has ${word} ${label}.`,
-        statement ? statement : ``,
-        expired ? `Traceability: ${expired}.` : ``,
-        note ? `Note: ${note}` : ``,
-        ``,
-        `Report: ${url}`,
-      ].join("\n");
+      const text = [`${by} has ${word} ${label}.`, statement ? statement : ``, expired ? `Traceability: ${expired}.` : ``, note ? `Note: ${note}` : ``, ``, `Report: ${url}`].join("\n");
       const html = page(
         subject,
         `<p>${escapeHtml(by)} has ${escapeHtml(word)} <strong>${escapeHtml(label)}</strong>.</p>

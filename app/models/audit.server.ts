@@ -6,14 +6,7 @@ import { auditLog } from "~/db/schema";
 
 type Tx = Pick<Db, "insert">;
 
-export async function audit(
-  actorUserId: string | null,
-  action: string,
-  entity: string,
-  entityId: string | null,
-  detail?: unknown,
-  tx: Tx = getDb(),
-) {
+export async function audit(actorUserId: string | null, action: string, entity: string, entityId: string | null, detail?: unknown, tx: Tx = getDb()) {
   await tx.insert(auditLog).values({ actorUserId, action, entity, entityId, detail: detail ?? null });
 }
 

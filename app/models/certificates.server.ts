@@ -27,7 +27,11 @@ export async function certificatesFallingDue(today = new Date().toISOString().sl
     db.select(cols(edms)).from(edms).where(live(edms)),
   ]);
   const out: DueCertificate[] = [];
-  for (const [kind, rows] of [["sensor", s], ["tape", t], ["edm", e]] as const) {
+  for (const [kind, rows] of [
+    ["sensor", s],
+    ["tape", t],
+    ["edm", e],
+  ] as const) {
     for (const r of rows) {
       const days = daysUntil(r.due!, today);
       if (days <= NOTICE_DAYS) out.push({ kind, id: r.id, label: r.label, number: r.number!, laboratory: r.laboratory, due: r.due!, days });
@@ -43,11 +47,7 @@ export async function notifyCertificatesDue(opts: { today?: string } = {}): Prom
   const admins = await listUserEmailsByRole(["admin"]);
   const sent: DueCertificate[] = [];
   for (const c of due) {
-    const claimed = await getDb()
-      .insert(certificateNotices)
-      .values({ kind: c.kind, entityId: c.id, number: c.number, due: c.due })
-      .onConflictDoNothing()
-      .returning({ kind: certificateNotices.kind });
+    const claimed = await getDb().insert(certificateNotices).values({ kind: c.kind, entityId: c.id, number: c.number, due: c.due }).onConflictDoNothing().returning({ kind: certificateNotices.kind });
     if (!claimed.length) continue; // already announced
     await sendTemplateMail("certificate-due", admins, {
       kind: c.kind,

@@ -6,16 +6,7 @@ import { asc, eq, isNull } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { edms } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import {
-  certificateColumns,
-  edmSchema,
-  invalid,
-  issuesToErrors,
-  stableStringify,
-  type EdmBody,
-  type NotFound,
-  type RegistryResult,
-} from "~/models/registry-schemas";
+import { certificateColumns, edmSchema, invalid, issuesToErrors, stableStringify, type EdmBody, type NotFound, type RegistryResult } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForEdm } from "~/models/shots.server";
 
@@ -69,9 +60,7 @@ async function createEdmOnce(actor: RegistryActor, body: unknown, retry: boolean
   if (b.id) {
     const existing = await getEdm(b.id);
     if (existing) {
-      return sameContent(existing, b)
-        ? { status: 200, body: { id: existing.id } }
-        : { status: 409, body: { error: `A reference EDM with id "${b.id}" exists with other content.` } };
+      return sameContent(existing, b) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A reference EDM with id "${b.id}" exists with other content.` } };
     }
   } else {
     const twins = await db.select().from(edms).where(eq(edms.serial, b.serial));
@@ -101,7 +90,10 @@ export async function updateEdm(actor: RegistryActor, id: string, body: unknown)
   const changes = changedFields(rowContent(before, true), after);
   if (Object.keys(changes).length === 0) return { status: 200, body: { id, changed: [] } };
   await getDb().transaction(async (tx) => {
-    await tx.update(edms).set({ ...after, updatedAt: nowIso() }).where(eq(edms.id, id));
+    await tx
+      .update(edms)
+      .set({ ...after, updatedAt: nowIso() })
+      .where(eq(edms.id, id));
     await audit(actorId(actor), "update", "edm", id, changes, tx);
   });
   // u_ref of the shots that name this EDM is stored with them: recompute those

@@ -50,7 +50,10 @@ function parseReason(body: unknown): { reason: string } | { errors: RecordError[
 export async function excludeShot(actor: Actor, shotId: string, body: unknown, db: Db = getDb()): Promise<Answer> {
   // issue 14: a shot outside the actor's projects answers as an unknown one
   const scope = await scopeOf(actor, db);
-  const [shot] = await db.select({ id: shots.id, excluded: shots.excluded }).from(shots).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
+  const [shot] = await db
+    .select({ id: shots.id, excluded: shots.excluded })
+    .from(shots)
+    .where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId}.` } };
   const parsed = parseReason(body);
   if ("errors" in parsed) return { status: 400, body: { error: "A reason is required.", errors: parsed.errors } };
@@ -69,7 +72,10 @@ export async function excludeShot(actor: Actor, shotId: string, body: unknown, d
 /** Restores an excluded shot: the exclusion row stays, closed with who, when and why. */
 export async function restoreShot(actor: Actor, shotId: string, body: unknown, db: Db = getDb()): Promise<Answer> {
   const scope = await scopeOf(actor, db);
-  const [shot] = await db.select({ id: shots.id }).from(shots).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
+  const [shot] = await db
+    .select({ id: shots.id })
+    .from(shots)
+    .where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId}.` } };
   const parsed = parseReason(body);
   if ("errors" in parsed) return { status: 400, body: { error: "A reason is required.", errors: parsed.errors } };

@@ -122,9 +122,7 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
     sites: siteRows.map((s) => ({
       ...s,
       stations: stationRows.filter((r) => r.siteId === s.id).map((r) => ({ id: r.id, label: r.label, ...point(r) })),
-      targets: targetRows
-        .filter((r) => r.siteId === s.id)
-        .map((r) => ({ id: r.id, label: r.label, reflectancePct: r.reflectancePct, retro: r.retro, referenceM: r.referenceM, ...point(r) })),
+      targets: targetRows.filter((r) => r.siteId === s.id).map((r) => ({ id: r.id, label: r.label, reflectancePct: r.reflectancePct, retro: r.retro, referenceM: r.referenceM, ...point(r) })),
     })),
     tapes: tapeRows,
     projects: projectRows.map((p) => ({

@@ -60,7 +60,11 @@ export async function projectsHome(actor: Actor): Promise<HomeProject[]> {
         n: report.n,
         rmseMm: report.rmseMm,
         lastSessionAt: mine[0]!.startedAt,
-        href: reportHref(s.id, p.id, mine.map((x) => x.id)),
+        href: reportHref(
+          s.id,
+          p.id,
+          mine.map((x) => x.id),
+        ),
       });
     }
     out.push({ ...p, sensors: list });

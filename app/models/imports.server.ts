@@ -22,8 +22,16 @@ export async function importContext(actor: Actor) {
   const db = getDb();
   const scope = await scopeOf(actor, db);
   const [sensorRows, siteRows, targetRows, mappingRows, projectRows] = await Promise.all([
-    db.select().from(sensors).where(and(isNull(sensors.retiredAt), sensorListedInScope(scope, sensors.id))).orderBy(asc(sensors.label)),
-    db.select({ id: sites.id, name: sites.name }).from(sites).where(and(isNull(sites.retiredAt), siteListedInScope(scope, sites.id))).orderBy(asc(sites.name)),
+    db
+      .select()
+      .from(sensors)
+      .where(and(isNull(sensors.retiredAt), sensorListedInScope(scope, sensors.id)))
+      .orderBy(asc(sensors.label)),
+    db
+      .select({ id: sites.id, name: sites.name })
+      .from(sites)
+      .where(and(isNull(sites.retiredAt), siteListedInScope(scope, sites.id)))
+      .orderBy(asc(sites.name)),
     db
       .select({ id: targets.id, siteId: targets.siteId, label: targets.label, reflectancePct: targets.reflectancePct, referenceM: targets.referenceM })
       .from(targets)
@@ -87,9 +95,7 @@ const chunkSchema = z.object({
 });
 
 export type RowResult = { row: number; id: string; status: "accepted" | "duplicate" | "rejected"; errors: RowError[] };
-export type ChunkAnswer =
-  | { status: 200; body: { session: { status: string; errors: RowError[] }; rows: RowResult[] } }
-  | { status: 400 | 404; body: { error: string; errors?: RowError[] } };
+export type ChunkAnswer = { status: 200; body: { session: { status: string; errors: RowError[] }; rows: RowResult[] } } | { status: 400 | 404; body: { error: string; errors?: RowError[] } };
 
 export async function saveMapping(actor: Actor, sensorId: string, mapping: ImportMapping) {
   const db = getDb();

@@ -53,11 +53,7 @@ export async function addMember(actor: Actor, projectId: string, userId: string)
   if (!user) return noUser(userId);
   const db = getDb();
   // One statement decides, so two admins adding the same person at once write one row and one audit entry.
-  const inserted = await db
-    .insert(projectMembers)
-    .values({ projectId, userId, addedBy: actor.id })
-    .onConflictDoNothing()
-    .returning({ userId: projectMembers.userId });
+  const inserted = await db.insert(projectMembers).values({ projectId, userId, addedBy: actor.id }).onConflictDoNothing().returning({ userId: projectMembers.userId });
   if (inserted.length === 0) return { status: 200, body: { projectId, userId, changed: false } };
   await audit(actor.id, "member.add", "project", projectId, { userId, email: user.email, role: user.role, project: project.name });
   return { status: 201, body: { projectId, userId, changed: true } };

@@ -83,11 +83,18 @@ export async function savePhoto(actor: Actor, shotId: unknown, file: ReceivedPho
 
   // issue 14: a shot outside the actor's projects answers as an unknown one
   const scope = await scopeOf(actor, db);
-  const [shot] = await db.select({ id: shots.id }).from(shots).where(and(eq(shots.id, shotId as string), sessionIdInScope(scope, shots.sessionId)));
+  const [shot] = await db
+    .select({ id: shots.id })
+    .from(shots)
+    .where(and(eq(shots.id, shotId as string), sessionIdInScope(scope, shots.sessionId)));
   if (!shot) return { status: 404, body: { error: `No shot ${shotId as string}: sync the shot before its photo.` } };
 
   const sha256 = file.sha256;
-  const same = () => db.select(cols).from(photos).where(and(eq(photos.shotId, shot.id), eq(photos.sha256, sha256)));
+  const same = () =>
+    db
+      .select(cols)
+      .from(photos)
+      .where(and(eq(photos.shotId, shot.id), eq(photos.sha256, sha256)));
   const [existing] = await same();
   if (existing) return { status: 200, body: { photo: toJson(existing) } };
 
@@ -97,10 +104,7 @@ export async function savePhoto(actor: Actor, shotId: unknown, file: ReceivedPho
   // the file first, then its row: a row never points at a file that is not there
   await store.put(photoKey(name), Readable.toWeb(createReadStream(file.path)) as ReadableStream<Uint8Array>, { contentType: kind.type, bytes: file.bytes });
   try {
-    const [row] = await db
-      .insert(photos)
-      .values({ id, shotId: shot.id, contentType: kind.type, bytes: file.bytes, sha256, path: name, uploadedBy: actor.id })
-      .returning(cols);
+    const [row] = await db.insert(photos).values({ id, shotId: shot.id, contentType: kind.type, bytes: file.bytes, sha256, path: name, uploadedBy: actor.id }).returning(cols);
     return { status: 201, body: { photo: toJson(row!) } };
   } catch (e) {
     // the same photo arriving twice at once: the unique (shot, sha256) index keeps one
@@ -117,7 +121,10 @@ const photoKey = (name: string) => `photos/${name.replace(/[/\\]/g, "")}`;
 /** The photos of a shot; null when the shot is unknown or outside the actor's projects (404 either way). */
 export async function listPhotos(actor: Actor, shotId: string, db: Db = getDb()): Promise<PhotoJson[] | null> {
   const scope = await scopeOf(actor, db);
-  const [shot] = await db.select({ id: shots.id }).from(shots).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
+  const [shot] = await db
+    .select({ id: shots.id })
+    .from(shots)
+    .where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)));
   if (!shot) return null;
   const rows = await db.select(cols).from(photos).where(eq(photos.shotId, shotId)).orderBy(asc(photos.createdAt), asc(photos.id));
   return rows.map(toJson);

@@ -14,30 +14,8 @@ import { and, asc, desc, eq, inArray, sql } from "drizzle-orm";
 import { Zip, ZipDeflate, ZipPassThrough, strToU8 } from "fflate";
 import Papa from "papaparse";
 import { getDb, type Db } from "~/db/client.server";
-import {
-  checkSessions,
-  exclusions,
-  photos,
-  projectReportVersions,
-  projects,
-  projectSensors,
-  projectSites,
-  sensors,
-  shots,
-  signOffs,
-  sites,
-  targets,
-  users,
-} from "~/db/schema";
-import {
-  accuracyStatement,
-  explainVerdict,
-  PROJECT_REPORT_FORMAT,
-  versionedNumber,
-  type ProjectReportContent,
-  type ProjectReportSensor,
-  type ProjectSensorFigures,
-} from "~/domain";
+import { checkSessions, exclusions, photos, projectReportVersions, projects, projectSensors, projectSites, sensors, shots, signOffs, sites, targets, users } from "~/db/schema";
+import { accuracyStatement, explainVerdict, PROJECT_REPORT_FORMAT, versionedNumber, type ProjectReportContent, type ProjectReportSensor, type ProjectSensorFigures } from "~/domain";
 import type { Actor } from "./actor";
 import { audit } from "./audit.server";
 import { openPhoto, type PhotoRow } from "./photos.server";
@@ -240,7 +218,14 @@ export async function buildProjectReportContent(actor: Actor, project: ProjectRo
     };
     if (sessionIds.length === 0) {
       // without a session of its own an empty selection would mean "all the sensor's shots"
-      sensorList.push({ ...head, figures: null, verdict: "insufficient", statementSentence: "Not tested on this project: no check-shots.", why: [`No check-shots on this project (the rule asks for at least ${rule.minShots}).`], shotsSha256: sha256Hex("[]") });
+      sensorList.push({
+        ...head,
+        figures: null,
+        verdict: "insufficient",
+        statementSentence: "Not tested on this project: no check-shots.",
+        why: [`No check-shots on this project (the rule asks for at least ${rule.minShots}).`],
+        shotsSha256: sha256Hex("[]"),
+      });
       continue;
     }
     const { why, shotsSha256, ...figures } = await sensorFigures(actor, s.id, pid, sessionIds, db);
@@ -389,7 +374,13 @@ export async function listProjectReportVersions(actor: Actor, projectId: string,
     .leftJoin(users, eq(users.id, projectReportVersions.createdBy))
     .where(eq(projectReportVersions.projectId, projectId))
     .orderBy(desc(projectReportVersions.version));
-  return rows.map((r) => ({ version: r.version, number: versionedNumber(projectId, r.version), sha256: r.sha256, createdAt: r.createdAt, createdBy: r.byName || r.byEmail ? who(r.byName, r.byEmail) : "Shotbook" }));
+  return rows.map((r) => ({
+    version: r.version,
+    number: versionedNumber(projectId, r.version),
+    sha256: r.sha256,
+    createdAt: r.createdAt,
+    createdBy: r.byName || r.byEmail ? who(r.byName, r.byEmail) : "Shotbook",
+  }));
 }
 
 /** One stored version as it was (null when unknown or out of the actor's scope). */

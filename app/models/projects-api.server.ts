@@ -28,11 +28,7 @@ const RULE_KEYS = {
   edmUncertaintyPpm: true,
 } as const;
 
-const emailEntry = z
-  .string({ error: "A member is given by e-mail address (text)" })
-  .trim()
-  .max(254, "That address is too long")
-  .pipe(z.email("That does not look like an e-mail address"));
+const emailEntry = z.string({ error: "A member is given by e-mail address (text)" }).trim().max(254, "That address is too long").pipe(z.email("That does not look like an e-mail address"));
 
 export const projectApiSchema = projectSchema.pick({ id: true, name: true, client: true, notes: true, sensorIds: true, siteIds: true }).extend({
   memberEmails: z.array(emailEntry, { error: "memberEmails is a list of e-mail addresses" }).max(500, "At most 500 members").default([]),
@@ -84,9 +80,7 @@ async function createOnce(actor: Actor, raw: unknown, retry: boolean): Promise<R
   if (body.id) {
     const existing = await getProject(body.id);
     if (existing) {
-      return (await sameContent(existing, p.value))
-        ? { status: 200, body: { id: existing.id } }
-        : { status: 409, body: { error: `A project with id "${body.id}" exists with other content.` } };
+      return (await sameContent(existing, p.value)) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A project with id "${body.id}" exists with other content.` } };
     }
   } else {
     // Without an id the same body again is recognised by its content (as POST /api/sensors does).

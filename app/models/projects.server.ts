@@ -5,16 +5,7 @@ import { DEFAULT_RULE, type Rule } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { projectSensors, projectSites, projects, sensors, sites } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import {
-  invalid,
-  issuesToErrors,
-  projectSchema,
-  stableStringify,
-  type FieldError,
-  type NotFound,
-  type ProjectBody,
-  type RegistryResult,
-} from "~/models/registry-schemas";
+import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForProject, RULE_COLUMNS, ruleOf } from "~/models/shots.server";
 import { sitesExist } from "~/models/sites.server";
@@ -92,9 +83,7 @@ async function createProjectOnce(actor: RegistryActor, body: unknown, retry: boo
   if (b.id) {
     const existing = await getProject(b.id);
     if (existing) {
-      return sameContent(existing, b)
-        ? { status: 200, body: { id: existing.id } }
-        : { status: 409, body: { error: `A project with id "${b.id}" exists with other content.` } };
+      return sameContent(existing, b) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A project with id "${b.id}" exists with other content.` } };
     }
   } else {
     const twins = await db.select({ id: projects.id }).from(projects).where(eq(projects.name, b.name));
@@ -130,7 +119,10 @@ export async function updateProject(actor: RegistryActor, id: string, body: unkn
   if (Object.keys(changes).length === 0) return { status: 200, body: { id, changed: [] } };
   const { sensorIds, siteIds, ...cols } = after;
   await getDb().transaction(async (tx) => {
-    await tx.update(projects).set({ ...cols, updatedAt: nowIso() }).where(eq(projects.id, id));
+    await tx
+      .update(projects)
+      .set({ ...cols, updatedAt: nowIso() })
+      .where(eq(projects.id, id));
     // Link rows only say which sensors and sites a project uses; shots never refer to them.
     if ("sensorIds" in changes) {
       await tx.delete(projectSensors).where(eq(projectSensors.projectId, id));

@@ -30,7 +30,16 @@ export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; p
 export type ProjectFilter = string[] | null;
 
 /** issue 15: a certificate behind the report and the sessions it was past due on (ranging.md §7). */
-export type TraceabilityEntry = { kind: "sensor" | "tape" | "edm"; id: string; label: string; number: string | null; laboratory: string | null; issued: string | null; due: string | null; expiredOnSessions: string[] };
+export type TraceabilityEntry = {
+  kind: "sensor" | "tape" | "edm";
+  id: string;
+  label: string;
+  number: string | null;
+  laboratory: string | null;
+  issued: string | null;
+  due: string | null;
+  expiredOnSessions: string[];
+};
 
 /** The report exactly as api.md lists its fields (the domain's `failed` is the tests with pass false). */
 export type SensorReportJson = {
@@ -78,7 +87,10 @@ export function parseReportQuery(params: URLSearchParams): ReportQuery | QueryEr
   if (sessions.length) out.sessionIds = sessions;
   const project = params.get("project");
   if (project) out.projectId = project;
-  for (const inc of params.getAll("include").flatMap((v) => v.split(",")).filter(Boolean)) {
+  for (const inc of params
+    .getAll("include")
+    .flatMap((v) => v.split(","))
+    .filter(Boolean)) {
     if (inc === "shots") out.includeShots = true;
     else errors.push({ path: "include", message: `include may only be "shots" (got "${inc}")` });
   }
@@ -110,9 +122,7 @@ function selectionWhere(db: Db, sensorId: string, q: ReportQuery, projectIds: Pr
   const where = [eq(shots.sensorId, sensorId), ...periodWhere(q.from, q.to)];
   if (q.sessionIds?.length) where.push(inArray(shots.sessionId, q.sessionIds));
   if (projectIds) {
-    where.push(
-      projectIds.length ? inArray(shots.sessionId, db.select({ id: checkSessions.id }).from(checkSessions).where(inArray(checkSessions.projectId, projectIds))) : sql`0`,
-    );
+    where.push(projectIds.length ? inArray(shots.sessionId, db.select({ id: checkSessions.id }).from(checkSessions).where(inArray(checkSessions.projectId, projectIds))) : sql`0`);
   }
   return where;
 }
@@ -173,8 +183,7 @@ function packedQuery(db: Db, where: SQL[]) {
 }
 type Packed = Awaited<ReturnType<typeof packedQuery>>[number];
 
-const sessionsQuery = (db: Db, sensorId: string) =>
-  db.select({ id: checkSessions.id, startedAt: checkSessions.startedAt }).from(checkSessions).where(eq(checkSessions.sensorId, sensorId));
+const sessionsQuery = (db: Db, sensorId: string) => db.select({ id: checkSessions.id, startedAt: checkSessions.startedAt }).from(checkSessions).where(eq(checkSessions.sensorId, sensorId));
 
 function numbers(text: string | null, n: number): (number | null)[] | null {
   if (text == null) return null;
@@ -209,7 +218,14 @@ function unpack(p: Packed | undefined, sessions: { id: string; startedAt: string
   const out: ReportShot[] = new Array(n);
   for (let i = 0; i < n; i++) {
     const s = started.get(ses[i]!);
-    const r = ref[i], g = range[i], e = err[i], q = rep[i], f = refl[i], l = lux[i], b = bits[i], u = unc[i];
+    const r = ref[i],
+      g = range[i],
+      e = err[i],
+      q = rep[i],
+      f = refl[i],
+      l = lux[i],
+      b = bits[i],
+      u = unc[i];
     if (!s || !isNum(r) || !isNum(g) || !isNum(e) || !isNum(f) || !isNum(b) || (q !== null && !isNum(q)) || (l !== null && !isNum(l)) || (u !== null && !isNum(u))) return null;
     // kept rows are shared by every report of the sensor: frozen, like the reports
     out[i] = Object.freeze({
@@ -243,7 +259,7 @@ function inTimeOrder(list: ReportShot[]): ReportShot[] {
   for (let i = 1; i < list.length; i++) {
     if (list[i - 1]!.takenAt > list[i]!.takenAt) return list.sort(byTimeThenId);
   }
-  for (let i = 0; i < list.length; ) {
+  for (let i = 0; i < list.length;) {
     let j = i + 1;
     while (j < list.length && list[j]!.takenAt === list[i]!.takenAt) j++;
     if (j - i > 1) {
@@ -283,10 +299,7 @@ export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { 
 /** ranging.md §5's bands as SQL, the same comparisons as app/domain's reflectanceIndex, illuminanceIndex, rangeBandIndex. */
 function bandColumns(edges: number[]) {
   const d = shots.referenceM;
-  const rb = sql.join(
-    [sql`CASE WHEN ${d} < ${edges[0]} THEN -1`, ...edges.slice(1).map((edge, i) => sql`WHEN ${d} < ${edge} THEN ${i}`), sql`ELSE ${edges.length - 1} END`],
-    sql` `,
-  );
+  const rb = sql.join([sql`CASE WHEN ${d} < ${edges[0]} THEN -1`, ...edges.slice(1).map((edge, i) => sql`WHEN ${d} < ${edge} THEN ${i}`), sql`ELSE ${edges.length - 1} END`], sql` `);
   return {
     rc: sql`CASE WHEN ${shots.retro} THEN 3 WHEN ${shots.reflectancePct} < 20 THEN 0 WHEN ${shots.reflectancePct} <= 60 THEN 1 ELSE 2 END`,
     lb: sql`CASE WHEN ${shots.illuminanceKlux} IS NULL THEN -1 WHEN ${shots.illuminanceKlux} < 10 THEN 0 WHEN ${shots.illuminanceKlux} < 50 THEN 1 ELSE 2 END`,
@@ -526,13 +539,26 @@ async function readState(db: Db, sensorId: string, projectId: string | undefined
           eq(sensors.id, sensorId),
           projectIds
             ? or(
-                exists(db.select({ one: sql`1` }).from(projectSensors).where(and(eq(projectSensors.sensorId, sensorId), mine(projectSensors.projectId)))),
-                exists(db.select({ one: sql`1` }).from(checkSessions).where(and(eq(checkSessions.sensorId, sensorId), projectIds.length ? inArray(checkSessions.projectId, projectIds) : sql`0`))),
+                exists(
+                  db
+                    .select({ one: sql`1` })
+                    .from(projectSensors)
+                    .where(and(eq(projectSensors.sensorId, sensorId), mine(projectSensors.projectId))),
+                ),
+                exists(
+                  db
+                    .select({ one: sql`1` })
+                    .from(checkSessions)
+                    .where(and(eq(checkSessions.sensorId, sensorId), projectIds.length ? inArray(checkSessions.projectId, projectIds) : sql`0`)),
+                ),
               )
             : undefined,
         ),
       ),
-    db.select({ v: sql<string | null>`group_concat(${checkSessions.id} || '=' || ifnull(${checkSessions.projectId}, ''))` }).from(checkSessions).where(eq(checkSessions.sensorId, sensorId)),
+    db
+      .select({ v: sql<string | null>`group_concat(${checkSessions.id} || '=' || ifnull(${checkSessions.projectId}, ''))` })
+      .from(checkSessions)
+      .where(eq(checkSessions.sensorId, sensorId)),
     ...stampQueries(db, sensorId),
   ]);
   const rule: State["rule"] = projectId
@@ -578,7 +604,15 @@ export function clearReportCache(db: Db = getDb()) {
 // ---------------------------------------------------------------------------------------------
 // The report.
 
-function toJson(sensorId: string, rule: Rule, ruleProjectId: string | null, r: Omit<SensorReport, "shots" | "failed">, defaulted: Set<string>, traceability: TraceabilityEntry[], rows: ReportShotRow[] | null): SensorReportSummaryJson & { shots?: ReportShotRow[] } {
+function toJson(
+  sensorId: string,
+  rule: Rule,
+  ruleProjectId: string | null,
+  r: Omit<SensorReport, "shots" | "failed">,
+  defaulted: Set<string>,
+  traceability: TraceabilityEntry[],
+  rows: ReportShotRow[] | null,
+): SensorReportSummaryJson & { shots?: ReportShotRow[] } {
   // api.md's field order
   return {
     sensorId,
@@ -634,8 +668,7 @@ function toJson(sensorId: string, rule: Rule, ruleProjectId: string | null, r: O
  * `startedAt`: every session of the selection (excluded shots too).
  */
 function traceabilityOf(sensor: typeof sensors.$inferSelect, startedAt: Map<string, string>, uses: Use[], tapeCerts: CertRow[], edmCerts: CertRow[]): TraceabilityEntry[] {
-  const expired = (due: string | null, ids: Iterable<string>) =>
-    [...ids].filter((id) => pastDueOn(due, startedAt.get(id) ?? "")).sort((a, b) => (startedAt.get(a)! < startedAt.get(b)! ? -1 : 1));
+  const expired = (due: string | null, ids: Iterable<string>) => [...ids].filter((id) => pastDueOn(due, startedAt.get(id) ?? "")).sort((a, b) => (startedAt.get(a)! < startedAt.get(b)! ? -1 : 1));
   const out: TraceabilityEntry[] = [];
   if (sensor.certNumber || sensor.certDue) {
     out.push({
@@ -651,13 +684,19 @@ function traceabilityOf(sensor: typeof sensors.$inferSelect, startedAt: Map<stri
   }
   const used = { tape: new Map<string, Set<string>>(), edm: new Map<string, Set<string>>() };
   for (const u of uses) {
-    for (const [kind, id] of [["tape", u.tapeId], ["edm", u.edmId]] as const) {
+    for (const [kind, id] of [
+      ["tape", u.tapeId],
+      ["edm", u.edmId],
+    ] as const) {
       if (!id) continue;
       if (!used[kind].has(id)) used[kind].set(id, new Set());
       used[kind].get(id)!.add(u.sessionId);
     }
   }
-  for (const [kind, certs] of [["tape", tapeCerts], ["edm", edmCerts]] as const) {
+  for (const [kind, certs] of [
+    ["tape", tapeCerts],
+    ["edm", edmCerts],
+  ] as const) {
     const byId = new Map(certs.map((c) => [c.id, c]));
     for (const [id, sessionsUsed] of [...used[kind]].sort(([a], [b]) => (a < b ? -1 : 1))) {
       const c = byId.get(id);
@@ -687,7 +726,14 @@ type Built = {
 type BuiltWithRows = Omit<Built, "body"> & { body: SensorReportJson };
 
 const queryKey = (sensorId: string, q: ReportQuery, projectIds: ProjectFilter) =>
-  JSON.stringify([sensorId, q.from ? periodDay(q.from) : null, q.to ? periodDay(q.to) : null, [...new Set(q.sessionIds ?? [])].sort(), q.projectId ?? null, projectIds ? [...projectIds].sort() : null]);
+  JSON.stringify([
+    sensorId,
+    q.from ? periodDay(q.from) : null,
+    q.to ? periodDay(q.to) : null,
+    [...new Set(q.sessionIds ?? [])].sort(),
+    q.projectId ?? null,
+    projectIds ? [...projectIds].sort() : null,
+  ]);
 
 function checkedQuery(query: ReportQuery | URLSearchParams): ReportQuery | QueryError {
   const q = query instanceof URLSearchParams ? parseReportQuery(query) : query;
@@ -705,7 +751,13 @@ function checkedQuery(query: ReportQuery | URLSearchParams): ReportQuery | Query
  * rows, computed from the shots read for it; without, it comes from the sums and the error
  * index and is kept while its fingerprint holds.
  */
-async function report(sensorId: string, query: ReportQuery | URLSearchParams, projectIds: ProjectFilter, opts: { rows?: boolean; details?: boolean }, db: Db): Promise<{ built: Built; kept: Kept | null } | QueryError> {
+async function report(
+  sensorId: string,
+  query: ReportQuery | URLSearchParams,
+  projectIds: ProjectFilter,
+  opts: { rows?: boolean; details?: boolean },
+  db: Db,
+): Promise<{ built: Built; kept: Kept | null } | QueryError> {
   const q = checkedQuery(query);
   if ("status" in q) return q;
   const state = await readState(db, sensorId, q.projectId, projectIds);
@@ -742,7 +794,12 @@ async function report(sensorId: string, query: ReportQuery | URLSearchParams, pr
   const [groupRows, sortedRows, ses, uses] = await db.batch([groupsQuery(db, where, row, rule), sortedErrorsQuery(db, where), sessionsQuery(db, sensorId), usesQuery(db, where)]);
   const startedAt = new Map(ses.map((s) => [s.id, s.startedAt] as const));
   const { groups, kE, kD } = groupsOf(groupRows, startedAt);
-  const { failed: _failed, shots: _rows, outlier: _outlier, ...r } = reportFromAggregates({ sensor: spec, rule, aggregates: { kE, kD, groups, sortedErrors: sortedErrorsOf(sortedRows[0]) }, lastSignedOffBiasMm: state.lastBias });
+  const {
+    failed: _failed,
+    shots: _rows,
+    outlier: _outlier,
+    ...r
+  } = reportFromAggregates({ sensor: spec, rule, aggregates: { kE, kD, groups, sortedErrors: sortedErrorsOf(sortedRows[0]) }, lastSignedOffBiasMm: state.lastBias });
   const inSelection = new Map<string, string>();
   const defaulted = new Set<string>();
   for (const g of groups) {
@@ -773,7 +830,13 @@ const filterOf = async (actor: Actor, db: Db): Promise<ProjectFilter> => {
  * The report with its per-shot rows for a reader limited to `projectIds` (null: all sessions);
  * `details` adds each shot's note and target label (the CSV export). A refusal as a QueryError.
  */
-export async function sensorReportFor(sensorId: string, query: ReportQuery | URLSearchParams, projectIds: ProjectFilter, opts: { details?: boolean } = {}, db: Db = getDb()): Promise<BuiltWithRows | QueryError> {
+export async function sensorReportFor(
+  sensorId: string,
+  query: ReportQuery | URLSearchParams,
+  projectIds: ProjectFilter,
+  opts: { details?: boolean } = {},
+  db: Db = getDb(),
+): Promise<BuiltWithRows | QueryError> {
   const r = await report(sensorId, query, projectIds, { rows: true, details: opts.details }, db);
   return "built" in r ? (r.built as BuiltWithRows) : r;
 }
@@ -841,7 +904,10 @@ export async function buildSensorReport(actor: Actor, sensorId: string, query: R
  * before it (offsets span −12 h to +14 h), so only those shots are compared.
  */
 async function lastShotAtOf(db: Db, where: SQL[]): Promise<string | null> {
-  const [top] = await db.select({ t: sql<string | null>`max(${shots.takenAt})` }).from(shots).where(and(...where));
+  const [top] = await db
+    .select({ t: sql<string | null>`max(${shots.takenAt})` })
+    .from(shots)
+    .where(and(...where));
   if (!top?.t) return null;
   const day = Date.parse(`${top.t.slice(0, 10)}T00:00:00Z`);
   if (Number.isNaN(day)) return top.t;
@@ -856,7 +922,11 @@ async function lastShotAtOf(db: Db, where: SQL[]): Promise<string | null> {
 }
 
 /** GET /api/sensors: every live sensor the actor may see, with its verdict over the shots they may see. */
-export async function listSensorSummaries(actor: Actor, query: { projectId?: string } | URLSearchParams = {}, db: Db = getDb()): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
+export async function listSensorSummaries(
+  actor: Actor,
+  query: { projectId?: string } | URLSearchParams = {},
+  db: Db = getDb(),
+): Promise<{ status: 200; body: { sensors: SensorSummary[] } } | QueryError> {
   const projectId = query instanceof URLSearchParams ? (query.get("project") ?? undefined) : query.projectId;
   const projectIds = await filterOf(actor, db);
   let rows = await db.select().from(sensors).where(isNull(sensors.retiredAt)).orderBy(asc(sensors.label), asc(sensors.id));

@@ -143,11 +143,19 @@ export async function createReshoot(actor: Actor, sensorId: string, input: Omit<
   const [sensor] = await db.select({ id: sensors.id, label: sensors.label, retiredAt: sensors.retiredAt }).from(sensors).where(eq(sensors.id, sensorId)).limit(1);
   if (!sensor || !anyInScope(scope, h.ofSensor(sensorId))) throw new ReshootError("There is no sensor with this id.", 404);
   if (sensor.retiredAt) throw new ReshootError(`${sensor.label} is retired: the crew cannot shoot it any more.`, 400, "siteId");
-  const [site] = await db.select({ id: sites.id, name: sites.name }).from(sites).where(and(eq(sites.id, input.siteId), isNull(sites.retiredAt))).limit(1);
+  const [site] = await db
+    .select({ id: sites.id, name: sites.name })
+    .from(sites)
+    .where(and(eq(sites.id, input.siteId), isNull(sites.retiredAt)))
+    .limit(1);
   if (!site || !anyInScope(scope, h.ofSite(site.id))) throw new ReshootError("Choose one of the listed sites.", 400, "siteId");
   const projectId = input.projectId || null;
   if (projectId) {
-    const [p] = await db.select({ id: projects.id, name: projects.name }).from(projects).where(and(eq(projects.id, projectId), isNull(projects.retiredAt))).limit(1);
+    const [p] = await db
+      .select({ id: projects.id, name: projects.name })
+      .from(projects)
+      .where(and(eq(projects.id, projectId), isNull(projects.retiredAt)))
+      .limit(1);
     if (!p || !inScope(scope, p.id)) throw new ReshootError("Choose one of the listed projects.", 400, "projectId");
     if (!h.ofBoth(sensorId, site.id).includes(p.id)) {
       throw new ReshootError(`${p.name} does not hold both ${sensor.label} and ${site.name}: its crew would not see the request. Add them to the project first, or choose another.`, 400, "projectId");
@@ -155,10 +163,7 @@ export async function createReshoot(actor: Actor, sensorId: string, input: Omit<
   } else if (!anyInScope(scope, h.ofBoth(sensorId, site.id))) {
     throw new ReshootError(`None of your projects holds both ${sensor.label} and ${site.name}: no crew would see the request.`, 400, "siteId");
   }
-  const [row] = await db
-    .insert(reshootRequests)
-    .values({ sensorId, siteId: site.id, projectId, wanted: input.wanted, reason: input.reason, byUserId: actor.id })
-    .returning({ id: reshootRequests.id });
+  const [row] = await db.insert(reshootRequests).values({ sensorId, siteId: site.id, projectId, wanted: input.wanted, reason: input.reason, byUserId: actor.id }).returning({ id: reshootRequests.id });
   await audit(actor.id, "reshoot.request", "reshoot_request", row!.id, { sensorId, siteId: site.id, projectId, wanted: input.wanted, reason: input.reason });
   return (await rows(eq(reshootRequests.id, row!.id)))[0]!;
 }
@@ -167,7 +172,11 @@ export async function createReshoot(actor: Actor, sensorId: string, input: Omit<
 export async function setReshootState(actor: Actor, sensorId: string, requestId: string, state: "done" | "withdrawn"): Promise<ReshootRow> {
   const db = getDb();
   const [scope, h] = await Promise.all([scopeOf(actor), holdings()]);
-  const [r] = await db.select().from(reshootRequests).where(and(eq(reshootRequests.id, requestId), eq(reshootRequests.sensorId, sensorId))).limit(1);
+  const [r] = await db
+    .select()
+    .from(reshootRequests)
+    .where(and(eq(reshootRequests.id, requestId), eq(reshootRequests.sensorId, sensorId)))
+    .limit(1);
   if (!r || !visible(scope, h, r)) throw new ReshootError("There is no re-shoot request with this id.", 404);
   if (r.state !== "open") throw new ReshootError(`This request is already ${r.state === "done" ? "done" : "withdrawn"}.`, 400, "state");
   const closedAt = new Date().toISOString();

@@ -189,7 +189,10 @@ async function readGreyPng(file: UploadedFile, path: string): Promise<{ width: n
     return { path, message: `${file.filename || "the file"} is not a readable PNG (${e instanceof Error ? e.message : String(e)})` };
   }
   if (img.depth !== 16 || img.channels !== 1) {
-    return { path, message: `${file.filename || "the file"} is a ${img.depth}-bit PNG with ${img.channels} channel${img.channels === 1 ? "" : "s"}; depth and correlation frames are 16-bit greyscale` };
+    return {
+      path,
+      message: `${file.filename || "the file"} is a ${img.depth}-bit PNG with ${img.channels} channel${img.channels === 1 ? "" : "s"}; depth and correlation frames are 16-bit greyscale`,
+    };
   }
   return { width: img.width, height: img.height, data: img.data as Uint16Array };
 }
@@ -237,7 +240,16 @@ export async function importFrames(actor: Actor, fields: Record<string, string |
     } else {
       // ranges in the sensor's own convention (its assumed refractivity), so the reported-range rules of §1 then apply
       const n = 1 + (sensor.assumedRefractivity ?? 0) * 1e-6;
-      frames = [depthFromCorrelation(images.map((i) => i.data), width, height, f.frequencyHz!, intrinsics, { n, minAmplitude: f.minAmplitude })];
+      frames = [
+        depthFromCorrelation(
+          images.map((i) => i.data),
+          width,
+          height,
+          f.frequencyHz!,
+          intrinsics,
+          { n, minAmplitude: f.minAmplitude },
+        ),
+      ];
     }
     result = frameTarget(frames, f.box, intrinsics, f.minPoints);
   } catch (e) {
@@ -245,7 +257,12 @@ export async function importFrames(actor: Actor, fields: Record<string, string |
     throw e;
   }
   // one file: its own hash; several: the hash of their hashes in upload order
-  const sha = used.length === 1 ? used[0].sha256 : createHash("sha256").update(used.map((u) => u.sha256).join("\n")).digest("hex");
+  const sha =
+    used.length === 1
+      ? used[0].sha256
+      : createHash("sha256")
+          .update(used.map((u) => u.sha256).join("\n"))
+          .digest("hex");
   const ctx = await loadRegistryContext({ sensorIds: [], siteIds: [], tapeIds: f.reference?.method === "tape" ? [f.reference.tape.tapeId] : [], projectIds: [], sessionIds: [session.id] }, db);
   const facts = factsOf(session);
   const row: ScanTargetRow = {

@@ -93,15 +93,33 @@ const exists = async (q: Promise<unknown[]>) => (await q).length > 0;
 
 /** True when the sensor exists and the scope may see it (false answers like "no such sensor"). */
 export async function canSeeSensor(scope: Scope, sensorId: string, db: Db = getDb()): Promise<boolean> {
-  return exists(db.select({ id: sensors.id }).from(sensors).where(and(eq(sensors.id, sensorId), sensorIdInScope(scope, sensors.id))).limit(1));
+  return exists(
+    db
+      .select({ id: sensors.id })
+      .from(sensors)
+      .where(and(eq(sensors.id, sensorId), sensorIdInScope(scope, sensors.id)))
+      .limit(1),
+  );
 }
 
 export async function canSeeSite(scope: Scope, siteId: string, db: Db = getDb()): Promise<boolean> {
-  return exists(db.select({ id: sites.id }).from(sites).where(and(eq(sites.id, siteId), siteIdInScope(scope, sites.id))).limit(1));
+  return exists(
+    db
+      .select({ id: sites.id })
+      .from(sites)
+      .where(and(eq(sites.id, siteId), siteIdInScope(scope, sites.id)))
+      .limit(1),
+  );
 }
 
 export async function canSeeProject(scope: Scope, projectId: string, db: Db = getDb()): Promise<boolean> {
-  return exists(db.select({ id: projects.id }).from(projects).where(and(eq(projects.id, projectId), projectColInScope(scope, projects.id))).limit(1));
+  return exists(
+    db
+      .select({ id: projects.id })
+      .from(projects)
+      .where(and(eq(projects.id, projectId), projectColInScope(scope, projects.id)))
+      .limit(1),
+  );
 }
 
 /** The session ids of the list that exist and are in scope. */
@@ -115,5 +133,11 @@ export async function visibleSessionIds(scope: Scope, ids: readonly string[], db
 }
 
 export async function canSeeShot(scope: Scope, shotId: string, db: Db = getDb()): Promise<boolean> {
-  return exists(db.select({ id: shots.id }).from(shots).where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId))).limit(1));
+  return exists(
+    db
+      .select({ id: shots.id })
+      .from(shots)
+      .where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)))
+      .limit(1),
+  );
 }

@@ -9,16 +9,7 @@ import { audit } from "~/models/audit.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, sensorIdInScope } from "~/models/scope.server";
 import { recomputeShotsForSensor } from "~/models/shots.server";
-import {
-  certificateColumns,
-  invalid,
-  issuesToErrors,
-  sensorSchema,
-  stableStringify,
-  type NotFound,
-  type RegistryResult,
-  type SensorBody,
-} from "~/models/registry-schemas";
+import { certificateColumns, invalid, issuesToErrors, sensorSchema, stableStringify, type NotFound, type RegistryResult, type SensorBody } from "~/models/registry-schemas";
 
 // ---------- shared by the registry models ----------
 /** Who is asking; null or "system" for the seed and command-line tools. */
@@ -118,13 +109,14 @@ async function createSensorOnce(actor: RegistryActor, body: unknown, retry: bool
   if (b.id) {
     const existing = await getSensor(b.id);
     if (existing) {
-      return sameContent(existing, b)
-        ? { status: 200, body: { id: existing.id } }
-        : { status: 409, body: { error: `A sensor with id "${b.id}" exists with other content.` } };
+      return sameContent(existing, b) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A sensor with id "${b.id}" exists with other content.` } };
     }
   } else {
     // No id: the same body again finds the sensor it made the first time.
-    const twins = await db.select().from(sensors).where(and(eq(sensors.serial, b.serial), eq(sensors.label, b.label)));
+    const twins = await db
+      .select()
+      .from(sensors)
+      .where(and(eq(sensors.serial, b.serial), eq(sensors.label, b.label)));
     const twin = twins.find((r) => sameContent(r, b));
     if (twin) return { status: 200, body: { id: twin.id } };
   }
@@ -152,7 +144,10 @@ export async function updateSensor(actor: RegistryActor, id: string, body: unkno
   const changes = changedFields(rowContent(before, true), after);
   if (Object.keys(changes).length === 0) return { status: 200, body: { id, changed: [] } };
   await getDb().transaction(async (tx) => {
-    await tx.update(sensors).set({ ...after, updatedAt: nowIso() }).where(eq(sensors.id, id));
+    await tx
+      .update(sensors)
+      .set({ ...after, updatedAt: nowIso() })
+      .where(eq(sensors.id, id));
     await audit(actorId(actor), "update", "sensor", id, changes, tx);
   });
   // The stored per-shot figures depend on the spec: recompute them from the raw records.
@@ -226,7 +221,10 @@ export async function sensorsExist(ids: string[]): Promise<Set<string>> {
 
 /** How many check sessions (and so shots) refer to a sensor: shown before retiring. */
 export async function sensorUsage(id: string): Promise<{ sessions: number }> {
-  const [row] = await getDb().select({ n: sql<number>`count(*)` }).from(checkSessions).where(eq(checkSessions.sensorId, id));
+  const [row] = await getDb()
+    .select({ n: sql<number>`count(*)` })
+    .from(checkSessions)
+    .where(eq(checkSessions.sensorId, id));
   return { sessions: Number(row?.n ?? 0) };
 }
 

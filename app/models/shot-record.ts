@@ -7,12 +7,12 @@ import type { shots } from "~/db/schema";
 import { computeShotRecordWith, SERVER_WORDING, type RecordError, type ShotRegistry, type SyncShot } from "~/contract";
 import type { RegistryContext, SessionFacts, TapeEntry } from "./shots.server";
 
-
 /** The stored computed columns: the ranging core's per-shot figures plus the shot's target and air facts. */
-export type ComputedColumns = Pick<
-  ShotComputed,
-  "referenceM" | "rangeM" | "errorMm" | "toleranceMm" | "limitMm" | "within" | "repeatabilityMm" | "readingsCount" | "wrap" | "unambiguousM"
-> & { retro: boolean; airDefaulted: boolean; referenceUncertaintyMm: number | null };
+export type ComputedColumns = Pick<ShotComputed, "referenceM" | "rangeM" | "errorMm" | "toleranceMm" | "limitMm" | "within" | "repeatabilityMm" | "readingsCount" | "wrap" | "unambiguousM"> & {
+  retro: boolean;
+  airDefaulted: boolean;
+  referenceUncertaintyMm: number | null;
+};
 
 export type ShotOutcome = { ok: true; columns: ComputedColumns; computed: ShotComputed } | { ok: false; errors: RecordError[] };
 

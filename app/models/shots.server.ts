@@ -141,12 +141,17 @@ export function registryQueries(need: Need, db: Db = getDb()) {
   const sessionIds = uniq(need.sessionIds ?? []);
   const ofSensors = uniq(need.projectsOfSensorIds ?? []);
   const ofSessions = (col: SQLiteColumn) => db.select({ id: col }).from(checkSessions).where(inIds(checkSessions.id, sessionIds));
-  const anyOf = (col: SQLiteColumn, ids: string[], stored: SQLiteColumn) =>
-    sessionIds.length ? or(inArray(col, ids), inArray(col, ofSessions(stored)))! : inArray(col, ids);
+  const anyOf = (col: SQLiteColumn, ids: string[], stored: SQLiteColumn) => (sessionIds.length ? or(inArray(col, ids), inArray(col, ofSessions(stored)))! : inArray(col, ids));
   const sitesWhere = (col: SQLiteColumn) => anyOf(col, siteIds, checkSessions.siteId);
   return [
-    db.select().from(sensors).where(anyOf(sensors.id, sensorIds, checkSessions.sensorId)),
-    db.select({ id: sites.id }).from(sites).where(anyOf(sites.id, siteIds, checkSessions.siteId)),
+    db
+      .select()
+      .from(sensors)
+      .where(anyOf(sensors.id, sensorIds, checkSessions.sensorId)),
+    db
+      .select({ id: sites.id })
+      .from(sites)
+      .where(anyOf(sites.id, siteIds, checkSessions.siteId)),
     db
       .select({
         id: tapes.id,
@@ -162,11 +167,32 @@ export function registryQueries(need: Need, db: Db = getDb()) {
       .from(tapes)
       .where(inArray(tapes.id, tapeIds)),
     db
-      .select({ id: stations.id, siteId: stations.siteId, gridE: stations.gridE, gridN: stations.gridN, gridH: stations.gridH, lat: stations.lat, lon: stations.lon, h: stations.h, sigmaMm: stations.sigmaMm })
+      .select({
+        id: stations.id,
+        siteId: stations.siteId,
+        gridE: stations.gridE,
+        gridN: stations.gridN,
+        gridH: stations.gridH,
+        lat: stations.lat,
+        lon: stations.lon,
+        h: stations.h,
+        sigmaMm: stations.sigmaMm,
+      })
       .from(stations)
       .where(sitesWhere(stations.siteId)),
     db
-      .select({ id: targets.id, siteId: targets.siteId, retro: targets.retro, gridE: targets.gridE, gridN: targets.gridN, gridH: targets.gridH, lat: targets.lat, lon: targets.lon, h: targets.h, sigmaMm: targets.sigmaMm })
+      .select({
+        id: targets.id,
+        siteId: targets.siteId,
+        retro: targets.retro,
+        gridE: targets.gridE,
+        gridN: targets.gridN,
+        gridH: targets.gridH,
+        lat: targets.lat,
+        lon: targets.lon,
+        h: targets.h,
+        sigmaMm: targets.sigmaMm,
+      })
       .from(targets)
       .where(sitesWhere(targets.siteId)),
     db
@@ -325,14 +351,33 @@ async function recomputeWhere(where: SQL, db: Db = getDb()): Promise<number> {
     perSensor.set(row.shotSensorId, (perSensor.get(row.shotSensorId) ?? 0) + 1);
     stmts.push({
       sql: UPDATE_SQL,
-      args: [c.referenceM, c.rangeM, c.errorMm, c.toleranceMm, c.limitMm, c.within ? 1 : 0, c.repeatabilityMm, c.readingsCount, c.wrap ? 1 : 0, c.unambiguousM, c.retro ? 1 : 0, c.airDefaulted ? 1 : 0, c.referenceUncertaintyMm, now, row.id],
+      args: [
+        c.referenceM,
+        c.rangeM,
+        c.errorMm,
+        c.toleranceMm,
+        c.limitMm,
+        c.within ? 1 : 0,
+        c.repeatabilityMm,
+        c.readingsCount,
+        c.wrap ? 1 : 0,
+        c.unambiguousM,
+        c.retro ? 1 : 0,
+        c.airDefaulted ? 1 : 0,
+        c.referenceUncertaintyMm,
+        now,
+        row.id,
+      ],
     });
   }
   if (failed) console.warn(`recompute: ${failed} of ${rows.length} shots could not be recomputed and keep their previous figures`);
   if (!stmts.length) return 0;
   const updated = stmts.length;
   for (const [sensorId, n] of perSensor) {
-    const q = db.insert(auditLog).values({ actorUserId: null, action: RECOMPUTE_ACTION, entity: "sensor", entityId: sensorId, detail: { shots: n } }).toSQL();
+    const q = db
+      .insert(auditLog)
+      .values({ actorUserId: null, action: RECOMPUTE_ACTION, entity: "sensor", entityId: sensorId, detail: { shots: n } })
+      .toSQL();
     stmts.push({ sql: q.sql, args: q.params as (number | string | null)[] });
   }
   // One batch = one write transaction, run synchronously by the local client.
@@ -678,7 +723,11 @@ export async function listShots(actor: Actor, q: ShotQuery, db: Db = getDb()): P
 export async function shotsGeoJson(actor: Actor, q: ShotQuery, db: Db = getDb()) {
   const f = await filteredRows(q, await scopeOf(actor, db), db, [isNotNull(shots.lat), isNotNull(shots.lon)]);
   if ("error" in f) return f.error;
-  const rows = f.w ? await selectShots(db).where(and(...f.w)).orderBy(asc(shots.takenAt), asc(shots.id)) : [];
+  const rows = f.w
+    ? await selectShots(db)
+        .where(and(...f.w))
+        .orderBy(asc(shots.takenAt), asc(shots.id))
+    : [];
   return {
     status: 200 as const,
     body: {

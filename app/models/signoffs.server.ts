@@ -82,18 +82,26 @@ export type SensorOverviewRow = {
 
 /** The report with the per-shot reflectance and illuminance the matrix needs. */
 export async function reportWithCells(actor: Actor, sensorId: string, q: ReviewQuery) {
-  const r = await computeSensorReport(actor, sensorId, {
-    ...(q.from ? { from: q.from } : {}),
-    ...(q.to ? { to: q.to } : {}),
-    ...(q.sessionIds?.length ? { sessionIds: q.sessionIds } : {}),
-    ...(q.projectId ? { projectId: q.projectId } : {}),
-  }, { details: true });
+  const r = await computeSensorReport(
+    actor,
+    sensorId,
+    {
+      ...(q.from ? { from: q.from } : {}),
+      ...(q.to ? { to: q.to } : {}),
+      ...(q.sessionIds?.length ? { sessionIds: q.sessionIds } : {}),
+      ...(q.projectId ? { projectId: q.projectId } : {}),
+    },
+    { details: true },
+  );
   if (r.status !== 200) {
     if (r.status === 404 && r.body.error.startsWith("No sensor")) return null;
     throw Response.json(r.body, { status: r.status });
   }
   const details = new Map(
-    r.details.map((d) => [d.id, { id: d.id, reflectancePct: d.reflectancePct, retro: d.retro, illuminanceKlux: d.illuminanceKlux, targetLabel: null, photoIds: [], exclusionReason: null, note: null }]),
+    r.details.map((d) => [
+      d.id,
+      { id: d.id, reflectancePct: d.reflectancePct, retro: d.retro, illuminanceKlux: d.illuminanceKlux, targetLabel: null, photoIds: [], exclusionReason: null, note: null },
+    ]),
   );
   return { report: r.body as unknown as ReportJson, cells: matrixCells(r.body.shots, details) };
 }
@@ -258,12 +266,21 @@ export async function createSignOff(actor: Actor, sensorId: string, input: Omit<
   }
   let projectName: string | null = null;
   if (projectId) {
-    const [p] = await db.select({ name: projects.name }).from(projects).where(and(eq(projects.id, projectId), projectColInScope(scope, projects.id))).limit(1);
+    const [p] = await db
+      .select({ name: projects.name })
+      .from(projects)
+      .where(and(eq(projects.id, projectId), projectColInScope(scope, projects.id)))
+      .limit(1);
     if (!p) throw new ReviewError("No such project.", 400, "projectId");
     projectName = p.name;
   }
   // the shots of the sign-off's project only (ranging.md's report, for that project's sessions)
-  const rc = await computeSensorReport(actor, sensorId, { ...(input.from ? { from: input.from } : {}), ...(input.to ? { to: input.to } : {}), ...(projectId ? { projectId } : {}) }, projectId ? { onlyProjectIds: [projectId] } : {});
+  const rc = await computeSensorReport(
+    actor,
+    sensorId,
+    { ...(input.from ? { from: input.from } : {}), ...(input.to ? { to: input.to } : {}), ...(projectId ? { projectId } : {}) },
+    projectId ? { onlyProjectIds: [projectId] } : {},
+  );
   if (rc.status !== 200 && !(rc.status === 404 && rc.body.error.startsWith("No sensor"))) throw Response.json(rc.body, { status: rc.status });
   const report = rc.status === 200 ? (rc.body as unknown as ReportJson) : null;
   if (!report) throw new ReviewError("No such sensor.", 404);
@@ -312,10 +329,7 @@ export async function createSignOff(actor: Actor, sensorId: string, input: Omit<
     // issue 15: the mail leads with the rule's accuracy statement (ranging.md §7)
     statement: accuracyStatement(report, report.statement).sentence,
     expired: expiredSummary(report),
-    note: [
-      `Verdict ${report.verdict}, ${report.n} shots, bias ${report.biasMm == null ? "—" : report.biasMm.toFixed(2)} mm; ${projectName ? `project ${projectName}, ` : ""}${period}.`,
-      note,
-    ]
+    note: [`Verdict ${report.verdict}, ${report.n} shots, bias ${report.biasMm == null ? "—" : report.biasMm.toFixed(2)} mm; ${projectName ? `project ${projectName}, ` : ""}${period}.`, note]
       .filter(Boolean)
       .join(" "),
     reportUrl: `/review/sensors/${sensorId}`,
@@ -383,7 +397,9 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
       rmseMm: report.rmseMm,
       withinPct: report.withinPct,
       statement: accuracyStatement(report, report.statement).sentence,
-      summary: [explainVerdict({ verdict: report.verdict, tests: report.tests, shots: report.shots, coverageK: report.rule.coverageK }).flaggedLine, `Failed tests: ${why}.`].filter(Boolean).join("\n"),
+      summary: [explainVerdict({ verdict: report.verdict, tests: report.tests, shots: report.shots, coverageK: report.rule.coverageK }).flaggedLine, `Failed tests: ${why}.`]
+        .filter(Boolean)
+        .join("\n"),
       reportUrl: `/review/sensors/${sensorId}`,
     });
     notified.push(sensorId);
@@ -469,8 +485,17 @@ export async function shotExtras(actor: Actor, sensorId: string) {
   const scope = await scopeOf(actor, db);
   const mine = (col: typeof shots.sessionId) => sessionIdInScope(scope, col);
   const [photoRows, targetRows, reasonRows] = await Promise.all([
-    db.select({ id: photos.id, shotId: photos.shotId }).from(photos).innerJoin(shots, eq(shots.id, photos.shotId)).where(and(eq(shots.sensorId, sensorId), mine(shots.sessionId))).orderBy(asc(photos.createdAt)),
-    db.selectDistinct({ id: targets.id, label: targets.label }).from(shots).innerJoin(targets, eq(targets.id, shots.targetId)).where(and(eq(shots.sensorId, sensorId), mine(shots.sessionId))),
+    db
+      .select({ id: photos.id, shotId: photos.shotId })
+      .from(photos)
+      .innerJoin(shots, eq(shots.id, photos.shotId))
+      .where(and(eq(shots.sensorId, sensorId), mine(shots.sessionId)))
+      .orderBy(asc(photos.createdAt)),
+    db
+      .selectDistinct({ id: targets.id, label: targets.label })
+      .from(shots)
+      .innerJoin(targets, eq(targets.id, shots.targetId))
+      .where(and(eq(shots.sensorId, sensorId), mine(shots.sessionId))),
     db
       .select({ shotId: exclusions.shotId, reason: exclusions.reason })
       .from(exclusions)

@@ -5,16 +5,7 @@ import type { GeoPoint, GridPoint } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { checkSessions, sites, stations, targets } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import {
-  invalid,
-  issuesToErrors,
-  siteSchema,
-  stableStringify,
-  type FieldError,
-  type NotFound,
-  type RegistryResult,
-  type SiteBody,
-} from "~/models/registry-schemas";
+import { invalid, issuesToErrors, siteSchema, stableStringify, type FieldError, type NotFound, type RegistryResult, type SiteBody } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, siteIdInScope } from "~/models/scope.server";
@@ -120,9 +111,7 @@ async function createSiteOnce(actor: RegistryActor, body: unknown, retry: boolea
   if (b.id) {
     const existing = await getSite(b.id);
     if (existing) {
-      return sameContent(existing, b)
-        ? { status: 200, body: answerOf(existing) }
-        : { status: 409, body: { error: `A site with id "${b.id}" exists with other content.` } };
+      return sameContent(existing, b) ? { status: 200, body: answerOf(existing) } : { status: 409, body: { error: `A site with id "${b.id}" exists with other content.` } };
     }
   } else {
     const twins = await db.select({ id: sites.id }).from(sites).where(eq(sites.name, b.name));
@@ -190,8 +179,16 @@ export async function updateSite(actor: RegistryActor, id: string, body: unknown
   if (!before) return { status: 404, body: { error: `No site with id "${id}".` } };
 
   const foreign: FieldError[] = [];
-  const otherTargets = await idsOfOtherSites(targets, b.targets.map((t) => t.id), id);
-  const otherStations = await idsOfOtherSites(stations, b.stations.map((s) => s.id), id);
+  const otherTargets = await idsOfOtherSites(
+    targets,
+    b.targets.map((t) => t.id),
+    id,
+  );
+  const otherStations = await idsOfOtherSites(
+    stations,
+    b.stations.map((s) => s.id),
+    id,
+  );
   b.targets.forEach((t, i) => t.id && otherTargets.has(t.id) && foreign.push({ path: `targets.${i}.id`, message: "This target belongs to another site" }));
   b.stations.forEach((s, i) => s.id && otherStations.has(s.id) && foreign.push({ path: `stations.${i}.id`, message: "This station belongs to another site" }));
   if (foreign.length) return invalid(foreign);
@@ -200,18 +197,23 @@ export async function updateSite(actor: RegistryActor, id: string, body: unknown
   const head = { name: b.name, lat: b.lat ?? null, lon: b.lon ?? null, notes: b.notes ?? "" };
   const headChanges = changedFields({ name: before.name, lat: before.lat, lon: before.lon, notes: before.notes }, head);
   const log = { site: headChanges, targets: diffChildren(before.targets, b.targets, targetContent), stations: diffChildren(before.stations, b.stations, stationContent) };
-  const nothing =
-    Object.keys(headChanges).length === 0 &&
-    [log.targets, log.stations].every((d) => d.added.length + d.changed.length + d.retired.length + d.restored.length === 0);
+  const nothing = Object.keys(headChanges).length === 0 && [log.targets, log.stations].every((d) => d.added.length + d.changed.length + d.retired.length + d.restored.length === 0);
   if (nothing) return { status: 200, body: { ...answerOf(before), changed: [] } };
 
   await getDb().transaction(async (tx) => {
-    await tx.update(sites).set({ ...head, updatedAt: at }).where(eq(sites.id, id));
+    await tx
+      .update(sites)
+      .set({ ...head, updatedAt: at })
+      .where(eq(sites.id, id));
     const keepT = new Set<string>();
     for (const t of b.targets) {
       const tid = t.id ?? crypto.randomUUID();
       keepT.add(tid);
-      if (before.targets.some((r) => r.id === tid)) await tx.update(targets).set({ ...targetColumns(t), retiredAt: null }).where(eq(targets.id, tid));
+      if (before.targets.some((r) => r.id === tid))
+        await tx
+          .update(targets)
+          .set({ ...targetColumns(t), retiredAt: null })
+          .where(eq(targets.id, tid));
       else await tx.insert(targets).values({ id: tid, siteId: id, ...targetColumns(t) });
     }
     for (const r of before.targets) if (!r.retiredAt && !keepT.has(r.id)) await tx.update(targets).set({ retiredAt: at }).where(eq(targets.id, r.id));
@@ -219,7 +221,11 @@ export async function updateSite(actor: RegistryActor, id: string, body: unknown
     for (const s of b.stations) {
       const sid = s.id ?? crypto.randomUUID();
       keepS.add(sid);
-      if (before.stations.some((r) => r.id === sid)) await tx.update(stations).set({ ...stationColumns(s), retiredAt: null }).where(eq(stations.id, sid));
+      if (before.stations.some((r) => r.id === sid))
+        await tx
+          .update(stations)
+          .set({ ...stationColumns(s), retiredAt: null })
+          .where(eq(stations.id, sid));
       else await tx.insert(stations).values({ id: sid, siteId: id, ...stationColumns(s) });
     }
     for (const r of before.stations) if (!r.retiredAt && !keepS.has(r.id)) await tx.update(stations).set({ retiredAt: at }).where(eq(stations.id, r.id));
@@ -309,8 +315,16 @@ export async function getSite(id: string): Promise<SiteWithChildren | null> {
   const [row] = await db.select().from(sites).where(eq(sites.id, id)).limit(1);
   if (!row) return null;
   const [ts, ss] = await Promise.all([
-    db.select().from(targets).where(eq(targets.siteId, id)).orderBy(sql`rowid`),
-    db.select().from(stations).where(eq(stations.siteId, id)).orderBy(sql`rowid`),
+    db
+      .select()
+      .from(targets)
+      .where(eq(targets.siteId, id))
+      .orderBy(sql`rowid`),
+    db
+      .select()
+      .from(stations)
+      .where(eq(stations.siteId, id))
+      .orderBy(sql`rowid`),
   ]);
   return { ...row, targets: ts, stations: ss };
 }
@@ -366,6 +380,9 @@ export async function sitesExist(ids: string[]): Promise<Set<string>> {
 
 /** Sessions held at a site (shown before retiring it). */
 export async function siteUsage(id: string): Promise<{ sessions: number }> {
-  const [row] = await getDb().select({ n: sql<number>`count(*)` }).from(checkSessions).where(and(eq(checkSessions.siteId, id)));
+  const [row] = await getDb()
+    .select({ n: sql<number>`count(*)` })
+    .from(checkSessions)
+    .where(and(eq(checkSessions.siteId, id)));
   return { sessions: Number(row?.n ?? 0) };
 }

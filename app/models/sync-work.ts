@@ -25,9 +25,7 @@ import {
 export type Rec<T> = { id: string; value: T | null; raw: string; errors: RecordError[] | null };
 export type ShotRow = typeof shots.$inferInsert;
 
-export type Validated =
-  | { ok: false; status: 400 | 413; body: unknown }
-  | { ok: true; deviceId: string; sessionRecs: Rec<SyncSession>[]; shotRecs: Rec<SyncShot>[] };
+export type Validated = { ok: false; status: 400 | 413; body: unknown } | { ok: true; deviceId: string; sessionRecs: Rec<SyncSession>[]; shotRecs: Rec<SyncShot>[] };
 
 /** Called between slices of records; resolves once the thread has served what waited. */
 export type Pause = (() => Promise<void>) | null;

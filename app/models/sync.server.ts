@@ -9,16 +9,7 @@ import { getDb, type Db } from "~/db/client.server";
 import { isTransientDbError, retryTransient } from "~/db/transient.server";
 import { auditLog, checkSessions, shots } from "~/db/schema";
 import { airState, DomainError } from "~/domain";
-import {
-  computeShotRecord,
-  holdingProjectsQuery,
-  inIds,
-  pairKey,
-  registryContextOf,
-  registryQueries,
-  shotInsertRow,
-  type SessionFacts,
-} from "./shots.server";
+import { computeShotRecord, holdingProjectsQuery, inIds, pairKey, registryContextOf, registryQueries, shotInsertRow, type SessionFacts } from "./shots.server";
 import { type RecordError, type SyncResult, type SyncSession } from "./sync-schemas";
 import { syncPool } from "./sync-pool.server";
 import { conflict, internalErrors, shotStage, validateRecords, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
@@ -86,9 +77,19 @@ async function reclassify(db: Db, results: SyncResult[], lost: { kind: "session"
   // rows that won the race are certain to be; a replica's own copy may lag behind
   const sel = (table: typeof checkSessions | typeof shots, ids: string[]): Stmt[] =>
     chunks(ids, 500).map((part) => ({ sql: `SELECT "id", "raw" FROM "${getTableName(table)}" WHERE "id" IN (${part.map(() => "?").join(", ")})`, args: part }));
-  const stmts = [...sel(checkSessions, lost.filter((l) => l.kind === "session").map((l) => l.id))];
+  const stmts = [
+    ...sel(
+      checkSessions,
+      lost.filter((l) => l.kind === "session").map((l) => l.id),
+    ),
+  ];
   const nSes = stmts.length;
-  stmts.push(...sel(shots, lost.filter((l) => l.kind === "shot").map((l) => l.id)));
+  stmts.push(
+    ...sel(
+      shots,
+      lost.filter((l) => l.kind === "shot").map((l) => l.id),
+    ),
+  );
   const got = await db.$client.batch(stmts, "write");
   const pairs = (rs: ResultSet[]) => rs.flatMap((r) => r.rows.map((row) => ({ id: String(row[0]), raw: String(row[1]) })));
   const ses = pairs(got.slice(0, nSes));
@@ -174,7 +175,9 @@ function sessionProject(s: SyncSession, holders: Holder[], known: boolean, scope
     const id = s.projectId;
     // an unknown project and one the user is not a member of answer alike
     if (!known || !inScope(scope, id)) {
-      return { error: { path: "projectId", message: scope.all ? `project ${id} is not in the registry` : `project ${id} is not one of your projects (or does not exist): choose one of your projects` } };
+      return {
+        error: { path: "projectId", message: scope.all ? `project ${id} is not in the registry` : `project ${id} is not one of your projects (or does not exist): choose one of your projects` },
+      };
     }
     if (!holders.some((h) => h.projectId === id)) {
       return { error: { path: "projectId", message: `project ${id} does not list both this session's sensor and its site: choose the project that uses them, or ask an admin to add them to it` } };
@@ -196,7 +199,10 @@ function sessionProject(s: SyncSession, holders: Holder[], known: boolean, scope
   return {
     error: {
       path: "projectId",
-      message: `the sensor and site are used by several of your projects (${live.map((h) => h.name).sort().join(", ")}): choose the project of this session`,
+      message: `the sensor and site are used by several of your projects (${live
+        .map((h) => h.name)
+        .sort()
+        .join(", ")}): choose the project of this session`,
     },
   };
 }
@@ -354,9 +360,7 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
     // 4. Shots: duplicates, their session, then the authoritative computation and the
     //    insert rows: off this thread too (sync-work.ts).
     const stageInput: ShotStageInput = { shotRecs, storedShot, usable, rejectedSessions, ctx, meta: { deviceId, syncedBy: actor.id, receivedAt } };
-    const stage: { results: SyncResult[]; rows: ShotRow[] } = pool
-      ? await pool.run(stageInput, { name: "shots" })
-      : await shotStage(stageInput, { computeShotRecord, shotInsertRow }, yieldToLoop);
+    const stage: { results: SyncResult[]; rows: ShotRow[] } = pool ? await pool.run(stageInput, { name: "shots" }) : await shotStage(stageInput, { computeShotRecord, shotInsertRow }, yieldToLoop);
     results.push(...stage.results);
     let shotRows = stage.rows;
 

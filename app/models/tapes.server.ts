@@ -5,16 +5,7 @@ import type { TapeSpec } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { tapes } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import {
-  certificateColumns,
-  invalid,
-  issuesToErrors,
-  stableStringify,
-  tapeSchema,
-  type NotFound,
-  type RegistryResult,
-  type TapeBody,
-} from "~/models/registry-schemas";
+import { certificateColumns, invalid, issuesToErrors, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForTape } from "~/models/shots.server";
 
@@ -77,9 +68,7 @@ async function createTapeOnce(actor: RegistryActor, body: unknown, retry: boolea
   if (b.id) {
     const existing = await getTape(b.id);
     if (existing) {
-      return sameContent(existing, b)
-        ? { status: 200, body: { id: existing.id } }
-        : { status: 409, body: { error: `A tape with id "${b.id}" exists with other content.` } };
+      return sameContent(existing, b) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A tape with id "${b.id}" exists with other content.` } };
     }
   } else {
     const twins = await db.select().from(tapes).where(eq(tapes.label, b.label));
@@ -109,7 +98,10 @@ export async function updateTape(actor: RegistryActor, id: string, body: unknown
   const changes = changedFields(rowContent(before, true), after);
   if (Object.keys(changes).length === 0) return { status: 200, body: { id, changed: [] } };
   await getDb().transaction(async (tx) => {
-    await tx.update(tapes).set({ ...after, updatedAt: nowIso() }).where(eq(tapes.id, id));
+    await tx
+      .update(tapes)
+      .set({ ...after, updatedAt: nowIso() })
+      .where(eq(tapes.id, id));
     await audit(actorId(actor), "update", "tape", id, changes, tx);
   });
   // Tape-measured reference distances use these constants: recompute the shots that name this tape.

@@ -40,12 +40,18 @@ export async function listUserEmailsByRole(roles: Role[]): Promise<string[]> {
 export type UserRow = typeof users.$inferSelect;
 
 export async function findUserByEmail(email: string): Promise<UserRow | null> {
-  const rows = await getDb().select().from(users).where(eq(users.email, normalizeEmail(email))).limit(1);
+  const rows = await getDb()
+    .select()
+    .from(users)
+    .where(eq(users.email, normalizeEmail(email)))
+    .limit(1);
   return rows[0] ?? null;
 }
 
 export async function usersTableIsEmpty() {
-  const [row] = await getDb().select({ n: sql<number>`count(*)` }).from(users);
+  const [row] = await getDb()
+    .select({ n: sql<number>`count(*)` })
+    .from(users);
   return Number(row?.n ?? 0) === 0;
 }
 
@@ -127,10 +133,7 @@ export async function inviteUser(actor: Actor, input: { email: string; name: str
   forbidUnlessAdmin(actor);
   const email = normalizeEmail(input.email);
   if (await findUserByEmail(email)) throw new UserError("A user with this e-mail address already exists.", "email");
-  const [row] = await getDb()
-    .insert(users)
-    .values({ email, name: input.name.trim(), role: input.role, invitedBy: actor.id })
-    .returning({ id: users.id });
+  const [row] = await getDb().insert(users).values({ email, name: input.name.trim(), role: input.role, invitedBy: actor.id }).returning({ id: users.id });
   await audit(actor.id, "user.invite", "user", row!.id, { email, role: input.role, name: input.name.trim() });
   const mail = await sendTemplateMail("invitation", email, {
     name: input.name.trim(),
@@ -175,13 +178,7 @@ async function revokeSessionRows(userId: string, sessionId?: string) {
   const rows = await getDb()
     .update(authSessions)
     .set({ revokedAt: new Date().toISOString() })
-    .where(
-      and(
-        eq(authSessions.userId, userId),
-        isNull(authSessions.revokedAt),
-        sessionId ? eq(authSessions.id, sessionId) : undefined,
-      ),
-    )
+    .where(and(eq(authSessions.userId, userId), isNull(authSessions.revokedAt), sessionId ? eq(authSessions.id, sessionId) : undefined))
     .returning({ id: authSessions.id });
   return rows.length;
 }

@@ -99,12 +99,15 @@ export async function saveShot(draft: ShotDraft, photo?: PhotoDraft | null, cont
 
 /** A shot the server refused only because its session was refused ("sessionId") goes again with it. */
 function requeueSessionShots(sessionId: string) {
-  return fieldDb().shots.where("[sessionId+state]").equals([sessionId, "rejected"]).modify((s) => {
-    if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
-      s.state = "queued";
-      s.errors = [];
-    }
-  });
+  return fieldDb()
+    .shots.where("[sessionId+state]")
+    .equals([sessionId, "rejected"])
+    .modify((s) => {
+      if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
+        s.state = "queued";
+        s.errors = [];
+      }
+    });
 }
 
 /** Puts a rejected session back in the queue (e.g. after an admin added its sensor). */
@@ -159,12 +162,15 @@ export async function updateSession(id: string, changes: Omit<SyncSessionRecord,
 }
 
 export async function resendPhoto(id: string) {
-  await fieldDb().photos.where("id").equals(id).modify((p) => {
-    if (p.state === "rejected") {
-      p.state = "queued";
-      p.errors = [];
-    }
-  });
+  await fieldDb()
+    .photos.where("id")
+    .equals(id)
+    .modify((p) => {
+      if (p.state === "rejected") {
+        p.state = "queued";
+        p.errors = [];
+      }
+    });
 }
 
 /** A rejected or queued shot may be thrown away by the crew; synced ones stay on the server. */
@@ -196,7 +202,11 @@ export async function discardSession(id: string): Promise<DiscardOutcome> {
       if (s.state === "synced" || shots.some((x) => x.state === "synced")) {
         return { discarded: false, reason: "This session has reached the server: it cannot be thrown away here. A QA lead can exclude its shots with a reason." };
       }
-      if (shots.length) await db.photos.where("shotId").anyOf(shots.map((x) => x.id)).delete();
+      if (shots.length)
+        await db.photos
+          .where("shotId")
+          .anyOf(shots.map((x) => x.id))
+          .delete();
       await db.shots.where("sessionId").equals(id).delete();
       await db.sessions.delete(id);
       return { discarded: true, shots: shots.length };
@@ -213,14 +223,16 @@ export type OutboxCounts = { sessions: number; shots: number; photos: number; re
 export async function outboxCounts(): Promise<OutboxCounts> {
   const db = fieldDb();
   // One read transaction, not six: the status line re-reads this after every save.
-  const [sq, sr, hq, hr, pq, pr] = await db.transaction("r", db.sessions, db.shots, db.photos, () => Promise.all([
-    db.sessions.where("state").equals("queued").count(),
-    db.sessions.where("state").equals("rejected").count(),
-    db.shots.where("state").equals("queued").count(),
-    db.shots.where("state").equals("rejected").count(),
-    db.photos.where("state").equals("queued").count(),
-    db.photos.where("state").equals("rejected").count(),
-  ]));
+  const [sq, sr, hq, hr, pq, pr] = await db.transaction("r", db.sessions, db.shots, db.photos, () =>
+    Promise.all([
+      db.sessions.where("state").equals("queued").count(),
+      db.sessions.where("state").equals("rejected").count(),
+      db.shots.where("state").equals("queued").count(),
+      db.shots.where("state").equals("rejected").count(),
+      db.photos.where("state").equals("queued").count(),
+      db.photos.where("state").equals("rejected").count(),
+    ]),
+  );
   return { sessions: sq + sr, shots: hq + hr, photos: pq + pr, rejected: sr + hr + pr, total: sq + sr + hq + hr + pq + pr };
 }
 

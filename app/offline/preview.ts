@@ -18,9 +18,7 @@ export function ruleOf(project: RefProject | undefined): Rule {
   return project?.rule ?? DEFAULT_RULE;
 }
 
-export type PreviewResult =
-  | { ok: true; preview: ShotPreview; computed: ShotComputed }
-  | { ok: false; path: string; message: string };
+export type PreviewResult = { ok: true; preview: ShotPreview; computed: ShotComputed } | { ok: false; path: string; message: string };
 
 const place = (p: RefPoint | undefined) => (p ? { position: { grid: p.grid, geo: p.geo } } : undefined);
 

@@ -134,11 +134,7 @@ export function retryAfterMs(res: Response, now = Date.now()): number | null {
  * `isolate`, a status that may be the batch's own content (500) comes back as "failing" after
  * CONTENT_ATTEMPTS tries, for the caller to find the record behind it.
  */
-async function send(
-  make: () => Promise<Response>,
-  o: Required<Pick<SyncOptions, "maxAttempts" | "baseDelayMs" | "sleep">>,
-  isolate = false,
-): Promise<Attempt> {
+async function send(make: () => Promise<Response>, o: Required<Pick<SyncOptions, "maxAttempts" | "baseDelayMs" | "sleep">>, isolate = false): Promise<Attempt> {
   let lastMessage = "";
   let contentFailures = 0;
   let asked: number | null = null; // the wait the server asked for, if it did
@@ -383,12 +379,15 @@ async function applyResults(results: { kind: string; id: string; status: string;
     // a session the server took at last: its shots refused only for its sake go again (before
     // this answer's own shot results, which stand)
     for (const id of acceptedSessions) {
-      await db.shots.where("[sessionId+state]").equals([id, "rejected"]).modify((s) => {
-        if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
-          s.state = "queued";
-          s.errors = [];
-        }
-      });
+      await db.shots
+        .where("[sessionId+state]")
+        .equals([id, "rejected"])
+        .modify((s) => {
+          if (s.errors.length && s.errors.every((e) => e.path === "sessionId")) {
+            s.state = "queued";
+            s.errors = [];
+          }
+        });
     }
     if (shotChanges.length) await db.shots.bulkUpdate(shotChanges);
   });

@@ -6,8 +6,7 @@ import { z } from "zod";
 import { validateSession, validateShot } from "~/contract";
 import type { FieldError, SyncSessionRecord, SyncShotRecord } from "./types";
 
-const finite = (what: string) =>
-  z.number({ error: (i) => (i.input === undefined ? `Enter ${what}` : `${what[0]!.toUpperCase()}${what.slice(1)} must be a number`) });
+const finite = (what: string) => z.number({ error: (i) => (i.input === undefined ? `Enter ${what}` : `${what[0]!.toUpperCase()}${what.slice(1)} must be a number`) });
 const uuid = z.string().regex(/^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i, "An id must be a UUID");
 const iso = z.string().refine((s) => !Number.isNaN(Date.parse(s)), "Give the time as ISO 8601");
 const note = z.string().max(2000, "Keep the note to 2000 characters").optional();
@@ -24,8 +23,7 @@ export const sessionRecordSchema = z.object({
   note,
 });
 
-const positiveList = (what: string) =>
-  z.array(finite(what).positive(`${what[0]!.toUpperCase()}${what.slice(1)} must be above 0`)).min(1, `Enter at least one ${what}`);
+const positiveList = (what: string) => z.array(finite(what).positive(`${what[0]!.toUpperCase()}${what.slice(1)} must be above 0`)).min(1, `Enter at least one ${what}`);
 
 export const shotRecordSchema = z
   .object({
@@ -66,23 +64,24 @@ export const shotRecordSchema = z
     reflectancePct: finite("the reflectance (%)").min(0, "Reflectance lies between 0 and 100 %").max(100, "Reflectance lies between 0 and 100 %"),
     illuminanceKlux: finite("the illuminance (klux)").min(0, "Illuminance must be 0 klux or more").max(200, "Illuminance is at most 200 klux"),
     incidenceDeg: finite("the incidence angle (°)").min(0, "The incidence angle lies between 0 and 90°").max(90, "The incidence angle lies between 0 and 90°").optional(),
-    position: z
-      .object({ lat: finite("the latitude (°)").min(-90).max(90), lon: finite("the longitude (°)").min(-180).max(180), accuracyM: z.number().min(0).optional() })
-      .optional(),
+    position: z.object({ lat: finite("the latitude (°)").min(-90).max(90), lon: finite("the longitude (°)").min(-180).max(180), accuracyM: z.number().min(0).optional() }).optional(),
     note,
   })
-  .superRefine((s, ctx) => {
-    const r = s.reference ?? ({} as Partial<typeof s.reference>);
-    if (r.method === "coordinates") {
-      if (!r.stationId) ctx.addIssue({ code: "custom", path: ["reference", "stationId"], message: "Choose the station the sensor stands on" });
-      if (!s.targetId) ctx.addIssue({ code: "custom", path: ["targetId"], message: "Choose the target: its coordinates give the distance" });
-      if (r.instrumentHeightM === undefined) ctx.addIssue({ code: "custom", path: ["reference", "instrumentHeightM"], message: "Enter the instrument height (m)" });
-      if (r.targetHeightM === undefined) ctx.addIssue({ code: "custom", path: ["reference", "targetHeightM"], message: "Enter the target height (m)" });
-    } else if (r.distanceM === undefined && r.method) {
-      ctx.addIssue({ code: "custom", path: ["reference", "distanceM"], message: "Enter the reference distance (m)" });
-    }
-    if (r.method === "tape" && !r.tape) ctx.addIssue({ code: "custom", path: ["reference", "tape", "tapeId"], message: "Choose the tape" });
-  }, { when: (p) => typeof p.value === "object" && p.value !== null });
+  .superRefine(
+    (s, ctx) => {
+      const r = s.reference ?? ({} as Partial<typeof s.reference>);
+      if (r.method === "coordinates") {
+        if (!r.stationId) ctx.addIssue({ code: "custom", path: ["reference", "stationId"], message: "Choose the station the sensor stands on" });
+        if (!s.targetId) ctx.addIssue({ code: "custom", path: ["targetId"], message: "Choose the target: its coordinates give the distance" });
+        if (r.instrumentHeightM === undefined) ctx.addIssue({ code: "custom", path: ["reference", "instrumentHeightM"], message: "Enter the instrument height (m)" });
+        if (r.targetHeightM === undefined) ctx.addIssue({ code: "custom", path: ["reference", "targetHeightM"], message: "Enter the target height (m)" });
+      } else if (r.distanceM === undefined && r.method) {
+        ctx.addIssue({ code: "custom", path: ["reference", "distanceM"], message: "Enter the reference distance (m)" });
+      }
+      if (r.method === "tape" && !r.tape) ctx.addIssue({ code: "custom", path: ["reference", "tape", "tapeId"], message: "Choose the tape" });
+    },
+    { when: (p) => typeof p.value === "object" && p.value !== null },
+  );
 
 function toErrors(issues: z.core.$ZodIssue[], readings?: object): FieldError[] {
   return issues.flatMap((i) => {

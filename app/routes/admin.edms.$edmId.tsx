@@ -66,12 +66,7 @@ export default function EditEdm({ loaderData, actionData }: Route.ComponentProps
         Id <code className="num">{edm.id}</code>. Changing its uncertainty recomputes the reference uncertainty of every shot that names it.
       </p>
       <EdmForm lastResult={actionData?.result} defaultValue={edmDefaults(edm)} submitLabel="Save changes" />
-      <RetirePanel
-        what="reference EDM"
-        label={edm.label}
-        retiredAt={edm.retiredAt}
-        error={actionData?.retireError}
-      />
+      <RetirePanel what="reference EDM" label={edm.label} retiredAt={edm.retiredAt} error={actionData?.retireError} />
       <RecordHistory rows={history} />
     </div>
   );

@@ -27,15 +27,7 @@ export function edmDefaults(r?: {
   };
 }
 
-export function EdmForm({
-  lastResult,
-  defaultValue,
-  submitLabel,
-}: {
-  lastResult: SubmissionResult<string[]> | null | undefined;
-  defaultValue: Record<string, unknown>;
-  submitLabel: string;
-}) {
+export function EdmForm({ lastResult, defaultValue, submitLabel }: { lastResult: SubmissionResult<string[]> | null | undefined; defaultValue: Record<string, unknown>; submitLabel: string }) {
   const navigation = useNavigation();
   const busy = navigation.state !== "idle" && navigation.formMethod === "POST";
   const [form, fields] = useForm<EdmInput>({

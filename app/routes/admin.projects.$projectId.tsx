@@ -43,8 +43,7 @@ const NO_MEMBER_RESULT: MemberResults = { addResult: undefined, inviteResult: un
 /** Membership intents (issue 14): add by e-mail, invite into the project, remove. Null for the others. */
 async function memberAction(request: Request, user: { id: string; role: "admin"; name?: string; email?: string }, projectId: string, formData: FormData) {
   const intent = formData.get("intent");
-  const back = async (kind: "ok" | "warn", text: string) =>
-    redirect(`/admin/projects/${projectId}#members`, { headers: { "Set-Cookie": await setFlash(request, { kind, text }) } });
+  const back = async (kind: "ok" | "warn", text: string) => redirect(`/admin/projects/${projectId}#members`, { headers: { "Set-Cookie": await setFlash(request, { kind, text }) } });
   const fail = (status: 400, parts: MemberResults) => data({ result: undefined, retireError: null, ...NO_MEMBER_RESULT, ...parts }, { status });
 
   if (intent === "remove-member") {
@@ -126,8 +125,7 @@ export default function EditProject({ loaderData, actionData }: Route.ComponentP
         </Link>
       </p>
       <h1 className="text-3xl font-bold">
-        {project.name}{" "}
-        {project.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
+        {project.name} {project.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
       </h1>
       <p className="text-muted">
         Id <code className="num">{project.id}</code>.{" "}

@@ -82,8 +82,8 @@ export function ProjectForm({
       <section className="card grid gap-4 sm:grid-cols-2">
         <h2 className="text-xl font-bold sm:col-span-2">Acceptance rule</h2>
         <p className="text-muted sm:col-span-2">
-          Defaults: {DEFAULT_RULE.minShots} shots, k = {DEFAULT_RULE.coverageK}, {DEFAULT_RULE.minWithinPct} % within, bands{" "}
-          {DEFAULT_RULE.rangeBandEdgesM.join(", ")} m. Changing the rule recomputes the shots of this project's sensors.
+          Defaults: {DEFAULT_RULE.minShots} shots, k = {DEFAULT_RULE.coverageK}, {DEFAULT_RULE.minWithinPct} % within, bands {DEFAULT_RULE.rangeBandEdgesM.join(", ")} m. Changing the rule recomputes
+          the shots of this project's sensors.
         </p>
         <NumberField meta={fields.minShots} label="Minimum number of shots" unit="shots" integer hint="Fewer gives “not enough shots”." />
         <NumberField meta={fields.coverageK} label="Coverage factor k" unit="× T" hint="Per-shot limit = k × the sensor's tolerance T." />
@@ -132,11 +132,7 @@ export function ProjectForm({
           unit="×"
           hint="The reference must be r times as accurate as the tolerance: 2 is Edition 2 practice, 4 follows ASTM E3125-17."
         />
-        <Checkbox
-          meta={fields.referenceInVerdict}
-          label="The reference test enters the verdict"
-          hint="Then a failed or unknown reference test holds a pass back (verdict “insufficient”)."
-        />
+        <Checkbox meta={fields.referenceInVerdict} label="The reference test enters the verdict" hint="Then a failed or unknown reference test holds a pass back (verdict “insufficient”)." />
         <NumberField meta={fields.edmUncertaintyMm} label="EDM uncertainty, constant part" unit="mm" hint="For EDM shots that name no reference EDM; empty = unknown." />
         <NumberField meta={fields.edmUncertaintyPpm} label="EDM uncertainty, distance part" unit="ppm" />
       </section>
@@ -149,12 +145,7 @@ export function ProjectForm({
           options={choices.sensors.map((s) => ({ value: s.id, label: `${s.label} — ${s.serial}${retired(s)}` }))}
           empty="No sensors registered yet."
         />
-        <CheckboxGroup
-          meta={fields.siteIds}
-          label="Sites used"
-          options={choices.sites.map((s) => ({ value: s.id, label: `${s.name}${retired(s)}` }))}
-          empty="No sites registered yet."
-        />
+        <CheckboxGroup meta={fields.siteIds} label="Sites used" options={choices.sites.map((s) => ({ value: s.id, label: `${s.name}${retired(s)}` }))} empty="No sites registered yet." />
       </section>
 
       <button type="submit" className="btn" disabled={busy}>

@@ -56,15 +56,7 @@ function mhz(v: unknown) {
   return Number.isFinite(n) && n > 0 ? `= ${(n / 1e6).toLocaleString("en-GB", { maximumFractionDigits: 6 })} MHz` : null;
 }
 
-export function SensorForm({
-  lastResult,
-  defaultValue,
-  submitLabel,
-}: {
-  lastResult: SubmissionResult<string[]> | null | undefined;
-  defaultValue: SensorFormDefaults;
-  submitLabel: string;
-}) {
+export function SensorForm({ lastResult, defaultValue, submitLabel }: { lastResult: SubmissionResult<string[]> | null | undefined; defaultValue: SensorFormDefaults; submitLabel: string }) {
   const navigation = useNavigation();
   const busy = navigation.state !== "idle" && navigation.formMethod === "POST";
   const [form, fields] = useForm<SensorInput>({
@@ -142,12 +134,7 @@ export function SensorForm({
             { value: "false", label: "No, it assumes a fixed refractivity" },
           ]}
         />
-        <NumberField
-          meta={fields.assumedRefractivity}
-          label="Refractivity it assumes"
-          unit="ppm"
-          hint="N = (n − 1)·10⁶; 0 means the vacuum speed of light. Used when it does not correct for air."
-        />
+        <NumberField meta={fields.assumedRefractivity} label="Refractivity it assumes" unit="ppm" hint="N = (n − 1)·10⁶; 0 means the vacuum speed of light. Used when it does not correct for air." />
       </section>
 
       <section className="card grid gap-4 sm:grid-cols-2">
@@ -157,8 +144,7 @@ export function SensorForm({
         <p className="num text-lg sm:col-span-2" aria-live="polite">
           {tolOk ? (
             <>
-              Tolerance <strong>{formatTolerance(a, b)}</strong>: ±{(a + (b * 50) / 1000).toFixed(2)} mm at 50 m, ±
-              {(a + (b * 100) / 1000).toFixed(2)} mm at 100 m.
+              Tolerance <strong>{formatTolerance(a, b)}</strong>: ±{(a + (b * 50) / 1000).toFixed(2)} mm at 50 m, ±{(a + (b * 100) / 1000).toFixed(2)} mm at 100 m.
             </>
           ) : (
             "Give both parts to see the tolerance at 50 m and 100 m."
@@ -194,8 +180,8 @@ export function SensorForm({
       <section className="card grid gap-4 sm:grid-cols-2">
         <h2 className="text-xl font-bold sm:col-span-2">Depth camera (time-of-flight frames)</h2>
         <p className="text-muted sm:col-span-2">
-          Only for cameras whose depth frames are checked: the pinhole intrinsics from the maker's calibration (pixel centres at
-          whole-number coordinates) and the depth per unit of its 16-bit frames. Leave all empty for other sensors.
+          Only for cameras whose depth frames are checked: the pinhole intrinsics from the maker's calibration (pixel centres at whole-number coordinates) and the depth per unit of its 16-bit frames.
+          Leave all empty for other sensors.
         </p>
         <NumberField meta={intr.fx} label="Focal length fx" unit="px" />
         <NumberField meta={intr.fy} label="Focal length fy" unit="px" />

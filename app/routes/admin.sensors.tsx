@@ -119,9 +119,7 @@ export default function Sensors({ loaderData }: Route.ComponentProps) {
                   <td className="p-2 num">{s.serial}</td>
                   <td className="p-2">
                     {SENSOR_KIND_LABEL[s.kind]}
-                    {s.kind === "cw" && s.modulationHz.length ? (
-                      <span className="block text-sm text-muted num">{s.modulationHz.map((f) => `${f / 1e6} MHz`).join(", ")}</span>
-                    ) : null}
+                    {s.kind === "cw" && s.modulationHz.length ? <span className="block text-sm text-muted num">{s.modulationHz.map((f) => `${f / 1e6} MHz`).join(", ")}</span> : null}
                   </td>
                   <td className="p-2 num text-right">{s.wavelengthNm} nm</td>
                   <td className="p-2 num">{formatTolerance(s.toleranceMm, s.tolerancePpm)}</td>

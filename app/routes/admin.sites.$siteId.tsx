@@ -64,15 +64,9 @@ export default function EditSite({ loaderData, actionData }: Route.ComponentProp
         {site.name} {site.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
       </h1>
       <p className="text-muted">
-        Id <code className="num">{site.id}</code>. Removing a station or target retires it; shots that refer to it keep it. Changing surveyed
-        positions recomputes the shots taken here.
+        Id <code className="num">{site.id}</code>. Removing a station or target retires it; shots that refer to it keep it. Changing surveyed positions recomputes the shots taken here.
       </p>
-      <SiteForm
-        lastResult={actionData?.result}
-        defaultValue={siteDefaults(site)}
-        submitLabel="Save changes"
-        retiredTargets={site.targets.filter((t) => t.retiredAt)}
-      />
+      <SiteForm lastResult={actionData?.result} defaultValue={siteDefaults(site)} submitLabel="Save changes" retiredTargets={site.targets.filter((t) => t.retiredAt)} />
       <RetirePanel
         what="site"
         label={site.name}

@@ -181,10 +181,7 @@ export function SiteForm({
                 .filter((t) => !shownIds.has(t.id))
                 .map((t) => (
                   <li key={t.id}>
-                    <button
-                      className="btn-secondary"
-                      {...form.insert.getButtonProps({ name: fields.targets.name, defaultValue: targetDefault(t) as never })}
-                    >
+                    <button className="btn-secondary" {...form.insert.getButtonProps({ name: fields.targets.name, defaultValue: targetDefault(t) as never })}>
                       Bring back “{t.label}”
                     </button>
                   </li>

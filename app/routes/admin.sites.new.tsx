@@ -25,10 +25,7 @@ export async function action({ request }: Route.ActionArgs) {
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }) }, { status: 400 });
   if (r.status === 409) return data({ result: submission.reply({ formErrors: [r.body.error] }) }, { status: 409 });
   const n = submission.value.targets.length;
-  const text =
-    r.status === 201
-      ? `Site “${submission.value.name}” added with ${n} target${n === 1 ? "" : "s"}.`
-      : `Site “${submission.value.name}” was already registered with these values.`;
+  const text = r.status === 201 ? `Site “${submission.value.name}” added with ${n} target${n === 1 ? "" : "s"}.` : `Site “${submission.value.name}” was already registered with these values.`;
   return redirect("/admin/sites", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
 }
 

@@ -67,12 +67,7 @@ export default function EditTape({ loaderData, actionData }: Route.ComponentProp
         Id <code className="num">{tape.id}</code>. Changing its constants recomputes every shot whose reference distance was taped with it.
       </p>
       <TapeForm lastResult={actionData?.result} defaultValue={tapeDefaults(tape)} submitLabel="Save changes" />
-      <RetirePanel
-        what="tape"
-        label={tape.label}
-        retiredAt={tape.retiredAt}
-        error={actionData?.retireError}
-      />
+      <RetirePanel what="tape" label={tape.label} retiredAt={tape.retiredAt} error={actionData?.retireError} />
       <RecordHistory rows={history} />
     </div>
   );

@@ -38,15 +38,7 @@ export function tapeDefaults(r?: {
   };
 }
 
-export function TapeForm({
-  lastResult,
-  defaultValue,
-  submitLabel,
-}: {
-  lastResult: SubmissionResult<string[]> | null | undefined;
-  defaultValue: Record<string, unknown>;
-  submitLabel: string;
-}) {
+export function TapeForm({ lastResult, defaultValue, submitLabel }: { lastResult: SubmissionResult<string[]> | null | undefined; defaultValue: Record<string, unknown>; submitLabel: string }) {
   const navigation = useNavigation();
   const busy = navigation.state !== "idle" && navigation.formMethod === "POST";
   const [form, fields] = useForm<TapeInput>({
@@ -68,12 +60,7 @@ export function TapeForm({
         <NumberField meta={fields.areaMm2} label="Cross-section" unit="mm²" hint="Width × thickness of the band." />
         <NumberField meta={fields.modulusGPa} label="Modulus of elasticity" unit="GPa" hint="About 200 GPa for steel." />
         <NumberField meta={fields.weightNPerM} label="Weight per metre" unit="N/m" hint="For the sag correction when held at its ends." />
-        <NumberField
-          meta={fields.calibrationPpm}
-          label="Certificate correction"
-          unit="ppm"
-          hint="Positive when the tape is longer than its nominal length (1 ppm = 1 mm per km)."
-        />
+        <NumberField meta={fields.calibrationPpm} label="Certificate correction" unit="ppm" hint="Positive when the tape is longer than its nominal length (1 ppm = 1 mm per km)." />
         <NumberField
           meta={fields.uncertaintyMm}
           label="Certificate uncertainty, constant part"

@@ -93,30 +93,44 @@ export default function AdminUser({ loaderData, actionData }: Route.ComponentPro
   return (
     <div className="space-y-6">
       <nav aria-label="Breadcrumb" className="text-lg">
-        <Link to="/admin" className="underline underline-offset-4">Admin</Link> ›{" "}
-        <Link to="/admin/users" className="underline underline-offset-4">Users</Link> › {user.email}
+        <Link to="/admin" className="underline underline-offset-4">
+          Admin
+        </Link>{" "}
+        ›{" "}
+        <Link to="/admin/users" className="underline underline-offset-4">
+          Users
+        </Link>{" "}
+        › {user.email}
       </nav>
       <h1 className="text-3xl font-bold break-all">{user.name || user.email}</h1>
       <p className="text-lg">
-        <span className="break-all">{user.email}</span> · <span className="uppercase">{user.role}</span> ·{" "}
-        {user.active ? "Active" : <strong>✗ Deactivated</strong>} · last sign-in {formatWhen(user.lastSignInAt)}
+        <span className="break-all">{user.email}</span> · <span className="uppercase">{user.role}</span> · {user.active ? "Active" : <strong>✗ Deactivated</strong>} · last sign-in{" "}
+        {formatWhen(user.lastSignInAt)}
       </p>
       {loaderData.flash ? <Notice kind={loaderData.flash.kind}>{loaderData.flash.text}</Notice> : null}
       {actionData?.error ? <Notice kind="error">{actionData.error}</Notice> : null}
 
       <section className="card space-y-3" aria-labelledby="role-heading">
-        <h2 id="role-heading" className="text-2xl font-bold">Role</h2>
+        <h2 id="role-heading" className="text-2xl font-bold">
+          Role
+        </h2>
         <Form method="post" className="flex flex-wrap items-end gap-3">
           <input type="hidden" name="intent" value="role" />
           <div className="min-w-64 flex-1">
-            <label htmlFor="role" className="field-label">Role of {user.name || user.email}</label>
+            <label htmlFor="role" className="field-label">
+              Role of {user.name || user.email}
+            </label>
             <select id="role" name="role" defaultValue={user.role} className="input" key={user.role}>
               {ROLE_OPTIONS.map((r) => (
-                <option key={r} value={r}>{ROLE_TEXT[r]}</option>
+                <option key={r} value={r}>
+                  {ROLE_TEXT[r]}
+                </option>
               ))}
             </select>
           </div>
-          <button type="submit" className="btn" disabled={busy}>Change role</button>
+          <button type="submit" className="btn" disabled={busy}>
+            Change role
+          </button>
         </Form>
       </section>
 
@@ -130,7 +144,9 @@ export default function AdminUser({ loaderData, actionData }: Route.ComponentPro
       />
 
       <section className="card space-y-3" aria-labelledby="sessions-heading">
-        <h2 id="sessions-heading" className="text-2xl font-bold">Signed-in devices ({sessions.length})</h2>
+        <h2 id="sessions-heading" className="text-2xl font-bold">
+          Signed-in devices ({sessions.length})
+        </h2>
         {sessions.length === 0 ? (
           <p>Not signed in anywhere.</p>
         ) : (
@@ -141,50 +157,70 @@ export default function AdminUser({ loaderData, actionData }: Route.ComponentPro
                   <span>
                     Since {formatWhen(s.createdAt)}, until {formatWhen(s.expiresAt)}
                     <br />
-                    <span className="text-sm text-muted">{s.userAgent ?? "unknown device"} · {s.ip ?? "unknown address"}</span>
+                    <span className="text-sm text-muted">
+                      {s.userAgent ?? "unknown device"} · {s.ip ?? "unknown address"}
+                    </span>
                   </span>
                   <Form method="post">
                     <input type="hidden" name="intent" value="revoke-sessions" />
                     <input type="hidden" name="sessionId" value={s.id} />
-                    <button type="submit" className="btn-secondary">End this sign-in</button>
+                    <button type="submit" className="btn-secondary">
+                      End this sign-in
+                    </button>
                   </Form>
                 </li>
               ))}
             </ul>
             <Form method="post">
               <input type="hidden" name="intent" value="revoke-sessions" />
-              <button type="submit" className="btn" disabled={busy}>End all sign-ins</button>
+              <button type="submit" className="btn" disabled={busy}>
+                End all sign-ins
+              </button>
             </Form>
           </>
         )}
       </section>
 
       <section className="card space-y-3" aria-labelledby="tokens-heading">
-        <h2 id="tokens-heading" className="text-2xl font-bold">API tokens ({tokens.length})</h2>
-        {tokens.length === 0 ? <p>None.</p> : (
+        <h2 id="tokens-heading" className="text-2xl font-bold">
+          API tokens ({tokens.length})
+        </h2>
+        {tokens.length === 0 ? (
+          <p>None.</p>
+        ) : (
           <ul className="list-disc pl-6">
             {tokens.map((t) => (
-              <li key={t.id}>{t.name} — last used {formatWhen(t.lastUsedAt)}</li>
+              <li key={t.id}>
+                {t.name} — last used {formatWhen(t.lastUsedAt)}
+              </li>
             ))}
           </ul>
         )}
-        <Link to="/admin/tokens" className="btn-secondary">Manage API tokens</Link>
+        <Link to="/admin/tokens" className="btn-secondary">
+          Manage API tokens
+        </Link>
       </section>
 
       {loaderData.isMe ? null : (
         <section className="card space-y-3" aria-labelledby="access-heading">
-          <h2 id="access-heading" className="text-2xl font-bold">Access</h2>
+          <h2 id="access-heading" className="text-2xl font-bold">
+            Access
+          </h2>
           <Form method="post">
             {user.active ? (
               <>
                 <p className="mb-3">Deactivating ends every sign-in and stops their API tokens at once. Their records stay.</p>
                 <input type="hidden" name="intent" value="deactivate" />
-                <button type="submit" className="btn-secondary border-fail text-fail">✗ Deactivate</button>
+                <button type="submit" className="btn-secondary border-fail text-fail">
+                  ✗ Deactivate
+                </button>
               </>
             ) : (
               <>
                 <input type="hidden" name="intent" value="reactivate" />
-                <button type="submit" className="btn">Reactivate</button>
+                <button type="submit" className="btn">
+                  Reactivate
+                </button>
               </>
             )}
           </Form>

@@ -25,7 +25,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   try {
     body = await readBody(request);
   } catch {
-    return Response.json({ error: "The body is not JSON.", errors: [{ path: "reason", message: "Send { \"reason\": \"…\" }" }] }, { status: 400 });
+    return Response.json({ error: "The body is not JSON.", errors: [{ path: "reason", message: 'Send { "reason": "…" }' }] }, { status: 400 });
   }
   const result = request.method === "POST" ? await excludeShot(user, params.shotId, body) : await restoreShot(user, params.shotId, body);
   return Response.json(result.body, { status: result.status });

@@ -20,8 +20,12 @@ export default function MagicLink({ loaderData }: Route.ComponentProps) {
         {loaderData.error}
       </p>
       <p className="flex flex-wrap gap-3">
-        <Link to="/login/code" className="btn">Type the code instead</Link>
-        <Link to="/login" className="btn-secondary">Request a new code</Link>
+        <Link to="/login/code" className="btn">
+          Type the code instead
+        </Link>
+        <Link to="/login" className="btn-secondary">
+          Request a new code
+        </Link>
       </p>
     </div>
   );

@@ -36,9 +36,7 @@ export default function DevMail({ loaderData }: Route.ComponentProps) {
       <div className="flex flex-wrap items-end justify-between gap-3">
         <div>
           <h1 className="text-3xl font-bold">Mail received (development only)</h1>
-          <p className="mt-1 text-muted">
-            Messages the local mail fake received, newest first. This page exists only in development and the demo.
-          </p>
+          <p className="mt-1 text-muted">Messages the local mail fake received, newest first. This page exists only in development and the demo.</p>
         </div>
         <button type="button" className="btn-secondary" onClick={() => void revalidator.revalidate()}>
           {revalidator.state === "loading" ? "Refreshing…" : "Refresh"}
@@ -69,9 +67,7 @@ export default function DevMail({ loaderData }: Route.ComponentProps) {
               ) : null}
               <details open={!m.code}>
                 <summary className="min-h-11 cursor-pointer py-2 font-bold">Text of the message</summary>
-                <pre className="mt-2 overflow-x-auto whitespace-pre-wrap break-words rounded-md border-2 border-line bg-bg p-3 text-base">
-                  {m.text}
-                </pre>
+                <pre className="mt-2 overflow-x-auto whitespace-pre-wrap break-words rounded-md border-2 border-line bg-bg p-3 text-base">{m.text}</pre>
               </details>
             </li>
           ))}

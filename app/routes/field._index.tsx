@@ -22,12 +22,9 @@ async function sessionRows(): Promise<SessionRow[]> {
   return db.transaction("r", db.sessions, db.shots, async () => {
     const sessions = await db.sessions.orderBy("queuedAt").reverse().limit(30).toArray();
     return Promise.all(
-    sessions.map(async (s) => {
-      const [shots, synced] = await Promise.all([
-        db.shots.where("sessionId").equals(s.id).count(),
-        db.shots.where("[sessionId+state]").equals([s.id, "synced"]).count(),
-      ]);
-      return { ...s, shots, queued: shots - synced };
+      sessions.map(async (s) => {
+        const [shots, synced] = await Promise.all([db.shots.where("sessionId").equals(s.id).count(), db.shots.where("[sessionId+state]").equals([s.id, "synced"]).count()]);
+        return { ...s, shots, queued: shots - synced };
       }),
     );
   });
@@ -108,7 +105,9 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
   return (
     <div className="grid gap-6 lg:grid-cols-[3fr_2fr]">
       <form onSubmit={onSubmit} noValidate className="card space-y-5" aria-labelledby="start-title" data-dirty={dirty ? "true" : "false"}>
-        <h1 id="start-title" className="text-3xl font-bold">Start session</h1>
+        <h1 id="start-title" className="text-3xl font-bold">
+          Start session
+        </h1>
         {noReference ? (
           <p className="rounded-md border-2 border-warn p-3 font-bold" role="status">
             {reference.copiedAt
@@ -116,7 +115,11 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
               : "No reference data on this tablet yet. Open this page once with a connection: sensors, sites and tapes are copied automatically."}
           </p>
         ) : null}
-        {errors.form ? <p className="field-error" role="alert">{errors.form}</p> : null}
+        {errors.form ? (
+          <p className="field-error" role="alert">
+            {errors.form}
+          </p>
+        ) : null}
         <SessionFields
           reference={reference}
           values={values}
@@ -142,7 +145,9 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
 
       <div className="space-y-6">
         <section className="card space-y-2 border-warn" aria-labelledby="cautions">
-          <h2 id="cautions" className="text-xl font-bold">Before the first shot</h2>
+          <h2 id="cautions" className="text-xl font-bold">
+            Before the first shot
+          </h2>
           <ul className="list-disc space-y-1 pl-6">
             <li>Follow the laser safety class of the sensor (IEC 60825-1) and the maker's manual.</li>
             <li>Never aim the sensor at people, vehicles or aircraft.</li>
@@ -151,7 +156,9 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
           </ul>
         </section>
         <section className="space-y-3" aria-labelledby="sessions-title">
-          <h2 id="sessions-title" className="text-2xl font-bold">Sessions on this tablet</h2>
+          <h2 id="sessions-title" className="text-2xl font-bold">
+            Sessions on this tablet
+          </h2>
           {sessions.length === 0 ? <p className="text-muted">None yet: start one on the left.</p> : null}
           <ul className="space-y-2">
             {sessions.map((s) => {
@@ -160,7 +167,9 @@ export default function FieldStart({ loaderData }: Route.ComponentProps) {
               return (
                 <li key={s.id}>
                   <Link to={`/field/session/${s.id}`} className="card block min-h-11 hover:border-accent" data-testid="session-link">
-                    <span className="block text-lg font-bold">{sn?.label ?? s.record.sensorId} at {st?.name ?? s.record.siteId}</span>
+                    <span className="block text-lg font-bold">
+                      {sn?.label ?? s.record.sensorId} at {st?.name ?? s.record.siteId}
+                    </span>
                     <span className="num block">
                       {formatWhen(s.record.startedAt)} · {s.shots} {s.shots === 1 ? "shot" : "shots"}
                       {s.queued ? ` · ${s.queued} not yet synced` : s.shots ? " · all synced" : ""}

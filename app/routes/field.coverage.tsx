@@ -46,7 +46,10 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
         <p className="field-error">The sensor of this session is not in the tablet's reference data; connect once to copy it.</p>
       ) : (
         <>
-          <p className={`flex items-center gap-2 text-xl font-bold ${result.complete || (missingHere.length === 0 && !result.needsBrightSun) ? "text-pass" : "text-warn"}`} data-testid="coverage-summary">
+          <p
+            className={`flex items-center gap-2 text-xl font-bold ${result.complete || (missingHere.length === 0 && !result.needsBrightSun) ? "text-pass" : "text-warn"}`}
+            data-testid="coverage-summary"
+          >
             <VerdictShape verdict={result.complete || (missingHere.length === 0 && !result.needsBrightSun) ? "pass" : "insufficient"} size={22} />
             {result.complete
               ? "Coverage complete: every range band has dark and bright shots, and the light is covered."
@@ -62,12 +65,18 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
           ) : null}
           {missingHere.length ? (
             <section className="card space-y-2" aria-labelledby="next-title">
-              <h3 id="next-title" className="text-xl font-bold">Next targets to shoot</h3>
+              <h3 id="next-title" className="text-xl font-bold">
+                Next targets to shoot
+              </h3>
               <ul className="num list-disc space-y-1 pl-6 text-lg" data-testid="next-targets">
                 {missingHere.map((c) => (
                   <li key={`${c.rangeBand}-${c.reflectance}`}>
-                    <strong>{siteCell(c.rangeBand, c.reflectance)!.targets.map((t) => `${t.label} (${t.referenceM} m, ${t.reflectancePct} %)`).join(" or ")}</strong>: {c.need - c.have} more for{" "}
-                    {bandWord(c.rangeBand)} {c.reflectance}
+                    <strong>
+                      {siteCell(c.rangeBand, c.reflectance)!
+                        .targets.map((t) => `${t.label} (${t.referenceM} m, ${t.reflectancePct} %)`)
+                        .join(" or ")}
+                    </strong>
+                    : {c.need - c.have} more for {bandWord(c.rangeBand)} {c.reflectance}
                   </li>
                 ))}
               </ul>
@@ -75,21 +84,29 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
           ) : null}
           <div className="overflow-x-auto">
             <table className="w-full border-collapse text-left text-lg" data-testid="coverage-table">
-              <caption className="text-left text-muted">
-                Each cell needs {result.cells[0]?.need ?? 3} shots. Dark: reflectance under 20 %; bright: over 60 % (retro-reflectors do not count).
-              </caption>
+              <caption className="text-left text-muted">Each cell needs {result.cells[0]?.need ?? 3} shots. Dark: reflectance under 20 %; bright: over 60 % (retro-reflectors do not count).</caption>
               <thead>
                 <tr className="border-b-2 border-line">
-                  <th scope="col" className="p-2">Range band (m)</th>
-                  <th scope="col" className="p-2">Dark targets</th>
-                  <th scope="col" className="p-2">Bright targets</th>
-                  <th scope="col" className="p-2">Light of the shots</th>
+                  <th scope="col" className="p-2">
+                    Range band (m)
+                  </th>
+                  <th scope="col" className="p-2">
+                    Dark targets
+                  </th>
+                  <th scope="col" className="p-2">
+                    Bright targets
+                  </th>
+                  <th scope="col" className="p-2">
+                    Light of the shots
+                  </th>
                 </tr>
               </thead>
               <tbody>
                 {labels.map((band, i) => (
                   <tr key={band} className="border-b border-line">
-                    <th scope="row" className="num p-2">{band.replace("-", "–")} m</th>
+                    <th scope="row" className="num p-2">
+                      {band.replace("-", "–")} m
+                    </th>
                     {(["dark", "bright"] as const).map((refl) => {
                       const c = cell(band, refl)!;
                       const ok = c.have >= c.need;
@@ -103,16 +120,16 @@ export default function FieldCoverage({ loaderData, params }: Route.ComponentPro
                           ) : (
                             <span className={`inline-flex items-center gap-2 font-bold ${ok ? "text-pass" : "text-warn"}`}>
                               <VerdictShape verdict={ok ? "pass" : "insufficient"} />
-                              <span className="num">{c.have} of {c.need}</span>
+                              <span className="num">
+                                {c.have} of {c.need}
+                              </span>
                               <span>{ok ? "done" : `need ${c.need - c.have} more`}</span>
                             </span>
                           )}
                         </td>
                       );
                     })}
-                    <td className="num p-2 text-base">
-                      {(["low", "moderate", "high"] as const).map((k) => `${LIGHT[k].split(" ")[0]} ${light[i]![k]}`).join(" · ")}
-                    </td>
+                    <td className="num p-2 text-base">{(["low", "moderate", "high"] as const).map((k) => `${LIGHT[k].split(" ")[0]} ${light[i]![k]}`).join(" · ")}</td>
                   </tr>
                 ))}
               </tbody>

@@ -98,7 +98,6 @@ function Errors({ errors, label = fieldLabelOf, names }: { errors: FieldError[];
   );
 }
 
-
 export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
   const data = useLiveQuery(() => outboxData(), [], loaderData);
   const status = useSyncStatus();
@@ -126,13 +125,19 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
     <div className="space-y-6">
       <h1 className="text-3xl font-bold">Outbox</h1>
       <section className="card space-y-3" aria-labelledby="sync-title">
-        <h2 id="sync-title" className="sr-only">Sync</h2>
+        <h2 id="sync-title" className="sr-only">
+          Sync
+        </h2>
         <p className="text-xl font-bold" data-testid="outbox-summary">
           {nothing
             ? "Nothing waiting: everything saved on this tablet is on the server."
             : `Waiting: ${count(queuedSessions.length, "session")}, ${count(queuedShots.length, "shot")}, ${count(queuedPhotos.length, "photo")}.`}
-          {stuckTotal ? ` Set aside, the server fails on them: ${[stuckSessions.length ? count(stuckSessions.length, "session") : "", stuckShots.length ? count(stuckShots.length, "shot") : ""].filter(Boolean).join(", ")}.` : ""}
-          {refusedTotal ? ` Refused, to fix: ${[rejectedSessions.length ? count(rejectedSessions.length, "session") : "", rejectedShots.length ? count(rejectedShots.length, "shot") : "", rejectedPhotos.length ? count(rejectedPhotos.length, "photo") : ""].filter(Boolean).join(", ")}.` : ""}
+          {stuckTotal
+            ? ` Set aside, the server fails on them: ${[stuckSessions.length ? count(stuckSessions.length, "session") : "", stuckShots.length ? count(stuckShots.length, "shot") : ""].filter(Boolean).join(", ")}.`
+            : ""}
+          {refusedTotal
+            ? ` Refused, to fix: ${[rejectedSessions.length ? count(rejectedSessions.length, "session") : "", rejectedShots.length ? count(rejectedShots.length, "shot") : "", rejectedPhotos.length ? count(rejectedPhotos.length, "photo") : ""].filter(Boolean).join(", ")}.`
+            : ""}
         </p>
         <div className="flex flex-wrap items-center gap-4">
           <button type="button" className="btn min-h-14 px-8 text-xl" disabled={running} onClick={() => void syncNow()}>
@@ -169,13 +174,13 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
 
       {rejectedSessions.length + rejectedShots.length + rejectedPhotos.length > 0 ? (
         <section className="space-y-3" aria-labelledby="refused-title">
-          <h2 id="refused-title" className="text-2xl font-bold text-fail">✕ Refused by the server: fix and resend</h2>
+          <h2 id="refused-title" className="text-2xl font-bold text-fail">
+            ✕ Refused by the server: fix and resend
+          </h2>
           <ul className="space-y-3">
             {rejectedSessions.map((s) => (
               <li key={s.id} className="card space-y-2 border-fail" data-testid="rejected-session">
-                <p className="font-bold">
-                  Session: {data.names[s.id]}
-                </p>
+                <p className="font-bold">Session: {data.names[s.id]}</p>
                 <Errors errors={s.errors} label={sessionFieldLabelOf} names={data.names} />
                 <p className="text-sm">Its shots wait until the session is accepted. Resend it unchanged once an admin has fixed the reference data.</p>
                 <p className="flex flex-wrap gap-3">
@@ -208,7 +213,9 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
             ))}
             {rejectedPhotos.map((p) => (
               <li key={p.id} className="card space-y-2 border-fail" data-testid="rejected-photo">
-                <p className="font-bold">Photo {p.name} ({formatBytes(p.bytes)})</p>
+                <p className="font-bold">
+                  Photo {p.name} ({formatBytes(p.bytes)})
+                </p>
                 <Errors errors={p.errors} label={() => "Photo"} names={data.names} />
                 <button type="button" className="btn-secondary" onClick={() => void resendPhoto(p.id).then(() => syncNow())}>
                   Resend the photo
@@ -232,7 +239,9 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
 
       {queuedSessions.length + queuedShots.length + queuedPhotos.length > 0 ? (
         <section className="space-y-3" aria-labelledby="waiting-title">
-          <h2 id="waiting-title" className="text-2xl font-bold">◷ Waiting to be sent</h2>
+          <h2 id="waiting-title" className="text-2xl font-bold">
+            ◷ Waiting to be sent
+          </h2>
           {queuedSessions.length ? (
             <ul className="space-y-1">
               {queuedSessions.map((s) => (
@@ -266,7 +275,9 @@ export default function FieldOutbox({ loaderData }: Route.ComponentProps) {
       ) : null}
 
       <section className="card space-y-2" aria-labelledby="storage-title">
-        <h2 id="storage-title" className="text-xl font-bold">Storage on this tablet</h2>
+        <h2 id="storage-title" className="text-xl font-bold">
+          Storage on this tablet
+        </h2>
         <p className="num" data-testid="storage-use">
           Used: {formatBytes(storage?.usageBytes ?? null)} of {formatBytes(storage?.quotaBytes ?? null)} available to Shotbook.
         </p>

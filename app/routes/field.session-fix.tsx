@@ -33,7 +33,9 @@ export default function FieldSessionFix({ loaderData }: Route.ComponentProps) {
       <div className="card space-y-3">
         <h1 className="text-2xl font-bold">This session is on the server</h1>
         <p>Synced sessions are never changed on the tablet.</p>
-        <Link to={`/field/session/${session.id}`} className="btn">Back to the session</Link>
+        <Link to={`/field/session/${session.id}`} className="btn">
+          Back to the session
+        </Link>
       </div>
     );
   }
@@ -71,10 +73,7 @@ function FixForm({ data, session }: { data: Route.ComponentProps["loaderData"]; 
       // A refused session goes back to the outbox that showed it; a queued one to its shots.
       navigate(session.state === "rejected" ? "/field/outbox" : `/field/session/${session.id}`);
     } catch (err) {
-      const errs =
-        err instanceof OutboxError
-          ? sessionErrorsByField(err.errors)
-          : { form: `Not saved: ${err instanceof Error ? err.message : String(err)}. What you typed is still here.` };
+      const errs = err instanceof OutboxError ? sessionErrorsByField(err.errors) : { form: `Not saved: ${err instanceof Error ? err.message : String(err)}. What you typed is still here.` };
       setErrors(errs);
       focusFirstError(errs);
     } finally {

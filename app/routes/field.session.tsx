@@ -40,12 +40,16 @@ function EndSummary({ data, ctx, onClose }: { data: SessionData; ctx: PreviewCon
   const lacks = result ? [...missingHere.map((c) => `${band(c.rangeBand)} ${c.reflectance}: ${c.need - c.have} more`), ...(result.needsBrightSun ? ["a shot in bright sun (≥ 50 klux)"] : [])] : [];
   return (
     <section className="card space-y-3 border-accent" aria-labelledby="end-title" data-testid="end-summary" tabIndex={-1} id="end-summary">
-      <h2 id="end-title" className="text-2xl font-bold">Session summary</h2>
+      <h2 id="end-title" className="text-2xl font-bold">
+        Session summary
+      </h2>
       <p className="num text-lg">
         <strong>{shots.length}</strong> {shots.length === 1 ? "shot" : "shots"}: <strong>{within}</strong> within the limit, <strong>{outside}</strong> outside
         {unchecked ? `, ${unchecked} not checked on the tablet` : ""}.
       </p>
-      <p className="num">{waiting ? `${waiting} ${waiting === 1 ? "shot waits in the outbox and goes" : "shots wait in the outbox and go"} out with the next sync.` : "Everything of this session is on the server."}</p>
+      <p className="num">
+        {waiting ? `${waiting} ${waiting === 1 ? "shot waits in the outbox and goes" : "shots wait in the outbox and go"} out with the next sync.` : "Everything of this session is on the server."}
+      </p>
       {result ? (
         result.complete || lacks.length === 0 ? (
           <p className="font-bold text-pass">{result.complete ? "Coverage complete." : "Everything this site can give is covered."}</p>
@@ -62,9 +66,7 @@ function EndSummary({ data, ctx, onClose }: { data: SessionData; ctx: PreviewCon
       ) : (
         <p className="text-muted">The coverage needs the session's sensor in the tablet's reference data.</p>
       )}
-      {outOfReach.length ? (
-        <p className="text-muted">Out of this site's reach: {outOfReach.map((c) => `${band(c.rangeBand)} ${c.reflectance}`).join(", ")}.</p>
-      ) : null}
+      {outOfReach.length ? <p className="text-muted">Out of this site's reach: {outOfReach.map((c) => `${band(c.rangeBand)} ${c.reflectance}`).join(", ")}.</p> : null}
       <p className="flex flex-wrap gap-3">
         <Link to="/field" className="btn">
           Done: back to the sessions
@@ -147,7 +149,9 @@ export default function FieldSession({ loaderData, params }: Route.ComponentProp
       </section>
       {onTablet ? (
         <section className="card space-y-2 border-fail" aria-labelledby="discard-title">
-          <h2 id="discard-title" className="text-xl font-bold">Wrong sensor or site?</h2>
+          <h2 id="discard-title" className="text-xl font-bold">
+            Wrong sensor or site?
+          </h2>
           <p>Nothing of this session has reached the server yet. Correct its details above, or throw it away with its shots.</p>
           <button type="button" className="btn-secondary" onClick={() => void discard()}>
             Discard this session

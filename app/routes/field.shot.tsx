@@ -32,7 +32,9 @@ export default function FieldShot({ loaderData }: Route.ComponentProps) {
     return (
       <div className="card space-y-3" role="alert">
         <h1 className="text-2xl font-bold">No such shot on this tablet</h1>
-        <Link to={`/field/session/${session.id}`} className="btn">Back to the session</Link>
+        <Link to={`/field/session/${session.id}`} className="btn">
+          Back to the session
+        </Link>
       </div>
     );
   }
@@ -42,7 +44,9 @@ export default function FieldShot({ loaderData }: Route.ComponentProps) {
       <div className="card space-y-3">
         <h1 className="text-2xl font-bold">This shot is on the server</h1>
         <p>Synced shots are never changed. A QA lead can exclude it with a reason in the review.</p>
-        <Link to={`/field/session/${session.id}`} className="btn">Back to the session</Link>
+        <Link to={`/field/session/${session.id}`} className="btn">
+          Back to the session
+        </Link>
       </div>
     );
   }

@@ -80,7 +80,9 @@ export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
         <h1 className="text-2xl font-bold">Not allowed</h1>
         <p>The field screens are for crews logging check-shots. Your role reads the reports of your projects.</p>
         <p>
-          <a className="btn" href="/">Go to your start page</a>
+          <a className="btn" href="/">
+            Go to your start page
+          </a>
         </p>
       </div>
     );
@@ -92,8 +94,12 @@ export function ErrorBoundary({ error }: Route.ErrorBoundaryProps) {
       <p>{message}</p>
       <p>Everything already saved stays queued on this tablet.</p>
       <p className="flex flex-wrap gap-3">
-        <a className="btn" href="/field">Back to the sessions</a>
-        <a className="btn-secondary" href="/field/outbox">Open the outbox</a>
+        <a className="btn" href="/field">
+          Back to the sessions
+        </a>
+        <a className="btn-secondary" href="/field/outbox">
+          Open the outbox
+        </a>
       </p>
     </div>
   );

@@ -43,11 +43,21 @@ function ProjectReports({ projects }: { projects: HomeProject[] }) {
                 <caption className="sr-only">Sensors of {p.name} and their verdicts by the project's acceptance rule</caption>
                 <thead>
                   <tr className="border-b-2 border-line">
-                    <th scope="col" className="p-2">Sensor</th>
-                    <th scope="col" className="p-2">Verdict</th>
-                    <th scope="col" className="p-2 text-right">Shots</th>
-                    <th scope="col" className="p-2 text-right">RMSE</th>
-                    <th scope="col" className="p-2">Last session</th>
+                    <th scope="col" className="p-2">
+                      Sensor
+                    </th>
+                    <th scope="col" className="p-2">
+                      Verdict
+                    </th>
+                    <th scope="col" className="p-2 text-right">
+                      Shots
+                    </th>
+                    <th scope="col" className="p-2 text-right">
+                      RMSE
+                    </th>
+                    <th scope="col" className="p-2">
+                      Last session
+                    </th>
                   </tr>
                 </thead>
                 <tbody>
@@ -89,8 +99,8 @@ export default function Home({ loaderData }: Route.ComponentProps) {
         </>
       ) : (
         <p className="max-w-3xl text-lg">
-          The logbook and the judgement for range checks of lidar and time-of-flight sensors: check-shots in the field,
-          range bias and tolerance per sensor on the server, sign-off and the client's report in the office.
+          The logbook and the judgement for range checks of lidar and time-of-flight sensors: check-shots in the field, range bias and tolerance per sensor on the server, sign-off and the client's
+          report in the office.
         </p>
       )}
       {role && !projects ? (
@@ -98,7 +108,9 @@ export default function Home({ loaderData }: Route.ComponentProps) {
           {CARDS.filter((c) => (c.roles as readonly string[]).includes(role)).map((c) => (
             <li key={c.to} className="card">
               <h2 className="text-2xl font-bold">
-                <Link to={c.to} className="underline underline-offset-4">{c.title}</Link>
+                <Link to={c.to} className="underline underline-offset-4">
+                  {c.title}
+                </Link>
               </h2>
               <p className="mt-2">{c.text}</p>
             </li>
@@ -107,7 +119,9 @@ export default function Home({ loaderData }: Route.ComponentProps) {
       ) : null}
       {!role ? (
         <p>
-          <Link to="/login" className="btn">Sign in with an e-mail code</Link>
+          <Link to="/login" className="btn">
+            Sign in with an e-mail code
+          </Link>
         </p>
       ) : null}
     </div>

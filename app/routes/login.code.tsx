@@ -44,8 +44,8 @@ export default function LoginCode({ loaderData, actionData }: Route.ComponentPro
       <h1 className="text-3xl font-bold">Enter your code</h1>
       {loaderData.email ? (
         <p className="text-lg">
-          If <strong className="break-all">{loaderData.email}</strong> may sign in, a 6-digit code is on its way there. It
-          works once, for 10 minutes. You can also open the link in the e-mail in this browser.
+          If <strong className="break-all">{loaderData.email}</strong> may sign in, a 6-digit code is on its way there. It works once, for 10 minutes. You can also open the link in the e-mail in this
+          browser.
         </p>
       ) : null}
       <Form method="post" {...getFormProps(form)} className="card space-y-4">
@@ -86,10 +86,14 @@ export default function LoginCode({ loaderData, actionData }: Route.ComponentPro
           <Form method="post" action="/login">
             <input type="hidden" name="email" value={loaderData.email} />
             <input type="hidden" name="redirectTo" value={loaderData.redirectTo} />
-            <button type="submit" className="btn-secondary">Send a new code</button>
+            <button type="submit" className="btn-secondary">
+              Send a new code
+            </button>
           </Form>
         ) : null}
-        <Link to={again} className="btn-secondary">Use another address</Link>
+        <Link to={again} className="btn-secondary">
+          Use another address
+        </Link>
       </div>
       <p className="text-muted">No e-mail after a minute? Look in the spam folder, then send a new code.</p>
     </div>

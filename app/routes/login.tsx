@@ -39,10 +39,7 @@ export default function Login({ loaderData, actionData }: Route.ComponentProps) 
   return (
     <div className="mx-auto max-w-lg space-y-6">
       <h1 className="text-3xl font-bold">Sign in</h1>
-      <p className="text-lg">
-        Enter your e-mail address. We send you a 6-digit code and a sign-in link — no password. Only people an admin has
-        invited can sign in.
-      </p>
+      <p className="text-lg">Enter your e-mail address. We send you a 6-digit code and a sign-in link — no password. Only people an admin has invited can sign in.</p>
       <Form method="post" {...getFormProps(form)} className="card space-y-4">
         <input type="hidden" name="redirectTo" value={loaderData.redirectTo} />
         {form.errors?.length ? (
@@ -76,9 +73,7 @@ export default function Login({ loaderData, actionData }: Route.ComponentProps) 
           {busy ? "Sending the code…" : "E-mail me a code"}
         </button>
       </Form>
-      <p className="text-muted">
-        A code works once, for 10 minutes. On a field tablet a sign-in lasts the field week, even offline.
-      </p>
+      <p className="text-muted">A code works once, for 10 minutes. On a field tablet a sign-in lasts the field week, even offline.</p>
     </div>
   );
 }

@@ -40,7 +40,9 @@ function ramp(t: number): [number, number, number] {
 }
 
 function depthRange(z: Float64Array): [number, number] {
-  const v = Array.from(z).filter((x) => x > 0).sort((a, b) => a - b);
+  const v = Array.from(z)
+    .filter((x) => x > 0)
+    .sort((a, b) => a - b);
   if (!v.length) return [0, 1];
   const lo = v[Math.floor(v.length * 0.02)];
   const hi = v[Math.min(v.length - 1, Math.floor(v.length * 0.98))];
@@ -103,7 +105,14 @@ export default function FramesPage({ loaderData }: Route.ComponentProps) {
         } else {
           const f = Number(frequencyHz);
           if (!intrinsics || !(f > 0) || imgs.length < 3) throw new Error("Correlation frames need at least 3 PNGs, the modulation frequency and the sensor's intrinsics.");
-          zM = depthFromCorrelation(imgs.map((i) => i.img.data as Uint16Array), width, height, f, intrinsics, { n: 1 + (session.assumedRefractivity ?? 0) * 1e-6 }).zM;
+          zM = depthFromCorrelation(
+            imgs.map((i) => i.img.data as Uint16Array),
+            width,
+            height,
+            f,
+            intrinsics,
+            { n: 1 + (session.assumedRefractivity ?? 0) * 1e-6 },
+          ).zM;
         }
         if (!stop) setFrame({ width, height, zM });
       } catch (e) {
@@ -194,79 +203,160 @@ export default function FramesPage({ loaderData }: Route.ComponentProps) {
   const errorOf = (path: string) => errors.find((e) => e.path === path || e.path.startsWith(`${path}.`))?.message;
   const fieldError = (path: string) => {
     const m = errorOf(path);
-    return m ? <p id={`e-${path}`} className="field-error" role="alert">⚠ {m}</p> : null;
+    return m ? (
+      <p id={`e-${path}`} className="field-error" role="alert">
+        ⚠ {m}
+      </p>
+    ) : null;
   };
   const inv = (path: string) => (errorOf(path) ? true : undefined);
   const row = answer?.targets[0];
 
   return (
     <div className="space-y-6">
-      <nav aria-label="Breadcrumb"><Link to="/review" className="inline-flex min-h-11 items-center underline underline-offset-4">← Sensor verdicts</Link></nav>
+      <nav aria-label="Breadcrumb">
+        <Link to="/review" className="inline-flex min-h-11 items-center underline underline-offset-4">
+          ← Sensor verdicts
+        </Link>
+      </nav>
       <h1 className="text-3xl font-bold">Check-shots from depth frames</h1>
       <p className="max-w-3xl">
-        Load the frames a time-of-flight camera took of one target board — one or more depth frames, or the raw correlation frames of one
-        modulation frequency — drag a box on the board, and Shotbook fits a plane to its pixels and measures the range along the ray through
-        the box centre. Several frames of the same view also give the temporal noise. Nothing is stored until you accept.
+        Load the frames a time-of-flight camera took of one target board — one or more depth frames, or the raw correlation frames of one modulation frequency — drag a box on the board, and Shotbook
+        fits a plane to its pixels and measures the range along the ray through the box centre. Several frames of the same view also give the temporal noise. Nothing is stored until you accept.
       </p>
 
       <section className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-3" aria-label="The frames">
         <div className="sm:col-span-2">
-          <label htmlFor="f-session" className="field-label">Session</label>
-          <select id="f-session" className="input" value={sessionId} aria-invalid={inv("sessionId")} onChange={(e) => { setSessionId(e.target.value); setTargetId(""); setAnswer(null); }}>
+          <label htmlFor="f-session" className="field-label">
+            Session
+          </label>
+          <select
+            id="f-session"
+            className="input"
+            value={sessionId}
+            aria-invalid={inv("sessionId")}
+            onChange={(e) => {
+              setSessionId(e.target.value);
+              setTargetId("");
+              setAnswer(null);
+            }}
+          >
             <option value="">Choose a synced session…</option>
             {sessions.map((s) => (
-              <option key={s.id} value={s.id}>{dateTime(s.startedAt)} · {s.sensorLabel} · {s.siteName}{s.intrinsics ? "" : " (no intrinsics)"}</option>
+              <option key={s.id} value={s.id}>
+                {dateTime(s.startedAt)} · {s.sensorLabel} · {s.siteName}
+                {s.intrinsics ? "" : " (no intrinsics)"}
+              </option>
             ))}
           </select>
           {fieldError("sessionId")}
           {session && !intrinsics ? <p className="text-warn">⚠ {session.sensorLabel} has no intrinsics on its registry page: an admin adds fx, fy, cx, cy and the depth scale first.</p> : null}
         </div>
         <div>
-          <label htmlFor="f-target" className="field-label">Target</label>
-          <select id="f-target" className="input" value={targetId} disabled={!session} aria-invalid={inv("targetId")} onChange={(e) => {
-            setTargetId(e.target.value);
-            const t = siteTargets.find((x) => x.id === e.target.value);
-            if (t?.referenceM && !referenceM) setReferenceM(String(t.referenceM));
-            setAnswer(null);
-          }}>
+          <label htmlFor="f-target" className="field-label">
+            Target
+          </label>
+          <select
+            id="f-target"
+            className="input"
+            value={targetId}
+            disabled={!session}
+            aria-invalid={inv("targetId")}
+            onChange={(e) => {
+              setTargetId(e.target.value);
+              const t = siteTargets.find((x) => x.id === e.target.value);
+              if (t?.referenceM && !referenceM) setReferenceM(String(t.referenceM));
+              setAnswer(null);
+            }}
+          >
             <option value="">{session ? "Choose the target…" : "Choose a session first"}</option>
             {siteTargets.map((t) => (
-              <option key={t.id} value={t.id}>{t.label} ({t.reflectancePct} %)</option>
+              <option key={t.id} value={t.id}>
+                {t.label} ({t.reflectancePct} %)
+              </option>
             ))}
           </select>
           {fieldError("targetId")}
         </div>
         <div>
-          <label htmlFor="f-ref" className="field-label">Reference distance, camera to board (m)</label>
-          <input id="f-ref" className="input" inputMode="decimal" value={referenceM} aria-invalid={inv("referenceM")} onChange={(e) => { setReferenceM(e.target.value); setAnswer(null); }} />
+          <label htmlFor="f-ref" className="field-label">
+            Reference distance, camera to board (m)
+          </label>
+          <input
+            id="f-ref"
+            className="input"
+            inputMode="decimal"
+            value={referenceM}
+            aria-invalid={inv("referenceM")}
+            onChange={(e) => {
+              setReferenceM(e.target.value);
+              setAnswer(null);
+            }}
+          />
           {fieldError("referenceM")}
         </div>
         <fieldset className="sm:col-span-2">
           <legend className="field-label">The files hold</legend>
-          <label className="mr-6 inline-flex min-h-11 items-center gap-2"><input type="radio" name="mode" checked={mode === "depth"} onChange={() => setMode("depth")} /> depth frames (one or more)</label>
-          <label className="inline-flex min-h-11 items-center gap-2"><input type="radio" name="mode" checked={mode === "correlation"} onChange={() => setMode("correlation")} /> correlation frames (N ≥ 3, in phase order)</label>
+          <label className="mr-6 inline-flex min-h-11 items-center gap-2">
+            <input type="radio" name="mode" checked={mode === "depth"} onChange={() => setMode("depth")} /> depth frames (one or more)
+          </label>
+          <label className="inline-flex min-h-11 items-center gap-2">
+            <input type="radio" name="mode" checked={mode === "correlation"} onChange={() => setMode("correlation")} /> correlation frames (N ≥ 3, in phase order)
+          </label>
         </fieldset>
         {mode === "correlation" ? (
           <div>
-            <label htmlFor="f-freq" className="field-label">Modulation frequency (Hz)</label>
+            <label htmlFor="f-freq" className="field-label">
+              Modulation frequency (Hz)
+            </label>
             <input id="f-freq" className="input" inputMode="decimal" value={frequencyHz} aria-invalid={inv("frequencyHz")} onChange={(e) => setFrequencyHz(e.target.value)} />
             {fieldError("frequencyHz")}
           </div>
         ) : null}
         <div className="sm:col-span-2 lg:col-span-3">
-          <label htmlFor="f-files" className="field-label">Frames (16-bit greyscale PNG)</label>
-          <input id="f-files" type="file" multiple accept=".png,image/png" className="input" aria-invalid={inv(mode)} onChange={(e) => { setFiles(Array.from(e.target.files ?? [])); setAnswer(null); }} />
+          <label htmlFor="f-files" className="field-label">
+            Frames (16-bit greyscale PNG)
+          </label>
+          <input
+            id="f-files"
+            type="file"
+            multiple
+            accept=".png,image/png"
+            className="input"
+            aria-invalid={inv(mode)}
+            onChange={(e) => {
+              setFiles(Array.from(e.target.files ?? []));
+              setAnswer(null);
+            }}
+          />
           {fieldError(mode)}
           {fieldError("depth")}
-          {frameError ? <p className="field-error" role="alert">⚠ {frameError}</p> : null}
+          {frameError ? (
+            <p className="field-error" role="alert">
+              ⚠ {frameError}
+            </p>
+          ) : null}
         </div>
       </section>
 
       {frame ? (
         <section className="card space-y-3" aria-labelledby="h-frame">
-          <h2 id="h-frame" className="text-2xl font-bold">The frame{files.length > 1 && mode === "depth" ? ` (first of ${files.length})` : ""}: drag a box on the board</h2>
-          <div className="relative inline-block touch-none select-none" style={{ width: frame.width * scale, height: frame.height * scale }} onPointerDown={onDown} onPointerMove={onMove} onPointerUp={onUp} data-testid="frame">
-            <canvas ref={canvas} aria-label={`Depth frame ${frame.width}×${frame.height} pixels in false colour`} style={{ width: frame.width * scale, height: frame.height * scale, imageRendering: "pixelated" }} />
+          <h2 id="h-frame" className="text-2xl font-bold">
+            The frame{files.length > 1 && mode === "depth" ? ` (first of ${files.length})` : ""}: drag a box on the board
+          </h2>
+          <div
+            className="relative inline-block touch-none select-none"
+            style={{ width: frame.width * scale, height: frame.height * scale }}
+            onPointerDown={onDown}
+            onPointerMove={onMove}
+            onPointerUp={onUp}
+            data-testid="frame"
+          >
+            <canvas
+              ref={canvas}
+              aria-label={`Depth frame ${frame.width}×${frame.height} pixels in false colour`}
+              style={{ width: frame.width * scale, height: frame.height * scale, imageRendering: "pixelated" }}
+            />
             {b ? (
               <div
                 className="pointer-events-none absolute border-2 border-white outline outline-2 outline-black"
@@ -285,22 +375,44 @@ export default function FramesPage({ loaderData }: Route.ComponentProps) {
           </div>
           <div className="flex flex-wrap items-end gap-3">
             <div>
-              <label htmlFor="f-box" className="field-label">Box u0,v0,u1,v1 (pixels, inclusive)</label>
-              <input id="f-box" className="input num" value={box} aria-invalid={inv("box")} onChange={(e) => { setBox(e.target.value); setAnswer(null); }} />
+              <label htmlFor="f-box" className="field-label">
+                Box u0,v0,u1,v1 (pixels, inclusive)
+              </label>
+              <input
+                id="f-box"
+                className="input num"
+                value={box}
+                aria-invalid={inv("box")}
+                onChange={(e) => {
+                  setBox(e.target.value);
+                  setAnswer(null);
+                }}
+              />
               {fieldError("box")}
             </div>
-            <button type="button" className="btn" disabled={phase !== "idle"} onClick={() => void send(false)}>Measure the box</button>
+            <button type="button" className="btn" disabled={phase !== "idle"} onClick={() => void send(false)}>
+              Measure the box
+            </button>
             {phase !== "idle" ? <span role="status">{phase === "uploading" ? `Uploading — ${progress} %` : "Fitting the board…"}</span> : null}
           </div>
         </section>
       ) : null}
-      {error ? <p className="field-error" role="alert">⚠ {error}</p> : null}
+      {error ? (
+        <p className="field-error" role="alert">
+          ⚠ {error}
+        </p>
+      ) : null}
 
       {answer && row ? (
         <section className="space-y-3" aria-labelledby="h-fig">
-          <h2 id="h-fig" className="text-2xl font-bold">Figures</h2>
+          <h2 id="h-fig" className="text-2xl font-bold">
+            Figures
+          </h2>
           <p className="text-sm text-muted">
-            Frames SHA-256 <code className="break-all" data-testid="file-sha">{answer.fileSha256}</code>
+            Frames SHA-256{" "}
+            <code className="break-all" data-testid="file-sha">
+              {answer.fileSha256}
+            </code>
           </p>
           <ScanRowsTable rows={answer.targets} frames />
           {committed ? (
@@ -308,7 +420,9 @@ export default function FramesPage({ loaderData }: Route.ComponentProps) {
               {row.sync?.status === "accepted" ? "The check-shot is stored." : row.sync?.status === "duplicate" ? "These frames were already stored for this target." : "The shot was refused."}
             </p>
           ) : row.status === "found" && !row.errors?.length ? (
-            <button type="button" className="btn" disabled={phase !== "idle"} onClick={() => void send(true)}>Accept the check-shot</button>
+            <button type="button" className="btn" disabled={phase !== "idle"} onClick={() => void send(true)}>
+              Accept the check-shot
+            </button>
           ) : null}
         </section>
       ) : null}

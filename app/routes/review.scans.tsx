@@ -82,59 +82,115 @@ export default function ScanImportPage({ loaderData }: Route.ComponentProps) {
   const errorOf = (path: string) => errors.find((e) => e.path === path)?.message;
   const fieldError = (path: string) => {
     const m = errorOf(path);
-    return m ? <p id={`e-${path}`} className="field-error" role="alert">⚠ {m}</p> : null;
+    return m ? (
+      <p id={`e-${path}`} className="field-error" role="alert">
+        ⚠ {m}
+      </p>
+    ) : null;
   };
   const busy = phase === "uploading" || phase === "working";
 
   return (
     <div className="space-y-6">
-      <nav aria-label="Breadcrumb"><Link to="/review" className="inline-flex min-h-11 items-center underline underline-offset-4">← Sensor verdicts</Link></nav>
+      <nav aria-label="Breadcrumb">
+        <Link to="/review" className="inline-flex min-h-11 items-center underline underline-offset-4">
+          ← Sensor verdicts
+        </Link>
+      </nav>
       <h1 className="text-3xl font-bold">Check-shots from a scan</h1>
       <p className="max-w-3xl">
-        Upload the point cloud (LAS 1.2–1.4 or LAZ) of one setup on a surveyed station, in the site's grid. Shotbook finds each surveyed
-        target board in it, fits a plane to the points within the search radius and measures the range along the line of sight from the
-        instrument to the board's centre. Nothing is stored until you accept.
+        Upload the point cloud (LAS 1.2–1.4 or LAZ) of one setup on a surveyed station, in the site's grid. Shotbook finds each surveyed target board in it, fits a plane to the points within the
+        search radius and measures the range along the line of sight from the instrument to the board's centre. Nothing is stored until you accept.
       </p>
 
       <section className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-3" aria-label="The scan">
         <div className="sm:col-span-2">
-          <label htmlFor="s-session" className="field-label">Session</label>
-          <select id="s-session" className="input" value={sessionId} aria-invalid={errorOf("sessionId") ? true : undefined} aria-describedby={errorOf("sessionId") ? "e-sessionId" : undefined} onChange={(e) => { setSessionId(e.target.value); setStationId(""); setAnswer(null); }}>
+          <label htmlFor="s-session" className="field-label">
+            Session
+          </label>
+          <select
+            id="s-session"
+            className="input"
+            value={sessionId}
+            aria-invalid={errorOf("sessionId") ? true : undefined}
+            aria-describedby={errorOf("sessionId") ? "e-sessionId" : undefined}
+            onChange={(e) => {
+              setSessionId(e.target.value);
+              setStationId("");
+              setAnswer(null);
+            }}
+          >
             <option value="">Choose a synced session…</option>
             {sessions.map((s) => (
-              <option key={s.id} value={s.id}>{dateTime(s.startedAt)} · {s.sensorLabel} · {s.siteName}</option>
+              <option key={s.id} value={s.id}>
+                {dateTime(s.startedAt)} · {s.sensorLabel} · {s.siteName}
+              </option>
             ))}
           </select>
           {fieldError("sessionId")}
         </div>
         <div>
-          <label htmlFor="s-station" className="field-label">Station</label>
-          <select id="s-station" className="input" value={stationId} disabled={!session} aria-invalid={errorOf("stationId") ? true : undefined} aria-describedby={errorOf("stationId") ? "e-stationId" : undefined} onChange={(e) => { setStationId(e.target.value); setAnswer(null); }}>
+          <label htmlFor="s-station" className="field-label">
+            Station
+          </label>
+          <select
+            id="s-station"
+            className="input"
+            value={stationId}
+            disabled={!session}
+            aria-invalid={errorOf("stationId") ? true : undefined}
+            aria-describedby={errorOf("stationId") ? "e-stationId" : undefined}
+            onChange={(e) => {
+              setStationId(e.target.value);
+              setAnswer(null);
+            }}
+          >
             <option value="">{session ? "Choose the scanner's station…" : "Choose a session first"}</option>
             {siteStations.map((s) => (
-              <option key={s.id} value={s.id} disabled={!s.hasGrid}>{s.label}{s.hasGrid ? "" : " (no grid coordinates)"}</option>
+              <option key={s.id} value={s.id} disabled={!s.hasGrid}>
+                {s.label}
+                {s.hasGrid ? "" : " (no grid coordinates)"}
+              </option>
             ))}
           </select>
           {fieldError("stationId")}
         </div>
         <div>
-          <label htmlFor="s-height" className="field-label">Instrument height above the mark (m)</label>
+          <label htmlFor="s-height" className="field-label">
+            Instrument height above the mark (m)
+          </label>
           <input id="s-height" className="input" inputMode="decimal" value={heightM} onChange={(e) => setHeightM(e.target.value)} aria-invalid={errorOf("instrumentHeightM") ? true : undefined} />
           {fieldError("instrumentHeightM")}
         </div>
         <div>
-          <label htmlFor="s-radius" className="field-label">Search radius around each target (m)</label>
+          <label htmlFor="s-radius" className="field-label">
+            Search radius around each target (m)
+          </label>
           <input id="s-radius" className="input" inputMode="decimal" value={radiusM} onChange={(e) => setRadiusM(e.target.value)} aria-invalid={errorOf("searchRadiusM") ? true : undefined} />
           {fieldError("searchRadiusM")}
         </div>
         <div>
-          <label htmlFor="s-min" className="field-label">Fewest points for a target</label>
+          <label htmlFor="s-min" className="field-label">
+            Fewest points for a target
+          </label>
           <input id="s-min" className="input" inputMode="numeric" value={minPoints} onChange={(e) => setMinPoints(e.target.value)} aria-invalid={errorOf("minPoints") ? true : undefined} />
           {fieldError("minPoints")}
         </div>
         <div className="sm:col-span-2 lg:col-span-3">
-          <label htmlFor="s-file" className="field-label">Point cloud (.las or .laz, up to 512 MB)</label>
-          <input id="s-file" type="file" accept=".las,.laz" className="input" aria-invalid={errorOf("file") ? true : undefined} onChange={(e) => { setFile(e.target.files?.[0] ?? null); setAnswer(null); }} />
+          <label htmlFor="s-file" className="field-label">
+            Point cloud (.las or .laz, up to 512 MB)
+          </label>
+          <input
+            id="s-file"
+            type="file"
+            accept=".las,.laz"
+            className="input"
+            aria-invalid={errorOf("file") ? true : undefined}
+            onChange={(e) => {
+              setFile(e.target.files?.[0] ?? null);
+              setAnswer(null);
+            }}
+          />
           {fieldError("file")}
           {session ? (
             <p className="mt-1 text-sm text-muted">
@@ -143,23 +199,36 @@ export default function ScanImportPage({ loaderData }: Route.ComponentProps) {
           ) : null}
         </div>
         <div className="flex flex-wrap items-center gap-3 sm:col-span-2 lg:col-span-3">
-          <button type="button" className="btn" disabled={busy} onClick={() => void send(false)}>Find the targets</button>
+          <button type="button" className="btn" disabled={busy} onClick={() => void send(false)}>
+            Find the targets
+          </button>
           {busy ? (
             <div className="min-w-64 flex-1">
-              <label htmlFor="s-progress" className="field-label">{phase === "uploading" ? `Uploading ${file?.name} — ${progress} %` : "Reading the points and fitting the boards…"}</label>
+              <label htmlFor="s-progress" className="field-label">
+                {phase === "uploading" ? `Uploading ${file?.name} — ${progress} %` : "Reading the points and fitting the boards…"}
+              </label>
               <progress id="s-progress" max={100} value={phase === "uploading" ? progress : undefined} className="h-6 w-full" />
             </div>
           ) : null}
         </div>
-        {error ? <p className="field-error sm:col-span-2 lg:col-span-3" role="alert">⚠ {error}</p> : null}
+        {error ? (
+          <p className="field-error sm:col-span-2 lg:col-span-3" role="alert">
+            ⚠ {error}
+          </p>
+        ) : null}
       </section>
 
       {answer ? (
         <section className="space-y-3" aria-labelledby="h-rows">
-          <h2 id="h-rows" className="text-2xl font-bold">Targets in {file?.name}</h2>
+          <h2 id="h-rows" className="text-2xl font-bold">
+            Targets in {file?.name}
+          </h2>
           <p className="text-sm text-muted">
-            File SHA-256 <code className="break-all" data-testid="file-sha">{answer.fileSha256}</code> — kept with every shot; importing the same
-            file again finds its shots already stored.
+            File SHA-256{" "}
+            <code className="break-all" data-testid="file-sha">
+              {answer.fileSha256}
+            </code>{" "}
+            — kept with every shot; importing the same file again finds its shots already stored.
           </p>
           <ScanRowsTable rows={answer.targets} />
           {committed ? (

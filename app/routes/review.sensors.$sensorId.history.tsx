@@ -51,7 +51,9 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
       </header>
 
       <section className="card" aria-labelledby="h-drift">
-        <h2 id="h-drift" className="mb-2 text-2xl font-bold">Bias per session</h2>
+        <h2 id="h-drift" className="mb-2 text-2xl font-bold">
+          Bias per session
+        </h2>
         {drift.some((d) => d.biasMm != null) ? (
           <>
             <ul className="mb-3 space-y-1" data-testid="history-drift">
@@ -63,11 +65,7 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
                   <>
                     {slope >= 0 ? "+" : "−"}
                     {Math.abs(slope).toFixed(2)} mm per year (± {trend.slopeSeMmPerYear!.toFixed(2)}), t = {trend.t == null ? "—" : trend.t.toFixed(2)} with {trend.df} degrees of freedom:{" "}
-                    {trend.trendSignificant ? (
-                      <strong className="text-fail">⚠ significant drift (|t| above the 97.5 % t quantile)</strong>
-                    ) : (
-                      "not significant at 95 %"
-                    )}
+                    {trend.trendSignificant ? <strong className="text-fail">⚠ significant drift (|t| above the 97.5 % t quantile)</strong> : "not significant at 95 %"}
                   </>
                 )}{" "}
                 <span className="text-sm text-muted">(least-squares slope of session bias on time, t test of a zero slope)</span>
@@ -85,7 +83,9 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
               </li>
               {pastDueIds.length ? (
                 <li>
-                  <strong className="text-fail">⚠ {pastDueIds.length} session{pastDueIds.length === 1 ? "" : "s"} held with the certificate past due</strong>
+                  <strong className="text-fail">
+                    ⚠ {pastDueIds.length} session{pastDueIds.length === 1 ? "" : "s"} held with the certificate past due
+                  </strong>
                 </li>
               ) : null}
             </ul>
@@ -103,7 +103,9 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
       </section>
 
       <section aria-labelledby="h-sessions" className="space-y-2">
-        <h2 id="h-sessions" className="text-2xl font-bold">Sessions ({sessions.length})</h2>
+        <h2 id="h-sessions" className="text-2xl font-bold">
+          Sessions ({sessions.length})
+        </h2>
         {sessions.length === 0 ? (
           <p className="text-muted">No sessions in this period.</p>
         ) : (
@@ -111,13 +113,27 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
             <table className="w-full border-collapse text-left" data-testid="history-sessions">
               <thead>
                 <tr className="border-b-2 border-line">
-                  <th scope="col" className="py-2 pr-3">Started</th>
-                  <th scope="col" className="py-2 pr-3">Site</th>
-                  <th scope="col" className="py-2 pr-3 text-right">n</th>
-                  <th scope="col" className="py-2 pr-3 text-right">Bias</th>
-                  <th scope="col" className="py-2 pr-3 text-right">RMSE</th>
-                  <th scope="col" className="py-2 pr-3">Drift</th>
-                  <th scope="col" className="py-2">Certificate</th>
+                  <th scope="col" className="py-2 pr-3">
+                    Started
+                  </th>
+                  <th scope="col" className="py-2 pr-3">
+                    Site
+                  </th>
+                  <th scope="col" className="py-2 pr-3 text-right">
+                    n
+                  </th>
+                  <th scope="col" className="py-2 pr-3 text-right">
+                    Bias
+                  </th>
+                  <th scope="col" className="py-2 pr-3 text-right">
+                    RMSE
+                  </th>
+                  <th scope="col" className="py-2 pr-3">
+                    Drift
+                  </th>
+                  <th scope="col" className="py-2">
+                    Certificate
+                  </th>
                 </tr>
               </thead>
               <tbody>
@@ -143,7 +159,9 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
 
       <div className="grid gap-6 lg:grid-cols-2">
         <section aria-labelledby="h-so" className="card space-y-2">
-          <h2 id="h-so" className="text-2xl font-bold">Sign-offs</h2>
+          <h2 id="h-so" className="text-2xl font-bold">
+            Sign-offs
+          </h2>
           {signOffs.length === 0 ? (
             <p className="text-muted">None yet.</p>
           ) : (
@@ -157,7 +175,9 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
           )}
         </section>
         <section aria-labelledby="h-cert" className="card space-y-2">
-          <h2 id="h-cert" className="text-2xl font-bold">Certificates</h2>
+          <h2 id="h-cert" className="text-2xl font-bold">
+            Certificates
+          </h2>
           {certificateEvents.length === 0 ? (
             <p className="text-muted">No certificate recorded in the registry's history.</p>
           ) : (
@@ -173,7 +193,9 @@ export default function SensorHistory({ loaderData }: Route.ComponentProps) {
       </div>
 
       <section aria-labelledby="h-excl" className="card space-y-2">
-        <h2 id="h-excl" className="text-2xl font-bold">Exclusions ({exclusions.length})</h2>
+        <h2 id="h-excl" className="text-2xl font-bold">
+          Exclusions ({exclusions.length})
+        </h2>
         {exclusions.length === 0 ? (
           <p className="text-muted">No shot was ever left out.</p>
         ) : (

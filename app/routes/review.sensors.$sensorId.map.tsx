@@ -91,7 +91,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
   const bySession = useMemo(() => sessionSites(sessions), [sessions]);
   const choices = useMemo(() => (geo ? siteChoices(geo, sessions) : []), [geo, sessions]);
   const site = filters.site === "" || (filters.site != null && choices.some((c) => c.id === filters.site)) ? filters.site : defaultSite(choices, sessions, session);
-  const siteName = site ? choices.find((c) => c.id === site)?.name ?? "" : "all sites";
+  const siteName = site ? (choices.find((c) => c.id === site)?.name ?? "") : "all sites";
   // A session of another site (an address that asks for both) counts as "all sessions".
   const sessionOn = session && (!site || bySession.get(session) === site) ? session : "";
   const siteSessions = useMemo(() => sessions.map((s, i) => ({ ...s, n: i + 1 })).filter((s) => !site || s.siteId === site), [sessions, site]);
@@ -107,7 +107,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
       if (!Number.isFinite(errorMm)) continue;
       if (site && siteOfShot(f, bySession) !== site) continue;
       const sessionId = (p.sessionId as string | undefined) ?? row?.sessionId ?? null;
-      const referenceM = typeof p.referenceM === "number" ? p.referenceM : row?.referenceM ?? null;
+      const referenceM = typeof p.referenceM === "number" ? p.referenceM : (row?.referenceM ?? null);
       if (sessionOn && sessionId !== sessionOn) continue;
       if (band && (referenceM == null || rangeBandOfLabel(referenceM, bandLabels) !== band)) continue;
       if (refl) {
@@ -134,7 +134,10 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
   // The view frames the chosen site's located shots (all of them, whatever the other filters
   // say, so the view holds still while filtering), stations and targets.
   const frame = useMemo(
-    () => ({ key: geo ? `site:${site}` : "loading", bounds: siteBounds(geo ? site : "", { shots: geo ?? { type: "FeatureCollection", features: [] }, stations: siteFc.stations, targets: siteFc.targets }, sessions) }),
+    () => ({
+      key: geo ? `site:${site}` : "loading",
+      bounds: siteBounds(geo ? site : "", { shots: geo ?? { type: "FeatureCollection", features: [] }, stations: siteFc.stations, targets: siteFc.targets }, sessions),
+    }),
     [geo, site, siteFc, sessions],
   );
 
@@ -146,7 +149,7 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
     setFilters((f) => ({ ...f, site: v, session: v && f.session && bySession.get(f.session) !== v ? "" : f.session }));
   }
 
-  const pick = selected ? shots.features.find((f) => f.properties.id === selected)?.properties ?? null : null;
+  const pick = selected ? (shots.features.find((f) => f.properties.id === selected)?.properties ?? null) : null;
   const pickRow = selected ? rows.get(selected) : undefined;
   const pickDetail = selected ? details.get(selected) : undefined;
   const total = geo?.features.length ?? 0;
@@ -154,44 +157,62 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
   return (
     <div className="space-y-4">
       <nav aria-label="Breadcrumb">
-        <Link to={`/review/sensors/${sensor.id}`} className="inline-flex min-h-11 items-center underline underline-offset-4">← Report of {sensor.label}</Link>
+        <Link to={`/review/sensors/${sensor.id}`} className="inline-flex min-h-11 items-center underline underline-offset-4">
+          ← Report of {sensor.label}
+        </Link>
       </nav>
       <h1 className="text-3xl font-bold">Range-error map — {sensor.label}</h1>
       <section aria-label="Map filters" className="card flex flex-wrap items-end gap-4">
         <div>
-          <label htmlFor="m-site" className="field-label">Site</label>
+          <label htmlFor="m-site" className="field-label">
+            Site
+          </label>
           <select id="m-site" className="input" value={geo ? site : ""} disabled={!geo} onChange={(e) => setSite(e.target.value)}>
             {geo ? null : <option value="">Loading sites…</option>}
             {geo ? <option value="">All sites</option> : null}
             {choices.map((c) => (
-              <option key={c.id} value={c.id}>{c.name} ({c.n} shots)</option>
+              <option key={c.id} value={c.id}>
+                {c.name} ({c.n} shots)
+              </option>
             ))}
           </select>
         </div>
         <div>
-          <label htmlFor="m-session" className="field-label">Session</label>
+          <label htmlFor="m-session" className="field-label">
+            Session
+          </label>
           <select id="m-session" className="input" value={sessionOn} onChange={(e) => set("session", e.target.value)}>
             <option value="">All sessions</option>
             {siteSessions.map((s) => (
-              <option key={s.id} value={s.id}>#{s.n} {dateOnly(s.startedAt)} {s.siteName}</option>
+              <option key={s.id} value={s.id}>
+                #{s.n} {dateOnly(s.startedAt)} {s.siteName}
+              </option>
             ))}
           </select>
         </div>
         <div>
-          <label htmlFor="m-band" className="field-label">Range band</label>
+          <label htmlFor="m-band" className="field-label">
+            Range band
+          </label>
           <select id="m-band" className="input" value={band} onChange={(e) => set("band", e.target.value)}>
             <option value="">All distances</option>
             {bandLabels.map((b) => (
-              <option key={b} value={b}>{b} m</option>
+              <option key={b} value={b}>
+                {b} m
+              </option>
             ))}
           </select>
         </div>
         <div>
-          <label htmlFor="m-refl" className="field-label">Reflectance</label>
+          <label htmlFor="m-refl" className="field-label">
+            Reflectance
+          </label>
           <select id="m-refl" className="input" value={refl} onChange={(e) => set("refl", e.target.value)}>
             <option value="">All targets</option>
             {["dark", "mid", "bright", "retro"].map((b) => (
-              <option key={b} value={b}>{bandWord(b)}</option>
+              <option key={b} value={b}>
+                {bandWord(b)}
+              </option>
             ))}
           </select>
         </div>
@@ -205,10 +226,16 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
             Basemap (needs a network)
           </label>
         ) : null}
-        <p className="pb-2 text-muted" aria-live="polite">{geo ? `${shots.features.length} of ${total} located shots shown (${siteName})` : "Loading shots…"}</p>
+        <p className="pb-2 text-muted" aria-live="polite">
+          {geo ? `${shots.features.length} of ${total} located shots shown (${siteName})` : "Loading shots…"}
+        </p>
       </section>
 
-      {error ? <p role="alert" className="card font-bold text-fail">The shots could not be loaded: {error}</p> : null}
+      {error ? (
+        <p role="alert" className="card font-bold text-fail">
+          The shots could not be loaded: {error}
+        </p>
+      ) : null}
 
       <div className="grid gap-4 lg:grid-cols-[1fr_320px]">
         <div className="space-y-3">
@@ -225,25 +252,40 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
         <aside aria-label="Selected shot" className="card space-y-2" data-testid="shot-details">
           {pick ? (
             <>
-              <h2 className="text-xl font-bold">Shot <LocalTime iso={pickRow?.takenAt ?? null} /></h2>
-              <p><WithinWord within={pick.within} /> its limit</p>
+              <h2 className="text-xl font-bold">
+                Shot <LocalTime iso={pickRow?.takenAt ?? null} />
+              </h2>
+              <p>
+                <WithinWord within={pick.within} /> its limit
+              </p>
               <dl className="num grid grid-cols-2 gap-x-3 gap-y-1">
-                <dt className="font-bold">Error</dt><dd>{mmSigned(pick.errorMm, 2)}</dd>
-                <dt className="font-bold">Limit</dt><dd>± {mm(pick.limitMm, 2)}</dd>
-                <dt className="font-bold">Reference</dt><dd>{metres(pick.referenceM)}</dd>
-                <dt className="font-bold">Range</dt><dd>{metres(pickRow?.rangeM ?? null)}</dd>
-                <dt className="font-bold">Target</dt><dd>{pickDetail?.targetLabel ?? "—"}</dd>
-                <dt className="font-bold">Reflectance</dt><dd>{pickDetail?.reflectancePct == null ? "—" : `${pickDetail.reflectancePct} %`}</dd>
-                <dt className="font-bold">Illuminance</dt><dd>{pickDetail?.illuminanceKlux == null ? "—" : `${pickDetail.illuminanceKlux} klux`}</dd>
-                <dt className="font-bold">Flags</dt><dd>{pickRow?.flags.length ? pickRow.flags.join(", ") : "none"}</dd>
-                <dt className="font-bold">State</dt><dd>{pick.excluded ? "excluded" : "included"}</dd>
+                <dt className="font-bold">Error</dt>
+                <dd>{mmSigned(pick.errorMm, 2)}</dd>
+                <dt className="font-bold">Limit</dt>
+                <dd>± {mm(pick.limitMm, 2)}</dd>
+                <dt className="font-bold">Reference</dt>
+                <dd>{metres(pick.referenceM)}</dd>
+                <dt className="font-bold">Range</dt>
+                <dd>{metres(pickRow?.rangeM ?? null)}</dd>
+                <dt className="font-bold">Target</dt>
+                <dd>{pickDetail?.targetLabel ?? "—"}</dd>
+                <dt className="font-bold">Reflectance</dt>
+                <dd>{pickDetail?.reflectancePct == null ? "—" : `${pickDetail.reflectancePct} %`}</dd>
+                <dt className="font-bold">Illuminance</dt>
+                <dd>{pickDetail?.illuminanceKlux == null ? "—" : `${pickDetail.illuminanceKlux} klux`}</dd>
+                <dt className="font-bold">Flags</dt>
+                <dd>{pickRow?.flags.length ? pickRow.flags.join(", ") : "none"}</dd>
+                <dt className="font-bold">State</dt>
+                <dd>{pick.excluded ? "excluded" : "included"}</dd>
               </dl>
               {pickDetail?.photoIds.length ? (
                 <img src={`/api/photos/${pickDetail.photoIds[0]}`} alt="Photo taken with this shot" className="w-full rounded border-2 border-line" />
               ) : (
                 <p className="text-muted">No photo with this shot.</p>
               )}
-              <button type="button" className="btn-secondary" onClick={() => setSelected(null)}>Close</button>
+              <button type="button" className="btn-secondary" onClick={() => setSelected(null)}>
+                Close
+              </button>
             </>
           ) : (
             <p>Tap a shot on the map to see its figures and photo.</p>
@@ -268,11 +310,27 @@ export function MapLegend({ maxMm, hex }: { maxMm: number; hex: boolean }) {
         <span>+{maxMm} mm</span>
       </div>
       <div className="flex flex-wrap gap-x-5 gap-y-1 text-base">
-        <span><LegendSwatch shape="circle" color="var(--muted)" /> shot within its limit</span>
-        <span><LegendSwatch shape="triangle" color="var(--muted)" /> shot outside its limit</span>
-        <span><svg width="18" height="18" viewBox="0 0 18 18" aria-hidden="true" className="inline-block align-middle"><circle cx="9" cy="9" r="6.5" fill="var(--bg)" stroke="var(--fg)" strokeWidth="3.5" /></svg> station</span>
-        <span><svg width="16" height="16" viewBox="0 0 16 16" aria-hidden="true" className="inline-block align-middle"><circle cx="8" cy="8" r="5" fill="var(--accent)" /></svg> target</span>
-        <span><span className="inline-block h-3 w-6 border-2 border-dashed border-accent align-middle" /> site outline</span>
+        <span>
+          <LegendSwatch shape="circle" color="var(--muted)" /> shot within its limit
+        </span>
+        <span>
+          <LegendSwatch shape="triangle" color="var(--muted)" /> shot outside its limit
+        </span>
+        <span>
+          <svg width="18" height="18" viewBox="0 0 18 18" aria-hidden="true" className="inline-block align-middle">
+            <circle cx="9" cy="9" r="6.5" fill="var(--bg)" stroke="var(--fg)" strokeWidth="3.5" />
+          </svg>{" "}
+          station
+        </span>
+        <span>
+          <svg width="16" height="16" viewBox="0 0 16 16" aria-hidden="true" className="inline-block align-middle">
+            <circle cx="8" cy="8" r="5" fill="var(--accent)" />
+          </svg>{" "}
+          target
+        </span>
+        <span>
+          <span className="inline-block h-3 w-6 border-2 border-dashed border-accent align-middle" /> site outline
+        </span>
       </div>
     </div>
   );

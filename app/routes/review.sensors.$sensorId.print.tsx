@@ -39,7 +39,11 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 }
 
 /** A CSS string literal (for the running footer's content). */
-const cssString = (t: string) => `"${t.replace(/[\\"]/g, (c) => `\\${c}`).replace(/[\r\n]+/g, " ").replace(/[<>]/g, "")}"`;
+const cssString = (t: string) =>
+  `"${t
+    .replace(/[\\"]/g, (c) => `\\${c}`)
+    .replace(/[\r\n]+/g, " ")
+    .replace(/[<>]/g, "")}"`;
 
 // The report is paper: always the daylight colours, whatever theme the screen uses. Page numbers
 // come from the page-margin boxes of CSS Paged Media (counter(page), counter(pages)); Chromium
@@ -79,21 +83,30 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
     <article className="print-page print-paper mx-auto space-y-5" data-testid="print-report">
       <style>{printCss(`Range verification report · ${sensor.label} · serial ${sensor.serial}`)}</style>
       <div className="no-print flex flex-wrap gap-2">
-        <button type="button" className="btn" onClick={() => window.print()}>Print or save as PDF</button>
-        <a href={`/review/sensors/${sensor.id}`} className="btn-secondary">Back to the report</a>
+        <button type="button" className="btn" onClick={() => window.print()}>
+          Print or save as PDF
+        </button>
+        <a href={`/review/sensors/${sensor.id}`} className="btn-secondary">
+          Back to the report
+        </a>
       </div>
       <header className="border-b-4 border-fg pb-3">
         <p className="text-base font-bold uppercase tracking-wide">Range verification report</p>
-        <h1 className="text-3xl font-bold">{sensor.label} <span className="font-normal">· serial {sensor.serial}</span></h1>
+        <h1 className="text-3xl font-bold">
+          {sensor.label} <span className="font-normal">· serial {sensor.serial}</span>
+        </h1>
         <p>
-          {sensor.kind === "cw" ? "Continuous-wave (phase)" : "Pulsed"} sensor, {sensor.wavelengthNm} nm · tolerance ±({sensor.toleranceMm} mm + {sensor.tolerancePpm} ppm × D), coverage factor k = {report.rule.coverageK}
+          {sensor.kind === "cw" ? "Continuous-wave (phase)" : "Pulsed"} sensor, {sensor.wavelengthNm} nm · tolerance ±({sensor.toleranceMm} mm + {sensor.tolerancePpm} ppm × D), coverage factor k ={" "}
+          {report.rule.coverageK}
           {sensor.calibrationDue ? ` · calibration due ${sensor.calibrationDue}` : ""}
           {sensor.laserClass ? ` · laser class ${sensor.laserClass} (IEC 60825-1)` : " · laser class not recorded"}
         </p>
         <p>
           Project: {project ? `${project.name}${project.client ? ` (client: ${project.client})` : ""}` : "all projects"} · period: {period} · sessions: {used.size} of {sessions.length}
         </p>
-        <p className="text-sm" data-testid="print-generated">Generated <LocalTime iso={generatedAt} /> by {by}</p>
+        <p className="text-sm" data-testid="print-generated">
+          Generated <LocalTime iso={generatedAt} /> by {by}
+        </p>
       </header>
 
       <section className="space-y-2">
@@ -105,9 +118,8 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
       <section className="space-y-2">
         <h2 className="text-xl font-bold">Acceptance rule and tests</h2>
         <p>
-          Rule: at least {report.rule.minShots} included shots; at least {report.rule.minWithinPct} % of shots within k × tolerance;
-          |bias| at most the tolerance's constant part; SD at most σ·√(χ²₀.₉₅(ν)/ν) with σ the tolerance at the mean distance
-          (adapted from ISO 17123-4, reflector EDM; no conformance claimed); reference RMS uncertainty at most the tolerance at the mean
+          Rule: at least {report.rule.minShots} included shots; at least {report.rule.minWithinPct} % of shots within k × tolerance; |bias| at most the tolerance's constant part; SD at most
+          σ·√(χ²₀.₉₅(ν)/ν) with σ the tolerance at the mean distance (adapted from ISO 17123-4, reflector EDM; no conformance claimed); reference RMS uncertainty at most the tolerance at the mean
           distance ÷ {report.rule.referenceRatio} ({report.rule.referenceInVerdict ? "in the verdict" : "advisory"}).
         </p>
         <TestsTable tests={report.tests} referenceInVerdict={report.rule.referenceInVerdict} />
@@ -115,14 +127,22 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
 
       <section className="space-y-2" data-testid="print-traceability">
         <h2 className="text-xl font-bold">Traceability (calibration certificates)</h2>
-        <TraceabilityPanel rows={report.traceability} sessionLabel={(id) => { const s = sessions.find((x) => x.id === id); return s ? dateTime(s.startedAt) : id; }} />
+        <TraceabilityPanel
+          rows={report.traceability}
+          sessionLabel={(id) => {
+            const s = sessions.find((x) => x.id === id);
+            return s ? dateTime(s.startedAt) : id;
+          }}
+        />
       </section>
 
       <section className="space-y-2">
         <h2 className="text-xl font-bold">Figures (mm unless stated)</h2>
         <FiguresGrid report={report} />
         <p className="text-sm">
-          {report.statement === "nssda95" ? "95 % accuracy = 1.96 × RMSE (NSSDA), valid for near-normal, near-unbiased errors. " : "RMSE-only reporting (ASPRS Edition 2); the reference's uncertainty is added in quadrature where known. "}
+          {report.statement === "nssda95"
+            ? "95 % accuracy = 1.96 × RMSE (NSSDA), valid for near-normal, near-unbiased errors. "
+            : "RMSE-only reporting (ASPRS Edition 2); the reference's uncertainty is added in quadrature where known. "}
           Range error = sensor range − reference distance; positive reads long.
         </p>
         {report.airDefaulted.length ? <p className="text-sm">{report.airDefaulted.length} session(s) used default air values for a missing reading.</p> : null}
@@ -146,7 +166,9 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <BandTable title="By illuminance" rows={report.byIlluminance} />
         <BandTable title="By range band" rows={report.byRange} />
       </section>
-      <section><CoverageNote coverage={report.coverage} /></section>
+      <section>
+        <CoverageNote coverage={report.coverage} />
+      </section>
 
       <section className="space-y-1" data-testid="print-exclusions">
         <h2 className="text-xl font-bold">Excluded shots ({exclusions.length})</h2>
@@ -167,7 +189,8 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <h2 className="text-xl font-bold">Sign-off</h2>
         {last ? (
           <p data-testid="print-signoff">
-            {last.decision === "approved" ? "✓ Approved" : "✗ Rejected"} on <LocalTime iso={last.createdAt} /> by {last.byName}; verdict then <VerdictBadge verdict={last.verdict} />, bias {mmSigned(last.biasMm, 2)}
+            {last.decision === "approved" ? "✓ Approved" : "✗ Rejected"} on <LocalTime iso={last.createdAt} /> by {last.byName}; verdict then <VerdictBadge verdict={last.verdict} />, bias{" "}
+            {mmSigned(last.biasMm, 2)}
             {last.periodFrom || last.periodTo ? `, period ${last.periodFrom ?? "start"} to ${last.periodTo ?? "end"}` : ""}.{last.note ? ` Note: ${last.note}` : ""}
           </p>
         ) : (
@@ -183,10 +206,9 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
         <h2 className="text-base font-bold">Cautions</h2>
         <p>
           {sensor.laserClass ? <strong data-testid="print-laser-class">{laserCaution(sensor.laserClass)} </strong> : null}
-          Lasers in these sensors carry a laser safety class (IEC 60825-1): follow the class's rules and the maker's manual, never aim at people,
-          vehicles or aircraft, and set out traffic control when targets stand by a road. Shotbook checks range performance; it is no
-          calibration certificate. Acceptance for a contract follows the client's specification and local survey regulations, signed by the
-          responsible licensed surveyor where the law requires one.
+          Lasers in these sensors carry a laser safety class (IEC 60825-1): follow the class's rules and the maker's manual, never aim at people, vehicles or aircraft, and set out traffic control when
+          targets stand by a road. Shotbook checks range performance; it is no calibration certificate. Acceptance for a contract follows the client's specification and local survey regulations,
+          signed by the responsible licensed surveyor where the law requires one.
         </p>
       </section>
     </article>

@@ -129,7 +129,10 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
   return (
     <div className="space-y-6">
       <nav aria-label="Breadcrumb" className="text-base">
-        <Link to={`/review${f.project || f.from || f.to ? `?${new URLSearchParams({ ...(f.project ? { project: f.project } : {}), ...(f.from ? { from: f.from } : {}), ...(f.to ? { to: f.to } : {}) })}` : ""}`} className="inline-flex min-h-11 items-center underline underline-offset-4">
+        <Link
+          to={`/review${f.project || f.from || f.to ? `?${new URLSearchParams({ ...(f.project ? { project: f.project } : {}), ...(f.from ? { from: f.from } : {}), ...(f.to ? { to: f.to } : {}) })}` : ""}`}
+          className="inline-flex min-h-11 items-center underline underline-offset-4"
+        >
           ← All sensors
         </Link>
       </nav>
@@ -142,50 +145,70 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
           </p>
         </div>
         <div className="flex flex-wrap gap-2">
-          <Link to={`/review/sensors/${sensor.id}/map?${sp}`} className="btn-secondary">Range-error map</Link>
-          <Link to={printHref} className="btn-secondary">Printable report</Link>
-          <a href={csvHref} className="btn-secondary" download>Report CSV</a>
-          <a href={`/api/shots.geojson?sensor=${sensor.id}`} className="btn-secondary" download>Shots GeoJSON</a>
+          <Link to={`/review/sensors/${sensor.id}/map?${sp}`} className="btn-secondary">
+            Range-error map
+          </Link>
+          <Link to={printHref} className="btn-secondary">
+            Printable report
+          </Link>
+          <a href={csvHref} className="btn-secondary" download>
+            Report CSV
+          </a>
+          <a href={`/api/shots.geojson?sensor=${sensor.id}`} className="btn-secondary" download>
+            Shots GeoJSON
+          </a>
         </div>
       </header>
 
       <section aria-label="Filters" className="card space-y-3">
         <div className="flex flex-wrap items-end gap-4">
           <div>
-            <label htmlFor="r-project" className="field-label">Project (its acceptance rule)</label>
+            <label htmlFor="r-project" className="field-label">
+              Project (its acceptance rule)
+            </label>
             <select id="r-project" className="input" value={f.project} onChange={(e) => update({ project: e.target.value })}>
               <option value="">No project (default rule)</option>
               {projects.map((p) => (
-                <option key={p.id} value={p.id}>{p.name}</option>
+                <option key={p.id} value={p.id}>
+                  {p.name}
+                </option>
               ))}
             </select>
           </div>
           <div>
-            <label htmlFor="r-from" className="field-label">From (date)</label>
+            <label htmlFor="r-from" className="field-label">
+              From (date)
+            </label>
             <input id="r-from" type="date" className="input" value={f.from} onChange={(e) => update({ from: e.target.value })} />
           </div>
           <div>
-            <label htmlFor="r-to" className="field-label">To (date, whole day)</label>
+            <label htmlFor="r-to" className="field-label">
+              To (date, whole day)
+            </label>
             <input id="r-to" type="date" className="input" value={f.to} onChange={(e) => update({ to: e.target.value })} />
           </div>
           {f.from || f.to || f.sessions.length || f.project ? (
-            <button type="button" className="btn-secondary" onClick={() => setSp(new URLSearchParams(), { replace: true, preventScrollReset: true })}>Clear filters</button>
+            <button type="button" className="btn-secondary" onClick={() => setSp(new URLSearchParams(), { replace: true, preventScrollReset: true })}>
+              Clear filters
+            </button>
           ) : null}
-          <p className="pb-2 text-muted" aria-live="polite">{loading ? "Computing…" : null}</p>
+          <p className="pb-2 text-muted" aria-live="polite">
+            {loading ? "Computing…" : null}
+          </p>
         </div>
         {sessions.length ? (
           <fieldset>
             <legend className="field-label">Sessions (none ticked = all)</legend>
             <div className="flex flex-wrap gap-2">
               {sessions.map((s) => {
-                  const on = f.sessions.includes(s.id);
-                  return (
-                    <label key={s.id} className={`flex min-h-11 cursor-pointer items-center gap-2 rounded-md border-2 px-3 ${on ? "border-accent bg-bg font-bold" : "border-line"}`}>
-                      <input type="checkbox" className="h-5 w-5" checked={on} onChange={() => update({ sessions: on ? f.sessions.filter((x) => x !== s.id) : [...f.sessions, s.id] })} />
-                      {sessionLabels.get(s.id)}
-                    </label>
-                  );
-                })}
+                const on = f.sessions.includes(s.id);
+                return (
+                  <label key={s.id} className={`flex min-h-11 cursor-pointer items-center gap-2 rounded-md border-2 px-3 ${on ? "border-accent bg-bg font-bold" : "border-line"}`}>
+                    <input type="checkbox" className="h-5 w-5" checked={on} onChange={() => update({ sessions: on ? f.sessions.filter((x) => x !== s.id) : [...f.sessions, s.id] })} />
+                    {sessionLabels.get(s.id)}
+                  </label>
+                );
+              })}
             </div>
           </fieldset>
         ) : (
@@ -196,71 +219,108 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
       {error ? (
         <div role="alert" className="card border-fail">
           <p className="font-bold">The report could not be loaded: {error}</p>
-          <button type="button" className="btn mt-2" onClick={reload}>Try again</button>
+          <button type="button" className="btn mt-2" onClick={reload}>
+            Try again
+          </button>
         </div>
       ) : null}
-      {!report && !error ? <p className="text-lg" aria-live="polite">Loading the report…</p> : null}
+      {!report && !error ? (
+        <p className="text-lg" aria-live="polite">
+          Loading the report…
+        </p>
+      ) : null}
       {notice ? (
         <p role="status" className="card border-pass font-bold">
           {notice}{" "}
-          <button type="button" className="btn-secondary ml-2" onClick={() => setNotice(null)}>OK</button>
+          <button type="button" className="btn-secondary ml-2" onClick={() => setNotice(null)}>
+            OK
+          </button>
         </p>
       ) : null}
 
       {report ? (
         <div className={`space-y-6 ${loading ? "opacity-70" : ""}`} data-testid="report" data-verdict={report.verdict}>
           <section aria-labelledby="h-verdict" className="space-y-3">
-            <h2 id="h-verdict" className="sr-only">Verdict</h2>
+            <h2 id="h-verdict" className="sr-only">
+              Verdict
+            </h2>
             <VerdictHeadline report={report} />
             <StatementPanel report={report} />
             {worst && report.verdict !== "pass" ? (
               <p className="text-lg" data-testid="worst-cell">
-                Largest bias: <strong>{bandWord(worst.reflectance).toLowerCase()} targets</strong> in <strong>{bandWord(worst.illuminance).toLowerCase()}</strong> — {mmSigned(worst.biasMm, 1)} over {worst.n} shots{worst.outside ? `, ${worst.outside} outside their limit` : ""}.
+                Largest bias: <strong>{bandWord(worst.reflectance).toLowerCase()} targets</strong> in <strong>{bandWord(worst.illuminance).toLowerCase()}</strong> — {mmSigned(worst.biasMm, 1)} over{" "}
+                {worst.n} shots{worst.outside ? `, ${worst.outside} outside their limit` : ""}.
               </p>
             ) : null}
             {report.n + report.excluded === 0 ? <p className="card">No shots in this selection. Change the filters or sync a session.</p> : null}
           </section>
           <section aria-labelledby="h-tests" className="card">
-            <h2 id="h-tests" className="mb-2 text-2xl font-bold">The tests</h2>
+            <h2 id="h-tests" className="mb-2 text-2xl font-bold">
+              The tests
+            </h2>
             <TestsTable tests={report.tests} referenceInVerdict={report.rule.referenceInVerdict} />
           </section>
           <section aria-labelledby="h-trace" className="card">
-            <h2 id="h-trace" className="mb-2 text-2xl font-bold">Traceability</h2>
+            <h2 id="h-trace" className="mb-2 text-2xl font-bold">
+              Traceability
+            </h2>
             <TraceabilityPanel rows={report.traceability} sessionLabel={(id) => sessionLabels.get(id) ?? id} />
             <p className="mt-2">
-              <Link className="underline underline-offset-4" to={`/review/sensors/${sensor.id}/history`}>Sensor history: bias and RMSE per session over months</Link>
+              <Link className="underline underline-offset-4" to={`/review/sensors/${sensor.id}/history`}>
+                Sensor history: bias and RMSE per session over months
+              </Link>
             </p>
           </section>
           <section aria-labelledby="h-fig" className="space-y-2">
-            <h2 id="h-fig" className="text-2xl font-bold">Figures</h2>
+            <h2 id="h-fig" className="text-2xl font-bold">
+              Figures
+            </h2>
             <FiguresGrid report={report} />
             {report.airDefaulted.length ? (
               <p className="text-warn font-bold">⚠ {report.airDefaulted.length} session(s) used default air values (20 °C, 1013.25 hPa, 50 % RH) for a missing reading.</p>
             ) : null}
           </section>
           <section aria-labelledby="h-c1" className="card">
-            <h2 id="h-c1" className="mb-2 text-2xl font-bold">Range error against reference distance</h2>
+            <h2 id="h-c1" className="mb-2 text-2xl font-bold">
+              Range error against reference distance
+            </h2>
             <ErrorVsDistanceChart report={report} />
           </section>
           <div className="grid gap-6 lg:grid-cols-2">
             <section aria-labelledby="h-c2" className="card">
-              <h2 id="h-c2" className="mb-2 text-2xl font-bold">Bias by reflectance × illuminance</h2>
-              {cells.length ? <MatrixChart cells={cells} worst={worst} /> : details.size === 0 && report.shots.length ? <p className="text-muted">Reading the shots' reflectance and illuminance…</p> : <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>}
+              <h2 id="h-c2" className="mb-2 text-2xl font-bold">
+                Bias by reflectance × illuminance
+              </h2>
+              {cells.length ? (
+                <MatrixChart cells={cells} worst={worst} />
+              ) : details.size === 0 && report.shots.length ? (
+                <p className="text-muted">Reading the shots' reflectance and illuminance…</p>
+              ) : (
+                <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>
+              )}
             </section>
             <section aria-labelledby="h-c3" className="card">
-              <h2 id="h-c3" className="mb-2 text-2xl font-bold">Bias per session</h2>
+              <h2 id="h-c3" className="mb-2 text-2xl font-bold">
+                Bias per session
+              </h2>
               {report.drift.length ? <DriftChart drift={report.drift} biasLimitMm={biasLimit} /> : <p className="text-muted">No sessions in this selection.</p>}
             </section>
           </div>
           <section aria-labelledby="h-bands" className="grid gap-6 xl:grid-cols-3">
-            <h2 id="h-bands" className="sr-only">Breakdowns</h2>
+            <h2 id="h-bands" className="sr-only">
+              Breakdowns
+            </h2>
             <BandTable title="By reflectance" rows={report.byReflectance} />
             <BandTable title="By illuminance" rows={report.byIlluminance} />
             <BandTable title="By range band" rows={report.byRange} />
           </section>
-          <section className="card"><CoverageNote coverage={report.coverage} /></section>
+          <section className="card">
+            <CoverageNote coverage={report.coverage} />
+          </section>
           <section aria-labelledby="h-shots" className="space-y-2">
-            <h2 id="h-shots" className="text-2xl font-bold">Check-shots</h2>
+            <h2 id="h-shots" className="text-2xl font-bold">
+              Check-shots
+            </h2>
             <ShotTable
               rows={report.shots}
               details={details}
@@ -278,7 +338,9 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
       <ReshootPanel sensorLabel={sensor.label} reshoots={reshoots} options={reshootOptions} actionData={actionData} />
 
       <section aria-labelledby="h-history" className="space-y-2">
-        <h2 id="h-history" className="text-2xl font-bold">Sign-offs</h2>
+        <h2 id="h-history" className="text-2xl font-bold">
+          Sign-offs
+        </h2>
         {signOffs.length === 0 ? (
           <p className="text-muted">This sensor has not been signed off yet.</p>
         ) : (
@@ -289,7 +351,8 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
                   {s.decision === "approved" ? "✓ Approved" : "✗ Rejected"} · <LocalTime iso={s.createdAt} /> by {s.byName}
                 </p>
                 <p>
-                  Verdict then: <VerdictBadge verdict={s.verdict} /> · bias {mmSigned(s.biasMm, 2)} · {s.projectName ?? "all projects"} · {s.periodFrom || s.periodTo ? `${s.periodFrom ?? "start"} to ${s.periodTo ?? "end"}` : "all dates"}
+                  Verdict then: <VerdictBadge verdict={s.verdict} /> · bias {mmSigned(s.biasMm, 2)} · {s.projectName ?? "all projects"} ·{" "}
+                  {s.periodFrom || s.periodTo ? `${s.periodFrom ?? "start"} to ${s.periodTo ?? "end"}` : "all dates"}
                 </p>
                 {s.note ? <p className="mt-1">Note: {s.note}</p> : null}
               </li>
@@ -325,10 +388,10 @@ function SignOffForm({
   const done = actionData?.signedOff;
   return (
     <section aria-labelledby="h-signoff" className="card space-y-3">
-      <h2 id="h-signoff" className="text-2xl font-bold">Sign off this sensor</h2>
-      <p>
-        The statistics as they stand now are frozen into the sign-off. The crew who logged these shots and the admins get an e-mail.
-      </p>
+      <h2 id="h-signoff" className="text-2xl font-bold">
+        Sign off this sensor
+      </h2>
+      <p>The statistics as they stand now are frozen into the sign-off. The crew who logged these shots and the admins get an e-mail.</p>
       {done ? (
         <p role="status" className="rounded-md border-2 border-pass p-3 font-bold" data-testid="signoff-done">
           Signed off (verdict {done.verdict}). E-mail {done.mailOk ? "sent" : "queued (the mail server did not answer; it will be retried)"} to {done.recipients.length} people.
@@ -350,29 +413,51 @@ function SignOffForm({
         </fieldset>
         <div className="grid gap-3 sm:grid-cols-3">
           <div>
-            <label htmlFor={fields.projectId.id} className="field-label">Project</label>
+            <label htmlFor={fields.projectId.id} className="field-label">
+              Project
+            </label>
             <select {...getSelectProps(fields.projectId)} key={fields.projectId.key} className="input">
               <option value="">No project (all shots)</option>
               {projects.map((p) => (
-                <option key={p.id} value={p.id}>{p.name}</option>
+                <option key={p.id} value={p.id}>
+                  {p.name}
+                </option>
               ))}
             </select>
           </div>
           <div>
-            <label htmlFor={fields.from.id} className="field-label">Period from</label>
+            <label htmlFor={fields.from.id} className="field-label">
+              Period from
+            </label>
             <input {...getInputProps(fields.from, { type: "date" })} key={fields.from.key} className="input" />
-            {fields.from.errors ? <p className="field-error" id={fields.from.errorId}>{fields.from.errors[0]}</p> : null}
+            {fields.from.errors ? (
+              <p className="field-error" id={fields.from.errorId}>
+                {fields.from.errors[0]}
+              </p>
+            ) : null}
           </div>
           <div>
-            <label htmlFor={fields.to.id} className="field-label">Period to</label>
+            <label htmlFor={fields.to.id} className="field-label">
+              Period to
+            </label>
             <input {...getInputProps(fields.to, { type: "date" })} key={fields.to.key} className="input" />
-            {fields.to.errors ? <p className="field-error" id={fields.to.errorId}>{fields.to.errors[0]}</p> : null}
+            {fields.to.errors ? (
+              <p className="field-error" id={fields.to.errorId}>
+                {fields.to.errors[0]}
+              </p>
+            ) : null}
           </div>
         </div>
         <div>
-          <label htmlFor={fields.note.id} className="field-label">Note {verdict === "pass" ? "(needed when rejecting)" : "(needed: the verdict is not pass)"}</label>
+          <label htmlFor={fields.note.id} className="field-label">
+            Note {verdict === "pass" ? "(needed when rejecting)" : "(needed: the verdict is not pass)"}
+          </label>
           <textarea {...getTextareaProps(fields.note)} key={fields.note.key} rows={3} className="input" />
-          {fields.note.errors ? <p className="field-error" id={fields.note.errorId}>{fields.note.errors[0]}</p> : null}
+          {fields.note.errors ? (
+            <p className="field-error" id={fields.note.errorId}>
+              {fields.note.errors[0]}
+            </p>
+          ) : null}
         </div>
         {form.errors ? <p className="field-error">{form.errors[0]}</p> : null}
         <button type="submit" className="btn" disabled={nav.state === "submitting"}>

@@ -13,7 +13,15 @@ import type { TestName } from "~/components/review/types";
 export const meta: Route.MetaFunction = () => [{ title: "Review — sensor verdicts · Shotbook" }];
 
 const DATE = /^\d{4}-\d{2}-\d{2}$/;
-const WORST_WORDS: Record<string, string> = { dark: "dark", mid: "mid-grey", bright: "bright", retro: "retro-reflective", low: "shade (< 10 klux)", moderate: "daylight (10–50 klux)", high: "bright sun (≥ 50 klux)" };
+const WORST_WORDS: Record<string, string> = {
+  dark: "dark",
+  mid: "mid-grey",
+  bright: "bright",
+  retro: "retro-reflective",
+  low: "shade (< 10 klux)",
+  moderate: "daylight (10–50 klux)",
+  high: "bright sun (≥ 50 klux)",
+};
 
 export function parseFilters(url: URL) {
   const d = (k: string) => {
@@ -44,9 +52,21 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
     <div className="space-y-5">
       <div className="flex flex-wrap items-center justify-between gap-3">
         <h1 className="text-3xl font-bold">Sensor verdicts</h1>
-        {canImport ? <Link to="/review/import" className="btn-secondary">Import a sensor's CSV</Link> : null}
-        {canImport ? <Link to="/review/scans" className="btn-secondary">Check-shots from a scan</Link> : null}
-        {canImport ? <Link to="/review/frames" className="btn-secondary">Check-shots from depth frames</Link> : null}
+        {canImport ? (
+          <Link to="/review/import" className="btn-secondary">
+            Import a sensor's CSV
+          </Link>
+        ) : null}
+        {canImport ? (
+          <Link to="/review/scans" className="btn-secondary">
+            Check-shots from a scan
+          </Link>
+        ) : null}
+        {canImport ? (
+          <Link to="/review/frames" className="btn-secondary">
+            Check-shots from depth frames
+          </Link>
+        ) : null}
       </div>
       {/* issue 14: what the client receives, per project */}
       {reportList.length ? (
@@ -56,7 +76,8 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
             {reportList.map((p) => (
               <li key={p.id}>
                 <Link to={`/review/projects/${p.id}/report`} className="btn-secondary">
-                  {p.name}{p.client ? ` — ${p.client}` : ""}
+                  {p.name}
+                  {p.client ? ` — ${p.client}` : ""}
                 </Link>
               </li>
             ))}
@@ -65,29 +86,42 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
       ) : null}
       <Form method="get" className="card flex flex-wrap items-end gap-4" aria-label="Filters">
         <div>
-          <label htmlFor="f-project" className="field-label">Project</label>
+          <label htmlFor="f-project" className="field-label">
+            Project
+          </label>
           <select id="f-project" name="project" className="input" defaultValue={filters.projectId ?? ""}>
             <option value="">All projects</option>
             {projects.map((p) => (
-              <option key={p.id} value={p.id}>{p.name}{p.client ? ` — ${p.client}` : ""}</option>
+              <option key={p.id} value={p.id}>
+                {p.name}
+                {p.client ? ` — ${p.client}` : ""}
+              </option>
             ))}
           </select>
         </div>
         <div>
-          <label htmlFor="f-from" className="field-label">From (date)</label>
+          <label htmlFor="f-from" className="field-label">
+            From (date)
+          </label>
           <input id="f-from" name="from" type="date" className="input" defaultValue={filters.from ?? ""} />
         </div>
         <div>
-          <label htmlFor="f-to" className="field-label">To (date, whole day)</label>
+          <label htmlFor="f-to" className="field-label">
+            To (date, whole day)
+          </label>
           <input id="f-to" name="to" type="date" className="input" defaultValue={filters.to ?? ""} />
         </div>
-        <button type="submit" className="btn">{nav.state === "loading" ? "Loading…" : "Apply"}</button>
-        {qs.size ? <Link to="/review" className="btn-secondary">Clear</Link> : null}
+        <button type="submit" className="btn">
+          {nav.state === "loading" ? "Loading…" : "Apply"}
+        </button>
+        {qs.size ? (
+          <Link to="/review" className="btn-secondary">
+            Clear
+          </Link>
+        ) : null}
       </Form>
       <p className="text-lg" aria-live="polite">
-        {rows.length === 0
-          ? "No sensors match these filters."
-          : `${rows.length} sensor${rows.length === 1 ? "" : "s"}; ${failing ? `${failing} failing — listed first.` : "none failing."}`}
+        {rows.length === 0 ? "No sensors match these filters." : `${rows.length} sensor${rows.length === 1 ? "" : "s"}; ${failing ? `${failing} failing — listed first.` : "none failing."}`}
       </p>
       {rows.length ? (
         <div className="overflow-x-auto">
@@ -95,15 +129,33 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
             <caption className="sr-only">Sensors with their verdicts</caption>
             <thead>
               <tr className="border-b-2 border-line">
-                <th scope="col" className="py-2 pr-3">Sensor</th>
-                <th scope="col" className="py-2 pr-3">Verdict</th>
-                <th scope="col" className="py-2 pr-3 text-right">n</th>
-                <th scope="col" className="py-2 pr-3 text-right">Bias</th>
-                <th scope="col" className="py-2 pr-3 text-right">Accuracy</th>
-                <th scope="col" className="py-2 pr-3">Bias per session</th>
-                <th scope="col" className="py-2 pr-3">Last check</th>
-                <th scope="col" className="py-2 pr-3">Calibration due</th>
-                <th scope="col" className="py-2">Sign-off</th>
+                <th scope="col" className="py-2 pr-3">
+                  Sensor
+                </th>
+                <th scope="col" className="py-2 pr-3">
+                  Verdict
+                </th>
+                <th scope="col" className="py-2 pr-3 text-right">
+                  n
+                </th>
+                <th scope="col" className="py-2 pr-3 text-right">
+                  Bias
+                </th>
+                <th scope="col" className="py-2 pr-3 text-right">
+                  Accuracy
+                </th>
+                <th scope="col" className="py-2 pr-3">
+                  Bias per session
+                </th>
+                <th scope="col" className="py-2 pr-3">
+                  Last check
+                </th>
+                <th scope="col" className="py-2 pr-3">
+                  Calibration due
+                </th>
+                <th scope="col" className="py-2">
+                  Sign-off
+                </th>
               </tr>
             </thead>
             <tbody>
@@ -115,7 +167,9 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       <Link to={`/review/sensors/${r.id}${suffix}`} className="inline-flex min-h-11 flex-col justify-center font-bold underline underline-offset-4">
                         {r.label}
                       </Link>
-                      <span className="block text-sm font-normal text-muted">{r.serial} · {r.kind === "cw" ? "continuous-wave" : "pulsed"} · ±({r.toleranceMm} mm + {r.tolerancePpm} ppm)</span>
+                      <span className="block text-sm font-normal text-muted">
+                        {r.serial} · {r.kind === "cw" ? "continuous-wave" : "pulsed"} · ±({r.toleranceMm} mm + {r.tolerancePpm} ppm)
+                      </span>
                     </th>
                     <td className="min-w-[16rem] py-2 pr-3">
                       <VerdictBadge verdict={r.verdict} />
@@ -123,7 +177,9 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                         <span className="block text-sm">on {r.failed.map((f) => TEST_WORDS[f as TestName]?.title.toLowerCase().replace("(sd)", "(SD)") ?? f).join(", ")}</span>
                       ) : null}
                       {r.why ? (
-                        <span className="mt-1 block text-sm font-bold" data-testid="why-flagged">⚑ {r.why}</span>
+                        <span className="mt-1 block text-sm font-bold" data-testid="why-flagged">
+                          ⚑ {r.why}
+                        </span>
                       ) : null}
                       {r.worst ? (
                         <span className="block text-sm" data-testid="worst">
@@ -131,15 +187,22 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                         </span>
                       ) : null}
                     </td>
-                    <td className="py-2 pr-3 text-right">{r.n}{r.excluded ? <span className="block text-sm text-muted">{r.excluded} excl.</span> : null}</td>
+                    <td className="py-2 pr-3 text-right">
+                      {r.n}
+                      {r.excluded ? <span className="block text-sm text-muted">{r.excluded} excl.</span> : null}
+                    </td>
                     <td className="py-2 pr-3 text-right">{mmSigned(r.biasMm, 2)}</td>
                     <td className="py-2 pr-3 text-right" data-testid="overview-headline" data-statement={r.statement}>
                       {mm(r.headlineMm, 2)}
                       <span className="block text-sm text-muted">{r.headlineLabel}</span>
                       {r.expiredCertificates ? <span className="block text-sm font-bold text-fail">⚠ certificate past due</span> : null}
                     </td>
-                    <td className="py-2 pr-3"><BiasTrace points={r.trace} limitMm={r.toleranceMm} /></td>
-                    <td className="py-2 pr-3"><LocalTime iso={r.lastShotAt} /></td>
+                    <td className="py-2 pr-3">
+                      <BiasTrace points={r.trace} limitMm={r.toleranceMm} />
+                    </td>
+                    <td className="py-2 pr-3">
+                      <LocalTime iso={r.lastShotAt} />
+                    </td>
                     <td className="py-2 pr-3">
                       {r.calibrationDue ? (
                         overdue ? (
@@ -155,7 +218,9 @@ export default function ReviewOverview({ loaderData }: Route.ComponentProps) {
                       {r.lastSignOff ? (
                         <span>
                           <span className="font-bold">{r.lastSignOff.decision === "approved" ? "✓ Approved" : "✗ Rejected"}</span>
-                          <span className="block text-sm text-muted"><LocalTime iso={r.lastSignOff.createdAt} /> by {r.lastSignOff.byName}</span>
+                          <span className="block text-sm text-muted">
+                            <LocalTime iso={r.lastSignOff.createdAt} /> by {r.lastSignOff.byName}
+                          </span>
                         </span>
                       ) : (
                         <span className="text-muted">none yet</span>

@@ -88,13 +88,7 @@ export function parseLasHeader(bytes: Uint8Array): LasHeader {
  * triples relative to `origin`, in double precision: (X·scale + offset) − origin. The offset
  * minus the origin is formed first, so grid coordinates of thousands of metres lose nothing.
  */
-export function decodeXyz(
-  bytes: Uint8Array,
-  count: number,
-  header: Pick<LasHeader, "recordLength" | "scale" | "offset">,
-  origin: readonly [number, number, number],
-  out: Float64Array,
-): void {
+export function decodeXyz(bytes: Uint8Array, count: number, header: Pick<LasHeader, "recordLength" | "scale" | "offset">, origin: readonly [number, number, number], out: Float64Array): void {
   const dv = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const len = header.recordLength;
   const [sx, sy, sz] = header.scale;

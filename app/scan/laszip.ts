@@ -240,7 +240,7 @@ export function findLaszipVlr(vlrBytes: Uint8Array, vlrCount: number): LaszipVlr
     }
     at = body + len;
   }
-  throw new LasFormatError("the LAZ file has no LASzip record (\"laszip encoded\" 22204): it cannot be decoded");
+  throw new LasFormatError('the LAZ file has no LASzip record ("laszip encoded" 22204): it cannot be decoded');
 }
 
 export type LazChunk = { offset: number; bytes: number; points: number };

@@ -115,7 +115,7 @@ async function readLaz(fh: FileHandle, size: number, header: LasHeader, origin: 
         } catch (e) {
           throw new LasFormatError(`LAZ chunk ${ci + 1} cannot be decoded: ${e instanceof Error ? e.message : String(e)}`);
         }
-        for (let done = 0; done < chunk.points; ) {
+        for (let done = 0; done < chunk.points;) {
           const n = Math.min(BLOCK_POINTS, chunk.points - done);
           for (let i = 0; i < n; i++) dec.getPoint(outPtr + i * len);
           // HEAPU8 is replaced when the heap grows: take it after the decoding

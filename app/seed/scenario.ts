@@ -581,9 +581,10 @@ export function buildDemoScenario(): DemoScenario {
     const marks = plan.marks === "all" ? LAYOUTS[plan.site].marks : plan.marks;
     const queue: DemoTarget[] = [];
     for (let r = 0; r < plan.repeats; r++) {
-      for (const m of marks) for (const refl of plan.refls ?? (["D", "G", "W"] as Refl[])) {
-        queue.push(site.targets.find((t) => t.markM === m && t.refl === refl)!);
-      }
+      for (const m of marks)
+        for (const refl of plan.refls ?? (["D", "G", "W"] as Refl[])) {
+          queue.push(site.targets.find((t) => t.markM === m && t.refl === refl)!);
+        }
     }
     const retro = site.targets.find((t) => t.retro)!;
     for (let r = 0; r < plan.retro; r++) queue.push(retro);
@@ -666,14 +667,7 @@ function unambiguousCombined(spec: SensorSpec, air: AirInput): number {
   return unambiguousIntervalM(spec.modulationHz, airState(air, spec.wavelengthNm).n);
 }
 
-function referenceFor(
-  plan: SessionPlan,
-  site: DemoSite,
-  target: DemoTarget,
-  lux: number,
-  tape: TapeBody,
-  rng: Rng,
-): { body: ReferenceBody; distanceM: number } {
+function referenceFor(plan: SessionPlan, site: DemoSite, target: DemoTarget, lux: number, tape: TapeBody, rng: Rng): { body: ReferenceBody; distanceM: number } {
   const onYard = plan.site === "yard";
   const tapeable = onYard && !target.retro && target.markM <= 30;
   if (tapeable && rng.next() < 0.7) {

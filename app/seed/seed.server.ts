@@ -62,9 +62,22 @@ function expectOk(what: string, r: { status: number; body: unknown }): string {
 /** True when the demo's sensors or users are already in the database. */
 export async function demoIsSeeded(): Promise<boolean> {
   const db = getDb();
-  const s = await db.select({ id: sensors.id }).from(sensors).where(inArray(sensors.id, Object.values(DEMO_IDS))).limit(1);
+  const s = await db
+    .select({ id: sensors.id })
+    .from(sensors)
+    .where(inArray(sensors.id, Object.values(DEMO_IDS)))
+    .limit(1);
   if (s.length) return true;
-  const u = await db.select({ id: users.id }).from(users).where(inArray(users.email, DEMO_USERS.map((x) => x.email))).limit(1);
+  const u = await db
+    .select({ id: users.id })
+    .from(users)
+    .where(
+      inArray(
+        users.email,
+        DEMO_USERS.map((x) => x.email),
+      ),
+    )
+    .limit(1);
   return u.length > 0;
 }
 
@@ -108,10 +121,7 @@ export async function seedDemo(scenario: DemoScenario = buildDemoScenario()): Pr
   for (const { sessions: ses, shots: sh } of days.values()) {
     const bodies = ses.map(({ sensorKey: _k, siteKey: _s, ...body }) => body);
     for (let i = 0; i === 0 || i < sh.length; i += BATCH_SHOTS) {
-      const out = await ingestSync(
-        { id: crew.id, role: crew.role },
-        { deviceId: scenario.deviceId, sessions: i === 0 ? bodies : [], shots: sh.slice(i, i + BATCH_SHOTS) },
-      );
+      const out = await ingestSync({ id: crew.id, role: crew.role }, { deviceId: scenario.deviceId, sessions: i === 0 ? bodies : [], shots: sh.slice(i, i + BATCH_SHOTS) });
       if (out.status !== 200) throw new Error(`The demo sync was refused (${out.status}): ${JSON.stringify(out.body)}`);
       for (const r of (out.body as { results: SyncResult[] }).results) {
         if (r.status === "accepted") results.accepted++;
@@ -150,9 +160,7 @@ export async function deleteDemoRows(scenario: DemoScenario = buildDemoScenario(
     .from(checkSessions)
     .where(or(inArray(checkSessions.sensorId, sensorIds), inArray(checkSessions.siteId, siteIds)));
   const sessionIds = [...new Set([...sessionRows.map((s) => s.id), ...scenario.sessions.map((s) => s.id)])];
-  const shotRows = sessionIds.length
-    ? await db.select({ id: shots.id }).from(shots).where(inArray(shots.sessionId, sessionIds))
-    : [];
+  const shotRows = sessionIds.length ? await db.select({ id: shots.id }).from(shots).where(inArray(shots.sessionId, sessionIds)) : [];
   const shotIds = shotRows.map((s) => s.id);
   const chunks = <T>(xs: T[], n = 400) => Array.from({ length: Math.ceil(xs.length / n) }, (_, i) => xs.slice(i * n, i * n + n));
 

@@ -1,9 +1,5 @@
 // Expected failures as HTTP responses: loaders and actions throw these, boundaries show them.
-export function invariantResponse(
-  condition: unknown,
-  message: string,
-  init: ResponseInit = { status: 400 },
-): asserts condition {
+export function invariantResponse(condition: unknown, message: string, init: ResponseInit = { status: 400 }): asserts condition {
   if (!condition) throw new Response(message, { statusText: message.slice(0, 80), ...init });
 }
 

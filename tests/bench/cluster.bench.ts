@@ -91,7 +91,17 @@ export async function run(): Promise<string[]> {
   resetDb();
   const port = await freePort();
   const app = spawn(process.execPath, ["--import", "tsx", resolve("app/cli/serve.ts"), serverEntry], {
-    env: { ...process.env, HOST: "127.0.0.1", PORT: String(port), NODE_ENV: "production", SESSION_SECRET: randomBytes(48).toString("base64"), COOKIE_SECURE: "false", DATA_DIR: dir, MAIL_DIR: join(dir, "mail"), SMTP_URL: "smtp://127.0.0.1:9" },
+    env: {
+      ...process.env,
+      HOST: "127.0.0.1",
+      PORT: String(port),
+      NODE_ENV: "production",
+      SESSION_SECRET: randomBytes(48).toString("base64"),
+      COOKIE_SECURE: "false",
+      DATA_DIR: dir,
+      MAIL_DIR: join(dir, "mail"),
+      SMTP_URL: "smtp://127.0.0.1:9",
+    },
     stdio: "ignore",
   });
   const { startCluster } = await import("../cluster/start.ts");

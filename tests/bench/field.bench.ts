@@ -33,7 +33,6 @@ function quantile(sorted: number[], p: number) {
   return sorted[lo]! + (h - lo) * ((sorted[Math.min(lo + 1, sorted.length - 1)] ?? sorted[lo]!) - sorted[lo]!);
 }
 
-
 type Manifest = { entry: { module: string; imports?: string[] }; routes: Record<string, { module: string; imports?: string[]; css?: string[] }> };
 
 export function fieldBundle(buildDir: string) {
@@ -67,7 +66,11 @@ export async function run(): Promise<string[]> {
     const b = spawnSync("npx", ["react-router", "build"], { cwd: ROOT, stdio: "inherit", env: process.env });
     if (b.status !== 0) throw new Error("the build failed");
   }
-  const lines: string[] = [`  (machine load average ${loadavg().map((x) => x.toFixed(1)).join(" / ")}: timings are noisy on a busy machine)`];
+  const lines: string[] = [
+    `  (machine load average ${loadavg()
+      .map((x) => x.toFixed(1))
+      .join(" / ")}: timings are noisy on a busy machine)`,
+  ];
   const bundle = fieldBundle(buildDir);
   lines.push(
     target("JS of a field screen (log shot) ≤ 200 KB gzip", `${fmt(bundle.gz / 1024)} KB gzip (${bundle.files} files, ${fmt(bundle.raw / 1024)} KB raw)`, bundle.gz / 1024 <= 200),
@@ -99,7 +102,13 @@ export async function run(): Promise<string[]> {
     const { createAuthSession } = await import(pathToFileURL(join(ROOT, "app/auth/session.server.ts")).href);
     const crew = await fx.makeUser("crew");
     const sensor = await fx.makeSensor({ label: "Bench roof scanner" });
-    const site = await fx.makeSite({ targets: [{ reflectancePct: 10, referenceM: 12.5 }, { reflectancePct: 50, referenceM: 25 }, { reflectancePct: 85, referenceM: 40 }] });
+    const site = await fx.makeSite({
+      targets: [
+        { reflectancePct: 10, referenceM: 12.5 },
+        { reflectancePct: 50, referenceM: 25 },
+        { reflectancePct: 85, referenceM: 40 },
+      ],
+    });
     await fx.makeTape();
     await fx.shareProject([sensor], [site], [crew]); // issue 14
     const { cookie } = await createAuthSession({ id: crew.id, role: "crew" });
@@ -112,7 +121,7 @@ export async function run(): Promise<string[]> {
     });
     const base = `http://127.0.0.1:${port}`;
     // a loaded machine may take a while to start the server (tsx, the build, migrations checked)
-    for (const deadline = Date.now() + 90_000; ; ) {
+    for (const deadline = Date.now() + 90_000; ;) {
       try {
         if ((await fetch(`${base}/healthz`)).ok) break;
       } catch {}
@@ -155,7 +164,14 @@ export async function run(): Promise<string[]> {
           const t = targets[i % targets.length]!;
           const t0 = performance.now();
           await f.saveShot(
-            { sessionId: s.id, targetId: t.id, reference: { method: "edm", distanceM: t.referenceM }, readings: { rangesM: [t.referenceM + 0.002, t.referenceM + 0.003] }, reflectancePct: t.reflectancePct, illuminanceKlux: 30 },
+            {
+              sessionId: s.id,
+              targetId: t.id,
+              reference: { method: "edm", distanceM: t.referenceM },
+              readings: { rangesM: [t.referenceM + 0.002, t.referenceM + 0.003] },
+              reflectancePct: t.reflectancePct,
+              illuminanceKlux: 30,
+            },
             null,
             ctx,
           );
@@ -169,7 +185,16 @@ export async function run(): Promise<string[]> {
         const preview: number[] = [];
         for (let i = 0; i < n; i++) {
           const t = targets[i % targets.length]!;
-          const rec = { id: crypto.randomUUID(), sessionId: s.id, takenAt: new Date().toISOString(), targetId: t.id, reference: { method: "edm", distanceM: t.referenceM }, readings: { rangesM: [t.referenceM + 0.002, t.referenceM + 0.003] }, reflectancePct: t.reflectancePct, illuminanceKlux: 30 };
+          const rec = {
+            id: crypto.randomUUID(),
+            sessionId: s.id,
+            takenAt: new Date().toISOString(),
+            targetId: t.id,
+            reference: { method: "edm", distanceM: t.referenceM },
+            readings: { rangesM: [t.referenceM + 0.002, t.referenceM + 0.003] },
+            reflectancePct: t.reflectancePct,
+            illuminanceKlux: 30,
+          };
           let t0 = performance.now();
           fx.checkShotRecord(rec);
           check.push(performance.now() - t0);
@@ -179,7 +204,13 @@ export async function run(): Promise<string[]> {
         }
         return { out, check, preview, sessionId: s.id };
       },
-      { n: SAVES, sensorId: sensor.id, siteId: site.id, targets: site.targets.map((t: { id: string; referenceM: number; reflectancePct: number }) => ({ id: t.id, referenceM: t.referenceM, reflectancePct: t.reflectancePct })), pauseMs: PAUSE_MS },
+      {
+        n: SAVES,
+        sensorId: sensor.id,
+        siteId: site.id,
+        targets: site.targets.map((t: { id: string; referenceM: number; reflectancePct: number }) => ({ id: t.id, referenceM: t.referenceM, reflectancePct: t.reflectancePct })),
+        pauseMs: PAUSE_MS,
+      },
     );
     const sorted = [...times.out].sort((a, b) => a - b);
     const p95 = quantile(sorted, 0.95);
@@ -191,9 +222,25 @@ export async function run(): Promise<string[]> {
       ),
     );
 
-    const med = (xs: number[]) => fmt(quantile([...xs].sort((a, b) => a - b), 0.5), 2);
-    const p95of = (xs: number[]) => fmt(quantile([...xs].sort((a, b) => a - b), 0.95), 2);
-    lines.push(`    of which: validation (form schema + sync schema) median ${med(times.check)} ms, p95 ${p95of(times.check)} ms; instant check (ranging core) median ${med(times.preview)} ms, p95 ${p95of(times.preview)} ms; the rest is IndexedDB`);
+    const med = (xs: number[]) =>
+      fmt(
+        quantile(
+          [...xs].sort((a, b) => a - b),
+          0.5,
+        ),
+        2,
+      );
+    const p95of = (xs: number[]) =>
+      fmt(
+        quantile(
+          [...xs].sort((a, b) => a - b),
+          0.95,
+        ),
+        2,
+      );
+    lines.push(
+      `    of which: validation (form schema + sync schema) median ${med(times.check)} ms, p95 ${p95of(times.check)} ms; instant check (ranging core) median ${med(times.preview)} ms, p95 ${p95of(times.preview)} ms; the rest is IndexedDB`,
+    );
 
     // Through the form: pick a target (fills distance and reflectance), type a range, save.
     await page.goto(`/field/session/${times.sessionId}`);

@@ -180,14 +180,19 @@ async function pageTiming(base: string, cookie: string, sensorId: string): Promi
       const t = performance.now();
       await page.goto(`${base}/review/sensors/${sensorId}`, { waitUntil: "commit" });
       // drawn: the figures grid holds the bias, and every chart box holds its SVG
-      const drawn = await page.waitForFunction(
-        () => {
-          const boxes = [...document.querySelectorAll('[role="img"]')].filter((b) => b.closest("figure"));
-          return !!document.querySelector('[data-testid="figures"]') && boxes.length >= 2 && boxes.every((b) => b.querySelector("svg"));
-        },
-        null,
-        { timeout: PAGE_TIMEOUT_MS, polling: "raf" },
-      ).then(() => true, () => false);
+      const drawn = await page
+        .waitForFunction(
+          () => {
+            const boxes = [...document.querySelectorAll('[role="img"]')].filter((b) => b.closest("figure"));
+            return !!document.querySelector('[data-testid="figures"]') && boxes.length >= 2 && boxes.every((b) => b.querySelector("svg"));
+          },
+          null,
+          { timeout: PAGE_TIMEOUT_MS, polling: "raf" },
+        )
+        .then(
+          () => true,
+          () => false,
+        );
       ms.push(drawn ? performance.now() - t : Infinity);
       if (!drawn) break;
       marks = await page.evaluate(() => document.querySelectorAll("figure svg circle, figure svg path[d], figure svg rect").length);
@@ -203,7 +208,11 @@ export async function run(): Promise<string[]> {
   const buildDir = process.env.RR_BUILD_DIR ?? "build";
   if (!existsSync(resolve(root, buildDir, "server/index.js"))) return ["report: no build found: run `npm run build` first (the bench reads the report from the built server)"];
   const lines: string[] = [];
-  lines.push(`report: load average ${loadavg().map((x) => x.toFixed(1)).join(" ")} on ${(await import("node:os")).cpus().length} cores shared with other work: wall times here are pessimistic`);
+  lines.push(
+    `report: load average ${loadavg()
+      .map((x) => x.toFixed(1))
+      .join(" ")} on ${(await import("node:os")).cpus().length} cores shared with other work: wall times here are pessimistic`,
+  );
   const sizes = [SHOTS, ...(process.env.BENCH_MILLION === "1" ? [MILLION] : [])];
   for (const n of sizes) {
     const dir = mkdtempSync(join(tmpdir(), "shotbook-report-bench-"));
@@ -251,8 +260,12 @@ export async function run(): Promise<string[]> {
       const withRows = n <= SHOTS ? await timedGet(`${url}?include=shots`, creds.adminToken) : null;
       lines.push(`report: ${fmt(n)} shots of one sensor seeded by SQL in ${fmt(seedMs / 1000, 1)} s; the built server started fresh on them (pid ${pid})`);
       if (n === SHOTS) {
-        lines.push(`report:   first view after a restart     ${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms (target < ${TARGETS.firstMs} ms): ${met(first.ms < TARGETS.firstMs)} by wall time, ${met(first.cpu < TARGETS.firstMs)} by CPU time`);
-        lines.push(`report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms wall (min ${fmt(Math.min(...again), 1)}, max ${fmt(Math.max(...again), 1)}), server CPU median ${fmt(median(againCpu), 0)} ms (target < ${TARGETS.repeatMs} ms): ${met(median(again) < TARGETS.repeatMs)} by wall time, ${met(median(againCpu) < TARGETS.repeatMs)} by CPU time`);
+        lines.push(
+          `report:   first view after a restart     ${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms (target < ${TARGETS.firstMs} ms): ${met(first.ms < TARGETS.firstMs)} by wall time, ${met(first.cpu < TARGETS.firstMs)} by CPU time`,
+        );
+        lines.push(
+          `report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms wall (min ${fmt(Math.min(...again), 1)}, max ${fmt(Math.max(...again), 1)}), server CPU median ${fmt(median(againCpu), 0)} ms (target < ${TARGETS.repeatMs} ms): ${met(median(again) < TARGETS.repeatMs)} by wall time, ${met(median(againCpu) < TARGETS.repeatMs)} by CPU time`,
+        );
         lines.push(`report:   answer without per-shot rows   ${fmt(bytes / 1024, 1)} KB (target < ${TARGETS.bytes / 1024} KB): ${met(bytes < TARGETS.bytes)}`);
         lines.push(`report:   as a project member (scoped)   first ${fmt(memberFirst.ms, 1)} ms, repeated median ${fmt(memberAgain, 1)} ms (information)`);
         if (withRows) lines.push(`report:   with include=shots             ${fmt(withRows.ms, 1)} ms, ${fmt(withRows.bytes / 1024 / 1024, 1)} MB (information: rows only when asked for)`);
@@ -264,7 +277,9 @@ export async function run(): Promise<string[]> {
         lines.push(`report:   server peak RSS ${fmt(rssOf(pid).peakMb, 0)} MB (information at 100,000)`);
       } else {
         const rss = rssOf(pid);
-        lines.push(`report:   first view after a restart     ${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms (target < ${TARGETS.millionFirstMs} ms): ${met(first.ms < TARGETS.millionFirstMs)} by wall time, ${met(first.cpu < TARGETS.millionFirstMs)} by CPU time`);
+        lines.push(
+          `report:   first view after a restart     ${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms (target < ${TARGETS.millionFirstMs} ms): ${met(first.ms < TARGETS.millionFirstMs)} by wall time, ${met(first.cpu < TARGETS.millionFirstMs)} by CPU time`,
+        );
         lines.push(`report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms; answer ${fmt(bytes / 1024, 1)} KB`);
         lines.push(`report:   as a project member (scoped)   first ${fmt(memberFirst.ms, 1)} ms, repeated median ${fmt(memberAgain, 1)} ms`);
         lines.push(`report:   server peak RSS throughout (VmHWM) ${fmt(rss.peakMb, 0)} MB (target < ${TARGETS.millionRssMb} MB): ${met(rss.peakMb < TARGETS.millionRssMb)}`);

@@ -48,7 +48,7 @@ export async function run(): Promise<string[]> {
       return xyz;
     };
     let r = rng(77);
-    for (let done = boardPts.length; done < total; ) {
+    for (let done = boardPts.length; done < total;) {
       const n = Math.min(BLOCK, total - done);
       writeSync(fd, lasRecords(clutterBlock(r, n), recordLength, opts));
       done += n;
@@ -91,11 +91,15 @@ export async function run(): Promise<string[]> {
 
 /** Upload and extraction of one file in a child process of its own (its peak RSS is theirs). */
 function measure(path: string, name: string, total: number, MB: number, O: V3, boards: Board[]): string[] {
-  const child = spawnSync(process.execPath, ["--import", "tsx", fileURLToPath(new URL("./scan-child.ts", import.meta.url)), path, JSON.stringify(O), JSON.stringify(boards.map((b) => b.centre)), name], {
-    encoding: "utf8",
-    env: { ...process.env },
-    maxBuffer: 1 << 20,
-  });
+  const child = spawnSync(
+    process.execPath,
+    ["--import", "tsx", fileURLToPath(new URL("./scan-child.ts", import.meta.url)), path, JSON.stringify(O), JSON.stringify(boards.map((b) => b.centre)), name],
+    {
+      encoding: "utf8",
+      env: { ...process.env },
+      maxBuffer: 1 << 20,
+    },
+  );
   if (child.status !== 0) throw new Error(child.stderr || child.stdout || `child exited ${child.status}`);
   const m = JSON.parse(child.stdout.trim().split("\n").pop()!);
   return [

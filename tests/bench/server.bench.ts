@@ -60,8 +60,7 @@ function makeBatch(w: World, rnd: () => number, device: string) {
     const D = 2 + rnd() * 150;
     const e = (1.5 + 2 * gauss()) / 1000;
     const kind = i % 5;
-    const reference =
-      kind === 4 ? { method: "tape", distanceM: Math.min(D, 30), tape: { tapeId: w.tapeId, tempC: 18, tensionN: 50, support: "ground" } } : { method: "edm", distanceM: D };
+    const reference = kind === 4 ? { method: "tape", distanceM: Math.min(D, 30), tape: { tapeId: w.tapeId, tempC: 18, tensionN: 50, support: "ground" } } : { method: "edm", distanceM: D };
     const d = reference.distanceM;
     const readings = kind === 3 ? { roundTripNs: [((d + e) * 2 * 1.00027 * 1e9) / 299_792_458] } : { rangesM: [d + e, d + e + 0.0004, d + e - 0.0003] };
     return {
@@ -116,7 +115,7 @@ async function startServer(buildDir: string, env: NodeJS.ProcessEnv) {
   let err = "";
   child.stderr!.on("data", (d: Buffer) => (err = (err + d.toString()).slice(-4000)));
   const base = `http://127.0.0.1:${port}`;
-  for (const deadline = Date.now() + 60_000; ; ) {
+  for (const deadline = Date.now() + 60_000; ;) {
     try {
       if ((await fetch(`${base}/healthz`)).ok) break;
     } catch {}
@@ -150,7 +149,11 @@ export async function run(): Promise<string[]> {
   const { getDb, resetDb, prepareConnection } = await import("../../app/db/client.server.ts");
   resetEnvCache();
   resetDb();
-  const lines: string[] = [`  load average ${loadavg().map((x) => x.toFixed(1)).join(" / ")} on ${(await import("node:os")).availableParallelism()} cores (wall times suffer on a busy machine)`];
+  const lines: string[] = [
+    `  load average ${loadavg()
+      .map((x) => x.toFixed(1))
+      .join(" / ")} on ${(await import("node:os")).availableParallelism()} cores (wall times suffer on a busy machine)`,
+  ];
   let server: Awaited<ReturnType<typeof startServer>> | undefined;
   try {
     const db = getDb();
@@ -182,7 +185,15 @@ export async function run(): Promise<string[]> {
     const oneMs = performance.now() - t;
     const six = Array.from({ length: CLIENTS }, (_, c) => Array.from({ length: 2 }, () => makeBatch(w, rnd, `bench-six-${c}`)));
     t = performance.now();
-    const sixAccepted = (await Promise.all(six.map(async (list) => { let n = 0; for (const b of list) n += await post(base, crew.token, b); return n; }))).reduce((a, b) => a + b, 0);
+    const sixAccepted = (
+      await Promise.all(
+        six.map(async (list) => {
+          let n = 0;
+          for (const b of list) n += await post(base, crew.token, b);
+          return n;
+        }),
+      )
+    ).reduce((a, b) => a + b, 0);
     const sixMs = performance.now() - t;
 
     // the raw insert of the one-client rows into a copy of the starting file
@@ -294,9 +305,17 @@ export async function run(): Promise<string[]> {
     const rp = [...reports].sort((a, b) => a - b);
     const sm = [...syncMs].sort((a, b) => a - b);
     lines.push(`  under load: ${CLIENTS} clients syncing ${PER_REQUEST}-shot batches back to back for ${fmt(loadMs / 1000, 1)} s into a sensor with ${fmt(LOAD_BASE)} stored shots`);
-    lines.push(`    ${fmt(loadBatches)} batches, ${fmt(loadShots)} shots = ${fmt(loadShots / (loadMs / 1000))} shots/s; one batch's round trip median ${fmt(quantile(sm, 0.5))} ms, p95 ${fmt(quantile(sm, 0.95))} ms`);
+    lines.push(
+      `    ${fmt(loadBatches)} batches, ${fmt(loadShots)} shots = ${fmt(loadShots / (loadMs / 1000))} shots/s; one batch's round trip median ${fmt(quantile(sm, 0.5))} ms, p95 ${fmt(quantile(sm, 0.95))} ms`,
+    );
     lines.push(`    the report before the load: ${fmt(first.ms)} ms (first view after the bulk insert), ${fmt(first.bytes / 1024)} KB`);
-    lines.push(target("/healthz p99 < 250 ms while 6 clients sync", `p99 ${fmt(quantile(hs, 0.99))} ms (median ${fmt(quantile(hs, 0.5))}, max ${fmt(hs[hs.length - 1] ?? NaN)}, ${hs.length} probes)`, quantile(hs, 0.99) < 250));
+    lines.push(
+      target(
+        "/healthz p99 < 250 ms while 6 clients sync",
+        `p99 ${fmt(quantile(hs, 0.99))} ms (median ${fmt(quantile(hs, 0.5))}, max ${fmt(hs[hs.length - 1] ?? NaN)}, ${hs.length} probes)`,
+        quantile(hs, 0.99) < 250,
+      ),
+    );
     lines.push(
       target(
         "repeated report p95 < 1 s while 6 clients sync",

@@ -32,7 +32,11 @@ afterAll(async () => {
 async function api(base: string, path: string, opts: { token: string; method?: string; json?: unknown; body?: BodyInit }) {
   const headers: Record<string, string> = { Authorization: `Bearer ${opts.token}` };
   if (opts.json !== undefined) headers["Content-Type"] = "application/json";
-  const res = await fetch(`${base}${path}`, { method: opts.method ?? (opts.json !== undefined || opts.body ? "POST" : "GET"), headers, body: opts.json !== undefined ? JSON.stringify(opts.json) : opts.body });
+  const res = await fetch(`${base}${path}`, {
+    method: opts.method ?? (opts.json !== undefined || opts.body ? "POST" : "GET"),
+    headers,
+    body: opts.json !== undefined ? JSON.stringify(opts.json) : opts.body,
+  });
   statuses.push(res.status);
   return res;
 }
@@ -116,7 +120,10 @@ test("the same batches sent through both instances at once store every record ex
 
 test("a report read through the replica's instance agrees with the primary's within 2 s", async () => {
   const onA = await report(A);
-  const onB = await settles(() => report(B), (r) => JSON.stringify(r) === JSON.stringify(onA));
+  const onB = await settles(
+    () => report(B),
+    (r) => JSON.stringify(r) === JSON.stringify(onA),
+  );
   expect(onB).toEqual(onA);
   expect(onA.n).toBeGreaterThan(900); // the demo's shots and the test's
 });
@@ -133,7 +140,10 @@ test("an exclusion made on one instance shows on the other's next report", async
   // through A: B, warm with the report cached before, shows the restore once its replica has it
   const back = await api(A, `/api/shots/${target.id}/exclusion`, { token: c.tokens.qa, method: "DELETE", json: { reason: "board was upright; the crew's note was wrong" } });
   expect(back.status).toBe(200);
-  const onB = await settles(() => report(B), (r) => r.shots.find((s) => s.id === target.id)!.excluded === false);
+  const onB = await settles(
+    () => report(B),
+    (r) => r.shots.find((s) => s.id === target.id)!.excluded === false,
+  );
   expect(onB.shots.find((s) => s.id === target.id)!.excluded).toBe(false);
   expect(onB.n).toBe(before.n);
   expect(statuses.filter((s) => s >= 500 && s !== 503)).toEqual([]);

@@ -34,7 +34,10 @@ export async function e2eProject(tag: string, sensorIds: string[], siteIds: stri
   const { getDb } = await import("~/db/client.server");
   const { users } = await import("~/db/schema");
   const { inArray } = await import("drizzle-orm");
-  const members = await getDb().select({ id: users.id }).from(users).where(inArray(users.email, ["crew@e2e.test", "qa@e2e.test", "viewer@e2e.test"]));
+  const members = await getDb()
+    .select({ id: users.id })
+    .from(users)
+    .where(inArray(users.email, ["crew@e2e.test", "qa@e2e.test", "viewer@e2e.test"]));
   return makeProject({ name: `E2E project ${tag}`, sensorIds, siteIds, memberIds: members.map((m) => m.id) });
 }
 

@@ -117,7 +117,14 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
     await page.goto("/field");
     await page.getByRole("heading", { name: "Start session" }).waitFor();
     await page.getByText("Offline — saving on this tablet").waitFor({ timeout: 15_000 });
-    expect(await page.evaluate(() => fetch("/healthz").then(() => "reached", () => "cut"))).toBe("cut");
+    expect(
+      await page.evaluate(() =>
+        fetch("/healthz").then(
+          () => "reached",
+          () => "cut",
+        ),
+      ),
+    ).toBe("cut");
     // The readiness check runs after the failed reference copy that also flips the status line
     // to "Offline": wait for its own answer rather than read it in the same instant (a race under load).
     await page
@@ -255,7 +262,7 @@ test("a session started with the wrong sensor is discarded with its shots and ne
   // now and wait until it sleeps between tries.
   void page.evaluate(() => (window.shotbookField as { syncNow(): Promise<unknown> }).syncNow());
   await page.waitForFunction(async () => {
-    const s = (await (window.shotbookField as { syncStatus(): Promise<{ running: boolean; nextRetryAt: string | null }> }).syncStatus());
+    const s = await (window.shotbookField as { syncStatus(): Promise<{ running: boolean; nextRetryAt: string | null }> }).syncStatus();
     return s.running && s.nextRetryAt != null;
   });
 
@@ -396,7 +403,10 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
       await page.getByRole("button", { name: "Switch to dark theme" }).click();
       await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
     }
-    for (const [w, h] of [[1280, 800], [800, 1280]] as const) {
+    for (const [w, h] of [
+      [1280, 800],
+      [800, 1280],
+    ] as const) {
       await page.setViewportSize({ width: w, height: h });
       for (const [name, url, heading] of screens) {
         await page.goto(url);

@@ -66,7 +66,7 @@ async function openFieldOnline(context: BrowserContext): Promise<Page> {
 }
 
 async function outboxTotal(page: Page): Promise<number> {
-  return page.evaluate(async () => ((await (window.shotbookField as { outboxCounts(): Promise<{ total: number }> }).outboxCounts()).total));
+  return page.evaluate(async () => (await (window.shotbookField as { outboxCounts(): Promise<{ total: number }> }).outboxCounts()).total);
 }
 
 /** Queues a session and n shots through the app's own outbox functions. */
@@ -123,7 +123,14 @@ test("a crew logs check-shots with no signal, reloads, and everything syncs when
   await page.reload();
   // The browser still believes it is online; the server's silence is what counts.
   expect(await page.evaluate(() => navigator.onLine)).toBe(true);
-  expect(await page.evaluate(() => fetch("/healthz").then(() => "reached", () => "offline"))).toBe("offline");
+  expect(
+    await page.evaluate(() =>
+      fetch("/healthz").then(
+        () => "reached",
+        () => "offline",
+      ),
+    ),
+  ).toBe("offline");
   await page.getByRole("heading", { name: "Start session" }).waitFor();
   await page.getByText("Offline — saving on this tablet").waitFor();
 
@@ -330,7 +337,14 @@ test("a refused session (unknown sensor) is fixed on its own screen, keeps its i
       const s = await f.startSession({ sensorId: ghost, siteId, airTempC: 17.5, pressureHpa: 1009, note: "North fence" });
       const shotIds: string[] = [];
       for (const t of targets) {
-        const shot = await f.saveShot({ sessionId: s.id, targetId: t.id, reference: { method: "edm", distanceM: t.referenceM }, readings: { rangesM: [t.referenceM + 0.002] }, reflectancePct: t.reflectancePct, illuminanceKlux: 15 });
+        const shot = await f.saveShot({
+          sessionId: s.id,
+          targetId: t.id,
+          reference: { method: "edm", distanceM: t.referenceM },
+          readings: { rangesM: [t.referenceM + 0.002] },
+          reflectancePct: t.reflectancePct,
+          illuminanceKlux: 15,
+        });
         shotIds.push(shot.id);
       }
       return { sessionId: s.id, shotIds };
@@ -385,7 +399,14 @@ test("a refused session (unknown sensor) is fixed on its own screen, keeps its i
   expect(mine.map((s) => s.id).sort()).toEqual([...ids.shotIds].sort());
   for (const s of mine) expect(s.errorMm).toBeGreaterThan(0);
   const local = await page.evaluate(async (id) => {
-    const db = (window.shotbookField as { db: { sessions: { get(id: string): Promise<{ id: string; state: string; record: { sensorId: string; humidityPct?: number } }> }; shots: { where(k: string): { equals(v: string): { toArray(): Promise<{ state: string; preview: unknown }[]> } } } } }).db;
+    const db = (
+      window.shotbookField as {
+        db: {
+          sessions: { get(id: string): Promise<{ id: string; state: string; record: { sensorId: string; humidityPct?: number } }> };
+          shots: { where(k: string): { equals(v: string): { toArray(): Promise<{ state: string; preview: unknown }[]> } } };
+        };
+      }
+    ).db;
     return { session: await db.sessions.get(id), shots: await db.shots.where("sessionId").equals(id).toArray() };
   }, ids.sessionId);
   expect(local.session.id).toBe(ids.sessionId);
@@ -393,7 +414,10 @@ test("a refused session (unknown sensor) is fixed on its own screen, keeps its i
   expect(local.session.record.sensorId).toBe(world.sensor.id);
   expect(local.session.record.humidityPct).toBe(55);
   // The instant check of the shots ran again against the real sensor.
-  expect(local.shots.map((s) => [s.state, s.preview !== null])).toEqual([["synced", true], ["synced", true]]);
+  expect(local.shots.map((s) => [s.state, s.preview !== null])).toEqual([
+    ["synced", true],
+    ["synced", true],
+  ]);
   await context.close();
 });
 

@@ -79,7 +79,5 @@ export async function seriousA11yViolations(page: Page) {
       targets: v.nodes.slice(0, 5).map((n) => n.target.join(" ")),
     }));
   });
-  return (result as { id: string; impact: string; help: string; targets: string[] }[]).filter(
-    (v) => v.impact === "serious" || v.impact === "critical",
-  );
+  return (result as { id: string; impact: string; help: string; targets: string[] }[]).filter((v) => v.impact === "serious" || v.impact === "critical");
 }

@@ -104,7 +104,10 @@ test("an admin adds a person to a project by e-mail (a wrong address is refused,
   await section.getByTestId("members").getByRole("link").first().click();
   await page.locator("#projects").getByRole("heading", { name: "Projects (1)" }).waitFor();
   expect(await page.getByTestId("user-projects").textContent()).toContain(w.quarry.name);
-  const options = await page.getByRole("combobox", { name: /to a project$/ }).locator("option").allTextContents();
+  const options = await page
+    .getByRole("combobox", { name: /to a project$/ })
+    .locator("option")
+    .allTextContents();
   expect(options.some((o) => o.startsWith(w.river.name))).toBe(true);
   expect(options.some((o) => o.startsWith(w.quarry.name))).toBe(false);
   await shoot(page, "user-projects", "#projects");

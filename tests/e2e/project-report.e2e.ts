@@ -46,7 +46,10 @@ afterAll(async () => {
     const { sensors } = await import("~/db/schema");
     const { inArray } = await import("drizzle-orm");
     const at = new Date().toISOString();
-    await getDb().update(sensors).set({ retiredAt: at, updatedAt: at }).where(inArray(sensors.id, [w.failing.id, w.passing.id]));
+    await getDb()
+      .update(sensors)
+      .set({ retiredAt: at, updatedAt: at })
+      .where(inArray(sensors.id, [w.failing.id, w.passing.id]));
   }
 });
 
@@ -57,7 +60,9 @@ async function as(email: string, viewport = { width: 1280, height: 900 }): Promi
 }
 
 function pdfPages(file: string, layout = true): string[] {
-  return execFileSync("pdftotext", [...(layout ? ["-layout"] : []), file, "-"], { encoding: "utf8" }).split("\f").slice(0, -1);
+  return execFileSync("pdftotext", [...(layout ? ["-layout"] : []), file, "-"], { encoding: "utf8" })
+    .split("\f")
+    .slice(0, -1);
 }
 
 const path = () => `/review/projects/${w.project.id}/report`;
@@ -103,7 +108,14 @@ test("printed, the report numbers its pages, has no empty page, carries its numb
       expect(text, `footer of page ${i + 1}`).toContain(`${number}`);
       expect(text.replace(/\s+/g, " "), `footer of page ${i + 1}`).toContain(`SHA-256 ${hash.slice(0, 16)}`);
       // no near-empty page: each carries more than its running footer
-      expect(text.replace(/page \d+ of \d+/, "").replace(/Project verification report SB-\S+ · SHA-256 \S+ · .*/g, "").replace(/\s+/g, " ").trim().length, `text on page ${i + 1}`).toBeGreaterThan(300);
+      expect(
+        text
+          .replace(/page \d+ of \d+/, "")
+          .replace(/Project verification report SB-\S+ · SHA-256 \S+ · .*/g, "")
+          .replace(/\s+/g, " ")
+          .trim().length,
+        `text on page ${i + 1}`,
+      ).toBeGreaterThan(300);
     });
     expect(number).toMatch(new RegExp(`^SB-[A-Z0-9-]+-v${version}$`));
     const first = pages[0]!.replace(/\s+/g, " ");
@@ -118,7 +130,10 @@ test("printed, the report numbers its pages, has no empty page, carries its numb
     const statementAt = firstRead.indexOf("Accuracy statement");
     expect(statementAt).toBeGreaterThan(-1);
     expect(statementAt).toBeLessThan(firstRead.indexOf("Acceptance rule"));
-    const sentence = style === "rmse" ? /Tested \d+\.\d mm range RMSE against \d+ check-shots, reference not included/ : /Tested \d+\.\d mm range accuracy at 95 % confidence level \(NSSDA\) against \d+ check-shots, reference not included/;
+    const sentence =
+      style === "rmse"
+        ? /Tested \d+\.\d mm range RMSE against \d+ check-shots, reference not included/
+        : /Tested \d+\.\d mm range accuracy at 95 % confidence level \(NSSDA\) against \d+ check-shots, reference not included/;
     const hit = firstRead.slice(statementAt).match(sentence);
     expect(hit, `${style} statement on page 1`).not.toBeNull();
     if (style === "rmse") expect(first).not.toMatch(/accuracy at 95 %/);
@@ -137,7 +152,7 @@ test("older versions stay readable and say they are superseded; a non-member get
   const { context, page } = await as(w.users.qa.email);
   // a change of the rule's statement style makes a new version
   await openReport(page);
-  await setStatement(await page.getByTestId("project-report").getAttribute("data-statement") === "rmse" ? "nssda95" : "rmse");
+  await setStatement((await page.getByTestId("project-report").getAttribute("data-statement")) === "rmse" ? "nssda95" : "rmse");
   await openReport(page);
   const latest = Number(await page.getByTestId("project-report").getAttribute("data-version"));
   expect(latest).toBeGreaterThan(1); // the statement switches above made new versions
@@ -156,23 +171,27 @@ test("older versions stay readable and say they are superseded; a non-member get
   await other.context.close();
 }, 120_000);
 
-test.runIf(!!SHOTS)("screenshots of the project report, screen and print, light and dark", async () => {
-  const { context, page } = await as(w.users.viewer.email, { width: 1180, height: 820 });
-  for (const theme of ["light", "dark"]) {
-    if (theme === "dark") {
+test.runIf(!!SHOTS)(
+  "screenshots of the project report, screen and print, light and dark",
+  async () => {
+    const { context, page } = await as(w.users.viewer.email, { width: 1180, height: 820 });
+    for (const theme of ["light", "dark"]) {
+      if (theme === "dark") {
+        await page.goto("/review");
+        await page.getByRole("button", { name: "Switch to dark theme" }).click();
+        await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
+      }
       await page.goto("/review");
-      await page.getByRole("button", { name: "Switch to dark theme" }).click();
-      await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
+      await page.getByTestId("project-reports").waitFor();
+      await page.screenshot({ path: join(SHOTS!, `project-overview-${theme}.png`), fullPage: true });
+      await openReport(page);
+      await page.waitForTimeout(900);
+      await page.screenshot({ path: join(SHOTS!, `project-report-${theme}.png`), fullPage: true });
+      await page.screenshot({ path: join(SHOTS!, `project-report-${theme}-top.png`) });
+      const file = await printToPdf(page, `project-${theme}`);
+      execFileSync("pdftoppm", ["-png", "-r", "70", file, join(SHOTS!, `project-pdf-${theme}`)]);
     }
-    await page.goto("/review");
-    await page.getByTestId("project-reports").waitFor();
-    await page.screenshot({ path: join(SHOTS!, `project-overview-${theme}.png`), fullPage: true });
-    await openReport(page);
-    await page.waitForTimeout(900);
-    await page.screenshot({ path: join(SHOTS!, `project-report-${theme}.png`), fullPage: true });
-    await page.screenshot({ path: join(SHOTS!, `project-report-${theme}-top.png`) });
-    const file = await printToPdf(page, `project-${theme}`);
-    execFileSync("pdftoppm", ["-png", "-r", "70", file, join(SHOTS!, `project-pdf-${theme}`)]);
-  }
-  await context.close();
-}, 180_000);
+    await context.close();
+  },
+  180_000,
+);

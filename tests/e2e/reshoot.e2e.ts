@@ -27,8 +27,14 @@ beforeAll(async () => {
   const { inArray } = await import("drizzle-orm");
   const project = await makeProject({ name: "Valley road corridor (re-shoot)", sensorIds: [world.sensor.id], siteIds: [world.site.id, world.other.id] });
   projectName = project.name;
-  const people = await getDb().select({ id: users.id }).from(users).where(inArray(users.email, ["qa@e2e.test", "crew@e2e.test"]));
-  await getDb().insert(projectMembers).values(people.map((u) => ({ projectId: project.id, userId: u.id }))).onConflictDoNothing();
+  const people = await getDb()
+    .select({ id: users.id })
+    .from(users)
+    .where(inArray(users.email, ["qa@e2e.test", "crew@e2e.test"]));
+  await getDb()
+    .insert(projectMembers)
+    .values(people.map((u) => ({ projectId: project.id, userId: u.id })))
+    .onConflictDoNothing();
 });
 beforeEach(() => {
   net.setOnline(true);
@@ -79,7 +85,14 @@ test("QA asks for a re-shoot; the tablet copies it, goes offline for real, and s
   await signInAs(tablet, "crew@e2e.test");
   const page = await openReady(tablet);
   net.setOnline(false);
-  expect(await page.evaluate(() => fetch("/healthz").then(() => "reached", () => "cut"))).toBe("cut");
+  expect(
+    await page.evaluate(() =>
+      fetch("/healthz").then(
+        () => "reached",
+        () => "cut",
+      ),
+    ),
+  ).toBe("cut");
 
   // Another site with the same sensor: no request shows there.
   await page.getByLabel("Sensor", { exact: true }).selectOption(world.sensor.id);

@@ -36,7 +36,10 @@ afterAll(async () => {
     const { sensors } = await import("~/db/schema");
     const { inArray } = await import("drizzle-orm");
     const at = new Date().toISOString();
-    await getDb().update(sensors).set({ retiredAt: at, updatedAt: at }).where(inArray(sensors.id, [w.failing.id, w.passing.id, ...(wrap ? [wrap.sensor.id] : [])]));
+    await getDb()
+      .update(sensors)
+      .set({ retiredAt: at, updatedAt: at })
+      .where(inArray(sensors.id, [w.failing.id, w.passing.id, ...(wrap ? [wrap.sensor.id] : [])]));
   }
 });
 
@@ -88,7 +91,10 @@ async function smallTargets(page: Page): Promise<Small[]> {
 }
 
 test("every interactive element of the review screens and the shell header is a 44 px touch target", async () => {
-  for (const viewport of [{ width: 1280, height: 900 }, { width: 820, height: 1180 }]) {
+  for (const viewport of [
+    { width: 1280, height: 900 },
+    { width: 820, height: 1180 },
+  ]) {
     const { context, page } = await as(w.users.qa.email, { viewport });
     const screens: [string, string, () => Promise<unknown>][] = [
       ["overview", "/review", () => page.getByTestId("sensor-overview").waitFor()],
@@ -124,7 +130,11 @@ test("review times are shown in the device's local time with its offset, after t
   const row = page.getByTestId("sensor-overview").locator(`tr[data-sensor="${w.failing.id}"]`);
   await row.locator('time[data-local-time="local"]').first().waitFor();
   // the expected text from ICU's zone data (Intl), not from the app's own formatter
-  const last = w.shotsOf(w.failing.id).map((s) => s.takenAt).sort((a, b) => Date.parse(a) - Date.parse(b)).at(-1)!;
+  const last = w
+    .shotsOf(w.failing.id)
+    .map((s) => s.takenAt)
+    .sort((a, b) => Date.parse(a) - Date.parse(b))
+    .at(-1)!;
   const parts = Object.fromEntries(
     new Intl.DateTimeFormat("en-CA", { timeZone: "America/St_Johns", year: "numeric", month: "2-digit", day: "2-digit", hour: "2-digit", minute: "2-digit", hourCycle: "h23" })
       .formatToParts(new Date(last))
@@ -159,7 +169,10 @@ async function printToPdf(page: Page, path: string, name: string) {
 test("the printed report numbers its pages, keeps the matrix and the verdict's reasons, and fills its first page", async () => {
   if (!existsSync("/usr/bin/pdftotext")) throw new Error("pdftotext missing: apt-get install -y poppler-utils");
   const { context, page } = await as(w.users.qa.email);
-  for (const [name, id] of [["failing", w.failing.id], ["wrap", wrap.sensor.id]] as const) {
+  for (const [name, id] of [
+    ["failing", w.failing.id],
+    ["wrap", wrap.sensor.id],
+  ] as const) {
     const file = await printToPdf(page, `/review/sensors/${id}/print`, `print-${name}`);
     const pages = pdfPages(file);
     const N = pages.length;
@@ -167,7 +180,13 @@ test("the printed report numbers its pages, keeps the matrix and the verdict's r
     pages.forEach((text, i) => {
       expect(text, `page ${i + 1}`).toMatch(new RegExp(`page ${i + 1} of ${N}`));
       // no near-empty page: each carries more than its running header and footer
-      expect(text.replace(/page \d+ of \d+/, "").replace(/\s+/g, " ").trim().length, `text on page ${i + 1}`).toBeGreaterThan(300);
+      expect(
+        text
+          .replace(/page \d+ of \d+/, "")
+          .replace(/\s+/g, " ")
+          .trim().length,
+        `text on page ${i + 1}`,
+      ).toBeGreaterThan(300);
     });
     // the first page holds the header, the verdict with its reasons and the four tests
     expect(pages[0]).toMatch(/Range verification report/);
@@ -185,32 +204,39 @@ test("the printed report numbers its pages, keeps the matrix and the verdict's r
   await context.close();
 }, 120_000);
 
-test.runIf(!!SHOTS)("screenshots of the overview, the reports and the printed pages in both themes", async () => {
-  const { context, page } = await as(w.users.qa.email, { viewport: { width: 1180, height: 820 }, timezoneId: "Europe/Berlin" });
-  for (const theme of ["light", "dark"]) {
-    if (theme === "dark") {
-      await page.goto("/review");
-      await page.getByRole("button", { name: "Switch to dark theme" }).click();
-      await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
-    }
-    for (const [name, path, testId] of [
-      ["overview", "/review", "sensor-overview"],
-      ["report-failing", `/review/sensors/${w.failing.id}`, "shot-table"],
-      ["report-wrap", `/review/sensors/${wrap.sensor.id}`, "shot-table"],
-      ["print-wrap", `/review/sensors/${wrap.sensor.id}/print`, "print-report"],
-    ] as const) {
-      await page.goto(path);
-      await page.getByTestId(testId).waitFor();
-      await page.waitForTimeout(900);
-      await page.screenshot({ path: join(SHOTS!, `${name}-${theme}.png`), fullPage: true });
-      // the top and the charts of a long page at full size, for a person to read
-      const height = await page.evaluate(() => document.documentElement.scrollHeight);
-      for (const [part, y] of [["top", 0], ["charts", 1250]] as const) {
-        if (y < height) await page.screenshot({ path: join(SHOTS!, `${name}-${theme}-${part}.png`), fullPage: true, clip: { x: 0, y, width: 1180, height: Math.min(1250, height - y) } });
+test.runIf(!!SHOTS)(
+  "screenshots of the overview, the reports and the printed pages in both themes",
+  async () => {
+    const { context, page } = await as(w.users.qa.email, { viewport: { width: 1180, height: 820 }, timezoneId: "Europe/Berlin" });
+    for (const theme of ["light", "dark"]) {
+      if (theme === "dark") {
+        await page.goto("/review");
+        await page.getByRole("button", { name: "Switch to dark theme" }).click();
+        await page.waitForFunction(() => document.documentElement.classList.contains("dark"));
       }
+      for (const [name, path, testId] of [
+        ["overview", "/review", "sensor-overview"],
+        ["report-failing", `/review/sensors/${w.failing.id}`, "shot-table"],
+        ["report-wrap", `/review/sensors/${wrap.sensor.id}`, "shot-table"],
+        ["print-wrap", `/review/sensors/${wrap.sensor.id}/print`, "print-report"],
+      ] as const) {
+        await page.goto(path);
+        await page.getByTestId(testId).waitFor();
+        await page.waitForTimeout(900);
+        await page.screenshot({ path: join(SHOTS!, `${name}-${theme}.png`), fullPage: true });
+        // the top and the charts of a long page at full size, for a person to read
+        const height = await page.evaluate(() => document.documentElement.scrollHeight);
+        for (const [part, y] of [
+          ["top", 0],
+          ["charts", 1250],
+        ] as const) {
+          if (y < height) await page.screenshot({ path: join(SHOTS!, `${name}-${theme}-${part}.png`), fullPage: true, clip: { x: 0, y, width: 1180, height: Math.min(1250, height - y) } });
+        }
+      }
+      const file = await printToPdf(page, `/review/sensors/${wrap.sensor.id}/print`, `print-${theme}`);
+      execFileSync("pdftoppm", ["-png", "-r", "70", file, join(SHOTS!, `pdf-${theme}`)]);
     }
-    const file = await printToPdf(page, `/review/sensors/${wrap.sensor.id}/print`, `print-${theme}`);
-    execFileSync("pdftoppm", ["-png", "-r", "70", file, join(SHOTS!, `pdf-${theme}`)]);
-  }
-  await context.close();
-}, 240_000);
+    await context.close();
+  },
+  240_000,
+);

@@ -32,7 +32,14 @@ async function as(email: string, viewport = { width: 1280, height: 900 }): Promi
 }
 
 async function figure(page: Page, label: string) {
-  return (await page.getByTestId("figures").locator("div", { has: page.getByText(label, { exact: true }) }).locator("dd").first().textContent())?.trim();
+  return (
+    await page
+      .getByTestId("figures")
+      .locator("div", { has: page.getByText(label, { exact: true }) })
+      .locator("dd")
+      .first()
+      .textContent()
+  )?.trim();
 }
 
 function mailsFor(address: string) {

@@ -53,14 +53,17 @@ beforeAll(async () => {
   await makeProject({ name: "Lab workspace", sensorIds: [camera.id], siteIds: [lab.id], memberIds: [crew.id] });
   const sessionId = crypto.randomUUID();
   const camSessionId = crypto.randomUUID();
-  const res = await ingestSync({ id: crew.id, role: "crew" }, {
-    deviceId: "e2e",
-    sessions: [
-      { id: sessionId, sensorId: scanner.id, siteId: site.id, startedAt: "2026-05-08T08:00:00+02:00" },
-      { id: camSessionId, sensorId: camera.id, siteId: lab.id, startedAt: "2026-05-08T09:00:00+02:00" },
-    ],
-    shots: [],
-  });
+  const res = await ingestSync(
+    { id: crew.id, role: "crew" },
+    {
+      deviceId: "e2e",
+      sessions: [
+        { id: sessionId, sensorId: scanner.id, siteId: site.id, startedAt: "2026-05-08T08:00:00+02:00" },
+        { id: camSessionId, sensorId: camera.id, siteId: lab.id, startedAt: "2026-05-08T09:00:00+02:00" },
+      ],
+      shots: [],
+    },
+  );
   expect(res.status).toBe(200);
   Object.assign(w, { crew, sessionId, camSessionId, stationId: site.stations[0].id, targetIds: site.targets.map((t) => t.id), camTargetId: lab.targets[0].id });
   browser = await launchBrowser();
@@ -88,7 +91,15 @@ test("a scan: upload, one row per target with its plot, accept; the same file ag
   await page.getByLabel("Session").selectOption(w.sessionId);
   await page.getByLabel("Station").selectOption(w.stationId);
   await page.getByLabel("Instrument height above the mark (m)").fill(String(IH));
-  const pts = [...boards.flatMap((b, i) => boardPoints(O, b, rng(10 + i))), ...boardPoints(O, sparse), ...clutter(O, [...boards, sparse].map((b) => b.centre), 30_000)];
+  const pts = [
+    ...boards.flatMap((b, i) => boardPoints(O, b, rng(10 + i))),
+    ...boardPoints(O, sparse),
+    ...clutter(
+      O,
+      [...boards, sparse].map((b) => b.centre),
+      30_000,
+    ),
+  ];
   const las = Buffer.from(lasFile(pts, { version: 4, pointFormat: 6, offset: [512_000, 6_350_000, 100] }));
   await page.getByLabel(/Point cloud/).setInputFiles({ name: "yard-S1.las", mimeType: "application/octet-stream", buffer: las });
   await page.getByRole("button", { name: "Find the targets" }).click();
@@ -107,7 +118,9 @@ test("a scan: upload, one row per target with its plot, accept; the same file ag
   await shot(page, "scan-preview");
 
   await page.getByRole("button", { name: "Accept 3 check-shots" }).click();
-  await expect.poll(async () => (await page.getByTestId("commit-summary").count()) && page.getByTestId("commit-summary").textContent(), { timeout: 30_000 }).toMatch(/3 shots stored, 0 already stored, 0 refused/);
+  await expect
+    .poll(async () => (await page.getByTestId("commit-summary").count()) && page.getByTestId("commit-summary").textContent(), { timeout: 30_000 })
+    .toMatch(/3 shots stored, 0 already stored, 0 refused/);
   await shot(page, "scan-accepted");
   // a photo of the board, attached as from the tablet
   const { encode } = await import("fast-png");
@@ -118,7 +131,9 @@ test("a scan: upload, one row per target with its plot, accept; the same file ag
   // the same file again: found, but nothing new is stored
   await page.getByRole("button", { name: "Find the targets" }).click();
   await page.getByRole("button", { name: "Accept 3 check-shots" }).click();
-  await expect.poll(async () => (await page.getByTestId("commit-summary").count()) && page.getByTestId("commit-summary").textContent(), { timeout: 30_000 }).toMatch(/0 shots stored, 3 already stored/);
+  await expect
+    .poll(async () => (await page.getByTestId("commit-summary").count()) && page.getByTestId("commit-summary").textContent(), { timeout: 30_000 })
+    .toMatch(/0 shots stored, 3 already stored/);
   await context.close();
 });
 

@@ -18,12 +18,28 @@ beforeAll(async () => {
   const { makeSensor, makeSite, makeUser, apiRequest, call } = await import("../support/registry-fixtures");
   const { action: syncAction } = await import("~/routes/api.sync");
   const crew = await makeUser("crew");
-  const sensor = await makeSensor({ label: "Handheld rangefinder HR-3 (drifting)", toleranceMm: 5, tolerancePpm: 10, certNumber: "EML-S-2025-0788", certLaboratory: "Eastbank Metrology Lab (invented)", certIssued: "2025-07-01", certDue: "2026-07-01" });
+  const sensor = await makeSensor({
+    label: "Handheld rangefinder HR-3 (drifting)",
+    toleranceMm: 5,
+    tolerancePpm: 10,
+    certNumber: "EML-S-2025-0788",
+    certLaboratory: "Eastbank Metrology Lab (invented)",
+    certIssued: "2025-07-01",
+    certDue: "2026-07-01",
+  });
   sensorId = sensor.id;
   const site = await makeSite({ name: "Fernhollow quarry baseline (history)" });
   const sessions = dates.map((d) => ({ id: crypto.randomUUID(), sensorId, siteId: site.id, startedAt: `${d}T08:00:00+02:00`, airTempC: 15, pressureHpa: 1010, humidityPct: 60 }));
   const shots = sessions.flatMap((s, i) =>
-    [-0.4, 0, 0.4].map((d, k) => ({ id: crypto.randomUUID(), sessionId: s.id, takenAt: `${dates[i]}T09:0${k}:00+02:00`, reference: { method: "edm", distanceM: 40 + 10 * k }, readings: { rangesM: [40 + 10 * k + (biases[i] + d) / 1000] }, reflectancePct: 50, illuminanceKlux: 20 })),
+    [-0.4, 0, 0.4].map((d, k) => ({
+      id: crypto.randomUUID(),
+      sessionId: s.id,
+      takenAt: `${dates[i]}T09:0${k}:00+02:00`,
+      reference: { method: "edm", distanceM: 40 + 10 * k },
+      readings: { rangesM: [40 + 10 * k + (biases[i] + d) / 1000] },
+      reflectancePct: 50,
+      illuminanceKlux: 20,
+    })),
   );
   const r = await call(syncAction, apiRequest("/api/sync", { user: crew, json: { deviceId: "tablet-e2e-h", sessions, shots } }));
   expect(r.status).toBe(200);

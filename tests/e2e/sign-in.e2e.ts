@@ -20,7 +20,9 @@ function codesTo(address: string) {
   const dir = inject("mailDir");
   let names: string[] = [];
   try {
-    names = readdirSync(dir).filter((n) => n.endsWith(".eml")).sort();
+    names = readdirSync(dir)
+      .filter((n) => n.endsWith(".eml"))
+      .sort();
   } catch {}
   return names.map((n) => parseEml(readFileSync(join(dir, n), "utf8"), n)).filter((m) => m.to === address && m.code);
 }

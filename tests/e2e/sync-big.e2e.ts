@@ -105,11 +105,10 @@ test(`${N.toLocaleString("en-GB")} queued shots sync from the session screen; th
     await cdp.send("Profiler.start");
   }
   net.setOnline(true);
-  await page.waitForFunction(
-    async (sid) => (await (window as unknown as Win).shotbookField.db.shots.where("[sessionId+state]").equals([sid, "synced"]).count()) === 1200,
-    sessionId,
-    { timeout: 120_000, polling: 500 },
-  );
+  await page.waitForFunction(async (sid) => (await (window as unknown as Win).shotbookField.db.shots.where("[sessionId+state]").equals([sid, "synced"]).count()) === 1200, sessionId, {
+    timeout: 120_000,
+    polling: 500,
+  });
   await page
     .waitForFunction(() => document.querySelector('[data-testid="outbox-count"]')?.textContent === "Outbox: nothing waiting", undefined, { timeout: 30_000 })
     .catch(async (e) => {
@@ -118,7 +117,9 @@ test(`${N.toLocaleString("en-GB")} queued shots sync from the session screen; th
   await page.waitForTimeout(500);
   const duringSync = await longTasks(page);
   if (cdp) {
-    const { profile } = (await cdp.send("Profiler.stop")) as { profile: { nodes: { id: number; callFrame: { functionName: string; url: string; lineNumber: number; columnNumber: number }; hitCount?: number }[]; samples: number[]; timeDeltas: number[] } };
+    const { profile } = (await cdp.send("Profiler.stop")) as {
+      profile: { nodes: { id: number; callFrame: { functionName: string; url: string; lineNumber: number; columnNumber: number }; hitCount?: number }[]; samples: number[]; timeDeltas: number[] };
+    };
     const self = new Map<string, number>();
     const byId = new Map(profile.nodes.map((n) => [n.id, n]));
     profile.samples.forEach((id, i) => {
@@ -126,7 +127,13 @@ test(`${N.toLocaleString("en-GB")} queued shots sync from the session screen; th
       const k = `${f.functionName || "(anon)"} ${f.url.split("/").pop()}:${f.lineNumber}:${f.columnNumber}`;
       self.set(k, (self.get(k) ?? 0) + (profile.timeDeltas[i] ?? 0) / 1000);
     });
-    console.info([...self].sort((a, b) => b[1] - a[1]).slice(0, 30).map(([k, v]) => `${v.toFixed(0)} ms ${k}`).join("\n"));
+    console.info(
+      [...self]
+        .sort((a, b) => b[1] - a[1])
+        .slice(0, 30)
+        .map(([k, v]) => `${v.toFixed(0)} ms ${k}`)
+        .join("\n"),
+    );
   }
   console.info(`long tasks while the session screen rendered ${N} shots: ${JSON.stringify(beforeSync)}; during the sync: ${JSON.stringify(duringSync)} (ms)`);
 

@@ -52,7 +52,14 @@ async function queueShots(page: Page, n: number): Promise<{ sessionId: string; s
       for (let i = 0; i < n; i++) {
         const t = targets[i % targets.length]!;
         const row = await f.saveShot(
-          { sessionId: s.id, targetId: t.id, reference: { method: "edm", distanceM: t.referenceM }, readings: { rangesM: [t.referenceM + ((i % 5) - 2) / 1000] }, reflectancePct: t.reflectancePct, illuminanceKlux: 30 },
+          {
+            sessionId: s.id,
+            targetId: t.id,
+            reference: { method: "edm", distanceM: t.referenceM },
+            readings: { rangesM: [t.referenceM + ((i % 5) - 2) / 1000] },
+            reflectancePct: t.reflectancePct,
+            illuminanceKlux: 30,
+          },
           null,
           ctx,
         );
@@ -88,7 +95,11 @@ test("a shot the server fails on is set aside with the server's message; every o
   await context.setOffline(false);
 
   await page.getByTestId("stuck-shot").waitFor({ timeout: 60_000 });
-  await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent === "Waiting: 0 sessions, 0 shots, 0 photos. Set aside, the server fails on them: 1 shot.", undefined, { timeout: 60_000 });
+  await page.waitForFunction(
+    () => document.querySelector('[data-testid="outbox-summary"]')?.textContent === "Waiting: 0 sessions, 0 shots, 0 photos. Set aside, the server fails on them: 1 shot.",
+    undefined,
+    { timeout: 60_000 },
+  );
   console.info("records per request:", sent.join(", "));
   expect(await serverShotCount(sessionId)).toBe(11);
   const card = page.getByTestId("stuck-shot");

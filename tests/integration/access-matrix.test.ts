@@ -265,7 +265,12 @@ test("the membership cases cover every object kind, including photos by id and t
   expect(new Set(CASES.map((c) => c.kind))).toEqual(new Set(["sensor", "shot", "photo", "session", "project"]));
 });
 
-const masked = (a: Answer, id: string) => ({ status: a.status, body: JSON.stringify(a.body ?? null).split(id).join("{id}") });
+const masked = (a: Answer, id: string) => ({
+  status: a.status,
+  body: JSON.stringify(a.body ?? null)
+    .split(id)
+    .join("{id}"),
+});
 
 for (const c of CASES) {
   test(`${c.url} (${c.file}): a member gets their project's ${c.kind}; a non-member gets exactly the unknown id's answer`, async () => {

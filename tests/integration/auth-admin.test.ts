@@ -32,10 +32,8 @@ afterAll(async () => {
   await smtp?.close();
 });
 
-const post = (fields: Record<string, string>, cookie = admin.cookie) =>
-  answerOf(() => adminUsers.action(args(formRequest("/admin/users", fields, { cookie }))));
-const postUser = (id: string, fields: Record<string, string>) =>
-  answerOf(() => adminUser.action(args(formRequest(`/admin/users/${id}`, fields, { cookie: admin.cookie }), { userId: id })));
+const post = (fields: Record<string, string>, cookie = admin.cookie) => answerOf(() => adminUsers.action(args(formRequest("/admin/users", fields, { cookie }))));
+const postUser = (id: string, fields: Record<string, string>) => answerOf(() => adminUser.action(args(formRequest(`/admin/users/${id}`, fields, { cookie: admin.cookie }), { userId: id })));
 
 test("inviting sends the invitation e-mail, adds the user and writes the audit trail; the list shows them", async () => {
   const a = await post({ email: "Mira.Field@Fernhollow.test", name: "Mira Field", role: "crew" });
@@ -50,7 +48,10 @@ test("inviting sends the invitation e-mail, adds the user and writes the audit t
   expect(mails[0]!.text).toMatch(/\/login/);
   const [log] = await getDb().select().from(mailLog).where(eq(mailLog.to, "mira.field@fernhollow.test"));
   expect(log).toMatchObject({ template: "invitation", status: "sent" });
-  const audit = await getDb().select().from(auditLog).where(and(eq(auditLog.action, "user.invite"), eq(auditLog.entityId, u!.id)));
+  const audit = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.action, "user.invite"), eq(auditLog.entityId, u!.id)));
   expect(audit[0]).toMatchObject({ actorUserId: admin.id, detail: { email: "mira.field@fernhollow.test", role: "crew", name: "Mira Field" } });
 
   // The redirect carries the flash message to the list.
@@ -92,7 +93,10 @@ test("role changes are audited, listUserEmailsByRole follows them, and the last 
   expect((await postUser(u!.id, { intent: "role", role: "qa" })).status).toBe(302);
   expect(await listUserEmailsByRole(["crew"])).not.toContain("mira.field@fernhollow.test");
   expect(await listUserEmailsByRole(["qa", "admin"])).toEqual(["mira.field@fernhollow.test", "rowan@fernhollow.test"]);
-  const audit = await getDb().select().from(auditLog).where(and(eq(auditLog.action, "user.role"), eq(auditLog.entityId, u!.id)));
+  const audit = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.action, "user.role"), eq(auditLog.entityId, u!.id)));
   expect(audit[0]!.detail).toEqual({ from: "crew", to: "qa" });
 
   const demote = await postUser(admin.id, { intent: "role", role: "viewer" });

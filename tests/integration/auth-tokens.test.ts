@@ -57,7 +57,10 @@ test("a token made on the admin screen authenticates GET /api/me as its user, an
   const [after] = await getDb().select().from(apiTokens).where(eq(apiTokens.id, row!.id));
   expect(after!.lastUsedAt).not.toBeNull();
 
-  const audits = await getDb().select().from(auditLog).where(and(eq(auditLog.action, "token.create"), eq(auditLog.entityId, row!.id)));
+  const audits = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.action, "token.create"), eq(auditLog.entityId, row!.id)));
   expect(audits).toHaveLength(1);
   expect(audits[0]!.actorUserId).toBe(admin.id);
 });
@@ -79,7 +82,10 @@ test("a revoked token stops working at once", async () => {
   const r = await answerOf(() => adminTokens.action(args(formRequest("/admin/tokens", { intent: "revoke", tokenId: row!.id }, { cookie: admin.cookie }))));
   expect(r.status).toBe(302);
   expect((await me({ bearer: token })).status).toBe(401);
-  const audits = await getDb().select().from(auditLog).where(and(eq(auditLog.action, "token.revoke"), eq(auditLog.entityId, row!.id)));
+  const audits = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.action, "token.revoke"), eq(auditLog.entityId, row!.id)));
   expect(audits).toHaveLength(1);
   // Revoking again answers 404, not a second audit row.
   const again = await answerOf(() => adminTokens.action(args(formRequest("/admin/tokens", { intent: "revoke", tokenId: row!.id }, { cookie: admin.cookie }))));

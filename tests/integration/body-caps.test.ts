@@ -124,9 +124,7 @@ test("an oversize Content-Length is answered 413 before a single byte is read", 
 });
 
 test("a body within its cap is read as before", async () => {
-  const a = await answerOf(() =>
-    theme.action(args(new Request("http://localhost/theme", { method: "POST", headers: FORM, body: new URLSearchParams({ theme: "dark", redirectTo: "/review" }) }))),
-  );
+  const a = await answerOf(() => theme.action(args(new Request("http://localhost/theme", { method: "POST", headers: FORM, body: new URLSearchParams({ theme: "dark", redirectTo: "/review" }) }))));
   expect(a.status).toBe(302);
   expect(a.location).toBe("/review");
 });

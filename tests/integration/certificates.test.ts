@@ -33,7 +33,13 @@ test("certificates due within 30 days are mailed to the admins once each; later 
   await makeSensor({ label: "Roof scanner R7", certNumber: "S-1", certLaboratory: "Lab A", certIssued: "2025-07-01", certDue: "2026-07-01" }); // 30 days: due now
   await makeSensor({ label: "Roof scanner R8", certNumber: "S-2", certLaboratory: "Lab A", certIssued: "2025-07-02", certDue: "2026-07-02" }); // 31 days: not yet
   await makeTape({ label: "Steel tape 50 m", certNumber: "T-9", certLaboratory: "Tape lab", certIssued: "2025-06-10", certDue: "2026-06-10" }); // 9 days
-  const edm = await createEdm("system", { label: "Total station TS-5", serial: "TS5-1", uncertaintyMm: 1, uncertaintyPpm: 1.5, certificate: { number: "E-5", laboratory: "Survey lab", issued: "2025-01-01", due: "2026-05-20" } }); // past due
+  const edm = await createEdm("system", {
+    label: "Total station TS-5",
+    serial: "TS5-1",
+    uncertaintyMm: 1,
+    uncertaintyPpm: 1.5,
+    certificate: { number: "E-5", laboratory: "Survey lab", issued: "2025-01-01", due: "2026-05-20" },
+  }); // past due
   expect(edm.status).toBe(201);
 
   const first = await notifyCertificatesDue({ today });

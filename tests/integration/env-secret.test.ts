@@ -27,7 +27,10 @@ function envWith(nodeEnv: string, secret: string | undefined) {
   return () => getEnv();
 }
 
-const exampleValue = () => readFileSync(resolve(process.cwd(), ".env.example"), "utf8").match(/^SESSION_SECRET=(.*)$/m)![1]!.trim();
+const exampleValue = () =>
+  readFileSync(resolve(process.cwd(), ".env.example"), "utf8")
+    .match(/^SESSION_SECRET=(.*)$/m)![1]!
+    .trim();
 
 test("production refuses a missing SESSION_SECRET, naming the variable and how to make one", () => {
   expect(envWith("production", undefined)).toThrow(/SESSION_SECRET is not set.*openssl rand -base64 48/s);

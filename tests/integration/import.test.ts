@@ -40,7 +40,16 @@ const CSV = [
   "2026-05-06 09:01:00;W85;40.000;abc;63;",
 ].join("\n");
 
-const MAPPING: ImportMapping = { takenAt: "Timestamp", target: "Board", distanceM: "Ref dist [m]", rangeM: "Range [mm]", illuminanceKlux: "Lux [klux]", note: "Comment", _rangeUnit: "mm", _timeOffset: "+02:00" };
+const MAPPING: ImportMapping = {
+  takenAt: "Timestamp",
+  target: "Board",
+  distanceM: "Ref dist [m]",
+  rangeM: "Range [mm]",
+  illuminanceKlux: "Lux [klux]",
+  note: "Comment",
+  _rangeUnit: "mm",
+  _timeOffset: "+02:00",
+};
 
 function parsed() {
   const r = Papa.parse<Record<string, string>>(CSV, { header: true, skipEmptyLines: true, delimiter: "" });
@@ -65,7 +74,10 @@ test("each row maps to a shot or lists every problem it has", () => {
   const out = rows.map((r) => mapRow(r, MAPPING, targets));
   const [a, b, c, d, e, f, g] = out;
   // row 1: no distance in the file, the target's surveyed 12.5 m is used; 12504 mm → 12.504 m
-  expect(a).toMatchObject({ ok: true, shot: { reference: { method: "edm", distanceM: 12.5 }, readings: { rangesM: [12.504] }, reflectancePct: 10, illuminanceKlux: 62, takenAt: "2026-05-06T09:00:00+02:00" } });
+  expect(a).toMatchObject({
+    ok: true,
+    shot: { reference: { method: "edm", distanceM: 12.5 }, readings: { rangesM: [12.504] }, reflectancePct: 10, illuminanceKlux: 62, takenAt: "2026-05-06T09:00:00+02:00" },
+  });
   expect(b).toMatchObject({ ok: true, shot: { reference: { distanceM: 20 }, reflectancePct: 85 } });
   expect(c).toMatchObject({ ok: true, shot: { note: "edge of the board" } });
   expect(d.ok ? [] : d.errors.map((x) => x.field)).toEqual(["takenAt"]);
@@ -104,7 +116,12 @@ test("importing a file of good and bad rows stores the good ones through the ing
   const stored = await getDb()
     .select({ id: shots.id, errorMm: shots.errorMm, referenceM: shots.referenceM, syncedBy: shots.syncedBy })
     .from(shots)
-    .where(inArray(shots.id, rows.map((x) => x.id)));
+    .where(
+      inArray(
+        shots.id,
+        rows.map((x) => x.id),
+      ),
+    );
   expect(stored).toHaveLength(3);
   const first = stored.find((s) => s.id === rows[0]!.id)!;
   // 12.504 m read against the target's 12.5 m: +4 mm (the sensor corrects for air itself)
@@ -117,14 +134,29 @@ test("importing a file of good and bad rows stores the good ones through the ing
   expect(m!.updatedBy).toBe(crew.id);
   const page = (await importPage.loader({ request: apiRequest("/review/import", { user: crew }), params: {}, context: {} } as never)) as Awaited<ReturnType<typeof importPage.loader>>;
   expect(page.mappings[sensor.id]).toMatchObject({ target: "Board" });
-  expect(page.sites.find((s) => s.id === site.id)!.targets.map((t) => t.label).sort()).toEqual(["D10", "W85"]);
+  expect(
+    page.sites
+      .find((s) => s.id === site.id)!
+      .targets.map((t) => t.label)
+      .sort(),
+  ).toEqual(["D10", "W85"]);
 
   // the same file again: nothing twice
   const again = await chunk(crew, rows, sessionId);
   expect(again.status).toBe(200);
   expect(again.json.session.status).toBe("duplicate");
   expect((again.json.rows as { status: string }[]).filter((x) => x.status === "duplicate")).toHaveLength(3);
-  expect(await getDb().select({ id: shots.id }).from(shots).where(inArray(shots.id, rows.map((x) => x.id)))).toHaveLength(3);
+  expect(
+    await getDb()
+      .select({ id: shots.id })
+      .from(shots)
+      .where(
+        inArray(
+          shots.id,
+          rows.map((x) => x.id),
+        ),
+      ),
+  ).toHaveLength(3);
 });
 
 test("the import route: 401 signed out, 403 for a viewer, 400 with field errors for a bad request", async () => {
@@ -136,7 +168,11 @@ test("the import route: 401 signed out, 403 for a viewer, 400 with field errors 
   expect((bad.json.errors as { field: string }[]).map((e) => e.field)).toEqual(expect.arrayContaining(["siteId", "session", "rows"]));
   const noMap = await call(
     chunkRoute.action as never,
-    apiRequest("/review/import/chunk", { user: crew, method: "POST", json: { sensorId: sensor.id, siteId: site.id, session: { id: crypto.randomUUID(), startedAt: "2026-05-06T09:00:00+02:00" }, mapping: {}, rows } }),
+    apiRequest("/review/import/chunk", {
+      user: crew,
+      method: "POST",
+      json: { sensorId: sensor.id, siteId: site.id, session: { id: crypto.randomUUID(), startedAt: "2026-05-06T09:00:00+02:00" }, mapping: {}, rows },
+    }),
   );
   expect(noMap.status).toBe(400);
   expect((noMap.json.errors as { field: string }[]).map((e) => e.field)).toEqual(expect.arrayContaining(["mapping.takenAt", "mapping.rangeM"]));

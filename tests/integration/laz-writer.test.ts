@@ -41,13 +41,16 @@ function busyRecords(n: number, seed: number, pointFormat: 0 | 1 = 0) {
       if (u < 0.02) {
         line = (line + 1 + Math.floor(r.uniform() * 3)) % 4;
         gps = lines[line] + r.uniform() * 10;
-      }
-      else if (u < 0.3) {
+      } else if (u < 0.3) {
         /* another return of the same pulse: the same time */
-      } else if (u < 0.33) gps += r.uniform() * 5; // a gap
-      else if (u < 0.35) gps -= r.uniform() * 1e-3; // a step back
-      else if (u < 0.4) gps += 1e-5 * (2 + Math.floor(r.uniform() * 8)); // a few pulses missed
-      else if (u < 0.43) gps += 1e-5 * (10 + Math.floor(r.uniform() * 480)); // many missed
+      } else if (u < 0.33)
+        gps += r.uniform() * 5; // a gap
+      else if (u < 0.35)
+        gps -= r.uniform() * 1e-3; // a step back
+      else if (u < 0.4)
+        gps += 1e-5 * (2 + Math.floor(r.uniform() * 8)); // a few pulses missed
+      else if (u < 0.43)
+        gps += 1e-5 * (10 + Math.floor(r.uniform() * 480)); // many missed
       else gps += 1e-5 * (1 + (i % 3 === 0 ? 0 : r.uniform() * 1e-3));
       lines[line] = gps;
       dv.setFloat64(at + 20, gps, true);

@@ -27,7 +27,10 @@ afterAll(async () => {
 
 const asActor = (u: { id: string; role: "admin" | "qa" | "crew" | "viewer"; email: string }) => ({ id: u.id, role: u.role, email: u.email });
 const auditRows = (projectId: string) =>
-  getDb().select().from(auditLog).where(and(eq(auditLog.entity, "project"), eq(auditLog.entityId, projectId)));
+  getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "project"), eq(auditLog.entityId, projectId)));
 
 async function status403(p: Promise<unknown>) {
   try {

@@ -65,9 +65,7 @@ test("the sign-in page carries only on-site targets onward", async () => {
     const page = await answerOf(() => login.loader(args(getRequest(`/login?redirectTo=${encodeURIComponent(to)}`))));
     expect((page.body as { redirectTo: string }).redirectTo, JSON.stringify(to)).toBe("/");
   }
-  const a = await answerOf(() =>
-    login.action(args(formRequest("/login", { email: "nobody@elsewhere.test", redirectTo: "/\\evil.example" }, { ip: "192.0.2.9" }))),
-  );
+  const a = await answerOf(() => login.action(args(formRequest("/login", { email: "nobody@elsewhere.test", redirectTo: "/\\evil.example" }, { ip: "192.0.2.9" }))));
   expect(a.status).toBe(302);
   expect(a.location).toBe("/login/code");
 });

@@ -57,7 +57,11 @@ beforeAll(async () => {
 });
 
 afterAll(async () => {
-  for (const [k, v] of [["STORAGE_URL", saved.url], ["STORAGE_ACCESS_KEY_ID", saved.id], ["STORAGE_SECRET_ACCESS_KEY", saved.secret]] as const) {
+  for (const [k, v] of [
+    ["STORAGE_URL", saved.url],
+    ["STORAGE_ACCESS_KEY_ID", saved.id],
+    ["STORAGE_SECRET_ACCESS_KEY", saved.secret],
+  ] as const) {
     if (v === undefined) delete process.env[k];
     else process.env[k] = v;
   }

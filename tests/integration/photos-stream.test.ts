@@ -86,7 +86,7 @@ function photoBody(id: string, fileBytes: number, probeAt = Infinity) {
           const n = Math.min(CHUNK, fileBytes - sent);
           chunk = new Uint8Array(n);
           // a varied payload (not all zeros) so the checksum would notice a lost or doubled chunk
-          for (let i = 0; i < n; i++) chunk[i] = (sent + i) * 31 % 251;
+          for (let i = 0; i < n; i++) chunk[i] = ((sent + i) * 31) % 251;
           if (sent === 0) chunk.set(JPEG_START);
           hash.update(chunk);
           sent += n;

@@ -74,7 +74,19 @@ test("an exclusion, then a new shot, each make a new version; older versions sta
   const shotId = crypto.randomUUID();
   const answer = await ingestSync(w.users.crew, {
     deviceId: "tablet-late",
-    shots: [{ id: shotId, sessionId: session.id, takenAt: "2026-05-04T11:59:00+02:00", targetId: w.darkTargetId, reference: { method: "edm", distanceM: 20 }, readings: { rangesM: [20.0007] }, reflectancePct: 10, illuminanceKlux: 6, position: { lat: 10.0002, lon: -30.0, accuracyM: 3 } }],
+    shots: [
+      {
+        id: shotId,
+        sessionId: session.id,
+        takenAt: "2026-05-04T11:59:00+02:00",
+        targetId: w.darkTargetId,
+        reference: { method: "edm", distanceM: 20 },
+        readings: { rangesM: [20.0007] },
+        reflectancePct: 10,
+        illuminanceKlux: 6,
+        position: { lat: 10.0002, lon: -30.0, accuracyM: 3 },
+      },
+    ],
   });
   expect((answer.body as { results: { status: string }[] }).results.map((r) => r.status)).toEqual(["accepted"]);
   const v3 = (await currentProjectReport(viewer(), w.project.id))!;
@@ -112,7 +124,9 @@ test("the statement follows the rule: RMSE with n and the reference by default, 
   for (const s of rmse.content.sensors) {
     const f = s.figures!;
     // ranging.md §7: "Tested … range RMSE against n check-shots, reference …"; the EDM references here have no uncertainty → not included
-    expect(s.statementSentence).toBe(`Tested ${f.rmseMm!.toFixed(1)} mm range RMSE against ${f.n} check-shots, reference not included (its uncertainty is unknown for ${f.referenceUnknownN} check-shots).`);
+    expect(s.statementSentence).toBe(
+      `Tested ${f.rmseMm!.toFixed(1)} mm range RMSE against ${f.n} check-shots, reference not included (its uncertainty is unknown for ${f.referenceUnknownN} check-shots).`,
+    );
   }
   // the rule now names an EDM uncertainty: the reference enters in quadrature (ASPRS Edition 2, 2023)
   await db.update(projects).set({ edmUncertaintyMm: 1, edmUncertaintyPpm: 0 }).where(eq(projects.id, w.project.id));
@@ -138,7 +152,9 @@ test("the statement follows the rule: RMSE with n and the reference by default, 
     expect(s.statementSentence).toBe(`Tested ${(1.96 * f.rmseMm!).toFixed(1)} mm range accuracy at 95 % confidence level (NSSDA) against ${f.n} check-shots, reference not included.`);
   }
   // the page loader shows the same version
-  const page = (await pageLoader({ request: apiRequest(`/review/projects/${w.project.id}/report`, { user: w.users.viewer }), params: { projectId: w.project.id }, context: {} } as never)) as { shown: { version: number; content: { rule: { statement: string } } } };
+  const page = (await pageLoader({ request: apiRequest(`/review/projects/${w.project.id}/report`, { user: w.users.viewer }), params: { projectId: w.project.id }, context: {} } as never)) as {
+    shown: { version: number; content: { rule: { statement: string } } };
+  };
   expect(page.shown.version).toBe(nssda.version);
   await db.update(projects).set({ statement: "rmse" }).where(eq(projects.id, w.project.id));
 });
@@ -172,7 +188,12 @@ test("the CSV bundle: one shots.csv row per shot of the project, a summary row p
   const photoCol = rows[0]!.indexOf("photos");
   expect(rows.find((r) => r[0] === shot.id)![photoCol]).toBe(`photos/${shot.id}-${photoId}.png`);
   const reasonCol = rows[0]!.indexOf("exclusionReason");
-  expect(rows.slice(2).filter((r) => r[reasonCol]).map((r) => r[reasonCol])).toEqual(["board knocked over by the wind"]);
+  expect(
+    rows
+      .slice(2)
+      .filter((r) => r[reasonCol])
+      .map((r) => r[reasonCol]),
+  ).toEqual(["board knocked over by the wind"]);
 
   expect(Buffer.from(files[`photos/${shot.id}-${photoId}.png`]!).equals(PNG)).toBe(true);
   const summary = Papa.parse<string[]>(strFromU8(files["summary.csv"]!).trim(), { skipEmptyLines: true }).data;

@@ -48,8 +48,7 @@ async function sync(user: TestUser, body: unknown) {
   return r.json.results as { kind: string; id: string; status: string; errors?: { path: string; message: string }[] }[];
 }
 
-const report = (user: TestUser, sensorId: string, query = "") =>
-  call(reportLoader as never, apiRequest(`/api/sensors/${sensorId}/report${query}`, { user }), { sensorId });
+const report = (user: TestUser, sensorId: string, query = "") => call(reportLoader as never, apiRequest(`/api/sensors/${sensorId}/report${query}`, { user }), { sensorId });
 
 beforeAll(async () => {
   [admin, crewA, crewAB, viewerA, viewerB, qaA, outsider] = await Promise.all([

@@ -67,15 +67,28 @@ test("a project is created (201) with its links, members and rule; the same body
   expect(members.map((m) => m.userId).sort()).toEqual([w.crew.id, w.viewer.id].sort());
   expect(members.every((m) => m.addedBy === w.admin.id)).toBe(true);
 
-  const rows = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "project"), eq(auditLog.entityId, id)));
+  const rows = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "project"), eq(auditLog.entityId, id)));
   expect(rows.filter((r) => r.action === "create")).toHaveLength(1);
-  expect(rows.filter((r) => r.action === "member.add").map((r) => (r.detail as { email: string }).email).sort()).toEqual([w.crew.email, w.viewer.email].sort());
+  expect(
+    rows
+      .filter((r) => r.action === "member.add")
+      .map((r) => (r.detail as { email: string }).email)
+      .sort(),
+  ).toEqual([w.crew.email, w.viewer.email].sort());
 
   // The same body again (members in another order): 200, nothing new written.
   const again = await post({ user: w.admin, json: { ...body, memberEmails: [w.viewer.email, w.crew.email] } });
   expect(again.status).toBe(200);
   expect(again.json).toEqual({ id });
-  expect(await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "project"), eq(auditLog.entityId, id)))).toHaveLength(rows.length);
+  expect(
+    await getDb()
+      .select()
+      .from(auditLog)
+      .where(and(eq(auditLog.entity, "project"), eq(auditLog.entityId, id))),
+  ).toHaveLength(rows.length);
 
   // Same id, other members / other rule: 409, and the stored project stays as it was.
   const fewer = await post({ user: w.admin, json: { ...body, memberEmails: [w.crew.email] } });

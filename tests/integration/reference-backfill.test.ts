@@ -33,7 +33,15 @@ beforeAll(async () => {
       json: {
         deviceId: "tablet-b",
         sessions: [{ id: sessionId, sensorId: sensor.id, siteId: site.id, startedAt: "2026-04-02T08:00:00+02:00", airTempC: 15, pressureHpa: 1010, humidityPct: 60 }],
-        shots: refs.map((reference, i) => ({ id: ids[i], sessionId, takenAt: `2026-04-02T09:0${i}:00+02:00`, reference, readings: { rangesM: [reference.distanceM + 0.001] }, reflectancePct: 50, illuminanceKlux: 20 })),
+        shots: refs.map((reference, i) => ({
+          id: ids[i],
+          sessionId,
+          takenAt: `2026-04-02T09:0${i}:00+02:00`,
+          reference,
+          readings: { rangesM: [reference.distanceM + 0.001] },
+          reflectancePct: 50,
+          illuminanceKlux: 20,
+        })),
       },
     }),
   );
@@ -69,5 +77,10 @@ test("shots stored before migration 0002 get their reference uncertainty once, t
   expect(await backfillReferenceUncertainty(db)).toEqual({ ran: false, updated: 0 });
   await migrateDb(db);
   expect((await stored())[0]).toBeNull();
-  expect(await db.select({ n: sql<number>`count(*)` }).from(auditLog).where(eq(auditLog.action, BACKFILL_REFERENCE_UNCERTAINTY_ACTION))).toEqual([{ n: 1 }]);
+  expect(
+    await db
+      .select({ n: sql<number>`count(*)` })
+      .from(auditLog)
+      .where(eq(auditLog.action, BACKFILL_REFERENCE_UNCERTAINTY_ACTION)),
+  ).toEqual([{ n: 1 }]);
 });

@@ -77,8 +77,21 @@ test("an admin creates a sensor through the form: redirect to the list, row and 
   expect(a.status).toBe(302);
   expect(a.location).toBe("/admin/sensors");
   const [row] = await getDb().select().from(sensors).where(eq(sensors.serial, serial));
-  expect(row).toMatchObject({ label: "Roof scanner R1", kind: "pulsed", wavelengthNm: 905, appliesAirCorrection: true, outdoor: true, toleranceMm: 5, tolerancePpm: 10, calibrationDue: "2026-10-01", notes: "Van 2, left rack" });
-  const audit = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, row!.id)));
+  expect(row).toMatchObject({
+    label: "Roof scanner R1",
+    kind: "pulsed",
+    wavelengthNm: 905,
+    appliesAirCorrection: true,
+    outdoor: true,
+    toleranceMm: 5,
+    tolerancePpm: 10,
+    calibrationDue: "2026-10-01",
+    notes: "Van 2, left rack",
+  });
+  const audit = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, row!.id)));
   expect(audit.map((x) => [x.action, x.actorUserId])).toEqual([["create", admin.id]]);
 });
 
@@ -174,7 +187,10 @@ test("editing a sensor's tolerance saves, lands in the audit trail and recompute
   expect(after.errorMm).toBeCloseTo(before.errorMm, 9);
   expect(Math.abs(after.errorMm) > after.limitMm).toBe(!after.within);
 
-  const updates = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, sensorId), eq(auditLog.action, "update")));
+  const updates = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, sensorId), eq(auditLog.action, "update")));
   expect(updates).toHaveLength(1);
   expect(updates[0]!.actorUserId).toBe(admin.id);
   expect(Object.keys(updates[0]!.detail as object).sort()).toEqual(["notes", "serial", "toleranceMm", "tolerancePpm"]);
@@ -183,7 +199,22 @@ test("editing a sensor's tolerance saves, lands in the audit trail and recompute
 
 test("retiring a sensor needs the confirmation, hides it from the list, keeps its row and spec", async () => {
   const admin = await makeUser("admin");
-  const s = await ok(createSensor({ id: admin.id }, { label: `Depth camera ${uid().slice(0, 4)}`, serial: `FH-${uid()}`, kind: "cw", wavelengthNm: 850, modulationHz: [20e6], appliesAirCorrection: true, toleranceMm: 8, tolerancePpm: 0, outdoor: false }));
+  const s = await ok(
+    createSensor(
+      { id: admin.id },
+      {
+        label: `Depth camera ${uid().slice(0, 4)}`,
+        serial: `FH-${uid()}`,
+        kind: "cw",
+        wavelengthNm: 850,
+        modulationHz: [20e6],
+        appliesAirCorrection: true,
+        toleranceMm: 8,
+        tolerancePpm: 0,
+        outdoor: false,
+      },
+    ),
+  );
   const sensorId = s.body.id;
   const unconfirmed = await run(sensorEdit.action as Fn, req(`/admin/sensors/${sensorId}`, admin, form({ intent: "retire" })), { sensorId });
   expect(unconfirmed.status).toBe(400);
@@ -201,7 +232,10 @@ test("retiring a sensor needs the confirmation, hides it from the list, keeps it
   const withRetired = await run(sensorList.loader as Fn, req("/admin/sensors?retired=show", admin));
   expect((withRetired.body as { sensors: { id: string; retiredAt: string | null }[] }).sensors.find((x) => x.id === sensorId)?.retiredAt).toBe(row!.retiredAt);
 
-  const audit = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, sensorId), eq(auditLog.action, "retire")));
+  const audit = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, sensorId), eq(auditLog.action, "retire")));
   expect(audit[0]!.detail).toEqual({ reason: "Lens cracked" });
 
   const restored = await run(sensorEdit.action as Fn, req(`/admin/sensors/${sensorId}`, admin, form({ intent: "restore" })), { sensorId });
@@ -314,14 +348,16 @@ test("bad values in a site's rows each get their message at the row's field, wit
 
 test("editing a site: a removed target is retired (not deleted), a new row is added, kept rows updated", async () => {
   const admin = await makeUser("admin");
-  const created = await ok(createSite(null, {
-    name: `Yard baseline ${uid().slice(0, 6)}`,
-    stations: [{ label: "S1", grid: { e: 0, n: 0, h: 100 } }],
-    targets: [
-      { label: "T1", reflectancePct: 10, referenceM: 5 },
-      { label: "T2", reflectancePct: 50, referenceM: 15 },
-    ],
-  }));
+  const created = await ok(
+    createSite(null, {
+      name: `Yard baseline ${uid().slice(0, 6)}`,
+      stations: [{ label: "S1", grid: { e: 0, n: 0, h: 100 } }],
+      targets: [
+        { label: "T1", reflectancePct: 10, referenceM: 5 },
+        { label: "T2", reflectancePct: 50, referenceM: 15 },
+      ],
+    }),
+  );
   const siteId = created.body.id;
   const [t1, t2] = created.body.targets as { id: string; label: string }[];
   const [s1] = created.body.stations as { id: string }[];
@@ -350,7 +386,10 @@ test("editing a site: a removed target is retired (not deleted), a new row is ad
   expect(byLabel.T2!.retiredAt).toBeNull();
   expect(byLabel.T3!.reflectancePct).toBe(85);
   expect((await getDb().select().from(stations).where(eq(stations.siteId, siteId)))[0]!.retiredAt).toBeNull();
-  const [log] = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "site"), eq(auditLog.entityId, siteId), eq(auditLog.action, "update")));
+  const [log] = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "site"), eq(auditLog.entityId, siteId), eq(auditLog.action, "update")));
   expect(log!.detail).toMatchObject({ site: { name: { to: "Yard baseline (resurveyed)" } }, targets: { added: ["T3"], changed: ["T2"], retired: ["T1"] } });
 
   const retire = await run(siteEdit.action as Fn, req(`/admin/sites/${siteId}`, admin, form({ intent: "retire", confirm: "yes" })), { siteId });
@@ -381,7 +420,14 @@ test("a project with the default rule links its sensors and sites; bad rule fiel
   expect(unknown.status).toBe(400);
   expect((unknown.body as Reply).result.error["sensorIds[1]"]).toEqual(['No sensor with id "no-such-sensor"']);
 
-  const saved = await run(projectNew.action as Fn, req("/admin/projects/new", admin, form({ name, client: "Fernhollow Geomatics", minShots: "20", coverageK: "2", minWithinPct: "95", rangeBandEdgesM: "0, 10, 30, 100", sensorIds: [s.body.id], siteIds: [site.body.id] })));
+  const saved = await run(
+    projectNew.action as Fn,
+    req(
+      "/admin/projects/new",
+      admin,
+      form({ name, client: "Fernhollow Geomatics", minShots: "20", coverageK: "2", minWithinPct: "95", rangeBandEdgesM: "0, 10, 30, 100", sensorIds: [s.body.id], siteIds: [site.body.id] }),
+    ),
+  );
   expect(saved.status).toBe(302);
   const list = await run(projectList.loader as Fn, req("/admin/projects", admin));
   const row = (list.body as { projects: { id: string; name: string; sensorLabels: string }[] }).projects.find((p) => p.name === name)!;
@@ -411,7 +457,11 @@ test("changing a project's coverage factor recomputes the limits of its shots (L
   expect((await getDb().select().from(shots).where(eq(shots.id, shotId)))[0]!.limitMm).toBeCloseTo(6, 9); // 2 × 3 mm
   const edit = await run(
     projectEdit.action as Fn,
-    req(`/admin/projects/${projectId}`, admin, form({ name: "Valley road", minShots: "20", coverageK: "1", minWithinPct: "95", rangeBandEdgesM: "0, 10, 30, 100", sensorIds: [s.body.id], siteIds: [site.body.id] })),
+    req(
+      `/admin/projects/${projectId}`,
+      admin,
+      form({ name: "Valley road", minShots: "20", coverageK: "1", minWithinPct: "95", rangeBandEdgesM: "0, 10, 30, 100", sensorIds: [s.body.id], siteIds: [site.body.id] }),
+    ),
     { projectId },
   );
   expect(edit.status).toBe(302);

@@ -93,8 +93,21 @@ test("a sensor is created (201), the same body again is 200 with the same id, ot
   expect(other.json.error).toContain(id);
 
   const [row] = await getDb().select().from(sensors).where(eq(sensors.id, id));
-  expect(row).toMatchObject({ label: "Tripod scanner T2", kind: "pulsed", wavelengthNm: 1550, appliesAirCorrection: false, assumedRefractivity: 281.8, toleranceMm: 3, tolerancePpm: 10, calibrationDue: "2026-09-30", modulationHz: [] });
-  const audits = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, id)));
+  expect(row).toMatchObject({
+    label: "Tripod scanner T2",
+    kind: "pulsed",
+    wavelengthNm: 1550,
+    appliesAirCorrection: false,
+    assumedRefractivity: 281.8,
+    toleranceMm: 3,
+    tolerancePpm: 10,
+    calibrationDue: "2026-09-30",
+    modulationHz: [],
+  });
+  const audits = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, id)));
   expect(audits.map((a) => [a.action, a.actorUserId])).toEqual([["create", admin.id]]);
 });
 
@@ -180,7 +193,9 @@ test("a tape: 201, same body 200, other content 409, bad fields 400", async () =
 // ---------- sites ----------
 test("a site with stations and targets: 201 lists their ids in order; same body 200 with the same answer", async () => {
   const admin = await makeUser("admin");
-  const body = siteBody({ id: `site-${uid()}`, targets: [...siteBody().targets.slice(0, 2), { id: `tgt-${uid()}`, label: "P50-prism", reflectancePct: 100, retro: true }] }) as ReturnType<typeof siteBody> & {
+  const body = siteBody({ id: `site-${uid()}`, targets: [...siteBody().targets.slice(0, 2), { id: `tgt-${uid()}`, label: "P50-prism", reflectancePct: 100, retro: true }] }) as ReturnType<
+    typeof siteBody
+  > & {
     id: string;
     targets: { id?: string; label: string }[];
   };
@@ -195,10 +210,16 @@ test("a site with stations and targets: 201 lists their ids in order; same body 
   expect(again.status).toBe(200);
   expect(again.json).toEqual(first.json);
 
-  const rows = await getDb().select().from(targets).where(eq(targets.siteId, body.id as string));
+  const rows = await getDb()
+    .select()
+    .from(targets)
+    .where(eq(targets.siteId, body.id as string));
   const dark = rows.find((t) => t.label === "T10-dark")!;
   expect(dark).toMatchObject({ reflectancePct: 10, referenceM: 10.002, gridE: 1010, gridN: 2000.1, gridH: 512.4, retro: false });
-  const [st] = await getDb().select().from(stations).where(eq(stations.siteId, body.id as string));
+  const [st] = await getDb()
+    .select()
+    .from(stations)
+    .where(eq(stations.siteId, body.id as string));
   expect(st).toMatchObject({ label: "S1", gridE: 1000, gridN: 2000, gridH: 512.3, lat: null });
 
   const changed = await post(sitesAction, "/api/sites", { user: admin, json: { ...body, targets: body.targets.slice(0, 2) } });

@@ -124,8 +124,14 @@ beforeAll(async () => {
   // session A reads about 3 mm long, session B about 3 mm short
   await sync(
     [
-      [5, 3.1, "A"], [15, 2.9, "A"], [40, 3.2, "A"], [5, 2.8, "A"],
-      [5, -3.0, "B"], [15, -2.7, "B"], [40, -3.3, "B"], [15, -2.9, "B"],
+      [5, 3.1, "A"],
+      [15, 2.9, "A"],
+      [40, 3.2, "A"],
+      [5, 2.8, "A"],
+      [5, -3.0, "B"],
+      [15, -2.7, "B"],
+      [40, -3.3, "B"],
+      [15, -2.9, "B"],
     ],
     true,
   );
@@ -145,7 +151,10 @@ test("a repeated view gives the same bytes; a new sync shows up in the next one"
   expect(first.headers.get("Content-Type")).toBe("application/json");
   expect(Number(first.headers.get("Content-Length"))).toBe(new TextEncoder().encode(first.text).byteLength);
   expectFigures(first.json);
-  await sync([[40, 2.5, "A"], [5, -2.2, "B"]]);
+  await sync([
+    [40, 2.5, "A"],
+    [5, -2.2, "B"],
+  ]);
   const after = await report();
   expect(after.n).toBe(10);
   expectFigures(after);
@@ -161,7 +170,9 @@ test("an exclusion and its restore each show in the next report", async () => {
   const R = await report();
   expectFigures(R);
   expect(R.shots.find((s: { id: string }) => s.id === target.id).excluded).toBe(true);
-  const back = await call(exclusionAction, apiRequest(`/api/shots/${target.id}/exclusion`, { user: qa, method: "DELETE", json: { reason: "board was fine, checked the photo" } }), { shotId: target.id });
+  const back = await call(exclusionAction, apiRequest(`/api/shots/${target.id}/exclusion`, { user: qa, method: "DELETE", json: { reason: "board was fine, checked the photo" } }), {
+    shotId: target.id,
+  });
   expect(back.status).toBe(200);
   target.excluded = false;
   const R2 = await report();
@@ -174,7 +185,10 @@ test("a period or session view is kept apart and follows the changes too", async
   expect(onlyA.n).toBe(included().filter((k) => k.ses === "A").length);
   const day5 = await report("?from=2026-05-05&to=2026-05-05");
   expect(day5.n).toBe(included().filter((k) => k.ses === "B").length);
-  await sync([[15, 3.4, "A"], [40, -3.1, "B"]]);
+  await sync([
+    [15, 3.4, "A"],
+    [40, -3.1, "B"],
+  ]);
   expect((await report(`?session=${sessions.A}`)).n).toBe(onlyA.n + 1);
   expect((await report("?from=2026-05-05&to=2026-05-05")).n).toBe(day5.n + 1);
   expectFigures(await report());
@@ -240,7 +254,15 @@ test("a spec edit that recomputes the stored errors (assumed refractivity) shows
 test("a rule edit of the project shows its coverage factor in the next report", async () => {
   const before = await report();
   expect(before.rule).toMatchObject({ minShots: 4, coverageK: 2, minWithinPct: 50 });
-  const u = await updateProject({ id: admin.id }, projectId, { name: "River valley corridor", client: "Fernhollow Geomatics", minShots: 4, coverageK: 3, minWithinPct: 50, sensorIds: [sensorId], siteIds: [siteId] });
+  const u = await updateProject({ id: admin.id }, projectId, {
+    name: "River valley corridor",
+    client: "Fernhollow Geomatics",
+    minShots: 4,
+    coverageK: 3,
+    minWithinPct: 50,
+    sensorIds: [sensorId],
+    siteIds: [siteId],
+  });
   expect(u.status).toBe(200);
   const R = await report();
   expect(R.rule).toMatchObject({ minShots: 4, coverageK: 3, minWithinPct: 50 });
@@ -292,7 +314,10 @@ test("shots synced here and through another instance between two views all show,
   expect((a.body as { results: { status: string }[] }).results.map((r) => r.status)).toEqual(["accepted", "accepted"]);
   for (const m of theirs) known.push({ id: m.id, D: m.D, e: m.e, ses: m.ses, excluded: false, takenAt: m.takenAt });
   // …and this one another: it holds its own new rows, not the other instance's
-  await sync([[5, 2.9, "A"], [15, -3.0, "B"]]);
+  await sync([
+    [5, 2.9, "A"],
+    [15, -3.0, "B"],
+  ]);
   expectFigures(await report());
   const R = await report("?include=shots");
   expectFigures(R);
@@ -304,7 +329,11 @@ test("shots synced here and through another instance between two views all show,
 
 test("a kept report equals one computed from nothing on another handle, and the rows path agrees", async () => {
   await report();
-  await sync([[40, 3.0, "A"], [15, -3.2, "B"], [5, 2.7, "A"]]);
+  await sync([
+    [40, 3.0, "A"],
+    [15, -3.2, "B"],
+    [5, 2.7, "A"],
+  ]);
   const target = known[known.length - 2]!; // one of the shots just appended
   const ex = await call(exclusionAction, apiRequest(`/api/shots/${target.id}/exclusion`, { user: qa, json: { reason: "tripod kicked during the reading" } }), { shotId: target.id });
   expect(ex.status).toBe(200);

@@ -15,7 +15,7 @@ beforeAll(async () => {
   const crew = await makeUser("crew");
   viewer = await makeUser("viewer");
   sensorId = (await makeSensor({ label: "Roof scanner R1 / 905" })).id;
-  const site = await makeSite({ targets: [{ label: "=HYPERLINK(\"http://x.invalid\")", reflectancePct: 10 }] });
+  const site = await makeSite({ targets: [{ label: '=HYPERLINK("http://x.invalid")', reflectancePct: 10 }] });
   await shareProject([{ id: sensorId }], [site], [crew, viewer]); // issue 14
   const sessionId = crypto.randomUUID();
   const notes = ["=1+2", "+49 tablet", "-mud on the board", "@SUM(A1)", "plain note"];
@@ -47,7 +47,23 @@ test("the CSV has a names row, a units row and one row per shot", async () => {
   expect(a.headers.get("Content-Type")).toBe("text/csv; charset=utf-8");
   expect(a.headers.get("Content-Disposition")).toMatch(/^attachment; filename="report-Roof-scanner-R1-905-shots\.csv"$/);
   const rows = Papa.parse<string[]>(a.text.trim(), { skipEmptyLines: true }).data;
-  expect(rows[0]).toEqual(["shotId", "takenAt", "sessionId", "target", "referenceM", "rangeM", "errorMm", "limitMm", "within", "repeatabilityMm", "reflectancePct", "illuminanceKlux", "excluded", "flags", "note"]);
+  expect(rows[0]).toEqual([
+    "shotId",
+    "takenAt",
+    "sessionId",
+    "target",
+    "referenceM",
+    "rangeM",
+    "errorMm",
+    "limitMm",
+    "within",
+    "repeatabilityMm",
+    "reflectancePct",
+    "illuminanceKlux",
+    "excluded",
+    "flags",
+    "note",
+  ]);
   expect(rows[1]).toEqual(["", "ISO 8601", "", "", "m", "m", "mm", "mm", "yes/no", "mm", "%", "klux", "yes/no", "", ""]);
   expect(rows).toHaveLength(2 + 5);
   expect(rows.slice(2).map((r) => r[0])).toEqual(shotIds);
@@ -58,7 +74,7 @@ test("formula-like text is neutralised, negative numbers stay plain numbers", as
   const rows = Papa.parse<string[]>(a.text.trim(), { skipEmptyLines: true }).data.slice(2);
   const col = (name: string) => Papa.parse<string[]>(a.text.trim()).data[0]!.indexOf(name);
   expect(rows.map((r) => r[col("note")])).toEqual(["'=1+2", "'+49 tablet", "'-mud on the board", "'@SUM(A1)", "plain note"]);
-  expect(rows[0]![col("target")]).toBe("'=HYPERLINK(\"http://x.invalid\")");
+  expect(rows[0]![col("target")]).toBe('\'=HYPERLINK("http://x.invalid")');
   // e = (20 − 0.001 − 20)·1000 = −1 mm …: a number, unquoted, with its minus sign
   rows.forEach((r, i) => {
     expect(Number(r[col("errorMm")])).toBeCloseTo(-(i + 1), 9);

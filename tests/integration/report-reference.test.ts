@@ -54,7 +54,13 @@ beforeAll(async () => {
     edmAction,
     apiRequest("/api/edms", {
       user: admin,
-      json: { label: "Total station TS-2", serial: "TS2-4471", uncertaintyMm: 1, uncertaintyPpm: 2, certificate: { number: "E-12", laboratory: "Survey lab", issued: "2026-01-05", due: "2027-01-05" } },
+      json: {
+        label: "Total station TS-2",
+        serial: "TS2-4471",
+        uncertaintyMm: 1,
+        uncertaintyPpm: 2,
+        certificate: { number: "E-12", laboratory: "Survey lab", issued: "2026-01-05", due: "2027-01-05" },
+      },
     }),
   );
   expect(edm.status).toBe(201);
@@ -158,7 +164,7 @@ test("zero offset t against jstat's t quantile (ν = n − 2)", async () => {
   const R = (await report()).json;
   // OLS e = δ + κ·D by the normal equations, SE(δ) with s² = Σr²/(n − 2)
   const d = rows.map((r) => r.D);
-  const e = rows.map((r) => ((r.D + r.e / 1000) - r.D) * 1000);
+  const e = rows.map((r) => (r.D + r.e / 1000 - r.D) * 1000);
   const n = d.length;
   const dm = d.reduce((s, v) => s + v, 0) / n;
   const em = e.reduce((s, v) => s + v, 0) / n;
@@ -216,15 +222,29 @@ test("a certificate or EDM edit shows in the next report (the report cache's fin
   const before = (await report(`?session=${A}`)).json;
   expect(before.traceability.find((t: { kind: string }) => t.kind === "tape").due).toBe("2026-05-04");
   const tapeBody = {
-    label: "Steel tape 30 m", standardTempC: 20, standardTensionN: 50, areaMm2: 2.6, modulusGPa: 200, weightNPerM: 0.2, calibrationPpm: 0,
-    uncertaintyMm: 0.5, uncertaintyPpm: 20, certificate: { number: "T-78", laboratory: "Tape lab", issued: "2026-04-01", due: "2026-04-30" },
+    label: "Steel tape 30 m",
+    standardTempC: 20,
+    standardTensionN: 50,
+    areaMm2: 2.6,
+    modulusGPa: 200,
+    weightNPerM: 0.2,
+    calibrationPpm: 0,
+    uncertaintyMm: 0.5,
+    uncertaintyPpm: 20,
+    certificate: { number: "T-78", laboratory: "Tape lab", issued: "2026-04-01", due: "2026-04-30" },
   };
   expect((await updateTape({ id: admin.id }, tapeId, tapeBody)).status).toBe(200);
   const after = (await report(`?session=${A}`)).json;
   const tape = after.traceability.find((t: { kind: string }) => t.kind === "tape");
   expect(tape).toMatchObject({ number: "T-78", due: "2026-04-30", expiredOnSessions: [A] });
   // the named EDM's uncertainty: 4 + 0 × 50 → u = 4 mm on that shot; the sum changes accordingly
-  const e = await updateEdm({ id: admin.id }, edmId, { label: "Total station TS-2", serial: "TS2-4471", uncertaintyMm: 4, uncertaintyPpm: 0, certificate: { number: "E-12", laboratory: "Survey lab", issued: "2026-01-05", due: "2027-01-05" } });
+  const e = await updateEdm({ id: admin.id }, edmId, {
+    label: "Total station TS-2",
+    serial: "TS2-4471",
+    uncertaintyMm: 4,
+    uncertaintyPpm: 0,
+    certificate: { number: "E-12", laboratory: "Survey lab", issued: "2026-01-05", due: "2027-01-05" },
+  });
   expect(e.status).toBe(200);
   const again = (await report(`?session=${A}`)).json;
   expect(again.referenceRmseMm).toBeCloseTo(Math.sqrt((0.09 + 25 + 16 + 4.3264) / 4), 9);

@@ -14,9 +14,24 @@ import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, make
 // [reference D (m), error (mm), session]; D on the default band edges 10, 30 and 100 m on purpose
 type Row = [number, number, "A" | "B"];
 const DATA: Row[] = [
-  [10, 1.0, "A"], [10, 1.0, "A"], [10, 1.0, "A"], [10, 2.0, "A"], [30, 2.0, "A"], [30, -1.0, "A"],
-  [100, 0.5, "A"], [100, 3.0, "A"], [9.999, 1.0, "A"], [29.999, -2.5, "A"], [99.999, 1.5, "A"],
-  [10, 1.0, "B"], [30, 2.0, "B"], [100, 0.5, "B"], [5, 1.5, "B"], [5, 1.5, "B"], [150, 60.0, "B"], [150, -0.5, "B"],
+  [10, 1.0, "A"],
+  [10, 1.0, "A"],
+  [10, 1.0, "A"],
+  [10, 2.0, "A"],
+  [30, 2.0, "A"],
+  [30, -1.0, "A"],
+  [100, 0.5, "A"],
+  [100, 3.0, "A"],
+  [9.999, 1.0, "A"],
+  [29.999, -2.5, "A"],
+  [99.999, 1.5, "A"],
+  [10, 1.0, "B"],
+  [30, 2.0, "B"],
+  [100, 0.5, "B"],
+  [5, 1.5, "B"],
+  [5, 1.5, "B"],
+  [150, 60.0, "B"],
+  [150, -0.5, "B"],
   [5, 9.0, "B"], // excluded below
 ];
 const EXCLUDED = 18;
@@ -125,11 +140,16 @@ test("odd n (one session) and its period: the middle order statistic itself", as
 test("the outlier flag follows |e − median| > 3 · 1.4826 · MAD over the included shots, ties and all", async () => {
   const e = included.map(errOf);
   const med = type7(e, 0.5);
-  const madv = type7(e.map((v) => Math.abs(v - med)), 0.5);
+  const madv = type7(
+    e.map((v) => Math.abs(v - med)),
+    0.5,
+  );
   const cut = 3 * 1.4826 * madv;
   const R = (await get("?include=shots", admin)).json;
   const flagged = new Set(R.shots.filter((s: { flags: string[] }) => s.flags.includes("outlier")).map((s: { id: string }) => s.id));
-  const expected = DATA.map((r, i) => [ids[i]!, Math.abs(errOf(r) - med) > cut] as const).filter(([, f]) => f).map(([id]) => id);
+  const expected = DATA.map((r, i) => [ids[i]!, Math.abs(errOf(r) - med) > cut] as const)
+    .filter(([, f]) => f)
+    .map(([id]) => id);
   expect([...flagged].sort()).toEqual(expected.sort());
   expect(flagged.has(ids[16]!)).toBe(true); // the 60 mm shot
   expect(flagged.has(ids[EXCLUDED]!)).toBe(true); // judged against the included shots, flagged all the same

@@ -15,12 +15,30 @@ const J = jStat as { studentt: { inv(p: number, df: number): number }; chisquare
 // [reference D (m), error (mm), reflectance (%), illuminance (klux) | null, session, retro target]
 type Row = [number, number, number, number | null, "A" | "B", boolean?];
 const DATA: Row[] = [
-  [5, 1.1, 10, 5, "A"], [5, -0.6, 85, 5, "A"], [5, 0.9, 10, 20, "A"], [5, 1.8, 85, 20, "A"],
-  [15, 0.4, 10, 20, "A"], [15, 2.2, 85, 80, "A"], [15, -1.3, 50, 80, "A"], [15, 0.7, 10, 80, "A"],
-  [40, 1.5, 85, 80, "A"], [40, 2.9, 10, 80, "A"], [40, -0.2, 50, null, "A"], [40, 1.0, 85, 20, "A"],
-  [120, 3.05, 10, 5, "B"], [120, 0.8, 85, 5, "B"], [120, 2.4, 85, 20, "B"], [120, -0.9, 50, 20, "B"],
-  [15, 1.6, 10, 80, "B"], [40, 0.3, 10, 80, "B"], [5, 1.2, 85, 5, "B"], [5, 0.1, 10, 5, "B", true],
-  [40, 1.9, 50, 20, "B"], [120, 2.0, 10, 80, "B"], [15, -0.4, 85, 80, "B"], [40, 25.0, 85, 80, "B"],
+  [5, 1.1, 10, 5, "A"],
+  [5, -0.6, 85, 5, "A"],
+  [5, 0.9, 10, 20, "A"],
+  [5, 1.8, 85, 20, "A"],
+  [15, 0.4, 10, 20, "A"],
+  [15, 2.2, 85, 80, "A"],
+  [15, -1.3, 50, 80, "A"],
+  [15, 0.7, 10, 80, "A"],
+  [40, 1.5, 85, 80, "A"],
+  [40, 2.9, 10, 80, "A"],
+  [40, -0.2, 50, null, "A"],
+  [40, 1.0, 85, 20, "A"],
+  [120, 3.05, 10, 5, "B"],
+  [120, 0.8, 85, 5, "B"],
+  [120, 2.4, 85, 20, "B"],
+  [120, -0.9, 50, 20, "B"],
+  [15, 1.6, 10, 80, "B"],
+  [40, 0.3, 10, 80, "B"],
+  [5, 1.2, 85, 5, "B"],
+  [5, 0.1, 10, 5, "B", true],
+  [40, 1.9, 50, 20, "B"],
+  [120, 2.0, 10, 80, "B"],
+  [15, -0.4, 85, 80, "B"],
+  [40, 25.0, 85, 80, "B"],
 ];
 const OUTLIER_INDEX = 23;
 const A_TOL = 5; // mm
@@ -65,21 +83,18 @@ beforeAll(async () => {
   });
   const a = await call(syncAction, apiRequest("/api/sync", { user: crew, json: { deviceId: "tablet-3", sessions, shots } }));
   expect(a.json.results.every((r: { status: string }) => r.status === "accepted")).toBe(true);
-  const ex = await call(
-    exclusionAction,
-    apiRequest(`/api/shots/${ids[OUTLIER_INDEX]}/exclusion`, { user: qa, json: { reason: "target board blown over by a passing lorry" } }),
-    { shotId: ids[OUTLIER_INDEX]! },
-  );
+  const ex = await call(exclusionAction, apiRequest(`/api/shots/${ids[OUTLIER_INDEX]}/exclusion`, { user: qa, json: { reason: "target board blown over by a passing lorry" } }), {
+    shotId: ids[OUTLIER_INDEX]!,
+  });
   expect(ex.status).toBe(200);
 });
 
-const report = (query = "", user: TestUser = viewer, id = sensorId) =>
-  call(reportLoader, apiRequest(`/api/sensors/${id}/report${query}`, { user }), { sensorId: id });
+const report = (query = "", user: TestUser = viewer, id = sensorId) => call(reportLoader, apiRequest(`/api/sensors/${id}/report${query}`, { user }), { sensorId: id });
 /** The same with the per-shot rows (api.md v1.1 `include=shots`): its figures come from the rows path. */
 const reportWithShots = (query = "", user: TestUser = viewer, id = sensorId) => report(`${query}${query ? "&" : "?"}include=shots`, user, id);
 
 // ---------- first principles ----------
-const errOf = ([D, e]: Row) => ((D + e / 1000) - D) * 1000; // the same float the server stores
+const errOf = ([D, e]: Row) => (D + e / 1000 - D) * 1000; // the same float the server stores
 const meanOf = (x: number[]) => x.reduce((s, v) => s + v, 0) / x.length;
 const sdOf = (x: number[]) => {
   const m = meanOf(x);
@@ -94,7 +109,10 @@ const type7 = (x: number[], p: number) => {
 };
 const limitOf = (D: number, k: number) => k * (A_TOL + (B_TOL * D) / 1000);
 
-const bothPaths = [["from the sums and the error index", report], ["with include=shots, from the rows", reportWithShots]] as const;
+const bothPaths = [
+  ["from the sums and the error index", report],
+  ["with include=shots, from the rows", reportWithShots],
+] as const;
 
 test.each(bothPaths)("the report's figures match the ones worked out here from the definitions (%s)", async (_, get) => {
   const r = await get();
@@ -207,9 +225,19 @@ test("shot rows carry the exclusion, the outlier flag and each shot's own limit"
   // outlier: |e − median| > 3 · 1.4826 · MAD over the included shots (ranging.md §4)
   const e = DATA.filter((_, i) => i !== OUTLIER_INDEX).map(errOf);
   const med = type7(e, 0.5);
-  const madv = type7(e.map((v) => Math.abs(v - med)), 0.5);
-  const flagged = DATA.map((x, i) => [ids[i], Math.abs(errOf(x) - med) > 3 * 1.4826 * madv] as const).filter(([, f]) => f).map(([id]) => id);
-  expect(R.shots.filter((s: { flags: string[] }) => s.flags.includes("outlier")).map((s: { id: string }) => s.id).sort()).toEqual(flagged.sort());
+  const madv = type7(
+    e.map((v) => Math.abs(v - med)),
+    0.5,
+  );
+  const flagged = DATA.map((x, i) => [ids[i], Math.abs(errOf(x) - med) > 3 * 1.4826 * madv] as const)
+    .filter(([, f]) => f)
+    .map(([id]) => id);
+  expect(
+    R.shots
+      .filter((s: { flags: string[] }) => s.flags.includes("outlier"))
+      .map((s: { id: string }) => s.id)
+      .sort(),
+  ).toEqual(flagged.sort());
   expect(flagged).toContain(ids[OUTLIER_INDEX]);
   const first = R.shots.find((s: { id: string }) => s.id === ids[12]);
   expect(first.limitMm).toBeCloseTo(limitOf(120, 2), 12);
@@ -222,9 +250,31 @@ const V11 = ["ruleProjectId", "zeroOffsetT", "zeroOffsetSignificant", "reference
 
 test("the answer has exactly api.md's fields, in its order, plus the v1.1 additions; rows only with include=shots", async () => {
   const fields = [
-    "sensorId", "rule", "n", "excluded", "biasMm", "biasCi95Mm", "sdMm", "rmseMm", "accuracy95Mm", "p95AbsMm", "maxAbsMm", "withinPct",
-    "zeroOffsetMm", "zeroOffsetSeMm", "scalePpm", "scaleSePpm", "tests", "verdict", "byReflectance", "byIlluminance", "byRange",
-    "rSquared", "airDefaulted", "coverage", "drift",
+    "sensorId",
+    "rule",
+    "n",
+    "excluded",
+    "biasMm",
+    "biasCi95Mm",
+    "sdMm",
+    "rmseMm",
+    "accuracy95Mm",
+    "p95AbsMm",
+    "maxAbsMm",
+    "withinPct",
+    "zeroOffsetMm",
+    "zeroOffsetSeMm",
+    "scalePpm",
+    "scaleSePpm",
+    "tests",
+    "verdict",
+    "byReflectance",
+    "byIlluminance",
+    "byRange",
+    "rSquared",
+    "airDefaulted",
+    "coverage",
+    "drift",
   ];
   // api.md v1.1: without include=shots the key is absent
   expect(Object.keys((await report()).json).filter((k) => !V11.includes(k))).toEqual(fields);
@@ -267,7 +317,24 @@ test("a sensor with no shots gives a valid empty report; an unknown sensor is a 
   const R = (await report("", viewer, emptySensorId)).json;
   expect(R.n).toBe(0);
   expect(R.excluded).toBe(0);
-  for (const k of ["biasMm", "biasCi95Mm", "sdMm", "rmseMm", "accuracy95Mm", "p95AbsMm", "maxAbsMm", "withinPct", "zeroOffsetMm", "scalePpm", "rSquared", "zeroOffsetT", "zeroOffsetSignificant", "referenceRmseMm", "rmseCombinedMm"]) expect(R[k]).toBeNull();
+  for (const k of [
+    "biasMm",
+    "biasCi95Mm",
+    "sdMm",
+    "rmseMm",
+    "accuracy95Mm",
+    "p95AbsMm",
+    "maxAbsMm",
+    "withinPct",
+    "zeroOffsetMm",
+    "scalePpm",
+    "rSquared",
+    "zeroOffsetT",
+    "zeroOffsetSignificant",
+    "referenceRmseMm",
+    "rmseCombinedMm",
+  ])
+    expect(R[k]).toBeNull();
   expect(R.referenceUnknownN).toBe(0);
   expect(R.verdict).toBe("insufficient");
   expect(R.shots).toBeUndefined();

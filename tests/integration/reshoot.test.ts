@@ -89,7 +89,14 @@ test("QA's request reaches the reference data of the project's crew only, and le
 
   const crewSees = await tabletCopy(w.crew);
   expect(crewSees).toEqual([
-    expect.objectContaining({ id: made.id, sensorId: w.sensor.id, siteId: w.site.id, wanted: "dark board at 40 m, 5 shots in bright sun", reason: "the bias on dark targets is near the limit", byName: "Fixture qa" }),
+    expect.objectContaining({
+      id: made.id,
+      sensorId: w.sensor.id,
+      siteId: w.site.id,
+      wanted: "dark board at 40 m, 5 shots in bright sun",
+      reason: "the bias on dark targets is near the limit",
+      byName: "Fixture qa",
+    }),
   ]);
   // Not a member of the project: the request does not exist for them.
   expect((await tabletCopy(w.outsider)).some((r) => r.id === made.id)).toBe(false);
@@ -114,7 +121,10 @@ test("QA's request reaches the reference data of the project's crew only, and le
   expect(again.status).toBe(400);
   expect((again.body as Reply).reshootStateResult?.error?.state?.[0]).toMatch(/already done/);
 
-  const trail = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "reshoot_request"), eq(auditLog.entityId, made.id)));
+  const trail = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "reshoot_request"), eq(auditLog.entityId, made.id)));
   expect(trail.map((r) => r.action).sort()).toEqual(["reshoot.done", "reshoot.request"]);
   expect(trail.every((r) => r.actorUserId === w.qa.id)).toBe(true);
 });

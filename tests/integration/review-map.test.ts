@@ -10,7 +10,11 @@ import type { ReportShotRow, ShotDetail } from "~/components/review/types";
 
 const shotsFc = (pts: [number, number, number, boolean][]): FeatureCollection<Point> => ({
   type: "FeatureCollection",
-  features: pts.map(([lon, lat, e, within], i) => ({ type: "Feature", geometry: { type: "Point", coordinates: [lon, lat] }, properties: { id: `s${i}`, errorMm: e, within, outside: within ? 0 : 1 } })),
+  features: pts.map(([lon, lat, e, within], i) => ({
+    type: "Feature",
+    geometry: { type: "Point", coordinates: [lon, lat] },
+    properties: { id: `s${i}`, errorMm: e, within, outside: within ? 0 : 1 },
+  })),
 });
 
 test("the offline style has no network source, glyphs or sprite", () => {
@@ -34,7 +38,7 @@ test("the colour scale is symmetric around zero and ends on a round number of mm
   const stops = colourStops(10);
   expect(stops[0]).toBe(-10);
   expect(stops[stops.length - 2]).toBe(10);
-  expect(stops[(DIVERGING.length - 1)]).toBe(0); // the middle colour sits at 0 mm
+  expect(stops[DIVERGING.length - 1]).toBe(0); // the middle colour sits at 0 mm
 });
 
 test("hexagon bins count the shots inside them and average their errors", () => {
@@ -74,8 +78,29 @@ test("the SDF triangle is opaque inside (above the 0.75 edge) and empty far outs
 });
 
 test("the matrix groups included shots by reflectance class and illuminance band and names the worst cell", () => {
-  const row = (id: string, e: number, within = true, excluded = false): ReportShotRow => ({ id, takenAt: "", sessionId: "s", referenceM: 10, rangeM: 10, errorMm: e, limitMm: 12, within, repeatabilityMm: null, excluded, flags: [] });
-  const det = (id: string, refl: number, klux: number): ShotDetail => ({ id, reflectancePct: refl, retro: false, illuminanceKlux: klux, targetLabel: null, photoIds: [], exclusionReason: null, note: null });
+  const row = (id: string, e: number, within = true, excluded = false): ReportShotRow => ({
+    id,
+    takenAt: "",
+    sessionId: "s",
+    referenceM: 10,
+    rangeM: 10,
+    errorMm: e,
+    limitMm: 12,
+    within,
+    repeatabilityMm: null,
+    excluded,
+    flags: [],
+  });
+  const det = (id: string, refl: number, klux: number): ShotDetail => ({
+    id,
+    reflectancePct: refl,
+    retro: false,
+    illuminanceKlux: klux,
+    targetLabel: null,
+    photoIds: [],
+    exclusionReason: null,
+    note: null,
+  });
   const rows = [row("a", 18, false), row("b", 16, false), row("c", 17, false), row("d", 1), row("e", -1), row("f", 0.5), row("g", 40, false, true)];
   const details = new Map([det("a", 10, 85), det("b", 10, 90), det("c", 12, 60), det("d", 85, 85), det("e", 85, 5), det("f", 50, 5), det("g", 10, 85)].map((d) => [d.id, d]));
   const cells = matrixCells(rows, details);
@@ -127,7 +152,13 @@ test("the site choice lists each site with located shots, counted through the sh
   expect(choices.some((c) => c.id === "empty")).toBe(false);
   expect(siteChoices({ type: "FeatureCollection", features: [] }, SESSIONS)).toEqual([]);
   // equal counts fall back to the name, so the order never flickers
-  const tie = siteChoices(pointsFc([{ at: ROAD, props: { sessionId: "r1" } }, { at: YARD, props: { sessionId: "y1" } }]), SESSIONS);
+  const tie = siteChoices(
+    pointsFc([
+      { at: ROAD, props: { sessionId: "r1" } },
+      { at: YARD, props: { sessionId: "y1" } },
+    ]),
+    SESSIONS,
+  );
   expect(tie.map((c) => c.name)).toEqual(["Fernhollow yard baseline", "Valley road test range"]);
 });
 
@@ -150,10 +181,12 @@ test("the view of one site spans exactly its shots, stations and targets, and al
   expect(yard[1][1]).toBeCloseTo(YARD[1] + 0.00025, 12);
   // road: station at ROAD (west, north), target +0.0014/−0.0011 (east, south)
   const road = siteBounds("road", parts, SESSIONS)!;
-  expect(road).toEqual([
-    [ROAD[0], ROAD[1] - 0.0011],
-    [ROAD[0] + 0.0014, ROAD[1]],
-  ].map(([x, y]) => [expect.closeTo(x!, 12), expect.closeTo(y!, 12)]));
+  expect(road).toEqual(
+    [
+      [ROAD[0], ROAD[1] - 0.0011],
+      [ROAD[0] + 0.0014, ROAD[1]],
+    ].map(([x, y]) => [expect.closeTo(x!, 12), expect.closeTo(y!, 12)]),
+  );
   const all = siteBounds("", parts, SESSIONS)!;
   expect(all[0]).toEqual([YARD[0], YARD[1]]);
   expect(all[1][0]).toBeCloseTo(ROAD[0] + 0.0014, 12);

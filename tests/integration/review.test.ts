@@ -116,7 +116,9 @@ test("an exclusion with a reason shows on the report page and changes the figure
   const denied = await call(exclusionApi.action as never, apiRequest(`/api/shots/${dark[1]!.id}/exclusion`, { user: w.users.viewer, json: { reason: "not mine to say" } }), { shotId: dark[1]!.id });
   expect(denied.status).toBe(403);
   // restore, so other tests see the full set
-  const back = await call(exclusionApi.action as never, apiRequest(`/api/shots/${target.id}/exclusion`, { user: w.users.qa, method: "DELETE", json: { reason: "Checked the photo: board stood" } }), { shotId: target.id });
+  const back = await call(exclusionApi.action as never, apiRequest(`/api/shots/${target.id}/exclusion`, { user: w.users.qa, method: "DELETE", json: { reason: "Checked the photo: board stood" } }), {
+    shotId: target.id,
+  });
   expect(back.status).toBe(200);
   const restored = (await sensorPage.loader({ request: apiRequest(`/review/sensors/${w.failing.id}`, { user: w.users.qa }), params: { sensorId: w.failing.id }, context: {} } as never)) as Awaited<
     ReturnType<typeof sensorPage.loader>
@@ -160,7 +162,9 @@ test("a failure driven by one wrap-flagged shot is named with its size in the ov
   const row = data.rows.find((r) => r.id === sensor.id)!;
   expect(row.verdict).toBe("fail");
   expect(row.failed).toEqual(expect.arrayContaining(["bias", "precision"]));
-  expect(row.why).toMatch(/^1 shot flagged wrap \(−29\u202f953 mm\) drives the bias and precision \(SD\) tests; excluding it would give bias [+−]\d\.\d\d mm \(limit ±10\.00 mm\) and precision \(SD\) \d\.\d\d mm \(limit \d+\.\d\d mm\): a pass\.$/);
+  expect(row.why).toMatch(
+    /^1 shot flagged wrap \(−29\u202f953 mm\) drives the bias and precision \(SD\) tests; excluding it would give bias [+−]\d\.\d\d mm \(limit ±10\.00 mm\) and precision \(SD\) \d\.\d\d mm \(limit \d+\.\d\d mm\): a pass\.$/,
+  );
   // the same words from the report the page and the print read
   const report = (await buildSensorReport(w.users.qa, sensor.id, {}))!;
   expect(report.shots.find((s) => s.id === wrapShotId)!.flags).toContain("wrap");

@@ -74,7 +74,15 @@ beforeAll(async () => {
     }),
   );
   expect(s.json.results.map((r: { status: string }) => r.status)).toEqual(["accepted", "accepted"]);
-  const pts = [...boards.flatMap((b, i) => boardPoints(O, b, rng(10 + i))), ...boardPoints(O, sparse), ...clutter(O, [...boards, sparse].map((b) => b.centre), 30_000)];
+  const pts = [
+    ...boards.flatMap((b, i) => boardPoints(O, b, rng(10 + i))),
+    ...boardPoints(O, sparse),
+    ...clutter(
+      O,
+      [...boards, sparse].map((b) => b.centre),
+      30_000,
+    ),
+  ];
   las = lasFile(pts, { version: 4, pointFormat: 6, offset: [512_000, 6_350_000, 100] });
   // the same points LASzip-compressed (formats 0 and 1) in chunks of a few thousand, so the reader streams
   // several chunks (tests/support/laz-writer.ts, proved against laz-perf in laz-writer.test.ts)
@@ -215,7 +223,9 @@ test("several depth frames: range to 0.2 mm of the analytic value, temporal nois
   // only the normal tail beyond 3σ (about 0.3 %): no pixel of this synthetic board is flying
   expect(row.flyingPixels).toBeLessThan(0.01 * row.points);
   expect(row.plot.dMm.length).toBe(33 * 29);
-  const sha = createHash("sha256").update(pngs.map((p) => createHash("sha256").update(p).digest("hex")).join("\n")).digest("hex");
+  const sha = createHash("sha256")
+    .update(pngs.map((p) => createHash("sha256").update(p).digest("hex")).join("\n"))
+    .digest("hex");
   expect(res.json.fileSha256).toBe(sha);
 });
 

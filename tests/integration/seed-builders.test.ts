@@ -77,9 +77,7 @@ test("readings made for a chosen range come back from the server at that range",
     sessionId: s2.id,
     reference: { method: "edm", distanceM: 17 },
     readings: {
-      phase: [20_000_000, 25_000_000].map((f) =>
-        phaseSamplesFor({ sensor: { wavelengthNm: 850 }, air, frequencyHz: f, rangeM: wanted.phase, amplitude: 500, offset: 1000 }),
-      ),
+      phase: [20_000_000, 25_000_000].map((f) => phaseSamplesFor({ sensor: { wavelengthNm: 850 }, air, frequencyHz: f, rangeM: wanted.phase, amplitude: 500, offset: 1000 })),
     },
   });
   // the reported range differs from the wanted one by the first velocity correction (tens of ppm here)

@@ -61,8 +61,15 @@ test("the sensor overview (GET /api/sensors) shows pass, fail and not enough sho
 test("sessions land in the project and the session without humidity is marked as defaulted air", async () => {
   const sessionRows = await getDb().select({ id: checkSessions.id, projectId: checkSessions.projectId, humidityPct: checkSessions.humidityPct }).from(checkSessions);
   // issue 14: the tripod's dawn repeat at the yard belongs to the quarry client; every other session to the river valley road
-  const byProject = (p: string) => sessionRows.filter((s) => s.projectId === p).map((s) => s.id).sort();
-  const quarry = scenario.sessions.filter((s) => s.projectId === DEMO_IDS.quarry).map((s) => s.id).sort();
+  const byProject = (p: string) =>
+    sessionRows
+      .filter((s) => s.projectId === p)
+      .map((s) => s.id)
+      .sort();
+  const quarry = scenario.sessions
+    .filter((s) => s.projectId === DEMO_IDS.quarry)
+    .map((s) => s.id)
+    .sort();
   expect(quarry).toHaveLength(1);
   expect(byProject(DEMO_IDS.quarry)).toEqual(quarry);
   expect(byProject(DEMO_IDS.project)).toHaveLength(sessionRows.length - 1);

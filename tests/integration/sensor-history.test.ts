@@ -18,7 +18,15 @@ const dates = ["2026-03-02", "2026-04-01", "2026-05-04", "2026-06-01", "2026-07-
 beforeAll(async () => {
   const crew = await makeUser("crew");
   qa = await makeUser("qa");
-  const sensor = await makeSensor({ label: "Drifting rangefinder", toleranceMm: 5, tolerancePpm: 10, certNumber: "FG-CAL-0777", certLaboratory: "Fernhollow calibration bench", certIssued: "2025-07-01", certDue: "2026-07-01" });
+  const sensor = await makeSensor({
+    label: "Drifting rangefinder",
+    toleranceMm: 5,
+    tolerancePpm: 10,
+    certNumber: "FG-CAL-0777",
+    certLaboratory: "Fernhollow calibration bench",
+    certIssued: "2025-07-01",
+    certDue: "2026-07-01",
+  });
   sensorId = sensor.id;
   const site = await makeSite({ name: "Fernhollow quarry baseline" });
   await shareProject([sensor], [site], [crew, qa]); // api.md v1.1: the crew syncs into, and QA reads, their project

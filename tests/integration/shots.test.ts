@@ -125,8 +125,7 @@ test("the GeoJSON is a FeatureCollection of the located shots with errorMm, limi
 
 test("exclusion: POST needs a reason and QA; DELETE restores; both audited, never deleted, and the report follows", async () => {
   const id = ids[10]!;
-  const ex = (method: "POST" | "DELETE", user: TestUser | undefined, json?: unknown) =>
-    call(exclusionAction, apiRequest(`/api/shots/${id}/exclusion`, { user, method, json }), { shotId: id });
+  const ex = (method: "POST" | "DELETE", user: TestUser | undefined, json?: unknown) => call(exclusionAction, apiRequest(`/api/shots/${id}/exclusion`, { user, method, json }), { shotId: id });
   const reportN = async () => {
     const r = await call(reportLoader, apiRequest(`/api/sensors/${sensorId}/report`, { user: viewer }), { sensorId });
     return [r.json.n, r.json.excluded];
@@ -161,7 +160,10 @@ test("exclusion: POST needs a reason and QA; DELETE restores; both audited, neve
   expect(rows).toHaveLength(1);
   const [shot] = await getDb().select({ excluded: shotsTable.excluded }).from(shotsTable).where(eq(shotsTable.id, id));
   expect(shot!.excluded).toBe(false);
-  const trail = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "shot"), eq(auditLog.entityId, id)));
+  const trail = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "shot"), eq(auditLog.entityId, id)));
   expect(trail.map((t) => t.action).sort()).toEqual(["shot.exclude", "shot.restore"]);
   expect(trail.every((t) => t.actorUserId === qa.id)).toBe(true);
 

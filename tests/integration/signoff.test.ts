@@ -78,8 +78,16 @@ test("a rejection freezes the full report into the sign-off, lands in the audit 
   expect(row!.byUserId).toBe(w.users.qa.id);
   expect(row!.snapshot).toEqual(live);
   expect(row!.biasMm).toBeCloseTo(live!.biasMm!, 9);
-  expect([...row!.sessionIds].sort()).toEqual(w.sessions.filter((s) => s.sensorId === w.failing.id).map((s) => s.id).sort());
-  const audits = await getDb().select().from(auditLog).where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, w.failing.id), eq(auditLog.action, "sign-off.rejected")));
+  expect([...row!.sessionIds].sort()).toEqual(
+    w.sessions
+      .filter((s) => s.sensorId === w.failing.id)
+      .map((s) => s.id)
+      .sort(),
+  );
+  const audits = await getDb()
+    .select()
+    .from(auditLog)
+    .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, w.failing.id), eq(auditLog.action, "sign-off.rejected")));
   expect(audits).toHaveLength(1);
   expect(audits[0]!.actorUserId).toBe(w.users.qa.id);
 
@@ -125,7 +133,10 @@ test("a passing sensor is approved without a note; a period approval freezes onl
   expect(noNote.status).toBe(400); // 12 shots that day: "insufficient" needs a reason to approve
   const a = await signOff(w.users.admin, w.passing.id, { decision: "approved", from: "2026-05-05", to: "2026-05-05", note: "Sunny-day recheck only" });
   expect(a.status).toBe(200);
-  const [row] = await getDb().select().from(signOffs).where(eq(signOffs.id, (a.body as Reply).signedOff!.id));
+  const [row] = await getDb()
+    .select()
+    .from(signOffs)
+    .where(eq(signOffs.id, (a.body as Reply).signedOff!.id));
   expect(row!.periodFrom).toBe("2026-05-05");
   expect(row!.periodTo).toBe("2026-05-05");
   expect((row!.snapshot as { n: number }).n).toBe(12);

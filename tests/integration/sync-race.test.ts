@@ -63,7 +63,10 @@ test("records another instance stores between this request's read and write are 
   expect(results.map((r) => r.status)).toEqual(["duplicate", "duplicate", "duplicate", "duplicate", "rejected", "accepted", "accepted"]);
   expect(results[4]!.errors?.[0]?.path).toBe("id");
   expect(await stored(checkSessions, [w.s.id])).toHaveLength(1);
-  const rows = await stored(shots, list.map((x) => x.id));
+  const rows = await stored(
+    shots,
+    list.map((x) => x.id),
+  );
   expect(rows).toHaveLength(6);
   // the conflicting copy did not overwrite the one stored first
   expect(JSON.parse(rows.find((r) => r.id === changed.id)!.raw).readings.rangesM).toEqual([8.2]);

@@ -54,7 +54,12 @@ test("a batch with overflowing readings answers 200 per record and stores the go
   const goodTrip = base(s.id, { roundTripNs: [113.4] });
   const hugeTrip = base(s.id, { roundTripNs: [1e308] });
   const tinyFrequency = base(s.id, { phase: [{ frequencyHz: 1e-300, samples: samplesFor(17, 20e6) }] });
-  const good2 = base(s.id, { phase: [{ frequencyHz: 20e6, samples: samplesFor(17, 20e6) }, { frequencyHz: 25e6, samples: samplesFor(17, 25e6) }] });
+  const good2 = base(s.id, {
+    phase: [
+      { frequencyHz: 20e6, samples: samplesFor(17, 20e6) },
+      { frequencyHz: 25e6, samples: samplesFor(17, 25e6) },
+    ],
+  });
   const list = [good1, hugeRange, goodTrip, hugeTrip, tinyFrequency, good2];
   const a = await sync(w.crew, { deviceId: "tablet-7", sessions: [s], shots: list });
   expect(a.status).toBe(200);
@@ -67,7 +72,15 @@ test("a batch with overflowing readings answers 200 per record and stores the go
   expect(results[4]!.errors![0]!.message).toMatch(/70000 ns/);
   expect(results[5]!.errors!.map((e) => e.path)).toEqual(["readings.phase.0.frequencyHz"]);
   expect(results[5]!.errors![0]!.message).toMatch(/registered/);
-  const stored = await getDb().select({ id: shots.id, rangeM: shots.rangeM }).from(shots).where(inArray(shots.id, list.map((x) => x.id)));
+  const stored = await getDb()
+    .select({ id: shots.id, rangeM: shots.rangeM })
+    .from(shots)
+    .where(
+      inArray(
+        shots.id,
+        list.map((x) => x.id),
+      ),
+    );
   expect(stored.map((x) => x.id).sort()).toEqual([good1.id, goodTrip.id, good2.id].sort());
   // the CW shot unwraps to the 17 m target (ranging.md check values: 20 and 25 MHz, 17 m);
   // the samples were made for vacuum, the session's (default) air shortens them by 1/n
@@ -113,7 +126,10 @@ test("an unexpected error while computing one shot rejects that shot only, logge
     mocked.mockImplementation(real);
     spyErr.mockRestore();
   }
-  const stored = await getDb().select({ id: shots.id }).from(shots).where(inArray(shots.id, [good.id, boom.id]));
+  const stored = await getDb()
+    .select({ id: shots.id })
+    .from(shots)
+    .where(inArray(shots.id, [good.id, boom.id]));
   expect(stored.map((x) => x.id)).toEqual([good.id]);
 });
 
@@ -140,7 +156,15 @@ test("a row the database refuses is refused alone: the batch is written a record
     mocked.mockImplementation(real);
     spyErr.mockRestore();
   }
-  const stored = await getDb().select({ id: shots.id }).from(shots).where(inArray(shots.id, list.map((x) => x.id)));
+  const stored = await getDb()
+    .select({ id: shots.id })
+    .from(shots)
+    .where(
+      inArray(
+        shots.id,
+        list.map((x) => x.id),
+      ),
+    );
   expect(stored.map((x) => x.id).sort()).toEqual([list[0]!.id, list[2]!.id].sort());
 });
 
@@ -157,7 +181,11 @@ test("the CSV import chunk rejects an overflowing row with its message and impor
   const sensor = await makeSensor({ label: "Roof scanner R1", kind: "pulsed", appliesAirCorrection: true, toleranceMm: 8, tolerancePpm: 0 });
   await shareProject([sensor], [w.site], [w.crew], { name: "Import workspace" });
   const mapping: ImportMapping = { takenAt: "Timestamp", target: "Board", distanceM: "Ref dist [m]", rangeM: "Range [m]", _timeOffset: "+02:00" };
-  const row = (n: number, range: string) => ({ row: n, id: uid(), values: { Timestamp: `2026-05-06 09:00:${String(n).padStart(2, "0")}`, Board: "D10", "Ref dist [m]": "20.000", "Range [m]": range } });
+  const row = (n: number, range: string) => ({
+    row: n,
+    id: uid(),
+    values: { Timestamp: `2026-05-06 09:00:${String(n).padStart(2, "0")}`, Board: "D10", "Ref dist [m]": "20.000", "Range [m]": range },
+  });
   const rows = [row(2, "20.003"), row(3, "1e308"), row(4, "20.001"), row(5, "1.5e4"), row(6, "19.998")];
   const r = await call(
     chunkRoute.action as never,
@@ -172,7 +200,15 @@ test("the CSV import chunk rejects an overflowing row with its message and impor
   expect([2, 3, 4, 5, 6].map((n) => byRow[n].status)).toEqual(["accepted", "rejected", "accepted", "rejected", "accepted"]);
   expect(byRow[3].errors[0].message).toMatch(/10000 m/);
   expect(byRow[5].errors[0].message).toMatch(/10000 m/);
-  const stored = await getDb().select({ id: shots.id }).from(shots).where(inArray(shots.id, rows.map((x) => x.id)));
+  const stored = await getDb()
+    .select({ id: shots.id })
+    .from(shots)
+    .where(
+      inArray(
+        shots.id,
+        rows.map((x) => x.id),
+      ),
+    );
   expect(stored.map((x) => x.id).sort()).toEqual([rows[0]!.id, rows[2]!.id, rows[4]!.id].sort());
 });
 
@@ -193,7 +229,10 @@ test("a new session on a retired sensor is refused at sensorId; shots of a sessi
   expect(results[1]!.errors!.map((e) => e.path)).toEqual(["sensorId"]);
   expect(results[1]!.errors![0]!.message).toMatch(/retired on 2026-05-05/);
   expect(results[3]!.errors![0]!.path).toBe("sessionId");
-  const stored = await getDb().select({ id: shots.id }).from(shots).where(inArray(shots.id, [first.id, late.id, orphan.id]));
+  const stored = await getDb()
+    .select({ id: shots.id })
+    .from(shots)
+    .where(inArray(shots.id, [first.id, late.id, orphan.id]));
   expect(stored.map((x) => x.id).sort()).toEqual([first.id, late.id].sort());
   expect(await getDb().select({ id: checkSessions.id }).from(checkSessions).where(eq(checkSessions.id, after.id))).toHaveLength(0);
 });

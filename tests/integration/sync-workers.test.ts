@@ -22,12 +22,7 @@ afterAll(async () => {
 });
 
 async function world() {
-  const [crew, sensor, site, tape] = await Promise.all([
-    makeUser("crew"),
-    makeSensor({ appliesAirCorrection: true }),
-    makeSite({ targets: [{ label: "dark", reflectancePct: 10 }] }),
-    makeTape(),
-  ]);
+  const [crew, sensor, site, tape] = await Promise.all([makeUser("crew"), makeSensor({ appliesAirCorrection: true }), makeSite({ targets: [{ label: "dark", reflectancePct: 10 }] }), makeTape()]);
   await shareProject([sensor], [site], [crew]); // api.md v1.1: sessions belong to one of the crew's projects
   return { crew, sensor, site, tape };
 }

@@ -67,7 +67,12 @@ test("the same batch sent 10 times is stored once: accepted first, then duplicat
   expect(answers[0]!.json.results.map((r: { status: string }) => r.status)).toEqual(Array(6).fill("accepted"));
   for (const a of answers.slice(1)) expect(a.json.results.map((r: { status: string }) => r.status)).toEqual(Array(6).fill("duplicate"));
   expect(await rows(checkSessions, [s.id])).toBe(1);
-  expect(await rows(shots, shotsIn.map((x) => x.id))).toBe(5);
+  expect(
+    await rows(
+      shots,
+      shotsIn.map((x) => x.id),
+    ),
+  ).toBe(5);
 });
 
 test("a re-sent record with its keys in another order is a duplicate, not a conflict", async () => {
@@ -97,7 +102,12 @@ test("one malformed record in 100 is rejected with its field path; the other 99 
   expect(rejected[0]!.id).toBe(bad.id);
   expect(rejected[0]!.errors!.map((e) => e.path)).toEqual(["readings.rangesM.0"]);
   expect(rejected[0]!.errors![0]!.message).toMatch(/greater than 0/);
-  expect(await rows(shots, list.map((x) => x.id))).toBe(99);
+  expect(
+    await rows(
+      shots,
+      list.map((x) => x.id),
+    ),
+  ).toBe(99);
 });
 
 test("the same id with other content is rejected as a conflict and the stored row stays as it was", async () => {
@@ -141,7 +151,12 @@ test("501 shots answer 413 and 500 are taken", async () => {
   expect(await rows(checkSessions, [s.id])).toBe(0);
   const ok = await sync(w.crew, { deviceId: "t", sessions: [s], shots: list.slice(0, 500) });
   expect(ok.status).toBe(200);
-  expect(await rows(shots, list.map((x) => x.id))).toBe(500);
+  expect(
+    await rows(
+      shots,
+      list.map((x) => x.id),
+    ),
+  ).toBe(500);
 });
 
 test("401 without a sign-in, 403 for a viewer; crew, qa and admin may sync", async () => {
@@ -183,13 +198,23 @@ test("a body cut off mid-stream writes nothing, and the full batch sent again la
   } as RequestInit);
   const a = await call(action, cut);
   expect(a.status).toBe(400);
-  expect(await rows(shots, list.map((x) => x.id))).toBe(0);
+  expect(
+    await rows(
+      shots,
+      list.map((x) => x.id),
+    ),
+  ).toBe(0);
   // the outbox resends everything, twice (the first answer was lost too)
   const b = await sync(w.crew, { deviceId: "t", sessions: [s], shots: list });
   const c = await sync(w.crew, { deviceId: "t", sessions: [s], shots: list });
   expect(b.json.results.filter((r: { status: string }) => r.status === "accepted")).toHaveLength(301);
   expect(c.json.results.filter((r: { status: string }) => r.status === "duplicate")).toHaveLength(301);
-  expect(await rows(shots, list.map((x) => x.id))).toBe(300);
+  expect(
+    await rows(
+      shots,
+      list.map((x) => x.id),
+    ),
+  ).toBe(300);
 });
 
 test("two tablets sending the same batch at the same moment store each record once", async () => {
@@ -201,7 +226,12 @@ test("two tablets sending the same batch at the same moment store each record on
   expect([a.status, b.status]).toEqual([200, 200]);
   const statuses = [a, b].map((x) => [...new Set(x.json.results.map((r: { status: string }) => r.status))].join());
   expect(statuses.sort()).toEqual(["accepted", "duplicate"]);
-  expect(await rows(shots, list.map((x) => x.id))).toBe(200);
+  expect(
+    await rows(
+      shots,
+      list.map((x) => x.id),
+    ),
+  ).toBe(200);
 });
 
 test("the server computes every figure from the raw readings and ignores the tablet's own", async () => {

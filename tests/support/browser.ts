@@ -6,15 +6,7 @@ import { chromium, type Browser } from "playwright-core";
 import { CHROMIUM_PATH } from "../e2e/chromium";
 import type { NetProxy } from "./net-proxy";
 
-export const CHROMIUM_ARGS = [
-  "--no-sandbox",
-  "--disable-gpu",
-  "--disable-quic",
-  "--no-first-run",
-  "--disable-background-networking",
-  "--disable-component-update",
-  "--disable-sync",
-];
+export const CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run", "--disable-background-networking", "--disable-component-update", "--disable-sync"];
 
 export async function launchBrowser(opts: { proxy?: NetProxy } = {}): Promise<Browser> {
   return chromium.launch({

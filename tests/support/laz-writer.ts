@@ -152,18 +152,15 @@ class Median5 {
           v[2] = v[1];
           v[1] = v[0];
           v[0] = x;
-        }
-        else if (x < v[1]) {
+        } else if (x < v[1]) {
           v[2] = v[1];
           v[1] = x;
-        }
-        else v[2] = x;
+        } else v[2] = x;
       } else {
         if (x < v[3]) {
           v[4] = v[3];
           v[3] = x;
-        }
-        else v[4] = x;
+        } else v[4] = x;
         this.high = false;
       }
     } else {
@@ -174,18 +171,15 @@ class Median5 {
           v[2] = v[3];
           v[3] = v[4];
           v[4] = x;
-        }
-        else if (v[3] < x) {
+        } else if (v[3] < x) {
           v[2] = v[3];
           v[3] = x;
-        }
-        else v[2] = x;
+        } else v[2] = x;
       } else {
         if (v[1] < x) {
           v[0] = v[1];
           v[1] = x;
-        }
-        else v[0] = x;
+        } else v[0] = x;
         this.high = true;
       }
     }
@@ -563,7 +557,8 @@ export function lazFileFromRecords(records: Uint8Array, count: number, bounds: {
 export function lazFile(points: V3[], o: LazOptions = {}): Uint8Array {
   const min: V3 = [Infinity, Infinity, Infinity];
   const max: V3 = [-Infinity, -Infinity, -Infinity];
-  for (const p of points) for (let k = 0; k < 3; k++) {
+  for (const p of points)
+    for (let k = 0; k < 3; k++) {
       min[k] = Math.min(min[k], p[k]);
       max[k] = Math.max(max[k], p[k]);
     }

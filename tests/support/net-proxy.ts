@@ -45,13 +45,10 @@ export async function startNetProxy(): Promise<NetProxy> {
     seen.push({ method: req.method ?? "GET", url: target.href });
     const headers = { ...req.headers };
     delete headers["proxy-connection"];
-    const upstream = httpRequest(
-      { host: target.hostname, port: target.port || 80, method: req.method, path: target.pathname + target.search, headers },
-      (up) => {
-        res.writeHead(up.statusCode ?? 502, up.statusMessage, up.headers);
-        up.pipe(res);
-      },
-    );
+    const upstream = httpRequest({ host: target.hostname, port: target.port || 80, method: req.method, path: target.pathname + target.search, headers }, (up) => {
+      res.writeHead(up.statusCode ?? 502, up.statusMessage, up.headers);
+      up.pipe(res);
+    });
     upstream.on("socket", track);
     upstream.on("error", () => req.socket.destroy());
     req.pipe(upstream);

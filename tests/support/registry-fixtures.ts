@@ -13,7 +13,9 @@ export type TestUser = { id: string; role: Role; email: string; token: string };
 /** A user of the role with a bearer token, so a Request can act as them. */
 export async function makeUser(role: Role, email = `${role}-${uid().slice(0, 8)}@fixture.test`): Promise<TestUser> {
   const id = uid();
-  await getDb().insert(users).values({ id, email, name: `Fixture ${role}`, role });
+  await getDb()
+    .insert(users)
+    .values({ id, email, name: `Fixture ${role}`, role });
   const { token } = await createApiToken(id, "fixture");
   return { id, role, email, token };
 }
@@ -118,7 +120,6 @@ export async function addMembers(projectId: string, emails: string[]) {
   const rows = emails.length ? await db.select({ id: users.id }).from(users).where(inArray(users.email, emails)) : [];
   for (const r of rows) await db.insert(projectMembers).values({ projectId, userId: r.id }).onConflictDoNothing();
   return rows.length;
-
 }
 
 /**

@@ -48,9 +48,17 @@ export function useSyncStatus(): SyncStatus | null {
 }
 
 function OfflineReadiness({ r, copiedAt }: { r: Readiness; copiedAt: string | null | undefined }) {
-  const when = <strong className="num" data-testid="reference-copied-at">{copiedAt === undefined ? "…" : formatWhen(copiedAt)}</strong>;
+  const when = (
+    <strong className="num" data-testid="reference-copied-at">
+      {copiedAt === undefined ? "…" : formatWhen(copiedAt)}
+    </strong>
+  );
   if (r.worker === "none") {
-    return <span data-testid="offline-ready" data-ready="false">Reference data copied: {when}</span>;
+    return (
+      <span data-testid="offline-ready" data-ready="false">
+        Reference data copied: {when}
+      </span>
+    );
   }
   if (isReady(r, copiedAt)) {
     return (
@@ -72,7 +80,10 @@ function OfflineReadiness({ r, copiedAt }: { r: Readiness; copiedAt: string | nu
   }
   const steps = [
     { label: "app files", done: r.worker === "active" },
-    { label: r.copy ? `field screens ${Math.min(r.copy.pages, r.copy.data)} of ${r.copy.total}` : "field screens", done: r.copy != null && r.copy.total > 0 && r.copy.pages >= r.copy.total && r.copy.data >= r.copy.total },
+    {
+      label: r.copy ? `field screens ${Math.min(r.copy.pages, r.copy.data)} of ${r.copy.total}` : "field screens",
+      done: r.copy != null && r.copy.total > 0 && r.copy.pages >= r.copy.total && r.copy.data >= r.copy.total,
+    },
     { label: "reference data", done: Boolean(copiedAt) },
   ];
   const done = steps.filter((s) => s.done).length;
@@ -108,7 +119,10 @@ export function FieldChrome({ children }: { children: React.ReactNode }) {
         </span>
         <OfflineReadiness r={readiness} copiedAt={copiedAt} />
         <NavLink to="/field/outbox" className="inline-flex min-h-11 items-center font-bold underline underline-offset-4" data-testid="outbox-count">
-          Outbox: {counts.total === 0 ? "nothing waiting" : [waiting ? `${waiting.toLocaleString("en-GB")} waiting` : "", counts.rejected ? `${counts.rejected.toLocaleString("en-GB")} need a fix` : ""].filter(Boolean).join(", ")}
+          Outbox:{" "}
+          {counts.total === 0
+            ? "nothing waiting"
+            : [waiting ? `${waiting.toLocaleString("en-GB")} waiting` : "", counts.rejected ? `${counts.rejected.toLocaleString("en-GB")} need a fix` : ""].filter(Boolean).join(", ")}
         </NavLink>
         {status?.running ? (
           <span className="num">

@@ -41,11 +41,15 @@ export function ShotFeedback({
       <dl className={`num grid grid-cols-2 gap-x-6 gap-y-1 text-lg ${compact ? "" : "sm:grid-cols-4"}`}>
         <div>
           <dt className="text-sm text-muted">Range error</dt>
-          <dd className="text-2xl font-bold" data-testid="error-mm">{signedMm(preview.errorMm)}</dd>
+          <dd className="text-2xl font-bold" data-testid="error-mm">
+            {signedMm(preview.errorMm)}
+          </dd>
         </div>
         <div>
           <dt className="text-sm text-muted">Limit</dt>
-          <dd className="text-2xl font-bold" data-testid="limit-mm">±{fmt(preview.limitMm, 1)} mm</dd>
+          <dd className="text-2xl font-bold" data-testid="limit-mm">
+            ±{fmt(preview.limitMm, 1)} mm
+          </dd>
         </div>
         <div>
           <dt className="text-sm text-muted">Reference</dt>
@@ -68,15 +72,10 @@ export function ShotFeedback({
       {preview.wrap ? (
         <p className="flex items-center gap-2 font-bold text-warn" role="alert">
           <VerdictShape verdict="insufficient" size={20} />
-          Possible phase wrap: the error is close to a whole number of unambiguous intervals. Check the reading before you
-          leave the target.
+          Possible phase wrap: the error is close to a whole number of unambiguous intervals. Check the reading before you leave the target.
         </p>
       ) : null}
-      {preview.airDefaulted.length ? (
-        <p className="text-sm text-muted">
-          Air not entered for this session, so {preview.airDefaulted.map((f) => AIR_WORDS[f] ?? f).join(", ")} assumed.
-        </p>
-      ) : null}
+      {preview.airDefaulted.length ? <p className="text-sm text-muted">Air not entered for this session, so {preview.airDefaulted.map((f) => AIR_WORDS[f] ?? f).join(", ")} assumed.</p> : null}
     </div>
   );
 }

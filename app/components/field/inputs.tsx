@@ -137,9 +137,7 @@ export function Choice<T extends string>({
         {options.map((o) => (
           <label
             key={o.value}
-            className={`flex min-h-11 cursor-pointer items-center gap-2 rounded-md border-2 px-4 py-2 font-bold ${
-              value === o.value ? "border-accent bg-accent text-accent-fg" : "border-line bg-bg"
-            }`}
+            className={`flex min-h-11 cursor-pointer items-center gap-2 rounded-md border-2 px-4 py-2 font-bold ${value === o.value ? "border-accent bg-accent text-accent-fg" : "border-line bg-bg"}`}
           >
             <input type="radio" className="h-5 w-5" name={name} value={o.value} checked={value === o.value} onChange={() => onChange(o.value)} />
             {o.label}

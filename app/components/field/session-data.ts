@@ -15,12 +15,13 @@ export type SessionData = {
 
 export async function loadSession(sessionId: string): Promise<SessionData> {
   const db = fieldDb();
-  const [session, reference, shots] = await Promise.all([
-    db.sessions.get(sessionId),
-    readReference(),
-    db.shots.where("sessionId").equals(sessionId).sortBy("queuedAt"),
-  ]);
-  const photos = shots.length ? await db.photos.where("shotId").anyOf(shots.map((s) => s.id)).toArray() : [];
+  const [session, reference, shots] = await Promise.all([db.sessions.get(sessionId), readReference(), db.shots.where("sessionId").equals(sessionId).sortBy("queuedAt")]);
+  const photos = shots.length
+    ? await db.photos
+        .where("shotId")
+        .anyOf(shots.map((s) => s.id))
+        .toArray()
+    : [];
   return { session: session ?? null, reference, shots, photoShotIds: photos.map((p) => p.shotId) };
 }
 

@@ -111,7 +111,10 @@ export function SessionFields({
           value={sensorId}
           onChange={set("sensorId")}
           placeholder="— choose the sensor —"
-          options={withCurrent(reference.sensors.map((s) => ({ value: s.id, label: `${s.label} (${s.serial})` })), sensorId)}
+          options={withCurrent(
+            reference.sensors.map((s) => ({ value: s.id, label: `${s.label} (${s.serial})` })),
+            sensorId,
+          )}
           error={errors.sensorId}
         />
         <SelectField
@@ -120,7 +123,10 @@ export function SessionFields({
           value={siteId}
           onChange={set("siteId")}
           placeholder="— choose the site —"
-          options={withCurrent(reference.sites.map((s) => ({ value: s.id, label: `${s.name} (${s.targets.length} targets)` })), siteId)}
+          options={withCurrent(
+            reference.sites.map((s) => ({ value: s.id, label: `${s.name} (${s.targets.length} targets)` })),
+            siteId,
+          )}
           error={errors.siteId}
         />
         <div className="sm:col-span-2" data-testid="session-project">
@@ -159,7 +165,10 @@ export function SessionFields({
               value={values.projectId}
               onChange={set("projectId")}
               placeholder="— choose the project: this sensor and site are in several —"
-              options={withCurrent(projects.map((p) => ({ value: p.id, label: projectLabel(p) })), values.projectId)}
+              options={withCurrent(
+                projects.map((p) => ({ value: p.id, label: projectLabel(p) })),
+                values.projectId,
+              )}
               error={errors.projectId}
             />
           )}
@@ -176,8 +185,24 @@ export function SessionFields({
         <legend className="text-xl font-bold">Air</legend>
         <div className="grid gap-4 sm:grid-cols-3">
           <NumberField id="airTempC" label="Air temperature (°C)" unit="°C" value={values.airTempC} onChange={set("airTempC")} error={errors.airTempC} placeholder={String(AIR_DEFAULTS.airTempC)} />
-          <NumberField id="pressureHpa" label="Pressure (hPa)" unit="hPa" value={values.pressureHpa} onChange={set("pressureHpa")} error={errors.pressureHpa} placeholder={String(AIR_DEFAULTS.pressureHpa)} />
-          <NumberField id="humidityPct" label="Humidity (%)" unit="%" value={values.humidityPct} onChange={set("humidityPct")} error={errors.humidityPct} placeholder={String(AIR_DEFAULTS.humidityPct)} />
+          <NumberField
+            id="pressureHpa"
+            label="Pressure (hPa)"
+            unit="hPa"
+            value={values.pressureHpa}
+            onChange={set("pressureHpa")}
+            error={errors.pressureHpa}
+            placeholder={String(AIR_DEFAULTS.pressureHpa)}
+          />
+          <NumberField
+            id="humidityPct"
+            label="Humidity (%)"
+            unit="%"
+            value={values.humidityPct}
+            onChange={set("humidityPct")}
+            error={errors.humidityPct}
+            placeholder={String(AIR_DEFAULTS.humidityPct)}
+          />
         </div>
         {missingAir.length ? (
           <p className="font-bold text-warn" data-testid="air-defaults">

@@ -146,17 +146,7 @@ export function toShotDraft(f: ShotFormState, sessionId: string, id?: string, ta
 export const draftKey = (sessionId: string) => `shotbook-shot-draft:${sessionId}`;
 export const editDraftKey = (shotId: string) => `shotbook-shot-edit-draft:${shotId}`;
 
-export function ShotForm({
-  session,
-  ctx,
-  existing,
-  onSaved,
-}: {
-  session: LocalSession;
-  ctx: PreviewContext;
-  existing?: LocalShot;
-  onSaved?: (shot: LocalShot) => void;
-}) {
+export function ShotForm({ session, ctx, existing, onSaved }: { session: LocalSession; ctx: PreviewContext; existing?: LocalShot; onSaved?: (shot: LocalShot) => void }) {
   const [f, setF] = useState<ShotFormState>(() => initialState(session, ctx, existing));
   const [dirty, setDirty] = useState(false);
   const [errors, setErrors] = useState<Record<string, string>>(() => (existing ? errorsByField(existing.errors) : {}));
@@ -351,11 +341,26 @@ export function ShotForm({
               value={v}
               required
               error={errors[`${path}.${i}`]}
-              onChange={(nv) => set(key, f[key].map((x, j) => (j === i ? nv : x)))}
+              onChange={(nv) =>
+                set(
+                  key,
+                  f[key].map((x, j) => (j === i ? nv : x)),
+                )
+              }
             />
           </div>
           {f[key].length > 1 ? (
-            <button type="button" className="btn-secondary" aria-label={`Remove ${label.toLowerCase()} ${i + 1}`} onClick={() => set(key, f[key].filter((_, j) => j !== i))}>
+            <button
+              type="button"
+              className="btn-secondary"
+              aria-label={`Remove ${label.toLowerCase()} ${i + 1}`}
+              onClick={() =>
+                set(
+                  key,
+                  f[key].filter((_, j) => j !== i),
+                )
+              }
+            >
               ✕
             </button>
           ) : null}
@@ -379,230 +384,318 @@ export function ShotForm({
           the check sits directly under the readings it judges (the wrappers step aside with
           display: contents and `order` places each card), and Save closes the form. */}
       <div className="grid gap-6 landscape:lg:grid-cols-[minmax(0,1fr)_23rem] landscape:lg:items-start">
-      <div className="contents landscape:lg:block landscape:lg:space-y-6">
-      <section className="card order-1 space-y-4">
-        <h2 className="text-xl font-bold">Target and reference distance</h2>
-        <SelectField id="f-target" label="Target" value={f.targetId} onChange={pickTarget} options={targetOptions} placeholder="— no target from the site —" error={errors["targetId"]} optional={f.method !== "coordinates"} />
-        <Choice
-          name="f-method"
-          legend="How the reference distance was measured"
-          value={f.method}
-          onChange={(v) => set("method", v)}
-          error={errors["reference.method"]}
-          options={[
-            { value: "tape", label: "Steel tape" },
-            { value: "edm", label: "EDM" },
-            { value: "coordinates", label: "Coordinates" },
-          ]}
-        />
-        {f.method !== "coordinates" ? (
-          <NumberField id="f-distance" label="Reference distance (m)" unit="m" value={f.distanceM} required onChange={(v) => set("distanceM", v)} error={errors["reference.distanceM"]} hint={f.method === "tape" ? "As read on the tape; the corrections below are applied to it." : undefined} />
-        ) : null}
-        {f.method === "tape" ? (
-          <div className="grid gap-4 sm:grid-cols-2">
-            <SelectField id="f-tape" label="Tape" value={f.tapeId} onChange={pickTape} options={ctx.tapes.map((t) => ({ value: t.id, label: t.label }))} placeholder={ctx.tapes.length ? undefined : "— no tapes on this tablet —"} error={errors["reference.tape.tapeId"]} />
-            <NumberField id="f-tapeTemp" label="Tape temperature (°C)" unit="°C" value={f.tapeTempC} required onChange={(v) => set("tapeTempC", v)} error={errors["reference.tape.tempC"]} />
-            <NumberField id="f-tension" label="Pull (N)" unit="N" value={f.tensionN} required onChange={(v) => set("tensionN", v)} error={errors["reference.tape.tensionN"]} />
-            <NumberField id="f-spans" label="Spans" unit="spans" inputMode="numeric" value={f.spans} required onChange={(v) => set("spans", v)} error={errors["reference.tape.spans"]} />
-            <div className="sm:col-span-2">
-              <Choice name="f-support" legend="Tape support" value={f.support} onChange={(v) => set("support", v)} error={errors["reference.tape.support"]} options={[{ value: "ground", label: "Lying on the ground" }, { value: "ends", label: "Held at the ends (sag)" }]} />
-            </div>
-          </div>
-        ) : null}
-        {f.method === "coordinates" ? (
-          <div className="grid gap-4 sm:grid-cols-3">
-            <SelectField id="f-station" label="Station (sensor stands on)" value={f.stationId} onChange={(v) => set("stationId", v)} options={(site?.stations ?? []).map((st) => ({ value: st.id, label: st.label }))} placeholder={site?.stations.length ? undefined : "— no stations at this site —"} error={errors["reference.stationId"]} />
-            <NumberField id="f-ih" label="Instrument height (m)" unit="m" value={f.instrumentHeightM} required onChange={(v) => set("instrumentHeightM", v)} error={errors["reference.instrumentHeightM"]} />
-            <NumberField id="f-th" label="Target height (m)" unit="m" value={f.targetHeightM} required onChange={(v) => set("targetHeightM", v)} error={errors["reference.targetHeightM"]} />
-            <p className="text-muted sm:col-span-3">
-              The distance comes from the surveyed positions of the station and the target. The registry does not record whether a target's
-              surveyed height is its board centre: if it is, the target height here is 0.
-            </p>
-            {coordinates ? (
-              <div className="num space-y-1 sm:col-span-3" data-testid="coordinates-check">
-                <p>
-                  Computed from the coordinates: <strong>{fmt(coordinates.computedM, 4)} m</strong>
-                  {coordinates.surveyedM != null ? (
-                    <>
-                      {" "}· surveyed station-to-target distance in the registry: <strong>{fmt(coordinates.surveyedM, 4)} m</strong> (difference{" "}
-                      {signedMm((coordinates.computedM - coordinates.surveyedM) * 1000)})
-                    </>
-                  ) : (
-                    " · the registry has no surveyed distance for this target"
-                  )}
+        <div className="contents landscape:lg:block landscape:lg:space-y-6">
+          <section className="card order-1 space-y-4">
+            <h2 className="text-xl font-bold">Target and reference distance</h2>
+            <SelectField
+              id="f-target"
+              label="Target"
+              value={f.targetId}
+              onChange={pickTarget}
+              options={targetOptions}
+              placeholder="— no target from the site —"
+              error={errors["targetId"]}
+              optional={f.method !== "coordinates"}
+            />
+            <Choice
+              name="f-method"
+              legend="How the reference distance was measured"
+              value={f.method}
+              onChange={(v) => set("method", v)}
+              error={errors["reference.method"]}
+              options={[
+                { value: "tape", label: "Steel tape" },
+                { value: "edm", label: "EDM" },
+                { value: "coordinates", label: "Coordinates" },
+              ]}
+            />
+            {f.method !== "coordinates" ? (
+              <NumberField
+                id="f-distance"
+                label="Reference distance (m)"
+                unit="m"
+                value={f.distanceM}
+                required
+                onChange={(v) => set("distanceM", v)}
+                error={errors["reference.distanceM"]}
+                hint={f.method === "tape" ? "As read on the tape; the corrections below are applied to it." : undefined}
+              />
+            ) : null}
+            {f.method === "tape" ? (
+              <div className="grid gap-4 sm:grid-cols-2">
+                <SelectField
+                  id="f-tape"
+                  label="Tape"
+                  value={f.tapeId}
+                  onChange={pickTape}
+                  options={ctx.tapes.map((t) => ({ value: t.id, label: t.label }))}
+                  placeholder={ctx.tapes.length ? undefined : "— no tapes on this tablet —"}
+                  error={errors["reference.tape.tapeId"]}
+                />
+                <NumberField id="f-tapeTemp" label="Tape temperature (°C)" unit="°C" value={f.tapeTempC} required onChange={(v) => set("tapeTempC", v)} error={errors["reference.tape.tempC"]} />
+                <NumberField id="f-tension" label="Pull (N)" unit="N" value={f.tensionN} required onChange={(v) => set("tensionN", v)} error={errors["reference.tape.tensionN"]} />
+                <NumberField id="f-spans" label="Spans" unit="spans" inputMode="numeric" value={f.spans} required onChange={(v) => set("spans", v)} error={errors["reference.tape.spans"]} />
+                <div className="sm:col-span-2">
+                  <Choice
+                    name="f-support"
+                    legend="Tape support"
+                    value={f.support}
+                    onChange={(v) => set("support", v)}
+                    error={errors["reference.tape.support"]}
+                    options={[
+                      { value: "ground", label: "Lying on the ground" },
+                      { value: "ends", label: "Held at the ends (sag)" },
+                    ]}
+                  />
+                </div>
+              </div>
+            ) : null}
+            {f.method === "coordinates" ? (
+              <div className="grid gap-4 sm:grid-cols-3">
+                <SelectField
+                  id="f-station"
+                  label="Station (sensor stands on)"
+                  value={f.stationId}
+                  onChange={(v) => set("stationId", v)}
+                  options={(site?.stations ?? []).map((st) => ({ value: st.id, label: st.label }))}
+                  placeholder={site?.stations.length ? undefined : "— no stations at this site —"}
+                  error={errors["reference.stationId"]}
+                />
+                <NumberField
+                  id="f-ih"
+                  label="Instrument height (m)"
+                  unit="m"
+                  value={f.instrumentHeightM}
+                  required
+                  onChange={(v) => set("instrumentHeightM", v)}
+                  error={errors["reference.instrumentHeightM"]}
+                />
+                <NumberField id="f-th" label="Target height (m)" unit="m" value={f.targetHeightM} required onChange={(v) => set("targetHeightM", v)} error={errors["reference.targetHeightM"]} />
+                <p className="text-muted sm:col-span-3">
+                  The distance comes from the surveyed positions of the station and the target. The registry does not record whether a target's surveyed height is its board centre: if it is, the
+                  target height here is 0.
                 </p>
-                {coordinates.heightsMm != null && Math.abs(coordinates.heightsMm) > coordinates.limitMm ? (
-                  <p className="flex items-center gap-2 font-bold text-warn" role="alert" data-testid="heights-warning">
-                    The heights typed change the distance by {signedMm(coordinates.heightsMm)}, more than the ±{fmt(coordinates.limitMm, 1)} mm limit:
-                    check they are measured from the same points as the site's survey.
-                  </p>
+                {coordinates ? (
+                  <div className="num space-y-1 sm:col-span-3" data-testid="coordinates-check">
+                    <p>
+                      Computed from the coordinates: <strong>{fmt(coordinates.computedM, 4)} m</strong>
+                      {coordinates.surveyedM != null ? (
+                        <>
+                          {" "}
+                          · surveyed station-to-target distance in the registry: <strong>{fmt(coordinates.surveyedM, 4)} m</strong> (difference{" "}
+                          {signedMm((coordinates.computedM - coordinates.surveyedM) * 1000)})
+                        </>
+                      ) : (
+                        " · the registry has no surveyed distance for this target"
+                      )}
+                    </p>
+                    {coordinates.heightsMm != null && Math.abs(coordinates.heightsMm) > coordinates.limitMm ? (
+                      <p className="flex items-center gap-2 font-bold text-warn" role="alert" data-testid="heights-warning">
+                        The heights typed change the distance by {signedMm(coordinates.heightsMm)}, more than the ±{fmt(coordinates.limitMm, 1)} mm limit: check they are measured from the same points
+                        as the site's survey.
+                      </p>
+                    ) : null}
+                  </div>
                 ) : null}
               </div>
             ) : null}
-          </div>
-        ) : null}
-        {f.method === "edm" ? (
-          <SelectField
-            id="f-edm"
-            label="Reference EDM"
-            value={f.edmId}
-            onChange={(v) => set("edmId", v)}
-            options={(ctx.edms ?? []).map((e) => ({ value: e.id, label: `${e.label} (${e.serial}) — ${e.uncertaintyMm} mm + ${e.uncertaintyPpm} ppm` }))}
-            placeholder="— not listed: the project's EDM figure —"
-            error={errors["reference.edmId"]}
-            optional
-          />
-        ) : null}
-        <NumberField
-          id="f-ref-u"
-          label="Reference uncertainty (mm)"
-          unit="mm"
-          value={f.refUncertaintyMm}
-          onChange={(v) => set("refUncertaintyMm", v)}
-          error={errors["reference.uncertaintyMm"]}
-          hint="Standard uncertainty (k = 1) of this reference distance, when known; empty takes it from the tape's certificate, the surveyed points or the EDM."
-        />
-      </section>
+            {f.method === "edm" ? (
+              <SelectField
+                id="f-edm"
+                label="Reference EDM"
+                value={f.edmId}
+                onChange={(v) => set("edmId", v)}
+                options={(ctx.edms ?? []).map((e) => ({ value: e.id, label: `${e.label} (${e.serial}) — ${e.uncertaintyMm} mm + ${e.uncertaintyPpm} ppm` }))}
+                placeholder="— not listed: the project's EDM figure —"
+                error={errors["reference.edmId"]}
+                optional
+              />
+            ) : null}
+            <NumberField
+              id="f-ref-u"
+              label="Reference uncertainty (mm)"
+              unit="mm"
+              value={f.refUncertaintyMm}
+              onChange={(v) => set("refUncertaintyMm", v)}
+              error={errors["reference.uncertaintyMm"]}
+              hint="Standard uncertainty (k = 1) of this reference distance, when known; empty takes it from the tape's certificate, the surveyed points or the EDM."
+            />
+          </section>
 
-      <section className="card order-2 space-y-4">
-        <h2 className="text-xl font-bold">Sensor readings</h2>
-        <Choice name="f-kind" legend="The sensor gives" value={f.readingKind} onChange={(v) => set("readingKind", v)} options={kinds} />
-        {f.readingKind === "rangesM" ? listField("ranges", "range", "readings.rangesM", "Sensor range", "m") : null}
-        {f.readingKind === "roundTripNs" ? listField("roundTrips", "rtt", "readings.roundTripNs", "Round-trip time", "ns") : null}
-        {f.readingKind === "phase" ? (
-          <div className="space-y-3">
-            {f.phase.length === 0 ? <p className="field-error">This sensor has no modulation frequencies in the registry.</p> : null}
-            {f.phase.map((p, i) => (
-              <div key={i}>
-                <label htmlFor={`f-phase-${i}`} className="field-label">
-                  Correlation samples at {fmt(Number(p.frequencyHz) / 1e6, 3)} MHz
-                </label>
-                <textarea
-                  id={`f-phase-${i}`}
-                  className="input num"
-                  rows={2}
-                  inputMode="decimal"
-                  value={p.samples}
-                  aria-invalid={errors[`readings.phase.${i}`] ? true : undefined}
-                  aria-describedby={`f-phase-${i}-hint${errors[`readings.phase.${i}`] ? ` f-phase-${i}-error` : ""}`}
-                  onChange={(e) => set("phase", f.phase.map((x, j) => (j === i ? { ...x, samples: e.target.value } : x)))}
-                />
-                <p id={`f-phase-${i}-hint`} className="mt-1 text-sm text-muted">Equally spaced samples over one period, separated by spaces or commas (decimals with a point).</p>
-                {errors[`readings.phase.${i}`] ? <p id={`f-phase-${i}-error`} className="field-error" role="alert">{errors[`readings.phase.${i}`]}</p> : null}
+          <section className="card order-2 space-y-4">
+            <h2 className="text-xl font-bold">Sensor readings</h2>
+            <Choice name="f-kind" legend="The sensor gives" value={f.readingKind} onChange={(v) => set("readingKind", v)} options={kinds} />
+            {f.readingKind === "rangesM" ? listField("ranges", "range", "readings.rangesM", "Sensor range", "m") : null}
+            {f.readingKind === "roundTripNs" ? listField("roundTrips", "rtt", "readings.roundTripNs", "Round-trip time", "ns") : null}
+            {f.readingKind === "phase" ? (
+              <div className="space-y-3">
+                {f.phase.length === 0 ? <p className="field-error">This sensor has no modulation frequencies in the registry.</p> : null}
+                {f.phase.map((p, i) => (
+                  <div key={i}>
+                    <label htmlFor={`f-phase-${i}`} className="field-label">
+                      Correlation samples at {fmt(Number(p.frequencyHz) / 1e6, 3)} MHz
+                    </label>
+                    <textarea
+                      id={`f-phase-${i}`}
+                      className="input num"
+                      rows={2}
+                      inputMode="decimal"
+                      value={p.samples}
+                      aria-invalid={errors[`readings.phase.${i}`] ? true : undefined}
+                      aria-describedby={`f-phase-${i}-hint${errors[`readings.phase.${i}`] ? ` f-phase-${i}-error` : ""}`}
+                      onChange={(e) =>
+                        set(
+                          "phase",
+                          f.phase.map((x, j) => (j === i ? { ...x, samples: e.target.value } : x)),
+                        )
+                      }
+                    />
+                    <p id={`f-phase-${i}-hint`} className="mt-1 text-sm text-muted">
+                      Equally spaced samples over one period, separated by spaces or commas (decimals with a point).
+                    </p>
+                    {errors[`readings.phase.${i}`] ? (
+                      <p id={`f-phase-${i}-error`} className="field-error" role="alert">
+                        {errors[`readings.phase.${i}`]}
+                      </p>
+                    ) : null}
+                  </div>
+                ))}
               </div>
-            ))}
-          </div>
-        ) : null}
-      </section>
+            ) : null}
+          </section>
 
-      <section className="card order-4 grid gap-4 sm:grid-cols-3">
-        <h2 className="text-xl font-bold sm:col-span-3">Target and light</h2>
-        <NumberField id="f-reflectance" label="Reflectance (%)" unit="%" value={f.reflectancePct} required onChange={(v) => set("reflectancePct", v)} error={errors["reflectancePct"]} />
-        <NumberField id="f-illuminance" label="Illuminance (klux)" unit="klux" value={f.illuminanceKlux} required onChange={(v) => set("illuminanceKlux", v)} error={errors["illuminanceKlux"]} hint={session.sky ? `Session sky: ${session.sky}` : undefined} />
-        <NumberField id="f-incidence" label="Incidence angle (°)" unit="°" value={f.incidenceDeg} onChange={(v) => set("incidenceDeg", v)} error={errors["incidenceDeg"]} />
-      </section>
+          <section className="card order-4 grid gap-4 sm:grid-cols-3">
+            <h2 className="text-xl font-bold sm:col-span-3">Target and light</h2>
+            <NumberField id="f-reflectance" label="Reflectance (%)" unit="%" value={f.reflectancePct} required onChange={(v) => set("reflectancePct", v)} error={errors["reflectancePct"]} />
+            <NumberField
+              id="f-illuminance"
+              label="Illuminance (klux)"
+              unit="klux"
+              value={f.illuminanceKlux}
+              required
+              onChange={(v) => set("illuminanceKlux", v)}
+              error={errors["illuminanceKlux"]}
+              hint={session.sky ? `Session sky: ${session.sky}` : undefined}
+            />
+            <NumberField id="f-incidence" label="Incidence angle (°)" unit="°" value={f.incidenceDeg} onChange={(v) => set("incidenceDeg", v)} error={errors["incidenceDeg"]} />
+          </section>
 
-      <section className="card order-5 grid gap-4 sm:grid-cols-2">
-        <div>
-          <p className="field-label" id="f-gps-label">GPS fix <span className="font-normal text-muted">(optional)</span></p>
-          <div className="flex flex-wrap items-center gap-2">
-            <button type="button" id="f-gps" className="btn-secondary" onClick={locate} aria-describedby="f-gps-label f-gps-state">
-              Get GPS fix
-            </button>
-            {f.position ? (
-              <button type="button" className="btn-secondary" onClick={() => set("position", null)}>
-                Clear
-              </button>
+          <section className="card order-5 grid gap-4 sm:grid-cols-2">
+            <div>
+              <p className="field-label" id="f-gps-label">
+                GPS fix <span className="font-normal text-muted">(optional)</span>
+              </p>
+              <div className="flex flex-wrap items-center gap-2">
+                <button type="button" id="f-gps" className="btn-secondary" onClick={locate} aria-describedby="f-gps-label f-gps-state">
+                  Get GPS fix
+                </button>
+                {f.position ? (
+                  <button type="button" className="btn-secondary" onClick={() => set("position", null)}>
+                    Clear
+                  </button>
+                ) : null}
+              </div>
+              <p id="f-gps-state" className="num mt-1" aria-live="polite">
+                {f.position ? `${fmt(f.position.lat, 6)}°, ${fmt(f.position.lon, 6)}°${f.position.accuracyM != null ? ` ± ${fmt(f.position.accuracyM, 0)} m` : ""}` : gps || "No fix taken."}
+              </p>
+              {errors["position"] ? (
+                <p className="field-error" role="alert">
+                  {errors["position"]}
+                </p>
+              ) : null}
+            </div>
+            <div>
+              <label htmlFor="f-photo" className="field-label">
+                Photo <span className="font-normal text-muted">(optional)</span>
+              </label>
+              <input
+                key={photoKey}
+                id="f-photo"
+                name="photo"
+                type="file"
+                accept="image/*"
+                capture="environment"
+                className="input"
+                onChange={(e) => {
+                  setPhoto(e.target.files?.[0] ?? null);
+                  setDirty(true);
+                }}
+              />
+              {photo ? (
+                <p className="mt-1 text-sm">
+                  {photo.name} · {fmt(photo.size / 1024, 0)} KB, kept with the shot
+                </p>
+              ) : null}
+              {errors["file"] ? (
+                <p className="field-error" role="alert">
+                  {errors["file"]}
+                </p>
+              ) : null}
+            </div>
+            <div className="sm:col-span-2">
+              <label htmlFor="f-note" className="field-label">
+                Note <span className="font-normal text-muted">(optional)</span>
+              </label>
+              <textarea id="f-note" className="input" rows={2} value={f.note} onChange={(e) => set("note", e.target.value)} aria-invalid={errors["note"] ? true : undefined} />
+              {errors["note"] ? (
+                <p className="field-error" role="alert">
+                  {errors["note"]}
+                </p>
+              ) : null}
+            </div>
+          </section>
+        </div>
+
+        {/* The check and Save stay in view while typing: beside the readings in landscape (pinned as
+          the form scrolls); in portrait the check under the readings, Save at the end. */}
+        <div className="contents landscape:lg:sticky landscape:lg:top-2 landscape:lg:block landscape:lg:space-y-4">
+          <div className="order-3 space-y-4" data-testid="shot-check-panel" role="region" aria-label="Instant check">
+            <section className="card" aria-live="polite">
+              {saved?.preview ? (
+                <ShotFeedback preview={saved.preview} title="Saved shot" compact />
+              ) : live?.ok ? (
+                <ShotFeedback preview={live.preview} compact implausible={implausible} />
+              ) : live && !live.ok ? (
+                <p className="font-bold text-warn">{live.message}</p>
+              ) : (
+                <p className="text-muted">Enter the reference distance, a sensor reading, reflectance and illuminance to see the range error here.</p>
+              )}
+            </section>
+
+            {confirming !== null && confirming === JSON.stringify(draft) && live?.ok ? (
+              <div id="implausible-confirm" tabIndex={-1} role="alert" className="card space-y-3 border-warn" data-testid="implausible-confirm">
+                <p className="text-lg font-bold">
+                  Check the reading: the error is {signedMm(live.preview.errorMm)} ({fmt(live.preview.errorMm / 1000, 3)} m) at {fmt(live.preview.referenceM, 3)} m.
+                </p>
+                <p>Was a value typed in the wrong unit (mm typed as m?) or a digit left out? Nothing is saved yet.</p>
+                <div className="flex flex-wrap gap-3">
+                  <button
+                    type="button"
+                    className="btn-secondary"
+                    onClick={() => {
+                      setConfirming(null);
+                      formRef.current?.querySelector<HTMLElement>("#f-range-0, #f-rtt-0, #f-phase-0")?.focus();
+                    }}
+                  >
+                    Correct the reading
+                  </button>
+                  <button type="button" className="btn" onClick={(e) => void onSubmit(e, true)}>
+                    Save anyway
+                  </button>
+                </div>
+              </div>
             ) : null}
           </div>
-          <p id="f-gps-state" className="num mt-1" aria-live="polite">
-            {f.position
-              ? `${fmt(f.position.lat, 6)}°, ${fmt(f.position.lon, 6)}°${f.position.accuracyM != null ? ` ± ${fmt(f.position.accuracyM, 0)} m` : ""}`
-              : gps || "No fix taken."}
-          </p>
-          {errors["position"] ? <p className="field-error" role="alert">{errors["position"]}</p> : null}
-        </div>
-        <div>
-          <label htmlFor="f-photo" className="field-label">
-            Photo <span className="font-normal text-muted">(optional)</span>
-          </label>
-          <input
-            key={photoKey}
-            id="f-photo"
-            name="photo"
-            type="file"
-            accept="image/*"
-            capture="environment"
-            className="input"
-            onChange={(e) => {
-              setPhoto(e.target.files?.[0] ?? null);
-              setDirty(true);
-            }}
-          />
-          {photo ? <p className="mt-1 text-sm">{photo.name} · {fmt(photo.size / 1024, 0)} KB, kept with the shot</p> : null}
-          {errors["file"] ? <p className="field-error" role="alert">{errors["file"]}</p> : null}
-        </div>
-        <div className="sm:col-span-2">
-          <label htmlFor="f-note" className="field-label">
-            Note <span className="font-normal text-muted">(optional)</span>
-          </label>
-          <textarea id="f-note" className="input" rows={2} value={f.note} onChange={(e) => set("note", e.target.value)} aria-invalid={errors["note"] ? true : undefined} />
-          {errors["note"] ? <p className="field-error" role="alert">{errors["note"]}</p> : null}
-        </div>
-      </section>
 
-      </div>
-
-      {/* The check and Save stay in view while typing: beside the readings in landscape (pinned as
-          the form scrolls); in portrait the check under the readings, Save at the end. */}
-      <div className="contents landscape:lg:sticky landscape:lg:top-2 landscape:lg:block landscape:lg:space-y-4">
-      <div className="order-3 space-y-4" data-testid="shot-check-panel" role="region" aria-label="Instant check">
-        <section className="card" aria-live="polite">
-          {saved?.preview ? (
-            <ShotFeedback preview={saved.preview} title="Saved shot" compact />
-          ) : live?.ok ? (
-            <ShotFeedback preview={live.preview} compact implausible={implausible} />
-          ) : live && !live.ok ? (
-            <p className="font-bold text-warn">{live.message}</p>
-          ) : (
-            <p className="text-muted">Enter the reference distance, a sensor reading, reflectance and illuminance to see the range error here.</p>
-          )}
-        </section>
-
-        {confirming !== null && confirming === JSON.stringify(draft) && live?.ok ? (
-          <div id="implausible-confirm" tabIndex={-1} role="alert" className="card space-y-3 border-warn" data-testid="implausible-confirm">
-            <p className="text-lg font-bold">
-              Check the reading: the error is {signedMm(live.preview.errorMm)} ({fmt(live.preview.errorMm / 1000, 3)} m) at {fmt(live.preview.referenceM, 3)} m.
+          <div className="order-6 flex flex-wrap items-center gap-4">
+            <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={saving}>
+              {saving ? "Saving…" : existing ? "Save and resend" : "Save shot"}
+            </button>
+            <p role="status" className="text-lg font-bold" data-testid="save-status">
+              {saved ? (existing ? "Saved. It goes out with the next sync." : "Saved on this tablet. It goes out with the next sync.") : ""}
             </p>
-            <p>Was a value typed in the wrong unit (mm typed as m?) or a digit left out? Nothing is saved yet.</p>
-            <div className="flex flex-wrap gap-3">
-              <button
-                type="button"
-                className="btn-secondary"
-                onClick={() => {
-                  setConfirming(null);
-                  formRef.current?.querySelector<HTMLElement>("#f-range-0, #f-rtt-0, #f-phase-0")?.focus();
-                }}
-              >
-                Correct the reading
-              </button>
-              <button type="button" className="btn" onClick={(e) => void onSubmit(e, true)}>
-                Save anyway
-              </button>
-            </div>
           </div>
-        ) : null}
-      </div>
-
-        <div className="order-6 flex flex-wrap items-center gap-4">
-          <button type="submit" className="btn min-h-14 px-8 text-xl" disabled={saving}>
-            {saving ? "Saving…" : existing ? "Save and resend" : "Save shot"}
-          </button>
-          <p role="status" className="text-lg font-bold" data-testid="save-status">
-            {saved ? (existing ? "Saved. It goes out with the next sync." : "Saved on this tablet. It goes out with the next sync.") : ""}
-          </p>
         </div>
-      </div>
       </div>
     </form>
   );

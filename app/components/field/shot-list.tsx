@@ -34,13 +34,27 @@ export function ShotList({ shots, site, photoShotIds }: { shots: LocalShot[]; si
         <table className="w-full border-collapse text-left" data-testid="shot-table">
           <thead>
             <tr className="border-b-2 border-line">
-              <th scope="col" className="p-2">#</th>
-              <th scope="col" className="p-2">Target</th>
-              <th scope="col" className="p-2 text-right">Reference (m)</th>
-              <th scope="col" className="p-2 text-right">Error (mm)</th>
-              <th scope="col" className="p-2 text-right">Limit (mm)</th>
-              <th scope="col" className="p-2">Check</th>
-              <th scope="col" className="p-2">Outbox</th>
+              <th scope="col" className="p-2">
+                #
+              </th>
+              <th scope="col" className="p-2">
+                Target
+              </th>
+              <th scope="col" className="p-2 text-right">
+                Reference (m)
+              </th>
+              <th scope="col" className="p-2 text-right">
+                Error (mm)
+              </th>
+              <th scope="col" className="p-2 text-right">
+                Limit (mm)
+              </th>
+              <th scope="col" className="p-2">
+                Check
+              </th>
+              <th scope="col" className="p-2">
+                Outbox
+              </th>
             </tr>
           </thead>
           <tbody>
@@ -66,7 +80,12 @@ const ShotRow = memo(
       <tr className="border-b border-line" data-testid="shot-row" data-state={s.state}>
         <td className="num p-2">{n}</td>
         <td className="p-2">
-          {targetLabel ?? "—"} {photo ? <span title="with photo" aria-label="with photo">📷</span> : null}
+          {targetLabel ?? "—"}{" "}
+          {photo ? (
+            <span title="with photo" aria-label="with photo">
+              📷
+            </span>
+          ) : null}
         </td>
         <td className="num p-2 text-right">{s.preview ? fmt(s.preview.referenceM, 3) : "—"}</td>
         <td className="num p-2 text-right">{s.preview ? signedMm(s.preview.errorMm).replace(" mm", "") : "—"}</td>

@@ -19,14 +19,15 @@ export type StuckRecordsProps = {
 
 export function StuckRecords({ sessions, shots, sessionOf, sensorLabel, siteName, targetLabel, onRetry, onDiscard }: StuckRecordsProps) {
   if (sessions.length + shots.length === 0) return null;
-  const where = (s: LocalSession | undefined) =>
-    s ? `${sensorLabel[s.record.sensorId] ?? s.record.sensorId} at ${siteName[s.record.siteId] ?? s.record.siteId}` : "a session not on this tablet";
+  const where = (s: LocalSession | undefined) => (s ? `${sensorLabel[s.record.sensorId] ?? s.record.sensorId} at ${siteName[s.record.siteId] ?? s.record.siteId}` : "a session not on this tablet");
   return (
     <section className="space-y-3" aria-labelledby="stuck-title">
-      <h2 id="stuck-title" className="text-2xl font-bold text-warn">⚠ The server fails on these: kept on the tablet</h2>
+      <h2 id="stuck-title" className="text-2xl font-bold text-warn">
+        ⚠ The server fails on these: kept on the tablet
+      </h2>
       <p>
-        The server answered with an error for these records alone, so they were set aside and everything else was sent. They stay queued and are tried again at each
-        sync; fix one if its values look wrong, or tell an admin what the server said.
+        The server answered with an error for these records alone, so they were set aside and everything else was sent. They stay queued and are tried again at each sync; fix one if its values look
+        wrong, or tell an admin what the server said.
       </p>
       <ul className="space-y-3">
         {sessions.map((s) => (

@@ -84,10 +84,7 @@ export function ErrorVsDistanceChart({ report, legendBeside }: { report: ReportJ
         build={(P, width, c) => {
           const env = [...rows].sort((a, b) => a.referenceM - b.referenceM).map((r) => ({ d: r.referenceM, lim: r.limitMm }));
           const maxD = env.length ? env[env.length - 1]!.d : 1;
-          const fit =
-            report.zeroOffsetMm != null && report.scalePpm != null
-              ? [0, maxD].map((d) => ({ d, e: report.zeroOffsetMm! + (report.scalePpm! * d) / 1000 }))
-              : [];
+          const fit = report.zeroOffsetMm != null && report.scalePpm != null ? [0, maxD].map((d) => ({ d, e: report.zeroOffsetMm! + (report.scalePpm! * d) / 1000 })) : [];
           const inc = rows.filter((r) => !r.excluded);
           return P.plot({
             width,
@@ -103,20 +100,42 @@ export function ErrorVsDistanceChart({ report, legendBeside }: { report: ReportJ
               P.line(env, { x: "d", y: (r: { lim: number }) => -r.lim, stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }),
               P.ruleY([0], { stroke: c.muted }),
               fit.length ? P.line(fit, { x: "d", y: "e", stroke: c.warn, strokeWidth: 3 }) : null,
-              P.dot(rows.filter((r) => r.excluded), { x: "referenceM", y: "errorMm", symbol: "square", stroke: c.muted, fill: "none", r: 5, strokeWidth: 2 }),
-              P.dot(inc.filter((r) => r.within), { x: "referenceM", y: "errorMm", symbol: "circle", fill: c.pass, r: 4.5 }),
-              P.dot(inc.filter((r) => !r.within), { x: "referenceM", y: "errorMm", symbol: "triangle", fill: c.fail, r: 6 }),
-              P.tip(rows, P.pointer({ x: "referenceM", y: "errorMm", title: (r: ReportShotRow) => `${r.referenceM.toFixed(3)} m\nerror ${r.errorMm.toFixed(2)} mm\nlimit ±${r.limitMm.toFixed(2)} mm` })),
+              P.dot(
+                rows.filter((r) => r.excluded),
+                { x: "referenceM", y: "errorMm", symbol: "square", stroke: c.muted, fill: "none", r: 5, strokeWidth: 2 },
+              ),
+              P.dot(
+                inc.filter((r) => r.within),
+                { x: "referenceM", y: "errorMm", symbol: "circle", fill: c.pass, r: 4.5 },
+              ),
+              P.dot(
+                inc.filter((r) => !r.within),
+                { x: "referenceM", y: "errorMm", symbol: "triangle", fill: c.fail, r: 6 },
+              ),
+              P.tip(
+                rows,
+                P.pointer({ x: "referenceM", y: "errorMm", title: (r: ReportShotRow) => `${r.referenceM.toFixed(3)} m\nerror ${r.errorMm.toFixed(2)} mm\nlimit ±${r.limitMm.toFixed(2)} mm` }),
+              ),
             ],
           });
         }}
       />
       <figcaption className={captionClass(legendBeside)}>
-        <span><LegendSwatch shape="circle" color="var(--pass)" /> within limit</span>
-        <span><LegendSwatch shape="triangle" color="var(--fail)" /> outside limit</span>
-        <span><LegendSwatch shape="square" color="var(--muted)" hollow /> excluded</span>
-        <span><span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± limit (k × tolerance, mm)</span>
-        <span><span className="inline-block h-0 w-6 border-t-4 border-warn align-middle" /> fit: zero offset + scale × D</span>
+        <span>
+          <LegendSwatch shape="circle" color="var(--pass)" /> within limit
+        </span>
+        <span>
+          <LegendSwatch shape="triangle" color="var(--fail)" /> outside limit
+        </span>
+        <span>
+          <LegendSwatch shape="square" color="var(--muted)" hollow /> excluded
+        </span>
+        <span>
+          <span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± limit (k × tolerance, mm)
+        </span>
+        <span>
+          <span className="inline-block h-0 w-6 border-t-4 border-warn align-middle" /> fit: zero offset + scale × D
+        </span>
       </figcaption>
     </figure>
   );
@@ -141,7 +160,16 @@ export function MatrixChart({ cells, worst, legendBeside }: { cells: MatrixCell[
             x: { domain: [...ILLUMINANCE_ORDER], label: "Illuminance at the target (klux)", tickFormat: (b: string) => (b === "low" ? "< 10" : b === "moderate" ? "10–50" : "≥ 50, sun") },
             y: { domain: present, label: null, tickFormat: (b: string) => bandWord(b) },
             // the ramp's end labels sit on its ends: margins keep "−4,000" whole
-            color: { type: "diverging", scheme: "RdBu", reverse: true, domain: [-maxAbs, maxAbs], pivot: 0, legend: true, label: "Bias (mm, blue reads short, red reads long)", ...({ marginLeft: 24, marginRight: 24, width: 320 } as object) },
+            color: {
+              type: "diverging",
+              scheme: "RdBu",
+              reverse: true,
+              domain: [-maxAbs, maxAbs],
+              pivot: 0,
+              legend: true,
+              label: "Bias (mm, blue reads short, red reads long)",
+              ...({ marginLeft: 24, marginRight: 24, width: 320 } as object),
+            },
             marks: [
               P.cell(cells, { x: "illuminance", y: "reflectance", fill: "biasMm", inset: 2 }),
               worst ? P.cell([worst], { x: "illuminance", y: "reflectance", stroke: c.fg, strokeWidth: 4, fill: "none", inset: 1 }) : null,
@@ -161,8 +189,7 @@ export function MatrixChart({ cells, worst, legendBeside }: { cells: MatrixCell[
         }
       />
       <figcaption className={legendBeside ? "pt-2 text-sm" : "mt-1 text-base text-muted"}>
-        Each cell: bias of its included shots (mm, colour scale above the cells: blue reads short, red reads long) and their count; the framed cell is the
-        largest bias with 3 or more shots.
+        Each cell: bias of its included shots (mm, colour scale above the cells: blue reads short, red reads long) and their count; the framed cell is the largest bias with 3 or more shots.
       </figcaption>
     </figure>
   );
@@ -220,7 +247,11 @@ export function DriftChart({
           const span = t1 - t0 || 1;
           const px = (d: { t: Date }) => (data.length < 2 ? 0 : ((d.t.getTime() - t0) / span) * (width - marginLeft - marginRight - 2 * inset));
           const labelled = thinByX(data, px, 52);
-          const flagged = thinByX(data.filter((d) => d.flag), px, 52);
+          const flagged = thinByX(
+            data.filter((d) => d.flag),
+            px,
+            52,
+          );
           const offsets = [...new Set(data.map((d) => -d.t.getTimezoneOffset()))];
           const zone = offsets.length === 1 ? `local time, UTC${offsetText(offsets[0]!)}` : "local time";
           return P.plot({
@@ -248,8 +279,14 @@ export function DriftChart({
               trend.length ? P.line(trend, { x: "t", y: "biasMm", stroke: c.accent, strokeWidth: 2, strokeDasharray: "2,4" }) : null,
               pastDue.length ? P.dot(pastDue, { x: "t", y: "biasMm", symbol: "square", r: 12, stroke: c.fail, strokeWidth: 2.5, fill: "none" }) : null,
               pastDue.length ? P.text(thinByX(pastDue, px, 52), { x: "t", y: "biasMm", text: () => "cert. past due", dy: 22, fill: c.fail, fontWeight: "bold" }) : null,
-              P.dot(data.filter((d) => !d.flag), { x: "t", y: "biasMm", fill: c.fg, r: 5, symbol: "circle" }),
-              P.dot(data.filter((d) => d.flag), { x: "t", y: "biasMm", fill: c.warn, r: 8, symbol: "triangle", stroke: c.fg }),
+              P.dot(
+                data.filter((d) => !d.flag),
+                { x: "t", y: "biasMm", fill: c.fg, r: 5, symbol: "circle" },
+              ),
+              P.dot(
+                data.filter((d) => d.flag),
+                { x: "t", y: "biasMm", fill: c.warn, r: 8, symbol: "triangle", stroke: c.fg },
+              ),
               P.text(flagged, { x: "t", y: "biasMm", text: () => "drift", dy: -16, fill: c.fg, fontWeight: "bold" }),
               // shot counts along the top edge, clear of the points and the time axis
               P.text(labelled, { x: "t", frameAnchor: "top", text: (d: DriftRow) => `n ${d.n}`, dy: -6, fill: c.muted }),
@@ -258,15 +295,25 @@ export function DriftChart({
         }}
       />
       <figcaption className={captionClass(legendBeside)}>
-        <span><LegendSwatch shape="circle" color="var(--fg)" /> session bias (n = its shots; labels thinned where sessions crowd)</span>
-        <span><LegendSwatch shape="triangle" color="var(--warn)" /> {flagLegend ?? "drift: moved more than the tolerance from the last sign-off"}</span>
+        <span>
+          <LegendSwatch shape="circle" color="var(--fg)" /> session bias (n = its shots; labels thinned where sessions crowd)
+        </span>
+        <span>
+          <LegendSwatch shape="triangle" color="var(--warn)" /> {flagLegend ?? "drift: moved more than the tolerance from the last sign-off"}
+        </span>
         {trend.length ? (
-          <span><span className="inline-block h-0 w-6 border-t-2 border-dotted border-accent align-middle" /> bias trend (least squares)</span>
+          <span>
+            <span className="inline-block h-0 w-6 border-t-2 border-dotted border-accent align-middle" /> bias trend (least squares)
+          </span>
         ) : null}
         {pastDue.length ? (
-          <span><LegendSwatch shape="square" color="var(--fail)" hollow /> certificate past due on the session's date</span>
+          <span>
+            <LegendSwatch shape="square" color="var(--fail)" hollow /> certificate past due on the session's date
+          </span>
         ) : null}
-        <span><span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± bias limit (mm)</span>
+        <span>
+          <span className="inline-block h-0 w-6 border-t-2 border-dashed border-accent align-middle" /> ± bias limit (mm)
+        </span>
       </figcaption>
     </figure>
   );

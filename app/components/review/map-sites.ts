@@ -24,7 +24,7 @@ export function sessionSites(sessions: SessionSite[]): Map<string, string> {
 /** The site a shot feature was taken at, through its session; null when its session is unknown. */
 export function siteOfShot(f: Feature, bySession: Map<string, string>): string | null {
   const sid = f.properties?.sessionId;
-  return typeof sid === "string" ? bySession.get(sid) ?? null : null;
+  return typeof sid === "string" ? (bySession.get(sid) ?? null) : null;
 }
 
 /**
@@ -40,9 +40,7 @@ export function siteChoices(shots: FeatureCollection, sessions: SessionSite[]): 
     const site = siteOfShot(f, bySession);
     if (site) counts.set(site, (counts.get(site) ?? 0) + 1);
   }
-  return [...counts]
-    .map(([id, n]) => ({ id, name: names.get(id) ?? id, n }))
-    .sort((a, b) => b.n - a.n || a.name.localeCompare(b.name));
+  return [...counts].map(([id, n]) => ({ id, name: names.get(id) ?? id, n })).sort((a, b) => b.n - a.n || a.name.localeCompare(b.name));
 }
 
 /**
@@ -57,10 +55,11 @@ export function defaultSite(choices: SiteChoice[], sessions: SessionSite[], sess
 
 function extend(b: Bounds | null, [lon, lat]: number[]): Bounds | null {
   if (!Number.isFinite(lon) || !Number.isFinite(lat)) return b;
-  if (!b) return [
-    [lon!, lat!],
-    [lon!, lat!],
-  ];
+  if (!b)
+    return [
+      [lon!, lat!],
+      [lon!, lat!],
+    ];
   return [
     [Math.min(b[0][0], lon!), Math.min(b[0][1], lat!)],
     [Math.max(b[1][0], lon!), Math.max(b[1][1], lat!)],
@@ -71,11 +70,7 @@ function extend(b: Bounds | null, [lon, lat]: number[]): Bounds | null {
  * West-south / east-north corners of a site's located shots, stations and targets ("" = every
  * site). Stations and targets carry their siteId; shots are tied to a site through their session.
  */
-export function siteBounds(
-  site: string,
-  parts: { shots: FeatureCollection; stations: FeatureCollection; targets: FeatureCollection },
-  sessions: SessionSite[],
-): Bounds | null {
+export function siteBounds(site: string, parts: { shots: FeatureCollection; stations: FeatureCollection; targets: FeatureCollection }, sessions: SessionSite[]): Bounds | null {
   const bySession = sessionSites(sessions);
   let b: Bounds | null = null;
   for (const f of parts.shots.features) {

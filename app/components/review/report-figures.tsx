@@ -8,35 +8,45 @@ import type { BandRow, ReportJson, ReportTest } from "./types";
 export function TestsTable({ tests, referenceInVerdict = false }: { tests: ReportTest[]; referenceInVerdict?: boolean }) {
   return (
     <>
-    <table className="w-full border-collapse text-left" data-testid="tests-table">
-      <caption className="sr-only">Acceptance tests</caption>
-      <thead>
-        <tr className="border-b-2 border-line">
-          <th scope="col" className="py-2 pr-3">Test</th>
-          <th scope="col" className="py-2 pr-3 text-right">Value</th>
-          <th scope="col" className="py-2 pr-3 text-right">Limit</th>
-          <th scope="col" className="py-2">Result</th>
-        </tr>
-      </thead>
-      <tbody>
-        {tests.map((t) => (
-          <tr key={t.name} className="border-b border-line" data-test={t.name} data-pass={t.pass}>
-            <th scope="row" className="py-2 pr-3 font-bold">{TEST_WORDS[t.name].title}</th>
-            <td className="py-2 pr-3 text-right num">{testValue(t.name, t.value)}</td>
-            <td className="py-2 pr-3 text-right num">
-              <span className="text-muted">{TEST_WORDS[t.name].rule}</span> {testLimit(t.name, t.limit)}
-            </td>
-            <td className="py-2">
-              {t.pass === null ? <span className="font-bold text-warn">Unknown</span> : <VerdictBadge verdict={t.pass ? "pass" : "fail"} />}
-              {t.name === "reference" ? <span className="block text-sm text-muted">{referenceInVerdict ? "in the verdict" : "advisory"}</span> : null}
-            </td>
+      <table className="w-full border-collapse text-left" data-testid="tests-table">
+        <caption className="sr-only">Acceptance tests</caption>
+        <thead>
+          <tr className="border-b-2 border-line">
+            <th scope="col" className="py-2 pr-3">
+              Test
+            </th>
+            <th scope="col" className="py-2 pr-3 text-right">
+              Value
+            </th>
+            <th scope="col" className="py-2 pr-3 text-right">
+              Limit
+            </th>
+            <th scope="col" className="py-2">
+              Result
+            </th>
           </tr>
-        ))}
-      </tbody>
-    </table>
-    <p className="mt-1 text-sm text-muted" data-testid="precision-note">
-      Precision test adapted from ISO 17123-4 (reflector EDM); no conformance claimed.
-    </p>
+        </thead>
+        <tbody>
+          {tests.map((t) => (
+            <tr key={t.name} className="border-b border-line" data-test={t.name} data-pass={t.pass}>
+              <th scope="row" className="py-2 pr-3 font-bold">
+                {TEST_WORDS[t.name].title}
+              </th>
+              <td className="py-2 pr-3 text-right num">{testValue(t.name, t.value)}</td>
+              <td className="py-2 pr-3 text-right num">
+                <span className="text-muted">{TEST_WORDS[t.name].rule}</span> {testLimit(t.name, t.limit)}
+              </td>
+              <td className="py-2">
+                {t.pass === null ? <span className="font-bold text-warn">Unknown</span> : <VerdictBadge verdict={t.pass ? "pass" : "fail"} />}
+                {t.name === "reference" ? <span className="block text-sm text-muted">{referenceInVerdict ? "in the verdict" : "advisory"}</span> : null}
+              </td>
+            </tr>
+          ))}
+        </tbody>
+      </table>
+      <p className="mt-1 text-sm text-muted" data-testid="precision-note">
+        Precision test adapted from ISO 17123-4 (reflector EDM); no conformance claimed.
+      </p>
     </>
   );
 }
@@ -69,9 +79,7 @@ export function FiguresGrid({ report }: { report: ReportJson }) {
       <Figure label="Bias" value={mmSigned(report.biasMm, 2)} hint={ci ? `95 % CI ${num(ci[0], 2)} to ${num(ci[1], 2)} mm` : "95 % CI —"} />
       <Figure label="Standard deviation" value={mm(report.sdMm, 2)} />
       <Figure label="RMSE" value={mm(report.rmseMm, 2)} />
-      {report.statement === "nssda95" ? (
-        <Figure label="95 % accuracy (1.96 × RMSE)" value={mm(report.accuracy95Mm, 2)} hint="valid for near-normal, near-unbiased errors" />
-      ) : null}
+      {report.statement === "nssda95" ? <Figure label="95 % accuracy (1.96 × RMSE)" value={mm(report.accuracy95Mm, 2)} hint="valid for near-normal, near-unbiased errors" /> : null}
       <Figure
         label="RMSE, reference included"
         value={mm(report.rmseCombinedMm, 2)}
@@ -80,16 +88,8 @@ export function FiguresGrid({ report }: { report: ReportJson }) {
       <Figure label="95th percentile |error|" value={mm(report.p95AbsMm, 2)} />
       <Figure label="Max |error|" value={mm(report.maxAbsMm, 2)} />
       <Figure label="Within limit" value={pct(report.withinPct)} hint={`rule: ≥ ${report.rule.minWithinPct} %`} />
-      <Figure
-        label="Zero offset"
-        value={mmSigned(report.zeroOffsetMm, 2)}
-        hint={report.zeroOffsetSeMm == null ? undefined : `± ${num(report.zeroOffsetSeMm, 2)} mm (1 SE)`}
-      />
-      <Figure
-        label="Scale error"
-        value={report.scalePpm == null ? "—" : `${num(report.scalePpm, 1)} ppm`}
-        hint={report.scaleSePpm == null ? undefined : `± ${num(report.scaleSePpm, 1)} ppm (1 SE)`}
-      />
+      <Figure label="Zero offset" value={mmSigned(report.zeroOffsetMm, 2)} hint={report.zeroOffsetSeMm == null ? undefined : `± ${num(report.zeroOffsetSeMm, 2)} mm (1 SE)`} />
+      <Figure label="Scale error" value={report.scalePpm == null ? "—" : `${num(report.scalePpm, 1)} ppm`} hint={report.scaleSePpm == null ? undefined : `± ${num(report.scaleSePpm, 1)} ppm (1 SE)`} />
       <Figure label="R² of the fit" value={num(report.rSquared, 3)} />
       <Figure label="Coverage factor k" value={num(report.rule.coverageK, 1)} hint={`min. ${report.rule.minShots} shots`} />
     </dl>
@@ -102,23 +102,39 @@ export function BandTable({ title, rows }: { title: string; rows: BandRow[] }) {
       <caption className="mb-1 text-left text-lg font-bold">{title}</caption>
       <thead>
         <tr className="border-b-2 border-line">
-          <th scope="col" className="py-1 pr-2">Band</th>
-          <th scope="col" className="py-1 pr-2 text-right">n</th>
-          <th scope="col" className="py-1 pr-2 text-right">Bias (mm)</th>
-          <th scope="col" className="py-1 pr-2 text-right">SD (mm)</th>
-          <th scope="col" className="py-1 pr-2 text-right">RMSE (mm)</th>
-          <th scope="col" className="py-1 text-right">Within (%)</th>
+          <th scope="col" className="py-1 pr-2">
+            Band
+          </th>
+          <th scope="col" className="py-1 pr-2 text-right">
+            n
+          </th>
+          <th scope="col" className="py-1 pr-2 text-right">
+            Bias (mm)
+          </th>
+          <th scope="col" className="py-1 pr-2 text-right">
+            SD (mm)
+          </th>
+          <th scope="col" className="py-1 pr-2 text-right">
+            RMSE (mm)
+          </th>
+          <th scope="col" className="py-1 text-right">
+            Within (%)
+          </th>
         </tr>
       </thead>
       <tbody>
         {rows.length === 0 ? (
           <tr>
-            <td colSpan={6} className="py-2 text-muted">No shots in any band.</td>
+            <td colSpan={6} className="py-2 text-muted">
+              No shots in any band.
+            </td>
           </tr>
         ) : (
           rows.map((r) => (
             <tr key={r.band} className="border-b border-line num">
-              <th scope="row" className="py-1 pr-2 text-left font-normal">{bandWord(r.band)}</th>
+              <th scope="row" className="py-1 pr-2 text-left font-normal">
+                {bandWord(r.band)}
+              </th>
               <td className="py-1 pr-2 text-right">{r.n}</td>
               <td className="py-1 pr-2 text-right">{signedOrDash(r.biasMm)}</td>
               <td className="py-1 pr-2 text-right">{num(r.sdMm, 2)}</td>
@@ -148,13 +164,17 @@ export function VerdictHeadline({ report }: { report: Pick<ReportJson, "tests" |
         <ul className="mt-2 space-y-1 text-lg" data-testid="why">
           {flaggedLine ? (
             <li className="flex items-start gap-2 font-bold" data-testid="why-flagged">
-              <span className="mt-0.5 text-warn" aria-hidden="true">⚑</span>
+              <span className="mt-0.5 text-warn" aria-hidden="true">
+                ⚑
+              </span>
               <span>{flaggedLine}</span>
             </li>
           ) : null}
           {testLines.map((l) => (
             <li key={l} className="flex items-start gap-2">
-              <span className="mt-1 text-fail"><VerdictShape verdict="fail" size={14} /></span>
+              <span className="mt-1 text-fail">
+                <VerdictShape verdict="fail" size={14} />
+              </span>
               <span>{l}</span>
             </li>
           ))}

@@ -48,7 +48,9 @@ export function ReshootPanel({ sensorLabel, reshoots, options, actionData }: { s
 
   return (
     <section aria-labelledby="h-reshoot" className="card space-y-3" data-testid="reshoots">
-      <h2 id="h-reshoot" className="text-2xl font-bold">Re-shoot requests</h2>
+      <h2 id="h-reshoot" className="text-2xl font-bold">
+        Re-shoot requests
+      </h2>
       {reshoots.length === 0 ? (
         <p className="text-muted">No re-shoot requests for {sensorLabel}.</p>
       ) : (
@@ -113,35 +115,63 @@ export function ReshootPanel({ sensorLabel, reshoots, options, actionData }: { s
               <input type="hidden" name="intent" value="reshoot" />
               <div className="grid gap-3 sm:grid-cols-2">
                 <div>
-                  <label htmlFor={fields.siteId.id} className="field-label">Site</label>
+                  <label htmlFor={fields.siteId.id} className="field-label">
+                    Site
+                  </label>
                   <select {...getSelectProps(fields.siteId)} key={fields.siteId.key} className="input">
                     <option value="">Choose a site…</option>
                     {options.sites.map((s) => (
-                      <option key={s.id} value={s.id}>{s.name}</option>
+                      <option key={s.id} value={s.id}>
+                        {s.name}
+                      </option>
                     ))}
                   </select>
-                  {fields.siteId.errors ? <p className="field-error" id={fields.siteId.errorId}>{fields.siteId.errors[0]}</p> : null}
+                  {fields.siteId.errors ? (
+                    <p className="field-error" id={fields.siteId.errorId}>
+                      {fields.siteId.errors[0]}
+                    </p>
+                  ) : null}
                 </div>
                 <div>
-                  <label htmlFor={fields.projectId.id} className="field-label">Project (optional)</label>
+                  <label htmlFor={fields.projectId.id} className="field-label">
+                    Project (optional)
+                  </label>
                   <select {...getSelectProps(fields.projectId)} key={fields.projectId.key} className="input">
                     <option value="">Any project holding the sensor and site</option>
                     {options.projects.map((p) => (
-                      <option key={p.id} value={p.id}>{p.name}</option>
+                      <option key={p.id} value={p.id}>
+                        {p.name}
+                      </option>
                     ))}
                   </select>
-                  {fields.projectId.errors ? <p className="field-error" id={fields.projectId.errorId}>{fields.projectId.errors[0]}</p> : null}
+                  {fields.projectId.errors ? (
+                    <p className="field-error" id={fields.projectId.errorId}>
+                      {fields.projectId.errors[0]}
+                    </p>
+                  ) : null}
                 </div>
               </div>
               <div>
-                <label htmlFor={fields.wanted.id} className="field-label">What to shoot (targets, range bands, reflectances, light)</label>
+                <label htmlFor={fields.wanted.id} className="field-label">
+                  What to shoot (targets, range bands, reflectances, light)
+                </label>
                 <input {...getInputProps(fields.wanted, { type: "text" })} key={fields.wanted.key} className="input w-full" placeholder="e.g. dark board at 40 m, 5 shots in bright sun" />
-                {fields.wanted.errors ? <p className="field-error" id={fields.wanted.errorId}>{fields.wanted.errors[0]}</p> : null}
+                {fields.wanted.errors ? (
+                  <p className="field-error" id={fields.wanted.errorId}>
+                    {fields.wanted.errors[0]}
+                  </p>
+                ) : null}
               </div>
               <div>
-                <label htmlFor={fields.reason.id} className="field-label">Why</label>
+                <label htmlFor={fields.reason.id} className="field-label">
+                  Why
+                </label>
                 <textarea {...getTextareaProps(fields.reason)} key={fields.reason.key} rows={2} className="input w-full" placeholder="e.g. the bias on dark targets is near the limit" />
-                {fields.reason.errors ? <p className="field-error" id={fields.reason.errorId}>{fields.reason.errors[0]}</p> : null}
+                {fields.reason.errors ? (
+                  <p className="field-error" id={fields.reason.errorId}>
+                    {fields.reason.errors[0]}
+                  </p>
+                ) : null}
               </div>
               {form.errors ? <p className="field-error">{form.errors[0]}</p> : null}
               <button type="submit" className="btn" disabled={busy === "reshoot"}>

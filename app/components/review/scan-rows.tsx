@@ -41,7 +41,12 @@ export function PlanePlot({ row }: { row: ScanTargetRow }) {
   const sx = (v: number) => pad + ((v + ext) / (2 * ext)) * (size - 2 * pad);
   return (
     <figure className="inline-block" data-testid={`plot-${row.targetId}`}>
-      <svg width={size} height={size + 26} role="img" aria-label={`Points of ${row.label ?? row.targetId} on the fitted plane, coloured by distance from it: blue behind, orange in front, ±${lim.toFixed(1)} mm full scale`}>
+      <svg
+        width={size}
+        height={size + 26}
+        role="img"
+        aria-label={`Points of ${row.label ?? row.targetId} on the fitted plane, coloured by distance from it: blue behind, orange in front, ±${lim.toFixed(1)} mm full scale`}
+      >
         <rect x={0} y={0} width={size} height={size} fill="#1b1b1b" rx={4} />
         {p.a.map((a, i) => (
           <circle key={i} cx={sx(a)} cy={size - sx(p.b[i])} r={1.6} fill={colourOf(p.dMm[i], lim)} />
@@ -54,9 +59,15 @@ export function PlanePlot({ row }: { row: ScanTargetRow }) {
           </linearGradient>
         </defs>
         <rect x={pad} y={size + 4} width={size - 2 * pad} height={8} fill={`url(#lg-${row.targetId})`} />
-        <text x={pad} y={size + 24} fontSize={11} fill="currentColor">−{lim.toFixed(1)}</text>
-        <text x={size / 2} y={size + 24} fontSize={11} fill="currentColor" textAnchor="middle">0 mm</text>
-        <text x={size - pad} y={size + 24} fontSize={11} fill="currentColor" textAnchor="end">+{lim.toFixed(1)}</text>
+        <text x={pad} y={size + 24} fontSize={11} fill="currentColor">
+          −{lim.toFixed(1)}
+        </text>
+        <text x={size / 2} y={size + 24} fontSize={11} fill="currentColor" textAnchor="middle">
+          0 mm
+        </text>
+        <text x={size - pad} y={size + 24} fontSize={11} fill="currentColor" textAnchor="end">
+          +{lim.toFixed(1)}
+        </text>
       </svg>
     </figure>
   );
@@ -86,9 +97,15 @@ function PhotoAttach({ shotId, label }: { shotId: string; label: string }) {
   const id = `photo-${shotId}`;
   return (
     <span className="mt-1 block text-sm font-normal text-fg">
-      <label htmlFor={id} className="underline underline-offset-4">Attach a photo of {label}</label>
+      <label htmlFor={id} className="underline underline-offset-4">
+        Attach a photo of {label}
+      </label>
       <input id={id} type="file" accept="image/*" className="mt-1 block max-w-56 text-sm" disabled={state.busy} onChange={(e) => e.target.files?.[0] && void attach(e.target.files[0])} />
-      {state.message ? <span className={`block ${state.ok ? "text-pass" : "text-fail"}`} role="status">{state.message}</span> : null}
+      {state.message ? (
+        <span className={`block ${state.ok ? "text-pass" : "text-fail"}`} role="status">
+          {state.message}
+        </span>
+      ) : null}
     </span>
   );
 }
@@ -118,19 +135,41 @@ export function ScanRowsTable({ rows, frames = false }: { rows: ScanTargetRow[];
         <caption className="sr-only">One row per target: what was found and the check-shot it makes</caption>
         <thead>
           <tr className="border-b-2 border-line">
-            <th scope="col" className="py-1 pr-2">Target</th>
-            <th scope="col" className="py-1 pr-2 text-right">Points</th>
-            <th scope="col" className="py-1 pr-2 text-right">Plane RMS (mm)</th>
-            <th scope="col" className="py-1 pr-2 text-right">Incidence (°)</th>
-            <th scope="col" className="py-1 pr-2 text-right">Range (m)</th>
-            <th scope="col" className="py-1 pr-2 text-right">Reference (m)</th>
-            <th scope="col" className="py-1 pr-2 text-right">Error (mm)</th>
-            <th scope="col" className="py-1 pr-2 text-right">Limit (mm)</th>
-            <th scope="col" className="py-1 pr-2">Within</th>
+            <th scope="col" className="py-1 pr-2">
+              Target
+            </th>
+            <th scope="col" className="py-1 pr-2 text-right">
+              Points
+            </th>
+            <th scope="col" className="py-1 pr-2 text-right">
+              Plane RMS (mm)
+            </th>
+            <th scope="col" className="py-1 pr-2 text-right">
+              Incidence (°)
+            </th>
+            <th scope="col" className="py-1 pr-2 text-right">
+              Range (m)
+            </th>
+            <th scope="col" className="py-1 pr-2 text-right">
+              Reference (m)
+            </th>
+            <th scope="col" className="py-1 pr-2 text-right">
+              Error (mm)
+            </th>
+            <th scope="col" className="py-1 pr-2 text-right">
+              Limit (mm)
+            </th>
+            <th scope="col" className="py-1 pr-2">
+              Within
+            </th>
             {frames ? (
               <>
-                <th scope="col" className="py-1 pr-2 text-right">Temporal noise (mm)</th>
-                <th scope="col" className="py-1 pr-2 text-right">Flying pixels</th>
+                <th scope="col" className="py-1 pr-2 text-right">
+                  Temporal noise (mm)
+                </th>
+                <th scope="col" className="py-1 pr-2 text-right">
+                  Flying pixels
+                </th>
               </>
             ) : null}
           </tr>
@@ -150,7 +189,9 @@ function RowPair({ r, frames }: { r: ScanTargetRow; frames: boolean }) {
   if (r.status === "not_found") {
     return (
       <tr className="border-b border-line" data-target={r.targetId} data-status="not_found">
-        <th scope="row" className="py-2 pr-2 font-bold">{r.label ?? r.targetId}</th>
+        <th scope="row" className="py-2 pr-2 font-bold">
+          {r.label ?? r.targetId}
+        </th>
         <td className="py-2 pr-2 text-right">{r.points}</td>
         <td colSpan={cols - 2} className="py-2 pr-2 text-warn">
           ⚠ Not found: {r.reason}
@@ -170,9 +211,13 @@ function RowPair({ r, frames }: { r: ScanTargetRow; frames: boolean }) {
         <td className="py-1 pr-2 text-right">{num(r.incidenceDeg, 1)}</td>
         <td className="py-1 pr-2 text-right">{num(r.rangeM, 4)}</td>
         <td className="py-1 pr-2 text-right">{num(r.referenceM, 4)}</td>
-        <td className="py-1 pr-2 text-right font-bold" data-testid="error-mm">{signed(r.errorMm, 2)}</td>
+        <td className="py-1 pr-2 text-right font-bold" data-testid="error-mm">
+          {signed(r.errorMm, 2)}
+        </td>
         <td className="py-1 pr-2 text-right">{num(r.limitMm, 2)}</td>
-        <td className="py-1 pr-2"><WithinCell within={r.within} /></td>
+        <td className="py-1 pr-2">
+          <WithinCell within={r.within} />
+        </td>
         {frames ? (
           <>
             <td className="py-1 pr-2 text-right">{num(r.temporalNoiseMm, 2)}</td>

@@ -67,8 +67,18 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
     <div data-testid="shot-table">
       <div className="mb-3 flex flex-wrap items-end gap-3">
         <div>
-          <label htmlFor="shot-status" className="field-label">Show</label>
-          <select id="shot-status" className="input" value={status} onChange={(e) => { setStatus(e.target.value as StatusFilter); setPage(0); }}>
+          <label htmlFor="shot-status" className="field-label">
+            Show
+          </label>
+          <select
+            id="shot-status"
+            className="input"
+            value={status}
+            onChange={(e) => {
+              setStatus(e.target.value as StatusFilter);
+              setPage(0);
+            }}
+          >
             <option value="all">All shots</option>
             <option value="outside">Outside limit</option>
             <option value="within">Within limit</option>
@@ -77,15 +87,29 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
           </select>
         </div>
         <div>
-          <label htmlFor="shot-session" className="field-label">Session</label>
-          <select id="shot-session" className="input" value={session} onChange={(e) => { setSession(e.target.value); setPage(0); }}>
+          <label htmlFor="shot-session" className="field-label">
+            Session
+          </label>
+          <select
+            id="shot-session"
+            className="input"
+            value={session}
+            onChange={(e) => {
+              setSession(e.target.value);
+              setPage(0);
+            }}
+          >
             <option value="">All sessions</option>
             {sessions.map((s) => (
-              <option key={s} value={s}>{sessionLabels.get(s) ?? s.slice(0, 8)}</option>
+              <option key={s} value={s}>
+                {sessionLabels.get(s) ?? s.slice(0, 8)}
+              </option>
             ))}
           </select>
         </div>
-        <p className="pb-2 text-muted" aria-live="polite">{filtered.length} of {rows.length} shots</p>
+        <p className="pb-2 text-muted" aria-live="polite">
+          {filtered.length} of {rows.length} shots
+        </p>
       </div>
       <div className="overflow-x-auto">
         <table className="w-full border-collapse text-left">
@@ -94,20 +118,34 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
             <tr className="border-b-2 border-line">
               {header("takenAt", "Taken", false)}
               {header("referenceM", "Reference (m)")}
-              <th scope="col" className="py-1 pr-2 text-right">Range (m)</th>
+              <th scope="col" className="py-1 pr-2 text-right">
+                Range (m)
+              </th>
               {header("errorMm", "Error (mm)")}
               {header("limitMm", "Limit ± (mm)")}
-              <th scope="col" className="py-1 pr-2">Within</th>
-              <th scope="col" className="py-1 pr-2">Target</th>
-              <th scope="col" className="py-1 pr-2">Flags</th>
-              <th scope="col" className="py-1 pr-2">Photo</th>
-              <th scope="col" className="py-1">State</th>
+              <th scope="col" className="py-1 pr-2">
+                Within
+              </th>
+              <th scope="col" className="py-1 pr-2">
+                Target
+              </th>
+              <th scope="col" className="py-1 pr-2">
+                Flags
+              </th>
+              <th scope="col" className="py-1 pr-2">
+                Photo
+              </th>
+              <th scope="col" className="py-1">
+                State
+              </th>
             </tr>
           </thead>
           <tbody>
             {shown.length === 0 ? (
               <tr>
-                <td colSpan={10} className="py-4 text-center text-muted">No shots match these filters.</td>
+                <td colSpan={10} className="py-4 text-center text-muted">
+                  No shots match these filters.
+                </td>
               </tr>
             ) : null}
             {shown.map((r) => {
@@ -138,9 +176,15 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
         </table>
       </div>
       <nav aria-label="Shot table pages" className="mt-3 flex items-center gap-3">
-        <button type="button" className="btn-secondary" disabled={current === 0} onClick={() => setPage(current - 1)}>← Previous</button>
-        <span className="num">Page {current + 1} of {pages}</span>
-        <button type="button" className="btn-secondary" disabled={current >= pages - 1} onClick={() => setPage(current + 1)}>Next →</button>
+        <button type="button" className="btn-secondary" disabled={current === 0} onClick={() => setPage(current - 1)}>
+          ← Previous
+        </button>
+        <span className="num">
+          Page {current + 1} of {pages}
+        </span>
+        <button type="button" className="btn-secondary" disabled={current >= pages - 1} onClick={() => setPage(current + 1)}>
+          Next →
+        </button>
       </nav>
     </div>
   );
@@ -176,15 +220,23 @@ function ShotRow(props: {
   return (
     <>
       <tr className={`border-b border-line num ${r.excluded ? "text-muted" : ""}`} data-shot={r.id} data-excluded={r.excluded}>
-        <td className="py-1 pr-2 whitespace-nowrap"><LocalTime iso={r.takenAt} /></td>
+        <td className="py-1 pr-2 whitespace-nowrap">
+          <LocalTime iso={r.takenAt} />
+        </td>
         <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.referenceM, 3)}</td>
         <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.rangeM, 3)}</td>
         <td className={`py-1 pr-2 text-right font-bold ${strike}`}>{signed(r.errorMm, 2)}</td>
         <td className={`py-1 pr-2 text-right ${strike}`}>{num(r.limitMm, 2)}</td>
-        <td className="py-1 pr-2"><WithinWord within={r.within} /></td>
+        <td className="py-1 pr-2">
+          <WithinWord within={r.within} />
+        </td>
         <td className="py-1 pr-2">
           {d?.targetLabel ?? "—"}
-          {d?.reflectancePct != null ? <span className="block text-sm text-muted">{num(d.reflectancePct, 0)} % · {d.illuminanceKlux == null ? "— klux" : `${num(d.illuminanceKlux, 0)} klux`}</span> : null}
+          {d?.reflectancePct != null ? (
+            <span className="block text-sm text-muted">
+              {num(d.reflectancePct, 0)} % · {d.illuminanceKlux == null ? "— klux" : `${num(d.illuminanceKlux, 0)} klux`}
+            </span>
+          ) : null}
           {d?.scanSha256 ? (
             <span className="block text-sm text-muted" title={`SHA-256 of the scan or frames: ${d.scanSha256}`} data-testid="scan-sha">
               from file {d.scanSha256.slice(0, 12)}…
@@ -192,12 +244,25 @@ function ShotRow(props: {
           ) : null}
         </td>
         <td className="py-1 pr-2">
-          {r.flags.length ? r.flags.map((f) => <span key={f} className="mr-1 rounded border-2 border-warn px-1 text-sm font-bold text-warn">{f === "outlier" ? "◆ outlier" : "↻ wrap"}</span>) : "—"}
+          {r.flags.length
+            ? r.flags.map((f) => (
+                <span key={f} className="mr-1 rounded border-2 border-warn px-1 text-sm font-bold text-warn">
+                  {f === "outlier" ? "◆ outlier" : "↻ wrap"}
+                </span>
+              ))
+            : "—"}
         </td>
         <td className="py-1 pr-2">
           {d?.photoIds.length ? (
             <a href={`/api/photos/${d.photoIds[0]}`} target="_blank" rel="noreferrer" className="inline-block min-h-11">
-              <img src={`/api/photos/${d.photoIds[0]}`} alt={`Photo of the shot at ${num(r.referenceM, 1)} m`} width={56} height={42} loading="lazy" className="h-[42px] w-[56px] rounded border border-line object-cover" />
+              <img
+                src={`/api/photos/${d.photoIds[0]}`}
+                alt={`Photo of the shot at ${num(r.referenceM, 1)} m`}
+                width={56}
+                height={42}
+                loading="lazy"
+                className="h-[42px] w-[56px] rounded border border-line object-cover"
+              />
             </a>
           ) : (
             <span className="text-muted">none</span>
@@ -214,7 +279,9 @@ function ShotRow(props: {
       </tr>
       {r.excluded && d?.exclusionReason ? (
         <tr className="border-b border-line">
-          <td colSpan={10} className="pb-2 text-sm text-muted">Excluded because: {d.exclusionReason}</td>
+          <td colSpan={10} className="pb-2 text-sm text-muted">
+            Excluded because: {d.exclusionReason}
+          </td>
         </tr>
       ) : null}
       {props.open ? (
@@ -235,12 +302,18 @@ function ShotRow(props: {
                   aria-invalid={error ? true : undefined}
                   aria-describedby={error ? `${formId}-error` : undefined}
                 />
-                {error ? <p id={`${formId}-error`} className="field-error">{error}</p> : null}
+                {error ? (
+                  <p id={`${formId}-error`} className="field-error">
+                    {error}
+                  </p>
+                ) : null}
               </div>
               <button type="submit" className="btn" disabled={props.busy}>
                 {props.busy ? "Saving…" : r.excluded ? "Restore shot" : "Exclude shot"}
               </button>
-              <button type="button" className="btn-secondary" onClick={props.onToggle}>Cancel</button>
+              <button type="button" className="btn-secondary" onClick={props.onToggle}>
+                Cancel
+              </button>
             </form>
           </td>
         </tr>

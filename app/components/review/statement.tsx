@@ -15,8 +15,12 @@ export function StatementPanel({ report }: { report: StatementReport }) {
   return (
     <div className="rounded-lg border-2 border-line bg-surface p-4" data-testid="accuracy-statement" data-style={st.style} data-headline={st.headline}>
       <p className="text-sm font-bold uppercase tracking-wide text-muted">{st.headlineLabel}</p>
-      <p className="num text-3xl font-bold" data-testid="headline-figure">{mm(st.headlineMm, 1)}</p>
-      <p className="mt-1 text-lg" data-testid="statement-sentence">{st.sentence}</p>
+      <p className="num text-3xl font-bold" data-testid="headline-figure">
+        {mm(st.headlineMm, 1)}
+      </p>
+      <p className="mt-1 text-lg" data-testid="statement-sentence">
+        {st.sentence}
+      </p>
       <ul className="mt-2 space-y-1 text-sm">
         <li data-testid="reference-rmse">
           Reference uncertainty (RMS of u_ref, k = 1):{" "}
@@ -25,23 +29,25 @@ export function StatementPanel({ report }: { report: StatementReport }) {
           ) : (
             <strong>unknown{report.referenceUnknownN ? ` for ${report.referenceUnknownN} shot${report.referenceUnknownN === 1 ? "" : "s"}` : ""}</strong>
           )}
-          {report.rmseCombinedMm != null ? <> · RMSE with the reference included <strong className="num">{mm(report.rmseCombinedMm, 2)}</strong> (√(RMSE² + reference²), ASPRS Edition 2)</> : null}
+          {report.rmseCombinedMm != null ? (
+            <>
+              {" "}
+              · RMSE with the reference included <strong className="num">{mm(report.rmseCombinedMm, 2)}</strong> (√(RMSE² + reference²), ASPRS Edition 2)
+            </>
+          ) : null}
         </li>
         <li data-testid="zero-offset-t">
           Zero offset {mmSigned(report.zeroOffsetMm, 2)}
           {report.zeroOffsetT != null ? (
             <>
-              , t = {num(report.zeroOffsetT, 2)}:{" "}
-              <strong>{report.zeroOffsetSignificant ? "significant at 95 %" : "not significant at 95 %"}</strong>
+              , t = {num(report.zeroOffsetT, 2)}: <strong>{report.zeroOffsetSignificant ? "significant at 95 %" : "not significant at 95 %"}</strong>
             </>
           ) : (
             " (needs at least 3 shots at two or more distances)"
           )}{" "}
           <span className="text-muted">— adapted from the zero-point test of ISO 17123-4 (reflector EDM); no conformance claimed.</span>
         </li>
-        {report.statement === "rmse" ? null : (
-          <li className="text-muted">95 % accuracy = 1.96 × RMSE (NSSDA, FGDC-STD-007.3-1998), valid for near-normal, near-unbiased errors.</li>
-        )}
+        {report.statement === "rmse" ? null : <li className="text-muted">95 % accuracy = 1.96 × RMSE (NSSDA, FGDC-STD-007.3-1998), valid for near-normal, near-unbiased errors.</li>}
       </ul>
     </div>
   );
@@ -66,12 +72,24 @@ export function TraceabilityPanel({ rows, sessionLabel }: { rows: TraceabilityRo
           <caption className="sr-only">Calibration certificates</caption>
           <thead>
             <tr className="border-b-2 border-line">
-              <th scope="col" className="py-1 pr-2">Instrument</th>
-              <th scope="col" className="py-1 pr-2">Certificate</th>
-              <th scope="col" className="py-1 pr-2">Laboratory</th>
-              <th scope="col" className="py-1 pr-2">Issued</th>
-              <th scope="col" className="py-1 pr-2">Due</th>
-              <th scope="col" className="py-1">Past due on</th>
+              <th scope="col" className="py-1 pr-2">
+                Instrument
+              </th>
+              <th scope="col" className="py-1 pr-2">
+                Certificate
+              </th>
+              <th scope="col" className="py-1 pr-2">
+                Laboratory
+              </th>
+              <th scope="col" className="py-1 pr-2">
+                Issued
+              </th>
+              <th scope="col" className="py-1 pr-2">
+                Due
+              </th>
+              <th scope="col" className="py-1">
+                Past due on
+              </th>
             </tr>
           </thead>
           <tbody>
@@ -85,11 +103,7 @@ export function TraceabilityPanel({ rows, sessionLabel }: { rows: TraceabilityRo
                 <td className="py-1 pr-2 num whitespace-nowrap">{r.issued ?? "—"}</td>
                 <td className="py-1 pr-2 num whitespace-nowrap">{r.due ?? "—"}</td>
                 <td className="py-1">
-                  {r.expiredOnSessions.length ? (
-                    <strong className="text-fail">⚠ {r.expiredOnSessions.map((s) => (sessionLabel ? sessionLabel(s) : s)).join(", ")}</strong>
-                  ) : (
-                    "—"
-                  )}
+                  {r.expiredOnSessions.length ? <strong className="text-fail">⚠ {r.expiredOnSessions.map((s) => (sessionLabel ? sessionLabel(s) : s)).join(", ")}</strong> : "—"}
                 </td>
               </tr>
             ))}

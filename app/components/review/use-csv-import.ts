@@ -162,8 +162,11 @@ export function useCsvImport({ sensors, sites, mappings }: { sensors: ImportSens
     setPhase("done");
   }
 
-  const counts = { accepted: results.filter((r) => r.status === "accepted").length, duplicate: results.filter((r) => r.status === "duplicate").length, rejected: results.filter((r) => r.status === "rejected").length };
-
+  const counts = {
+    accepted: results.filter((r) => r.status === "accepted").length,
+    duplicate: results.filter((r) => r.status === "duplicate").length,
+    rejected: results.filter((r) => r.status === "rejected").length,
+  };
 
   return {
     sensorId,

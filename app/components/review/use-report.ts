@@ -28,7 +28,13 @@ export type ShotExtras = { photos: Record<string, string[]>; targets: Record<str
 export function toDetail(s: Record<string, unknown>, extras?: ShotExtras): ShotDetail {
   const id = String(s.id);
   const targetId = typeof s.targetId === "string" ? s.targetId : null;
-  const photos = Array.isArray(s.photoIds) ? (s.photoIds as string[]) : Array.isArray(s.photos) ? (s.photos as { id: string }[]).map((p) => (typeof p === "string" ? p : p.id)) : s.photoId ? [String(s.photoId)] : [];
+  const photos = Array.isArray(s.photoIds)
+    ? (s.photoIds as string[])
+    : Array.isArray(s.photos)
+      ? (s.photos as { id: string }[]).map((p) => (typeof p === "string" ? p : p.id))
+      : s.photoId
+        ? [String(s.photoId)]
+        : [];
   const target = s.target as { label?: string } | undefined;
   const excl = s.exclusion as { reason?: string } | null | undefined;
   return {
@@ -36,9 +42,9 @@ export function toDetail(s: Record<string, unknown>, extras?: ShotExtras): ShotD
     reflectancePct: typeof s.reflectancePct === "number" ? s.reflectancePct : null,
     retro: s.retro === true,
     illuminanceKlux: typeof s.illuminanceKlux === "number" ? s.illuminanceKlux : null,
-    targetLabel: typeof s.targetLabel === "string" ? s.targetLabel : target?.label ?? (targetId ? extras?.targets[targetId] ?? null : null),
-    photoIds: photos.length ? photos : extras?.photos[id] ?? [],
-    exclusionReason: typeof s.exclusionReason === "string" ? s.exclusionReason : excl?.reason ?? extras?.reasons[id] ?? null,
+    targetLabel: typeof s.targetLabel === "string" ? s.targetLabel : (target?.label ?? (targetId ? (extras?.targets[targetId] ?? null) : null)),
+    photoIds: photos.length ? photos : (extras?.photos[id] ?? []),
+    exclusionReason: typeof s.exclusionReason === "string" ? s.exclusionReason : (excl?.reason ?? extras?.reasons[id] ?? null),
     note: typeof s.note === "string" ? s.note : null,
     scanSha256: typeof s.scanSha256 === "string" ? s.scanSha256 : null,
   };
