@@ -81,6 +81,11 @@ function ProjectReports({ projects }: { projects: HomeProject[] }) {
             </div>
           )}
           <p className="text-sm text-muted">Verdicts by this project's acceptance rule, from its own check-shots. Open a sensor for its full report, chart, map and print.</p>
+          <p>
+            <Link to={`/review/projects/${p.id}/report`} className="btn-secondary">
+              Project verification report
+            </Link>
+          </p>
         </section>
       ))}
     </div>

@@ -107,7 +107,8 @@ async function queueShots(page: Page, n: number): Promise<string> {
 }
 
 async function report(page: Page) {
-  const res = await page.request.get(`/api/sensors/${world.sensor.id}/report`);
+  // api.md v1.1: the per-shot rows come only with include=shots
+  const res = await page.request.get(`/api/sensors/${world.sensor.id}/report?include=shots`);
   expect(res.status()).toBe(200);
   return (await res.json()) as { n: number; shots: { id: string; sessionId: string; errorMm: number }[] };
 }

@@ -27,7 +27,7 @@ beforeAll(async () => {
   const { eq } = await import("drizzle-orm");
   w = await reviewWorld();
   outsiderEmail = (await makeUser("viewer")).email;
-  for (const u of [w.users.viewer, w.users.qa]) await getDb().insert(projectMembers).values({ projectId: w.project.id, userId: u.id });
+  for (const u of [w.users.viewer, w.users.qa]) await getDb().insert(projectMembers).values({ projectId: w.project.id, userId: u.id }).onConflictDoNothing();
   await getDb().update(sensors).set({ laserClass: "1M" }).where(eq(sensors.id, w.failing.id));
   // an exclusion with its reason, so the document lists one
   const { excludeShot } = await import("~/models/exclusions.server");

@@ -20,21 +20,8 @@ beforeAll(async () => {
   world = await fieldWorld("Reshoot");
   useServerEnv();
   // Projects scope records (api.md v1.1): the request is seen by members of a project holding
-  // the sensor and the site, so QA and the crew join one.
-  const { makeProject } = await import("../support/registry-fixtures");
-  const { getDb } = await import("~/db/client.server");
-  const { projectMembers, users } = await import("~/db/schema");
-  const { inArray } = await import("drizzle-orm");
-  const project = await makeProject({ name: "Valley road corridor (re-shoot)", sensorIds: [world.sensor.id], siteIds: [world.site.id, world.other.id] });
-  projectName = project.name;
-  const people = await getDb()
-    .select({ id: users.id })
-    .from(users)
-    .where(inArray(users.email, ["qa@e2e.test", "crew@e2e.test"]));
-  await getDb()
-    .insert(projectMembers)
-    .values(people.map((u) => ({ projectId: project.id, userId: u.id })))
-    .onConflictDoNothing();
+  // the sensor and the site — the field world's project, whose members are the e2e crew and QA.
+  projectName = world.project.name;
 });
 beforeEach(() => {
   net.setOnline(true);

@@ -29,6 +29,11 @@ beforeAll(async () => {
   });
   sensorId = sensor.id;
   const site = await makeSite({ name: "Fernhollow quarry baseline (history)" });
+  // api.md v1.1: the syncing crew and the reading QA lead are members of a project holding both
+  const { e2eProject } = await import("./field-fixtures");
+  const project = await e2eProject("history", [sensor.id], [site.id]);
+  const { addMemberIds } = await import("../support/registry-fixtures");
+  await addMemberIds(project.id, crew.id);
   const sessions = dates.map((d) => ({ id: crypto.randomUUID(), sensorId, siteId: site.id, startedAt: `${d}T08:00:00+02:00`, airTempC: 15, pressureHpa: 1010, humidityPct: 60 }));
   const shots = sessions.flatMap((s, i) =>
     [-0.4, 0, 0.4].map((d, k) => ({
@@ -61,7 +66,8 @@ test("the history page marks the drift and the sessions past the certificate's d
   expect(text).toContain("7 sessions in a row moving up");
   expect(text).toContain("2 sessions held with the certificate past due");
   // the chart: a triangle per session of the run, a square per past-due session, the trend line
-  const svg = page.locator("figure svg").first();
+  // (the plot is drawn after hydration, inside its labelled box; the legend's swatches are svgs too)
+  const svg = page.getByRole("img", { name: /^Bias per session over time/ }).locator("svg").first();
   await svg.waitFor();
   const labels = await svg.locator("text").allTextContents();
   expect(labels.filter((t) => t === "drift")).toHaveLength(7);

@@ -68,7 +68,7 @@ test("a crew's browser syncs a session and shots; the report shows the server's 
   expect(answer.json.results[3].errors[0].path).toBe("readings.rangesM.0");
 
   const report = await page.evaluate(async (id) => {
-    const res = await fetch(`/api/sensors/${id}/report`);
+    const res = await fetch(`/api/sensors/${id}/report?include=shots`); // api.md v1.1: rows on request
     return { status: res.status, json: await res.json() };
   }, sensorId);
   expect(report.status).toBe(200);
