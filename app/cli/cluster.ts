@@ -170,6 +170,8 @@ try {
   if (summary.results.rejected.length) throw new Error("Some demo records were rejected; stopping.");
   const tokens: Record<string, string> = {};
   for (const u of summary.users) {
+    // one token per role: the first demo user of it (the river project's people)
+    if (tokens[u.role]) continue;
     const t = await createTokenFor(null, u.id, "cluster (printed at start)");
     if (t) tokens[u.role] = t.token;
   }

@@ -79,7 +79,8 @@ function batch(n: number, day: number) {
 }
 
 const report = async (base: string) => {
-  const res = await api(base, `/api/sensors/${DEMO_IDS.roof}/report`, { token: c.tokens.qa });
+  // api.md v1.1: the per-shot rows come only with include=shots
+  const res = await api(base, `/api/sensors/${DEMO_IDS.roof}/report?include=shots`, { token: c.tokens.qa });
   expect(res.status).toBe(200);
   return (await res.json()) as { n: number; shots: { id: string; excluded: boolean }[] };
 };

@@ -67,7 +67,10 @@ test("the history page marks the drift and the sessions past the certificate's d
   expect(text).toContain("2 sessions held with the certificate past due");
   // the chart: a triangle per session of the run, a square per past-due session, the trend line
   // (the plot is drawn after hydration, inside its labelled box; the legend's swatches are svgs too)
-  const svg = page.getByRole("img", { name: /^Bias per session over time/ }).locator("svg").first();
+  const svg = page
+    .getByRole("img", { name: /^Bias per session over time/ })
+    .locator("svg")
+    .first();
   await svg.waitFor();
   const labels = await svg.locator("text").allTextContents();
   expect(labels.filter((t) => t === "drift")).toHaveLength(7);
