@@ -74,7 +74,7 @@ export const frameFieldsSchema = z
           return z.NEVER;
         }
       })
-      .pipe(referenceSchema.optional()),
+      .pipe(z.optional(referenceSchema)),
     frequencyHz: z.preprocess(
       (v) => (typeof v === "string" && v.trim() === "" ? undefined : v),
       numberText("frequencyHz").pipe(z.number().positive("frequencyHz must be greater than 0 Hz")).optional(),

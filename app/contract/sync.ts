@@ -2,7 +2,9 @@
 // the field tablet validates a record with the same schema before it queues it, and the
 // server validates every record again on ingest. The record types of both sides derive from here. Unknown keys are stripped, so numbers the
 // tablet derived (errorMm, within, limitMm…) never reach the server's computation.
-import { z } from "zod";
+// zod/mini (the functional form of zod 4): this module is in the field tablet's bundle, and the
+// chained form carries all of zod with it (the field screen's JavaScript budget, tests/bench/field.bench.ts).
+import * as z from "zod/mini";
 import { AIR_LIMITS, distanceBoundsMessage, MAX_DISTANCE_M, MAX_FREQUENCIES, MAX_ROUND_TRIP_NS, roundTripBoundsMessage, type Readings } from "~/domain";
 import { issuesToErrors, type FieldError } from "./errors";
 
@@ -23,58 +25,58 @@ export type SyncResult = {
 };
 
 const num = (what: string) => z.number({ error: `${what} must be a number` });
+/** A number within [lo, hi], one message for both ends. */
+const between = (what: string, lo: number, hi: number, message: string) => num(what).check(z.gte(lo, message), z.lte(hi, message));
 const text = (what: string, max: number) =>
-  z
-    .string({ error: `${what} must be text` })
-    .trim()
-    .min(1, `${what} is required`)
-    .max(max, `${what} is at most ${max} characters`);
+  z.string({ error: `${what} must be text` }).check(z.trim(), z.minLength(1, `${what} is required`), z.maxLength(max, `${what} is at most ${max} characters`));
 const recordId = (what: string) => z.uuid({ error: `${what} must be a UUID made by the tablet` });
 /** ISO 8601 with an offset ("Z" or ±hh:mm), as api.md asks. */
 const isoTime = (what: string) => z.iso.datetime({ offset: true, error: `${what} must be an ISO 8601 time with an offset, e.g. 2026-05-04T08:10:00+02:00` });
 /** null and absent mean the same (not measured); canonicalJson drops both, so the raw matches. */
-const optionalNum = (schema: z.ZodNumber) => schema.nullish();
-const optionalText = (what: string, max: number) =>
-  z
-    .string({ error: `${what} must be text` })
-    .max(max, `${what} is at most ${max} characters`)
-    .nullish();
+const optionalNum = (schema: z.ZodMiniNumber<number>) => z.nullish(schema);
+const optionalText = (what: string, max: number) => z.nullish(z.string({ error: `${what} must be text` }).check(z.maxLength(max, `${what} is at most ${max} characters`)));
 
 const airNum = (field: keyof typeof AIR_LIMITS, what: string, unit: string) => {
   const [lo, hi] = AIR_LIMITS[field];
-  return optionalNum(num(what).min(lo, `${what} must lie between ${lo} and ${hi} ${unit}`).max(hi, `${what} must lie between ${lo} and ${hi} ${unit}`));
+  return optionalNum(between(what, lo, hi, `${what} must lie between ${lo} and ${hi} ${unit}`));
 };
 
-export const syncSessionSchema = z.object({
-  id: recordId("session id"),
-  sensorId: text("sensor", 100),
-  siteId: text("site", 100),
-  /** Not in api.md's example: optional; without it the server picks the one project listing both the sensor and the site. */
-  projectId: optionalText("project", 100),
-  startedAt: isoTime("start time"),
-  airTempC: airNum("airTempC", "air temperature", "°C"),
-  pressureHpa: airNum("pressureHpa", "air pressure", "hPa"),
-  humidityPct: airNum("humidityPct", "relative humidity", "%"),
-  note: optionalText("note", 2000),
-});
+export const syncSessionSchema = z.object(
+  {
+    id: recordId("session id"),
+    sensorId: text("sensor", 100),
+    siteId: text("site", 100),
+    /** Not in api.md's example: optional; without it the server picks the one project listing both the sensor and the site. */
+    projectId: optionalText("project", 100),
+    startedAt: isoTime("start time"),
+    airTempC: airNum("airTempC", "air temperature", "°C"),
+    pressureHpa: airNum("pressureHpa", "air pressure", "hPa"),
+    humidityPct: airNum("humidityPct", "relative humidity", "%"),
+    note: optionalText("note", 2000),
+  },
+  { error: "a session must be an object" },
+);
 export type SyncSession = z.infer<typeof syncSessionSchema>;
 /** A session as the tablet builds, stores and sends it (the body's input shape). */
 export type SessionRecord = z.input<typeof syncSessionSchema>;
 
 // ranging.md §9: lengths in (0, 10 000] m, in the ranging core's own words
-const positiveM = (what: string) => num(what).positive(distanceBoundsMessage(what)).max(MAX_DISTANCE_M, distanceBoundsMessage(what));
-const heightM = (what: string) => num(what).min(-100, `${what} must lie between −100 and 100 m`).max(100, `${what} must lie between −100 and 100 m`);
+const positiveM = (what: string) => num(what).check(z.positive(distanceBoundsMessage(what)), z.lte(MAX_DISTANCE_M, distanceBoundsMessage(what)));
+const heightM = (what: string) => between(what, -100, 100, `${what} must lie between −100 and 100 m`);
 
-export const tapeUseSchema = z.object({
-  tapeId: text("tape", 100),
-  tempC: num("tape temperature").min(-80, "tape temperature must lie between −80 and 90 °C").max(90, "tape temperature must lie between −80 and 90 °C"),
-  tensionN: num("tape pull").positive("tape pull must be greater than 0 N").max(1000, "tape pull must be at most 1000 N"),
-  support: z.enum(["ground", "ends"], { error: 'support must be "ground" or "ends"' }),
-  spans: z.number({ error: "spans must be a whole number" }).int("spans must be a whole number").min(1, "spans must be at least 1").max(100, "spans must be at most 100").default(1),
-});
+export const tapeUseSchema = z.object(
+  {
+    tapeId: text("tape", 100),
+    tempC: between("tape temperature", -80, 90, "tape temperature must lie between −80 and 90 °C"),
+    tensionN: num("tape pull").check(z.positive("tape pull must be greater than 0 N"), z.lte(1000, "tape pull must be at most 1000 N")),
+    support: z.enum(["ground", "ends"], { error: 'support must be "ground" or "ends"' }),
+    spans: z._default(z.int({ error: "spans must be a whole number" }).check(z.gte(1, "spans must be at least 1"), z.lte(100, "spans must be at most 100")), 1),
+  },
+  { error: "tape must be an object" },
+);
 
 /** issue 15: the shot's own standard uncertainty of its reference (mm, k = 1; ranging.md §7). */
-const refUncertainty = optionalNum(num("reference uncertainty").min(0, "reference uncertainty must not be negative").max(1000, "reference uncertainty must be at most 1000 mm"));
+const refUncertainty = optionalNum(num("reference uncertainty").check(z.gte(0, "reference uncertainty must not be negative"), z.lte(1000, "reference uncertainty must be at most 1000 mm")));
 
 export const referenceSchema = z.discriminatedUnion(
   "method",
@@ -95,63 +97,86 @@ export const referenceSchema = z.discriminatedUnion(
 
 const readingList = (what: string, max: number, message: string) =>
   z
-    .array(num(what).positive(message).max(max, message), { error: `${what}s must be a list of numbers` })
-    .min(1, `give at least one ${what}`)
-    .max(1000, `at most 1000 ${what}s`);
+    .array(num(what).check(z.positive(message), z.lte(max, message)), { error: `${what}s must be a list of numbers` })
+    .check(z.minLength(1, `give at least one ${what}`), z.maxLength(1000, `at most 1000 ${what}s`));
 
-export const readingsSchema = z
-  .object({
-    rangesM: readingList("range", MAX_DISTANCE_M, distanceBoundsMessage("range")).optional(),
-    roundTripNs: readingList("round-trip time", MAX_ROUND_TRIP_NS, roundTripBoundsMessage()).optional(),
-    phase: z
-      .array(
-        z.object({
-          frequencyHz: num("modulation frequency").positive("modulation frequency must be greater than 0 Hz"),
-          samples: z.array(num("sample"), { error: "samples must be a list of numbers" }).min(3, "at least 3 correlation samples are needed").max(1024, "at most 1024 samples"),
-        }),
-        { error: "phase must be a list of frequency readings" },
-      )
-      .min(1, "give at least one frequency reading")
-      .max(MAX_FREQUENCIES, `at most ${MAX_FREQUENCIES} modulation frequencies a shot`)
-      .optional(),
-  })
-  .superRefine((r, ctx) => {
-    const n = [r.rangesM, r.roundTripNs, r.phase].filter((x) => x != null).length;
-    if (n !== 1) ctx.addIssue({ code: "custom", message: "readings must hold exactly one of rangesM, roundTripNs or phase" });
-  })
-  // One object checked whole (rather than z.union) keeps the per-reading paths and the "exactly
-  // one" message of api.md; the output is the ranging core's own union, so no cast downstream.
-  .transform((r): Readings => (r.rangesM ? { rangesM: r.rangesM } : r.roundTripNs ? { roundTripNs: r.roundTripNs } : { phase: r.phase! }));
+const readingsObject = z
+  .object(
+    {
+      rangesM: z.optional(readingList("range", MAX_DISTANCE_M, distanceBoundsMessage("range"))),
+      roundTripNs: z.optional(readingList("round-trip time", MAX_ROUND_TRIP_NS, roundTripBoundsMessage())),
+      phase: z.optional(
+        z
+          .array(
+            z.object(
+              {
+                frequencyHz: num("modulation frequency").check(z.positive("modulation frequency must be greater than 0 Hz")),
+                samples: z
+                  .array(num("sample"), { error: "samples must be a list of numbers" })
+                  .check(z.minLength(3, "at least 3 correlation samples are needed"), z.maxLength(1024, "at most 1024 samples")),
+              },
+              { error: "a frequency reading must be an object" },
+            ),
+            { error: "phase must be a list of frequency readings" },
+          )
+          .check(z.minLength(1, "give at least one frequency reading"), z.maxLength(MAX_FREQUENCIES, `at most ${MAX_FREQUENCIES} modulation frequencies a shot`)),
+      ),
+    },
+    { error: "readings must be an object" },
+  )
+  .check(
+    z.superRefine((r, ctx) => {
+      const n = [r.rangesM, r.roundTripNs, r.phase].filter((x) => x != null).length;
+      if (n !== 1) ctx.addIssue({ code: "custom", message: "readings must hold exactly one of rangesM, roundTripNs or phase" });
+    }),
+  );
+// One object checked whole (rather than z.union) keeps the per-reading paths and the "exactly
+// one" message of api.md; the output is the ranging core's own union, so no cast downstream.
+export const readingsSchema = z.pipe(
+  readingsObject,
+  z.transform((r: z.output<typeof readingsObject>): Readings => (r.rangesM ? { rangesM: r.rangesM } : r.roundTripNs ? { roundTripNs: r.roundTripNs } : { phase: r.phase! })),
+);
 
-export const syncShotSchema = z.object({
-  id: recordId("shot id"),
-  sessionId: recordId("session id"),
-  takenAt: isoTime("time of the shot"),
-  targetId: optionalText("target", 100),
-  reference: referenceSchema,
-  readings: readingsSchema,
-  reflectancePct: num("reflectance").min(0, "reflectance must lie between 0 and 100 %").max(100, "reflectance must lie between 0 and 100 %"),
-  // Required by api.md; null is accepted for "not measured" (no lux meter at hand).
-  illuminanceKlux: num("illuminance").min(0, "illuminance must lie between 0 and 200 klux").max(200, "illuminance must lie between 0 and 200 klux").nullable(),
-  incidenceDeg: optionalNum(num("incidence angle").min(0, "incidence angle must lie between 0 and 90°").max(90, "incidence angle must lie between 0 and 90°")),
-  position: z
-    .object({
-      lat: num("latitude").min(-90, "latitude must lie between −90 and 90°").max(90, "latitude must lie between −90 and 90°"),
-      lon: num("longitude").min(-180, "longitude must lie between −180 and 180°").max(180, "longitude must lie between −180 and 180°"),
-      accuracyM: optionalNum(num("position accuracy").min(0, "position accuracy must not be negative")),
-    })
-    .nullish(),
-  note: optionalText("note", 2000),
-  // issue 18: a shot made from a scan or depth frames (ranging.md §8) carries how it was measured
-  scan: z
-    .object({
-      points: z.number({ error: "scan points must be a number" }).int("scan points must be a whole number").min(3, "a plane needs at least 3 points"),
-      planeRmsMm: num("plane RMS").min(0, "plane RMS must not be negative"),
-      incidenceDeg: num("scan incidence angle").min(0, "incidence angle must lie between 0 and 90°").max(90, "incidence angle must lie between 0 and 90°"),
-      fileSha256: z.string({ error: "file hash must be text" }).regex(/^[0-9a-f]{64}$/, "file hash must be a SHA-256 in 64 lower-case hex digits"),
-    })
-    .nullish(),
-});
+const angle = (what: string) => between(what, 0, 90, `${what} must lie between 0 and 90°`);
+
+export const syncShotSchema = z.object(
+  {
+    id: recordId("shot id"),
+    sessionId: recordId("session id"),
+    takenAt: isoTime("time of the shot"),
+    targetId: optionalText("target", 100),
+    reference: referenceSchema,
+    readings: readingsSchema,
+    reflectancePct: between("reflectance", 0, 100, "reflectance must lie between 0 and 100 %"),
+    // Required by api.md; null is accepted for "not measured" (no lux meter at hand).
+    illuminanceKlux: z.nullable(between("illuminance", 0, 200, "illuminance must lie between 0 and 200 klux")),
+    incidenceDeg: optionalNum(angle("incidence angle")),
+    position: z.nullish(
+      z.object(
+        {
+          lat: between("latitude", -90, 90, "latitude must lie between −90 and 90°"),
+          lon: between("longitude", -180, 180, "longitude must lie between −180 and 180°"),
+          accuracyM: optionalNum(num("position accuracy").check(z.gte(0, "position accuracy must not be negative"))),
+        },
+        { error: "position must be an object with lat and lon" },
+      ),
+    ),
+    note: optionalText("note", 2000),
+    // issue 18: a shot made from a scan or depth frames (ranging.md §8) carries how it was measured
+    scan: z.nullish(
+      z.object(
+        {
+          points: z.int({ error: "scan points must be a whole number" }).check(z.gte(3, "a plane needs at least 3 points")),
+          planeRmsMm: num("plane RMS").check(z.gte(0, "plane RMS must not be negative")),
+          incidenceDeg: between("scan incidence angle", 0, 90, "incidence angle must lie between 0 and 90°"),
+          fileSha256: z.string({ error: "file hash must be text" }).check(z.regex(/^[0-9a-f]{64}$/, "file hash must be a SHA-256 in 64 lower-case hex digits")),
+        },
+        { error: "scan must be an object" },
+      ),
+    ),
+  },
+  { error: "a shot must be an object" },
+);
 export type SyncShot = z.infer<typeof syncShotSchema>;
 
 type ReferenceIn = z.input<typeof referenceSchema>;
@@ -168,16 +193,22 @@ export type ScanFacts = NonNullable<SyncShot["scan"]>;
 export type ShotRecord = Omit<z.input<typeof syncShotSchema>, "reference" | "readings"> & { reference: ReferenceRecord; readings: Readings };
 
 /** The envelope only: records are validated one by one so a bad one never blocks the rest. */
-export const syncEnvelopeSchema = z.object({
-  deviceId: text("device id", 200),
-  sessions: z.array(z.unknown(), { error: "sessions must be a list" }).default([]),
-  shots: z.array(z.unknown(), { error: "shots must be a list" }).default([]),
-});
+export const syncEnvelopeSchema = z.object(
+  {
+    deviceId: text("device id", 200),
+    sessions: z._default(z.array(z.unknown(), { error: "sessions must be a list" }), []),
+    shots: z._default(z.array(z.unknown(), { error: "shots must be a list" }), []),
+  },
+  { error: "the body must be a JSON object with deviceId, sessions and shots" },
+);
 
 /** The reason a QA lead gives for excluding a shot or restoring it. */
-export const exclusionSchema = z.object({
-  reason: z.string({ error: "Give a reason" }).trim().min(3, "Give a reason of at least 3 characters").max(1000, "A reason is at most 1000 characters"),
-});
+export const exclusionSchema = z.object(
+  {
+    reason: z.string({ error: "Give a reason" }).check(z.trim(), z.minLength(3, "Give a reason of at least 3 characters"), z.maxLength(1000, "A reason is at most 1000 characters")),
+  },
+  { error: "Give a reason" },
+);
 
 export function validateSession(record: unknown) {
   const r = syncSessionSchema.safeParse(record);

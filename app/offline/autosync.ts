@@ -4,7 +4,7 @@
 // the outbox also drains after the tab is closed.
 import { onReachChange, reach, watchReach } from "./reach";
 import { outboxCounts } from "./outbox";
-import { syncOutbox, type SyncOutcome } from "./sync";
+import type { SyncOutcome } from "./sync";
 
 const TAG = "shotbook-outbox";
 let timer: ReturnType<typeof setTimeout> | undefined;
@@ -31,6 +31,8 @@ function wakeableSleep(ms: number) {
 
 export async function syncNow(): Promise<SyncOutcome> {
   clearTimeout(timer);
+  // The sync engine loads when the page first sends, not with the field screen (its first draw stays small).
+  const { syncOutbox } = await import("./sync");
   const out = await syncOutbox({ sleep: wakeableSleep });
   clearTimeout(retryTimer);
   if (!out.ok && (out.reason === "offline" || out.reason === "server")) {

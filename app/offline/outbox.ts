@@ -2,7 +2,7 @@
 // "saved", and stays there (surviving reloads, tab kills and days offline) until the server
 // has answered for it. Validation runs first, with the paths the server would use.
 import { fieldDb, queueStamp } from "./db";
-import { interruptSync } from "./sync";
+import { interruptSync } from "./sync-interrupt";
 import { previewShot, type PreviewContext } from "./preview";
 import type { FieldError, LocalPhoto, LocalSession, LocalShot, SyncSessionRecord, SyncShotRecord } from "./types";
 import { checkSessionRecord, checkShotRecord } from "./validate";

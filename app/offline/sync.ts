@@ -7,12 +7,18 @@
 // A batch the server keeps failing on (500 while an empty request still succeeds) is split in
 // halves until the record behind it stands alone; that record is marked stuck and the rest go.
 import type { UpdateSpec } from "dexie";
-import { deviceId, fieldDb, getMeta, setMeta } from "./db";
+import { deviceId, fieldDb } from "./db";
 import { trackedFetch } from "./reach";
-import type { FieldError, LocalSession, LocalShot, StuckMark, SyncStatus } from "./types";
+import type { FieldError, LocalSession, LocalShot, StuckMark } from "./types";
+import { interruptibleSleep, isInterrupted, resetInterrupt } from "./sync-interrupt";
+import { patchStatus } from "./sync-status";
+
+// The status and the interruption live in their own small modules: the field screens read the status
+// and the outbox interrupts a run without loading this engine, which the page imports only when it sends.
+export { clearSignInPause, STATUS_KEY, syncStatus } from "./sync-status";
+export { interruptSync } from "./sync-interrupt";
 
 export const MAX_BATCH = 500;
-export const STATUS_KEY = "syncStatus";
 
 export type SyncOptions = {
   fetchImpl?: typeof fetch;
@@ -33,53 +39,7 @@ export type SyncOutcome = {
   stuck: number;
 };
 
-const IDLE: SyncStatus = {
-  running: false,
-  phase: "idle",
-  done: 0,
-  total: 0,
-  needsSignIn: false,
-  lastError: null,
-  lastSyncAt: null,
-  nextRetryAt: null,
-  updatedAt: 0,
-};
-
-export async function syncStatus(): Promise<SyncStatus> {
-  const s = { ...IDLE, ...((await getMeta<SyncStatus>(STATUS_KEY)) ?? {}) };
-  if (s.running && Date.now() - s.updatedAt > 60_000) s.running = false;
-  return s;
-}
-
-async function patchStatus(p: Partial<SyncStatus>) {
-  const cur = await syncStatus();
-  await setMeta(STATUS_KEY, { ...cur, ...p, updatedAt: Date.now() });
-}
-
 let runningHere = false;
-
-// A run waiting out a back-off holds the send lock for up to a quarter of a minute while the
-// network is gone; discarding a session waits for that lock (outbox.ts). The page asks its own
-// run to give up instead: the sleep ends at once and nothing more is sent in that run.
-let interrupted = false;
-const wakers = new Set<() => void>();
-
-/** Ends this page's sync run at its next back-off (or before its next request); the next run starts afresh. */
-export function interruptSync() {
-  interrupted = true;
-  for (const wake of wakers) wake();
-}
-
-function interruptibleSleep(sleep: (ms: number) => Promise<void>, ms: number) {
-  return new Promise<void>((resolve) => {
-    const wake = () => {
-      wakers.delete(wake);
-      resolve();
-    };
-    wakers.add(wake);
-    void sleep(ms).then(wake);
-  });
-}
 
 /** Runs one sync unless another tab or the worker is already sending. */
 export async function syncOutbox(opts: SyncOptions = {}): Promise<SyncOutcome> {
@@ -144,7 +104,7 @@ async function send(make: () => Promise<Response>, o: Required<Pick<SyncOptions,
       await patchStatus({ nextRetryAt: new Date(Date.now() + wait).toISOString(), lastError: lastMessage });
       await interruptibleSleep(o.sleep, wait);
     }
-    if (interrupted) return { kind: "stop", outcome: "busy", message: "Sending paused for a change on this tablet; it goes on in a moment." };
+    if (isInterrupted()) return { kind: "stop", outcome: "busy", message: "Sending paused for a change on this tablet; it goes on in a moment." };
     try {
       const res = await make();
       if (res.status === 401) return { kind: "stop", outcome: "auth", message: "Your sign-in has ended: sign in to send. Everything stays queued." };
@@ -181,7 +141,7 @@ function chunk(items: Item[], size: number): Item[][] {
 }
 
 async function run(opts: SyncOptions): Promise<SyncOutcome> {
-  interrupted = false;
+  resetInterrupt();
   const db = fieldDb();
   const baseFetch = opts.fetchImpl ?? ((input: RequestInfo | URL, init?: RequestInit) => fetch(input, init));
   // Every answer (or its absence) tells the page whether the server is reachable (reach.ts).
@@ -392,10 +352,4 @@ async function applyResults(results: { kind: string; id: string; status: string;
     if (shotChanges.length) await db.shots.bulkUpdate(shotChanges);
   });
   return { synced, rejected };
-}
-
-/** The page clears a stale "sign in to send" once the server knows the user again. */
-export async function clearSignInPause() {
-  const s = await syncStatus();
-  if (s.needsSignIn) await patchStatus({ needsSignIn: false, lastError: null });
 }

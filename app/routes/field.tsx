@@ -16,7 +16,8 @@ import { onReachChange } from "~/offline/reach";
 import { prepareOffline } from "~/offline/readiness";
 import { requestPersistence } from "~/offline/storage";
 import { checkShotRecord } from "~/offline/validate";
-import { clearSignInPause, syncOutbox, syncStatus } from "~/offline/sync";
+import { clearSignInPause, syncStatus } from "~/offline/sync-status";
+import type { SyncOptions } from "~/offline/sync";
 
 export const meta: Route.MetaFunction = () => [{ title: "Field — Shotbook" }];
 
@@ -40,7 +41,7 @@ export default function FieldLayout() {
       checkShotRecord,
       previewShot,
       syncNow,
-      syncOutbox,
+      syncOutbox: async (opts?: SyncOptions) => (await import("~/offline/sync")).syncOutbox(opts),
       syncStatus,
       outboxCounts,
       readReference,

@@ -8,7 +8,7 @@ import { useLiveQuery } from "~/offline/live";
 import { outboxCounts, type OutboxCounts } from "~/offline/outbox";
 import { onReachChange, reach, type Reach } from "~/offline/reach";
 import { isReady, useReadiness, type Readiness } from "~/offline/readiness";
-import { syncStatus } from "~/offline/sync";
+import { syncStatus } from "~/offline/sync-status";
 import type { SyncStatus } from "~/offline/types";
 
 /**
