@@ -35,7 +35,7 @@ const ex = new ScanExtractor(centres.map((c, i) => ({ id: `b${i}`, t: [c[0] - O[
 t = performance.now();
 // CPU time too: on a shared machine the wall time also counts other processes' turns
 const cpu0 = process.cpuUsage();
-await readPointCloud(form.files[0].path, O, (xyz, n) => ex.add(xyz, n));
+await readPointCloud(form.files[0].path, O, (xyz, n, seen) => ex.add(xyz, n, seen), { near: ex.boxes() });
 const extractS = (performance.now() - t) / 1000;
 const cpu = process.cpuUsage(cpu0);
 const extractCpuS = (cpu.user + cpu.system) / 1e6;
