@@ -169,6 +169,11 @@ function lazPool(threads: number): Tinypool | null {
   return tp;
 }
 
+/** Tasks the LAZ threads have finished since the pool started (tests check the pool ran). */
+export function scanPoolCompleted(): number {
+  return pool?.tp.completed ?? 0;
+}
+
 /** For tests and shutdown: stop the LAZ threads; the next scan starts them again. */
 export async function closeScanPool() {
   const p = pool;
