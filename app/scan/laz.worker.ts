@@ -14,6 +14,8 @@ export type LazTaskAnswer = { chunks: { points: number; near: Int32Array }[] } |
 export async function decodeChunks(task: LazTask): Promise<LazTaskAnswer> {
   try {
     const m = await lazPerfModule();
+    // an empty task only starts the thread and its module (warmScanPool)
+    if (!task.chunks.length) return { chunks: [] };
     const dec = new LazChunkDecoder(m, task.pointFormat, task.recordLength, task.boxes);
     const fd = openSync(task.path, "r");
     try {
