@@ -147,16 +147,17 @@ export function scanWorkerCount(env: NodeJS.ProcessEnv = process.env): number {
   return Math.min(8, availableParallelism());
 }
 
-let pool: { tp: Tinypool; threads: number } | null = null;
+// one pool per thread count (one in practice: SCAN_WORKERS), so a read never loses its pool
+const pools = new Map<number, Tinypool>();
 function lazPool(threads: number): Tinypool | null {
-  if (pool?.threads === threads) return pool.tp;
+  const live = pools.get(threads);
+  if (live) return live;
   const file = fileURLToPath(lazWorkerUrl);
   if (!existsSync(file)) {
     // a build without its worker chunk still reads scans: slower, never refused
     console.error(`scans: the LAZ worker module ${file} is missing; decoding on this thread`);
     return null;
   }
-  void pool?.tp.destroy();
   const tp = new Tinypool({
     // from the sources the worker is TypeScript: a small JavaScript module loads it through tsx
     filename: file.endsWith(".ts") ? new URL("./laz-worker-tsx.mjs", import.meta.url).href : lazWorkerUrl,
@@ -165,7 +166,7 @@ function lazPool(threads: number): Tinypool | null {
     // threads (each with its wasm heap) go away a while after the last scan
     idleTimeout: 30_000,
   });
-  pool = { tp, threads };
+  pools.set(threads, tp);
   return tp;
 }
 
@@ -182,14 +183,16 @@ export async function warmScanPool(threads = scanWorkerCount()): Promise<void> {
 
 /** Tasks the LAZ threads have finished since the pool started (tests check the pool ran). */
 export function scanPoolCompleted(): number {
-  return pool?.tp.completed ?? 0;
+  let n = 0;
+  for (const tp of pools.values()) n += tp.completed;
+  return n;
 }
 
 /** For tests and shutdown: stop the LAZ threads; the next scan starts them again. */
 export async function closeScanPool() {
-  const p = pool;
-  pool = null;
-  await p?.tp.destroy();
+  const all = [...pools.values()];
+  pools.clear();
+  await Promise.all(all.map((tp) => tp.destroy()));
 }
 
 async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
