@@ -138,7 +138,7 @@ export class LazChunkDecoder {
       const w = stride >> 2;
       const boxes = this.boxes;
       const { BLOCK } = LazChunkDecoder;
-      for (let done = 0; done < points; ) {
+      for (let done = 0; done < points;) {
         const n = Math.min(BLOCK, points - done);
         for (let i = 0, p = this.#outPtr; i < n; i++, p += stride) dec.getPoint(p);
         // HEAP32 is replaced when the heap grows: take it after the decoding

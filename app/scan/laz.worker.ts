@@ -22,7 +22,7 @@ export async function decodeChunks(task: LazTask): Promise<LazTaskAnswer> {
       const out: { points: number; near: Int32Array }[] = [];
       for (const [i, c] of task.chunks.entries()) {
         const at = dec.input(c.bytes);
-        for (let got = 0; got < c.bytes; ) {
+        for (let got = 0; got < c.bytes;) {
           // straight into the wasm heap (nothing allocates there while the read runs)
           const n = readSync(fd, m.HEAPU8, at + got, c.bytes - got, c.offset + got);
           if (n === 0) throw new LasFormatError("the LAZ file ended early");

@@ -57,4 +57,18 @@ res.forEach((r, i) => {
 });
 await discard(form);
 await closeScanPool();
-console.log(JSON.stringify({ warmS, warmCpuS, threads: scanWorkerCount(), cores: availableParallelism(), load: load0, uploadS, extractS, extractCpuS, found: res.filter((r) => r.status === "found").length, worstMm, maxRssKb: process.resourceUsage().maxRSS }));
+console.log(
+  JSON.stringify({
+    warmS,
+    warmCpuS,
+    threads: scanWorkerCount(),
+    cores: availableParallelism(),
+    load: load0,
+    uploadS,
+    extractS,
+    extractCpuS,
+    found: res.filter((r) => r.status === "found").length,
+    worstMm,
+    maxRssKb: process.resourceUsage().maxRSS,
+  }),
+);
