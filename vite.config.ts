@@ -41,6 +41,18 @@ const syncWorker = (): Plugin => ({
   },
 });
 
+// issue 18: the same for the LAZ worker thread (app/scan/laz.worker.ts, URL in
+// app/scan/laz-worker-url.server.ts).
+const lazWorker = (): Plugin => ({
+  name: "shotbook-laz-worker",
+  apply: "build",
+  load(id, options) {
+    if (!options?.ssr || !id.replace(/\\/g, "/").endsWith("/app/scan/laz-worker-url.server.ts")) return;
+    const ref = this.emitFile({ type: "chunk", id: fileURLToPath(new URL("./app/scan/laz.worker.ts", import.meta.url)), name: "laz-worker" });
+    return `export const lazWorkerUrl = import.meta.ROLLUP_FILE_URL_${ref};`;
+  },
+});
+
 export default defineConfig({
   resolve: {
     alias: [
@@ -50,7 +62,7 @@ export default defineConfig({
       { find: /^dexie$/, replacement: "dexie/dist/modern/dexie.mjs" },
     ],
   },
-  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa(), syncWorker()],
+  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa(), syncWorker(), lazWorker()],
   test: {
     include: ["app/**/*.test.ts", "tests/integration/**/*.test.ts"],
     environment: "node",

@@ -192,12 +192,23 @@ export class ScanExtractor {
     return this.#seed / 4294967296;
   }
 
-  /** Points as flat xyz triples relative to O; `count` points from the start of `xyz`. */
-  add(xyz: Float64Array, count = Math.floor(xyz.length / 3)): void {
+  /**
+   * The search boxes (E, N, H relative to O, 3 numbers per target, lo and hi): a point outside
+   * every box never counts, so a reader may leave it out (and say so through `seen`).
+   */
+  boxes(): { lo: Float64Array; hi: Float64Array } {
+    return { lo: this.#lo.slice(), hi: this.#hi.slice() };
+  }
+
+  /**
+   * Points as flat xyz triples relative to O; `count` points from the start of `xyz`; `seen`
+   * the points of the cloud they stand for (more when a reader left out points outside boxes()).
+   */
+  add(xyz: Float64Array, count = Math.floor(xyz.length / 3), seen = count): void {
     const lo = this.#lo;
     const hi = this.#hi;
     const { x0, y0, x1, y1, cell, nx, start, items } = this.#g;
-    this.total += count;
+    this.total += seen;
     for (let p = 0; p < count; p++) {
       const x = xyz[3 * p];
       const y = xyz[3 * p + 1];

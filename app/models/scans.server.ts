@@ -124,7 +124,7 @@ export async function importScan(actor: Actor, fields: Record<string, string | u
     f.minPoints,
   );
   try {
-    await readPointCloud(file!.path, O, (xyz, n) => ex.add(xyz, n));
+    await readPointCloud(file!.path, O, (xyz, n, seen) => ex.add(xyz, n, seen), { near: ex.boxes() });
   } catch (e) {
     if (e instanceof LasFormatError) return bad([{ path: "file", message: e.message }], "The file cannot be read as a point cloud; nothing was imported.");
     throw e;

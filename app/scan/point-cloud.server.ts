@@ -6,23 +6,40 @@
 // the heap of laz-perf (the LASzip decoder compiled to WebAssembly that @loaders.gl/las also
 // uses, its .wasm shipped inside the package, nothing fetched) and decoded by its ChunkDecoder,
 // so memory is bounded by one chunk (50 000 points by default), whatever the file's size.
+// Given the targets' boxes (`near`), a LAZ file's chunks are decoded on a pool of worker
+// threads (app/scan/laz.worker.ts, one per core) and only the points in the boxes come back,
+// merged in chunk order: the same points in the same order as one thread would give.
+import { existsSync } from "node:fs";
 import { open, type FileHandle } from "node:fs/promises";
+import { availableParallelism } from "node:os";
+import { fileURLToPath } from "node:url";
+import Tinypool from "tinypool";
 import { decodeXyz, HEADER_BYTES, LasFormatError, parseLasHeader, type LasHeader } from "./las";
-import { decodeChunkTable, findLaszipVlr } from "./laszip";
+import { integerBoxes, LazChunkDecoder, lazPerfModule, scaleXyz } from "./laz-chunks";
+import { decodeChunkTable, findLaszipVlr, type LazChunk } from "./laszip";
+import type { LazTask, LazTaskAnswer } from "./laz.worker";
+import { lazWorkerUrl } from "./laz-worker-url.server";
 
 /** Points decoded per block (a few MB of records and of doubles). */
 const BLOCK_POINTS = 65_536;
 
-export type OnBlock = (xyz: Float64Array, count: number) => void;
+/**
+ * `count` points of `xyz`; `seen` = the points of the file this block stands for (more than
+ * `count` when points away from the targets were left out).
+ */
+export type OnBlock = (xyz: Float64Array, count: number, seen: number) => void;
 
-type LazPerfModule = Awaited<ReturnType<typeof import("laz-perf").createLazPerf>>;
-let lazPerf: Promise<LazPerfModule> | null = null;
-async function lazPerfModule(): Promise<LazPerfModule> {
-  if (!lazPerf) lazPerf = import("laz-perf").then((m) => (m.createLazPerf ?? (m as unknown as { default: typeof m }).default.createLazPerf)());
-  return lazPerf;
-}
+export type ReadOptions = {
+  /**
+   * The targets' boxes (3 numbers each, metres relative to the origin, as
+   * ScanExtractor.boxes() gives them): points outside every box may be left out.
+   */
+  near?: { lo: ArrayLike<number>; hi: ArrayLike<number> };
+  /** LAZ worker threads; default SCAN_WORKERS or the machine's cores. 0 or 1: this thread. */
+  threads?: number;
+};
 
-export async function readPointCloud(path: string, origin: readonly [number, number, number], onBlock: OnBlock): Promise<LasHeader> {
+export async function readPointCloud(path: string, origin: readonly [number, number, number], onBlock: OnBlock, opts: ReadOptions = {}): Promise<LasHeader> {
   const fh = await open(path, "r");
   try {
     const { size } = await fh.stat();
@@ -30,7 +47,7 @@ export async function readPointCloud(path: string, origin: readonly [number, num
     await fh.read(head, 0, head.length, 0);
     const header = parseLasHeader(head);
     if (header.compressed) {
-      await readLaz(fh, size, header, origin, onBlock);
+      await readLaz(path, fh, size, header, origin, onBlock, opts);
       return header;
     }
     const need = header.pointsOffset + header.pointCount * header.recordLength;
@@ -52,7 +69,7 @@ export async function readPointCloud(path: string, origin: readonly [number, num
         got += bytesRead;
       }
       decodeXyz(buf, n, header, origin, xyz);
-      onBlock(xyz, n);
+      onBlock(xyz, n, n);
       done += n;
       pos += want;
     }
@@ -62,7 +79,7 @@ export async function readPointCloud(path: string, origin: readonly [number, num
   }
 }
 
-async function readLaz(fh: FileHandle, size: number, header: LasHeader, origin: readonly [number, number, number], onBlock: OnBlock) {
+async function readLaz(path: string, fh: FileHandle, size: number, header: LasHeader, origin: readonly [number, number, number], onBlock: OnBlock, opts: ReadOptions) {
   const readAt = async (at: number, length: number, into?: Uint8Array, intoAt = 0) => {
     const buf = into ?? new Uint8Array(length);
     let got = 0;
@@ -87,48 +104,126 @@ async function readLaz(fh: FileHandle, size: number, header: LasHeader, origin: 
   const table = await readAt(tableAt, Math.min(size - tableAt, 1 << 20));
   const chunks = decodeChunkTable(table, header, vlr, size);
 
+  const boxes = opts.near ? integerBoxes(opts.near.lo, opts.near.hi, header, origin) : null;
+  const threads = opts.threads ?? scanWorkerCount();
+  const pool = boxes && threads > 1 && chunks.length >= MIN_CHUNKS_FOR_POOL ? lazPool(threads) : null;
+  if (pool && boxes) {
+    await readLazPooled(pool, threads, path, header, chunks, boxes, origin, onBlock);
+    return;
+  }
   const m = await lazPerfModule();
-  const len = header.recordLength;
-  const fmt = { recordLength: len, scale: header.scale, offset: header.offset };
-  const xyz = new Float64Array(BLOCK_POINTS * 3);
-  const maxPoints = chunks.reduce((a, c) => Math.max(a, c.points), 0);
-  // one chunk of compressed bytes (plus slack: the decoder may look a few bytes ahead) and one
-  // block of decoded records live in the wasm heap; the heap stays the size of the largest chunk
-  let inCap = 0;
-  let inPtr = 0;
-  const outPtr = m._malloc(Math.min(BLOCK_POINTS, Math.max(1, maxPoints)) * len);
-  const PAD = 64;
+  const dec = new LazChunkDecoder(m, header.pointFormat, header.recordLength, boxes);
+  let xyz = new Float64Array(3 * 4096);
   try {
     for (const [ci, chunk] of chunks.entries()) {
-      if (chunk.bytes + PAD > inCap) {
-        if (inPtr) m._free(inPtr);
-        inCap = chunk.bytes + PAD;
-        inPtr = m._malloc(inCap);
-      }
       // straight into the wasm heap (nothing allocates there while the read runs)
-      await readAt(chunk.offset, chunk.bytes, m.HEAPU8, inPtr);
-      m.HEAPU8.fill(0, inPtr + chunk.bytes, inPtr + chunk.bytes + PAD);
-      const dec = new m.ChunkDecoder();
-      try {
-        try {
-          dec.open(header.pointFormat, len, inPtr);
-        } catch (e) {
-          throw new LasFormatError(`LAZ chunk ${ci + 1} cannot be decoded: ${e instanceof Error ? e.message : String(e)}`);
-        }
-        for (let done = 0; done < chunk.points;) {
-          const n = Math.min(BLOCK_POINTS, chunk.points - done);
-          for (let i = 0; i < n; i++) dec.getPoint(outPtr + i * len);
-          // HEAPU8 is replaced when the heap grows: take it after the decoding
-          decodeXyz(m.HEAPU8.subarray(outPtr, outPtr + n * len), n, fmt, origin, xyz);
-          onBlock(xyz, n);
-          done += n;
-        }
-      } finally {
-        dec.delete();
+      const at = dec.input(chunk.bytes); // before taking HEAPU8: a malloc may grow the heap
+      await readAt(chunk.offset, chunk.bytes, m.HEAPU8, at);
+      const r = dec.decode(chunk.points, chunk.bytes, ci);
+      if (xyz.length < 3 * r.count) xyz = new Float64Array(3 * r.count);
+      scaleXyz(r.near, r.count, header, origin, xyz);
+      onBlock(xyz, r.count, r.points);
+    }
+  } finally {
+    dec.close();
+  }
+}
+
+// ---------------------------------------------------------------------------------------------
+// The LAZ worker pool
+
+/** Below this many chunks one thread is quicker than starting others. */
+const MIN_CHUNKS_FOR_POOL = 8;
+/** Chunks per task: a few hundred thousand points, so a task outweighs its message. */
+const CHUNKS_PER_TASK = 4;
+
+export function scanWorkerCount(env: NodeJS.ProcessEnv = process.env): number {
+  const v = env.SCAN_WORKERS;
+  if (v !== undefined && v !== "") {
+    const n = Number(v);
+    if (!Number.isInteger(n) || n < 0 || n > 64) throw new Error(`SCAN_WORKERS must be a whole number from 0 to 64 (got "${v}")`);
+    return n;
+  }
+  return Math.min(8, availableParallelism());
+}
+
+// one pool per thread count (one in practice: SCAN_WORKERS), so a read never loses its pool
+const pools = new Map<number, Tinypool>();
+function lazPool(threads: number): Tinypool | null {
+  const live = pools.get(threads);
+  if (live) return live;
+  const file = fileURLToPath(lazWorkerUrl);
+  if (!existsSync(file)) {
+    // a build without its worker chunk still reads scans: slower, never refused
+    console.error(`scans: the LAZ worker module ${file} is missing; decoding on this thread`);
+    return null;
+  }
+  const tp = new Tinypool({
+    // from the sources the worker is TypeScript: a small JavaScript module loads it through tsx
+    filename: file.endsWith(".ts") ? new URL("./laz-worker-tsx.mjs", import.meta.url).href : lazWorkerUrl,
+    minThreads: 0,
+    maxThreads: threads,
+    // threads (each with its wasm heap) go away a while after the last scan
+    idleTimeout: 30_000,
+  });
+  pools.set(threads, tp);
+  return tp;
+}
+
+/**
+ * Starts the LAZ threads (and their laz-perf modules) ahead of a scan: the bench times this
+ * apart from the extraction. Threads left idle stop after the pool's idle timeout.
+ */
+export async function warmScanPool(threads = scanWorkerCount()): Promise<void> {
+  const tp = threads > 1 ? lazPool(threads) : null;
+  if (!tp) return;
+  const empty: LazTask = { path: "", pointFormat: 0, recordLength: 20, boxes: null, chunks: [], first: 0 };
+  await Promise.all(Array.from({ length: threads }, () => tp.run(empty, { name: "decodeChunks" })));
+}
+
+/** Tasks the LAZ threads have finished since the pool started (tests check the pool ran). */
+export function scanPoolCompleted(): number {
+  let n = 0;
+  for (const tp of pools.values()) n += tp.completed;
+  return n;
+}
+
+/** For tests and shutdown: stop the LAZ threads; the next scan starts them again. */
+export async function closeScanPool() {
+  const all = [...pools.values()];
+  pools.clear();
+  await Promise.all(all.map((tp) => tp.destroy()));
+}
+
+async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
+  const tasks: LazTask[] = [];
+  for (let first = 0; first < chunks.length; first += CHUNKS_PER_TASK) {
+    tasks.push({ path, pointFormat: header.pointFormat, recordLength: header.recordLength, boxes, chunks: chunks.slice(first, first + CHUNKS_PER_TASK), first });
+  }
+  // a window of tasks in flight (two per thread keeps every thread busy); answers are taken in
+  // task order, so the points reach onBlock in the file's order whichever thread ends first
+  const window = 2 * threads;
+  const inFlight: Promise<LazTaskAnswer>[] = [];
+  let next = 0;
+  const submit = () => {
+    if (next < tasks.length) inFlight.push(tp.run(tasks[next++], { name: "decodeChunks" }) as Promise<LazTaskAnswer>);
+  };
+  while (next < Math.min(window, tasks.length)) submit();
+  let xyz = new Float64Array(3 * 4096);
+  try {
+    while (inFlight.length) {
+      const answer = await inFlight.shift()!;
+      submit();
+      if ("error" in answer) throw answer.format ? new LasFormatError(answer.error) : new Error(answer.error);
+      for (const c of answer.chunks) {
+        const count = c.near.length / 3;
+        if (xyz.length < c.near.length) xyz = new Float64Array(c.near.length);
+        scaleXyz(c.near, count, header, origin, xyz);
+        onBlock(xyz, count, c.points);
       }
     }
   } finally {
-    if (inPtr) m._free(inPtr);
-    m._free(outPtr);
+    // a failure leaves the others to finish on their own; their answers are dropped
+    for (const p of inFlight) p.catch(() => {});
   }
 }
