@@ -41,11 +41,22 @@ const syncWorker = (): Plugin => ({
   },
 });
 
+// issue 16: the report worker thread's module (app/models/report.worker.ts), the same way.
+const reportWorker = (): Plugin => ({
+  name: "shotbook-report-worker",
+  apply: "build",
+  load(id, options) {
+    if (!options?.ssr || !id.replace(/\\/g, "/").endsWith("/app/models/report-worker-url.server.ts")) return;
+    const ref = this.emitFile({ type: "chunk", id: fileURLToPath(new URL("./app/models/report.worker.ts", import.meta.url)), name: "report-worker" });
+    return `export const reportWorkerUrl = import.meta.ROLLUP_FILE_URL_${ref};`;
+  },
+});
+
 export default defineConfig({
   resolve: {
     alias: { "~": fileURLToPath(new URL("./app", import.meta.url)) },
   },
-  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa(), syncWorker()],
+  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa(), syncWorker(), reportWorker()],
   test: {
     include: ["app/**/*.test.ts", "tests/integration/**/*.test.ts"],
     environment: "node",
