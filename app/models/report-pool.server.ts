@@ -13,7 +13,7 @@ import { existsSync } from "node:fs";
 import { availableParallelism } from "node:os";
 import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
-import { getDb, type Db } from "~/db/client.server";
+import { getDb, isSharedFile, type Db } from "~/db/client.server";
 import { getEnv } from "~/env.server";
 import { readSums, type Sums, type SumsInput } from "./report-sums.server";
 import { reportWorkerUrl } from "./report-worker-url.server";
@@ -28,11 +28,6 @@ export function reportWorkerCount(env: NodeJS.ProcessEnv = process.env): number 
     return n;
   }
   return env.NODE_ENV === "production" ? Math.max(1, Math.min(4, availableParallelism() - 1)) : 0;
-}
-
-/** A database another thread can open as well: a file, not memory (nor a server). */
-function isSharedFile(url: string) {
-  return url.startsWith("file:") && !url.includes(":memory:");
 }
 
 /** The pool, started on first use; null when reports are read on the request's thread. */
