@@ -45,6 +45,10 @@ export function reportPool(): Tinypool | null {
     filename: file.endsWith(".ts") ? new URL("./report-worker-tsx.mjs", import.meta.url).href : reportWorkerUrl,
     minThreads: threads,
     maxThreads: threads,
+    // not the server's own flags: `npm start` runs under `--import tsx`, whose loader would route
+    // every module the thread loads through its hooks thread (measured: most of a thread's
+    // start-up); the built chunk is JavaScript, and from the sources the .mjs above registers tsx
+    execArgv: [],
   });
   // the first report after a start should not also pay for the thread's modules and connection
   for (let i = 0; i < threads; i++) pool.run(null, { name: "warm" }).catch((e) => console.error("report: a worker did not start", e));
