@@ -28,30 +28,23 @@ const pwa = () =>
     },
   });
 
-// issue 16: the sync worker thread's module (app/models/sync.worker.ts) becomes its own chunk
-// of the server build, and app/models/sync-worker-url.server.ts the URL of that chunk, so
-// build/server runs its worker without the sources or tsx.
-const syncWorker = (): Plugin => ({
-  name: "shotbook-sync-worker",
+// Worker threads of the server (issue 16: sync, report; issue 18: LAZ): each worker module becomes its
+// own chunk of the server build, and its "-url.server.ts" module the URL of that chunk, so
+// build/server runs its workers without the sources or tsx.
+const workerChunk = (name: string, urlModule: string, workerModule: string, exportName: string): Plugin => ({
+  name: `shotbook-${name}`,
   apply: "build",
   load(id, options) {
-    if (!options?.ssr || !id.replace(/\\/g, "/").endsWith("/app/models/sync-worker-url.server.ts")) return;
-    const ref = this.emitFile({ type: "chunk", id: fileURLToPath(new URL("./app/models/sync.worker.ts", import.meta.url)), name: "sync-worker" });
-    return `export const syncWorkerUrl = import.meta.ROLLUP_FILE_URL_${ref};`;
+    if (!options?.ssr || !id.replace(/\\/g, "/").endsWith(`/${urlModule}`)) return;
+    const ref = this.emitFile({ type: "chunk", id: fileURLToPath(new URL(`./${workerModule}`, import.meta.url)), name });
+    return `export const ${exportName} = import.meta.ROLLUP_FILE_URL_${ref};`;
   },
 });
-
-// issue 18: the same for the LAZ worker thread (app/scan/laz.worker.ts, URL in
-// app/scan/laz-worker-url.server.ts).
-const lazWorker = (): Plugin => ({
-  name: "shotbook-laz-worker",
-  apply: "build",
-  load(id, options) {
-    if (!options?.ssr || !id.replace(/\\/g, "/").endsWith("/app/scan/laz-worker-url.server.ts")) return;
-    const ref = this.emitFile({ type: "chunk", id: fileURLToPath(new URL("./app/scan/laz.worker.ts", import.meta.url)), name: "laz-worker" });
-    return `export const lazWorkerUrl = import.meta.ROLLUP_FILE_URL_${ref};`;
-  },
-});
+const workers = [
+  workerChunk("sync-worker", "app/models/sync-worker-url.server.ts", "app/models/sync.worker.ts", "syncWorkerUrl"),
+  workerChunk("report-worker", "app/models/report-worker-url.server.ts", "app/models/report.worker.ts", "reportWorkerUrl"),
+  workerChunk("laz-worker", "app/scan/laz-worker-url.server.ts", "app/scan/laz.worker.ts", "lazWorkerUrl"),
+];
 
 export default defineConfig({
   resolve: {
@@ -62,7 +55,7 @@ export default defineConfig({
       { find: /^dexie$/, replacement: "dexie/dist/modern/dexie.mjs" },
     ],
   },
-  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa(), syncWorker(), lazWorker()],
+  plugins: isVitest ? [] : [tailwindcss(), reactRouter(), pwa(), ...workers],
   test: {
     include: ["app/**/*.test.ts", "tests/integration/**/*.test.ts"],
     environment: "node",

@@ -9,6 +9,7 @@ import type { RenderToPipeableStreamOptions } from "react-dom/server";
 import { renderToPipeableStream } from "react-dom/server";
 import { getEnv } from "~/env.server";
 import { ensureCertificateTimer } from "~/models/certificates.server";
+import { startReportPool } from "~/models/report-pool.server";
 import { NonceContext } from "~/components/nonce";
 import { nonceContext } from "~/http/security.server";
 
@@ -18,6 +19,8 @@ getEnv();
 // The certificate due-date mail (ranging.md §7) is checked at server start and every few hours;
 // started here, not on import, so command-line tools that load the models start no timer.
 ensureCertificateTimer();
+// issue 16: the report worker threads start with the server, so the first report does not wait for them.
+startReportPool();
 
 // app/cli/serve.ts sets the socket address under this key (it must be this module graph's key).
 export { clientAddressContext } from "~/http/client-address.server";

@@ -17,6 +17,11 @@ export function ensureFileFolder(url: string) {
   mkdirSync(dirname(resolve(path)), { recursive: true });
 }
 
+/** A database file another thread of this process can open too (not memory, not a server): issue 16's worker threads. */
+export function isSharedFile(url: string) {
+  return url.startsWith("file:") && !url.includes(":memory:");
+}
+
 export function openDb(url: string, authToken?: string): Db {
   ensureFileFolder(url);
   // timeout: the busy timeout of every local connection (PRAGMAs reach only one of them).

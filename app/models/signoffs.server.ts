@@ -8,7 +8,7 @@ import type { Feature, Point } from "geojson";
 import { audit } from "~/models/audit.server";
 import { sendTemplateMail } from "~/mail/mailer.server";
 import { listUserEmailsByRole } from "~/models/users.server";
-import { buildSensorReport, computeSensorReport } from "~/models/reports.server";
+import { buildSensorReport, computeSensorReport, sensorReportSummary } from "~/models/reports.server";
 import { matrixCells, worstCell, type MatrixCell } from "~/contract/report-matrix";
 import { explainVerdict } from "~/domain";
 import type { ReportJson } from "~/contract/report";
@@ -374,8 +374,10 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
   for (const sensorId of [...new Set(sensorIds)]) {
     const [sensor] = await db.select({ label: sensors.label, serial: sensors.serial }).from(sensors).where(eq(sensors.id, sensorId)).limit(1);
     if (!sensor) continue;
-    const report = await reportFor(SYSTEM, sensorId, {});
-    if (!report) continue;
+    // issue 16: the figures without rows first (sums and the error index, kept while unchanged);
+    // the rows only for the mail that explains a verdict turned to fail
+    const summary = await sensorReportSummary(SYSTEM, sensorId);
+    if (!summary) continue;
     const [seen] = await db
       .select({ detail: auditLog.detail })
       .from(auditLog)
@@ -383,9 +385,11 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
       .orderBy(desc(auditLog.at), desc(auditLog.id))
       .limit(1);
     const before = (seen?.detail as { verdict?: string } | null)?.verdict ?? null;
-    if (before === report.verdict) continue;
-    await audit(null, VERDICT_SEEN, "sensor", sensorId, { verdict: report.verdict, from: before });
-    if (report.verdict !== "fail") continue;
+    if (before === summary.verdict) continue;
+    await audit(null, VERDICT_SEEN, "sensor", sensorId, { verdict: summary.verdict, from: before });
+    if (summary.verdict !== "fail") continue;
+    const report = await reportFor(SYSTEM, sensorId, {});
+    if (!report) continue;
     const why = report.tests
       .filter((t) => verdictFailures([t], report.rule.referenceInVerdict).length > 0)
       .map((t) => `${t.name} ${t.value == null ? "—" : t.value.toFixed(2)} (limit ${t.limit.toFixed(2)})`)

@@ -42,6 +42,10 @@ export function syncPool(): Tinypool | null {
     // the threads stay up between batches: starting one costs more than a batch
     minThreads: threads,
     maxThreads: threads,
+    // not the server's own flags: `npm start` runs under `--import tsx`, whose loader would route
+    // every module the thread loads through its hooks thread (measured: most of a thread's
+    // start-up); the built chunk is JavaScript, and from the sources the .mjs above registers tsx
+    execArgv: [],
   });
   return pool;
 }

@@ -7,3 +7,4 @@ register();
 const worker = await import("./sync.worker.ts");
 export const validate = worker.validate;
 export const shots = worker.shots;
+export const write = worker.write;

@@ -16,6 +16,7 @@ import { createServer } from "node:net";
 import { loadavg, tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 import { pathToFileURL } from "node:url";
+import { target } from "./targets.ts";
 
 const SHOTS = 100_000;
 const MILLION = 1_000_000;
@@ -26,7 +27,6 @@ const PAGE_TIMEOUT_MS = 20_000;
 const TARGETS = { firstMs: 300, repeatMs: 50, bytes: 50 * 1024, pageMs: 1500, millionFirstMs: 2000, millionRssMb: 400 };
 
 const fmt = (n: number, d = 0) => n.toLocaleString("en-GB", { maximumFractionDigits: d, minimumFractionDigits: d });
-const met = (ok: boolean) => (ok ? "met" : "NOT met");
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[xs.length >> 1]!;
 
 function freePort(): Promise<number> {
@@ -260,29 +260,39 @@ export async function run(): Promise<string[]> {
       const withRows = n <= SHOTS ? await timedGet(`${url}?include=shots`, creds.adminToken) : null;
       lines.push(`report: ${fmt(n)} shots of one sensor seeded by SQL in ${fmt(seedMs / 1000, 1)} s; the built server started fresh on them (pid ${pid})`);
       if (n === SHOTS) {
+        // judged by wall time (the issue's measure); the server's CPU time beside it is steadier on a busy machine
+        lines.push(target(`100,000 shots: first view after a restart < ${TARGETS.firstMs} ms`, `${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms`, first.ms < TARGETS.firstMs));
         lines.push(
-          `report:   first view after a restart     ${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms (target < ${TARGETS.firstMs} ms): ${met(first.ms < TARGETS.firstMs)} by wall time, ${met(first.cpu < TARGETS.firstMs)} by CPU time`,
+          target(
+            `100,000 shots: repeated view < ${TARGETS.repeatMs} ms`,
+            `median of ${REPEATS} ${fmt(median(again), 1)} ms wall (min ${fmt(Math.min(...again), 1)}, max ${fmt(Math.max(...again), 1)}), server CPU median ${fmt(median(againCpu), 0)} ms`,
+            median(again) < TARGETS.repeatMs,
+          ),
         );
-        lines.push(
-          `report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms wall (min ${fmt(Math.min(...again), 1)}, max ${fmt(Math.max(...again), 1)}), server CPU median ${fmt(median(againCpu), 0)} ms (target < ${TARGETS.repeatMs} ms): ${met(median(again) < TARGETS.repeatMs)} by wall time, ${met(median(againCpu) < TARGETS.repeatMs)} by CPU time`,
-        );
-        lines.push(`report:   answer without per-shot rows   ${fmt(bytes / 1024, 1)} KB (target < ${TARGETS.bytes / 1024} KB): ${met(bytes < TARGETS.bytes)}`);
+        lines.push(target(`100,000 shots: answer without per-shot rows < ${TARGETS.bytes / 1024} KB`, `${fmt(bytes / 1024, 1)} KB`, bytes < TARGETS.bytes));
         lines.push(`report:   as a project member (scoped)   first ${fmt(memberFirst.ms, 1)} ms, repeated median ${fmt(memberAgain, 1)} ms (information)`);
         if (withRows) lines.push(`report:   with include=shots             ${fmt(withRows.ms, 1)} ms, ${fmt(withRows.bytes / 1024 / 1024, 1)} MB (information: rows only when asked for)`);
-        const page = await pageTiming(server.base, creds.qaCookie, sensorId);
-        const best = Math.min(...page.ms);
-        lines.push(
-          `report:   QA page in Chromium, navigation to figures and charts drawn: ${page.ms.map((x) => (Number.isFinite(x) ? fmt(x, 0) : `not drawn within ${PAGE_TIMEOUT_MS / 1000} s`)).join(", ")} ms (best ${fmt(best, 0)}; target < ${TARGETS.pageMs} ms): ${met(median(page.ms) < TARGETS.pageMs)} (median); ${fmt(page.marks)} SVG marks in the charts`,
-        );
+        if (process.env.BENCH_PAGE === "0") lines.push("report:   QA page in Chromium: skipped (BENCH_PAGE=0)");
+        else {
+          const page = await pageTiming(server.base, creds.qaCookie, sensorId);
+          const best = Math.min(...page.ms);
+          lines.push(
+            target(
+              `QA page over 100,000 shots: figures and charts drawn < ${TARGETS.pageMs} ms after navigation`,
+              `median ${page.ms.map((x) => (Number.isFinite(x) ? fmt(x, 0) : `not drawn within ${PAGE_TIMEOUT_MS / 1000} s`)).join(", ")} ms (best ${fmt(best, 0)}); ${fmt(page.marks)} SVG marks in the charts`,
+              median(page.ms) < TARGETS.pageMs,
+            ),
+          );
+        }
         lines.push(`report:   server peak RSS ${fmt(rssOf(pid).peakMb, 0)} MB (information at 100,000)`);
       } else {
         const rss = rssOf(pid);
         lines.push(
-          `report:   first view after a restart     ${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms (target < ${TARGETS.millionFirstMs} ms): ${met(first.ms < TARGETS.millionFirstMs)} by wall time, ${met(first.cpu < TARGETS.millionFirstMs)} by CPU time`,
+          target(`1,000,000 shots: first view after a restart < ${TARGETS.millionFirstMs} ms`, `${fmt(first.ms, 1)} ms wall, server CPU ${fmt(first.cpu, 0)} ms`, first.ms < TARGETS.millionFirstMs),
         );
         lines.push(`report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms; answer ${fmt(bytes / 1024, 1)} KB`);
         lines.push(`report:   as a project member (scoped)   first ${fmt(memberFirst.ms, 1)} ms, repeated median ${fmt(memberAgain, 1)} ms`);
-        lines.push(`report:   server peak RSS throughout (VmHWM) ${fmt(rss.peakMb, 0)} MB (target < ${TARGETS.millionRssMb} MB): ${met(rss.peakMb < TARGETS.millionRssMb)}`);
+        lines.push(target(`1,000,000 shots: server RSS < ${TARGETS.millionRssMb} MB throughout`, `peak (VmHWM) ${fmt(rss.peakMb, 0)} MB`, rss.peakMb < TARGETS.millionRssMb));
       }
     } finally {
       serverPid = undefined;

@@ -20,7 +20,6 @@ const parts = [
   { name: "field tablet", module: "./field.bench.ts" },
   { name: "sync past one machine (BENCH_CLUSTER=1)", module: "./cluster.bench.ts" },
   { name: "scans (issue 18)", module: "./scan.bench.ts" },
-  { name: "report read path (issue 16; BENCH_MILLION=1 adds 1,000,000 shots)", module: "./report.bench.ts" },
 ];
 
 const only = process.argv.slice(2);

@@ -78,6 +78,8 @@ function makeBatch(w: World, rnd: () => number, device: string) {
   return JSON.stringify({ deviceId: device, sessions: [session], shots });
 }
 
+let warnedRefusal = false;
+
 async function post(base: string, token: string, body: string) {
   for (;;) {
     const ask = () => fetch(`${base}/api/sync`, { method: "POST", headers: { Authorization: `Bearer ${token}`, "Content-Type": "application/json" }, body });
@@ -88,7 +90,12 @@ async function post(base: string, token: string, body: string) {
       continue;
     }
     if (res.status !== 200) throw new Error(`sync answered ${res.status}: ${(await res.text()).slice(0, 300)}`);
-    const j = (await res.json()) as { results: { kind: string; status: string }[] };
+    const j = (await res.json()) as { results: { kind: string; status: string; errors?: unknown }[] };
+    const refused = j.results.find((r) => r.status === "rejected");
+    if (refused && !warnedRefusal) {
+      warnedRefusal = true;
+      console.error(`bench: the server refused a record: ${JSON.stringify(refused).slice(0, 300)}`);
+    }
     return j.results.filter((r) => r.kind === "shot" && r.status === "accepted").length;
   }
 }
@@ -96,7 +103,9 @@ async function post(base: string, token: string, body: string) {
 /** The built server as `npm start` runs it, with its event-loop gauge on; its stdout is read for the gauge's lines. */
 async function startServer(buildDir: string, env: NodeJS.ProcessEnv) {
   const port = await freePort();
-  const child: ChildProcess = spawn(process.execPath, ["--import", "tsx", "app/cli/serve.ts", join(buildDir, "server/index.js")], {
+  // BENCH_SERVER_PROF=<dir>: the server writes a CPU profile of each of its threads there on exit (node --cpu-prof)
+  const prof = process.env.BENCH_SERVER_PROF ? ["--cpu-prof", "--cpu-prof-dir", process.env.BENCH_SERVER_PROF] : [];
+  const child: ChildProcess = spawn(process.execPath, [...prof, "--import", "tsx", "app/cli/serve.ts", join(buildDir, "server/index.js")], {
     cwd: ROOT,
     env: { ...env, PORT: String(port), HOST: "127.0.0.1", APP_URL: `http://127.0.0.1:${port}`, SHOTBOOK_LOOP_STATS: "1" },
     stdio: ["ignore", "pipe", "pipe"],
@@ -110,6 +119,7 @@ async function startServer(buildDir: string, env: NodeJS.ProcessEnv) {
       const line = out.slice(0, i);
       out = out.slice(i + 1);
       if (line.startsWith("[loop] ")) loopLines.push(line.slice(7));
+      if (line.startsWith("[slow] ")) console.error(line);
     }
   });
   let err = "";
@@ -269,7 +279,9 @@ export async function run(): Promise<string[]> {
       while (!stop) {
         const body = makeBatch(lw, r, `bench-load-${c}`);
         const t0 = performance.now();
-        loadShots += await post(base, crew.token, body);
+        // (not `loadShots += await …`: that reads loadShots before the wait and loses the other clients' counts)
+        const got = await post(base, crew.token, body);
+        loadShots += got;
         syncMs.push(performance.now() - t0);
         loadBatches++;
       }
@@ -334,7 +346,12 @@ export async function run(): Promise<string[]> {
     // what was measured before the failure, and the server's last words
     throw new Error(`${e instanceof Error ? e.message : String(e)}\n${lines.join("\n")}\nserver stderr: ${server?.stderr() ?? ""} (exit ${server?.child.exitCode})`);
   } finally {
-    server?.child.kill("SIGTERM");
+    if (server && server.child.exitCode === null) {
+      const gone = new Promise((r) => server!.child.once("exit", r));
+      server.child.kill("SIGTERM");
+      // a profiled server writes its profiles on the way out
+      await Promise.race([gone, new Promise((r) => setTimeout(r, 15_000))]);
+    }
     resetDb();
     for (const k of Object.keys(process.env)) if (!(k in saved)) delete process.env[k];
     Object.assign(process.env, saved);

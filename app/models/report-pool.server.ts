@@ -1,0 +1,79 @@
+// The report worker pool (issue 16): a sensor report's heavy read (report-sums.server.ts) runs on
+// a worker thread with its own connection to the same database file. The local libSQL client
+// runs every query synchronously on the thread that calls it; the read of a report over 100,000
+// shots took 0.3–0.5 s of the request thread, and while tablets synced (each batch a new
+// fingerprint, so a new read) it held /healthz and every other request for seconds. In WAL
+// mode a reader never waits for the writer, so the worker's connection neither blocks nor is
+// blocked by the request thread's writes.
+//
+// REPORT_WORKERS = number of threads; 0 reads on the request's thread. Default: as SYNC_WORKERS
+// (one less than the cores, at least 1) under NODE_ENV=production, 0 otherwise (tests, dev, the
+// CLI), and only for a local database file (a libSQL server is read over the network already).
+import { existsSync } from "node:fs";
+import { availableParallelism } from "node:os";
+import { fileURLToPath } from "node:url";
+import Tinypool from "tinypool";
+import { getDb, isSharedFile, type Db } from "~/db/client.server";
+import { getEnv } from "~/env.server";
+import { readSums, type Sums, type SumsInput } from "./report-sums.server";
+import { reportWorkerUrl } from "./report-worker-url.server";
+
+let pool: Tinypool | null | undefined;
+
+export function reportWorkerCount(env: NodeJS.ProcessEnv = process.env): number {
+  const v = env.REPORT_WORKERS;
+  if (v !== undefined && v !== "") {
+    const n = Number(v);
+    if (!Number.isInteger(n) || n < 0 || n > 64) throw new Error(`REPORT_WORKERS must be a whole number from 0 to 64 (got "${v}")`);
+    return n;
+  }
+  return env.NODE_ENV === "production" ? Math.max(1, Math.min(4, availableParallelism() - 1)) : 0;
+}
+
+/** The pool, started on first use; null when reports are read on the request's thread. */
+export function reportPool(): Tinypool | null {
+  if (pool !== undefined) return pool;
+  const threads = reportWorkerCount();
+  if (!threads || !isSharedFile(getEnv().DATABASE_URL)) return (pool = null);
+  const file = fileURLToPath(reportWorkerUrl);
+  if (!existsSync(file)) {
+    // a build without its worker chunk must still answer: slower, never refused
+    console.error(`report: the worker module ${file} is missing; reading reports on the request thread`);
+    return (pool = null);
+  }
+  pool = new Tinypool({
+    filename: file.endsWith(".ts") ? new URL("./report-worker-tsx.mjs", import.meta.url).href : reportWorkerUrl,
+    minThreads: threads,
+    maxThreads: threads,
+    // not the server's own flags: `npm start` runs under `--import tsx`, whose loader would route
+    // every module the thread loads through its hooks thread (measured: most of a thread's
+    // start-up); the built chunk is JavaScript, and from the sources the .mjs above registers tsx
+    execArgv: [],
+  });
+  // the first report after a start should not also pay for the thread's modules and connection
+  for (let i = 0; i < threads; i++) pool.run(null, { name: "warm" }).catch((e) => console.error("report: a worker did not start", e));
+  return pool;
+}
+
+/** The report's sums: on the pool for the server's own database, else here. */
+export async function readSumsOffThread(db: Db, input: SumsInput): Promise<Sums> {
+  const p = db === getDb() ? reportPool() : null;
+  if (!p) return readSums(db, input);
+  return (await p.run(input, { name: "reportSums" })) as Sums;
+}
+
+/** For tests and shutdown: stop the threads; the next use starts them again. */
+export async function closeReportPool() {
+  const p = pool;
+  pool = undefined;
+  await p?.destroy();
+}
+
+/** Called by the server entry at start (not on import: command-line tools start no threads). */
+export function startReportPool() {
+  try {
+    reportPool();
+  } catch (e) {
+    console.error("report: the report worker pool did not start; reading reports on the request thread", e);
+  }
+}
