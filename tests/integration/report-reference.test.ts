@@ -49,7 +49,16 @@ beforeAll(async () => {
       { label: "T40", reflectancePct: 50, grid: { e: 1000, n: 2040, h: 100 } }, // no σ: unknown
     ],
   });
-  const project = await makeProject({ sensorIds: [sensorId], siteIds: [site.id], tapeIds: [tapeId], minShots: 3, statement: "nssda95", edmUncertaintyMm: 2, edmUncertaintyPpm: 1, memberIds: [crew.id, viewer.id] });
+  const project = await makeProject({
+    sensorIds: [sensorId],
+    siteIds: [site.id],
+    tapeIds: [tapeId],
+    minShots: 3,
+    statement: "nssda95",
+    edmUncertaintyMm: 2,
+    edmUncertaintyPpm: 1,
+    memberIds: [crew.id, viewer.id],
+  });
   projectId = project.id;
   await addMemberIds(projectId, viewer.id); // api.md v1.1: a member sees the project's sessions
   const edm = await call(

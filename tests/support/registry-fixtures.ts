@@ -87,9 +87,17 @@ export async function makeSite(opts: { name?: string; targets?: TargetIn[]; stat
 }
 
 export async function makeProject(
-  opts: { sensorIds?: string[]; siteIds?: string[]; tapeIds?: string[]; edmIds?: string[]; memberIds?: string[]; minShots?: number; coverageK?: number; minWithinPct?: number; name?: string } & Partial<
-    Pick<typeof projects.$inferInsert, "referenceRatio" | "referenceInVerdict" | "statement" | "edmUncertaintyMm" | "edmUncertaintyPpm">
-  > = {},
+  opts: {
+    sensorIds?: string[];
+    siteIds?: string[];
+    tapeIds?: string[];
+    edmIds?: string[];
+    memberIds?: string[];
+    minShots?: number;
+    coverageK?: number;
+    minWithinPct?: number;
+    name?: string;
+  } & Partial<Pick<typeof projects.$inferInsert, "referenceRatio" | "referenceInVerdict" | "statement" | "edmUncertaintyMm" | "edmUncertaintyPpm">> = {},
 ) {
   const db = getDb();
   const row = {
