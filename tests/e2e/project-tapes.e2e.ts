@@ -2,7 +2,7 @@
 // ticks a tape in the project page's "Tapes and reference EDMs" section and saves; the crew's
 // tablet, copying its reference data, then offers that tape (and the project's other one) for a
 // session of the project — and not a tape the project does not list.
-// PROJECT_SHOTS_DIR=<dir> writes PNGs of the section (both themes) to look at.
+// PROJECT_SHOTS_DIR=<dir> writes PNGs of the section (both themes) and the tablet's form to look at.
 import { mkdirSync } from "node:fs";
 import { join } from "node:path";
 import { afterAll, beforeAll, expect, test } from "vitest";
@@ -45,17 +45,19 @@ test("the admin adds a tape to a project on its page; the crew's tablet offers i
   const dir = process.env.PROJECT_SHOTS_DIR;
   if (dir) {
     mkdirSync(dir, { recursive: true });
-    for (const scheme of ["light", "dark"] as const) {
-      await page.emulateMedia({ colorScheme: scheme });
-      await section.screenshot({ path: join(dir, `project-tapes-edms-${scheme}.png`) });
-    }
-    await page.emulateMedia({ colorScheme: "light" });
+    await section.screenshot({ path: join(dir, "project-tapes-edms-light.png") });
   }
   await page.getByRole("button", { name: "Save changes" }).click();
   await page.waitForURL("**/admin/projects");
   await page.getByText(/saved \(.*tapeIds.*\)/).waitFor();
   await page.goto(`/admin/projects/${world.projectId}`);
   expect(await box(world.added.label).isChecked()).toBe(true);
+  if (dir) {
+    await page.getByRole("button", { name: "Switch to dark theme" }).click();
+    await page.locator("html.dark").waitFor({ state: "attached" });
+    await section.screenshot({ path: join(dir, "project-tapes-edms-dark.png") });
+    await page.getByRole("button", { name: "Switch to daylight theme" }).click();
+  }
   await admin.close();
 
   const tablet = await newContext(browser, { viewport: { width: 1280, height: 800 } });
