@@ -80,3 +80,22 @@ test("the admin adds a tape to a project on its page; the crew's tablet offers i
   if (dir) await field.screenshot({ path: join(dir, "tablet-tape-choice.png"), fullPage: true });
   await tablet.close();
 });
+
+test("a viewer of the project reads its tape's page (no edit form); another job's tape is not found", async () => {
+  const context = await newContext(browser, { viewport: { width: 1024, height: 800 } });
+  await signInAs(context, "viewer@e2e.test");
+  const page = await context.newPage();
+  await page.goto("/admin/tapes");
+  await page.getByRole("link", { name: world.listed.label }).click();
+  await page.waitForURL(`**/admin/tapes/${world.listed.id}`);
+  const summary = page.getByTestId("tape-summary");
+  await summary.waitFor();
+  expect(await summary.textContent()).toContain(`E2E project ${tag}`);
+  expect(await page.getByRole("button", { name: "Save changes" }).count()).toBe(0);
+  expect(await page.getByRole("link", { name: world.other.label }).count()).toBe(0);
+  const dir = process.env.PROJECT_SHOTS_DIR;
+  if (dir) await page.screenshot({ path: join(dir, "viewer-tape-page.png"), fullPage: true });
+  const res = await page.goto(`/admin/tapes/${world.other.id}`);
+  expect(res?.status()).toBe(404);
+  await context.close();
+});
