@@ -39,9 +39,10 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/admin.sensors.tsx": { GET: ALL },
   "routes/admin.sensors.new.tsx": { GET: ADMIN, POST: ADMIN },
   "routes/admin.sensors.$sensorId.tsx": { GET: ADMIN, POST: ADMIN },
-  "routes/admin.tapes.tsx": { GET: ADMIN },
+  // issue 14: tapes and reference EDMs read like sensors, each user its projects' ones (404 outside)
+  "routes/admin.tapes.tsx": { GET: ALL },
   "routes/admin.tapes.new.tsx": { GET: ADMIN, POST: ADMIN },
-  "routes/admin.tapes.$tapeId.tsx": { GET: ADMIN, POST: ADMIN },
+  "routes/admin.tapes.$tapeId.tsx": { GET: ALL, POST: ADMIN },
   "routes/admin.sites.tsx": { GET: ALL },
   "routes/admin.sites.new.tsx": { GET: ADMIN, POST: ADMIN },
   "routes/admin.sites.$siteId.tsx": { GET: ADMIN, POST: ADMIN },
@@ -50,7 +51,7 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/admin.projects.$projectId.tsx": { GET: ADMIN, POST: ADMIN },
   // api.sensors.ts: POST is the registry's; its GET (any signed-in role) is the sync/report loader.
   "routes/api.sensors.ts": { GET: ALL, POST: ADMIN },
-  "routes/api.tapes.ts": { POST: ADMIN },
+  "routes/api.tapes.ts": { GET: ALL, POST: ADMIN },
   "routes/api.sites.ts": { POST: ADMIN },
 
   // ---- sync and reports (API) ----
@@ -86,10 +87,10 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/api.field.reference.ts": { GET: FIELD },
 
   // ---- issue 15: reference EDMs (admin) and a sensor's history (every role reads) ----
-  "routes/admin.edms.tsx": { GET: ADMIN },
+  "routes/admin.edms.tsx": { GET: ALL },
   "routes/admin.edms.new.tsx": { GET: ADMIN, POST: ADMIN },
-  "routes/admin.edms.$edmId.tsx": { GET: ADMIN, POST: ADMIN },
-  "routes/api.edms.ts": { POST: ADMIN },
+  "routes/admin.edms.$edmId.tsx": { GET: ALL, POST: ADMIN },
+  "routes/api.edms.ts": { GET: ALL, POST: ADMIN },
   "routes/review.sensors.$sensorId.history.tsx": { GET: ALL },
   // ---- check-shots from scans and depth frames (issue 18) ----
   // Field roles import (crew at the van, QA in the office); the shots go through the sync ingest.

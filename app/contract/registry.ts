@@ -303,6 +303,10 @@ export const projectSchema = z.object({
     }),
   sensorIds: z.array(idSchema, { error: "sensorIds is a list of sensor ids" }).default([]),
   siteIds: z.array(idSchema, { error: "siteIds is a list of site ids" }).default([]),
+  // issue 14 (p14): optional, so a body written before them (the API, the seed) keeps the
+  // project's tapes and EDMs as they are; the project form always sends them
+  tapeIds: z.array(idSchema, { error: "tapeIds is a list of tape ids" }).optional(),
+  edmIds: z.array(idSchema, { error: "edmIds is a list of reference EDM ids" }).optional(),
   // issue 15 (ranging.md §7)
   referenceRatio: z.preprocess(blankNumber, num("the reference ratio r").positive("The reference ratio must be above 0").max(20, "The reference ratio is at most 20").default(2)),
   referenceInVerdict: z.boolean({ error: "Say whether the reference test enters the verdict" }).default(false),

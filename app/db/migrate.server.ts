@@ -11,4 +11,8 @@ export async function migrateDb(db: Db) {
   const { backfillReferenceUncertainty } = await import("~/models/shots.server");
   const b = await backfillReferenceUncertainty(db);
   if (b.ran && b.updated) console.log(`Reference uncertainty filled in for ${b.updated} shots stored before it was computed`);
+  // issue 14: tapes and EDMs linked to the projects whose sessions used them, once
+  const { backfillProjectTapesEdms } = await import("~/models/tapes.server");
+  const l = await backfillProjectTapesEdms(db);
+  if (l.ran && (l.tapes || l.edms)) console.log(`Linked ${l.tapes} tape and ${l.edms} reference EDM uses to the projects whose sessions used them`);
 }

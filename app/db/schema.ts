@@ -542,3 +542,35 @@ export const projectReportVersions = sqliteTable(
   },
   (t) => [primaryKey({ columns: [t.projectId, t.version] })],
 );
+
+// ---------- issue 14 (p14): the tapes and reference EDMs a project uses ----------
+/**
+ * Which tapes a project's crews may use (scoping like project_sensors): a tablet copies only its
+ * projects' tapes, and a shot naming a tape its session's project does not list is refused.
+ */
+export const projectTapes = sqliteTable(
+  "project_tapes",
+  {
+    projectId: text("project_id")
+      .notNull()
+      .references(() => projects.id),
+    tapeId: text("tape_id")
+      .notNull()
+      .references(() => tapes.id),
+  },
+  (t) => [primaryKey({ columns: [t.projectId, t.tapeId] }), index("project_tapes_tape").on(t.tapeId)],
+);
+
+/** Which reference EDMs a project's crews may use (as project_tapes). */
+export const projectEdms = sqliteTable(
+  "project_edms",
+  {
+    projectId: text("project_id")
+      .notNull()
+      .references(() => projects.id),
+    edmId: text("edm_id")
+      .notNull()
+      .references(() => edms.id),
+  },
+  (t) => [primaryKey({ columns: [t.projectId, t.edmId] }), index("project_edms_edm").on(t.edmId)],
+);

@@ -2,9 +2,11 @@
 // distances, with their standard uncertainty a + b·D and calibration certificate. A shot that
 // names one (`reference.edmId`) takes its u_ref from here; a certificate past due on a
 // session's date is flagged on the report's traceability. Never deleted, only retired.
-import { asc, eq, isNull } from "drizzle-orm";
+import { and, asc, eq, isNull } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
-import { edms } from "~/db/schema";
+import { edms, projects, projectEdms } from "~/db/schema";
+import type { Actor } from "~/models/actor";
+import { edmListedInScope, projectColInScope, scopeOf } from "~/models/scope.server";
 import { audit } from "~/models/audit.server";
 import { certificateColumns, edmSchema, invalid, issuesToErrors, stableStringify, type EdmBody, type NotFound, type RegistryResult } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
@@ -124,15 +126,66 @@ export async function restoreEdm(actor: RegistryActor, id: string): Promise<Regi
   return { status: 200, body: { id } };
 }
 
-export async function listEdms({ includeRetired = false }: { includeRetired?: boolean } = {}): Promise<EdmRow[]> {
-  return getDb()
+/**
+ * issue 14: an admin lists every edm; anyone else only those their projects list, each with
+ * the ids of those of their projects that list it.
+ */
+export async function listEdms(actor: Pick<Actor, "id" | "role">, { includeRetired = false }: { includeRetired?: boolean } = {}): Promise<(EdmRow & { projectIds: string[] })[]> {
+  const db = getDb();
+  const scope = await scopeOf(actor, db);
+  const [rows, links] = await Promise.all([
+    db
+      .select()
+      .from(edms)
+      .where(and(includeRetired ? undefined : isNull(edms.retiredAt), edmListedInScope(scope, edms.id)))
+      .orderBy(asc(edms.label)),
+    db.select({ projectId: projectEdms.projectId, id: projectEdms.edmId }).from(projectEdms).where(projectColInScope(scope, projectEdms.projectId)),
+  ]);
+  const byId = new Map<string, string[]>();
+  for (const l of links) byId.set(l.id, [...(byId.get(l.id) ?? []), l.projectId]);
+  return rows.map((r) => ({ ...r, projectIds: (byId.get(r.id) ?? []).sort() }));
+}
+
+/** One edm as the actor may see it, with the projects (of theirs) that list it; null answers like "no such edm". */
+export async function getEdmFor(actor: Pick<Actor, "id" | "role">, id: string): Promise<(EdmRow & { projects: { id: string; name: string }[] }) | null> {
+  const db = getDb();
+  const scope = await scopeOf(actor, db);
+  const [row] = await db
     .select()
     .from(edms)
-    .where(includeRetired ? undefined : isNull(edms.retiredAt))
-    .orderBy(asc(edms.label));
+    .where(and(eq(edms.id, id), edmListedInScope(scope, edms.id)))
+    .limit(1);
+  if (!row) return null;
+  const ps = await db
+    .select({ id: projects.id, name: projects.name })
+    .from(projectEdms)
+    .innerJoin(projects, eq(projects.id, projectEdms.projectId))
+    .where(and(eq(projectEdms.edmId, id), projectColInScope(scope, projectEdms.projectId)))
+    .orderBy(asc(projects.name));
+  return { ...row, projects: ps };
 }
 
 export async function getEdm(id: string): Promise<EdmRow | null> {
   const [row] = await getDb().select().from(edms).where(eq(edms.id, id)).limit(1);
   return row ?? null;
+}
+
+/**
+ * GET /api/edms (issue 14): the live reference EDMs of the actor's projects (admins: all), each with
+ * `projectIds` (those of the actor's projects that list it); `?project=` narrows to one project,
+ * and a project the actor cannot see answers 404 like an unknown one.
+ */
+export async function edmsJson(actor: Pick<Actor, "id" | "role">, params: URLSearchParams): Promise<{ status: 200 | 404; body: unknown }> {
+  const project = params.get("project");
+  if (project) {
+    const scope = await scopeOf(actor);
+    const [p] = await getDb()
+      .select({ id: projects.id })
+      .from(projects)
+      .where(and(eq(projects.id, project), projectColInScope(scope, projects.id)))
+      .limit(1);
+    if (!p) return { status: 404, body: { error: `No project with id "${project}".` } };
+  }
+  const rows = (await listEdms(actor)).filter((r) => !project || r.projectIds.includes(project));
+  return { status: 200, body: { edms: rows.map(({ createdAt: _c, updatedAt: _u, retiredAt: _r, ...r }) => r) } };
 }

@@ -1,11 +1,11 @@
 // The reference data a tablet copies before going into the field: active sensors, sites with
 // their stations and targets, tapes, projects with their acceptance rules, and who is asking.
-import { and, isNull, sql } from "drizzle-orm";
+import { and, isNull } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
-import { edms, projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets } from "~/db/schema";
+import { edms, projectEdms, projectSensors, projectSites, projectTapes, projects, sensors, sites, stations, tapes, targets } from "~/db/schema";
 import { ruleOf, RULE_COLUMNS } from "~/models/shots.server";
 import type { SessionUser } from "~/auth/guards.server";
-import { projectColInScope, scopeOf, sensorListedInScope, siteListedInScope } from "~/models/scope.server";
+import { edmListedInScope, projectColInScope, scopeOf, sensorListedInScope, siteListedInScope, tapeListedInScope } from "~/models/scope.server";
 import type { FieldReference } from "~/offline/types";
 import { openReshootsFor } from "~/models/reshoots.server";
 
@@ -15,18 +15,17 @@ const point = (r: { gridE: number | null; gridN: number | null; gridH: number | 
 });
 
 /**
- * issue 14: a tablet copies only its user's projects — their live projects, the sensors and
- * sites those list (with the sites' stations and targets). Tapes and reference EDMs belong to
- * the firm, not to a project (nothing links them to one): a user with at least one project gets
- * them all, a user with none gets none. Admins get everything.
+ * issue 14: a tablet copies only its user's projects — their live projects, the sensors, sites,
+ * tapes and reference EDMs those list (with the sites' stations and targets), and per project
+ * which of them it lists, so the shot form offers a session only its project's tapes and EDMs.
+ * Admins get everything.
  */
 export async function fieldReference(user: SessionUser): Promise<FieldReference> {
   const db = getDb();
   // issue 12: open re-shoot requests travel with the reference data, scoped like the rest
   const reshootsP = openReshootsFor(user);
   const scope = await scopeOf(user, db);
-  const noProjects = !scope.all && scope.projectIds.length === 0;
-  const [sensorRows, siteRows, stationRows, targetRows, tapeRows, projectRows, ps, pSites, edmRows] = await Promise.all([
+  const [sensorRows, siteRows, stationRows, targetRows, tapeRows, projectRows, ps, pSites, edmRows, pTapes, pEdms] = await Promise.all([
     db
       .select({
         id: sensors.id,
@@ -98,7 +97,7 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
         certDue: tapes.certDue,
       })
       .from(tapes)
-      .where(and(isNull(tapes.retiredAt), noProjects ? sql`0` : undefined)),
+      .where(and(isNull(tapes.retiredAt), tapeListedInScope(scope, tapes.id))),
     db
       .select({
         id: projects.id,
@@ -113,7 +112,9 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
     db
       .select({ id: edms.id, label: edms.label, serial: edms.serial, uncertaintyMm: edms.uncertaintyMm, uncertaintyPpm: edms.uncertaintyPpm, certNumber: edms.certNumber, certDue: edms.certDue })
       .from(edms)
-      .where(and(isNull(edms.retiredAt), noProjects ? sql`0` : undefined)),
+      .where(and(isNull(edms.retiredAt), edmListedInScope(scope, edms.id))),
+    db.select({ projectId: projectTapes.projectId, tapeId: projectTapes.tapeId }).from(projectTapes).where(projectColInScope(scope, projectTapes.projectId)),
+    db.select({ projectId: projectEdms.projectId, edmId: projectEdms.edmId }).from(projectEdms).where(projectColInScope(scope, projectEdms.projectId)),
   ]);
 
   return {
@@ -132,6 +133,8 @@ export async function fieldReference(user: SessionUser): Promise<FieldReference>
       rule: ruleOf(p),
       sensorIds: ps.filter((x) => x.projectId === p.id).map((x) => x.sensorId),
       siteIds: pSites.filter((x) => x.projectId === p.id).map((x) => x.siteId),
+      tapeIds: pTapes.filter((x) => x.projectId === p.id).map((x) => x.tapeId),
+      edmIds: pEdms.filter((x) => x.projectId === p.id).map((x) => x.edmId),
     })),
     edms: edmRows,
     reshoots: await reshootsP,

@@ -1,4 +1,4 @@
-// POST /api/projects (admin, api.md v1.1): a project with its sensors, sites, members and rule in
+// POST /api/projects (admin, api.md v1.1): a project with its sensors, sites, tapes, EDMs, members and rule in
 // one body. The API nests the rule (`rule: {...}`) where the admin form keeps it flat, so the
 // body is checked against the same field rules (projectSchema) with the rule's paths kept as
 // `rule.minShots`. Members are part of the project's content: the same body again answers 200,
@@ -10,7 +10,7 @@ import { projectMembers, projectSensors, projectSites, projects, users } from "~
 import type { Actor } from "./actor";
 import { audit } from "./audit.server";
 import { usersByEmail } from "./members.server";
-import { contentOf, getProject, rowContent, type ProjectWithLinks } from "./projects.server";
+import { contentOf, getProject, linksGiven, rowContent, unknownTapesEdms, writeTapeEdmLinks, type ProjectWithLinks } from "./projects.server";
 import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type ProjectBody, type RegistryResult } from "./registry-schemas";
 import { isConstraintError, sensorsExist } from "./sensors.server";
 import { sitesExist } from "./sites.server";
@@ -30,7 +30,7 @@ const RULE_KEYS = {
 
 const emailEntry = z.string({ error: "A member is given by e-mail address (text)" }).trim().max(254, "That address is too long").pipe(z.email("That does not look like an e-mail address"));
 
-export const projectApiSchema = projectSchema.pick({ id: true, name: true, client: true, notes: true, sensorIds: true, siteIds: true }).extend({
+export const projectApiSchema = projectSchema.pick({ id: true, name: true, client: true, notes: true, sensorIds: true, siteIds: true, tapeIds: true, edmIds: true }).extend({
   memberEmails: z.array(emailEntry, { error: "memberEmails is a list of e-mail addresses" }).max(500, "At most 500 members").default([]),
   // Rule fields are optional: missing ones take the defaults of ranging.md §6 (the schema's defaults).
   rule: projectSchema.pick(RULE_KEYS).default(() => projectSchema.pick(RULE_KEYS).parse({})),
@@ -49,6 +49,7 @@ async function parse(raw: unknown): Promise<{ ok: true; value: Parsed } | { ok: 
   body.sensorIds.forEach((id, i) => haveSensors.has(id) || errors.push({ path: `sensorIds.${i}`, message: `No sensor with id "${id}"` }));
   body.siteIds.forEach((id, i) => haveSites.has(id) || errors.push({ path: `siteIds.${i}`, message: `No site with id "${id}"` }));
   emails.forEach((e, i) => people.has(e) || errors.push({ path: `memberEmails.${i}`, message: `No user with the e-mail address "${e}": invite them first` }));
+  errors.push(...(await unknownTapesEdms(body)));
   if (errors.length) return { ok: false, result: invalid(errors) };
   const unique = [...new Set(emails)].sort();
   return { ok: true, value: { body, memberEmails: unique, memberIds: unique.map((e) => people.get(e)!.id) } };
@@ -61,7 +62,7 @@ async function memberEmailsOf(projectId: string) {
 
 async function sameContent(existing: ProjectWithLinks, p: Parsed) {
   const withNotes = p.body.notes !== undefined;
-  const a = { ...rowContent(existing, withNotes), memberEmails: await memberEmailsOf(existing.id) };
+  const a = { ...rowContent(existing, withNotes, linksGiven(p.body)), memberEmails: await memberEmailsOf(existing.id) };
   const b = { ...contentOf(p.body, withNotes), memberEmails: p.memberEmails };
   return stableStringify(a) === stableStringify(b);
 }
@@ -91,14 +92,15 @@ async function createOnce(actor: Actor, raw: unknown, retry: boolean): Promise<R
     }
   }
   const id = body.id ?? crypto.randomUUID();
-  const { sensorIds, siteIds, ...cols } = contentOf(body, true);
+  const { sensorIds, siteIds, tapeIds, edmIds, ...cols } = contentOf(body, true);
   try {
     await db.transaction(async (tx) => {
       await tx.insert(projects).values({ id, ...cols });
       if (sensorIds.length) await tx.insert(projectSensors).values(sensorIds.map((sensorId) => ({ projectId: id, sensorId })));
       if (siteIds.length) await tx.insert(projectSites).values(siteIds.map((siteId) => ({ projectId: id, siteId })));
+      await writeTapeEdmLinks(tx, id, { tapeIds, edmIds }, false);
       if (memberIds.length) await tx.insert(projectMembers).values(memberIds.map((userId) => ({ projectId: id, userId, addedBy: actor.id })));
-      await audit(actor.id, "create", "project", id, { id, ...cols, sensorIds, siteIds, memberEmails }, tx);
+      await audit(actor.id, "create", "project", id, { id, ...cols, sensorIds, siteIds, tapeIds: tapeIds ?? [], edmIds: edmIds ?? [], memberEmails }, tx);
       for (const [i, userId] of memberIds.entries()) {
         await audit(actor.id, "member.add", "project", id, { userId, email: memberEmails[i], project: cols.name }, tx);
       }

@@ -1,9 +1,9 @@
 // Projects: a client's job with its acceptance rule (ranging.md §6) and the sensors and sites
 // it uses. A rule change recomputes the shots of the project's sensors.
-import { asc, eq, isNull, sql } from "drizzle-orm";
+import { asc, eq, inArray, isNull, sql } from "drizzle-orm";
 import { DEFAULT_RULE, type Rule } from "~/domain";
-import { getDb } from "~/db/client.server";
-import { projectSensors, projectSites, projects, sensors, sites } from "~/db/schema";
+import { getDb, type Db } from "~/db/client.server";
+import { edms, projectEdms, projectSensors, projectSites, projectTapes, projects, sensors, sites, tapes } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
@@ -11,7 +11,7 @@ import { recomputeShotsForProject, RULE_COLUMNS, ruleOf } from "~/models/shots.s
 import { sitesExist } from "~/models/sites.server";
 
 export type ProjectRow = typeof projects.$inferSelect;
-export type ProjectWithLinks = ProjectRow & { sensorIds: string[]; siteIds: string[] };
+export type ProjectWithLinks = ProjectRow & { sensorIds: string[]; siteIds: string[]; tapeIds: string[]; edmIds: string[] };
 
 // the EDM figures are each EDM shot's stored u_ref (ranging.md §7): they recompute too
 const RULE_FIELDS = ["minShots", "coverageK", "minWithinPct", "rangeBandEdgesM", "edmUncertaintyMm", "edmUncertaintyPpm"] as const;
@@ -31,11 +31,14 @@ export function contentOf(b: ProjectBody, withNotes: boolean) {
     edmUncertaintyPpm: b.edmUncertaintyPpm ?? null,
     sensorIds: [...new Set(b.sensorIds)].sort(),
     siteIds: [...new Set(b.siteIds)].sort(),
+    // issue 14: compared and written only when the body gives them (older bodies leave them be)
+    ...(b.tapeIds !== undefined ? { tapeIds: [...new Set(b.tapeIds)].sort() } : {}),
+    ...(b.edmIds !== undefined ? { edmIds: [...new Set(b.edmIds)].sort() } : {}),
     ...(withNotes ? { notes: b.notes ?? "" } : {}),
   };
 }
 
-export function rowContent(r: ProjectWithLinks, withNotes: boolean) {
+export function rowContent(r: ProjectWithLinks, withNotes: boolean, links: { tapeIds: boolean; edmIds: boolean } = { tapeIds: true, edmIds: true }) {
   return {
     name: r.name,
     client: r.client,
@@ -50,13 +53,18 @@ export function rowContent(r: ProjectWithLinks, withNotes: boolean) {
     edmUncertaintyPpm: r.edmUncertaintyPpm ?? null,
     sensorIds: [...r.sensorIds].sort(),
     siteIds: [...r.siteIds].sort(),
+    ...(links.tapeIds ? { tapeIds: [...r.tapeIds].sort() } : {}),
+    ...(links.edmIds ? { edmIds: [...r.edmIds].sort() } : {}),
     ...(withNotes ? { notes: r.notes } : {}),
   };
 }
 
+/** Which of the optional link lists a body gives (issue 14: tapes and EDMs). */
+export const linksGiven = (b: Pick<ProjectBody, "tapeIds" | "edmIds">) => ({ tapeIds: b.tapeIds !== undefined, edmIds: b.edmIds !== undefined });
+
 function sameContent(r: ProjectWithLinks, b: ProjectBody) {
   const withNotes = b.notes !== undefined;
-  return stableStringify(rowContent(r, withNotes)) === stableStringify(contentOf(b, withNotes));
+  return stableStringify(rowContent(r, withNotes, linksGiven(b))) === stableStringify(contentOf(b, withNotes));
 }
 
 async function parseProject(body: unknown) {
@@ -67,8 +75,46 @@ async function parseProject(body: unknown) {
   const errors: FieldError[] = [];
   b.sensorIds.forEach((id, i) => haveSensors.has(id) || errors.push({ path: `sensorIds.${i}`, message: `No sensor with id "${id}"` }));
   b.siteIds.forEach((id, i) => haveSites.has(id) || errors.push({ path: `siteIds.${i}`, message: `No site with id "${id}"` }));
+  errors.push(...(await unknownTapesEdms(b)));
   if (errors.length) return { ok: false as const, result: invalid(errors) };
   return { ok: true as const, value: b };
+}
+
+/** issue 14: the errors of tapeIds / edmIds naming no tape or EDM (path `tapeIds.N`, `edmIds.N`). */
+export async function unknownTapesEdms(b: Pick<ProjectBody, "tapeIds" | "edmIds">): Promise<FieldError[]> {
+  const db = getDb();
+  const [t, e] = await Promise.all([
+    b.tapeIds?.length
+      ? db
+          .select({ id: tapes.id })
+          .from(tapes)
+          .where(inArray(tapes.id, [...new Set(b.tapeIds)]))
+      : [],
+    b.edmIds?.length
+      ? db
+          .select({ id: edms.id })
+          .from(edms)
+          .where(inArray(edms.id, [...new Set(b.edmIds)]))
+      : [],
+  ]);
+  const haveT = new Set(t.map((r) => r.id));
+  const haveE = new Set(e.map((r) => r.id));
+  const errors: FieldError[] = [];
+  (b.tapeIds ?? []).forEach((id, i) => haveT.has(id) || errors.push({ path: `tapeIds.${i}`, message: `No tape with id "${id}"` }));
+  (b.edmIds ?? []).forEach((id, i) => haveE.has(id) || errors.push({ path: `edmIds.${i}`, message: `No reference EDM with id "${id}"` }));
+  return errors;
+}
+
+/** issue 14: replaces a project's tapes or EDMs (only the lists given). */
+export async function writeTapeEdmLinks(tx: Pick<Db, "insert" | "delete">, projectId: string, links: { tapeIds?: string[]; edmIds?: string[] }, replace: boolean) {
+  if (links.tapeIds) {
+    if (replace) await tx.delete(projectTapes).where(eq(projectTapes.projectId, projectId));
+    if (links.tapeIds.length) await tx.insert(projectTapes).values(links.tapeIds.map((tapeId) => ({ projectId, tapeId })));
+  }
+  if (links.edmIds) {
+    if (replace) await tx.delete(projectEdms).where(eq(projectEdms.projectId, projectId));
+    if (links.edmIds.length) await tx.insert(projectEdms).values(links.edmIds.map((edmId) => ({ projectId, edmId })));
+  }
 }
 
 export async function createProject(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
@@ -93,13 +139,14 @@ async function createProjectOnce(actor: RegistryActor, body: unknown, retry: boo
     }
   }
   const id = b.id ?? crypto.randomUUID();
-  const { sensorIds, siteIds, ...cols } = contentOf(b, true);
+  const { sensorIds, siteIds, tapeIds, edmIds, ...cols } = contentOf(b, true);
   try {
     await db.transaction(async (tx) => {
       await tx.insert(projects).values({ id, ...cols });
       if (sensorIds.length) await tx.insert(projectSensors).values(sensorIds.map((sensorId) => ({ projectId: id, sensorId })));
       if (siteIds.length) await tx.insert(projectSites).values(siteIds.map((siteId) => ({ projectId: id, siteId })));
-      await audit(actorId(actor), "create", "project", id, { id, ...cols, sensorIds, siteIds }, tx);
+      await writeTapeEdmLinks(tx, id, { tapeIds, edmIds }, false);
+      await audit(actorId(actor), "create", "project", id, { id, ...cols, sensorIds, siteIds, tapeIds: tapeIds ?? [], edmIds: edmIds ?? [] }, tx);
     });
   } catch (e) {
     if (retry && isConstraintError(e)) return createProjectOnce(actor, body, false);
@@ -115,9 +162,9 @@ export async function updateProject(actor: RegistryActor, id: string, body: unkn
   const before = await getProject(id);
   if (!before) return { status: 404, body: { error: `No project with id "${id}".` } };
   const after = contentOf(p.value, true);
-  const changes = changedFields(rowContent(before, true), after);
+  const changes = changedFields(rowContent(before, true, linksGiven(p.value)), after);
   if (Object.keys(changes).length === 0) return { status: 200, body: { id, changed: [] } };
-  const { sensorIds, siteIds, ...cols } = after;
+  const { sensorIds, siteIds, tapeIds, edmIds, ...cols } = after;
   await getDb().transaction(async (tx) => {
     await tx
       .update(projects)
@@ -132,6 +179,8 @@ export async function updateProject(actor: RegistryActor, id: string, body: unkn
       await tx.delete(projectSites).where(eq(projectSites.projectId, id));
       if (siteIds.length) await tx.insert(projectSites).values(siteIds.map((siteId) => ({ projectId: id, siteId })));
     }
+    // issue 14: the crews' tapes and EDMs; which shots used them stays in the shots' raw records
+    await writeTapeEdmLinks(tx, id, { tapeIds: "tapeIds" in changes ? tapeIds : undefined, edmIds: "edmIds" in changes ? edmIds : undefined }, true);
     await audit(actorId(actor), "update", "project", id, changes, tx);
   });
   // Shots of this project's sessions carry a per-shot limit k·T: a rule change recomputes them.
@@ -181,11 +230,13 @@ export async function getProject(id: string): Promise<ProjectWithLinks | null> {
   const db = getDb();
   const [row] = await db.select().from(projects).where(eq(projects.id, id)).limit(1);
   if (!row) return null;
-  const [ps, ss] = await Promise.all([
+  const [ps, ss, ts, es] = await Promise.all([
     db.select({ id: projectSensors.sensorId }).from(projectSensors).where(eq(projectSensors.projectId, id)),
     db.select({ id: projectSites.siteId }).from(projectSites).where(eq(projectSites.projectId, id)),
+    db.select({ id: projectTapes.tapeId }).from(projectTapes).where(eq(projectTapes.projectId, id)),
+    db.select({ id: projectEdms.edmId }).from(projectEdms).where(eq(projectEdms.projectId, id)),
   ]);
-  return { ...row, sensorIds: ps.map((r) => r.id), siteIds: ss.map((r) => r.id) };
+  return { ...row, sensorIds: ps.map((r) => r.id), siteIds: ss.map((r) => r.id), tapeIds: ts.map((r) => r.id), edmIds: es.map((r) => r.id) };
 }
 
 /** The acceptance rule of a project; DEFAULT_RULE (ranging.md §6) when there is none. */
@@ -198,14 +249,18 @@ export async function getProjectRule(projectId: string | null): Promise<Rule> {
 }
 
 /** Choices for the project form's sensor and site boxes (retired ones only when already linked). */
-export async function projectChoices(linked: { sensorIds: string[]; siteIds: string[] } = { sensorIds: [], siteIds: [] }) {
+export async function projectChoices(linked: { sensorIds: string[]; siteIds: string[]; tapeIds?: string[]; edmIds?: string[] } = { sensorIds: [], siteIds: [] }) {
   const db = getDb();
-  const [ss, st] = await Promise.all([
+  const [ss, st, ts, es] = await Promise.all([
     db.select({ id: sensors.id, label: sensors.label, serial: sensors.serial, retiredAt: sensors.retiredAt }).from(sensors).orderBy(asc(sensors.label)),
     db.select({ id: sites.id, name: sites.name, retiredAt: sites.retiredAt }).from(sites).orderBy(asc(sites.name)),
+    db.select({ id: tapes.id, label: tapes.label, certDue: tapes.certDue, retiredAt: tapes.retiredAt }).from(tapes).orderBy(asc(tapes.label)),
+    db.select({ id: edms.id, label: edms.label, serial: edms.serial, certDue: edms.certDue, retiredAt: edms.retiredAt }).from(edms).orderBy(asc(edms.label)),
   ]);
   return {
     sensors: ss.filter((s) => !s.retiredAt || linked.sensorIds.includes(s.id)),
     sites: st.filter((s) => !s.retiredAt || linked.siteIds.includes(s.id)),
+    tapes: ts.filter((t) => !t.retiredAt || (linked.tapeIds ?? []).includes(t.id)),
+    edms: es.filter((e) => !e.retiredAt || (linked.edmIds ?? []).includes(e.id)),
   };
 }

@@ -6,7 +6,7 @@
 import { and, eq, sql, type SQL } from "drizzle-orm";
 import type { SQLiteColumn } from "drizzle-orm/sqlite-core";
 import { getDb, type Db } from "~/db/client.server";
-import { checkSessions, projectMembers, projectSensors, projectSites, projects, sensors, shots, sites } from "~/db/schema";
+import { checkSessions, edms, projectEdms, projectMembers, projectSensors, projectSites, projectTapes, projects, sensors, shots, sites, tapes } from "~/db/schema";
 import type { Actor } from "./actor";
 
 /** `all`: no filter (admins). Otherwise the ids of the projects the actor is a member of. */
@@ -138,6 +138,44 @@ export async function canSeeShot(scope: Scope, shotId: string, db: Db = getDb())
       .select({ id: shots.id })
       .from(shots)
       .where(and(eq(shots.id, shotId), sessionIdInScope(scope, shots.sessionId)))
+      .limit(1),
+  );
+}
+
+// issue 14 (p14): tapes and reference EDMs belong to the projects that list them
+// (project_tapes / project_edms; the links of sessions made before them were filled in once at
+// migrate time). Listed, not merely used: a tape taken off a project stops travelling to its
+// tablets, and its old shots keep their traceability through the shots themselves.
+
+/** Tapes listed by a project in scope. */
+export function tapeListedInScope(scope: Scope, tapeIdCol: SQLiteColumn | SQL): SQL | undefined {
+  if (scope.all) return undefined;
+  return sql`${tapeIdCol} IN (SELECT ${projectTapes.tapeId} FROM ${projectTapes} WHERE ${inList(projectTapes.projectId, scope.projectIds)})`;
+}
+
+/** Reference EDMs listed by a project in scope. */
+export function edmListedInScope(scope: Scope, edmIdCol: SQLiteColumn | SQL): SQL | undefined {
+  if (scope.all) return undefined;
+  return sql`${edmIdCol} IN (SELECT ${projectEdms.edmId} FROM ${projectEdms} WHERE ${inList(projectEdms.projectId, scope.projectIds)})`;
+}
+
+/** True when the tape exists and the scope may see it (false answers like "no such tape"). */
+export async function canSeeTape(scope: Scope, tapeId: string, db: Db = getDb()): Promise<boolean> {
+  return exists(
+    db
+      .select({ id: tapes.id })
+      .from(tapes)
+      .where(and(eq(tapes.id, tapeId), tapeListedInScope(scope, tapes.id)))
+      .limit(1),
+  );
+}
+
+export async function canSeeEdm(scope: Scope, edmId: string, db: Db = getDb()): Promise<boolean> {
+  return exists(
+    db
+      .select({ id: edms.id })
+      .from(edms)
+      .where(and(eq(edms.id, edmId), edmListedInScope(scope, edms.id)))
       .limit(1),
   );
 }

@@ -253,9 +253,22 @@ export async function createSignOff(actor: Actor, sensorId: string, input: Omit<
   // issue 14: a sensor outside the actor's projects is "no such sensor"
   if (!sensor || !(await canSeeSensor(scope, sensorId, db))) throw new ReviewError("No such sensor.", 404);
   // issue 14: a sign-off is per project and sensor. A QA member signs off for a project they
-  // belong to (implied when exactly one of theirs holds the sensor); an admin may still sign
-  // off the whole history without one.
+  // belong to (implied when exactly one of theirs holds the sensor). An admin names the project
+  // too whenever the sensor is in one (listed or used by its sessions): a sign-off freezes only
+  // its project's shots, so "the whole history" is left for a sensor no project holds.
   let projectId = input.projectId || null;
+  if (!projectId && scope.all) {
+    const holding = await db
+      .select({ name: projects.name })
+      .from(projects)
+      .where(
+        sql`${projects.id} IN (SELECT ${projectSensors.projectId} FROM ${projectSensors} WHERE ${projectSensors.sensorId} = ${sensorId} UNION SELECT ${checkSessions.projectId} FROM ${checkSessions} WHERE ${checkSessions.sensorId} = ${sensorId})`,
+      )
+      .orderBy(asc(projects.name));
+    if (holding.length) {
+      throw new ReviewError(`This sensor is used by ${holding.map((p) => p.name).join(", ")}: choose the project this sign-off is for (it freezes that project's shots only).`, 400, "projectId");
+    }
+  }
   if (!projectId && !scope.all) {
     const mine = await db
       .select({ id: projectSensors.projectId })

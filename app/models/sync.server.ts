@@ -8,12 +8,13 @@ import type { ResultSet } from "@libsql/client";
 import { getDb, isSharedFile, type Db } from "~/db/client.server";
 import { getEnv } from "~/env.server";
 import { isTransientDbError, retryTransient } from "~/db/transient.server";
-import { auditLog, checkSessions, shots } from "~/db/schema";
+import { auditLog, checkSessions, projectEdms, projectTapes, shots } from "~/db/schema";
+import { eq } from "drizzle-orm";
 import { airState, DomainError } from "~/domain";
 import { computeShotRecord, holdingProjectsQuery, inIds, pairKey, registryContextOf, registryQueries, shotInsertRow, type SessionFacts } from "./shots.server";
-import { type RecordError, type SyncResult, type SyncSession } from "./sync-schemas";
+import { type RecordError, type SyncResult, type SyncSession, type SyncShot } from "./sync-schemas";
 import { syncPool } from "./sync-pool.server";
-import { conflict, internalErrors, shotStage, validateRecords, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
+import { conflict, internalErrors, shotStage, validateRecords, type Rec, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
 
 import type { Actor } from "./actor";
 import { inScope, scopeOf, type Scope } from "./scope.server";
@@ -75,11 +76,18 @@ function writtenIds(results: WriteResult[]): Map<string, number> {
  * Records we meant to write whose ids another writer stored between our read and our write:
  * classified again against the stored raw, as if they had been stored before the request.
  */
-async function reclassify(db: Db, results: SyncResult[], lost: { kind: "session" | "shot"; id: string; raw: string }[]) {
+async function reclassify(db: Db, results: SyncResult[], lost: { kind: "session" | "shot"; id: string; raw: string }[], scope: Scope) {
   // a write-mode batch runs on a libSQL server's primary (a replica forwards it), where the
   // rows that won the race are certain to be; a replica's own copy may lag behind
+  // issue 14: with each row's project, so a winner in a project the user cannot see answers as any conflict
   const sel = (table: typeof checkSessions | typeof shots, ids: string[]): Stmt[] =>
-    chunks(ids, 500).map((part) => ({ sql: `SELECT "id", "raw" FROM "${getTableName(table)}" WHERE "id" IN (${part.map(() => "?").join(", ")})`, args: part }));
+    chunks(ids, 500).map((part) => ({
+      sql:
+        table === shots
+          ? `SELECT s."id", s."raw", c."project_id" FROM "shots" s JOIN "check_sessions" c ON c."id" = s."session_id" WHERE s."id" IN (${part.map(() => "?").join(", ")})`
+          : `SELECT "id", "raw", "project_id" FROM "${getTableName(table)}" WHERE "id" IN (${part.map(() => "?").join(", ")})`,
+      args: part,
+    }));
   const stmts = [
     ...sel(
       checkSessions,
@@ -94,7 +102,7 @@ async function reclassify(db: Db, results: SyncResult[], lost: { kind: "session"
     ),
   );
   const got = await db.$client.batch(stmts, "write");
-  const pairs = (rs: ResultSet[]) => rs.flatMap((r) => r.rows.map((row) => ({ id: String(row[0]), raw: String(row[1]) })));
+  const pairs = (rs: ResultSet[]) => rs.flatMap((r) => r.rows.map((row) => ({ id: String(row[0]), raw: inScope(scope, row[2] == null ? null : String(row[2])) ? String(row[1]) : HIDDEN_RAW })));
   const ses = pairs(got.slice(0, nSes));
   const sh = pairs(got.slice(nSes));
   const stored = new Map([...ses.map((r) => [`session:${r.id}`, r.raw] as const), ...sh.map((r) => [`shot:${r.id}`, r.raw] as const)]);
@@ -186,6 +194,38 @@ async function writeOneAtATime(
 
 type Holder = { projectId: string; name: string; retiredAt: string | null };
 
+/** Equals no canonical record: the stored raw of a record outside the user's projects. */
+const HIDDEN_RAW = "\u0000not yours";
+
+type ShotRec = Rec<SyncShot>;
+const tapeIdOf = (s: SyncShot) => (s.reference.method === "tape" ? s.reference.tape.tapeId : undefined);
+const edmIdOf = (s: SyncShot) => (s.reference.method === "edm" ? s.reference.edmId : undefined);
+const tapeIdsOf = (recs: ShotRec[]) => [...new Set(recs.flatMap((r) => (r.value && tapeIdOf(r.value)) || []))];
+const edmIdsOf = (recs: ShotRec[]) => [...new Set(recs.flatMap((r) => (r.value && edmIdOf(r.value)) || []))];
+
+/** issue 14: the errors of a shot naming a tape or reference EDM that its session's project does not list. */
+function unlistedReferenceErrors(shot: SyncShot, projectId: string, linked: Set<string>): RecordError[] {
+  const tapeId = tapeIdOf(shot);
+  if (tapeId && !linked.has(`tape|${projectId}|${tapeId}`)) {
+    return [
+      {
+        path: "reference.tape.tapeId",
+        message: `tape ${tapeId} is not one of the tapes of this session's project: choose a tape the project uses, or ask an admin to add this tape to the project`,
+      },
+    ];
+  }
+  const edmId = edmIdOf(shot);
+  if (edmId && !linked.has(`edm|${projectId}|${edmId}`)) {
+    return [
+      {
+        path: "reference.edmId",
+        message: `reference EDM ${edmId} is not one of the reference EDMs of this session's project: choose one the project uses, or ask an admin to add it to the project`,
+      },
+    ];
+  }
+  return [];
+}
+
 /**
  * issue 14 (api.md v1.1): the project a new session belongs to. A given projectId must be a
  * project of the syncing user that lists both the sensor and the site; without one, it is
@@ -249,7 +289,7 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
     const shotIds = [...new Set(shotRecs.flatMap((s) => (s.value ? [s.value.id] : [])))];
     const incoming = sessionRecs.flatMap((s) => (s.value ? [s.value] : []));
     const impliedNeed = incoming.filter((s) => !s.projectId).map((s) => ({ sensorId: s.sensorId, siteId: s.siteId }));
-    const [storedSessions, storedShots, holderRows, ...registry] = await db.batch([
+    const [storedSessions, storedShots, holderRows, tapeLinks, edmLinks, ...registry] = await db.batch([
       db
         .select({
           id: checkSessions.id,
@@ -264,8 +304,17 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
         })
         .from(checkSessions)
         .where(inIds(checkSessions.id, sessionIds)),
-      db.select({ id: shots.id, raw: shots.raw }).from(shots).where(inIds(shots.id, shotIds)),
+      db.select({ id: shots.id, raw: shots.raw, projectId: checkSessions.projectId }).from(shots).innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId)).where(inIds(shots.id, shotIds)),
       holdingProjectsQuery(incoming, db),
+      // issue 14: the projects that list the tapes and reference EDMs these shots name
+      db
+        .select({ projectId: projectTapes.projectId, id: projectTapes.tapeId })
+        .from(projectTapes)
+        .where(inIds(projectTapes.tapeId, tapeIdsOf(shotRecs))),
+      db
+        .select({ projectId: projectEdms.projectId, id: projectEdms.edmId })
+        .from(projectEdms)
+        .where(inIds(projectEdms.edmId, edmIdsOf(shotRecs))),
       ...registryQueries(
         {
           sensorIds: incoming.map((s) => s.sensorId),
@@ -279,7 +328,10 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
       ),
     ]);
     const storedSession = new Map(storedSessions.map((s) => [s.id, s]));
-    const storedShot = new Map(storedShots.map((s) => [s.id, s.raw]));
+    // issue 14: a shot id taken in a project the user cannot see answers as a conflict in the
+    // words of any conflict, never "duplicate" (which would confirm its content) nor anything of
+    // that project: the stored raw stands in as one no record can equal
+    const storedShot = new Map(storedShots.map((s) => [s.id, inScope(scope, s.projectId) ? s.raw : HIDDEN_RAW]));
     const holders = new Map<string, Holder[]>();
     for (const h of holderRows) {
       const k = pairKey(h.sensorId, h.siteId);
@@ -319,7 +371,14 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
           continue;
         }
         const s: SyncSession = rec.value;
-        const stored = storedSession.get(s.id)?.raw ?? seenSessions.get(s.id);
+        const storedRow = storedSession.get(s.id);
+        if (storedRow && !inScope(scope, storedRow.projectId)) {
+          // issue 14: as for shots — a conflict in the usual words, and its shots are told their
+          // session was refused (not "unknown", which would contradict the answer just given)
+          reject(conflict("session"));
+          continue;
+        }
+        const stored = storedRow?.raw ?? seenSessions.get(s.id);
         if (stored !== undefined) {
           if (stored === rec.raw) results.push({ kind: "session", id: s.id, status: "duplicate" });
           else results.push({ kind: "session", id: s.id, status: "rejected", errors: conflict("session") });
@@ -380,9 +439,22 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
       }
     }
 
+    // issue 14: a shot naming a tape or reference EDM its session's project does not list is
+    // refused on that path (an unknown one in the same words: the registry's other ids stay
+    // unseen); its batch-mates go on. Stored duplicates are left to the stage's duplicate check.
+    const linked = new Set([...tapeLinks.map((l) => `tape|${l.projectId}|${l.id}`), ...edmLinks.map((l) => `edm|${l.projectId}|${l.id}`)]);
+    const shotRecsChecked = shotRecs.map((rec) => {
+      const shot = rec.value;
+      if (!shot || storedShot.has(shot.id)) return rec;
+      const session = usable.get(shot.sessionId);
+      if (!session?.projectId) return rec;
+      const errors = unlistedReferenceErrors(shot, session.projectId, linked);
+      return errors.length ? { ...rec, value: null, errors } : rec;
+    });
+
     // 4. Shots: duplicates, their session, then the authoritative computation and the
     //    insert rows: off this thread too (sync-work.ts).
-    const stageInput: ShotStageInput = { shotRecs, storedShot, usable, rejectedSessions, ctx, meta: { deviceId, syncedBy: actor.id, receivedAt } };
+    const stageInput: ShotStageInput = { shotRecs: shotRecsChecked, storedShot, usable, rejectedSessions, ctx, meta: { deviceId, syncedBy: actor.id, receivedAt } };
     const stage: { results: SyncResult[]; rows: ShotRow[] } = pool ? await pool.run(stageInput, { name: "shots" }) : await shotStage(stageInput, { computeShotRecord, shotInsertRow }, yieldToLoop);
     results.push(...stage.results);
     let shotRows = stage.rows;
@@ -433,10 +505,15 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
         // accepted; what the records are now is in the tables.) A session stored meanwhile
         // with other content leaves our shots of it computed with our copy's air: only a
         // client reusing ids with other content can cause that, and it is told of the conflict.
-        await reclassify(db, results, [
-          ...sessionRows.filter((r) => !sessionsWritten.has(r.id)).map((r) => ({ kind: "session" as const, id: r.id, raw: r.raw })),
-          ...shotRows.filter((r) => !shotsWritten.has(r.id)).map((r) => ({ kind: "shot" as const, id: r.id, raw: r.raw })),
-        ]);
+        await reclassify(
+          db,
+          results,
+          [
+            ...sessionRows.filter((r) => !sessionsWritten.has(r.id)).map((r) => ({ kind: "session" as const, id: r.id, raw: r.raw })),
+            ...shotRows.filter((r) => !shotsWritten.has(r.id)).map((r) => ({ kind: "shot" as const, id: r.id, raw: r.raw })),
+          ],
+          scope,
+        );
         shotRows = shotRows.filter((r) => shotsWritten.has(r.id));
       }
     }

@@ -1,9 +1,11 @@
 // Steel tapes used to set reference distances: their standard conditions and certificate
 // correction feed the tape corrections of ranging.md §3. Never deleted, only retired.
-import { asc, eq, isNull } from "drizzle-orm";
+import { and, asc, eq, isNull, sql } from "drizzle-orm";
 import type { TapeSpec } from "~/domain";
-import { getDb } from "~/db/client.server";
-import { tapes } from "~/db/schema";
+import { getDb, type Db } from "~/db/client.server";
+import { auditLog, checkSessions, edms, projectEdms, projectTapes, projects, shots, tapes } from "~/db/schema";
+import type { Actor } from "~/models/actor";
+import { tapeListedInScope, projectColInScope, scopeOf } from "~/models/scope.server";
 import { audit } from "~/models/audit.server";
 import { certificateColumns, invalid, issuesToErrors, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/models/registry-schemas";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
@@ -134,12 +136,43 @@ export async function restoreTape(actor: RegistryActor, id: string): Promise<Reg
   return { status: 200, body: { id } };
 }
 
-export async function listTapes({ includeRetired = false }: { includeRetired?: boolean } = {}): Promise<TapeRow[]> {
-  return getDb()
+/**
+ * issue 14: an admin lists every tape; anyone else only those their projects list, each with
+ * the ids of those of their projects that list it.
+ */
+export async function listTapes(actor: Pick<Actor, "id" | "role">, { includeRetired = false }: { includeRetired?: boolean } = {}): Promise<(TapeRow & { projectIds: string[] })[]> {
+  const db = getDb();
+  const scope = await scopeOf(actor, db);
+  const [rows, links] = await Promise.all([
+    db
+      .select()
+      .from(tapes)
+      .where(and(includeRetired ? undefined : isNull(tapes.retiredAt), tapeListedInScope(scope, tapes.id)))
+      .orderBy(asc(tapes.label)),
+    db.select({ projectId: projectTapes.projectId, id: projectTapes.tapeId }).from(projectTapes).where(projectColInScope(scope, projectTapes.projectId)),
+  ]);
+  const byId = new Map<string, string[]>();
+  for (const l of links) byId.set(l.id, [...(byId.get(l.id) ?? []), l.projectId]);
+  return rows.map((r) => ({ ...r, projectIds: (byId.get(r.id) ?? []).sort() }));
+}
+
+/** One tape as the actor may see it, with the projects (of theirs) that list it; null answers like "no such tape". */
+export async function getTapeFor(actor: Pick<Actor, "id" | "role">, id: string): Promise<(TapeRow & { projects: { id: string; name: string }[] }) | null> {
+  const db = getDb();
+  const scope = await scopeOf(actor, db);
+  const [row] = await db
     .select()
     .from(tapes)
-    .where(includeRetired ? undefined : isNull(tapes.retiredAt))
-    .orderBy(asc(tapes.label));
+    .where(and(eq(tapes.id, id), tapeListedInScope(scope, tapes.id)))
+    .limit(1);
+  if (!row) return null;
+  const ps = await db
+    .select({ id: projects.id, name: projects.name })
+    .from(projectTapes)
+    .innerJoin(projects, eq(projects.id, projectTapes.projectId))
+    .where(and(eq(projectTapes.tapeId, id), projectColInScope(scope, projectTapes.projectId)))
+    .orderBy(asc(projects.name));
+  return { ...row, projects: ps };
 }
 
 export async function getTape(id: string): Promise<TapeRow | null> {
@@ -159,4 +192,47 @@ export async function getTapeSpec(id: string): Promise<TapeSpec | null> {
     weightNPerM: r.weightNPerM,
     calibrationPpm: r.calibrationPpm,
   };
+}
+
+export const BACKFILL_PROJECT_TAPES_ACTION = "backfill.project-tapes-edms";
+
+/**
+ * issue 14: before project_tapes / project_edms existed every user with a project got every tape
+ * and EDM. Once, at migrate time, each tape and reference EDM is linked to every project whose
+ * sessions already used it, so no crew loses a tape it works with. Marked in the audit trail
+ * (like the reference-uncertainty backfill) so an admin's later removals are never undone.
+ */
+export async function backfillProjectTapesEdms(db: Db = getDb()): Promise<{ ran: boolean; tapes: number; edms: number }> {
+  const mark = await db.select({ id: auditLog.id }).from(auditLog).where(eq(auditLog.action, BACKFILL_PROJECT_TAPES_ACTION)).limit(1);
+  if (mark.length) return { ran: false, tapes: 0, edms: 0 };
+  // the same expressions as the shots_sensor_uses index (raw ->> '$.reference…')
+  const t = await db.run(sql`INSERT OR IGNORE INTO ${projectTapes} (project_id, tape_id)
+    SELECT DISTINCT cs.project_id, s.raw ->> '$.reference.tape.tapeId' FROM ${shots} s JOIN ${checkSessions} cs ON cs.id = s.session_id
+    WHERE cs.project_id IS NOT NULL AND (s.raw ->> '$.reference.tape.tapeId') IN (SELECT id FROM ${tapes})`);
+  const e = await db.run(sql`INSERT OR IGNORE INTO ${projectEdms} (project_id, edm_id)
+    SELECT DISTINCT cs.project_id, s.raw ->> '$.reference.edmId' FROM ${shots} s JOIN ${checkSessions} cs ON cs.id = s.session_id
+    WHERE cs.project_id IS NOT NULL AND (s.raw ->> '$.reference.edmId') IN (SELECT id FROM ${edms})`);
+  const out = { tapes: t.rowsAffected, edms: e.rowsAffected };
+  await db.insert(auditLog).values({ actorUserId: null, action: BACKFILL_PROJECT_TAPES_ACTION, entity: "projects", entityId: null, detail: out });
+  return { ran: true, ...out };
+}
+
+/**
+ * GET /api/tapes (issue 14): the live tapes of the actor's projects (admins: all), each with
+ * `projectIds` (those of the actor's projects that list it); `?project=` narrows to one project,
+ * and a project the actor cannot see answers 404 like an unknown one.
+ */
+export async function tapesJson(actor: Pick<Actor, "id" | "role">, params: URLSearchParams): Promise<{ status: 200 | 404; body: unknown }> {
+  const project = params.get("project");
+  if (project) {
+    const scope = await scopeOf(actor);
+    const [p] = await getDb()
+      .select({ id: projects.id })
+      .from(projects)
+      .where(and(eq(projects.id, project), projectColInScope(scope, projects.id)))
+      .limit(1);
+    if (!p) return { status: 404, body: { error: `No project with id "${project}".` } };
+  }
+  const rows = (await listTapes(actor)).filter((r) => !project || r.projectIds.includes(project));
+  return { status: 200, body: { tapes: rows.map(({ createdAt: _c, updatedAt: _u, retiredAt: _r, ...r }) => r) } };
 }

@@ -94,7 +94,17 @@ export type RefSite = { id: string; name: string; lat: number | null; lon: numbe
 export type RefTape = TapeSpec & { id: string; label: string; uncertaintyMm?: number | null; uncertaintyPpm?: number | null; certNumber?: string | null; certDue?: string | null };
 /** issue 15: a reference EDM the crew may name on an EDM shot. */
 export type RefEdm = { id: string; label: string; serial: string; uncertaintyMm: number; uncertaintyPpm: number; certNumber: string | null; certDue: string | null };
-export type RefProject = { id: string; name: string; client: string; rule: Rule; sensorIds: string[]; siteIds: string[] };
+export type RefProject = {
+  id: string;
+  name: string;
+  client: string;
+  rule: Rule;
+  sensorIds: string[];
+  siteIds: string[];
+  /** issue 14: the tapes and reference EDMs this project lists (absent in copies made before them: any) */
+  tapeIds?: string[];
+  edmIds?: string[];
+};
 export type RefUser = { id: string; email: string; name: string; role: "admin" | "qa" | "crew" | "viewer" };
 /** issue 12: an open re-shoot request QA sent for a sensor at a site. */
 export type RefReshoot = { id: string; sensorId: string; siteId: string; projectId: string | null; wanted: string; reason: string; byName: string; createdAt: string };

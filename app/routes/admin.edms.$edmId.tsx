@@ -1,24 +1,26 @@
 // /admin/edms/:edmId (issue 15): edit a reference EDM, retire it or bring it back (admin).
 import { data, Link, redirect } from "react-router";
 import type { Route } from "./+types/admin.edms.$edmId";
-import { ADMIN } from "~/auth/access";
+import { ADMIN, ALL } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
 import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/models/registry-schemas";
 import { registryHistory } from "~/models/sensors.server";
-import { getEdm, restoreEdm, retireEdm, updateEdm } from "~/models/edms.server";
+import { getEdmFor, restoreEdm, retireEdm, updateEdm } from "~/models/edms.server";
 import { invariantResponse } from "~/utils/http";
 import { EdmForm, edmDefaults } from "./admin.edms.form";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.edm.label ?? "Reference EDM"} — Shotbook` }];
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  await requireRole(request, ADMIN);
-  const edm = await getEdm(params.edmId);
+  // issue 14: every role reads the reference EDMs of its projects (others answer as unknown ids); only an admin edits
+  const user = await requireRole(request, ALL);
+  const edm = await getEdmFor(user, params.edmId);
   invariantResponse(edm, "There is no reference EDM with this id.", { status: 404 });
-  const history = await registryHistory("edm", edm.id);
-  return { edm, history };
+  const canEdit = user.role === "admin";
+  const history = canEdit ? await registryHistory("edm", edm.id) : [];
+  return { edm, history, canEdit };
 }
 
 export async function action({ request, params }: Route.ActionArgs) {
@@ -50,7 +52,8 @@ export async function action({ request, params }: Route.ActionArgs) {
 }
 
 export default function EditEdm({ loaderData, actionData }: Route.ComponentProps) {
-  const { edm, history } = loaderData;
+  const { edm, history, canEdit } = loaderData;
+  if (!canEdit) return <EdmSummary edm={edm} />;
   return (
     <div className="space-y-4">
       <RegistryNav />
@@ -68,6 +71,37 @@ export default function EditEdm({ loaderData, actionData }: Route.ComponentProps
       <EdmForm lastResult={actionData?.result} defaultValue={edmDefaults(edm)} submitLabel="Save changes" />
       <RetirePanel what="reference EDM" label={edm.label} retiredAt={edm.retiredAt} error={actionData?.retireError} />
       <RecordHistory rows={history} />
+    </div>
+  );
+}
+
+/** issue 14: what a non-admin member reads of one of their projects' reference EDMs. */
+function EdmSummary({ edm }: { edm: Route.ComponentProps["loaderData"]["edm"] }) {
+  const rows: [string, React.ReactNode][] = [
+    ["Serial", edm.serial],
+    ["Uncertainty (k = 1)", `${edm.uncertaintyMm} mm + ${edm.uncertaintyPpm} ppm`],
+    ["Certificate", edm.certNumber ? `No. ${edm.certNumber}${edm.certLaboratory ? `, ${edm.certLaboratory}` : ""}, due ${edm.certDue ?? "—"}` : "none"],
+    ["Your projects that use it", edm.projects.map((p) => p.name).join(", ")],
+  ];
+  return (
+    <div className="space-y-4">
+      <p>
+        <Link to="/admin/edms" className="underline underline-offset-4">
+          ← All reference EDMs
+        </Link>
+      </p>
+      <h1 className="text-3xl font-bold">
+        {edm.label} {edm.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
+      </h1>
+      <dl className="card grid gap-x-6 gap-y-2 sm:grid-cols-[max-content_1fr]" data-testid="edm-summary">
+        {rows.map(([k, v]) => (
+          <div key={k} className="contents">
+            <dt className="font-bold">{k}</dt>
+            <dd className="num">{v}</dd>
+          </div>
+        ))}
+      </dl>
+      <p className="text-muted">Only an admin changes a reference EDM or the projects that use it.</p>
     </div>
   );
 }

@@ -1,7 +1,7 @@
-// /admin/edms (issue 15): reference EDMs whose certificates make EDM reference distances traceable (admin).
+// /admin/edms (issue 15): reference EDMs whose certificates make EDM reference distances traceable. Every role reads its projects' EDMs (issue 14); only an admin edits.
 import { data, Link } from "react-router";
 import type { Route } from "./+types/admin.edms";
-import { ADMIN } from "~/auth/access";
+import { ALL } from "~/auth/access";
 import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { FlashNotice, RegistryNav } from "~/components/forms";
@@ -11,23 +11,26 @@ import { calibrationState } from "~/models/registry-schemas";
 export const meta: Route.MetaFunction = () => [{ title: "Reference EDMs — Shotbook" }];
 
 export async function loader({ request }: Route.LoaderArgs) {
-  await requireRole(request, ADMIN);
+  // issue 14: every role may read it, scoped to their projects' edms; only an admin edits
+  const user = await requireRole(request, ALL);
   const includeRetired = new URL(request.url).searchParams.get("retired") === "show";
-  const [rows, all] = await Promise.all([listEdms({ includeRetired }), listEdms({ includeRetired: true })]);
+  const [rows, all] = await Promise.all([listEdms(user, { includeRetired }), listEdms(user, { includeRetired: true })]);
   const { flash, headers } = await takeFlash(request);
-  return data({ edms: rows, includeRetired, retiredCount: all.filter((t) => t.retiredAt).length, flash }, { headers });
+  return data({ edms: rows, canEdit: user.role === "admin", includeRetired, retiredCount: all.filter((t) => t.retiredAt).length, flash }, { headers });
 }
 
 export default function Edms({ loaderData }: Route.ComponentProps) {
-  const { edms, includeRetired, retiredCount, flash } = loaderData;
+  const { edms, canEdit, includeRetired, retiredCount, flash } = loaderData;
   return (
     <div className="space-y-4">
-      <RegistryNav />
+      {canEdit ? <RegistryNav /> : null}
       <div className="flex flex-wrap items-center gap-3">
         <h1 className="text-3xl font-bold">Reference EDMs</h1>
-        <Link to="/admin/edms/new" className="btn ml-auto">
-          + New reference EDM
-        </Link>
+        {canEdit ? (
+          <Link to="/admin/edms/new" className="btn ml-auto">
+            + New reference EDM
+          </Link>
+        ) : null}
       </div>
       <FlashNotice flash={flash} />
       <p>
@@ -38,7 +41,11 @@ export default function Edms({ loaderData }: Route.ComponentProps) {
       {edms.length === 0 ? (
         <div className="card">
           <p className="text-lg font-bold">No reference EDMs yet.</p>
-          <p>Add the instrument that measures EDM reference distances, with its certificate: shots that name it take their reference uncertainty from it.</p>
+          <p>
+            {canEdit
+              ? "Add the instrument that measures EDM reference distances, with its certificate: shots that name it take their reference uncertainty from it. Then tick it on the projects that use it."
+              : "None of your projects lists a reference EDM yet: an admin adds them on the project page."}
+          </p>
         </div>
       ) : (
         <div className="overflow-x-auto">

@@ -106,7 +106,8 @@ export async function action({ request, params }: Route.ActionArgs) {
 
   const submission = parseRegistryForm(formData, projectSchema);
   if (submission.status !== "success") return data({ result: submission.reply(), retireError: null, ...NO_MEMBER_RESULT }, { status: submission.status === "error" ? 400 : 200 });
-  const r = await updateProject(user, params.projectId, submission.value);
+  // The form always shows the tape and EDM boxes: none ticked means none (not "leave them as they are").
+  const r = await updateProject(user, params.projectId, { ...submission.value, tapeIds: submission.value.tapeIds ?? [], edmIds: submission.value.edmIds ?? [] });
   invariantResponse(r.status !== 404, "There is no project with this id.", { status: 404 });
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }), retireError: null, ...NO_MEMBER_RESULT }, { status: 400 });
   if (r.status === 409) return data({ result: submission.reply({ formErrors: [r.body.error] }), retireError: null, ...NO_MEMBER_RESULT }, { status: 409 });

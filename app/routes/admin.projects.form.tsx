@@ -9,6 +9,9 @@ import { parseRegistryForm, projectSchema, type ProjectInput } from "~/models/re
 export type ProjectChoices = {
   sensors: { id: string; label: string; serial: string; retiredAt: string | null }[];
   sites: { id: string; name: string; retiredAt: string | null }[];
+  // issue 14: the tapes and reference EDMs its crews may use
+  tapes: { id: string; label: string; certDue: string | null; retiredAt: string | null }[];
+  edms: { id: string; label: string; serial: string; certDue: string | null; retiredAt: string | null }[];
 };
 
 export function projectDefaults(r?: {
@@ -21,6 +24,8 @@ export function projectDefaults(r?: {
   rangeBandEdgesM: number[];
   sensorIds: string[];
   siteIds: string[];
+  tapeIds?: string[];
+  edmIds?: string[];
   referenceRatio?: number;
   referenceInVerdict?: boolean;
   statement?: "rmse" | "nssda95";
@@ -39,6 +44,8 @@ export function projectDefaults(r?: {
     rangeBandEdgesM: rule.rangeBandEdgesM.join(", "),
     sensorIds: r?.sensorIds ?? [],
     siteIds: r?.siteIds ?? [],
+    tapeIds: r?.tapeIds ?? [],
+    edmIds: r?.edmIds ?? [],
     referenceRatio: s(rule.referenceRatio ?? 2),
     referenceInVerdict: rule.referenceInVerdict ? "on" : "",
     statement: rule.statement ?? "rmse",
@@ -146,6 +153,26 @@ export function ProjectForm({
           empty="No sensors registered yet."
         />
         <CheckboxGroup meta={fields.siteIds} label="Sites used" options={choices.sites.map((s) => ({ value: s.id, label: `${s.name}${retired(s)}` }))} empty="No sites registered yet." />
+      </section>
+
+      {/* issue 14: only these travel to the project's tablets and may be named on its shots */}
+      <section className="card grid gap-4" id="tapes-edms" data-testid="project-tapes-edms">
+        <h2 className="text-xl font-bold">Tapes and reference EDMs</h2>
+        <p className="text-muted">
+          The project's crews see only the tapes and reference EDMs ticked here, and a shot naming another one is refused at sync. Shots already taken keep the tape or EDM they name.
+        </p>
+        <CheckboxGroup
+          meta={fields.tapeIds}
+          label="Tapes the crews may use"
+          options={choices.tapes.map((t) => ({ value: t.id, label: `${t.label}${t.certDue ? ` — certificate due ${t.certDue}` : ""}${retired(t)}` }))}
+          empty="No tapes registered yet."
+        />
+        <CheckboxGroup
+          meta={fields.edmIds}
+          label="Reference EDMs the crews may use"
+          options={choices.edms.map((e) => ({ value: e.id, label: `${e.label} — ${e.serial}${e.certDue ? `, certificate due ${e.certDue}` : ""}${retired(e)}` }))}
+          empty="No reference EDMs registered yet."
+        />
       </section>
 
       <button type="submit" className="btn" disabled={busy}>

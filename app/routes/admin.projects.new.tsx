@@ -21,7 +21,7 @@ export async function action({ request }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
   const submission = parseRegistryForm(await readFormCapped(request), projectSchema);
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: submission.status === "error" ? 400 : 200 });
-  const r = await createProject(user, submission.value);
+  const r = await createProject(user, { ...submission.value, tapeIds: submission.value.tapeIds ?? [], edmIds: submission.value.edmIds ?? [] });
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }) }, { status: 400 });
   if (r.status === 409) return data({ result: submission.reply({ formErrors: [r.body.error] }) }, { status: 409 });
   const text = r.status === 201 ? `Project “${submission.value.name}” added.` : `Project “${submission.value.name}” was already registered with these values.`;

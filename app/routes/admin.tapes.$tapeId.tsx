@@ -1,13 +1,13 @@
 // /admin/tapes/:tapeId: edit a tape's profile, retire it or bring it back (admin).
 import { data, Link, redirect } from "react-router";
 import type { Route } from "./+types/admin.tapes.$tapeId";
-import { ADMIN } from "~/auth/access";
+import { ADMIN, ALL } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
 import { parseRegistryForm, tapeSchema, toConformFieldErrors } from "~/models/registry-schemas";
 import { registryHistory } from "~/models/sensors.server";
-import { getTape, restoreTape, retireTape, updateTape } from "~/models/tapes.server";
+import { getTapeFor, restoreTape, retireTape, updateTape } from "~/models/tapes.server";
 import { invariantResponse } from "~/utils/http";
 import { TapeForm, tapeDefaults } from "./admin.tapes.form";
 import { readFormCapped } from "~/http/body.server";
@@ -15,11 +15,13 @@ import { readFormCapped } from "~/http/body.server";
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.tape.label ?? "Tape"} — Shotbook` }];
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  await requireRole(request, ADMIN);
-  const tape = await getTape(params.tapeId);
+  // issue 14: every role reads the tapes of its projects (others answer as unknown ids); only an admin edits
+  const user = await requireRole(request, ALL);
+  const tape = await getTapeFor(user, params.tapeId);
   invariantResponse(tape, "There is no tape with this id.", { status: 404 });
-  const history = await registryHistory("tape", tape.id);
-  return { tape, history };
+  const canEdit = user.role === "admin";
+  const history = canEdit ? await registryHistory("tape", tape.id) : [];
+  return { tape, history, canEdit };
 }
 
 export async function action({ request, params }: Route.ActionArgs) {
@@ -51,7 +53,8 @@ export async function action({ request, params }: Route.ActionArgs) {
 }
 
 export default function EditTape({ loaderData, actionData }: Route.ComponentProps) {
-  const { tape, history } = loaderData;
+  const { tape, history, canEdit } = loaderData;
+  if (!canEdit) return <TapeSummary tape={tape} />;
   return (
     <div className="space-y-4">
       <RegistryNav />
@@ -69,6 +72,41 @@ export default function EditTape({ loaderData, actionData }: Route.ComponentProp
       <TapeForm lastResult={actionData?.result} defaultValue={tapeDefaults(tape)} submitLabel="Save changes" />
       <RetirePanel what="tape" label={tape.label} retiredAt={tape.retiredAt} error={actionData?.retireError} />
       <RecordHistory rows={history} />
+    </div>
+  );
+}
+
+/** issue 14: what a non-admin member reads of one of their projects' tapes. */
+function TapeSummary({ tape }: { tape: Route.ComponentProps["loaderData"]["tape"] }) {
+  const rows: [string, React.ReactNode][] = [
+    ["Standard conditions", `${tape.standardTempC} °C, ${tape.standardTensionN} N`],
+    ["Cross-section", `${tape.areaMm2} mm²`],
+    ["Modulus", `${tape.modulusGPa} GPa`],
+    ["Weight", `${tape.weightNPerM} N/m`],
+    ["Certificate correction", `${tape.calibrationPpm > 0 ? "+" : ""}${tape.calibrationPpm} ppm`],
+    ["Uncertainty (k = 1)", tape.uncertaintyMm != null ? `${tape.uncertaintyMm} mm + ${tape.uncertaintyPpm ?? 0} ppm` : "not given"],
+    ["Certificate", tape.certNumber ? `No. ${tape.certNumber}${tape.certLaboratory ? `, ${tape.certLaboratory}` : ""}, due ${tape.certDue ?? "—"}` : "none"],
+    ["Your projects that use it", tape.projects.map((p) => p.name).join(", ")],
+  ];
+  return (
+    <div className="space-y-4">
+      <p>
+        <Link to="/admin/tapes" className="underline underline-offset-4">
+          ← All tapes
+        </Link>
+      </p>
+      <h1 className="text-3xl font-bold">
+        {tape.label} {tape.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
+      </h1>
+      <dl className="card grid gap-x-6 gap-y-2 sm:grid-cols-[max-content_1fr]" data-testid="tape-summary">
+        {rows.map(([k, v]) => (
+          <div key={k} className="contents">
+            <dt className="font-bold">{k}</dt>
+            <dd className="num">{v}</dd>
+          </div>
+        ))}
+      </dl>
+      <p className="text-muted">Only an admin changes a tape or the projects that use it.</p>
     </div>
   );
 }

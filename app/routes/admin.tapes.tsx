@@ -1,7 +1,7 @@
-// /admin/tapes: steel tapes used to set reference distances (admin).
+// /admin/tapes: steel tapes used to set reference distances. Every role reads its projects' tapes (issue 14); only an admin edits.
 import { data, Link } from "react-router";
 import type { Route } from "./+types/admin.tapes";
-import { ADMIN } from "~/auth/access";
+import { ALL } from "~/auth/access";
 import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { FlashNotice, RegistryNav } from "~/components/forms";
@@ -10,23 +10,26 @@ import { listTapes } from "~/models/tapes.server";
 export const meta: Route.MetaFunction = () => [{ title: "Tapes — Shotbook" }];
 
 export async function loader({ request }: Route.LoaderArgs) {
-  await requireRole(request, ADMIN);
+  // issue 14: every role may read it, scoped to their projects' tapes; only an admin edits
+  const user = await requireRole(request, ALL);
   const includeRetired = new URL(request.url).searchParams.get("retired") === "show";
-  const [rows, all] = await Promise.all([listTapes({ includeRetired }), listTapes({ includeRetired: true })]);
+  const [rows, all] = await Promise.all([listTapes(user, { includeRetired }), listTapes(user, { includeRetired: true })]);
   const { flash, headers } = await takeFlash(request);
-  return data({ tapes: rows, includeRetired, retiredCount: all.filter((t) => t.retiredAt).length, flash }, { headers });
+  return data({ tapes: rows, canEdit: user.role === "admin", includeRetired, retiredCount: all.filter((t) => t.retiredAt).length, flash }, { headers });
 }
 
 export default function Tapes({ loaderData }: Route.ComponentProps) {
-  const { tapes, includeRetired, retiredCount, flash } = loaderData;
+  const { tapes, canEdit, includeRetired, retiredCount, flash } = loaderData;
   return (
     <div className="space-y-4">
-      <RegistryNav />
+      {canEdit ? <RegistryNav /> : null}
       <div className="flex flex-wrap items-center gap-3">
         <h1 className="text-3xl font-bold">Tapes</h1>
-        <Link to="/admin/tapes/new" className="btn ml-auto">
-          + New tape
-        </Link>
+        {canEdit ? (
+          <Link to="/admin/tapes/new" className="btn ml-auto">
+            + New tape
+          </Link>
+        ) : null}
       </div>
       <FlashNotice flash={flash} />
       <p>
@@ -37,7 +40,11 @@ export default function Tapes({ loaderData }: Route.ComponentProps) {
       {tapes.length === 0 ? (
         <div className="card">
           <p className="text-lg font-bold">No tapes yet.</p>
-          <p>Add a steel tape to let crews set reference distances by tape with temperature, tension and sag corrections.</p>
+          <p>
+            {canEdit
+              ? "Add a steel tape to let crews set reference distances by tape with temperature, tension and sag corrections; then tick it on the projects that use it."
+              : "None of your projects lists a tape yet: an admin adds them on the project page."}
+          </p>
         </div>
       ) : (
         <div className="overflow-x-auto">

@@ -4,7 +4,14 @@
 import type { Route } from "./+types/api.edms";
 import { requireApiUser } from "~/auth/guards.server";
 import { ADMIN } from "~/auth/access";
-import { createEdm } from "~/models/edms.server";
+import { createEdm, edmsJson } from "~/models/edms.server";
+
+// GET /api/edms (any signed-in role, issue 14): the reference EDMs of the user's projects; see edmsJson.
+export async function loader({ request }: Route.LoaderArgs) {
+  const user = await requireApiUser(request);
+  const result = await edmsJson(user, new URL(request.url).searchParams);
+  return Response.json(result.body, { status: result.status, headers: { "Cache-Control": "private, no-store" } });
+}
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireApiUser(request, ADMIN);

@@ -424,6 +424,7 @@ function SignOffForm({
                 </option>
               ))}
             </select>
+            {fields.projectId.errors ? <p className="field-error">{fields.projectId.errors[0]}</p> : null}
           </div>
           <div>
             <label htmlFor={fields.from.id} className="field-label">

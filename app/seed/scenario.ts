@@ -638,6 +638,9 @@ export function buildDemoScenario(): DemoScenario {
     client: "Eastbank Roads Office (invented)",
     sensorIds: [DEMO_IDS.roof, DEMO_IDS.tripod, DEMO_IDS.camera],
     siteIds: [DEMO_IDS.yard, DEMO_IDS.roadside],
+    // issue 14: the firm's one tape and reference total station serve both jobs
+    tapeIds: [DEMO_IDS.tape],
+    edmIds: [DEMO_IDS.edm],
     notes: "Corridor survey of the valley road; sensors verified at the yard baseline and the roadside test range.",
   } as ProjectBody & { id: string };
   const quarry = {
@@ -646,6 +649,8 @@ export function buildDemoScenario(): DemoScenario {
     client: "Kestrel Aggregates (invented)",
     sensorIds: [DEMO_IDS.tripod],
     siteIds: [DEMO_IDS.yard],
+    tapeIds: [DEMO_IDS.tape],
+    edmIds: [DEMO_IDS.edm],
     notes: "Monthly stockpile volumes at an invented hillside quarry; the tripod scanner is verified at the yard baseline before each visit.",
   } as ProjectBody & { id: string };
   return {

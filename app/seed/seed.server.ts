@@ -16,6 +16,8 @@ import {
   projectMembers,
   projects,
   projectSensors,
+  projectTapes,
+  projectEdms,
   projectSites,
   sensors,
   shots,
@@ -176,6 +178,9 @@ export async function deleteDemoRows(scenario: DemoScenario = buildDemoScenario(
     const projectIds = scenario.projects.map((p) => p.id);
     await tx.delete(projectSensors).where(or(inArray(projectSensors.projectId, projectIds), inArray(projectSensors.sensorId, sensorIds)));
     await tx.delete(projectSites).where(or(inArray(projectSites.projectId, projectIds), inArray(projectSites.siteId, siteIds)));
+    // issue 14: the demo projects' tapes and EDMs, and any project's links to the demo tape and EDM
+    await tx.delete(projectTapes).where(or(inArray(projectTapes.projectId, projectIds), eq(projectTapes.tapeId, scenario.tape.id)));
+    await tx.delete(projectEdms).where(or(inArray(projectEdms.projectId, projectIds), eq(projectEdms.edmId, scenario.edm.id)));
     await tx.delete(projectMembers).where(or(inArray(projectMembers.projectId, projectIds), ...(userIds.length ? [inArray(projectMembers.userId, userIds)] : [])));
     await tx.delete(projects).where(inArray(projects.id, projectIds));
     await tx.delete(targets).where(inArray(targets.siteId, siteIds));

@@ -175,8 +175,8 @@ export async function run(): Promise<string[]> {
     const sensor = await fx.makeSensor({ label: "Bench roof scanner" });
     const loadSensor = await fx.makeSensor({ label: "Bench tripod scanner" });
     const site = await fx.makeSite({ targets: [{ reflectancePct: 10 }, { reflectancePct: 50 }, { reflectancePct: 85 }, { reflectancePct: 90, retro: true }] });
-    await fx.shareProject([sensor, loadSensor], [site], [crew]); // issue 14
     const tape = await fx.makeTape();
+    await fx.shareProject([sensor, loadSensor], [site], [crew], { tapeIds: [tape.id] }); // issue 14 (its tape too, or taped shots are refused)
     const w: World = { sensorId: sensor.id, siteId: site.id, targetIds: site.targets.map((t: { id: string }) => t.id), tapeId: tape.id };
     const rnd = prng(7);
     await db.$client.execute("PRAGMA wal_checkpoint(TRUNCATE)");

@@ -20,15 +20,15 @@ export async function fieldWorld(tag: string) {
   });
   const other = await makeSite({ name: `Roadside range ${tag}`, targets: [{ label: "Far board", reflectancePct: 85, referenceM: 60 }] });
   const tape = await makeTape({ label: `Steel tape 50 m ${tag}` });
-  const project = await e2eProject(tag, [sensor.id], [site.id, other.id]);
+  const project = await e2eProject(tag, [sensor.id], [site.id, other.id], { tapeIds: [tape.id] });
   return { sensor, site, other, tape, project };
 }
 
 /**
- * issue 14: a project listing these sensors and sites whose members are the e2e crew, QA and
+ * issue 14: a project listing these sensors, sites (and tapes, EDMs) whose members are the e2e crew, QA and
  * viewer (the admin sees every project), so their tablets and screens see its records.
  */
-export async function e2eProject(tag: string, sensorIds: string[], siteIds: string[]) {
+export async function e2eProject(tag: string, sensorIds: string[], siteIds: string[], links: { tapeIds?: string[]; edmIds?: string[] } = {}) {
   useServerEnv();
   const { makeProject } = await import("../support/registry-fixtures");
   const { getDb } = await import("~/db/client.server");
@@ -38,7 +38,7 @@ export async function e2eProject(tag: string, sensorIds: string[], siteIds: stri
     .select({ id: users.id })
     .from(users)
     .where(inArray(users.email, ["crew@e2e.test", "qa@e2e.test", "viewer@e2e.test"]));
-  return makeProject({ name: `E2E project ${tag}`, sensorIds, siteIds, memberIds: members.map((m) => m.id) });
+  return makeProject({ name: `E2E project ${tag}`, sensorIds, siteIds, ...links, memberIds: members.map((m) => m.id) });
 }
 
 /** Sessions in the e2e database's checkSessions table by id (what the server keeps). */

@@ -10,11 +10,11 @@ import routes from "~/routes";
 import { ACCESS, type Allowed } from "~/auth/access";
 import { createAuthSession } from "~/auth/session.server";
 import { getDb } from "~/db/client.server";
-import { ROLES, users, type Role } from "~/db/schema";
+import { edms, ROLES, users, type Role } from "~/db/schema";
 import { answerOf, args, type Answer } from "./auth-helpers";
 import { ingestSync } from "~/models/sync.server";
 import { savePhoto } from "~/models/photos.server";
-import { makeProject, makeSensor, makeSite } from "../support/registry-fixtures";
+import { makeProject, makeSensor, makeSite, makeTape } from "../support/registry-fixtures";
 
 type Entry = { file: string; path?: string; index?: boolean; children?: Entry[] };
 /** A route with its full path and its layouts, nearest last. */
@@ -181,14 +181,20 @@ for (const route of FLAT) {
 // an unknown id (same status, same body), a 404 for every read. The admin (no membership rows)
 // gets B's records too.
 
-type Kind = "sensor" | "shot" | "photo" | "session" | "project";
-type Side = { sensor: string; site: string; session: string; shot: string; photo: string; project: string };
+type Kind = "sensor" | "shot" | "photo" | "session" | "project" | "tape" | "edm";
+type Side = { sensor: string; site: string; session: string; shot: string; photo: string; project: string; tape: string; edm: string };
 const sides: { A?: Side; B?: Side } = {};
 
 async function sideWorld(name: string, memberIds: string[], admin: { id: string; role: Role }): Promise<Side> {
   const sensor = await makeSensor({ label: `Scanner of ${name}` });
   const site = await makeSite({ name: `Yard of ${name}` });
-  const project = await makeProject({ name, sensorIds: [sensor.id], siteIds: [site.id], memberIds });
+  // issue 14: each project's own tape and reference EDM (the registry pages answer 404 outside)
+  const tape = await makeTape({ label: `Steel tape of ${name}` });
+  const edm = crypto.randomUUID();
+  await getDb()
+    .insert(edms)
+    .values({ id: edm, label: `Total station of ${name}`, serial: edm.slice(0, 8), uncertaintyMm: 1, uncertaintyPpm: 1 });
+  const project = await makeProject({ name, sensorIds: [sensor.id], siteIds: [site.id], tapeIds: [tape.id], edmIds: [edm], memberIds });
   const session = crypto.randomUUID();
   const shot = crypto.randomUUID();
   const out = await ingestSync(admin, {
@@ -214,7 +220,7 @@ async function sideWorld(name: string, memberIds: string[], admin: { id: string;
   const saved = await savePhoto(admin, shot, { path: file, bytes: PNG.length, sha256: createHash("sha256").update(PNG).digest("hex"), type: "image/png" });
   rmSync(dir, { recursive: true, force: true });
   const photo = (saved.body as { photo: { id: string } }).photo.id;
-  return { sensor: sensor.id, site: site.id, session, shot, photo, project: project.id };
+  return { sensor: sensor.id, site: site.id, session, shot, photo, project: project.id, tape: tape.id, edm };
 }
 
 const PNG = Buffer.from("iVBORw0KGgoAAAANSUhEUgAAAAIAAAACCAYAAABytg0kAAAAEklEQVR4AWIyXlX+H4SZGKAAAAAA///5ejD3AAAABklEQVQDADzYBKuqbfebAAAAAElFTkSuQmCC", "base64");
@@ -226,7 +232,7 @@ beforeAll(async () => {
   sides.B = await sideWorld("Matrix project B", [], admin);
 });
 
-const PARAM_KIND: Record<string, Kind> = { sensorId: "sensor", shotId: "shot", photoId: "photo" };
+const PARAM_KIND: Record<string, Kind> = { sensorId: "sensor", shotId: "shot", photoId: "photo", tapeId: "tape", edmId: "edm" };
 
 /** The cases: a route file, the URL with `{id}` where the record's id goes, and its kind. */
 type Case = { file: string; url: string; kind: Kind; params: (id: string) => Record<string, string> };
@@ -247,6 +253,8 @@ const CASES: Case[] = [
   { file: "routes/api.photos.ts", url: "/api/photos?shotId={id}", kind: "shot", params: () => ({}) },
   { file: "routes/api.sensors.ts", url: "/api/sensors?project={id}", kind: "project", params: () => ({}) },
   { file: "routes/review.tsx", url: "/review?project={id}", kind: "project", params: () => ({}) },
+  { file: "routes/api.tapes.ts", url: "/api/tapes?project={id}", kind: "project", params: () => ({}) },
+  { file: "routes/api.edms.ts", url: "/api/edms?project={id}", kind: "project", params: () => ({}) },
 ];
 
 test("the membership cases cover every object kind, including photos by id and the exports", () => {
@@ -259,10 +267,12 @@ test("the membership cases cover every object kind, including photos by id and t
     "routes/review.sensors.$sensorId.map.tsx",
     "routes/api.shots.$shotId.exclusion.ts",
     "routes/api.shots[.]geojson.ts",
+    "routes/admin.tapes.$tapeId.tsx",
+    "routes/admin.edms.$edmId.tsx",
   ]) {
     expect(files, `${f} has no membership case`).toContain(f);
   }
-  expect(new Set(CASES.map((c) => c.kind))).toEqual(new Set(["sensor", "shot", "photo", "session", "project"]));
+  expect(new Set(CASES.map((c) => c.kind))).toEqual(new Set(["sensor", "shot", "photo", "session", "project", "tape", "edm"]));
 });
 
 const masked = (a: Answer, id: string) => ({

@@ -17,7 +17,7 @@ test("a crew member gets their project's active sensors, sites (stations, target
     targets: [{ label: "Dark board", reflectancePct: 10, referenceM: 12.5, geo: { lat: 10, lon: -30, h: 50 } }],
   });
   const tape = await makeTape({ label: "Steel tape 30 m" });
-  const project = await makeProject({ sensorIds: [sensor.id], siteIds: [site.id], minShots: 30, coverageK: 2.5, memberIds: [crew.id] });
+  const project = await makeProject({ sensorIds: [sensor.id], siteIds: [site.id], tapeIds: [tape.id], minShots: 30, coverageK: 2.5, memberIds: [crew.id] });
 
   const res = await call(loader as never, apiRequest("/api/field/reference", { user: crew }));
   expect(res.status).toBe(200);
@@ -32,7 +32,7 @@ test("a crew member gets their project's active sensors, sites (stations, target
   expect(y.targets[0]).toMatchObject({ label: "Dark board", reflectancePct: 10, referenceM: 12.5, retro: false, grid: null, geo: { lat: 10, lon: -30, h: 50 } });
   expect(body.tapes.find((x: { id: string }) => x.id === tape.id)).toMatchObject({ standardTempC: 20, standardTensionN: 50, areaMm2: 2.6 });
   const p = body.projects.find((x: { id: string }) => x.id === project.id);
-  expect(p).toMatchObject({ rule: { minShots: 30, coverageK: 2.5, minWithinPct: 95, rangeBandEdgesM: [0, 10, 30, 100] }, sensorIds: [sensor.id], siteIds: [site.id] });
+  expect(p).toMatchObject({ rule: { minShots: 30, coverageK: 2.5, minWithinPct: 95, rangeBandEdgesM: [0, 10, 30, 100] }, sensorIds: [sensor.id], siteIds: [site.id], tapeIds: [tape.id], edmIds: [] });
   expect(Number.isNaN(Date.parse(body.copiedAt))).toBe(false);
 });
 

@@ -18,7 +18,7 @@ beforeAll(async () => {
   const sensor = await makeSensor({ label: "Backfill rangefinder" });
   const tape = await makeTape({ uncertaintyMm: 0.5, uncertaintyPpm: 20 });
   const site = await makeSite({ name: "Fernhollow depot" });
-  await shareProject([sensor], [site], [crew]); // api.md v1.1: sessions belong to a project of the crew's
+  await shareProject([sensor], [site], [crew], { tapeIds: [tape.id] }); // api.md v1.1 (issue 14: with its tape): sessions belong to a project of the crew's
   const sessionId = crypto.randomUUID();
   const tapeUse = { tapeId: tape.id, tempC: 20, tensionN: 50, support: "ground", spans: 1 };
   const refs = [

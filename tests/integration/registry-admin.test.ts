@@ -251,7 +251,10 @@ test("every role reads the sensor and site lists; only an admin may open the for
   expect((await run(siteList.loader as Fn, req("/admin/sites", viewer))).status).toBe(200);
   expect((await run(sensorNew.loader as Fn, req("/admin/sensors/new", viewer))).status).toBe(403);
   expect((await run(sensorNew.action as Fn, req("/admin/sensors/new", viewer, form(goodSensor)))).status).toBe(403);
-  expect((await run(tapeList.loader as Fn, req("/admin/tapes", viewer))).status).toBe(403);
+  // issue 14: the tape list is read like the sensor list, each user their projects' tapes (this viewer has none)
+  const tapesSeen = await run(tapeList.loader as Fn, req("/admin/tapes", viewer));
+  expect(tapesSeen.status).toBe(200);
+  expect(tapesSeen.body).toMatchObject({ canEdit: false, tapes: [] });
   expect((await run(projectList.loader as Fn, req("/admin/projects", viewer))).status).toBe(403);
   const anon = await run(sensorList.loader as Fn, req("/admin/sensors", null));
   expect(anon.status).toBe(302);

@@ -8,6 +8,8 @@ import { action as syncAction } from "~/routes/api.sync";
 import { action as edmAction } from "~/routes/api.edms";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
 import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, makeTape, makeUser, type TestUser } from "../support/registry-fixtures";
+import { getDb } from "~/db/client.server";
+import { projectEdms } from "~/db/schema";
 
 const J = jStat as { studentt: { inv(p: number, df: number): number } };
 
@@ -47,7 +49,16 @@ beforeAll(async () => {
       { label: "T40", reflectancePct: 50, grid: { e: 1000, n: 2040, h: 100 } }, // no σ: unknown
     ],
   });
-  const project = await makeProject({ sensorIds: [sensorId], siteIds: [site.id], minShots: 3, statement: "nssda95", edmUncertaintyMm: 2, edmUncertaintyPpm: 1, memberIds: [crew.id, viewer.id] });
+  const project = await makeProject({
+    sensorIds: [sensorId],
+    siteIds: [site.id],
+    tapeIds: [tapeId],
+    minShots: 3,
+    statement: "nssda95",
+    edmUncertaintyMm: 2,
+    edmUncertaintyPpm: 1,
+    memberIds: [crew.id, viewer.id],
+  });
   projectId = project.id;
   await addMemberIds(projectId, viewer.id); // api.md v1.1: a member sees the project's sessions
   const edm = await call(
@@ -65,6 +76,7 @@ beforeAll(async () => {
   );
   expect(edm.status).toBe(201);
   edmId = edm.json.id;
+  await getDb().insert(projectEdms).values({ projectId, edmId }); // issue 14: the project's crews may name it
 
   const sessions = [
     { id: A, sensorId, siteId: site.id, projectId, startedAt: "2026-05-04T08:00:00+02:00", airTempC: 15, pressureHpa: 1010, humidityPct: 60 },

@@ -125,13 +125,20 @@ test("the snapshot stays as signed when a shot is excluded afterwards", async ()
   await call(exclusionApi.action as never, apiRequest(`/api/shots/${shot.id}/exclusion`, { user: w.users.qa, method: "DELETE", json: { reason: "undo" } }), { shotId: shot.id });
 });
 
-test("a passing sensor is approved without a note; a period approval freezes only that period", async () => {
-  const ok = await signOff(w.users.admin, w.passing.id, { decision: "approved" });
+test("a passing sensor is approved without a note; the admin must name its project; a period approval freezes only that period", async () => {
+  // issue 14: the sensor is in a project, so even an admin names it (a sign-off freezes one project's shots)
+  const noProject = await signOff(w.users.admin, w.passing.id, { decision: "approved", note: "kept as typed" });
+  expect(noProject.status).toBe(400);
+  const refused = noProject.body as Reply & { result: { initialValue?: Record<string, unknown> } };
+  expect(refused.result.error?.projectId?.[0]).toMatch(/choose the project this sign-off is for/);
+  expect(refused.result.initialValue).toMatchObject({ decision: "approved", note: "kept as typed" });
+  expect(refused.signedOff).toBeNull();
+  const ok = await signOff(w.users.admin, w.passing.id, { decision: "approved", projectId: w.project.id });
   expect(ok.status).toBe(200);
   expect((ok.body as Reply).signedOff!.verdict).toBe("pass");
-  const noNote = await signOff(w.users.admin, w.passing.id, { decision: "approved", from: "2026-05-05", to: "2026-05-05" });
+  const noNote = await signOff(w.users.admin, w.passing.id, { decision: "approved", projectId: w.project.id, from: "2026-05-05", to: "2026-05-05" });
   expect(noNote.status).toBe(400); // 12 shots that day: "insufficient" needs a reason to approve
-  const a = await signOff(w.users.admin, w.passing.id, { decision: "approved", from: "2026-05-05", to: "2026-05-05", note: "Sunny-day recheck only" });
+  const a = await signOff(w.users.admin, w.passing.id, { decision: "approved", projectId: w.project.id, from: "2026-05-05", to: "2026-05-05", note: "Sunny-day recheck only" });
   expect(a.status).toBe(200);
   const [row] = await getDb()
     .select()

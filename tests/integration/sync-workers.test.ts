@@ -23,7 +23,7 @@ afterAll(async () => {
 
 async function world() {
   const [crew, sensor, site, tape] = await Promise.all([makeUser("crew"), makeSensor({ appliesAirCorrection: true }), makeSite({ targets: [{ label: "dark", reflectancePct: 10 }] }), makeTape()]);
-  await shareProject([sensor], [site], [crew]); // api.md v1.1: sessions belong to one of the crew's projects
+  await shareProject([sensor], [site], [crew], { tapeIds: [tape.id] }); // api.md v1.1 (issue 14: with its tape): sessions belong to one of the crew's projects
   return { crew, sensor, site, tape };
 }
 

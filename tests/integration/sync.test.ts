@@ -27,7 +27,7 @@ async function world(opts: { sensor?: Parameters<typeof makeSensor>[0]; project?
     makeTape(),
   ]);
   // issue 14: the crew's project lists the sensor and the site, so a session implies it
-  const project = await shareProject([sensor], [site], [crew], opts.project);
+  const project = await shareProject([sensor], [site], [crew], { tapeIds: [tape.id], ...opts.project }); // issue 14: and its tape
   return { crew, sensor, site, tape, project, dark: site.targets[0]!, retro: site.targets[1]! };
 }
 

@@ -2,7 +2,7 @@
 // audit): users with a bearer token, sensors, tapes, sites with stations and targets,
 // projects. Invented values in the manner of the demo scenario (brief.md).
 import { getDb } from "~/db/client.server";
-import { projectMembers, projectSensors, projectSites, projects, sensors, sites, stations, tapes, targets, users, type Role } from "~/db/schema";
+import { projectEdms, projectMembers, projectSensors, projectSites, projectTapes, projects, sensors, sites, stations, tapes, targets, users, type Role } from "~/db/schema";
 import { inArray } from "drizzle-orm";
 import { createApiToken } from "~/auth/tokens.server";
 
@@ -87,9 +87,17 @@ export async function makeSite(opts: { name?: string; targets?: TargetIn[]; stat
 }
 
 export async function makeProject(
-  opts: { sensorIds?: string[]; siteIds?: string[]; memberIds?: string[]; minShots?: number; coverageK?: number; minWithinPct?: number; name?: string } & Partial<
-    Pick<typeof projects.$inferInsert, "referenceRatio" | "referenceInVerdict" | "statement" | "edmUncertaintyMm" | "edmUncertaintyPpm">
-  > = {},
+  opts: {
+    sensorIds?: string[];
+    siteIds?: string[];
+    tapeIds?: string[];
+    edmIds?: string[];
+    memberIds?: string[];
+    minShots?: number;
+    coverageK?: number;
+    minWithinPct?: number;
+    name?: string;
+  } & Partial<Pick<typeof projects.$inferInsert, "referenceRatio" | "referenceInVerdict" | "statement" | "edmUncertaintyMm" | "edmUncertaintyPpm">> = {},
 ) {
   const db = getDb();
   const row = {
@@ -109,6 +117,9 @@ export async function makeProject(
   await db.insert(projects).values(row);
   for (const sensorId of opts.sensorIds ?? []) await db.insert(projectSensors).values({ projectId: row.id, sensorId });
   for (const siteId of opts.siteIds ?? []) await db.insert(projectSites).values({ projectId: row.id, siteId });
+  // issue 14: the tapes and reference EDMs its crews may name on shots
+  for (const tapeId of opts.tapeIds ?? []) await db.insert(projectTapes).values({ projectId: row.id, tapeId });
+  for (const edmId of opts.edmIds ?? []) await db.insert(projectEdms).values({ projectId: row.id, edmId });
   // issue 14: members see the project's records (admins see every project without a row)
   for (const userId of opts.memberIds ?? []) await db.insert(projectMembers).values({ projectId: row.id, userId });
   return row;

@@ -26,12 +26,17 @@ export async function loadSession(sessionId: string): Promise<SessionData> {
 }
 
 export function contextOf(session: LocalSession, reference: ReferenceCopy): PreviewContext {
+  const project = session.record.projectId ? reference.projects.find((p) => p.id === session.record.projectId) : undefined;
+  // issue 14: a session offers only its project's tapes and EDMs (the server refuses the others);
+  // a copy made before projects listed them offers all it holds
+  const tapeIds = project?.tapeIds ? new Set(project.tapeIds) : null;
+  const edmIds = project?.edmIds ? new Set(project.edmIds) : null;
   return {
     sensor: reference.sensors.find((s) => s.id === session.record.sensorId),
     site: reference.sites.find((s) => s.id === session.record.siteId),
-    tapes: reference.tapes,
-    edms: reference.edms ?? [],
-    project: session.record.projectId ? reference.projects.find((p) => p.id === session.record.projectId) : undefined,
+    tapes: tapeIds ? reference.tapes.filter((t) => tapeIds.has(t.id)) : reference.tapes,
+    edms: (reference.edms ?? []).filter((e) => !edmIds || edmIds.has(e.id)),
+    project,
   };
 }
 
