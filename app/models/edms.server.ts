@@ -6,7 +6,7 @@ import { asc, eq, isNull } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { edms } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import { certificateColumns, edmSchema, invalid, issuesToErrors, stableStringify, type EdmBody, type NotFound, type RegistryResult } from "~/models/registry-schemas";
+import { certificateColumns, edmSchema, invalid, issuesToErrors, stableStringify, type EdmBody, type NotFound, type RegistryResult } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForEdm } from "~/models/shots.server";
 

@@ -11,7 +11,7 @@ import type { Actor } from "./actor";
 import { audit } from "./audit.server";
 import { usersByEmail } from "./members.server";
 import { contentOf, getProject, rowContent, type ProjectWithLinks } from "./projects.server";
-import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type ProjectBody, type RegistryResult } from "./registry-schemas";
+import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type ProjectBody, type RegistryResult } from "~/contract/registry";
 import { isConstraintError, sensorsExist } from "./sensors.server";
 import { sitesExist } from "./sites.server";
 import { normalizeEmail } from "./users.server";

@@ -5,7 +5,7 @@ import { DEFAULT_RULE, type Rule } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { projectSensors, projectSites, projects, sensors, sites } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/models/registry-schemas";
+import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForProject, RULE_COLUMNS, ruleOf } from "~/models/shots.server";
 import { sitesExist } from "~/models/sites.server";

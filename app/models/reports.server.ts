@@ -21,7 +21,7 @@ import { DEFAULT_RULE, pastDueOn, reportFromAggregates, reportRows, aggregateSho
 import type { Actor } from "./actor";
 import { scopeOf } from "./scope.server";
 import { periodDay, periodWhere, RECOMPUTE_ACTION, RULE_COLUMNS, ruleOf, sensorSpecOf, type QueryError } from "./shots.server";
-import type { RecordError } from "./sync-schemas";
+import type { RecordError } from "~/contract/sync";
 
 /** `includeShots`: the per-shot rows of api.md v1.1 (`?include=shots`). */
 export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; projectId?: string; includeShots?: boolean };

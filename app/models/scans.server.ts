@@ -18,7 +18,7 @@ import { ingestSync } from "./sync.server";
 import type { Actor } from "./actor";
 import { projectColInScope, scopeOf, siteIdInScope, type Scope } from "./scope.server";
 import { frameFieldsSchema, scanFieldsSchema, type ScanAnswer, type ScanTargetRow } from "./scan-schemas";
-import { issuesToErrors, type RecordError, type SyncResult, type SyncShot } from "./sync-schemas";
+import { issuesToErrors, type RecordError, type SyncResult, type SyncShot } from "~/contract/sync";
 import type { UploadedFile } from "~/utils/multipart.server";
 
 type Answer = { status: number; body: unknown };

@@ -20,7 +20,7 @@ import {
   type SyncResult,
   type SyncSession,
   type SyncShot,
-} from "./sync-schemas";
+} from "~/contract/sync";
 
 export type Rec<T> = { id: string; value: T | null; raw: string; errors: RecordError[] | null };
 export type ShotRow = typeof shots.$inferInsert;

@@ -10,7 +10,7 @@ import { isTransientDbError, retryTransient } from "~/db/transient.server";
 import { auditLog, checkSessions, shots } from "~/db/schema";
 import { airState, DomainError } from "~/domain";
 import { computeShotRecord, holdingProjectsQuery, inIds, pairKey, registryContextOf, registryQueries, shotInsertRow, type SessionFacts } from "./shots.server";
-import { type RecordError, type SyncResult, type SyncSession } from "./sync-schemas";
+import { type RecordError, type SyncResult, type SyncSession } from "~/contract/sync";
 import { syncPool } from "./sync-pool.server";
 import { conflict, internalErrors, shotStage, validateRecords, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
 

@@ -5,7 +5,7 @@ import type { TapeSpec } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { tapes } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import { certificateColumns, invalid, issuesToErrors, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/models/registry-schemas";
+import { certificateColumns, invalid, issuesToErrors, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForTape } from "~/models/shots.server";
 

@@ -12,7 +12,7 @@ import { addMemberSchema, inviteMemberSchema } from "~/components/member-schemas
 import { addMember, inviteMember, listMembers, removeMember, usersByEmail } from "~/models/members.server";
 import { listUsers, normalizeEmail, UserError } from "~/models/users.server";
 import { getProject, projectChoices, restoreProject, retireProject, updateProject } from "~/models/projects.server";
-import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/contract/registry";
 import { registryHistory } from "~/models/sensors.server";
 import { invariantResponse } from "~/utils/http";
 import { ProjectForm, projectDefaults } from "./admin.projects.form";
