@@ -7,7 +7,8 @@ import { projectSensors, projectSites, projects, sensors, sites } from "~/db/sch
 import { audit } from "~/models/audit.server";
 import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
-import { recomputeShotsForProject, RULE_COLUMNS, ruleOf } from "~/models/shots.server";
+import { recomputeShotsForProject } from "~/models/recompute.server";
+import { RULE_COLUMNS, ruleOf } from "~/models/registry-context.server";
 import { sitesExist } from "~/models/sites.server";
 
 export type ProjectRow = typeof projects.$inferSelect;

@@ -8,7 +8,7 @@ import { auditLog, checkSessions, sensors, users } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, sensorIdInScope } from "~/models/scope.server";
-import { recomputeShotsForSensor } from "~/models/shots.server";
+import { recomputeShotsForSensor } from "~/models/recompute.server";
 import { certificateColumns, invalid, issuesToErrors, sensorSchema, stableStringify, type NotFound, type RegistryResult, type SensorBody } from "~/contract/registry";
 
 // ---------- shared by the registry models ----------

@@ -9,7 +9,7 @@ import { invalid, issuesToErrors, siteSchema, stableStringify, type FieldError, 
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, siteIdInScope } from "~/models/scope.server";
-import { recomputeShotsForSite } from "~/models/shots.server";
+import { recomputeShotsForSite } from "~/models/recompute.server";
 
 export type SiteRow = typeof sites.$inferSelect;
 export type TargetRow = typeof targets.$inferSelect;

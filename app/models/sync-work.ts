@@ -6,7 +6,7 @@
 import { DomainError } from "~/domain";
 import type { shots } from "~/db/schema";
 import type { ComputedColumns, ShotOutcome } from "./shot-record";
-import type { RegistryContext, SessionFacts } from "./shots.server";
+import type { RegistryContext, SessionFacts } from "./registry-context.server";
 import {
   canonicalJson,
   issuesToErrors,

@@ -2,7 +2,9 @@ import { useMemo } from "react";
 import type { Route } from "./+types/review.sensors.$sensorId.print";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
-import { listProjectsForFilter, listSignOffs, reportWithCells, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
+import { answering } from "~/http/app-error.server";
+import { listSignOffs } from "~/models/signoffs.server";
+import { listProjectsForFilter, reportWithCells, sensorReviewHeader, shotExtras } from "~/models/review.server";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
 import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
 import { laserCaution } from "~/domain";
@@ -25,12 +27,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const to = url.searchParams.get("to");
   const projectId = url.searchParams.get("project") || null;
   const q = { from: from && DATE.test(from) ? from : null, to: to && DATE.test(to) ? to : null, sessionIds: url.searchParams.getAll("session"), projectId };
-  const [rc, signOffs, projects, extras] = await Promise.all([
-    reportWithCells(user, params.sensorId, q),
-    listSignOffs(user, params.sensorId, 5),
-    listProjectsForFilter(user),
-    shotExtras(user, params.sensorId),
-  ]);
+  const [rc, signOffs, projects, extras] = await answering(() =>
+    Promise.all([reportWithCells(user, params.sensorId, q), listSignOffs(user, params.sensorId, 5), listProjectsForFilter(user), shotExtras(user, params.sensorId)]),
+  );
   if (!rc) throw new Response("There is no sensor with this id.", { status: 404 });
   const { report, cells } = rc;
   const project = projects.find((p) => p.id === projectId) ?? null;
