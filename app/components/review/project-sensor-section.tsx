@@ -1,17 +1,12 @@
 // One sensor's section of the project verification report (issue 14): its verdict, figures, bands,
 // coverage, drift and accuracy statement as printed on the document. Issue 13: split out of the
 // report route.
-import { type ProjectReportSensor } from "~/domain";
+import type { ProjectReportContent, ProjectReportSensor } from "~/domain";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable } from "./report-figures";
 import { StatementPanel, TraceabilityPanel } from "./statement";
 import { DriftChart } from "./charts";
-import { mm } from "./format";
-
 import { VerdictBadge, VerdictShape } from "../verdict-badge";
 import type { ReportJson } from "./types";
-
-import { ProjectSensorSection } from "./project-sensor-section";
-import type { ProjectReportContent } from "~/domain";
 
 /** The report API's shape for the shared figure components (the per-shot rows are not part of the document). */
 function asReport(s: ProjectReportSensor, rule: ProjectReportContent["rule"]): ReportJson {
