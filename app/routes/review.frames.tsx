@@ -13,7 +13,7 @@ import type { ScanAnswer } from "~/models/scan-schemas";
 import { ScanRowsTable, uploadWithProgress } from "~/components/review/scan-rows";
 import { dateTime } from "~/components/review/format";
 import { depthFromCorrelation, type Intrinsics } from "~/domain";
-import { boxText, depthRange, parseBox, ramp, type Box, type Frame } from "~/components/review/depth-frame";
+import { boxText, depthRange, parseBox, ramp, RAMP, type Frame } from "~/components/review/depth-frame";
 
 export const meta: Route.MetaFunction = () => [{ title: "Check-shots from depth frames · Shotbook" }];
 

@@ -6,7 +6,7 @@ export type Frame = { width: number; height: number; zM: Float64Array };
 export type Box = { u0: number; v0: number; u1: number; v1: number };
 
 // A perceptual ramp (dark violet → teal → yellow), near to depth dark, far bright.
-const RAMP = [
+export const RAMP = [
   [68, 1, 84],
   [59, 82, 139],
   [33, 145, 140],
