@@ -82,3 +82,28 @@ test("the import reader sees static, re-exported, type-only and dynamic imports 
 test("no forbidden arrow between the folders of app/", () => {
   expect(forbiddenArrows()).toEqual([]);
 });
+
+// Issue 13: models, the domain and the contract never build an HTTP answer; they throw AppError
+// (app/contract/errors.ts) and the routes answer with app/http/app-error.server.ts. Comments aside.
+const BUILDS_RESPONSE = /\bResponse\.json\(|\bnew Response\(|\bResponse\.redirect\(/;
+/** Files not yet moved to AppError, owned by another issue this round (issue 16's report read path). */
+const NOT_YET: string[] = ["models/reports.server.ts"];
+
+export function buildsResponse(text: string): boolean {
+  return text.split("\n").some((line) => !/^\s*(\/\/|\*)/.test(line) && BUILDS_RESPONSE.test(line));
+}
+
+test("the response check sees a thrown or returned Response and ignores comments", () => {
+  expect(buildsResponse('  throw Response.json({ error: "x" }, { status: 403 });')).toBe(true);
+  expect(buildsResponse("  return new Response(body);")).toBe(true);
+  expect(buildsResponse('  throw new AppError(403, "x");')).toBe(false);
+  expect(buildsResponse(" * a JSON Response (400/404): Response.json(…)")).toBe(false);
+});
+
+test("models, the domain and the contract never build a Response", () => {
+  const offenders = ["models", "domain", "contract"]
+    .flatMap((dir) => sourceFiles(join(APP, dir)))
+    .map((f) => relative(APP, f))
+    .filter((rel) => !NOT_YET.includes(rel) && buildsResponse(readFileSync(join(APP, rel), "utf8")));
+  expect(offenders).toEqual([]);
+});

@@ -2,7 +2,7 @@
 import { z } from "zod";
 import type { Role } from "~/db/schema";
 
-// The registry's rule (app/models/registry-schemas.ts), repeated so the sign-in bundle stays small.
+// The registry's rule (app/contract/registry.ts), repeated so the sign-in bundle stays small.
 const CONTROL_CHARS = /[\u0000-\u001f\u007f-\u009f]/;
 const noControlMessage = (what: string) => `Remove the tabs, line breaks or other control characters from ${what}.`;
 

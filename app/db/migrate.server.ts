@@ -8,7 +8,7 @@ export async function migrateDb(db: Db) {
   await migrate(db, { migrationsFolder: MIGRATIONS_FOLDER });
   // issue 15: shots stored before migration 0002 get their reference uncertainty, once (imported
   // here, not at the top, so the app's models load only once the migrations have run)
-  const { backfillReferenceUncertainty } = await import("~/models/shots.server");
+  const { backfillReferenceUncertainty } = await import("~/models/recompute.server");
   const b = await backfillReferenceUncertainty(db);
   if (b.ran && b.updated) console.log(`Reference uncertainty filled in for ${b.updated} shots stored before it was computed`);
   // issue 14: tapes and EDMs linked to the projects whose sessions used them, once

@@ -8,7 +8,7 @@ import { edms, projects, projectEdms } from "~/db/schema";
 import type { Actor } from "~/models/actor";
 import { edmListedInScope, projectColInScope, scopeOf } from "~/models/scope.server";
 import { audit } from "~/models/audit.server";
-import { certificateColumns, edmSchema, invalid, issuesToErrors, stableStringify, type EdmBody, type NotFound, type RegistryResult } from "~/models/registry-schemas";
+import { certificateColumns, edmSchema, invalid, issuesToErrors, stableStringify, type EdmBody, type NotFound, type RegistryResult } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForEdm } from "~/models/shots.server";
 

@@ -6,7 +6,7 @@ import { auditLog, exclusions, shots } from "~/db/schema";
 import { getShotJson, type ShotJson } from "./shots.server";
 import type { Actor } from "./actor";
 import { scopeOf, sessionIdInScope } from "./scope.server";
-import { exclusionSchema, issuesToErrors, type RecordError } from "./sync-schemas";
+import { exclusionSchema, issuesToErrors, type RecordError } from "~/contract/sync";
 
 export type ExclusionRow = {
   id: string;

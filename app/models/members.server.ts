@@ -8,7 +8,8 @@ import { getDb } from "~/db/client.server";
 import { projectMembers, projects, users, type Role } from "~/db/schema";
 import type { Actor } from "./actor";
 import { audit } from "./audit.server";
-import { inviteUser, normalizeEmail, UserError } from "./users.server";
+import { inviteUser, normalizeEmail } from "./users.server";
+import { AppError } from "~/contract/errors";
 
 export type MemberRow = { userId: string; email: string; name: string; role: Role; active: boolean; addedAt: string };
 export type MembershipRow = { projectId: string; name: string; client: string; retiredAt: string | null; addedAt: string };
@@ -17,7 +18,7 @@ export type MemberChange = { status: 200 | 201; body: { projectId: string; userI
 
 function forbidUnlessAdmin(actor: Pick<Actor, "role">) {
   // The same answer as the users admin (users.server.ts): a JSON 403 the route lets through.
-  if (actor.role !== "admin") throw Response.json({ error: "Only an admin may manage project members." }, { status: 403 });
+  if (actor.role !== "admin") throw new AppError(403, "Only an admin may manage project members.");
 }
 
 const noProject = (id: string): NotFound => ({ status: 404, body: { error: `No project with id "${id}".` } });
@@ -97,7 +98,7 @@ export async function usersByEmail(emails: string[]): Promise<Map<string, { id: 
 /**
  * Invites a new person straight into a project: the user is made and mailed exactly as the users
  * admin does (users.server.ts inviteUser), then added as a member. A taken address is a
- * UserError on the e-mail field, as on the users page.
+ * AppError (400) on the e-mail field, as on the users page.
  */
 export async function inviteMember(
   actor: Actor,
@@ -108,7 +109,7 @@ export async function inviteMember(
   if (!(await projectRow(projectId))) return noProject(projectId);
   const { id, mailSent } = await inviteUser(actor, input);
   const added = await addMember(actor, projectId, id);
-  if (added.status === 404) throw new UserError(added.body.error);
+  if (added.status === 404) throw new AppError(400, added.body.error);
   return { status: 201, body: { projectId, userId: id, mailSent } };
 }
 

@@ -4,6 +4,7 @@
 // `rule.minShots`. Members are part of the project's content: the same body again answers 200,
 // the same id with other members, links or rule answers 409, like the other registry POSTs.
 import { eq } from "drizzle-orm";
+import { AppError } from "~/contract/errors";
 import { z } from "zod";
 import { getDb } from "~/db/client.server";
 import { projectMembers, projectSensors, projectSites, projects, users } from "~/db/schema";
@@ -11,7 +12,7 @@ import type { Actor } from "./actor";
 import { audit } from "./audit.server";
 import { usersByEmail } from "./members.server";
 import { contentOf, getProject, linksGiven, rowContent, unknownTapesEdms, writeTapeEdmLinks, type ProjectWithLinks } from "./projects.server";
-import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type ProjectBody, type RegistryResult } from "./registry-schemas";
+import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type ProjectBody, type RegistryResult } from "~/contract/registry";
 import { isConstraintError, sensorsExist } from "./sensors.server";
 import { sitesExist } from "./sites.server";
 import { normalizeEmail } from "./users.server";
@@ -73,7 +74,7 @@ export async function createProjectFromApi(actor: Actor, raw: unknown): Promise<
 
 async function createOnce(actor: Actor, raw: unknown, retry: boolean): Promise<RegistryResult> {
   // Defence in depth behind the route guard, with the same answer.
-  if (actor.role !== "admin") throw Response.json({ error: `The ${actor.role} role may not do this.` }, { status: 403 });
+  if (actor.role !== "admin") throw new AppError(403, `The ${actor.role} role may not do this.`);
   const p = await parse(raw);
   if (!p.ok) return p.result;
   const { body, memberIds, memberEmails } = p.value;

@@ -5,9 +5,10 @@ import { DEFAULT_RULE, type Rule } from "~/domain";
 import { getDb, type Db } from "~/db/client.server";
 import { edms, projectEdms, projectSensors, projectSites, projectTapes, projects, sensors, sites, tapes } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/models/registry-schemas";
+import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
-import { recomputeShotsForProject, RULE_COLUMNS, ruleOf } from "~/models/shots.server";
+import { recomputeShotsForProject } from "~/models/recompute.server";
+import { RULE_COLUMNS, ruleOf } from "~/models/registry-context.server";
 import { sitesExist } from "~/models/sites.server";
 
 export type ProjectRow = typeof projects.$inferSelect;

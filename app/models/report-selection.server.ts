@@ -5,7 +5,7 @@ import { eq, inArray, sql, type SQL } from "drizzle-orm";
 import type { Db } from "~/db/client.server";
 import { checkSessions, shots } from "~/db/schema";
 import { periodDay, periodWhere, type QueryError } from "./shots.server";
-import type { RecordError } from "./sync-schemas";
+import type { RecordError } from "~/contract/sync";
 
 /** `includeShots`: the per-shot rows of api.md v1.1 (`?include=shots`). */
 export type ReportQuery = { from?: string; to?: string; sessionIds?: string[]; projectId?: string; includeShots?: boolean };

@@ -9,7 +9,7 @@
 // the screens that list shots). A computed report without rows is small, so it is kept per
 // query while a fingerprint of everything it depends on (read first, a few index seeks) is
 // unchanged; several app instances on one database never serve each other's stale figures.
-// See docs/decisions/0001-report-read-path.md.
+// See docs/decisions/0006-report-read-path.md.
 //
 // Scoping (api.md v1.1): a non-admin reads only the shots of sessions of their projects
 // (scopeOf); a sensor in none of their projects answers 404 as if unknown.

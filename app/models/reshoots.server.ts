@@ -13,17 +13,12 @@ import type { Actor } from "~/models/actor";
 import type { ReshootInput } from "~/contract/reshoot";
 import type { RefReshoot } from "~/offline/types";
 
-export type ReshootState = "open" | "done" | "withdrawn";
+import { AppError } from "~/contract/errors";
 
-export class ReshootError extends Error {
-  constructor(
-    message: string,
-    readonly status = 400,
-    readonly field?: string,
-  ) {
-    super(message);
-  }
-}
+/** The sensor screen catches this name (issue 13: the one AppError; kept for that screen until it imports AppError). */
+export { AppError as ReshootError };
+
+export type ReshootState = "open" | "done" | "withdrawn";
 
 export type ReshootRow = {
   id: string;
@@ -141,14 +136,14 @@ export async function createReshoot(actor: Actor, sensorId: string, input: Omit<
   const db = getDb();
   const [scope, h] = await Promise.all([scopeOf(actor), holdings()]);
   const [sensor] = await db.select({ id: sensors.id, label: sensors.label, retiredAt: sensors.retiredAt }).from(sensors).where(eq(sensors.id, sensorId)).limit(1);
-  if (!sensor || !anyInScope(scope, h.ofSensor(sensorId))) throw new ReshootError("There is no sensor with this id.", 404);
-  if (sensor.retiredAt) throw new ReshootError(`${sensor.label} is retired: the crew cannot shoot it any more.`, 400, "siteId");
+  if (!sensor || !anyInScope(scope, h.ofSensor(sensorId))) throw new AppError(404, "There is no sensor with this id.");
+  if (sensor.retiredAt) throw new AppError(400, `${sensor.label} is retired: the crew cannot shoot it any more.`, "siteId");
   const [site] = await db
     .select({ id: sites.id, name: sites.name })
     .from(sites)
     .where(and(eq(sites.id, input.siteId), isNull(sites.retiredAt)))
     .limit(1);
-  if (!site || !anyInScope(scope, h.ofSite(site.id))) throw new ReshootError("Choose one of the listed sites.", 400, "siteId");
+  if (!site || !anyInScope(scope, h.ofSite(site.id))) throw new AppError(400, "Choose one of the listed sites.", "siteId");
   const projectId = input.projectId || null;
   if (projectId) {
     const [p] = await db
@@ -156,12 +151,12 @@ export async function createReshoot(actor: Actor, sensorId: string, input: Omit<
       .from(projects)
       .where(and(eq(projects.id, projectId), isNull(projects.retiredAt)))
       .limit(1);
-    if (!p || !inScope(scope, p.id)) throw new ReshootError("Choose one of the listed projects.", 400, "projectId");
+    if (!p || !inScope(scope, p.id)) throw new AppError(400, "Choose one of the listed projects.", "projectId");
     if (!h.ofBoth(sensorId, site.id).includes(p.id)) {
-      throw new ReshootError(`${p.name} does not hold both ${sensor.label} and ${site.name}: its crew would not see the request. Add them to the project first, or choose another.`, 400, "projectId");
+      throw new AppError(400, `${p.name} does not hold both ${sensor.label} and ${site.name}: its crew would not see the request. Add them to the project first, or choose another.`, "projectId");
     }
   } else if (!anyInScope(scope, h.ofBoth(sensorId, site.id))) {
-    throw new ReshootError(`None of your projects holds both ${sensor.label} and ${site.name}: no crew would see the request.`, 400, "siteId");
+    throw new AppError(400, `None of your projects holds both ${sensor.label} and ${site.name}: no crew would see the request.`, "siteId");
   }
   const [row] = await db.insert(reshootRequests).values({ sensorId, siteId: site.id, projectId, wanted: input.wanted, reason: input.reason, byUserId: actor.id }).returning({ id: reshootRequests.id });
   await audit(actor.id, "reshoot.request", "reshoot_request", row!.id, { sensorId, siteId: site.id, projectId, wanted: input.wanted, reason: input.reason });
@@ -177,8 +172,8 @@ export async function setReshootState(actor: Actor, sensorId: string, requestId:
     .from(reshootRequests)
     .where(and(eq(reshootRequests.id, requestId), eq(reshootRequests.sensorId, sensorId)))
     .limit(1);
-  if (!r || !visible(scope, h, r)) throw new ReshootError("There is no re-shoot request with this id.", 404);
-  if (r.state !== "open") throw new ReshootError(`This request is already ${r.state === "done" ? "done" : "withdrawn"}.`, 400, "state");
+  if (!r || !visible(scope, h, r)) throw new AppError(404, "There is no re-shoot request with this id.");
+  if (r.state !== "open") throw new AppError(400, `This request is already ${r.state === "done" ? "done" : "withdrawn"}.`, "state");
   const closedAt = new Date().toISOString();
   const updated = await db
     .update(reshootRequests)
@@ -186,7 +181,7 @@ export async function setReshootState(actor: Actor, sensorId: string, requestId:
     // Only an open row changes: two reviewers closing at once leave the first answer standing.
     .where(and(eq(reshootRequests.id, r.id), eq(reshootRequests.state, "open")))
     .returning({ id: reshootRequests.id });
-  if (!updated.length) throw new ReshootError("Someone else closed this request a moment ago.", 400, "state");
+  if (!updated.length) throw new AppError(400, "Someone else closed this request a moment ago.", "state");
   await audit(actor.id, state === "done" ? "reshoot.done" : "reshoot.withdraw", "reshoot_request", r.id, { sensorId: r.sensorId, siteId: r.siteId });
   return (await rows(eq(reshootRequests.id, r.id)))[0]!;
 }

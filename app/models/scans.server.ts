@@ -13,12 +13,13 @@ import { checkSessions, sensors, sites, stations, targets } from "~/db/schema";
 import { depthFrameFromRaw, depthFromCorrelation, DomainError, frameTarget, ScanExtractor, type DepthFrame, type Intrinsics } from "~/domain";
 import { readPointCloud } from "~/scan/point-cloud.server";
 import { LasFormatError } from "~/scan/las";
-import { computeShotRecord, loadRegistryContext, type RegistryContext, type SessionFacts } from "./shots.server";
+import { loadRegistryContext, type RegistryContext, type SessionFacts } from "./registry-context.server";
+import { computeShotRecord } from "./shot-record";
 import { ingestSync } from "./sync.server";
 import type { Actor } from "./actor";
 import { projectColInScope, scopeOf, siteIdInScope, type Scope } from "./scope.server";
 import { frameFieldsSchema, scanFieldsSchema, type ScanAnswer, type ScanTargetRow } from "./scan-schemas";
-import { issuesToErrors, type RecordError, type SyncResult, type SyncShot } from "./sync-schemas";
+import { issuesToErrors, type RecordError, type SyncResult, type SyncShot } from "~/contract/sync";
 import type { UploadedFile } from "~/utils/multipart.server";
 
 type Answer = { status: number; body: unknown };

@@ -8,8 +8,8 @@ import { auditLog, checkSessions, sensors, users } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, sensorIdInScope } from "~/models/scope.server";
-import { recomputeShotsForSensor } from "~/models/shots.server";
-import { certificateColumns, invalid, issuesToErrors, sensorSchema, stableStringify, type NotFound, type RegistryResult, type SensorBody } from "~/models/registry-schemas";
+import { recomputeShotsForSensor } from "~/models/recompute.server";
+import { certificateColumns, invalid, issuesToErrors, sensorSchema, stableStringify, type NotFound, type RegistryResult, type SensorBody } from "~/contract/registry";
 
 // ---------- shared by the registry models ----------
 /** Who is asking; null or "system" for the seed and command-line tools. */

@@ -5,7 +5,7 @@
 import { DEFAULT_RULE, referenceUncertaintyMm, type Rule, type ShotComputed } from "~/domain";
 import type { shots } from "~/db/schema";
 import { computeShotRecordWith, SERVER_WORDING, type RecordError, type ShotRegistry, type SyncShot } from "~/contract";
-import type { RegistryContext, SessionFacts, TapeEntry } from "./shots.server";
+import type { RegistryContext, SessionFacts, TapeEntry } from "./registry-context.server";
 
 /** The stored computed columns: the ranging core's per-shot figures plus the shot's target and air facts. */
 export type ComputedColumns = Pick<ShotComputed, "referenceM" | "rangeM" | "errorMm" | "toleranceMm" | "limitMm" | "within" | "repeatabilityMm" | "readingsCount" | "wrap" | "unambiguousM"> & {

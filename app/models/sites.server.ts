@@ -5,11 +5,11 @@ import type { GeoPoint, GridPoint } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { checkSessions, sites, stations, targets } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import { invalid, issuesToErrors, siteSchema, stableStringify, type FieldError, type NotFound, type RegistryResult, type SiteBody } from "~/models/registry-schemas";
+import { invalid, issuesToErrors, siteSchema, stableStringify, type FieldError, type NotFound, type RegistryResult, type SiteBody } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, siteIdInScope } from "~/models/scope.server";
-import { recomputeShotsForSite } from "~/models/shots.server";
+import { recomputeShotsForSite } from "~/models/recompute.server";
 
 export type SiteRow = typeof sites.$inferSelect;
 export type TargetRow = typeof targets.$inferSelect;

@@ -6,7 +6,7 @@
 import { DomainError } from "~/domain";
 import type { shots } from "~/db/schema";
 import type { ComputedColumns, ShotOutcome } from "./shot-record";
-import type { RegistryContext, SessionFacts } from "./shots.server";
+import type { RegistryContext, SessionFacts } from "./registry-context.server";
 import {
   canonicalJson,
   issuesToErrors,
@@ -20,7 +20,7 @@ import {
   type SyncResult,
   type SyncSession,
   type SyncShot,
-} from "./sync-schemas";
+} from "~/contract/sync";
 
 export type Rec<T> = { id: string; value: T | null; raw: string; errors: RecordError[] | null };
 export type ShotRow = typeof shots.$inferInsert;

@@ -12,7 +12,7 @@ import { auditLog, checkSessions, projectEdms, projectTapes, shots } from "~/db/
 import { eq } from "drizzle-orm";
 import { airState, DomainError } from "~/domain";
 import { computeShotRecord, holdingProjectsQuery, inIds, pairKey, registryContextOf, registryQueries, shotInsertRow, type SessionFacts } from "./shots.server";
-import { type RecordError, type SyncResult, type SyncSession, type SyncShot } from "./sync-schemas";
+import { type RecordError, type SyncResult, type SyncSession, type SyncShot } from "~/contract/sync";
 import { syncPool } from "./sync-pool.server";
 import { conflict, internalErrors, shotStage, validateRecords, type Rec, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
 

@@ -7,7 +7,7 @@ import { auditLog, checkSessions, edms, projectEdms, projectTapes, projects, sho
 import type { Actor } from "~/models/actor";
 import { tapeListedInScope, projectColInScope, scopeOf } from "~/models/scope.server";
 import { audit } from "~/models/audit.server";
-import { certificateColumns, invalid, issuesToErrors, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/models/registry-schemas";
+import { certificateColumns, invalid, issuesToErrors, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/contract/registry";
 import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
 import { recomputeShotsForTape } from "~/models/shots.server";
 

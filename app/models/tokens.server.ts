@@ -1,6 +1,7 @@
 // API tokens for machines (post-processing pipelines, scripts). A token acts as its user;
 // only its SHA-256 hash is stored, the value is shown once.
 import { and, desc, eq, isNull } from "drizzle-orm";
+import { AppError } from "~/contract/errors";
 import { createApiToken } from "~/auth/tokens.server";
 import { getDb } from "~/db/client.server";
 import { apiTokens, users } from "~/db/schema";
@@ -8,7 +9,7 @@ import { audit } from "~/models/audit.server";
 import type { Actor } from "~/models/users.server";
 
 function forbidUnlessAdmin(actor: Actor) {
-  if (actor.role !== "admin") throw Response.json({ error: "Only an admin may manage API tokens." }, { status: 403 });
+  if (actor.role !== "admin") throw new AppError(403, "Only an admin may manage API tokens.");
 }
 
 export async function listTokens(actor: Actor, opts: { includeRevoked?: boolean } = {}) {

@@ -1,6 +1,7 @@
 // People and their sign-in state. Admin changes take who is asking, check the role again
 // (defence in depth behind the route guard) and land in the audit trail.
 import { and, asc, desc, eq, inArray, isNull, sql } from "drizzle-orm";
+import { AppError } from "~/contract/errors";
 import { getDb } from "~/db/client.server";
 import { apiTokens, authSessions, ROLES, users, type Role } from "~/db/schema";
 import { audit } from "~/models/audit.server";
@@ -14,16 +15,7 @@ export function normalizeEmail(email: string) {
 }
 
 function forbidUnlessAdmin(actor: Actor) {
-  if (actor.role !== "admin") throw Response.json({ error: "Only an admin may manage users." }, { status: 403 });
-}
-
-export class UserError extends Error {
-  constructor(
-    message: string,
-    readonly field?: string,
-  ) {
-    super(message);
-  }
+  if (actor.role !== "admin") throw new AppError(403, "Only an admin may manage users.");
 }
 
 /** Active users' addresses with any of these roles (for notices such as a sensor sign-off). */
@@ -132,7 +124,7 @@ async function activeAdminCount() {
 export async function inviteUser(actor: Actor, input: { email: string; name: string; role: Role }) {
   forbidUnlessAdmin(actor);
   const email = normalizeEmail(input.email);
-  if (await findUserByEmail(email)) throw new UserError("A user with this e-mail address already exists.", "email");
+  if (await findUserByEmail(email)) throw new AppError(400, "A user with this e-mail address already exists.", "email");
   const [row] = await getDb().insert(users).values({ email, name: input.name.trim(), role: input.role, invitedBy: actor.id }).returning({ id: users.id });
   await audit(actor.id, "user.invite", "user", row!.id, { email, role: input.role, name: input.name.trim() });
   const mail = await sendTemplateMail("invitation", email, {
@@ -146,12 +138,12 @@ export async function inviteUser(actor: Actor, input: { email: string; name: str
 
 export async function changeRole(actor: Actor, userId: string, role: Role) {
   forbidUnlessAdmin(actor);
-  if (!ROLES.includes(role)) throw new UserError("Pick one of the four roles.", "role");
+  if (!ROLES.includes(role)) throw new AppError(400, "Pick one of the four roles.", "role");
   const [user] = await getDb().select().from(users).where(eq(users.id, userId)).limit(1);
   if (!user) return null;
   if (user.role === role) return user;
   if (user.role === "admin" && user.active && (await activeAdminCount()) <= 1) {
-    throw new UserError("This is the last active admin: make another admin first.", "role");
+    throw new AppError(400, "This is the last active admin: make another admin first.", "role");
   }
   await getDb().update(users).set({ role }).where(eq(users.id, userId));
   await audit(actor.id, "user.role", "user", userId, { from: user.role, to: role });
@@ -164,7 +156,7 @@ export async function setUserActive(actor: Actor, userId: string, active: boolea
   const [user] = await db.select().from(users).where(eq(users.id, userId)).limit(1);
   if (!user) return null;
   if (!active && user.role === "admin" && user.active && (await activeAdminCount()) <= 1) {
-    throw new UserError("This is the last active admin: make another admin first.");
+    throw new AppError(400, "This is the last active admin: make another admin first.");
   }
   if (user.active === active) return user;
   await db.update(users).set({ active }).where(eq(users.id, userId));

@@ -5,7 +5,7 @@ import { ADMIN, ALL } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
-import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/contract/registry";
 import { registryHistory } from "~/models/sensors.server";
 import { getEdmFor, restoreEdm, retireEdm, updateEdm } from "~/models/edms.server";
 import { invariantResponse } from "~/utils/http";

@@ -3,7 +3,7 @@ import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react"
 import { Form, useNavigation } from "react-router";
 import { CertificateFields, certificateDefaults } from "~/components/certificate";
 import { Field, FormSummary, NumberField, TextArea, countFieldErrors } from "~/components/forms";
-import { edmSchema, parseRegistryForm, type EdmInput } from "~/models/registry-schemas";
+import { edmSchema, parseRegistryForm, type EdmInput } from "~/contract/registry";
 
 export function edmDefaults(r?: {
   label: string;

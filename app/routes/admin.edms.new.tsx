@@ -5,7 +5,7 @@ import { ADMIN } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RegistryNav } from "~/components/forms";
-import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/contract/registry";
 import { createEdm } from "~/models/edms.server";
 import { EdmForm, edmDefaults } from "./admin.edms.form";
 

@@ -6,7 +6,7 @@ import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { FlashNotice, RegistryNav } from "~/components/forms";
 import { listEdms } from "~/models/edms.server";
-import { calibrationState } from "~/models/registry-schemas";
+import { calibrationState } from "~/contract/registry";
 
 export const meta: Route.MetaFunction = () => [{ title: "Reference EDMs — Shotbook" }];
 

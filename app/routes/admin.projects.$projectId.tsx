@@ -6,13 +6,14 @@ import type { Route } from "./+types/admin.projects.$projectId";
 import { ADMIN } from "~/auth/access";
 import { setFlash, takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
+import { formError } from "~/http/app-error.server";
 import { FlashNotice, RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
 import { ProjectMembers } from "~/components/members";
 import { addMemberSchema, inviteMemberSchema } from "~/components/member-schemas";
 import { addMember, inviteMember, listMembers, removeMember, usersByEmail } from "~/models/members.server";
-import { listUsers, normalizeEmail, UserError } from "~/models/users.server";
+import { listUsers, normalizeEmail } from "~/models/users.server";
 import { getProject, projectChoices, restoreProject, retireProject, updateProject } from "~/models/projects.server";
-import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/contract/registry";
 import { registryHistory } from "~/models/sensors.server";
 import { invariantResponse } from "~/utils/http";
 import { ProjectForm, projectDefaults } from "./admin.projects.form";
@@ -76,9 +77,9 @@ async function memberAction(request: Request, user: { id: string; role: "admin";
         ? back("ok", `Invitation sent to ${email}; they are a member of this project.`)
         : back("warn", `${email} was added to this project, but the invitation e-mail could not be sent now; it will be retried. They can sign in at /login anyway.`);
     } catch (e) {
-      if (!(e instanceof UserError)) throw e;
-      const message = e.field === "email" ? `${e.message} Add them with “Add a person who can sign in”.` : e.message;
-      return fail(400, { inviteResult: submission.reply(e.field ? { fieldErrors: { [e.field]: [message] } } : { formErrors: [message] }) });
+      const err = formError(e);
+      const message = err.field === "email" ? `${err.message} Add them with “Add a person who can sign in”.` : err.message;
+      return fail(400, { inviteResult: submission.reply(err.field ? { fieldErrors: { [err.field]: [message] } } : { formErrors: [message] }) });
     }
   }
   return null;

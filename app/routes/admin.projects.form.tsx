@@ -4,7 +4,7 @@ import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react"
 import { Form, useNavigation } from "react-router";
 import { Checkbox, CheckboxGroup, Field, FormSummary, NumberField, RadioGroup, TextArea, countFieldErrors } from "~/components/forms";
 import { DEFAULT_RULE, EDITION2_PRESET } from "~/domain";
-import { parseRegistryForm, projectSchema, type ProjectInput } from "~/models/registry-schemas";
+import { parseRegistryForm, projectSchema, type ProjectInput } from "~/contract/registry";
 
 export type ProjectChoices = {
   sensors: { id: string; label: string; serial: string; retiredAt: string | null }[];

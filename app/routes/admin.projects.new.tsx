@@ -6,7 +6,7 @@ import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RegistryNav } from "~/components/forms";
 import { createProject, projectChoices } from "~/models/projects.server";
-import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, projectSchema, toConformFieldErrors } from "~/contract/registry";
 import { ProjectForm, projectDefaults } from "./admin.projects.form";
 import { readFormCapped } from "~/http/body.server";
 

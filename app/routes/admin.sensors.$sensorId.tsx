@@ -5,7 +5,7 @@ import { ADMIN } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
-import { parseRegistryForm, sensorSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, sensorSchema, toConformFieldErrors } from "~/contract/registry";
 import { getSensor, registryHistory, restoreSensor, retireSensor, sensorUsage, updateSensor } from "~/models/sensors.server";
 import { invariantResponse } from "~/utils/http";
 import { SensorForm, sensorDefaults } from "./admin.sensors.form";

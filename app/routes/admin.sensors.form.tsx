@@ -3,7 +3,7 @@ import { getFormProps, useForm, type FieldMetadata, type SubmissionResult } from
 import { Form, useNavigation } from "react-router";
 import { CertificateFields, certificateDefaults } from "~/components/certificate";
 import { Field, FormSummary, NumberField, RadioGroup, Select, TextArea, countFieldErrors } from "~/components/forms";
-import { formatTolerance, LASER_CLASS_OPTIONS, parseRegistryForm, sensorSchema, SENSOR_KIND_LABEL, type SensorInput } from "~/models/registry-schemas";
+import { formatTolerance, LASER_CLASS_OPTIONS, parseRegistryForm, sensorSchema, SENSOR_KIND_LABEL, type SensorInput } from "~/contract/registry";
 
 export type SensorFormDefaults = Record<string, unknown>;
 

@@ -5,7 +5,7 @@ import { ADMIN } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RegistryNav } from "~/components/forms";
-import { parseRegistryForm, sensorSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, sensorSchema, toConformFieldErrors } from "~/contract/registry";
 import { createSensor } from "~/models/sensors.server";
 import { SensorForm, sensorDefaults } from "./admin.sensors.form";
 import { readFormCapped } from "~/http/body.server";

@@ -6,7 +6,7 @@ import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { FlashNotice, RegistryNav } from "~/components/forms";
 import { listSensors } from "~/models/sensors.server";
-import { calibrationState, formatTolerance, SENSOR_KIND_LABEL } from "~/models/registry-schemas";
+import { calibrationState, formatTolerance, SENSOR_KIND_LABEL } from "~/contract/registry";
 
 export const meta: Route.MetaFunction = () => [{ title: "Sensors — Shotbook" }];
 

@@ -6,7 +6,7 @@ import { ADMIN } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
-import { parseRegistryForm, siteSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, siteSchema, toConformFieldErrors } from "~/contract/registry";
 import { registryHistory } from "~/models/sensors.server";
 import { getSite, restoreSite, retireSite, siteUsage, updateSite } from "~/models/sites.server";
 import { invariantResponse } from "~/utils/http";

@@ -3,7 +3,7 @@
 import { getFormProps, getInputProps, useForm, type FieldMetadata, type SubmissionResult } from "@conform-to/react";
 import { Form, useNavigation } from "react-router";
 import { Checkbox, Field, FieldErrors, FormSummary, NumberField, TextArea, countFieldErrors } from "~/components/forms";
-import { parseRegistryForm, siteSchema, type SiteInput } from "~/models/registry-schemas";
+import { parseRegistryForm, siteSchema, type SiteInput } from "~/contract/registry";
 
 type Pos = { gridE: number | null; gridN: number | null; gridH: number | null; lat: number | null; lon: number | null; h: number | null };
 const s = (v: number | null | undefined) => (v === null || v === undefined ? "" : String(v));

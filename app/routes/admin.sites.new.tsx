@@ -5,7 +5,7 @@ import { ADMIN } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RegistryNav } from "~/components/forms";
-import { parseRegistryForm, siteSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, siteSchema, toConformFieldErrors } from "~/contract/registry";
 import { createSite } from "~/models/sites.server";
 import { SiteForm, siteDefaults } from "./admin.sites.form";
 import { BODY_LIMITS, readFormCapped } from "~/http/body.server";

@@ -3,7 +3,7 @@ import { getFormProps, useForm, type SubmissionResult } from "@conform-to/react"
 import { Form, useNavigation } from "react-router";
 import { CertificateFields, certificateDefaults } from "~/components/certificate";
 import { Field, FormSummary, NumberField, TextArea, countFieldErrors } from "~/components/forms";
-import { parseRegistryForm, tapeSchema, type TapeInput } from "~/models/registry-schemas";
+import { parseRegistryForm, tapeSchema, type TapeInput } from "~/contract/registry";
 
 export function tapeDefaults(r?: {
   label: string;

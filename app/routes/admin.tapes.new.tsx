@@ -5,7 +5,7 @@ import { ADMIN } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RegistryNav } from "~/components/forms";
-import { parseRegistryForm, tapeSchema, toConformFieldErrors } from "~/models/registry-schemas";
+import { parseRegistryForm, tapeSchema, toConformFieldErrors } from "~/contract/registry";
 import { createTape } from "~/models/tapes.server";
 import { TapeForm, tapeDefaults } from "./admin.tapes.form";
 import { readFormCapped } from "~/http/body.server";

@@ -6,6 +6,7 @@ import type { Route } from "./+types/admin.tokens";
 import { ADMIN } from "~/auth/access";
 import { setFlash, takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
+import { answering } from "~/http/app-error.server";
 import { tokenSchema } from "~/auth/schemas";
 import { formatWhen, Notice } from "~/auth/ui";
 import { createTokenFor, listTokens, revokeToken } from "~/models/tokens.server";
@@ -17,7 +18,7 @@ export const meta: Route.MetaFunction = () => [{ title: "API tokens â€” Admin â€
 export async function loader({ request }: Route.LoaderArgs) {
   const actor = await requireRole(request, ADMIN);
   const { flash, headers } = await takeFlash(request);
-  const [tokens, users] = await Promise.all([listTokens(actor), listUsers(actor)]);
+  const [tokens, users] = await answering(() => Promise.all([listTokens(actor), listUsers(actor)]));
   return data({ tokens, users: users.filter((u) => u.active).map((u) => ({ id: u.id, email: u.email, role: u.role })), flash }, { headers });
 }
 

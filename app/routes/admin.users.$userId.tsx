@@ -6,9 +6,10 @@ import type { Route } from "./+types/admin.users.$userId";
 import { ADMIN } from "~/auth/access";
 import { setFlash, takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
+import { answering, formError } from "~/http/app-error.server";
 import { ROLE_OPTIONS } from "~/auth/schemas";
 import { formatWhen, Notice, ROLE_TEXT } from "~/auth/ui";
-import { changeRole, getUserDetail, revokeSessions, setUserActive, UserError } from "~/models/users.server";
+import { changeRole, getUserDetail, revokeSessions, setUserActive } from "~/models/users.server";
 import { readFormCapped } from "~/http/body.server";
 import { UserProjects } from "~/components/members";
 import { joinProjectSchema } from "~/components/member-schemas";
@@ -18,7 +19,7 @@ export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.detail.
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const actor = await requireRole(request, ADMIN);
-  const detail = await getUserDetail(actor, params.userId);
+  const detail = await answering(() => getUserDetail(actor, params.userId));
   if (!detail) throw data("There is no user with this id.", { status: 404 });
   const [{ flash, headers }, memberships, joinable] = await Promise.all([takeFlash(request), projectsOfUser(actor, params.userId), projectsToJoin(actor, params.userId)]);
   return data({ detail, flash, isMe: actor.id === params.userId, memberships: memberships ?? [], joinable }, { headers });
@@ -81,8 +82,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     }
     return redirect(`/admin/users/${id}`, { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
   } catch (e) {
-    if (e instanceof UserError) return data({ error: e.message }, { status: 400 });
-    throw e;
+    return data({ error: formError(e).message }, { status: 400 });
   }
 }
 

@@ -5,9 +5,10 @@ import type { Route } from "./+types/admin.users";
 import { ADMIN } from "~/auth/access";
 import { setFlash, takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
+import { answering, formError } from "~/http/app-error.server";
 import { inviteSchema, ROLE_OPTIONS } from "~/auth/schemas";
 import { formatWhen, Notice, ROLE_TEXT } from "~/auth/ui";
-import { inviteUser, listUsers, normalizeEmail, UserError } from "~/models/users.server";
+import { inviteUser, listUsers, normalizeEmail } from "~/models/users.server";
 import { readFormCapped } from "~/http/body.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Users — Admin — Shotbook" }];
@@ -15,7 +16,7 @@ export const meta: Route.MetaFunction = () => [{ title: "Users — Admin — Sho
 export async function loader({ request }: Route.LoaderArgs) {
   const actor = await requireRole(request, ADMIN);
   const { flash, headers } = await takeFlash(request);
-  return data({ users: await listUsers(actor), flash, me: actor.id }, { headers });
+  return data({ users: await answering(() => listUsers(actor)), flash, me: actor.id }, { headers });
 }
 
 export async function action({ request }: Route.ActionArgs) {
@@ -28,10 +29,8 @@ export async function action({ request }: Route.ActionArgs) {
     const text = mailSent ? `Invitation sent to ${email}.` : `${email} was added, but the invitation e-mail could not be sent now; it will be retried. They can sign in at /login anyway.`;
     return redirect("/admin/users", { headers: { "Set-Cookie": await setFlash(request, { kind: mailSent ? "ok" : "warn", text }) } });
   } catch (e) {
-    if (e instanceof UserError) {
-      return data({ result: submission.reply(e.field ? { fieldErrors: { [e.field]: [e.message] } } : { formErrors: [e.message] }) }, { status: 400 });
-    }
-    throw e;
+    const err = formError(e);
+    return data({ result: submission.reply(err.field ? { fieldErrors: { [err.field]: [err.message] } } : { formErrors: [err.message] }) }, { status: 400 });
   }
 }
 

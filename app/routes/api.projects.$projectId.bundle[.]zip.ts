@@ -2,7 +2,7 @@
 // bundle of the project's current report version — shots.csv, summary.csv, report.json and the
 // photos — as one zip, streamed. 404 outside the reader's projects.
 import { requireApiUser } from "~/auth/guards.server";
-import { projectBundle } from "~/models/project-report.server";
+import { projectBundle } from "~/models/project-report-downloads.server";
 import type { Route } from "./+types/api.projects.$projectId.bundle[.]zip";
 
 export async function loader({ request, params }: Route.LoaderArgs) {

@@ -2,7 +2,7 @@
 // project's located check-shots and sites as a GeoJSON FeatureCollection. 404 outside the
 // reader's projects.
 import { requireApiUser } from "~/auth/guards.server";
-import { projectGeoJson } from "~/models/project-report.server";
+import { projectGeoJson } from "~/models/project-report-downloads.server";
 import type { Route } from "./+types/api.projects.$projectId.shots[.]geojson";
 
 export async function loader({ request, params }: Route.LoaderArgs) {

@@ -7,14 +7,14 @@ import type { Route } from "./+types/review.projects.$projectId.report";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
 import { currentProjectReport, listProjectReportVersions, projectReportVersion } from "~/models/project-report.server";
-import { accuracyStatement, laserCaution, ruleInWords, type ProjectReportSensor } from "~/domain";
-import { BandTable, CoverageNote, FiguresGrid, TestsTable } from "~/components/review/report-figures";
-import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
-import { DriftChart } from "~/components/review/charts";
+import { accuracyStatement, laserCaution, ruleInWords } from "~/domain";
+
 import { mm, mmSigned, num } from "~/components/review/format";
 import { LocalTime } from "~/components/review/local-time";
-import { VerdictBadge, VerdictShape } from "~/components/verdict-badge";
-import type { ReportJson } from "~/components/review/types";
+import { VerdictBadge } from "~/components/verdict-badge";
+
+import { printSheetCss } from "~/components/review/print-sheet";
+import { ProjectSensorSection } from "~/components/review/project-sensor-section";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: data ? `${data.shown.number} — ${data.shown.content.project.name} — verification report` : "Project verification report" }];
 
@@ -35,121 +35,15 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   return { shown: rest, latest: current.version, versions, isAdmin: user.role === "admin" };
 }
 
-/** A CSS string literal (for the running footer's content). */
-const cssString = (t: string) =>
-  `"${t
-    .replace(/[\\"]/g, (c) => `\\${c}`)
-    .replace(/[\r\n]+/g, " ")
-    .replace(/[<>]/g, "")}"`;
-
-// The report is paper: always the daylight colours, whatever theme the screen uses (the charts
-// take their colours from the sheet when drawn, so they print black on white too). Page numbers
-// come from the page-margin boxes of CSS Paged Media, as on the sensor print page
-// (review.sensors.$sensorId.print.tsx): Chromium fills counter(page) and counter(pages) there.
-function printCss(footer: string) {
-  return `
-.print-paper { --bg: #ffffff; --surface: #ffffff; --fg: #000000; --muted: #333a45; --border: #555b66; --accent: #0b4fb3; --pass: #0a6b2d; --fail: #b3001b; --warn: #8a4b00; background: var(--bg); color: var(--fg); padding: 16px; border-radius: 8px; }
-.print-paper { width: 186mm; max-width: 100%; box-sizing: content-box; }
-.print-paper .hash { font-family: ui-monospace, "DejaVu Sans Mono", monospace; overflow-wrap: anywhere; }
-@page {
-  size: A4;
-  margin: 14mm 12mm 16mm;
-  @bottom-left { content: ${cssString(footer)}; font-family: "Atkinson Hyperlegible", system-ui, sans-serif; font-size: 8.5pt; color: #333a45; }
-  @bottom-right { content: "page " counter(page) " of " counter(pages); font-family: "Atkinson Hyperlegible", system-ui, sans-serif; font-size: 9pt; font-weight: bold; color: #000; }
-}
-@media print {
-  .print-page { font-size: 10.5pt; padding: 0; }
-  .print-page h1 { font-size: 18pt; }
-  .print-page h2 { font-size: 14pt; break-after: avoid; }
+/** The shared sheet (print-sheet.ts) with this document's own rules. */
+const pageCss = (footer: string) =>
+  printSheetCss(footer, {
+    screen: `.print-paper .hash { font-family: ui-monospace, "DejaVu Sans Mono", monospace; overflow-wrap: anywhere; }`,
+    print: `  .print-page h2 { font-size: 14pt; break-after: avoid; }
   .print-page h3 { font-size: 12pt; break-after: avoid; }
   .print-page figure, .print-page tr, .print-page dl > div, .print-page li, .print-page .keep { break-inside: avoid; }
-  .print-page .card { border-color: #000; background: #fff; }
-  .print-page.space-y-6 > :not(:last-child) { margin-bottom: 1rem; }
-  main#main { max-width: none; padding: 0; }
-}
-`;
-}
-
-/** The report API's shape for the shared figure components (the per-shot rows are not part of the document). */
-function asReport(s: ProjectReportSensor, rule: Route.ComponentProps["loaderData"]["shown"]["content"]["rule"]): ReportJson {
-  return { ...s.figures!, sensorId: s.id, rule: { ...rule }, ruleProjectId: null, shots: [] } as unknown as ReportJson;
-}
-
-function SensorSection({ s, rule, sessionLabel }: { s: ProjectReportSensor; rule: Route.ComponentProps["loaderData"]["shown"]["content"]["rule"]; sessionLabel: (id: string) => string }) {
-  const f = s.figures;
-  const report = f ? asReport(s, rule) : null;
-  const biasLimit = f?.tests.find((t) => t.name === "bias")?.limit ?? s.toleranceMm;
-  return (
-    <section className="space-y-3 border-t-4 border-fg pt-3" data-testid="project-sensor" data-sensor={s.id} data-verdict={s.verdict}>
-      <div className="keep">
-        <h2 className="text-2xl font-bold">
-          {s.label} <span className="font-normal">· serial {s.serial}</span>
-        </h2>
-        <p>
-          {s.kind === "cw" ? "Continuous-wave (phase)" : "Pulsed"} sensor, {s.wavelengthNm} nm · tolerance ±({s.toleranceMm} mm + {s.tolerancePpm} ppm × D)
-          {s.calibrationDue ? ` · calibration due ${s.calibrationDue}` : ""}
-          {s.laserClass ? ` · laser class ${s.laserClass} (IEC 60825-1)` : " · laser class not recorded"}
-        </p>
-        <div className={`mt-2 rounded-lg border-4 ${s.verdict === "pass" ? "border-pass" : s.verdict === "fail" ? "border-fail" : "border-warn"} p-3`}>
-          <p className="text-2xl">
-            <VerdictBadge verdict={s.verdict} />
-          </p>
-          {s.why.length ? (
-            <ul className="mt-1 space-y-1">
-              {s.why.map((l) => (
-                <li key={l} className="flex items-start gap-2">
-                  <span className="mt-1 text-fail">
-                    <VerdictShape verdict="fail" size={14} />
-                  </span>
-                  <span>{l}</span>
-                </li>
-              ))}
-            </ul>
-          ) : (
-            <p className="mt-1">All four tests hold.</p>
-          )}
-        </div>
-      </div>
-      {report && f ? (
-        <>
-          <div className="keep">
-            <StatementPanel report={report} />
-          </div>
-          <div className="keep space-y-1">
-            <h3 className="text-lg font-bold">Tests</h3>
-            <TestsTable tests={f.tests} referenceInVerdict={rule.referenceInVerdict} />
-          </div>
-          <div className="space-y-1">
-            <h3 className="text-lg font-bold">Figures (mm unless stated)</h3>
-            <FiguresGrid report={report} />
-            <p className="text-sm">
-              Range error = sensor range − reference distance; positive reads long.{f.airDefaulted.length ? ` ${f.airDefaulted.length} session(s) used default air values for a missing reading.` : ""}
-            </p>
-          </div>
-          <div className="keep space-y-1">
-            <h3 className="text-lg font-bold">Bias per session</h3>
-            {f.drift.length ? <DriftChart drift={f.drift} biasLimitMm={biasLimit} legendBeside /> : <p>No sessions.</p>}
-          </div>
-          <div className="keep">
-            <BandTable title="By range band" rows={f.byRange} />
-          </div>
-          <div className="keep">
-            <BandTable title="By reflectance" rows={f.byReflectance} />
-          </div>
-          <div className="keep">
-            <CoverageNote coverage={f.coverage} />
-          </div>
-          <div className="keep space-y-1">
-            <h3 className="text-lg font-bold">Traceability (calibration certificates)</h3>
-            <TraceabilityPanel rows={f.traceability} sessionLabel={sessionLabel} />
-          </div>
-        </>
-      ) : (
-        <p data-testid="no-shots">No check-shots of this sensor on this project yet (the rule asks for at least {rule.minShots}).</p>
-      )}
-    </section>
-  );
-}
+  .print-page.space-y-6 > :not(:last-child) { margin-bottom: 1rem; }`,
+  });
 
 export default function ProjectReport({ loaderData }: Route.ComponentProps) {
   const { shown, latest, versions } = loaderData;
@@ -167,7 +61,7 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
   const laserClasses = [...new Set(c.sensors.map((s) => s.laserClass).filter((x): x is string => !!x))];
   return (
     <div className="space-y-4">
-      <style>{printCss(`Project verification report ${shown.number} · SHA-256 ${shortHash}… · ${c.project.name}`)}</style>
+      <style>{pageCss(`Project verification report ${shown.number} · SHA-256 ${shortHash}… · ${c.project.name}`)}</style>
       <nav className="no-print mx-auto flex max-w-[186mm] flex-wrap gap-2" aria-label="Report actions">
         <button type="button" className="btn" onClick={() => window.print()}>
           Print or save as PDF
@@ -183,7 +77,7 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
         </Link>
       </nav>
       <article className="print-page print-paper mx-auto space-y-6" data-testid="project-report" data-version={shown.version} data-sha256={shown.sha256} data-statement={rule.statement}>
-        <style>{printCss(`Project verification report ${shown.number} · SHA-256 ${shortHash}… · ${c.project.name}`)}</style>
+        <style>{pageCss(`Project verification report ${shown.number} · SHA-256 ${shortHash}… · ${c.project.name}`)}</style>
 
         {shown.version !== latest ? (
           <p role="status" className="rounded-lg border-4 border-warn p-3 font-bold" data-testid="superseded">
@@ -350,7 +244,7 @@ export default function ProjectReport({ loaderData }: Route.ComponentProps) {
         </section>
 
         {c.sensors.map((s) => (
-          <SensorSection key={s.id} s={s} rule={rule} sessionLabel={sessionLabel} />
+          <ProjectSensorSection key={s.id} s={s} rule={rule} sessionLabel={sessionLabel} />
         ))}
 
         <section className="space-y-1 border-t-4 border-fg pt-3" data-testid="exclusions">

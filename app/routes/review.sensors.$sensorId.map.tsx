@@ -5,7 +5,7 @@ import type { Route } from "./+types/review.sensors.$sensorId.map";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
 import { publicEnv } from "~/env.server";
-import { reviewSiteFeatures, sensorReviewHeader } from "~/models/signoffs.server";
+import { reviewSiteFeatures, sensorReviewHeader } from "~/models/review.server";
 import { autoCellSideM, DIVERGING, hexBins, scaleMaxMm } from "~/components/review/map-style";
 import { defaultSite, sessionSites, siteBounds, siteChoices, siteOfShot } from "~/components/review/map-sites";
 import { fetchAllShots } from "~/components/review/use-report";

@@ -2,7 +2,9 @@ import { useMemo } from "react";
 import type { Route } from "./+types/review.sensors.$sensorId.print";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
-import { listProjectsForFilter, listSignOffs, reportWithCells, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
+import { answering } from "~/http/app-error.server";
+import { listSignOffs } from "~/models/signoffs.server";
+import { listProjectsForFilter, reportWithCells, sensorReviewHeader, shotExtras } from "~/models/review.server";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
 import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
 import { laserCaution } from "~/domain";
@@ -11,6 +13,7 @@ import { DriftChart, ErrorVsDistanceChart, MatrixChart } from "~/components/revi
 import { worstCell } from "~/components/review/matrix";
 import { LocalTime } from "~/components/review/local-time";
 import { VerdictBadge } from "~/components/verdict-badge";
+import { printSheetCss } from "~/components/review/print-sheet";
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `Range verification report — ${data?.sensor.label ?? "sensor"}` }];
 
@@ -25,12 +28,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const to = url.searchParams.get("to");
   const projectId = url.searchParams.get("project") || null;
   const q = { from: from && DATE.test(from) ? from : null, to: to && DATE.test(to) ? to : null, sessionIds: url.searchParams.getAll("session"), projectId };
-  const [rc, signOffs, projects, extras] = await Promise.all([
-    reportWithCells(user, params.sensorId, q),
-    listSignOffs(user, params.sensorId, 5),
-    listProjectsForFilter(user),
-    shotExtras(user, params.sensorId),
-  ]);
+  const [rc, signOffs, projects, extras] = await answering(() =>
+    Promise.all([reportWithCells(user, params.sensorId, q), listSignOffs(user, params.sensorId, 5), listProjectsForFilter(user), shotExtras(user, params.sensorId)]),
+  );
   if (!rc) throw new Response("There is no sensor with this id.", { status: 404 });
   const { report, cells } = rc;
   const project = projects.find((p) => p.id === projectId) ?? null;
@@ -38,40 +38,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   return { ...head, report, cells, worst: worstCell(cells), signOffs, project, exclusions, query: q, generatedAt: new Date().toISOString(), by: user.name || user.email };
 }
 
-/** A CSS string literal (for the running footer's content). */
-const cssString = (t: string) =>
-  `"${t
-    .replace(/[\\"]/g, (c) => `\\${c}`)
-    .replace(/[\r\n]+/g, " ")
-    .replace(/[<>]/g, "")}"`;
-
-// The report is paper: always the daylight colours, whatever theme the screen uses. Page numbers
-// come from the page-margin boxes of CSS Paged Media (counter(page), counter(pages)); Chromium
-// draws them since version 131, in print preview and in print-to-PDF alike.
-function printCss(footer: string) {
-  return `
-.print-paper { --bg: #ffffff; --surface: #ffffff; --fg: #000000; --muted: #333a45; --border: #555b66; --accent: #0b4fb3; --pass: #0a6b2d; --fail: #b3001b; --warn: #8a4b00; background: var(--bg); color: var(--fg); padding: 16px; border-radius: 8px; }
-/* on screen the sheet is exactly as wide as the printed text block (A4 less the side margins), so the
-   charts, drawn once in the browser, already have their paper width when the page is printed */
-.print-paper { width: 186mm; max-width: 100%; box-sizing: content-box; }
-@page {
-  size: A4;
-  margin: 14mm 12mm 16mm;
-  @bottom-left { content: ${cssString(footer)}; font-family: "Atkinson Hyperlegible", system-ui, sans-serif; font-size: 8.5pt; color: #333a45; }
-  @bottom-right { content: "page " counter(page) " of " counter(pages); font-family: "Atkinson Hyperlegible", system-ui, sans-serif; font-size: 9pt; font-weight: bold; color: #000; }
-}
-@media print {
-  .print-page { font-size: 10.5pt; padding: 0; }
-  .print-page h1 { font-size: 18pt; }
-  .print-page h2 { font-size: 13pt; break-after: avoid; }
-  /* sections may run on over a page (no half-empty pages); what must stay whole stays whole */
+/** The shared sheet (print-sheet.ts) with this page's own rules. */
+const pageCss = (footer: string) =>
+  printSheetCss(footer, {
+    // sections may run on over a page (no half-empty pages); what must stay whole stays whole
+    print: `  .print-page h2 { font-size: 13pt; break-after: avoid; }
   .print-page figure, .print-page tr, .print-page table, .print-page dl > div, .print-page li, .print-page .keep { break-inside: avoid; }
-  .print-page .card { border-color: #000; background: #fff; }
-  .print-page.space-y-5 > :not(:last-child) { margin-bottom: 0.9rem; }
-  main#main { max-width: none; padding: 0; }
-}
-`;
-}
+  .print-page.space-y-5 > :not(:last-child) { margin-bottom: 0.9rem; }`,
+  });
 
 export default function PrintReport({ loaderData }: Route.ComponentProps) {
   const { sensor, sessions, report, cells, worst, signOffs, project, exclusions, query, generatedAt, by } = loaderData;
@@ -81,7 +55,7 @@ export default function PrintReport({ loaderData }: Route.ComponentProps) {
   const last = signOffs[0];
   return (
     <article className="print-page print-paper mx-auto space-y-5" data-testid="print-report">
-      <style>{printCss(`Range verification report · ${sensor.label} · serial ${sensor.serial}`)}</style>
+      <style>{pageCss(`Range verification report · ${sensor.label} · serial ${sensor.serial}`)}</style>
       <div className="no-print flex flex-wrap gap-2">
         <button type="button" className="btn" onClick={() => window.print()}>
           Print or save as PDF

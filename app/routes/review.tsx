@@ -3,7 +3,8 @@ import { reportProjects } from "~/models/project-report.server";
 import type { Route } from "./+types/review";
 import { ALL } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
-import { listProjectsForFilter, reviewOverview } from "~/models/signoffs.server";
+import { answering } from "~/http/app-error.server";
+import { listProjectsForFilter, reviewOverview } from "~/models/review.server";
 import { VerdictBadge } from "~/components/verdict-badge";
 import { BiasTrace } from "~/components/review/sparkline";
 import { dateOnly, mm, mmSigned, TEST_WORDS } from "~/components/review/format";
@@ -35,7 +36,7 @@ export function parseFilters(url: URL) {
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireRole(request, ALL);
   const filters = parseFilters(new URL(request.url));
-  const [rows, projects, reportList] = await Promise.all([reviewOverview(user, filters), listProjectsForFilter(user), reportProjects(user)]);
+  const [rows, projects, reportList] = await answering(() => Promise.all([reviewOverview(user, filters), listProjectsForFilter(user), reportProjects(user)]));
   return { rows, projects, reportList, filters, canImport: user.role !== "viewer", today: new Date().toISOString().slice(0, 10) };
 }
 

@@ -36,7 +36,7 @@ import { ingestSync } from "~/models/sync.server";
 import { createTape } from "~/models/tapes.server";
 import { createEdm } from "~/models/edms.server";
 import { upsertUserFromCli } from "~/models/users.server";
-import type { SyncResult } from "~/models/sync-schemas";
+import type { SyncResult } from "~/contract/sync";
 import { buildDemoScenario, DEMO_IDS, DEMO_USERS, type DemoScenario, type DemoUser } from "./scenario";
 
 export type SeedSummary = {

@@ -7,8 +7,9 @@ import { mkdtempSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { afterAll, beforeAll, beforeEach, expect, test } from "vitest";
-import type { Browser, BrowserContext, Locator, Page } from "playwright-core";
-import { launchBrowser, launchTablet, newContext, signInAs, useServerEnv } from "./helpers";
+import type { Browser, Page } from "playwright-core";
+import { launchBrowser, launchTablet, newContext, signInAs } from "./helpers";
+import { drained, inViewport, openReady, queuedShotCount, serverHasSession, smallTargets, watch } from "./field-tablet-helpers";
 import { fieldWorld, serverShotCount, type FieldWorld } from "./field-fixtures";
 import { startNetProxy, type NetProxy } from "../support/net-proxy";
 
@@ -29,21 +30,22 @@ afterAll(async () => {
   await net?.close();
 });
 
-function watch(page: Page) {
-  page.on("pageerror", (e) => console.warn("pageerror:", e.message));
-  if (process.env.DEBUG_FIELD) {
-    page.on("response", (r) => r.status() >= 400 && console.warn("response", r.status(), r.url()));
-    page.on("console", (m) => console.warn("console", m.type(), m.text()));
-  }
+const LANDSCAPE = { width: 1280, height: 800 };
+
+/** The repeated start of these tests: a crew member signed in on a new tablet, /field open and ready offline. */
+async function crewTablet(viewport?: { width: number; height: number }) {
+  const context = await newContext(browser, viewport ? { viewport } : undefined);
+  await signInAs(context, "crew@e2e.test");
+  return { context, page: await openReady(context) };
 }
 
-/** Opens /field online and waits for the header's own "Ready to work offline" (nothing hidden). */
-async function openReady(context: BrowserContext): Promise<Page> {
-  const page = await context.newPage();
-  watch(page);
-  await page.goto("/field");
-  await page.locator('[data-testid="offline-ready"][data-ready="true"]').waitFor({ timeout: 30_000 });
-  return page;
+/** One shot on an EDM reference: the site's target n, one sensor range, saved on the tablet. */
+async function saveEdmShot(page: Page, target: number, rangeM: string) {
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[target]!.id);
+  await page.getByLabel("EDM", { exact: true }).check();
+  await page.getByLabel("Sensor range (m)").fill(rangeM);
+  await page.getByRole("button", { name: "Save shot" }).click();
+  await page.getByText("Saved on this tablet").waitFor();
 }
 
 async function startSessionUi(page: Page) {
@@ -53,44 +55,6 @@ async function startSessionUi(page: Page) {
   await page.getByRole("button", { name: "Start session" }).click();
   await page.waitForURL(/\/field\/session\/[0-9a-f-]{36}$/);
   return page.url().split("/").pop()!;
-}
-
-/** Waits for an empty outbox; on a timeout, says what the tablet thought (reach, sync status). */
-async function drained(page: Page, timeout = 30_000) {
-  try {
-    await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout });
-  } catch (e) {
-    const st = await page.evaluate(async () => ({
-      reach: document.querySelector("[data-reach]")?.getAttribute("data-reach"),
-      summary: document.querySelector('[data-testid="outbox-summary"]')?.textContent,
-      status: await (window.shotbookField as { syncStatus(): Promise<unknown> }).syncStatus(),
-      locks: await navigator.locks.query(),
-    }));
-    throw new Error(`outbox not drained: ${JSON.stringify(st)}`, { cause: e });
-  }
-}
-
-async function queuedShotCount(page: Page, sessionId: string) {
-  return page.evaluate(async (id) => {
-    const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { count(): Promise<number> } } } } }).db;
-    return db.shots.where("sessionId").equals(id).count();
-  }, sessionId);
-}
-
-async function serverHasSession(id: string) {
-  useServerEnv();
-  const { getDb } = await import("~/db/client.server");
-  const { checkSessions } = await import("~/db/schema");
-  const { eq } = await import("drizzle-orm");
-  const rows = await getDb().select({ id: checkSessions.id }).from(checkSessions).where(eq(checkSessions.id, id));
-  return rows.length > 0;
-}
-
-async function inViewport(page: Page, locator: Locator) {
-  const box = await locator.boundingBox();
-  const vp = page.viewportSize()!;
-  expect(box, "element is laid out").not.toBeNull();
-  return { box: box!, inside: box!.y >= 0 && box!.x >= 0 && box!.y + box!.height <= vp.height && box!.x + box!.width <= vp.width };
 }
 
 test("a quick first visit is enough: signed in, Field open a few seconds, browser closed, network cut, reopened — the field screens work", async () => {
@@ -156,9 +120,7 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
 }, 120_000);
 
 test("editing a queued shot keeps the half-typed new shot, and saving the edit goes back to the session", async () => {
-  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
-  await signInAs(context, "crew@e2e.test");
-  const page = await openReady(context);
+  const { context, page } = await crewTablet(LANDSCAPE);
   net.setOnline(false);
   const sessionId = await startSessionUi(page);
   const target = page.getByRole("combobox", { name: /^Target/ });
@@ -199,9 +161,7 @@ test("editing a queued shot keeps the half-typed new shot, and saving the edit g
 });
 
 test("at 1280×800 landscape the instant check and Save stay in view while typing the reading; portrait stays one column", async () => {
-  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
-  await signInAs(context, "crew@e2e.test");
-  const page = await openReady(context);
+  const { context, page } = await crewTablet(LANDSCAPE);
   await startSessionUi(page);
   await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
   // The steel tape method (the longest reference section) pushes the readings furthest down.
@@ -244,16 +204,10 @@ test("at 1280×800 landscape the instant check and Save stay in view while typin
 });
 
 test("a session started with the wrong sensor is discarded with its shots and never reaches the server", async () => {
-  const context = await newContext(browser);
-  await signInAs(context, "crew@e2e.test");
-  const page = await openReady(context);
+  const { context, page } = await crewTablet();
   net.setOnline(false);
   const wrong = await startSessionUi(page);
-  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
-  await page.getByLabel("EDM", { exact: true }).check();
-  await page.getByLabel("Sensor range (m)").fill("25.002");
-  await page.getByRole("button", { name: "Save shot" }).click();
-  await page.getByText("Saved on this tablet").waitFor();
+  await saveEdmShot(page, 1, "25.002");
   expect(await queuedShotCount(page, wrong)).toBe(1);
 
   // The race that made this test flaky under load: a send that began as the network went is
@@ -288,16 +242,10 @@ test("a session started with the wrong sensor is discarded with its shots and ne
 });
 
 test("a queued session is corrected from its own page, and 'End session' sums it up", async () => {
-  const context = await newContext(browser);
-  await signInAs(context, "crew@e2e.test");
-  const page = await openReady(context);
+  const { context, page } = await crewTablet();
   net.setOnline(false);
   const id = await startSessionUi(page);
-  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[0]!.id);
-  await page.getByLabel("EDM", { exact: true }).check();
-  await page.getByLabel("Sensor range (m)").fill("12.503");
-  await page.getByRole("button", { name: "Save shot" }).click();
-  await page.getByText("Saved on this tablet").waitFor();
+  await saveEdmShot(page, 0, "12.503");
   await page.getByRole("link", { name: "Correct session details" }).click();
   await page.waitForURL(new RegExp(`/field/session/${id}/fix$`));
   await page.getByLabel("Pressure (hPa)").fill("1002");
@@ -315,9 +263,7 @@ test("a queued session is corrected from its own page, and 'End session' sums it
 });
 
 test("2.0016 typed for 20.016 is caught before saving: confirm or correct", async () => {
-  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
-  await signInAs(context, "crew@e2e.test");
-  const page = await openReady(context);
+  const { context, page } = await crewTablet(LANDSCAPE);
   net.setOnline(false);
   const id = await startSessionUi(page);
   await page.getByLabel("EDM", { exact: true }).check();
@@ -353,34 +299,15 @@ test("2.0016 typed for 20.016 is caught before saving: confirm or correct", asyn
 });
 
 /** Interactive elements smaller than 44 × 44 CSS px (a radio counts by its label). */
-async function smallTargets(page: Page) {
-  return page.evaluate(() => {
-    const out: string[] = [];
-    const sel = "header a, header button, main a, main button, main select, main input, main textarea, [data-testid=field-status] a";
-    for (const el of Array.from(document.querySelectorAll<HTMLElement>(sel))) {
-      const target = el instanceof HTMLInputElement && (el.type === "radio" || el.type === "checkbox") ? (el.closest("label") ?? el) : el;
-      const r = target.getBoundingClientRect();
-      if (r.width === 0 || r.height === 0 || getComputedStyle(target).visibility === "hidden") continue;
-      if (r.height < 44 - 0.5 || r.width < 44 - 0.5) out.push(`${target.tagName.toLowerCase()} "${(target.textContent ?? "").trim().slice(0, 40)}" ${Math.round(r.width)}×${Math.round(r.height)}`);
-    }
-    return out;
-  });
-}
 
 test("every field screen, landscape and portrait, daylight and dark: screenshots, and no touch target under 44 px", async () => {
   const dir = process.env.FIELD_SHOTS_DIR ?? join(tmpdir(), "shotbook-field-shots");
-  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
-  await signInAs(context, "crew@e2e.test");
-  const page = await openReady(context);
+  const { context, page } = await crewTablet(LANDSCAPE);
   // The server is up but cannot take records (503): everything stays queued, so the edit and
   // fix screens have something to show, and the outbox its retry message.
   await context.route("**/api/sync", (r) => r.fulfill({ status: 503, contentType: "application/json", body: '{"error":"maintenance"}' }));
   const id = await startSessionUi(page);
-  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[0]!.id);
-  await page.getByLabel("EDM", { exact: true }).check();
-  await page.getByLabel("Sensor range (m)").fill("12.503");
-  await page.getByRole("button", { name: "Save shot" }).click();
-  await page.getByText("Saved on this tablet").waitFor();
+  await saveEdmShot(page, 0, "12.503");
   const shotId = await page.evaluate(async (sid) => {
     const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { first(): Promise<{ id: string }> } } } } }).db;
     return (await db.shots.where("sessionId").equals(sid).first()).id;
@@ -428,9 +355,7 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
 }, 360_000);
 
 test("coordinates: the computed distance stands beside the surveyed one, and heights that move it past the limit are flagged", async () => {
-  const context = await newContext(browser, { viewport: { width: 1280, height: 800 } });
-  await signInAs(context, "crew@e2e.test");
-  const page = await openReady(context);
+  const { context, page } = await crewTablet(LANDSCAPE);
   await startSessionUi(page);
   await page.getByLabel("Coordinates", { exact: true }).check();
   await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);

@@ -9,7 +9,7 @@ import { resetEnvCache } from "~/env.server";
 import { startFakeSmtp, type FakeSmtp } from "~/mail/fake-smtp.server";
 import { addMember, inviteMember, listMembers, projectsOfUser, removeMember } from "~/models/members.server";
 import { scopeOf } from "~/models/scope.server";
-import { UserError } from "~/models/users.server";
+import { AppError } from "~/contract/errors";
 import { makeProject, makeUser } from "../support/registry-fixtures";
 import { mailsTo, tempMailDir } from "./auth-helpers";
 
@@ -36,7 +36,7 @@ async function status403(p: Promise<unknown>) {
   try {
     await p;
   } catch (e) {
-    if (e instanceof Response) return e.status;
+    if (e instanceof Response || e instanceof AppError) return e.status;
     throw e;
   }
   return "no error";
@@ -113,7 +113,7 @@ test("inviting straight into a project makes the user, mails the usual invitatio
   expect(log).toMatchObject({ template: "invitation", status: "sent" });
   expect((await auditRows(project.id)).map((r) => r.action)).toEqual(["member.add"]);
 
-  await expect(inviteMember(admin, project.id, { email: "tamsin.reed@alderbrook-roads.test", name: "Again", role: "qa" })).rejects.toBeInstanceOf(UserError);
+  await expect(inviteMember(admin, project.id, { email: "tamsin.reed@alderbrook-roads.test", name: "Again", role: "qa" })).rejects.toBeInstanceOf(AppError);
   expect((await inviteMember(admin, "no-such-project", { email: "x@alderbrook-roads.test", name: "", role: "viewer" })).status).toBe(404);
   expect(await getDb().select().from(users).where(eq(users.email, "x@alderbrook-roads.test"))).toHaveLength(0);
 });

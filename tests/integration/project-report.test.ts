@@ -130,7 +130,7 @@ test("the statement follows the rule: RMSE with n and the reference by default, 
   }
   // the rule now names an EDM uncertainty: the reference enters in quadrature (ASPRS Edition 2, 2023)
   await db.update(projects).set({ edmUncertaintyMm: 1, edmUncertaintyPpm: 0 }).where(eq(projects.id, w.project.id));
-  const { recomputeShotsForProject } = await import("~/models/shots.server");
+  const { recomputeShotsForProject } = await import("~/models/recompute.server");
   await recomputeShotsForProject(w.project.id);
   const withRef = (await currentProjectReport(viewer(), w.project.id))!;
   expect(withRef.version).toBe(rmse.version + 1);

@@ -7,7 +7,7 @@ import { eq, inArray, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { auditLog, shots } from "~/db/schema";
 import { migrateDb } from "~/db/migrate.server";
-import { BACKFILL_REFERENCE_UNCERTAINTY_ACTION, backfillReferenceUncertainty } from "~/models/shots.server";
+import { BACKFILL_REFERENCE_UNCERTAINTY_ACTION, backfillReferenceUncertainty } from "~/models/recompute.server";
 import { action as syncAction } from "~/routes/api.sync";
 import { apiRequest, call, makeSensor, makeSite, makeTape, makeUser, shareProject } from "../support/registry-fixtures";
 

@@ -12,7 +12,7 @@ import { createProject, getProject, getProjectRule } from "~/models/projects.ser
 import { createSensor, getSensorSpec } from "~/models/sensors.server";
 import { createSite, getSiteGeometry } from "~/models/sites.server";
 import { getTapeSpec } from "~/models/tapes.server";
-import type { RegistryResult } from "~/models/registry-schemas";
+import type { RegistryResult } from "~/contract/registry";
 import { ingestSync } from "~/models/sync.server";
 import * as sensorList from "~/routes/admin.sensors";
 import * as sensorNew from "~/routes/admin.sensors.new";

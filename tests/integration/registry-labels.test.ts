@@ -6,7 +6,7 @@ import { eq } from "drizzle-orm";
 import { inviteSchema, tokenSchema } from "~/auth/schemas";
 import { getDb } from "~/db/client.server";
 import { sensors } from "~/db/schema";
-import { projectSchema, sensorSchema, siteSchema, stationSchema, tapeSchema, targetSchema } from "~/models/registry-schemas";
+import { projectSchema, sensorSchema, siteSchema, stationSchema, tapeSchema, targetSchema } from "~/contract/registry";
 import { action as sensorsAction } from "~/routes/api.sensors";
 import { apiRequest, call, makeUser } from "../support/registry-fixtures";
 

@@ -4,7 +4,7 @@
 // keys sorted at every depth (UTF-16 order, as Array.prototype.sort), null and absent members
 // left out, array holes and nulls written as null, every scalar as JSON.stringify writes it.
 import { expect, test } from "vitest";
-import { canonicalJson, validateShot } from "~/models/sync-schemas";
+import { canonicalJson, validateShot } from "~/contract/sync";
 
 function reference(v: unknown): string | undefined {
   if (v === null || v === undefined) return undefined;

@@ -7,7 +7,7 @@ import { count, eq } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { auditLog, checkSessions, sensors, shots } from "~/db/schema";
 import { action } from "~/routes/api.sync";
-import { recomputeShotsForSensor } from "~/models/shots.server";
+import { recomputeShotsForSensor } from "~/models/recompute.server";
 import { ingestSync } from "~/models/sync.server";
 import { addMemberUsers, apiRequest, call, makeSensor, makeSite, makeTape, makeUser, shareProject, type TestUser } from "../support/registry-fixtures";
 

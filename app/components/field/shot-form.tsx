@@ -1,150 +1,17 @@
 // The log-shot form. Everything typed stays in the form until IndexedDB has the shot (and a
 // draft survives a reload); the instant check runs the shared ranging core as you type.
 import { useEffect, useMemo, useRef, useState } from "react";
-import { OutboxError, saveShot, type ShotDraft } from "~/offline/outbox";
+import { OutboxError, saveShot } from "~/offline/outbox";
 import { previewShot, type PreviewContext } from "~/offline/preview";
 import type { LocalSession, LocalShot, SyncShotRecord } from "~/offline/types";
 import { checkShotRecord } from "~/offline/validate";
 import { isImplausible } from "~/domain/plausibility";
 import { ShotFeedback, signedMm } from "./feedback";
 import { errorsByField } from "./field-errors";
-import { Choice, NumberField, parseList, parseNum, SelectField, fmt } from "./inputs";
-
-type Method = "tape" | "edm" | "coordinates";
-type ReadingKind = "rangesM" | "roundTripNs" | "phase";
-
-export type ShotFormState = {
-  targetId: string;
-  method: Method;
-  distanceM: string;
-  tapeId: string;
-  tapeTempC: string;
-  tensionN: string;
-  support: "ground" | "ends";
-  spans: string;
-  stationId: string;
-  instrumentHeightM: string;
-  targetHeightM: string;
-  // issue 15 (ranging.md §7)
-  edmId: string;
-  refUncertaintyMm: string;
-  readingKind: ReadingKind;
-  ranges: string[];
-  roundTrips: string[];
-  phase: { frequencyHz: string; samples: string }[];
-  reflectancePct: string;
-  illuminanceKlux: string;
-  incidenceDeg: string;
-  position: NonNullable<SyncShotRecord["position"]> | null;
-  note: string;
-};
-
-const s = (n: number | undefined | null) => (n == null ? "" : String(n));
-
-function initialState(session: LocalSession, ctx: PreviewContext, existing?: LocalShot): ShotFormState {
-  const freqs = ctx.sensor?.modulationHz ?? [];
-  const base: ShotFormState = {
-    targetId: "",
-    method: ctx.tapes.length ? "tape" : "edm",
-    distanceM: "",
-    tapeId: ctx.tapes[0]?.id ?? "",
-    tapeTempC: s(session.record.airTempC),
-    tensionN: s(ctx.tapes[0]?.standardTensionN),
-    support: "ground",
-    spans: "1",
-    stationId: ctx.site?.stations[0]?.id ?? "",
-    instrumentHeightM: "",
-    targetHeightM: "",
-    edmId: "",
-    refUncertaintyMm: "",
-    readingKind: "rangesM",
-    ranges: [""],
-    roundTrips: [""],
-    phase: freqs.map((f) => ({ frequencyHz: String(f), samples: "" })),
-    reflectancePct: "",
-    illuminanceKlux: s(session.illuminanceKlux),
-    incidenceDeg: "",
-    position: null,
-    note: "",
-  };
-  if (!existing) return base;
-  const r = existing.record;
-  const rd = r.readings;
-  return {
-    ...base,
-    targetId: r.targetId ?? "",
-    method: r.reference.method,
-    distanceM: s(r.reference.distanceM),
-    tapeId: r.reference.tape?.tapeId ?? base.tapeId,
-    tapeTempC: s(r.reference.tape?.tempC),
-    tensionN: s(r.reference.tape?.tensionN),
-    support: r.reference.tape?.support ?? "ground",
-    spans: s(r.reference.tape?.spans ?? 1),
-    stationId: r.reference.stationId ?? base.stationId,
-    instrumentHeightM: s(r.reference.instrumentHeightM),
-    targetHeightM: s(r.reference.targetHeightM),
-    edmId: r.reference.edmId ?? "",
-    refUncertaintyMm: s(r.reference.uncertaintyMm),
-    readingKind: "rangesM" in rd ? "rangesM" : "roundTripNs" in rd ? "roundTripNs" : "phase",
-    ranges: "rangesM" in rd ? rd.rangesM.map(String) : [""],
-    roundTrips: "roundTripNs" in rd ? rd.roundTripNs.map(String) : [""],
-    phase: "phase" in rd ? rd.phase.map((p) => ({ frequencyHz: String(p.frequencyHz), samples: p.samples.join(" ") })) : base.phase,
-    reflectancePct: s(r.reflectancePct),
-    illuminanceKlux: s(r.illuminanceKlux),
-    incidenceDeg: s(r.incidenceDeg),
-    position: r.position ?? null,
-    note: r.note ?? "",
-  };
-}
-
-export function toShotDraft(f: ShotFormState, sessionId: string, id?: string, takenAt?: string): ShotDraft {
-  const num = (v: string) => parseNum(v);
-  const reference: SyncShotRecord["reference"] = { method: f.method };
-  if (f.method !== "coordinates") reference.distanceM = num(f.distanceM);
-  if (f.method === "tape") {
-    reference.tape = {
-      tapeId: f.tapeId,
-      tempC: num(f.tapeTempC) as number,
-      tensionN: num(f.tensionN) as number,
-      support: f.support,
-      spans: num(f.spans) as number,
-    };
-  }
-  if (f.method === "coordinates") {
-    reference.stationId = f.stationId || undefined;
-    reference.instrumentHeightM = num(f.instrumentHeightM);
-    reference.targetHeightM = num(f.targetHeightM);
-  }
-  if (f.method === "edm" && f.edmId) reference.edmId = f.edmId;
-  if (f.refUncertaintyMm.trim() !== "") reference.uncertaintyMm = num(f.refUncertaintyMm);
-  const readings: SyncShotRecord["readings"] =
-    f.readingKind === "rangesM"
-      ? { rangesM: f.ranges.filter((x) => x.trim() !== "").map((x) => num(x) as number) }
-      : f.readingKind === "roundTripNs"
-        ? { roundTripNs: f.roundTrips.filter((x) => x.trim() !== "").map((x) => num(x) as number) }
-        : { phase: f.phase.filter((p) => p.samples.trim() !== "").map((p) => ({ frequencyHz: Number(p.frequencyHz), samples: parseList(p.samples) })) };
-  return {
-    ...(id ? { id } : {}),
-    ...(takenAt ? { takenAt } : {}),
-    sessionId,
-    targetId: f.targetId || undefined,
-    reference,
-    readings,
-    reflectancePct: num(f.reflectancePct) as number,
-    illuminanceKlux: num(f.illuminanceKlux) as number,
-    incidenceDeg: num(f.incidenceDeg),
-    position: f.position ?? undefined,
-    note: f.note.trim() || undefined,
-  };
-}
-
-/**
- * Where a draft waits in localStorage: the session's half-typed NEW shot under one key, the
- * edit of a queued shot under that shot's own key, so that saving or leaving an edit never
- * touches the new shot the crew was typing (and the other way round).
- */
-export const draftKey = (sessionId: string) => `shotbook-shot-draft:${sessionId}`;
-export const editDraftKey = (shotId: string) => `shotbook-shot-edit-draft:${shotId}`;
+import { NumberField, fmt } from "./inputs";
+import { draftKey, editDraftKey, initialState, toShotDraft, type SetField, type ShotFormState } from "./shot-form-state";
+import { ReferenceCard } from "./shot-form-reference";
+import { ReadingsCard } from "./shot-form-readings";
 
 export function ShotForm({ session, ctx, existing, onSaved }: { session: LocalSession; ctx: PreviewContext; existing?: LocalShot; onSaved?: (shot: LocalShot) => void }) {
   const [f, setF] = useState<ShotFormState>(() => initialState(session, ctx, existing));
@@ -158,7 +25,6 @@ export function ShotForm({ session, ctx, existing, onSaved }: { session: LocalSe
   /** The draft (as JSON) whose implausible error the crew has been asked to confirm. */
   const [confirming, setConfirming] = useState<string | null>(null);
   const formRef = useRef<HTMLFormElement>(null);
-  const sensor = ctx.sensor;
   const site = ctx.site;
 
   // A draft survives a reload or a killed tab (the photo is kept only once saved).
@@ -180,7 +46,7 @@ export function ShotForm({ session, ctx, existing, onSaved }: { session: LocalSe
     } catch {}
   }, [f, dirty, myDraftKey]);
 
-  const set = <K extends keyof ShotFormState>(k: K, v: ShotFormState[K]) => {
+  const set: SetField = (k, v) => {
     setF((cur) => ({ ...cur, [k]: v }));
     setDirty(true);
     setSaved(null);
@@ -314,64 +180,6 @@ export function ShotForm({ session, ctx, existing, onSaved }: { session: LocalSe
     }
   }
 
-  const targetOptions = (site?.targets ?? []).map((t) => ({
-    value: t.id,
-    label: `${t.label} — ${fmt(t.reflectancePct, 0)} %${t.retro ? " retro" : ""}${t.referenceM != null ? `, ${fmt(t.referenceM, 3)} m` : ""}`,
-  }));
-  const kinds: { value: ReadingKind; label: string }[] =
-    sensor?.kind === "cw"
-      ? [
-          { value: "rangesM", label: "Ranges (m)" },
-          { value: "phase", label: "Correlation samples" },
-        ]
-      : [
-          { value: "rangesM", label: "Ranges (m)" },
-          { value: "roundTripNs", label: "Round-trip times (ns)" },
-        ];
-
-  const listField = (key: "ranges" | "roundTrips", prefix: string, path: "readings.rangesM" | "readings.roundTripNs", label: string, unit: string) => (
-    <div className="space-y-3">
-      {f[key].map((v, i) => (
-        <div key={i} className="flex items-end gap-2">
-          <div className="flex-1">
-            <NumberField
-              id={`f-${prefix}-${i}`}
-              label={`${label}${f[key].length > 1 ? ` ${i + 1}` : ""} (${unit})`}
-              unit={unit}
-              value={v}
-              required
-              error={errors[`${path}.${i}`]}
-              onChange={(nv) =>
-                set(
-                  key,
-                  f[key].map((x, j) => (j === i ? nv : x)),
-                )
-              }
-            />
-          </div>
-          {f[key].length > 1 ? (
-            <button
-              type="button"
-              className="btn-secondary"
-              aria-label={`Remove ${label.toLowerCase()} ${i + 1}`}
-              onClick={() =>
-                set(
-                  key,
-                  f[key].filter((_, j) => j !== i),
-                )
-              }
-            >
-              ✕
-            </button>
-          ) : null}
-        </div>
-      ))}
-      <button type="button" className="btn-secondary" onClick={() => set(key, [...f[key], ""])}>
-        + Add a reading
-      </button>
-    </div>
-  );
-
   return (
     <form ref={formRef} onSubmit={onSubmit} noValidate data-dirty={dirty ? "true" : "false"} aria-label={existing ? "Fix shot" : "Log shot"} className="space-y-6">
       {errors.form ? (
@@ -385,184 +193,9 @@ export function ShotForm({ session, ctx, existing, onSaved }: { session: LocalSe
           display: contents and `order` places each card), and Save closes the form. */}
       <div className="grid gap-6 landscape:lg:grid-cols-[minmax(0,1fr)_23rem] landscape:lg:items-start">
         <div className="contents landscape:lg:block landscape:lg:space-y-6">
-          <section className="card order-1 space-y-4">
-            <h2 className="text-xl font-bold">Target and reference distance</h2>
-            <SelectField
-              id="f-target"
-              label="Target"
-              value={f.targetId}
-              onChange={pickTarget}
-              options={targetOptions}
-              placeholder="— no target from the site —"
-              error={errors["targetId"]}
-              optional={f.method !== "coordinates"}
-            />
-            <Choice
-              name="f-method"
-              legend="How the reference distance was measured"
-              value={f.method}
-              onChange={(v) => set("method", v)}
-              error={errors["reference.method"]}
-              options={[
-                { value: "tape", label: "Steel tape" },
-                { value: "edm", label: "EDM" },
-                { value: "coordinates", label: "Coordinates" },
-              ]}
-            />
-            {f.method !== "coordinates" ? (
-              <NumberField
-                id="f-distance"
-                label="Reference distance (m)"
-                unit="m"
-                value={f.distanceM}
-                required
-                onChange={(v) => set("distanceM", v)}
-                error={errors["reference.distanceM"]}
-                hint={f.method === "tape" ? "As read on the tape; the corrections below are applied to it." : undefined}
-              />
-            ) : null}
-            {f.method === "tape" ? (
-              <div className="grid gap-4 sm:grid-cols-2">
-                <SelectField
-                  id="f-tape"
-                  label="Tape"
-                  value={f.tapeId}
-                  onChange={pickTape}
-                  options={ctx.tapes.map((t) => ({ value: t.id, label: t.label }))}
-                  placeholder={ctx.tapes.length ? undefined : "— no tapes on this tablet —"}
-                  error={errors["reference.tape.tapeId"]}
-                />
-                <NumberField id="f-tapeTemp" label="Tape temperature (°C)" unit="°C" value={f.tapeTempC} required onChange={(v) => set("tapeTempC", v)} error={errors["reference.tape.tempC"]} />
-                <NumberField id="f-tension" label="Pull (N)" unit="N" value={f.tensionN} required onChange={(v) => set("tensionN", v)} error={errors["reference.tape.tensionN"]} />
-                <NumberField id="f-spans" label="Spans" unit="spans" inputMode="numeric" value={f.spans} required onChange={(v) => set("spans", v)} error={errors["reference.tape.spans"]} />
-                <div className="sm:col-span-2">
-                  <Choice
-                    name="f-support"
-                    legend="Tape support"
-                    value={f.support}
-                    onChange={(v) => set("support", v)}
-                    error={errors["reference.tape.support"]}
-                    options={[
-                      { value: "ground", label: "Lying on the ground" },
-                      { value: "ends", label: "Held at the ends (sag)" },
-                    ]}
-                  />
-                </div>
-              </div>
-            ) : null}
-            {f.method === "coordinates" ? (
-              <div className="grid gap-4 sm:grid-cols-3">
-                <SelectField
-                  id="f-station"
-                  label="Station (sensor stands on)"
-                  value={f.stationId}
-                  onChange={(v) => set("stationId", v)}
-                  options={(site?.stations ?? []).map((st) => ({ value: st.id, label: st.label }))}
-                  placeholder={site?.stations.length ? undefined : "— no stations at this site —"}
-                  error={errors["reference.stationId"]}
-                />
-                <NumberField
-                  id="f-ih"
-                  label="Instrument height (m)"
-                  unit="m"
-                  value={f.instrumentHeightM}
-                  required
-                  onChange={(v) => set("instrumentHeightM", v)}
-                  error={errors["reference.instrumentHeightM"]}
-                />
-                <NumberField id="f-th" label="Target height (m)" unit="m" value={f.targetHeightM} required onChange={(v) => set("targetHeightM", v)} error={errors["reference.targetHeightM"]} />
-                <p className="text-muted sm:col-span-3">
-                  The distance comes from the surveyed positions of the station and the target. The registry does not record whether a target's surveyed height is its board centre: if it is, the
-                  target height here is 0.
-                </p>
-                {coordinates ? (
-                  <div className="num space-y-1 sm:col-span-3" data-testid="coordinates-check">
-                    <p>
-                      Computed from the coordinates: <strong>{fmt(coordinates.computedM, 4)} m</strong>
-                      {coordinates.surveyedM != null ? (
-                        <>
-                          {" "}
-                          · surveyed station-to-target distance in the registry: <strong>{fmt(coordinates.surveyedM, 4)} m</strong> (difference{" "}
-                          {signedMm((coordinates.computedM - coordinates.surveyedM) * 1000)})
-                        </>
-                      ) : (
-                        " · the registry has no surveyed distance for this target"
-                      )}
-                    </p>
-                    {coordinates.heightsMm != null && Math.abs(coordinates.heightsMm) > coordinates.limitMm ? (
-                      <p className="flex items-center gap-2 font-bold text-warn" role="alert" data-testid="heights-warning">
-                        The heights typed change the distance by {signedMm(coordinates.heightsMm)}, more than the ±{fmt(coordinates.limitMm, 1)} mm limit: check they are measured from the same points
-                        as the site's survey.
-                      </p>
-                    ) : null}
-                  </div>
-                ) : null}
-              </div>
-            ) : null}
-            {f.method === "edm" ? (
-              <SelectField
-                id="f-edm"
-                label="Reference EDM"
-                value={f.edmId}
-                onChange={(v) => set("edmId", v)}
-                options={(ctx.edms ?? []).map((e) => ({ value: e.id, label: `${e.label} (${e.serial}) — ${e.uncertaintyMm} mm + ${e.uncertaintyPpm} ppm` }))}
-                placeholder="— not listed: the project's EDM figure —"
-                error={errors["reference.edmId"]}
-                optional
-              />
-            ) : null}
-            <NumberField
-              id="f-ref-u"
-              label="Reference uncertainty (mm)"
-              unit="mm"
-              value={f.refUncertaintyMm}
-              onChange={(v) => set("refUncertaintyMm", v)}
-              error={errors["reference.uncertaintyMm"]}
-              hint="Standard uncertainty (k = 1) of this reference distance, when known; empty takes it from the tape's certificate, the surveyed points or the EDM."
-            />
-          </section>
+          <ReferenceCard f={f} set={set} errors={errors} ctx={ctx} coordinates={coordinates} pickTarget={pickTarget} pickTape={pickTape} />
 
-          <section className="card order-2 space-y-4">
-            <h2 className="text-xl font-bold">Sensor readings</h2>
-            <Choice name="f-kind" legend="The sensor gives" value={f.readingKind} onChange={(v) => set("readingKind", v)} options={kinds} />
-            {f.readingKind === "rangesM" ? listField("ranges", "range", "readings.rangesM", "Sensor range", "m") : null}
-            {f.readingKind === "roundTripNs" ? listField("roundTrips", "rtt", "readings.roundTripNs", "Round-trip time", "ns") : null}
-            {f.readingKind === "phase" ? (
-              <div className="space-y-3">
-                {f.phase.length === 0 ? <p className="field-error">This sensor has no modulation frequencies in the registry.</p> : null}
-                {f.phase.map((p, i) => (
-                  <div key={i}>
-                    <label htmlFor={`f-phase-${i}`} className="field-label">
-                      Correlation samples at {fmt(Number(p.frequencyHz) / 1e6, 3)} MHz
-                    </label>
-                    <textarea
-                      id={`f-phase-${i}`}
-                      className="input num"
-                      rows={2}
-                      inputMode="decimal"
-                      value={p.samples}
-                      aria-invalid={errors[`readings.phase.${i}`] ? true : undefined}
-                      aria-describedby={`f-phase-${i}-hint${errors[`readings.phase.${i}`] ? ` f-phase-${i}-error` : ""}`}
-                      onChange={(e) =>
-                        set(
-                          "phase",
-                          f.phase.map((x, j) => (j === i ? { ...x, samples: e.target.value } : x)),
-                        )
-                      }
-                    />
-                    <p id={`f-phase-${i}-hint`} className="mt-1 text-sm text-muted">
-                      Equally spaced samples over one period, separated by spaces or commas (decimals with a point).
-                    </p>
-                    {errors[`readings.phase.${i}`] ? (
-                      <p id={`f-phase-${i}-error`} className="field-error" role="alert">
-                        {errors[`readings.phase.${i}`]}
-                      </p>
-                    ) : null}
-                  </div>
-                ))}
-              </div>
-            ) : null}
-          </section>
+          <ReadingsCard f={f} set={set} errors={errors} ctx={ctx} />
 
           <section className="card order-4 grid gap-4 sm:grid-cols-3">
             <h2 className="text-xl font-bold sm:col-span-3">Target and light</h2>

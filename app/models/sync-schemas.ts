@@ -1,2 +1,0 @@
-// Moved to app/contract/sync.ts (issue 13); this path stays for the imports not yet moved.
-export * from "~/contract/sync";
