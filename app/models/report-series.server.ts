@@ -90,7 +90,10 @@ const toRow = (r: PointRow): SeriesRow => ({ id: r.id, d: r.d, e: r.e, lim: r.li
  * session, project), in the reader's scope: outside it the sensor, a session or the project
  * answers 404 as unknown.
  */
-export async function reportSeries(actor: Actor, sensorId: string, params: URLSearchParams, db: Db = getDb()): Promise<{ status: 200; body: ReportSeriesJson } | QueryError> {
+/** Sizes of the series (the defaults of app/domain/series.ts; tests make them small to see the sampling). */
+export type SeriesSizes = { bins?: number; perBin?: number; maxNotable?: number };
+
+export async function reportSeries(actor: Actor, sensorId: string, params: URLSearchParams, db: Db = getDb(), sizes: SeriesSizes = {}): Promise<{ status: 200; body: ReportSeriesJson } | QueryError> {
   const q = parseReportQuery(params);
   if ("status" in q) return q;
   const scope = await scopeOf(actor, db);
@@ -104,17 +107,28 @@ export async function reportSeries(actor: Actor, sensorId: string, params: URLSe
   if ("status" in rule) return rule;
   const [sensor] = await db.select({ a: sensors.toleranceMm, b: sensors.tolerancePpm }).from(sensors).where(eq(sensors.id, sensorId));
   if (!sensor) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
-  return { status: 200, body: await seriesOf(db, scope, sensorId, q, rule, sensor) };
+  return { status: 200, body: await seriesOf(db, scope, sensorId, q, rule, sensor, sizes) };
 }
 
-async function seriesOf(db: Db, scope: Scope, sensorId: string, q: ReportQuery, rule: { k: number; projectId: string | null }, sensor: { a: number; b: number }): Promise<ReportSeriesJson> {
+async function seriesOf(
+  db: Db,
+  scope: Scope,
+  sensorId: string,
+  q: ReportQuery,
+  rule: { k: number; projectId: string | null },
+  sensor: { a: number; b: number },
+  sizes: SeriesSizes,
+): Promise<ReportSeriesJson> {
   const where = and(eq(shots.sensorId, sensorId), ...periodWhere(q.from, q.to), q.sessionIds?.length ? inArray(shots.sessionId, q.sessionIds) : undefined, sessionIdInScope(scope, shots.sessionId))!;
   const e = shots.errorMm;
   const d = shots.referenceM;
   const k = rule.k;
   // the report's limit, in the same order of operations as app/domain (within decided bit for bit)
   const lim = sql`(${k} * (${sensor.a} + ${sensor.b} * ${d} / 1000))`;
-  const [sortedRows, rangeRows] = await db.batch([sortedErrors(db, where), db.all<{ lo: number | null; hi: number | null; n: number }>(sql`SELECT min(${d}) AS lo, max(${d}) AS hi, count(*) AS n FROM ${shots} WHERE ${where}`)]);
+  const [sortedRows, rangeRows] = await db.batch([
+    sortedErrors(db, where),
+    db.all<{ lo: number | null; hi: number | null; n: number }>(sql`SELECT min(${d}) AS lo, max(${d}) AS hi, count(*) AS n FROM ${shots} WHERE ${where}`),
+  ]);
   const order = orderStatistics(toSorted(sortedRows[0]));
   const outlier = order ? { medianMm: order.median, cutMm: OUTLIER_K * MAD_TO_SIGMA * order.mad } : null;
   const total = Number(rangeRows[0]?.n ?? 0);
@@ -123,14 +137,16 @@ async function seriesOf(db: Db, scope: Scope, sensorId: string, q: ReportQuery, 
   const isOutlier = outlier ? sql`(abs(${e} - ${outlier.medianMm}) > ${outlier.cutMm})` : sql`0`;
   const flagged = sql`(${shots.wrap} OR ${isOutlier})`;
   const notable = sql`(${shots.excluded} OR abs(${e}) > ${lim} OR ${flagged})`;
-  const bins = SERIES_BINS;
+  const bins = sizes.bins ?? SERIES_BINS;
+  const perBin = sizes.perBin ?? SERIES_PER_BIN;
+  const maxNotable = sizes.maxNotable ?? SERIES_MAX_NOTABLE;
   const bin = dMax > dMin ? sql`min(${bins - 1}, max(0, CAST(((${d} - ${dMin}) / ${dMax - dMin}) * ${bins} AS INTEGER)))` : sql`0`;
   const point = sql`${shots.id} AS id, ${d} AS d, ${e} AS e, ${lim} AS lim, abs(${e}) <= ${lim} AS within, ${shots.excluded} AS excluded, ${flagged} AS flagged`;
   const rc = sql`CASE WHEN ${shots.retro} THEN 3 WHEN ${shots.reflectancePct} < ${DARK_BELOW_PCT} THEN 0 WHEN ${shots.reflectancePct} <= ${BRIGHT_ABOVE_PCT} THEN 1 ELSE 2 END`;
   const lb = sql`CASE WHEN ${shots.illuminanceKlux} < 10 THEN 0 WHEN ${shots.illuminanceKlux} < 50 THEN 1 ELSE 2 END`;
   const included = sql`${where} AND ${shots.excluded} = 0`;
   const [notableRows, notableCount, binRows, sampleRows, cellRows, totalRows, flaggedRows] = await db.batch([
-    db.all<PointRow>(sql`SELECT ${point} FROM ${shots} WHERE ${where} AND ${notable} ORDER BY abs(${e}) DESC, ${shots.id} LIMIT ${SERIES_MAX_NOTABLE}`),
+    db.all<PointRow>(sql`SELECT ${point} FROM ${shots} WHERE ${where} AND ${notable} ORDER BY abs(${e}) DESC, ${shots.id} LIMIT ${maxNotable}`),
     db.all<{ n: number }>(sql`SELECT count(*) AS n FROM ${shots} WHERE ${where} AND ${notable}`),
     db.all<{ i: number; n: number; minE: number; maxE: number }>(
       sql`SELECT ${bin} AS i, count(*) AS n, min(${e}) AS minE, max(${e}) AS maxE FROM ${shots} WHERE ${where} AND NOT ${notable} GROUP BY 1 ORDER BY 1`,
@@ -139,7 +155,7 @@ async function seriesOf(db: Db, scope: Scope, sensorId: string, q: ReportQuery, 
       SELECT * FROM (
         SELECT ${point}, ${bin} AS i, row_number() OVER (PARTITION BY ${bin} ORDER BY substr(${shots.id}, 25), ${shots.id}) AS rn
         FROM ${shots} WHERE ${where} AND NOT ${notable}
-      ) WHERE rn <= ${SERIES_PER_BIN} ORDER BY i, rn`),
+      ) WHERE rn <= ${perBin} ORDER BY i, rn`),
     db.all<{ rc: number; lb: number; n: number; bias: number; outside: number }>(sql`
       SELECT ${rc} AS rc, ${lb} AS lb, count(*) AS n, avg(${e}) AS bias, sum(abs(${e}) > ${lim}) AS outside
       FROM ${shots} WHERE ${included} AND ${shots.illuminanceKlux} IS NOT NULL AND ${shots.reflectancePct} IS NOT NULL GROUP BY 1, 2`),

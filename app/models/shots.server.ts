@@ -762,8 +762,12 @@ export async function listShots(actor: Actor, q: ShotQuery, db: Db = getDb()): P
   if (byTime || timeDesc) {
     // the documented cursor [takenAt, id] ascending; descending, a sort cursor holding takenAt; ties by id ascending
     const c = byTime ? q.cursor : q.sortCursor && typeof q.sortCursor.v === "string" ? { takenAt: q.sortCursor.v, id: q.sortCursor.id } : undefined;
-    if (timeDesc && q.sortCursor && typeof q.sortCursor.v !== "string") return { status: 400, body: { error: "Invalid query.", errors: [{ path: "cursor", message: "cursor is not one this server gave out" }] } };
-    if (c) page.push(byTime ? or(gt(shots.takenAt, c.takenAt), and(eq(shots.takenAt, c.takenAt), gt(shots.id, c.id)))! : or(lt(shots.takenAt, c.takenAt), and(eq(shots.takenAt, c.takenAt), gt(shots.id, c.id)))!);
+    if (timeDesc && q.sortCursor && typeof q.sortCursor.v !== "string")
+      return { status: 400, body: { error: "Invalid query.", errors: [{ path: "cursor", message: "cursor is not one this server gave out" }] } };
+    if (c)
+      page.push(
+        byTime ? or(gt(shots.takenAt, c.takenAt), and(eq(shots.takenAt, c.takenAt), gt(shots.id, c.id)))! : or(lt(shots.takenAt, c.takenAt), and(eq(shots.takenAt, c.takenAt), gt(shots.id, c.id)))!,
+      );
     order = [byTime ? asc(shots.takenAt) : sql`${shots.takenAt} DESC`, asc(shots.id)];
     cursorOf = (s) => (byTime ? encodeCursor(s.takenAt, s.id) : encodeSortCursor("-takenAt", s.takenAt, s.id));
   } else {
@@ -781,7 +785,12 @@ export async function listShots(actor: Actor, q: ShotQuery, db: Db = getDb()): P
       .where(and(...f.w, ...page))
       .orderBy(...order)
       .limit(q.limit + 1),
-    q.count ? db.select({ n: sql<number>`count(*)` }).from(shots).where(and(...f.w)) : null,
+    q.count
+      ? db
+          .select({ n: sql<number>`count(*)` })
+          .from(shots)
+          .where(and(...f.w))
+      : null,
   ]);
   const list = rows.slice(0, q.limit).map((r) => toJson(r, f.k, f.cut));
   const last = list[list.length - 1];

@@ -292,11 +292,7 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
               <h2 id="h-c2" className="mb-2 text-2xl font-bold">
                 Bias by reflectance × illuminance
               </h2>
-              {cells.length ? (
-                <MatrixChart cells={cells} worst={worst} />
-              ) : (
-                <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>
-              )}
+              {cells.length ? <MatrixChart cells={cells} worst={worst} /> : <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>}
             </section>
             <section aria-labelledby="h-c3" className="card">
               <h2 id="h-c3" className="mb-2 text-2xl font-bold">
