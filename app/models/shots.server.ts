@@ -497,6 +497,8 @@ export type ShotQuery = {
   sortCursor?: { v: number | string; id: string };
   /** issue 16: also answer the number of shots matching the filters (`total`). */
   count?: boolean;
+  /** issue 16 (GeoJSON): at most this many features, the notable ones first, then a fixed sample. */
+  max?: number;
   limit: number;
 };
 
@@ -505,6 +507,8 @@ export const SHOT_SORT_KEYS = ["takenAt", "referenceM", "errorMm", "absError", "
 export type ShotSortKey = (typeof SHOT_SORT_KEYS)[number];
 
 export const SHOTS_PAGE_MAX = 1000;
+/** issue 16: the most features a bounded GeoJSON answer (`max`) may ask for. */
+export const GEOJSON_MAX = 50_000;
 const REFLECTANCE_CLASSES = ["dark", "mid", "bright", "retro"] as const;
 
 export function encodeCursor(takenAt: string, id: string) {
@@ -602,6 +606,12 @@ export function parseShotQuery(url: URL, opts: { paged: boolean }): ShotQuery | 
     if (!v) continue;
     if (periodDay(v)) out[key] = v;
     else errors.push({ path: key, message: `${key} must be a date (YYYY-MM-DD)` });
+  }
+  const max = q.get("max");
+  if (max && !opts.paged) {
+    const n = Number(max);
+    if (Number.isInteger(n) && n >= 1 && n <= GEOJSON_MAX) out.max = n;
+    else errors.push({ path: "max", message: `max must be a whole number from 1 to ${GEOJSON_MAX}` });
   }
   if (opts.paged) {
     const limit = q.get("limit");
@@ -804,18 +814,59 @@ export async function listShots(actor: Actor, q: ShotQuery, db: Db = getDb()): P
   };
 }
 
+/**
+ * issue 16: with `max`, beyond that many located shots the answer holds every notable one
+ * (excluded, outside its limit, flagged; the largest |error| first) and fills up with the others
+ * in the fixed order of the random tail of their ids (app/domain/series.ts's sample order), so a
+ * map of 100,000 shots draws a few thousand, the same on every view; `total` and `sampled` say so.
+ */
+async function boundedRows(db: Db, where: SQL[], k: number | undefined, cut: { med: number; cut: number } | null, max: number) {
+  const [{ n }] = await db
+    .select({ n: sql<number>`count(*)` })
+    .from(shots)
+    .where(and(...where));
+  const total = Number(n);
+  if (total <= max)
+    return {
+      rows: await selectShots(db)
+        .where(and(...where))
+        .orderBy(asc(shots.takenAt), asc(shots.id)),
+      total,
+      sampled: false,
+    };
+  const outside = k === undefined ? sql`NOT ${shots.within}` : sql`abs(${shots.errorMm}) > ${k} * ${shots.toleranceMm}`;
+  const notable = sql`(${shots.excluded} OR ${outside} OR ${shots.wrap}${cut ? sql` OR abs(${shots.errorMm} - ${cut.med}) > ${cut.cut}` : sql``})`;
+  const first = await selectShots(db)
+    .where(and(...where, notable))
+    .orderBy(sql`abs(${shots.errorMm}) DESC`, asc(shots.id))
+    .limit(max);
+  const rest =
+    first.length < max
+      ? await selectShots(db)
+          .where(and(...where, sql`NOT ${notable}`))
+          .orderBy(sql`substr(${shots.id}, 25)`, asc(shots.id))
+          .limit(max - first.length)
+      : [];
+  return { rows: [...first, ...rest], total, sampled: true };
+}
+
 export async function shotsGeoJson(actor: Actor, q: ShotQuery, db: Db = getDb()) {
   const f = await filteredRows(q, await scopeOf(actor, db), db, [isNotNull(shots.lat), isNotNull(shots.lon)]);
   if ("error" in f) return f.error;
-  const rows = f.w
-    ? await selectShots(db)
-        .where(and(...f.w))
-        .orderBy(asc(shots.takenAt), asc(shots.id))
-    : [];
+  const bounded = f.w && q.max ? await boundedRows(db, f.w, f.k, f.cut, q.max) : null;
+  const rows = bounded
+    ? bounded.rows
+    : f.w
+      ? await selectShots(db)
+          .where(and(...f.w))
+          .orderBy(asc(shots.takenAt), asc(shots.id))
+      : [];
   return {
     status: 200 as const,
     body: {
       type: "FeatureCollection" as const,
+      // RFC 7946 §6.1 foreign members, only when `max` was asked for
+      ...(q.max ? { total: bounded?.total ?? 0, sampled: bounded?.sampled ?? false } : {}),
       features: rows.map((r) => {
         const s = toJson(r, f.k, f.cut);
         return {
@@ -836,6 +887,11 @@ export async function shotsGeoJson(actor: Actor, q: ShotQuery, db: Db = getDb())
             illuminanceKlux: s.illuminanceKlux,
             accuracyM: s.position?.accuracyM ?? null,
             flags: s.flags,
+            // issue 16: what the map's shot panel shows, so the page needs no other per-shot read
+            rangeM: s.rangeM,
+            retro: s.retro,
+            targetLabel: s.targetLabel,
+            photoIds: s.photoIds,
           },
         };
       }),

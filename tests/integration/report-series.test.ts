@@ -249,3 +249,49 @@ test("a non-member asking the shots of the world's sensor (any sort or filter) g
   }
   expect((await shotsGet(`?sensor=${crypto.randomUUID()}&sort=-absError`)).status).toBe(404);
 });
+
+// ---- GET /api/shots.geojson?max=… (issue 16: the map at any number of shots) ----
+
+test("the map's GeoJSON with max: every notable shot first, then the fixed sample order; total and sampled say so; without max the answer is unchanged", async () => {
+  const { loader: geoLoader } = await import("~/routes/api.shots[.]geojson");
+  const { compareSample } = await import("~/domain");
+  const geo = (q: string) => call(geoLoader as never, apiRequest(`/api/shots.geojson${q}`, { user: w.users.qa }));
+  const report = await reportRows(w.failing.id);
+  const rule = report.ruleProjectId ? `&project=${report.ruleProjectId}` : "";
+  const notable = report.shots.filter((r) => r.excluded || !r.within || r.flags.length);
+  const others = report.shots.filter((r) => !(r.excluded || !r.within || r.flags.length));
+  expect(notable.length).toBeGreaterThan(3);
+  const max = notable.length + 3;
+  const g = await geo(`?sensor=${w.failing.id}${rule}&max=${max}`);
+  expect(g.status).toBe(200);
+  expect(g.json.total).toBe(report.shots.length);
+  expect(g.json.sampled).toBe(true);
+  const ids = (g.json.features as { properties: { id: string } }[]).map((f) => f.properties.id);
+  expect(ids).toHaveLength(max);
+  expect(new Set(ids.slice(0, notable.length))).toEqual(new Set(notable.map((r) => r.id)));
+  expect(ids.slice(notable.length)).toEqual(
+    [...others]
+      .sort(compareSample)
+      .slice(0, 3)
+      .map((r) => r.id),
+  );
+  // the shot panel's figures come with each feature
+  const f0 = g.json.features[0].properties;
+  expect(typeof f0.rangeM).toBe("number");
+  expect(typeof f0.targetLabel).toBe("string");
+  expect(Array.isArray(f0.photoIds)).toBe(true);
+  // fewer notable shots than asked: the largest |error| stay
+  const few = await geo(`?sensor=${w.failing.id}${rule}&max=2`);
+  const big = [...notable].sort((a, b) => Math.abs(b.errorMm) - Math.abs(a.errorMm) || (a.id < b.id ? -1 : 1)).slice(0, 2);
+  expect((few.json.features as { properties: { id: string } }[]).map((f) => f.properties.id)).toEqual(big.map((r) => r.id));
+  // enough room: every located shot, no sampling
+  const all = await geo(`?sensor=${w.failing.id}&max=1000`);
+  expect(all.json.sampled).toBe(false);
+  expect(all.json.features).toHaveLength(report.shots.length);
+  const plain = await geo(`?sensor=${w.failing.id}`);
+  expect(Object.keys(plain.json).sort()).toEqual(["features", "type"]);
+  const bad = await geo(`?sensor=${w.failing.id}&max=0`);
+  expect(bad.status).toBe(400);
+  expect(bad.json.errors[0].path).toBe("max");
+  expect((await call(geoLoader as never, apiRequest(`/api/shots.geojson?sensor=${w.failing.id}&max=10`, { user: outsider }))).status).toBe(404);
+});
