@@ -53,8 +53,8 @@ export type { LinearUncertainty, ReferenceUncertaintyInput, LaserClass, Accuracy
 export { explainVerdict, formatSignedMm, STRAY_SHARE } from "./explain.ts";
 export type { ExplainInput, FlaggedGroup, FlaggedShot, IncludedTotals, VerdictExplanation } from "./explain.ts";
 // issue 16: the report charts' series at any n
-export { binIndex, compareNotable, compareSample, errorSeries, isNotable, sampleKey, SERIES_BINS, SERIES_MAX_NOTABLE, SERIES_PER_BIN } from "./series.ts";
-export type { ErrorSeries, SeriesBin, SeriesRow } from "./series.ts";
+export { binIndex, compareNotable, compareSample, errorSeries, includedTotals, isNotable, sampleKey, seriesCells, SERIES_BINS, SERIES_MAX_NOTABLE, SERIES_PER_BIN } from "./series.ts";
+export type { CellRow, ErrorSeries, SeriesBin, SeriesCell, SeriesRow } from "./series.ts";
 // issue 18: check-shots from scans and depth frames (ranging.md §8)
 export { symmetricEigen3 } from "./eigen3.ts";
 export type { Vec3, Sym3, Eigen3 } from "./eigen3.ts";

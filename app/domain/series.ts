@@ -2,8 +2,12 @@
 // a browser seconds to draw and reads no better than a few thousand, so the error-against-distance
 // chart draws every shot that needs a look (excluded, outside its limit, flagged), a
 // deterministic sample of the others per distance bin, and the full spread (min, max, count) of
-// the others per bin as a band. This module is the definition; the server computes the same in
-// SQL (app/models/report-series.server.ts) and its test compares the two over the full rows.
+// the others per bin as a band. This module is the definition, and the server runs it over the
+// selection's columns read in one query (app/models/report-series.server.ts).
+import { illuminanceBand, reflectanceClass } from "./coverage.ts";
+import type { IlluminanceBand, ReflectanceClass } from "./types.ts";
+import type { IncludedTotals } from "./explain.ts";
+import { mean } from "./stats.ts";
 
 /** One shot as the chart reads it; `lim` is the report rule's limit k·T(D) (mm). */
 export type SeriesRow = { id: string; d: number; e: number; lim: number; within: boolean; excluded: boolean; flagged: boolean };
@@ -88,12 +92,58 @@ export function errorSeries(rows: readonly SeriesRow[], opts: { bins?: number; p
     const list = rest.get(i)!;
     let minE = Infinity;
     let maxE = -Infinity;
+    // the first perBin in sample order, kept sorted while walking the bin once (no sort of the bin)
+    const keep: SeriesRow[] = [];
     for (const r of list) {
       if (r.e < minE) minE = r.e;
       if (r.e > maxE) maxE = r.e;
+      if (keep.length === perBin && compareSample(r, keep[perBin - 1]!) >= 0) continue;
+      let at = keep.length;
+      while (at > 0 && compareSample(r, keep[at - 1]!) < 0) at--;
+      keep.splice(at, 0, r);
+      if (keep.length > perBin) keep.pop();
     }
     binRows.push({ i, d0: dMin + i * width, d1: dMin + (i + 1) * width, n: list.length, minE, maxE });
-    sample.push(...[...list].sort(compareSample).slice(0, perBin));
+    sample.push(...keep);
   }
   return { total: rows.length, notableTotal: notable.length, points: [...notable.slice(0, maxNotable), ...sample], bins: binRows, dMin, dMax };
+}
+
+/** A shot as the reflectance × illuminance cells and the verdict's totals read it. */
+export type CellRow = { e: number; lim: number; within: boolean; excluded: boolean; reflectancePct: number | null; retro: boolean; illuminanceKlux: number | null };
+
+export type SeriesCell = { reflectance: ReflectanceClass; illuminance: IlluminanceBand; n: number; biasMm: number; outside: number };
+
+/** Per reflectance class × illuminance band of the included shots: count, bias (mean error), count outside the limit. */
+export function seriesCells(rows: readonly CellRow[]): SeriesCell[] {
+  const groups = new Map<string, { r: ReflectanceClass; i: IlluminanceBand; e: number[]; outside: number }>();
+  for (const row of rows) {
+    if (row.excluded || row.reflectancePct == null || row.illuminanceKlux == null) continue;
+    const r = reflectanceClass(row.reflectancePct, row.retro);
+    const i = illuminanceBand(row.illuminanceKlux);
+    const key = `${r}|${i}`;
+    let g = groups.get(key);
+    if (!g) groups.set(key, (g = { r, i, e: [], outside: 0 }));
+    g.e.push(row.e);
+    if (!row.within) g.outside++;
+  }
+  return [...groups.values()].map((g) => ({ reflectance: g.r, illuminance: g.i, n: g.e.length, biasMm: mean(g.e), outside: g.outside }));
+}
+
+/** n, Σe, Σe², within and ΣT(D) (= Σ limit / k) of the included shots: what explainVerdict needs beside the flagged rows. */
+export function includedTotals(rows: readonly Pick<CellRow, "e" | "lim" | "within" | "excluded">[], coverageK: number): IncludedTotals {
+  let n = 0;
+  let sumMm = 0;
+  let sumSqMm2 = 0;
+  let within = 0;
+  let sumTMm = 0;
+  for (const r of rows) {
+    if (r.excluded) continue;
+    n++;
+    sumMm += r.e;
+    sumSqMm2 += r.e * r.e;
+    if (r.within) within++;
+    sumTMm += r.lim / coverageK;
+  }
+  return { n, sumMm, sumSqMm2, within, sumTMm };
 }
