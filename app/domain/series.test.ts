@@ -1,7 +1,7 @@
 // issue 16: the chart series against a brute-force reading of every row (the properties the
 // chart's caption promises), on a small invented set where the answers can be counted by hand.
 import { expect, test } from "vitest";
-import { binIndex, errorSeries, isNotable, type SeriesRow } from "./series.ts";
+import { binIndex, errorSeries, isNotable, sampleKey, type SeriesRow } from "./series.ts";
 
 /** A deterministic pseudo-random stream (Park–Miller minimal standard generator, 1988). */
 function lcg(seed: number) {
@@ -18,7 +18,7 @@ function rows(n: number, seed = 7): SeriesRow[] {
     const hex = Math.floor(r() * 2 ** 48)
       .toString(16)
       .padStart(12, "0");
-    return { id: `00000000-0000-4000-8000-${hex}`, d, e, lim, within: Math.abs(e) <= lim, excluded: i % 211 === 0, flagged: i % 331 === 0 };
+    return { id: `00000000-0000-4000-8000-${hex}`, key: sampleKey(i + 1), d, e, lim, within: Math.abs(e) <= lim, excluded: i % 211 === 0, flagged: i % 331 === 0 };
   });
 }
 
@@ -81,9 +81,21 @@ test("beyond the cap, the notable shots with the largest |error| stay, and the c
   expect(smallestDrawn).toBe(Math.abs(notable[99]!.e));
 });
 
+test("the sample key scatters consecutive row numbers over 32 bits (Knuth's multiplicative hash)", () => {
+  // 1 × 0x9e3779b9 = 2654435769 (Knuth's constant itself); 2 × it mod 2³² = 1013904242
+  expect(sampleKey(1)).toBe(2654435769);
+  expect(sampleKey(2)).toBe(1013904242);
+  const keys = Array.from({ length: 1000 }, (_, i) => sampleKey(i + 1));
+  expect(new Set(keys).size).toBe(1000);
+  // the first tenth in key order comes from all over the numbering, not from its start
+  const first = [...keys.keys()].sort((a, b) => keys[a]! - keys[b]!).slice(0, 100);
+  expect(Math.max(...first)).toBeGreaterThan(800);
+  expect(Math.min(...first)).toBeLessThan(200);
+});
+
 test("no shots, one distance: empty and single-bin series", () => {
   expect(errorSeries([])).toMatchObject({ total: 0, points: [], bins: [] });
-  const one = errorSeries([{ id: "a", d: 10, e: 1, lim: 5, within: true, excluded: false, flagged: false }]);
+  const one = errorSeries([{ id: "a", key: 1, d: 10, e: 1, lim: 5, within: true, excluded: false, flagged: false }]);
   expect(one.bins).toEqual([{ i: 0, d0: 10, d1: 10, n: 1, minE: 1, maxE: 1 }]);
   expect(binIndex(10, 10, 10)).toBe(0);
 });

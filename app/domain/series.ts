@@ -9,8 +9,11 @@ import type { IlluminanceBand, ReflectanceClass } from "./types.ts";
 import type { IncludedTotals } from "./explain.ts";
 import { mean } from "./stats.ts";
 
-/** One shot as the chart reads it; `lim` is the report rule's limit k·T(D) (mm). */
-export type SeriesRow = { id: string; d: number; e: number; lim: number; within: boolean; excluded: boolean; flagged: boolean };
+/**
+ * One shot as the chart reads it; `lim` is the report rule's limit k·T(D) (mm); `key` orders the
+ * sample (sampleKey of the shot's row number: the server reads it from an index, the id not).
+ */
+export type SeriesRow = { id: string; key: number; d: number; e: number; lim: number; within: boolean; excluded: boolean; flagged: boolean };
 
 /** The spread of the shots not drawn one by one, per distance bin. */
 export type SeriesBin = { i: number; d0: number; d1: number; n: number; minE: number; maxE: number };
@@ -42,18 +45,17 @@ export function binIndex(d: number, dMin: number, dMax: number, bins = SERIES_BI
 }
 
 /**
- * The order of the sample within a bin: the last 12 characters of the id (the random part of
- * a UUID, v4 or v7), then the whole id. Ids are random, so the first m in this order are an
- * unbiased sample that is the same on every view; SQLite compares the same bytes.
+ * The order of the sample within a bin: a multiplicative hash of the shot's row number (Knuth,
+ * TAOCP vol. 3 §6.4: × 2654435769 = 0x9e3779b9, the golden ratio of 2³², kept to 32 bits). Rows
+ * are numbered as they arrive, the hash scatters them, so the first m in this order are a sample
+ * spread over time that is the same on every view.
  */
-export function sampleKey(id: string): string {
-  return id.slice(24);
+export function sampleKey(rowNumber: number): number {
+  return Math.imul(rowNumber | 0, 0x9e3779b9) >>> 0;
 }
 
-export function compareSample(a: { id: string }, b: { id: string }): number {
-  const ka = sampleKey(a.id);
-  const kb = sampleKey(b.id);
-  if (ka !== kb) return ka < kb ? -1 : 1;
+export function compareSample(a: { key: number; id: string }, b: { key: number; id: string }): number {
+  if (a.key !== b.key) return a.key - b.key;
   return a.id < b.id ? -1 : a.id > b.id ? 1 : 0;
 }
 

@@ -5,7 +5,7 @@
 // flagged rows equals the one over every row; the table's sort, filters and cursor walk every
 // shot once; outside the reader's projects everything answers 404.
 import { beforeAll, expect, test } from "vitest";
-import { errorSeries, explainVerdict, illuminanceBand, mean, reflectanceClass, type ReportShotRow, type SeriesRow } from "~/domain";
+import { errorSeries, explainVerdict, illuminanceBand, mean, reflectanceClass, sampleKey, type ReportShotRow, type SeriesRow } from "~/domain";
 import { loader as reportLoader } from "~/routes/api.sensors.$sensorId.report";
 import { loader as seriesLoader } from "~/routes/api.sensors.$sensorId.report.series";
 import { loader as shotsLoader } from "~/routes/api.shots";
@@ -37,6 +37,28 @@ type Series = {
   explain: { included: { n: number; sumMm: number; sumSqMm2: number; within: number; sumTMm: number }; flagged: ReportShotRow[] };
 };
 
+/**
+ * The report's rows as the series reads them: the sample key is that of each shot's row number,
+ * and ties go by the row number, as on the server (which reads no id until it names the drawn
+ * shots); `named` turns the row numbers back into ids.
+ */
+const byRow = new Map<string, string>();
+async function seriesRowsOf(list: ReportShotRow[]): Promise<SeriesRow[]> {
+  const { getDb } = await import("~/db/client.server");
+  const { sql } = await import("drizzle-orm");
+  const got = await getDb().all<{ rn: number; id: string }>(sql`SELECT rowid AS rn, id FROM shots WHERE id IN (SELECT value FROM json_each(${JSON.stringify(list.map((r) => r.id))}))`);
+  const rn = new Map(got.map((g) => [g.id, Number(g.rn)]));
+  return list.map((r) => {
+    const n = rn.get(r.id)!;
+    const id = String(n).padStart(16, "0");
+    byRow.set(id, r.id);
+    return { id, key: sampleKey(n), d: r.referenceM, e: r.errorMm, lim: r.limitMm, within: r.within, excluded: r.excluded, flagged: r.flags.length > 0 };
+  });
+}
+function named<T extends { points: SeriesRow[] }>(x: T): T {
+  return { ...x, points: x.points.map((p) => ({ ...p, id: byRow.get(p.id)! })) };
+}
+
 async function seriesOf(sensorId: string, query = "", user = w.users.qa) {
   return call(seriesLoader as never, apiRequest(`/api/sensors/${sensorId}/report/series${query}`, { user }), { sensorId });
 }
@@ -55,8 +77,8 @@ for (const which of ["failing", "wrap"] as const) {
     const s = res.json as Series;
     expect(s.ruleProjectId).toBe(report.ruleProjectId);
     expect(s.coverageK).toBe(report.rule.coverageK);
-    const rows: SeriesRow[] = report.shots.map((r) => ({ id: r.id, d: r.referenceM, e: r.errorMm, lim: r.limitMm, within: r.within, excluded: r.excluded, flagged: r.flags.length > 0 }));
-    const want = errorSeries(rows);
+    const rows = await seriesRowsOf(report.shots);
+    const want = named(errorSeries(rows));
     expect(s.errorSeries.total).toBe(want.total);
     expect(s.errorSeries.notableTotal).toBe(want.notableTotal);
     expect(s.errorSeries.notableTotal).toBeGreaterThan(0);
@@ -73,12 +95,12 @@ for (const which of ["failing", "wrap"] as const) {
 test("with small bins, samples and cap (so that the server really samples), the SQL series still equals errorSeries over every row", async () => {
   for (const id of [w.failing.id, wrapSensorId]) {
     const report = await reportRows(id);
-    const rows: SeriesRow[] = report.shots.map((r) => ({ id: r.id, d: r.referenceM, e: r.errorMm, lim: r.limitMm, within: r.within, excluded: r.excluded, flagged: r.flags.length > 0 }));
+    const rows = await seriesRowsOf(report.shots);
     for (const sizes of [
       { bins: 3, perBin: 2, maxNotable: 3 },
       { bins: 7, perBin: 1, maxNotable: 1 },
     ]) {
-      const want = errorSeries(rows, sizes);
+      const want = named(errorSeries(rows, sizes));
       const got = await reportSeries(w.users.qa, id, new URLSearchParams(), undefined, sizes);
       if (got.status !== 200) throw new Error(JSON.stringify(got.body));
       expect(got.body.errorSeries.points.length).toBeLessThan(rows.length);
@@ -254,7 +276,6 @@ test("a non-member asking the shots of the world's sensor (any sort or filter) g
 
 test("the map's GeoJSON with max: every notable shot first, then the fixed sample order; total and sampled say so; without max the answer is unchanged", async () => {
   const { loader: geoLoader } = await import("~/routes/api.shots[.]geojson");
-  const { compareSample } = await import("~/domain");
   const geo = (q: string) => call(geoLoader as never, apiRequest(`/api/shots.geojson${q}`, { user: w.users.qa }));
   const report = await reportRows(w.failing.id);
   const rule = report.ruleProjectId ? `&project=${report.ruleProjectId}` : "";
@@ -271,7 +292,7 @@ test("the map's GeoJSON with max: every notable shot first, then the fixed sampl
   expect(new Set(ids.slice(0, notable.length))).toEqual(new Set(notable.map((r) => r.id)));
   expect(ids.slice(notable.length)).toEqual(
     [...others]
-      .sort(compareSample)
+      .sort((a, b) => (a.id.slice(24) < b.id.slice(24) ? -1 : a.id.slice(24) > b.id.slice(24) ? 1 : a.id < b.id ? -1 : 1))
       .slice(0, 3)
       .map((r) => r.id),
   );
