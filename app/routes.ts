@@ -95,6 +95,8 @@ export default [
     route("projects/:projectId/shots.geojson", "routes/api.projects.$projectId.shots[.]geojson.ts"),
     // issue 14: projects with their members (registry)
     route("projects", "routes/api.projects.ts"),
+    // issue 16: the report page's chart series and "why this verdict", drawn at any number of shots
+    route("sensors/:sensorId/report/series", "routes/api.sensors.$sensorId.report.series.ts"),
   ]),
 
   route("*", "routes/not-found.tsx"),

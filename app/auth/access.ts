@@ -106,4 +106,6 @@ export const ACCESS: Record<string, MethodAccess> = {
   "routes/api.projects.$projectId.shots[.]geojson.ts": { GET: ALL },
   // ---- issue 14: projects with their members from a script (admin) ----
   "routes/api.projects.ts": { POST: ADMIN },
+  // ---- issue 16: the report page's chart series (every role reads reports; scoped in the model) ----
+  "routes/api.sensors.$sensorId.report.series.ts": { GET: ALL },
 };

@@ -355,6 +355,12 @@ export const shots = sqliteTable(
       t.takenAt,
       t.referenceMethod,
     ),
+    // issue 16 (q16): the few wrapped shots of a sensor without reading every row (the report
+    // page's series reads everything else from shots_sensor_error); partial, so it costs an
+    // insert nothing unless the shot wrapped
+    index("shots_sensor_wrap")
+      .on(t.sensorId)
+      .where(sql`wrap = 1`),
   ],
 );
 

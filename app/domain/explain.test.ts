@@ -154,3 +154,46 @@ test("the tests without the flagged shots equal the ranging core's report with t
     else expect(mine.value!).toBeCloseTo(t.value, 9);
   }
 });
+
+/** issue 16: the same input as the server gives it: the included totals and only the flagged included rows. */
+function fromTotals(inp: ExplainInput): ExplainInput {
+  const inc = inp.shots.filter((s) => !s.excluded);
+  const included = {
+    n: inc.length,
+    sumMm: inc.reduce((a, s) => a + s.errorMm, 0),
+    sumSqMm2: inc.reduce((a, s) => a + s.errorMm * s.errorMm, 0),
+    within: inc.filter((s) => s.within).length,
+    sumTMm: inc.reduce((a, s) => a + s.limitMm / inp.coverageK, 0),
+  };
+  return { ...inp, shots: inc.filter((s) => s.flags.length > 0), included };
+}
+
+test("issue 16: from the included totals and the flagged rows alone, the explanation is the one over every row", () => {
+  const sets = [
+    { rows: [row(1), row(-1), row(2), row(0), row(-29953, ["outlier", "wrap"])], min: 4, prec: 8.07, sd: 13395 },
+    { rows: [row(1), row(-1), row(2), row(0), row(-29953, ["wrap"])], min: 5, prec: 8.07, sd: 13395 },
+    { rows: [...Array.from({ length: 10 }, () => row(6)), row(9, ["outlier"])], min: 5, prec: 20, sd: 0.9 },
+    { rows: [...Array.from({ length: 14 }, () => row(0.5)), ...Array.from({ length: 6 }, (_, i) => row(18 + i / 10, ["outlier"]))], min: 5, prec: 20, sd: 8 },
+    { rows: [row(1), row(-29953, ["wrap"])], min: 4, prec: 9, sd: 21180 },
+    { rows: [row(1), row(-1), row(2), row(0), row(-29953, ["wrap"], true), row(3.5, ["outlier"])], min: 4, prec: 8.07, sd: 1.8 },
+  ];
+  for (const { rows, min, prec, sd } of sets) {
+    const full = input(rows, testsOf(rows, min, prec, sd));
+    const all = explainVerdict(full);
+    const few = explainVerdict(fromTotals(full));
+    expect(few.lines).toEqual(all.lines);
+    expect(few.flagged).toEqual(all.flagged);
+    expect(few.stray).toBe(all.stray);
+    expect(few.drives).toEqual(all.drives);
+    if (all.without == null) expect(few.without).toBeNull();
+    else {
+      expect(few.without!.verdict).toBe(all.without.verdict);
+      for (const t of all.without.tests) {
+        const mine = few.without!.tests.find((x) => x.name === t.name)!;
+        expect(mine.pass).toBe(t.pass);
+        if (t.value == null) expect(mine.value).toBeNull();
+        else expect(mine.value!).toBeCloseTo(t.value, 6);
+      }
+    }
+  }
+});

@@ -14,7 +14,16 @@ export type ExplainInput = {
   shots: Pick<ReportShotRow, "id" | "errorMm" | "limitMm" | "within" | "excluded" | "flags">[];
   /** The rule's coverage factor k: a row's limit is k·T(D), so T(D) = limit / k. */
   coverageK: number;
+  /**
+   * issue 16: sums over ALL included shots of the selection. With them `shots` need only hold
+   * the flagged included shots (a report of 100,000 shots explains itself from a few rows);
+   * without them `shots` must hold every shot.
+   */
+  included?: IncludedTotals;
 };
+
+/** n, Σe, Σe², the count within its limit and ΣT(D) = Σ limit / k over the included shots. */
+export type IncludedTotals = { n: number; sumMm: number; sumSqMm2: number; within: number; sumTMm: number };
 
 export type FlaggedShot = { id: string; errorMm: number };
 /** Included shots under one flag; a shot flagged both wrap and outlier counts as wrap (the more specific cause). */
@@ -120,23 +129,41 @@ function groupText(g: FlaggedGroup): string {
 }
 
 /** The four tests of ranging.md §6 over a subset of rows, with the limits the report used. */
-function testsWithout(input: ExplainInput, keep: ExplainInput["shots"]): { n: number; verdict: Verdict; tests: AcceptanceTest[] } {
+function testsWithout(input: ExplainInput, keep: ExplainInput["shots"], drop: ExplainInput["shots"]): { n: number; verdict: Verdict; tests: AcceptanceTest[] } {
   const byName = new Map(input.tests.map((t) => [t.name, t]));
   const minShots = byName.get("count")?.limit ?? 0;
   const minWithin = byName.get("within")?.limit ?? 0;
   const a = byName.get("bias")?.limit ?? 0;
-  const n = keep.length;
+  let n: number;
   let s1 = 0;
   let within = 0;
   let sumT = 0;
-  for (const r of keep) {
-    s1 += r.errorMm;
-    if (r.within) within++;
-    sumT += r.limitMm / input.coverageK;
+  let sd: number | null = null;
+  const tot = input.included;
+  if (tot) {
+    // the totals less the dropped shots (their sums are small beside the totals' magnitude)
+    let sq = tot.sumSqMm2;
+    s1 = tot.sumMm;
+    within = tot.within;
+    sumT = tot.sumTMm;
+    for (const r of drop) {
+      s1 -= r.errorMm;
+      sq -= r.errorMm * r.errorMm;
+      if (r.within) within--;
+      sumT -= r.limitMm / input.coverageK;
+    }
+    n = tot.n - drop.length;
+    if (n > 1) sd = Math.sqrt(Math.max(0, sq - (s1 * s1) / n) / (n - 1));
+  } else {
+    n = keep.length;
+    for (const r of keep) {
+      s1 += r.errorMm;
+      if (r.within) within++;
+      sumT += r.limitMm / input.coverageK;
+    }
   }
   const bias = n ? s1 / n : null;
-  let sd: number | null = null;
-  if (n > 1 && bias != null) {
+  if (!tot && n > 1 && bias != null) {
     let ss = 0;
     for (const r of keep) ss += (r.errorMm - bias) ** 2;
     sd = Math.sqrt(ss / (n - 1));
@@ -183,7 +210,8 @@ export function explainVerdict(input: ExplainInput): VerdictExplanation {
   if (wrap.length) flagged.push({ flag: "wrap", shots: wrap });
   if (outlier.length) flagged.push({ flag: "outlier", shots: outlier });
   const nFlagged = wrap.length + outlier.length;
-  const stray = nFlagged > 0 && nFlagged <= Math.max(1, STRAY_SHARE * included.length);
+  const nIncluded = input.included ? input.included.n : included.length;
+  const stray = nFlagged > 0 && nFlagged <= Math.max(1, STRAY_SHARE * nIncluded);
 
   let without: VerdictExplanation["without"] = null;
   let drives: TestName[] = [];
@@ -193,6 +221,7 @@ export function explainVerdict(input: ExplainInput): VerdictExplanation {
     without = testsWithout(
       input,
       included.filter((s) => !ids.has(s.id)),
+      included.filter((s) => ids.has(s.id)),
     );
     const after = new Map(without.tests.map((t) => [t.name, t]));
     drives = failed.filter((name) => name !== "count" && after.get(name)!.pass);
@@ -203,7 +232,7 @@ export function explainVerdict(input: ExplainInput): VerdictExplanation {
       const them = one ? "it" : "them";
       const stillFailing = failedTests.filter((t) => t.name !== "count" && !drives.includes(t.name));
       if (!stray) {
-        const pct = ((100 * nFlagged) / included.length).toFixed(0);
+        const pct = ((100 * nFlagged) / nIncluded).toFixed(0);
         flaggedLine = `${who}: ${pct} % of the included shots, too many to be stray shots — look for a pattern (targets, light, range) before excluding any.`;
       } else if (drives.length) {
         const tests = drives.map((n) => TEST_NOUN[n]);

@@ -51,7 +51,10 @@ export {
 } from "./uncertainty.ts";
 export type { LinearUncertainty, ReferenceUncertaintyInput, LaserClass, AccuracyStatement, StatementFigures } from "./uncertainty.ts";
 export { explainVerdict, formatSignedMm, STRAY_SHARE } from "./explain.ts";
-export type { ExplainInput, FlaggedGroup, FlaggedShot, VerdictExplanation } from "./explain.ts";
+export type { ExplainInput, FlaggedGroup, FlaggedShot, IncludedTotals, VerdictExplanation } from "./explain.ts";
+// issue 16: the report charts' series at any n
+export { binIndex, compareNotable, compareSample, errorSeries, includedTotals, isNotable, sampleKey, seriesCells, SERIES_BINS, SERIES_MAX_NOTABLE, SERIES_PER_BIN } from "./series.ts";
+export type { CellRow, ErrorSeries, SeriesBin, SeriesCell, SeriesRow } from "./series.ts";
 // issue 18: check-shots from scans and depth frames (ranging.md §8)
 export { symmetricEigen3 } from "./eigen3.ts";
 export type { Vec3, Sym3, Eigen3 } from "./eigen3.ts";

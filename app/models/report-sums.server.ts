@@ -1,4 +1,4 @@
-// The figures of a sensor report from the database (issue 16; docs/decisions/0001-report-read-path.md):
+// The figures of a sensor report from the database (issue 16; docs/decisions/0006-report-read-path.md):
 // group sums of the selection and its included errors in ascending order, in one read
 // transaction. readSums is the whole read; on the production server it runs on a worker
 // thread with its own connection (report-pool.server.ts), so the request thread never waits

@@ -4,7 +4,7 @@
 import { and, asc, eq, gt, gte, inArray, isNotNull, lt, lte, or, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { exclusions, photos, projects, shots, targets } from "~/db/schema";
-import { BRIGHT_ABOVE_PCT, DARK_BELOW_PCT, mad, MAD_TO_SIGMA, median, OUTLIER_K } from "~/domain";
+import { BRIGHT_ABOVE_PCT, DARK_BELOW_PCT, MAD_TO_SIGMA, orderStatistics, OUTLIER_K } from "~/domain";
 import type { RecordError } from "~/contract";
 import type { Actor } from "./actor";
 import { canSeeProject, canSeeSensor, scopeOf, sessionIdInScope, visibleSessionIds, type Scope } from "./scope.server";
@@ -74,15 +74,29 @@ export type ShotQuery = {
   reflectance?: "dark" | "mid" | "bright" | "retro";
   within?: boolean;
   excluded?: boolean;
-  flag?: "outlier" | "wrap" | "excluded";
+  /** issue 16: "any" = outlier or wrap (the table's "flagged"). */
+  flag?: "outlier" | "wrap" | "excluded" | "any";
   from?: string;
   to?: string;
   project?: string;
   cursor?: { takenAt: string; id: string };
+  /** issue 16: the table's order (default takenAt ascending) and a cursor of that order. */
+  sort?: { key: ShotSortKey; dir: 1 | -1 };
+  sortCursor?: { v: number | string; id: string };
+  /** issue 16: also answer the number of shots matching the filters (`total`). */
+  count?: boolean;
+  /** issue 16 (GeoJSON): at most this many features, the notable ones first, then a fixed sample. */
+  max?: number;
   limit: number;
 };
 
+/** issue 16: the orders of GET /api/shots (`sort=key` ascending, `sort=-key` descending). */
+export const SHOT_SORT_KEYS = ["takenAt", "referenceM", "errorMm", "absError", "limitMm"] as const;
+export type ShotSortKey = (typeof SHOT_SORT_KEYS)[number];
+
 export const SHOTS_PAGE_MAX = 1000;
+/** issue 16: the most features a bounded GeoJSON answer (`max`) may ask for. */
+export const GEOJSON_MAX = 50_000;
 const REFLECTANCE_CLASSES = ["dark", "mid", "bright", "retro"] as const;
 
 export function encodeCursor(takenAt: string, id: string) {
@@ -91,7 +105,19 @@ export function encodeCursor(takenAt: string, id: string) {
 function decodeCursor(s: string): { takenAt: string; id: string } | null {
   try {
     const v = JSON.parse(Buffer.from(s, "base64url").toString("utf8"));
-    if (Array.isArray(v) && typeof v[0] === "string" && typeof v[1] === "string") return { takenAt: v[0], id: v[1] };
+    if (Array.isArray(v) && v.length === 2 && typeof v[0] === "string" && typeof v[1] === "string") return { takenAt: v[0], id: v[1] };
+  } catch {}
+  return null;
+}
+
+/** issue 16: a cursor of a sorted listing names its order, so it is never read under another one. */
+export function encodeSortCursor(sort: string, v: number | string, id: string) {
+  return Buffer.from(JSON.stringify([sort, v, id])).toString("base64url");
+}
+function decodeSortCursor(s: string): { sort: string; v: number | string; id: string } | null {
+  try {
+    const v = JSON.parse(Buffer.from(s, "base64url").toString("utf8"));
+    if (Array.isArray(v) && v.length === 3 && typeof v[0] === "string" && (typeof v[1] === "number" || typeof v[1] === "string") && typeof v[2] === "string") return { sort: v[0], v: v[1], id: v[2] };
   } catch {}
   return null;
 }
@@ -159,15 +185,21 @@ export function parseShotQuery(url: URL, opts: { paged: boolean }): ShotQuery | 
   }
   const flag = q.get("flag");
   if (flag) {
-    if (flag === "outlier" || flag === "wrap" || flag === "excluded") out.flag = flag;
-    else errors.push({ path: "flag", message: "flag must be outlier, wrap or excluded" });
-    if (flag === "outlier" && !sensor) errors.push({ path: "flag", message: "flag=outlier needs a sensor: outliers are judged among one sensor's shots" });
+    if (flag === "outlier" || flag === "wrap" || flag === "excluded" || flag === "any") out.flag = flag;
+    else errors.push({ path: "flag", message: "flag must be outlier, wrap, excluded or any (outlier or wrap)" });
+    if ((flag === "outlier" || flag === "any") && !sensor) errors.push({ path: "flag", message: `flag=${flag} needs a sensor: outliers are judged among one sensor's shots` });
   }
   for (const key of ["from", "to"] as const) {
     const v = q.get(key);
     if (!v) continue;
     if (periodDay(v)) out[key] = v;
     else errors.push({ path: key, message: `${key} must be a date (YYYY-MM-DD)` });
+  }
+  const max = q.get("max");
+  if (max && !opts.paged) {
+    const n = Number(max);
+    if (Number.isInteger(n) && n >= 1 && n <= GEOJSON_MAX) out.max = n;
+    else errors.push({ path: "max", message: `max must be a whole number from 1 to ${GEOJSON_MAX}` });
   }
   if (opts.paged) {
     const limit = q.get("limit");
@@ -176,10 +208,25 @@ export function parseShotQuery(url: URL, opts: { paged: boolean }): ShotQuery | 
       if (Number.isInteger(n) && n >= 1 && n <= SHOTS_PAGE_MAX) out.limit = n;
       else errors.push({ path: "limit", message: `limit must be a whole number from 1 to ${SHOTS_PAGE_MAX}` });
     }
+    const sort = q.get("sort");
+    if (sort) {
+      const key = sort.replace(/^-/, "");
+      if ((SHOT_SORT_KEYS as readonly string[]).includes(key)) out.sort = { key: key as ShotSortKey, dir: sort.startsWith("-") ? -1 : 1 };
+      else errors.push({ path: "sort", message: `sort must be one of ${SHOT_SORT_KEYS.join(", ")}, with a leading "-" for descending` });
+    }
+    const count = q.get("count");
+    if (count) {
+      if (count === "true" || count === "false") out.count = count === "true";
+      else errors.push({ path: "count", message: "count must be true or false" });
+    }
     const cursor = q.get("cursor");
     if (cursor) {
-      const c = decodeCursor(cursor);
+      const sorted = out.sort && !(out.sort.key === "takenAt" && out.sort.dir === 1);
+      const c = sorted ? null : decodeCursor(cursor);
+      const sc = sorted ? decodeSortCursor(cursor) : null;
       if (c) out.cursor = c;
+      else if (sc && sc.sort === sort) out.sortCursor = { v: sc.v, id: sc.id };
+      else if (sc || decodeCursor(cursor) || decodeSortCursor(cursor)) errors.push({ path: "cursor", message: "cursor belongs to another sort order; start again without a cursor" });
       else errors.push({ path: "cursor", message: "cursor is not one this server gave out" });
     }
   }
@@ -199,16 +246,25 @@ function selectionWhere(q: ShotQuery, scope: Scope): SQL[] {
   return w;
 }
 
+function cutOf(sorted: Float64Array): { med: number; cut: number } | null {
+  const o = orderStatistics(sorted);
+  return o ? { med: o.median, cut: OUTLIER_K * MAD_TO_SIGMA * o.mad } : null;
+}
+
 /** Median and cut of the outlier flag over the included shots of the selection (ranging.md §4). */
 async function outlierCut(q: ShotQuery, scope: Scope, db: Db): Promise<{ med: number; cut: number } | null> {
   if (!q.sensor) return null;
-  const rows = await db
-    .select({ e: shots.errorMm })
-    .from(shots)
-    .where(and(...selectionWhere(q, scope), eq(shots.excluded, false)));
-  if (!rows.length) return null;
-  const e = Float64Array.from(rows, (r) => r.e);
-  return { med: median(e), cut: OUTLIER_K * MAD_TO_SIGMA * mad(e) };
+  // issue 16: the errors as ONE text value in index order (a JS object per row costs ~1 s of CPU at
+  // 100,000 shots, on every page of the table); %!.17g reads back bit for bit
+  const [row] = await db.all<{ v: string | null }>(sql`
+    SELECT group_concat(v) AS v FROM (
+      SELECT printf('%!.17g', ${shots.errorMm}) AS v FROM ${shots} WHERE ${and(...selectionWhere(q, scope), eq(shots.excluded, false))} ORDER BY ${shots.errorMm}
+    )`);
+  if (!row || row.v == null) return null;
+  const e = Float64Array.from(JSON.parse(`[${row.v}]`) as number[]);
+  // SQLite keeps the subquery's order through group_concat in practice, though it does not promise it
+  for (let i = 1; i < e.length; i++) if (e[i - 1]! > e[i]!) return cutOf(e.sort());
+  return cutOf(e);
 }
 
 async function kFor(projectId: string | undefined, scope: Scope, db: Db): Promise<number | null | undefined> {
@@ -284,42 +340,130 @@ async function filteredRows(q: ShotQuery, scope: Scope, db: Db, extra: SQL[]): P
     if (!cut) return { w: null, k, cut };
     w.push(sql`abs(${shots.errorMm} - ${cut.med}) > ${cut.cut}`);
   }
+  if (q.flag === "any") w.push(cut ? sql`(${shots.wrap} OR abs(${shots.errorMm} - ${cut.med}) > ${cut.cut})` : eq(shots.wrap, true));
   return { w, k, cut };
 }
 
-export async function listShots(actor: Actor, q: ShotQuery, db: Db = getDb()): Promise<{ status: 200; body: { shots: ShotJson[]; nextCursor: string | null } } | QueryError> {
-  const extra: SQL[] = [];
-  if (q.cursor) extra.push(or(gt(shots.takenAt, q.cursor.takenAt), and(eq(shots.takenAt, q.cursor.takenAt), gt(shots.id, q.cursor.id)))!);
-  const f = await filteredRows(q, await scopeOf(actor, db), db, extra);
+/** issue 16: a sort key as SQL, and the same value of an answered row (the next page's cursor). */
+function sortExpr(key: Exclude<ShotSortKey, "takenAt">, k: number | undefined): SQL {
+  if (key === "absError") return sql`abs(${shots.errorMm})`;
+  if (key === "limitMm") return k === undefined ? sql`${shots.limitMm}` : sql`(${k} * ${shots.toleranceMm})`;
+  return key === "errorMm" ? sql`${shots.errorMm}` : sql`${shots.referenceM}`;
+}
+function sortValue(key: Exclude<ShotSortKey, "takenAt">, s: ShotJson): number {
+  return key === "absError" ? Math.abs(s.errorMm) : key === "limitMm" ? s.limitMm : key === "errorMm" ? s.errorMm : s.referenceM;
+}
+
+export type ShotPage = { shots: ShotJson[]; nextCursor: string | null; total?: number };
+
+export async function listShots(actor: Actor, q: ShotQuery, db: Db = getDb()): Promise<{ status: 200; body: ShotPage } | QueryError> {
+  const sort = q.sort ?? { key: "takenAt" as const, dir: 1 as const };
+  const timeDesc = sort.key === "takenAt" && sort.dir === -1;
+  const byTime = sort.key === "takenAt" && sort.dir === 1;
+  const f = await filteredRows(q, await scopeOf(actor, db), db, []);
   if ("error" in f) return f.error;
-  if (!f.w) return { status: 200, body: { shots: [], nextCursor: null } };
-  const rows = await selectShots(db)
-    .where(and(...f.w))
-    .orderBy(asc(shots.takenAt), asc(shots.id))
-    .limit(q.limit + 1);
-  const page = rows.slice(0, q.limit);
-  const last = page[page.length - 1];
+  if (!f.w) return { status: 200, body: { shots: [], nextCursor: null, ...(q.count ? { total: 0 } : {}) } };
+  const page: SQL[] = [];
+  let order: SQL[];
+  let cursorOf: (s: ShotJson) => string;
+  if (byTime || timeDesc) {
+    // the documented cursor [takenAt, id] ascending; descending, a sort cursor holding takenAt; ties by id ascending
+    const c = byTime ? q.cursor : q.sortCursor && typeof q.sortCursor.v === "string" ? { takenAt: q.sortCursor.v, id: q.sortCursor.id } : undefined;
+    if (timeDesc && q.sortCursor && typeof q.sortCursor.v !== "string")
+      return { status: 400, body: { error: "Invalid query.", errors: [{ path: "cursor", message: "cursor is not one this server gave out" }] } };
+    if (c)
+      page.push(
+        byTime ? or(gt(shots.takenAt, c.takenAt), and(eq(shots.takenAt, c.takenAt), gt(shots.id, c.id)))! : or(lt(shots.takenAt, c.takenAt), and(eq(shots.takenAt, c.takenAt), gt(shots.id, c.id)))!,
+      );
+    order = [byTime ? asc(shots.takenAt) : sql`${shots.takenAt} DESC`, asc(shots.id)];
+    cursorOf = (s) => (byTime ? encodeCursor(s.takenAt, s.id) : encodeSortCursor("-takenAt", s.takenAt, s.id));
+  } else {
+    const key = sort.key as Exclude<ShotSortKey, "takenAt">;
+    const expr = sortExpr(key, f.k);
+    const c = q.sortCursor;
+    if (c && typeof c.v !== "number") return { status: 400, body: { error: "Invalid query.", errors: [{ path: "cursor", message: "cursor is not one this server gave out" }] } };
+    if (c) page.push(sort.dir === 1 ? sql`(${expr} > ${c.v} OR (${expr} = ${c.v} AND ${shots.id} > ${c.id}))` : sql`(${expr} < ${c.v} OR (${expr} = ${c.v} AND ${shots.id} > ${c.id}))`);
+    order = [sort.dir === 1 ? sql`${expr} ASC` : sql`${expr} DESC`, asc(shots.id)];
+    const name = `${sort.dir === 1 ? "" : "-"}${key}`;
+    cursorOf = (s) => encodeSortCursor(name, sortValue(key, s), s.id);
+  }
+  const [rows, counted] = await Promise.all([
+    selectShots(db)
+      .where(and(...f.w, ...page))
+      .orderBy(...order)
+      .limit(q.limit + 1),
+    q.count
+      ? db
+          .select({ n: sql<number>`count(*)` })
+          .from(shots)
+          .where(and(...f.w))
+      : null,
+  ]);
+  const list = rows.slice(0, q.limit).map((r) => toJson(r, f.k, f.cut));
+  const last = list[list.length - 1];
   return {
     status: 200,
     body: {
-      shots: page.map((r) => toJson(r, f.k, f.cut)),
-      nextCursor: rows.length > q.limit && last ? encodeCursor(last.takenAt, last.id) : null,
+      shots: list,
+      nextCursor: rows.length > q.limit && last ? cursorOf(last) : null,
+      ...(counted ? { total: Number(counted[0]?.n ?? 0) } : {}),
     },
   };
+}
+
+/**
+ * issue 16: with `max`, beyond that many located shots the answer holds every notable one
+ * (excluded, outside its limit, flagged; the largest |error| first) and fills up with the others
+ * in the fixed order of the random tail of their ids (app/domain/series.ts's sample order), so a
+ * map of 100,000 shots draws a few thousand, the same on every view; `total` and `sampled` say so.
+ */
+async function boundedRows(db: Db, where: SQL[], k: number | undefined, cut: { med: number; cut: number } | null, max: number) {
+  const [{ n }] = await db
+    .select({ n: sql<number>`count(*)` })
+    .from(shots)
+    .where(and(...where));
+  const total = Number(n);
+  if (total <= max)
+    return {
+      rows: await selectShots(db)
+        .where(and(...where))
+        .orderBy(asc(shots.takenAt), asc(shots.id)),
+      total,
+      sampled: false,
+    };
+  const outside = k === undefined ? sql`NOT ${shots.within}` : sql`abs(${shots.errorMm}) > ${k} * ${shots.toleranceMm}`;
+  const notable = sql`(${shots.excluded} OR ${outside} OR ${shots.wrap}${cut ? sql` OR abs(${shots.errorMm} - ${cut.med}) > ${cut.cut}` : sql``})`;
+  const first = await selectShots(db)
+    .where(and(...where, notable))
+    .orderBy(sql`abs(${shots.errorMm}) DESC`, asc(shots.id))
+    .limit(max);
+  const rest =
+    first.length < max
+      ? await selectShots(db)
+          .where(and(...where, sql`NOT ${notable}`))
+          .orderBy(sql`substr(${shots.id}, 25)`, asc(shots.id))
+          .limit(max - first.length)
+      : [];
+  return { rows: [...first, ...rest], total, sampled: true };
 }
 
 export async function shotsGeoJson(actor: Actor, q: ShotQuery, db: Db = getDb()) {
   const f = await filteredRows(q, await scopeOf(actor, db), db, [isNotNull(shots.lat), isNotNull(shots.lon)]);
   if ("error" in f) return f.error;
-  const rows = f.w
-    ? await selectShots(db)
-        .where(and(...f.w))
-        .orderBy(asc(shots.takenAt), asc(shots.id))
-    : [];
+  const bounded = f.w && q.max ? await boundedRows(db, f.w, f.k, f.cut, q.max) : null;
+  const rows = bounded
+    ? bounded.rows
+    : f.w
+      ? await selectShots(db)
+          .where(and(...f.w))
+          .orderBy(asc(shots.takenAt), asc(shots.id))
+      : [];
   return {
     status: 200 as const,
     body: {
       type: "FeatureCollection" as const,
+      // RFC 7946 §6.1 foreign members, only when `max` was asked for
+      ...(q.max ? { total: bounded?.total ?? 0, sampled: bounded?.sampled ?? false } : {}),
       features: rows.map((r) => {
         const s = toJson(r, f.k, f.cut);
         return {
@@ -340,6 +484,11 @@ export async function shotsGeoJson(actor: Actor, q: ShotQuery, db: Db = getDb())
             illuminanceKlux: s.illuminanceKlux,
             accuracyM: s.position?.accuracyM ?? null,
             flags: s.flags,
+            // issue 16: what the map's shot panel shows, so the page needs no other per-shot read
+            rangeM: s.rangeM,
+            retro: s.retro,
+            targetLabel: s.targetLabel,
+            photoIds: s.photoIds,
           },
         };
       }),

@@ -8,13 +8,18 @@ import { publicEnv } from "~/env.server";
 import { reviewSiteFeatures, sensorReviewHeader } from "~/models/review.server";
 import { autoCellSideM, DIVERGING, hexBins, scaleMaxMm } from "~/components/review/map-style";
 import { defaultSite, sessionSites, siteBounds, siteChoices, siteOfShot } from "~/components/review/map-sites";
-import { fetchAllShots } from "~/components/review/use-report";
 import { LegendSwatch } from "~/components/review/charts";
 import { bandWord, dateOnly, mm, mmSigned, metres } from "~/components/review/format";
 import { LocalTime } from "~/components/review/local-time";
 import { WithinWord } from "~/components/review/shot-table";
 import { reflectanceClass } from "~/domain";
-import type { ReportJson, ShotDetail } from "~/components/review/types";
+import type { ReportJson } from "~/components/review/types";
+
+/**
+ * issue 16: the most shots the map asks for. Beyond, the server sends every notable shot
+ * (excluded, outside, flagged) and a fixed sample of the others, and says how many there are.
+ */
+export const MAP_MAX_SHOTS = 5000;
 
 // MapLibre is loaded only here, and only in the browser.
 const RangeMap = lazy(() => import("~/components/review/range-map"));
@@ -30,6 +35,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 }
 
 type ShotProps = { id: string; errorMm: number; limitMm: number; within: boolean; outside: 0 | 1; sessionId: string | null; referenceM: number | null; excluded: boolean };
+/** What the shot panel shows, from the GeoJSON feature's own properties. */
+type ShotInfo = { takenAt: string | null; rangeM: number | null; targetLabel: string | null; reflectancePct: number | null; illuminanceKlux: number | null; flags: string[]; photoIds: string[] };
+type ShotCollection = FeatureCollection<Point> & { total?: number; sampled?: boolean };
 
 function rangeBandOfLabel(d: number, labels: string[]): string | null {
   for (const l of labels) {
@@ -58,9 +66,8 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
   const { session, band, refl, hex } = filters;
   const [useBasemap, setUseBasemap] = useState(false);
   const [mounted, setMounted] = useState(false);
-  const [geo, setGeo] = useState<FeatureCollection<Point> | null>(null);
-  const [report, setReport] = useState<ReportJson | null>(null);
-  const [details, setDetails] = useState<Map<string, ShotDetail>>(new Map());
+  const [geo, setGeo] = useState<ShotCollection | null>(null);
+  const [report, setReport] = useState<Omit<ReportJson, "shots"> | null>(null);
   const [error, setError] = useState<string | null>(null);
   const [selected, setSelected] = useState<string | null>(null);
 
@@ -72,21 +79,37 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
       if (!r.ok) throw new Error(`${url} answered ${r.status}`);
       return (await r.json()) as T;
     };
+    // issue 16: bounded at any number of shots: the report without rows (its range bands) and
+    // at most MAP_MAX_SHOTS located shots, each carrying what the shot panel shows
     Promise.all([
-      get<FeatureCollection<Point>>(`/api/shots.geojson?sensor=${encodeURIComponent(sensor.id)}`),
-      get<ReportJson>(`/api/sensors/${encodeURIComponent(sensor.id)}/report?include=shots`),
-      fetchAllShots(sensor.id, ac.signal).catch(() => new Map<string, ShotDetail>()),
+      get<ShotCollection>(`/api/shots.geojson?sensor=${encodeURIComponent(sensor.id)}&max=${MAP_MAX_SHOTS}`),
+      get<Omit<ReportJson, "shots">>(`/api/sensors/${encodeURIComponent(sensor.id)}/report`),
     ])
-      .then(([g, r, d]) => {
+      .then(([g, r]) => {
         setGeo(g);
         setReport(r);
-        setDetails(d);
       })
       .catch((e: unknown) => !ac.signal.aborted && setError(e instanceof Error ? e.message : String(e)));
     return () => ac.abort();
   }, [sensor.id]);
 
-  const rows = useMemo(() => new Map((report?.shots ?? []).map((s) => [s.id, s])), [report]);
+  const info = useMemo(() => {
+    const m = new Map<string, ShotInfo>();
+    for (const f of geo?.features ?? []) {
+      const p = (f.properties ?? {}) as Record<string, unknown>;
+      const num = (v: unknown) => (typeof v === "number" ? v : null);
+      m.set(String(p.id ?? f.id ?? ""), {
+        takenAt: typeof p.takenAt === "string" ? p.takenAt : null,
+        rangeM: num(p.rangeM),
+        targetLabel: typeof p.targetLabel === "string" ? p.targetLabel : null,
+        reflectancePct: num(p.reflectancePct),
+        illuminanceKlux: num(p.illuminanceKlux),
+        flags: Array.isArray(p.flags) ? (p.flags as string[]) : [],
+        photoIds: Array.isArray(p.photoIds) ? (p.photoIds as string[]) : [],
+      });
+    }
+    return m;
+  }, [geo]);
   const bandLabels = useMemo(() => (report?.byRange ?? []).map((b) => b.band), [report]);
   const bySession = useMemo(() => sessionSites(sessions), [sessions]);
   const choices = useMemo(() => (geo ? siteChoices(geo, sessions) : []), [geo, sessions]);
@@ -102,28 +125,26 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
       if (!f.geometry || f.geometry.type !== "Point") continue;
       const p = (f.properties ?? {}) as Record<string, unknown>;
       const id = String(p.id ?? f.id ?? "");
-      const row = rows.get(id);
       const errorMm = Number(p.errorMm);
       if (!Number.isFinite(errorMm)) continue;
       if (site && siteOfShot(f, bySession) !== site) continue;
-      const sessionId = (p.sessionId as string | undefined) ?? row?.sessionId ?? null;
-      const referenceM = typeof p.referenceM === "number" ? p.referenceM : (row?.referenceM ?? null);
+      const sessionId = (p.sessionId as string | undefined) ?? null;
+      const referenceM = typeof p.referenceM === "number" ? p.referenceM : null;
       if (sessionOn && sessionId !== sessionOn) continue;
       if (band && (referenceM == null || rangeBandOfLabel(referenceM, bandLabels) !== band)) continue;
       if (refl) {
-        const d = details.get(id);
-        const pct = typeof p.reflectancePct === "number" ? p.reflectancePct : d?.reflectancePct;
-        if (pct == null || reflectanceClass(pct, d?.retro ?? p.retro === true) !== refl) continue;
+        const pct = typeof p.reflectancePct === "number" ? p.reflectancePct : null;
+        if (pct == null || reflectanceClass(pct, p.retro === true) !== refl) continue;
       }
       const within = p.within === true;
       feats.push({
         type: "Feature",
         geometry: f.geometry,
-        properties: { id, errorMm, limitMm: Number(p.limitMm), within, outside: within ? 0 : 1, sessionId, referenceM, excluded: p.excluded === true || row?.excluded === true },
+        properties: { id, errorMm, limitMm: Number(p.limitMm), within, outside: within ? 0 : 1, sessionId, referenceM, excluded: p.excluded === true },
       });
     }
     return { type: "FeatureCollection", features: feats };
-  }, [geo, rows, site, bySession, sessionOn, band, refl, bandLabels, details]);
+  }, [geo, site, bySession, sessionOn, band, refl, bandLabels]);
 
   const maxMm = useMemo(() => scaleMaxMm(shots.features.map((f) => f.properties.limitMm)), [shots]);
   const hexes = useMemo(() => (hex ? hexBins(shots, autoCellSideM(shots)) : { type: "FeatureCollection" as const, features: [] }), [shots, hex]);
@@ -150,8 +171,8 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
   }
 
   const pick = selected ? (shots.features.find((f) => f.properties.id === selected)?.properties ?? null) : null;
-  const pickRow = selected ? rows.get(selected) : undefined;
-  const pickDetail = selected ? details.get(selected) : undefined;
+  const pickRow = selected ? info.get(selected) : undefined;
+  const pickDetail = pickRow;
   const total = geo?.features.length ?? 0;
 
   return (
@@ -229,6 +250,11 @@ export default function ReviewMap({ loaderData }: Route.ComponentProps) {
         <p className="pb-2 text-muted" aria-live="polite">
           {geo ? `${shots.features.length} of ${total} located shots shown (${siteName})` : "Loading shots…"}
         </p>
+        {geo?.sampled ? (
+          <p className="w-full font-bold" data-testid="map-sampled">
+            {`This sensor has ${(geo.total ?? 0).toLocaleString("en-US")} located shots; the map draws ${total.toLocaleString("en-US")}: every excluded, outside-limit or flagged one (largest errors first) and a fixed sample of the others.`}
+          </p>
+        ) : null}
       </section>
 
       {error ? (

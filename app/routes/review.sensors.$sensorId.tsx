@@ -1,18 +1,18 @@
 import { useMemo, useState } from "react";
-import { data, Form, Link, useNavigation, useRevalidator, useSearchParams, type ShouldRevalidateFunctionArgs } from "react-router";
+import { data, Form, Link, useNavigation, useSearchParams, type ShouldRevalidateFunctionArgs } from "react-router";
 import { getFormProps, getInputProps, getSelectProps, getTextareaProps, useForm } from "@conform-to/react";
 import { parseWithZod } from "@conform-to/zod/v4";
 import type { Route } from "./+types/review.sensors.$sensorId";
 import { ALL, REVIEWERS } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
-import { createSignOff, listProjectsForFilter, listSignOffs, ReviewError, sensorReviewHeader, shotExtras } from "~/models/signoffs.server";
+import { createSignOff, listProjectsForFilter, listSignOffs, ReviewError, sensorReviewHeader } from "~/models/signoffs.server";
 import { signOffSchema } from "~/components/review/signoff-schema";
 import { VerdictBadge } from "~/components/verdict-badge";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
 import { StatementPanel, TraceabilityPanel } from "~/components/review/statement";
-import { DriftChart, ErrorVsDistanceChart, MatrixChart } from "~/components/review/charts";
+import { DriftChart, ErrorSeriesChart, MatrixChart } from "~/components/review/charts";
 import { ShotTable } from "~/components/review/shot-table";
-import { matrixCells, worstCell } from "~/components/review/matrix";
+import { worstCell } from "~/components/review/matrix";
 import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
 import { bandWord, dateOnly, mmSigned } from "~/components/review/format";
 import { readFormCapped } from "~/http/body.server";
@@ -28,14 +28,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const head = await sensorReviewHeader(user, params.sensorId);
   if (!head) throw new Response("There is no sensor with this id.", { status: 404 });
   const canReview = REVIEWERS.includes(user.role);
-  const [projects, signOffs, extras, reshoots, reshootOptions] = await Promise.all([
+  // issue 16: nothing here grows with the shots (the table's photos, targets and reasons come with its page)
+  const [projects, signOffs, reshoots, reshootOptions] = await Promise.all([
     listProjectsForFilter(user),
     listSignOffs(user, params.sensorId),
-    shotExtras(user, params.sensorId),
     listReshoots(user, params.sensorId),
     canReview ? reshootChoices(user, params.sensorId) : null,
   ]);
-  return { ...head, projects, signOffs, extras, canReview, reshoots, reshootOptions };
+  return { ...head, projects, signOffs, canReview, reshoots, reshootOptions };
 }
 
 /** issue 12: a re-shoot request, or closing one; the answers share the sign-off's shape (result + its own key). */
@@ -93,17 +93,18 @@ function filtersFrom(sp: URLSearchParams): ReportFilters {
 }
 
 export default function SensorReport({ loaderData, actionData }: Route.ComponentProps) {
-  const { sensor, sessions, projects, signOffs, extras, canReview, reshoots, reshootOptions } = loaderData;
+  const { sensor, sessions, projects, signOffs, canReview, reshoots, reshootOptions } = loaderData;
   const [sp, setSp] = useSearchParams();
   const f = filtersFrom(sp);
   const effective = f;
-  const revalidator = useRevalidator();
-  const { report, details, error, loading, reload } = useSensorReport(sensor.id, effective, extras);
+  const { report, series, error, loading, reload, version } = useSensorReport(sensor.id, effective);
   const [busy, setBusy] = useState<string | null>(null);
   const [notice, setNotice] = useState<string | null>(null);
 
   const sessionLabels = useMemo(() => new Map(sessions.map((s, i) => [s.id, `#${i + 1} ${dateOnly(s.startedAt)} ${s.siteName}`])), [sessions]);
-  const cells = useMemo(() => (report ? matrixCells(report.shots, details) : []), [report, details]);
+  // issue 16: cells grouped by the server; "why this verdict" from the flagged shots and the included totals
+  const cells = useMemo(() => series?.cells ?? [], [series]);
+  const explained = useMemo(() => (report && series ? { ...report, shots: series.explain.flagged } : null), [report, series]);
   const worst = useMemo(() => worstCell(cells), [cells]);
 
   function update(next: Partial<ReportFilters>) {
@@ -116,8 +117,8 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
     setBusy(null);
     if (!err) {
       setNotice(exclude ? "Shot excluded; the figures below are recomputed." : "Shot restored; the figures below are recomputed.");
-      // The loader's extras (exclusion reasons) change; the report hook refetches when they do.
-      revalidator.revalidate();
+      // the report, the charts and the table's page are read again
+      reload();
     }
     return err;
   }
@@ -238,13 +239,13 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
         </p>
       ) : null}
 
-      {report ? (
+      {report && series && explained ? (
         <div className={`space-y-6 ${loading ? "opacity-70" : ""}`} data-testid="report" data-verdict={report.verdict}>
           <section aria-labelledby="h-verdict" className="space-y-3">
             <h2 id="h-verdict" className="sr-only">
               Verdict
             </h2>
-            <VerdictHeadline report={report} />
+            <VerdictHeadline report={explained} included={series.explain.included} />
             <StatementPanel report={report} />
             {worst && report.verdict !== "pass" ? (
               <p className="text-lg" data-testid="worst-cell">
@@ -284,20 +285,14 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
             <h2 id="h-c1" className="mb-2 text-2xl font-bold">
               Range error against reference distance
             </h2>
-            <ErrorVsDistanceChart report={report} />
+            <ErrorSeriesChart series={series.errorSeries} zeroOffsetMm={report.zeroOffsetMm} scalePpm={report.scalePpm} />
           </section>
           <div className="grid gap-6 lg:grid-cols-2">
             <section aria-labelledby="h-c2" className="card">
               <h2 id="h-c2" className="mb-2 text-2xl font-bold">
                 Bias by reflectance × illuminance
               </h2>
-              {cells.length ? (
-                <MatrixChart cells={cells} worst={worst} />
-              ) : details.size === 0 && report.shots.length ? (
-                <p className="text-muted">Reading the shots' reflectance and illuminance…</p>
-              ) : (
-                <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>
-              )}
+              {cells.length ? <MatrixChart cells={cells} worst={worst} /> : <p className="text-muted">No shots with both reflectance and illuminance recorded.</p>}
             </section>
             <section aria-labelledby="h-c3" className="card">
               <h2 id="h-c3" className="mb-2 text-2xl font-bold">
@@ -322,8 +317,9 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
               Check-shots
             </h2>
             <ShotTable
-              rows={report.shots}
-              details={details}
+              sensorId={sensor.id}
+              selection={{ from: f.from, to: f.to, sessions: f.sessions, ruleProjectId: report.ruleProjectId }}
+              version={version}
               sessionLabels={sessionLabels}
               canExclude={canReview}
               busyId={busy}

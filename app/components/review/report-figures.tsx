@@ -1,7 +1,7 @@
 // The figures of a sensor report with their units, and the four acceptance tests as
 // value against limit. Pure presentation: the numbers come from the report API.
 import { VerdictBadge, VerdictShape } from "~/components/verdict-badge";
-import { explainVerdict } from "~/domain";
+import { explainVerdict, type ExplainInput, type IncludedTotals } from "~/domain";
 import { bandWord, mm, mmSigned, num, pct, TEST_WORDS, testLimit, testValue } from "./format";
 import type { BandRow, ReportJson, ReportTest } from "./types";
 
@@ -52,12 +52,15 @@ export function TestsTable({ tests, referenceInVerdict = false }: { tests: Repor
 }
 
 /** Why the verdict came out so: flagged shots that drive a failed test first, then each failed test (ranging core's explainVerdict). */
-export function explanationOf(report: Pick<ReportJson, "tests" | "verdict" | "shots" | "rule">) {
-  return explainVerdict({ verdict: report.verdict, tests: report.tests, shots: report.shots, coverageK: report.rule.coverageK });
+/** Explained report: its tests and rule, and either every row or (issue 16) the flagged included rows with the included totals. */
+export type Explained = Pick<ReportJson, "tests" | "verdict" | "rule"> & { shots: ExplainInput["shots"] };
+
+export function explanationOf(report: Explained, included?: IncludedTotals) {
+  return explainVerdict({ verdict: report.verdict, tests: report.tests, shots: report.shots, coverageK: report.rule.coverageK, included });
 }
 
 /** One sentence per failed test, e.g. "Bias +6.20 mm is beyond the limit ±5.00 mm.", after any flagged-shot sentence. */
-export function failureSentences(report: Pick<ReportJson, "tests" | "verdict" | "shots" | "rule">): string[] {
+export function failureSentences(report: Explained): string[] {
   return explanationOf(report).lines;
 }
 
@@ -71,7 +74,7 @@ function Figure({ label, value, hint }: { label: string; value: string; hint?: s
   );
 }
 
-export function FiguresGrid({ report }: { report: ReportJson }) {
+export function FiguresGrid({ report }: { report: Omit<ReportJson, "shots"> }) {
   const ci = report.biasCi95Mm;
   return (
     <dl className="grid grid-cols-2 gap-3 sm:grid-cols-3 lg:grid-cols-4" data-testid="figures">
@@ -152,8 +155,8 @@ function signedOrDash(v: number | null) {
   return v == null ? "—" : (v < 0 ? "−" : "+") + Math.abs(v).toFixed(2);
 }
 
-export function VerdictHeadline({ report }: { report: Pick<ReportJson, "tests" | "verdict" | "shots" | "rule"> }) {
-  const { flaggedLine, testLines } = explanationOf(report);
+export function VerdictHeadline({ report, included }: { report: Explained; included?: IncludedTotals }) {
+  const { flaggedLine, testLines } = explanationOf(report, included);
   const tone = report.verdict === "pass" ? "border-pass" : report.verdict === "fail" ? "border-fail" : "border-warn";
   return (
     <div className={`rounded-lg border-4 ${tone} bg-surface p-4`} data-testid="verdict-headline">

@@ -1,18 +1,24 @@
-// The shot table of a sensor report: sortable, filterable, paged; flags, excluded state and a
-// photo thumbnail per shot; QA excludes (with a written reason) and restores from here.
-import { useMemo, useState } from "react";
+// The shot table of a sensor report: sortable, filterable, paged FROM THE SERVER (issue 16:
+// GET /api/shots with sort, filters, count and a cursor per page, so the browser holds one page
+// at any number of shots); flags, excluded state and a photo thumbnail per shot; QA excludes
+// (with a written reason) and restores from here.
+import { useEffect, useState } from "react";
 import { VerdictShape } from "~/components/verdict-badge";
 import { num, signed } from "./format";
 import { LocalTime } from "./local-time";
 import type { ReportShotRow, ShotDetail } from "./types";
+import { toDetail } from "./use-report";
 
 type SortKey = "takenAt" | "referenceM" | "errorMm" | "absError" | "limitMm";
 type StatusFilter = "all" | "outside" | "within" | "excluded" | "flagged";
 export const PAGE_SIZE = 20;
 
 export type ShotTableProps = {
-  rows: ReportShotRow[];
-  details: Map<string, ShotDetail>;
+  sensorId: string;
+  /** The report's selection: period, sessions, and the project whose rule judges (its k sets the limits). */
+  selection: { from: string; to: string; sessions: string[]; ruleProjectId: string | null };
+  /** Changes after an exclusion or a restore: the current page is read again. */
+  version: number;
   sessionLabels: Map<string, string>;
   canExclude: boolean;
   busyId: string | null;
@@ -20,30 +26,95 @@ export type ShotTableProps = {
   onRestore: (id: string, reason: string) => Promise<string | null>;
 };
 
-export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, onExclude, onRestore }: ShotTableProps) {
+type Row = ReportShotRow & { detail: ShotDetail };
+
+/** The /api/shots query of a table state (api.md plus the optional sort, flag=any and count of issue 16). */
+export function shotTableQuery(sensorId: string, sel: ShotTableProps["selection"], status: StatusFilter, session: string, sort: { key: SortKey; dir: 1 | -1 }, cursor: string | null) {
+  const qs = new URLSearchParams({ sensor: sensorId, limit: String(PAGE_SIZE), sort: `${sort.dir === -1 ? "-" : ""}${sort.key}`, count: "true" });
+  if (sel.from) qs.set("from", sel.from);
+  if (sel.to) qs.set("to", sel.to);
+  const sessions = session ? [session] : sel.sessions;
+  for (const s of sessions) qs.append("session", s);
+  if (sel.ruleProjectId) qs.set("project", sel.ruleProjectId);
+  if (status === "outside" || status === "within") {
+    qs.set("within", status === "within" ? "true" : "false");
+    qs.set("excluded", "false");
+  }
+  if (status === "excluded") qs.set("excluded", "true");
+  if (status === "flagged") qs.set("flag", "any");
+  if (cursor) qs.set("cursor", cursor);
+  return qs;
+}
+
+function rowOf(s: Record<string, unknown>): Row {
+  return {
+    id: String(s.id),
+    takenAt: String(s.takenAt),
+    sessionId: String(s.sessionId),
+    referenceM: Number(s.referenceM),
+    rangeM: Number(s.rangeM),
+    errorMm: Number(s.errorMm),
+    limitMm: Number(s.limitMm),
+    within: s.within === true,
+    repeatabilityMm: typeof s.repeatabilityMm === "number" ? s.repeatabilityMm : null,
+    excluded: s.excluded === true,
+    flags: Array.isArray(s.flags) ? (s.flags as ReportShotRow["flags"]) : [],
+    detail: toDetail(s),
+  };
+}
+
+export function ShotTable({ sensorId, selection, version, sessionLabels, canExclude, busyId, onExclude, onRestore }: ShotTableProps) {
   const [sort, setSort] = useState<{ key: SortKey; dir: 1 | -1 }>({ key: "absError", dir: -1 });
   const [status, setStatus] = useState<StatusFilter>("all");
   const [session, setSession] = useState("");
+  // cursors[p] opens page p (null: the first); the server pages, so pages are walked in order
+  const [cursors, setCursors] = useState<(string | null)[]>([null]);
   const [page, setPage] = useState(0);
   const [open, setOpen] = useState<string | null>(null);
+  const [data, setData] = useState<{ rows: Row[]; total: number; next: string | null } | null>(null);
+  const [error, setError] = useState<string | null>(null);
+  const [loading, setLoading] = useState(true);
+  const selKey = JSON.stringify(selection);
 
-  const filtered = useMemo(() => {
-    const out = rows.filter((r) => {
-      if (session && r.sessionId !== session) return false;
-      if (status === "outside") return !r.within && !r.excluded;
-      if (status === "within") return r.within && !r.excluded;
-      if (status === "excluded") return r.excluded;
-      if (status === "flagged") return r.flags.length > 0;
-      return true;
-    });
-    const val = (r: ReportShotRow) => (sort.key === "absError" ? Math.abs(r.errorMm) : sort.key === "takenAt" ? Date.parse(r.takenAt) : r[sort.key]);
-    return out.sort((a, b) => (val(a) - val(b)) * sort.dir || (a.id < b.id ? -1 : 1));
-  }, [rows, status, session, sort]);
+  // a new order, filter or selection starts again at page 1
+  useEffect(() => {
+    setCursors([null]);
+    setPage(0);
+  }, [sort.key, sort.dir, status, session, selKey]);
 
-  const pages = Math.max(1, Math.ceil(filtered.length / PAGE_SIZE));
-  const current = Math.min(page, pages - 1);
-  const shown = filtered.slice(current * PAGE_SIZE, current * PAGE_SIZE + PAGE_SIZE);
-  const sessions = [...new Set(rows.map((r) => r.sessionId))];
+  const cursor = cursors[page] ?? null;
+  useEffect(() => {
+    const ac = new AbortController();
+    setLoading(true);
+    const qs = shotTableQuery(sensorId, JSON.parse(selKey) as ShotTableProps["selection"], status, session, sort, cursor);
+    fetch(`/api/shots?${qs}`, { signal: ac.signal, headers: { Accept: "application/json" } })
+      .then(async (r) => {
+        const body = (await r.json().catch(() => ({}))) as { shots?: Record<string, unknown>[]; nextCursor?: string | null; total?: number; error?: string };
+        if (!r.ok) throw new Error(body.error ?? `The server answered ${r.status}.`);
+        if (ac.signal.aborted) return;
+        setData({ rows: (body.shots ?? []).map(rowOf), total: body.total ?? 0, next: body.nextCursor ?? null });
+        setError(null);
+        setLoading(false);
+      })
+      .catch((e: unknown) => {
+        if (ac.signal.aborted) return;
+        setError(e instanceof Error ? e.message : String(e));
+        setLoading(false);
+      });
+    return () => ac.abort();
+  }, [sensorId, selKey, status, session, sort, cursor, version]);
+
+  const total = data?.total ?? 0;
+  const pages = Math.max(1, Math.ceil(total / PAGE_SIZE));
+  const shown = data?.rows ?? [];
+  const sessions = selection.sessions.length ? selection.sessions : [...sessionLabels.keys()];
+
+  function goNext() {
+    if (!data?.next) return;
+    const next = [...cursors.slice(0, page + 1), data.next];
+    setCursors(next);
+    setPage(page + 1);
+  }
 
   function header(key: SortKey, label: string, right = true) {
     const active = sort.key === key;
@@ -52,10 +123,7 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
         <button
           type="button"
           className="min-h-11 font-bold underline-offset-4 hover:underline"
-          onClick={() => {
-            setSort(active ? { key, dir: sort.dir === 1 ? -1 : 1 } : { key, dir: key === "takenAt" || key === "referenceM" ? 1 : -1 });
-            setPage(0);
-          }}
+          onClick={() => setSort(active ? { key, dir: sort.dir === 1 ? -1 : 1 } : { key, dir: key === "takenAt" || key === "referenceM" ? 1 : -1 })}
         >
           {label} {active ? (sort.dir === 1 ? "▲" : "▼") : ""}
         </button>
@@ -64,21 +132,13 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
   }
 
   return (
-    <div data-testid="shot-table">
+    <div data-testid="shot-table" data-loading={loading}>
       <div className="mb-3 flex flex-wrap items-end gap-3">
         <div>
           <label htmlFor="shot-status" className="field-label">
             Show
           </label>
-          <select
-            id="shot-status"
-            className="input"
-            value={status}
-            onChange={(e) => {
-              setStatus(e.target.value as StatusFilter);
-              setPage(0);
-            }}
-          >
+          <select id="shot-status" className="input" value={status} onChange={(e) => setStatus(e.target.value as StatusFilter)}>
             <option value="all">All shots</option>
             <option value="outside">Outside limit</option>
             <option value="within">Within limit</option>
@@ -90,15 +150,7 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
           <label htmlFor="shot-session" className="field-label">
             Session
           </label>
-          <select
-            id="shot-session"
-            className="input"
-            value={session}
-            onChange={(e) => {
-              setSession(e.target.value);
-              setPage(0);
-            }}
-          >
+          <select id="shot-session" className="input" value={session} onChange={(e) => setSession(e.target.value)}>
             <option value="">All sessions</option>
             {sessions.map((s) => (
               <option key={s} value={s}>
@@ -108,9 +160,15 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
           </select>
         </div>
         <p className="pb-2 text-muted" aria-live="polite">
-          {filtered.length} of {rows.length} shots
+          {data ? `${total.toLocaleString("en-US")} shot${total === 1 ? "" : "s"}${status === "all" && !session ? "" : " match"}` : ""}
+          {loading ? " · loading…" : ""}
         </p>
       </div>
+      {error ? (
+        <p role="alert" className="field-error">
+          The shots could not be loaded: {error}
+        </p>
+      ) : null}
       <div className="overflow-x-auto">
         <table className="w-full border-collapse text-left">
           <caption className="sr-only">Check-shots of this report</caption>
@@ -141,48 +199,45 @@ export function ShotTable({ rows, details, sessionLabels, canExclude, busyId, on
             </tr>
           </thead>
           <tbody>
-            {shown.length === 0 ? (
+            {data && shown.length === 0 ? (
               <tr>
                 <td colSpan={10} className="py-4 text-center text-muted">
                   No shots match these filters.
                 </td>
               </tr>
             ) : null}
-            {shown.map((r) => {
-              const d = details.get(r.id);
-              return (
-                <ShotRow
-                  key={r.id}
-                  row={r}
-                  detail={d}
-                  canExclude={canExclude}
-                  busy={busyId === r.id}
-                  open={open === r.id}
-                  onToggle={() => setOpen(open === r.id ? null : r.id)}
-                  onExclude={async (reason) => {
-                    const err = await onExclude(r.id, reason);
-                    if (!err) setOpen(null);
-                    return err;
-                  }}
-                  onRestore={async (reason) => {
-                    const err = await onRestore(r.id, reason);
-                    if (!err) setOpen(null);
-                    return err;
-                  }}
-                />
-              );
-            })}
+            {shown.map((r) => (
+              <ShotRow
+                key={r.id}
+                row={r}
+                detail={r.detail}
+                canExclude={canExclude}
+                busy={busyId === r.id}
+                open={open === r.id}
+                onToggle={() => setOpen(open === r.id ? null : r.id)}
+                onExclude={async (reason) => {
+                  const err = await onExclude(r.id, reason);
+                  if (!err) setOpen(null);
+                  return err;
+                }}
+                onRestore={async (reason) => {
+                  const err = await onRestore(r.id, reason);
+                  if (!err) setOpen(null);
+                  return err;
+                }}
+              />
+            ))}
           </tbody>
         </table>
       </div>
       <nav aria-label="Shot table pages" className="mt-3 flex items-center gap-3">
-        <button type="button" className="btn-secondary" disabled={current === 0} onClick={() => setPage(current - 1)}>
+        <button type="button" className="btn-secondary" disabled={page === 0} onClick={() => setPage(page - 1)}>
           ← Previous
         </button>
         <span className="num">
-          Page {current + 1} of {pages}
+          Page {page + 1} of {pages.toLocaleString("en-US")}
         </span>
-        <button type="button" className="btn-secondary" disabled={current >= pages - 1} onClick={() => setPage(current + 1)}>
+        <button type="button" className="btn-secondary" disabled={!data?.next} onClick={goNext}>
           Next →
         </button>
       </nav>

@@ -1,7 +1,10 @@
 // Fetches a sensor's report and shot details from the API in the browser, so filters and
 // exclusions update the figures without a page load.
 import { useCallback, useEffect, useRef, useState } from "react";
-import type { ReportJson, ShotDetail } from "./types";
+import type { ReportJson, ReportShotRow, ShotDetail } from "./types";
+import type { ErrorSeriesJson } from "./charts";
+import type { MatrixCell } from "./matrix";
+import type { IncludedTotals } from "~/domain/explain";
 
 export type ReportFilters = { from: string; to: string; sessions: string[]; project: string };
 
@@ -66,9 +69,33 @@ export async function fetchAllShots(sensorId: string, signal?: AbortSignal, extr
   return out;
 }
 
-export function useSensorReport(sensorId: string, filters: ReportFilters, extras?: ShotExtras) {
-  const [report, setReport] = useState<ReportJson | null>(null);
-  const [details, setDetails] = useState<Map<string, ShotDetail>>(new Map());
+/** issue 16: what GET /api/sensors/:id/report/series answers (app/models/report-series.server.ts). */
+export type ReportSeries = {
+  sensorId: string;
+  ruleProjectId: string | null;
+  coverageK: number;
+  outlier: { medianMm: number; cutMm: number } | null;
+  errorSeries: ErrorSeriesJson;
+  cells: MatrixCell[];
+  explain: { included: IncludedTotals; flagged: Pick<ReportShotRow, "id" | "errorMm" | "limitMm" | "within" | "excluded" | "flags">[] };
+};
+
+/** The report without its rows (api.md v1.1) as the page reads it. */
+export type ReportSummary = Omit<ReportJson, "shots">;
+
+async function getJson<T>(url: string, signal: AbortSignal): Promise<T> {
+  const r = await fetch(url, { signal, headers: { Accept: "application/json" } });
+  if (!r.ok) throw new Error(await errorOf(r));
+  return (await r.json()) as T;
+}
+
+/**
+ * issue 16: the report WITHOUT its per-shot rows and the chart series, side by side: both stay
+ * small at any number of shots. The shot table pages from /api/shots by itself.
+ */
+export function useSensorReport(sensorId: string, filters: ReportFilters) {
+  const [report, setReport] = useState<ReportSummary | null>(null);
+  const [series, setSeries] = useState<ReportSeries | null>(null);
   const [error, setError] = useState<string | null>(null);
   const [loading, setLoading] = useState(true);
   const [version, setVersion] = useState(0);
@@ -80,23 +107,15 @@ export function useSensorReport(sensorId: string, filters: ReportFilters, extras
     const ac = new AbortController();
     abortRef.current = ac;
     setLoading(true);
-    // The figures and charts draw as soon as the report is here; the shot details (photos, target
-    // labels, the matrix's classes) page in afterwards.
-    fetch(`/api/sensors/${encodeURIComponent(sensorId)}/report?${key}${key ? "&" : ""}include=shots`, { signal: ac.signal, headers: { Accept: "application/json" } })
-      .then(async (r) => {
-        if (!r.ok) throw new Error(await errorOf(r));
-        return (await r.json()) as ReportJson;
-      })
-      .then((r) => {
+    const id = encodeURIComponent(sensorId);
+    const qs = key ? `?${key}` : "";
+    Promise.all([getJson<ReportSummary>(`/api/sensors/${id}/report${qs}`, ac.signal), getJson<ReportSeries>(`/api/sensors/${id}/report/series${qs}`, ac.signal)])
+      .then(([r, s]) => {
         if (ac.signal.aborted) return;
         setReport(r);
+        setSeries(s);
         setError(null);
         setLoading(false);
-        return fetchAllShots(sensorId, ac.signal, extras)
-          .catch(() => new Map<string, ShotDetail>())
-          .then((d) => {
-            if (!ac.signal.aborted) setDetails(d);
-          });
       })
       .catch((e: unknown) => {
         if (ac.signal.aborted) return;
@@ -104,10 +123,10 @@ export function useSensorReport(sensorId: string, filters: ReportFilters, extras
         setLoading(false);
       });
     return () => ac.abort();
-  }, [sensorId, key, version, extras]);
+  }, [sensorId, key, version]);
 
   const reload = useCallback(() => setVersion((v) => v + 1), []);
-  return { report, details, error, loading, reload };
+  return { report, series, error, loading, reload, version };
 }
 
 /** POST (exclude) or DELETE (restore) a shot's exclusion; returns an error text or null. */

@@ -1,0 +1,1 @@
+CREATE INDEX `shots_sensor_wrap` ON `shots` (`sensor_id`) WHERE wrap = 1;
