@@ -117,7 +117,12 @@ function measure(path: string, name: string, total: number, MB: number, O: V3, b
     `    ${kind} extraction, one pass: ${m.extractS.toFixed(2)} s = ${wall.toFixed(1)} M points per wall-second; CPU ${m.extractCpuS.toFixed(2)} s = ${(total / m.extractCpuS / 1e6).toFixed(1)} M points per CPU-second; load average ${m.load.toFixed(1)} before, ${load.toFixed(1)} after, on ${m.cores} cores`,
     `    targets found ${m.found}/12, worst |range − analytic| ${m.worstMm.toFixed(3)} mm`,
     `    peak RSS of the process (upload + extraction): ${(m.maxRssKb / 1024).toFixed(0)} MB (target < 400 MB)`,
-    target(`${kind} extraction ≥ 5 M points per wall-second (judged on wall time at load ${m.load.toFixed(1)})`, `${wall.toFixed(1)} M points/s`, wall >= 5),
-    target(`${kind} extraction peak RSS < 400 MB`, `${(m.maxRssKb / 1024).toFixed(0)} MB`, m.maxRssKb / 1024 < 400),
+    // The one-thread LAZ run is the pool's before/after (SCAN_WORKERS=1), not the product's default path: information only.
+    ...(scanWorkers === "1" && name.endsWith(".laz")
+      ? [`    (comparison with SCAN_WORKERS=1, not a target: the server decodes a LAZ on its worker pool by default)`]
+      : [
+          target(`${kind} extraction ≥ 5 M points per wall-second (judged on wall time at load ${m.load.toFixed(1)})`, `${wall.toFixed(1)} M points/s`, wall >= 5),
+          target(`${kind} extraction peak RSS < 400 MB`, `${(m.maxRssKb / 1024).toFixed(0)} MB`, m.maxRssKb / 1024 < 400),
+        ]),
   ];
 }
