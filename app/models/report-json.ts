@@ -4,35 +4,12 @@ import type { sensors } from "~/db/schema";
 import { pastDueOn, type ReportShotRow, type Rule, type SensorReport } from "~/domain";
 import type { CertRow } from "./report-state.server";
 import type { Use } from "./report-sums.server";
+import type { ReportJson, TraceabilityRow } from "~/contract/report";
 
-/** issue 15: a certificate behind the report and the sessions it was past due on (ranging.md §7). */
-export type TraceabilityEntry = {
-  kind: "sensor" | "tape" | "edm";
-  id: string;
-  label: string;
-  number: string | null;
-  laboratory: string | null;
-  issued: string | null;
-  due: string | null;
-  expiredOnSessions: string[];
-};
-
+// The shapes are the HTTP contract's (app/contract/report.ts): one definition for server and screens.
+export type TraceabilityEntry = TraceabilityRow;
 /** The report exactly as api.md lists its fields (the domain's `failed` is the tests with pass false). */
-export type SensorReportJson = {
-  sensorId: string;
-  rule: {
-    minShots: number;
-    coverageK: number;
-    minWithinPct: number;
-    referenceRatio: number;
-    referenceInVerdict: boolean;
-    statement: "rmse" | "nssda95";
-    edmUncertaintyMm: number | null;
-    edmUncertaintyPpm: number | null;
-  };
-  /** The project whose rule judged the report; null for the default rule. */
-  ruleProjectId: string | null;
-} & Omit<SensorReport, "failed"> & { airDefaulted: string[]; traceability: TraceabilityEntry[] };
+export type SensorReportJson = ReportJson;
 
 /** The report without its per-shot rows: what GET …/report answers unless `include=shots`. */
 export type SensorReportSummaryJson = Omit<SensorReportJson, "shots">;
