@@ -580,3 +580,49 @@ export const projectEdms = sqliteTable(
   },
   (t) => [primaryKey({ columns: [t.projectId, t.edmId] }), index("project_edms_edm").on(t.edmId)],
 );
+
+/**
+ * issue 16: a sensor report's group sums kept as shots are written (docs/decisions/0010). One row
+ * per (sensor, session, exclusion, reflectance class, illuminance band, whole metre of the
+ * reference distance), maintained by SQL triggers on shots (insert, update of a summed column,
+ * delete; migration "report_sums_triggers"), so every writer — sync, exclusions, recomputes,
+ * seeds — keeps it without knowing of it. The sums are shifted by the group's own first shot
+ * (k_e, k_d) to stay accurate from one pass; a report moves them to its own shift. The whole
+ * metre (dbin) lets any rule with whole-metre band edges regroup them exactly (D < edge ⇔
+ * floor(D) < edge). "within" is not kept (it depends on the rule's k): the report counts the
+ * few shots outside their limit from the error index.
+ */
+export const reportSums = sqliteTable(
+  "report_sums",
+  {
+    sensorId: text("sensor_id").notNull(),
+    sessionId: text("session_id").notNull(),
+    /** shots.excluded (not "excluded": that name is taken by the upsert's proposed row) */
+    excl: integer("excl").notNull(),
+    /** 0 dark, 1 mid, 2 bright, 3 retro (app/domain reflectanceIndex) */
+    rc: integer("rc").notNull(),
+    /** −1 none, 0 low, 1 moderate, 2 high (app/domain illuminanceIndex) */
+    lb: integer("lb").notNull(),
+    /** floor(reference_m) */
+    dbin: integer("dbin").notNull(),
+    n: integer("n").notNull(),
+    kE: real("k_e").notNull(),
+    kD: real("k_d").notNull(),
+    /** Σ(e − k_e), Σ(e − k_e)², Σe² */
+    s1: real("s1").notNull(),
+    s2: real("s2").notNull(),
+    sq: real("sq").notNull(),
+    /** Σ(D − k_d), Σ(D − k_d)², Σ(D − k_d)(e − k_e), ΣD */
+    d1: real("d1").notNull(),
+    d2: real("d2").notNull(),
+    de: real("de").notNull(),
+    sumD: real("sum_d").notNull(),
+    /** Σu_ref² of the shots with a known u_ref, and the count of the others */
+    sumU2: real("sum_u2").notNull(),
+    unknownU: integer("unknown_u").notNull(),
+    /** counts (not flags, so a delete can take one away): shots in bright sun, with defaulted air */
+    sun: integer("sun").notNull(),
+    air: integer("air").notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.sensorId, t.sessionId, t.excl, t.rc, t.lb, t.dbin] })],
+);

@@ -5,7 +5,7 @@
 // for it.
 import { and, eq, inArray, sql, type SQL } from "drizzle-orm";
 import type { Db } from "~/db/client.server";
-import { shots } from "~/db/schema";
+import { checkSessions, reportSums, shots } from "~/db/schema";
 import { BRIGHT_SUN_KLUX } from "~/domain/coverage";
 import type { ReportGroup, Rule } from "~/domain";
 import { selectionWhere, sessionsQuery, type ProjectFilter, type ReportQuery } from "./report-selection.server";
@@ -154,9 +154,107 @@ export function groupsOf(rows: GroupRow[], startedAt: Map<string, string>): { gr
 export type SumsInput = { sensorId: string; q: ReportQuery; projectIds: ProjectFilter; tolerance: { toleranceMm: number; tolerancePpm: number }; rule: Rule };
 export type Sums = { groupRows: GroupRow[]; sortedErrors: Float64Array; sessions: { id: string; startedAt: string }[]; uses: Use[] };
 
+/**
+ * Whether the kept sums (report_sums) can answer the selection exactly: its groups are whole
+ * metres of D, so the rule's band edges must be whole metres; a period cuts across them; the
+ * count of shots outside their limit is read from the error index above k·a, which bounds
+ * every limit k·(a + b·D/1000) from below only when a, b ≥ 0 (a negative one never passes the
+ * registry's checks; the scan stays for it).
+ */
+export function keptSumsApply(q: ReportQuery, tolerance: { toleranceMm: number; tolerancePpm: number }, rule: Rule): boolean {
+  return !q.from && !q.to && rule.rangeBandEdgesM.every((x) => Number.isSafeInteger(x)) && tolerance.toleranceMm >= 0 && tolerance.tolerancePpm >= 0 && rule.coverageK > 0;
+}
+
+/** The selection's sessions as conditions on report_sums (the sessions asked for, the reader's projects). */
+function keptWhere(db: Db, sensorId: string, q: ReportQuery, projectIds: ProjectFilter): SQL[] {
+  const where = [eq(reportSums.sensorId, sensorId)];
+  if (q.sessionIds?.length) where.push(inArray(reportSums.sessionId, q.sessionIds));
+  if (projectIds) {
+    where.push(projectIds.length ? inArray(reportSums.sessionId, db.select({ id: checkSessions.id }).from(checkSessions).where(inArray(checkSessions.projectId, projectIds))) : sql`0`);
+  }
+  return where;
+}
+
+type KeptRow = Omit<GroupRow, "within" | "maxAbs">;
+
+/**
+ * The kept sums regrouped by the rule's range bands and moved from each row's own shift
+ * (k_e, k_d) to the selection's (kE, kD, the same included shot as the grouped scan takes):
+ * with x = k_e − kE, Σ(e − kE) = s1 + n·x and Σ(e − kE)² = s2 + 2x·s1 + n·x², likewise for D,
+ * and Σ(D − kD)(e − kE) = de + x·d1 + y·s1 + n·x·y (y = k_d − kD). Whole-metre groups and
+ * whole-metre edges: D < edge exactly when floor(D) < edge.
+ */
+export function keptGroupsQuery(db: Db, where: SQL[], kept: SQL[], rule: Rule) {
+  const e = shots.errorMm;
+  const edges = rule.rangeBandEdgesM;
+  const bin = sql.raw("dbin"); // a column of the CTE g below, not of the table
+  const rb = sql.join([sql`CASE WHEN ${bin} < ${edges[0]} THEN -1`, ...edges.slice(1).map((edge, i) => sql`WHEN ${bin} < ${edge} THEN ${i}`), sql`ELSE ${edges.length - 1} END`], sql` `);
+  return db.all<KeptRow>(sql`
+    WITH k AS (SELECT ${e} AS ke, ${shots.referenceM} AS kd FROM ${shots} WHERE ${and(...where, eq(shots.excluded, false))} ORDER BY ${e} LIMIT 1),
+    g AS (SELECT ${reportSums}.*, k_e - ifnull((SELECT ke FROM k), 0) AS x, k_d - ifnull((SELECT kd FROM k), 0) AS y FROM ${reportSums} WHERE ${and(...kept)})
+    SELECT session_id AS sessionId, excl AS excluded, rc, lb, ${rb} AS rb,
+      sum(n) AS n,
+      sum(s1 + n * x) AS s1, sum(s2 + 2 * x * s1 + n * x * x) AS s2, sum(sq) AS sq,
+      sum(d1 + n * y) AS d1, sum(d2 + 2 * y * d1 + n * y * y) AS d2, sum(de + x * d1 + y * s1 + n * x * y) AS de,
+      sum(sum_d) AS sumD, sum(sum_u2) AS sumU2, sum(unknown_u) AS unknownU,
+      sum(sun) > 0 AS sun, sum(air) > 0 AS air,
+      (SELECT ke FROM k) AS kE, (SELECT kd FROM k) AS kD
+    FROM g GROUP BY 1, 2, 3, 4, 5`);
+}
+/**
+ * The included shots outside their limit, per group: |e| > k·(a + b·D/1000) implies |e| > k·a,
+ * so only the error index's two ends beyond ±k·a are read (a handful of rows for a sensor that
+ * passes), each decided by the grouped scan's own expression, bit for bit.
+ */
+export function outsideQuery(db: Db, where: SQL[], sensor: { toleranceMm: number; tolerancePpm: number }, rule: Rule) {
+  const e = shots.errorMm;
+  const { rc, lb, rb } = bandColumns(rule.rangeBandEdgesM);
+  const floor = sql`${rule.coverageK} * ${sensor.toleranceMm}`;
+  const lim = sql`${rule.coverageK} * (${sensor.toleranceMm} + ${sensor.tolerancePpm} * ${shots.referenceM} / 1000)`;
+  const inc = and(...where, eq(shots.excluded, false));
+  const part = (range: SQL) => sql`SELECT ${shots.sessionId} AS sessionId, ${rc} AS rc, ${lb} AS lb, ${rb} AS rb FROM ${shots} WHERE ${inc} AND ${range} AND NOT (abs(${e}) <= ${lim})`;
+  return db.all<{ sessionId: string; rc: number; lb: number; rb: number; n: number }>(sql`
+    SELECT sessionId, rc, lb, rb, count(*) AS n FROM (${part(sql`${e} > ${floor}`)} UNION ALL ${part(sql`${e} < -(${floor})`)}) GROUP BY 1, 2, 3, 4`);
+}
+
+/** The kept groups with their within counts (n less those outside) and the largest |e| (the sorted ends). */
+function keptGroupRows(kept: KeptRow[], outside: { sessionId: string; rc: number; lb: number; rb: number; n: number }[], sorted: Float64Array): GroupRow[] | null {
+  const key = (r: { sessionId: string; rc: number; lb: number; rb: number }) => `${r.sessionId}\u0000${Number(r.rc)}|${Number(r.lb)}|${Number(r.rb)}`;
+  const out = new Map(outside.map((o) => [key(o), Number(o.n)] as const));
+  // the domain takes the largest of the groups' maxima: every included group may carry the selection's
+  const maxAbs = sorted.length ? Math.max(Math.abs(sorted[0]!), Math.abs(sorted[sorted.length - 1]!)) : 0;
+  let n = 0;
+  const rows = kept.map((r): GroupRow => {
+    const included = !Number(r.excluded);
+    if (included) n += Number(r.n);
+    return { ...r, within: included ? Number(r.n) - (out.get(key(r)) ?? 0) : 0, maxAbs: included ? maxAbs : 0 };
+  });
+  // kept sums that disagree with the index (never seen; a database restored without its
+  // triggers could do it) are not used: the caller scans instead
+  return n === sorted.length ? rows : null;
+}
+
 /** The selection's sums, sorted included errors, sessions and certificate uses: one read transaction. */
 export async function readSums(db: Db, input: SumsInput): Promise<Sums> {
   const where = selectionWhere(db, input.sensorId, input.q, input.projectIds);
+  if (keptSumsApply(input.q, input.tolerance, input.rule)) {
+    const [kept, outside, sortedRows, sessions, uses] = await db.batch([
+      keptGroupsQuery(db, where, keptWhere(db, input.sensorId, input.q, input.projectIds), input.rule),
+      outsideQuery(db, where, input.tolerance, input.rule),
+      sortedErrorsQuery(db, where),
+      sessionsQuery(db, input.sensorId),
+      usesQuery(db, where),
+    ]);
+    const sortedErrors = sortedErrorsOf(sortedRows[0]);
+    const groupRows = keptGroupRows(kept, outside, sortedErrors);
+    if (groupRows) return { groupRows, sortedErrors, sessions, uses };
+    console.warn(`report: the kept sums of sensor ${input.sensorId} do not match its shots; summing the shots instead`);
+  }
+  return scanSums(db, input, where);
+}
+
+/** The same by the grouped scan of the selection (a period, edges not in whole metres). */
+async function scanSums(db: Db, input: SumsInput, where: SQL[]): Promise<Sums> {
   const [groupRows, sortedRows, sessions, uses] = await db.batch([
     groupsQuery(db, where, input.tolerance, input.rule),
     sortedErrorsQuery(db, where),

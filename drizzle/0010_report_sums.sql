@@ -1,0 +1,23 @@
+CREATE TABLE `report_sums` (
+	`sensor_id` text NOT NULL,
+	`session_id` text NOT NULL,
+	`excl` integer NOT NULL,
+	`rc` integer NOT NULL,
+	`lb` integer NOT NULL,
+	`dbin` integer NOT NULL,
+	`n` integer NOT NULL,
+	`k_e` real NOT NULL,
+	`k_d` real NOT NULL,
+	`s1` real NOT NULL,
+	`s2` real NOT NULL,
+	`sq` real NOT NULL,
+	`d1` real NOT NULL,
+	`d2` real NOT NULL,
+	`de` real NOT NULL,
+	`sum_d` real NOT NULL,
+	`sum_u2` real NOT NULL,
+	`unknown_u` integer NOT NULL,
+	`sun` integer NOT NULL,
+	`air` integer NOT NULL,
+	PRIMARY KEY(`sensor_id`, `session_id`, `excl`, `rc`, `lb`, `dbin`)
+);
