@@ -19,8 +19,9 @@ getEnv();
 // The certificate due-date mail (ranging.md §7) is checked at server start and every few hours;
 // started here, not on import, so command-line tools that load the models start no timer.
 ensureCertificateTimer();
-// issue 16: the report worker threads start with the server, so the first report does not wait for them.
-startReportPool();
+// issue 16: the report worker threads start with the server, so the first report does not wait for
+// them; app/cli/serve.ts listens once they are warm.
+export const serverReady: Promise<void> = startReportPool();
 
 // app/cli/serve.ts sets the socket address under this key (it must be this module graph's key).
 export { clientAddressContext } from "~/http/client-address.server";

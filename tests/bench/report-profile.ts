@@ -23,7 +23,8 @@ const { qaId } = JSON.parse(readFileSync(out, "utf8")) as { qaId: string };
 const sensorId = await seed(process.env.DATABASE_URL, n, qaId);
 
 const { getDb, prepareConnection } = await import("~/db/client.server");
-const { groupsQuery, sortedErrorsQuery, sortedErrorsOf, usesQuery, groupsOf } = await import("~/models/report-sums.server");
+const { groupsQuery, sortedErrorsQuery, sortedErrorsOf, usesQuery, groupsOf, keptGroupsQuery, outsideQuery, readSums } = await import("~/models/report-sums.server");
+const { reportSums } = await import("~/db/schema");
 const { selectionWhere, sessionsQuery } = await import("~/models/report-selection.server");
 const { DEFAULT_RULE, reportFromAggregates } = await import("~/domain");
 const { sensorSpecOf } = await import("~/models/shots.server");
@@ -46,7 +47,9 @@ const spec = sensorSpecOf(sensorRow!);
 const tol = { toleranceMm: sensorRow!.toleranceMm, tolerancePpm: sensorRow!.tolerancePpm };
 for (const round of [1, 2]) {
   console.log(`-- round ${round} (${n.toLocaleString("en-GB")} shots)`);
-  const g = await step("grouped sums", () => groupsQuery(db, where, tol, DEFAULT_RULE));
+  const g = await step("grouped sums (scan)", () => groupsQuery(db, where, tol, DEFAULT_RULE));
+  await step("kept sums regrouped (report_sums)", () => keptGroupsQuery(db, where, [eq(reportSums.sensorId, sensorId)], DEFAULT_RULE));
+  await step("shots outside their limit (error index)", () => outsideQuery(db, where, tol, DEFAULT_RULE));
   const s = await step("sorted errors (group_concat text)", () => sortedErrorsQuery(db, where));
   const e = await step("  text → Float64Array", () => sortedErrorsOf(s[0]));
   const ses = await step("sessions", () => sessionsQuery(db, sensorId));
@@ -55,6 +58,7 @@ for (const round of [1, 2]) {
   const r = await step("domain: reportFromAggregates", () => reportFromAggregates({ sensor: spec, rule: DEFAULT_RULE, aggregates: { kE, kD, groups, sortedErrors: e }, lastSignedOffBiasMm: null }));
   await step("JSON.stringify", () => JSON.stringify(r));
   console.log(`   ${g.length} groups, ${e.length} sorted errors`);
+  await step("the whole read (readSums, one batch)", () => readSums(db, { sensorId, q: {}, projectIds: null, tolerance: tol, rule: DEFAULT_RULE }));
 }
 db.$client.close();
 if (process.env.KEEP_DB === "1") console.log(`kept ${process.env.DATABASE_URL} (sensor ${sensorId})`);
