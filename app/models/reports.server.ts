@@ -17,6 +17,7 @@ import { and, asc, desc, eq, isNull, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { projects, projectSensors, sensors, shots } from "~/db/schema";
 import { reportFromAggregates, reportRows, aggregateShots, type ReportShot, type ReportShotRow, type Rule, type SensorReport } from "~/domain";
+import { appErrorOf } from "~/contract/errors";
 import type { Actor } from "./actor";
 import { scopeOf } from "./scope.server";
 import { sensorSpecOf, type QueryError } from "./shots.server";
@@ -210,14 +211,14 @@ export function jsonBody(json: Uint8Array<ArrayBuffer>): ReadableStream<Uint8Arr
 
 /**
  * The api.md report of a sensor with its rows, for the review screens: null for an unknown
- * sensor (or one outside the actor's projects); an invalid query or unknown project throws a
- * JSON Response (400/404).
+ * sensor (or one outside the actor's projects); an invalid query or unknown project throws an
+ * AppError (400/404, api.md's body; the route answers with it).
  */
 export async function buildSensorReport(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams = {}): Promise<SensorReportJson | null> {
   const r = await computeSensorReport(actor, sensorId, query);
   if (r.status === 200) return r.body;
   if (r.status === 404 && r.body.error.startsWith("No sensor")) return null;
-  throw Response.json(r.body, { status: r.status });
+  throw appErrorOf(r);
 }
 
 /**
@@ -286,5 +287,5 @@ export async function sensorReportSummary(actor: Actor, sensorId: string, db: Db
   const r = await report(sensorId, {}, await filterOf(actor, db), {}, db);
   if ("built" in r) return r.built.body;
   if (r.status === 404 && r.body.error.startsWith("No sensor")) return null;
-  throw Response.json(r.body, { status: r.status });
+  throw appErrorOf(r);
 }

@@ -2,6 +2,7 @@ import { Link } from "react-router";
 import type { Route } from "./+types/home";
 import { getOptionalUser } from "~/auth/guards.server";
 import { VerdictBadge } from "~/components/verdict-badge";
+import { answering } from "~/http/app-error.server";
 import { projectsHome, type HomeProject } from "~/models/home.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Shotbook — range checks for lidar and ToF sensors" }];
@@ -9,7 +10,7 @@ export const meta: Route.MetaFunction = () => [{ title: "Shotbook — range chec
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await getOptionalUser(request);
   // A viewer (client or auditor) lands on their projects' reports, not on screens they cannot use (issue 14).
-  const projects = user?.role === "viewer" ? await projectsHome(user) : null;
+  const projects = user?.role === "viewer" ? await answering(() => projectsHome(user)) : null;
   return { role: user?.role ?? null, name: user?.name ?? null, projects };
 }
 

@@ -16,8 +16,38 @@ import { clearReportCache, sensorReportFor, sensorReportJson } from "~/models/re
 import { action as syncAction } from "~/routes/api.sync";
 import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, makeUser } from "../support/registry-fixtures";
 
-type KeptRow = { session_id: string; excl: number; rc: number; lb: number; dbin: number; n: number; k_e: number; k_d: number; s1: number; s2: number; sq: number; d1: number; d2: number; de: number; sum_d: number; sum_u2: number; unknown_u: number; sun: number; air: number };
-type ShotRow = { session_id: string; excluded: number; retro: number; reflectance_pct: number; illuminance_klux: number | null; reference_m: number; error_mm: number; reference_uncertainty_mm: number | null; air_defaulted: number };
+type KeptRow = {
+  session_id: string;
+  excl: number;
+  rc: number;
+  lb: number;
+  dbin: number;
+  n: number;
+  k_e: number;
+  k_d: number;
+  s1: number;
+  s2: number;
+  sq: number;
+  d1: number;
+  d2: number;
+  de: number;
+  sum_d: number;
+  sum_u2: number;
+  unknown_u: number;
+  sun: number;
+  air: number;
+};
+type ShotRow = {
+  session_id: string;
+  excluded: number;
+  retro: number;
+  reflectance_pct: number;
+  illuminance_klux: number | null;
+  reference_m: number;
+  error_mm: number;
+  reference_uncertainty_mm: number | null;
+  air_defaulted: number;
+};
 
 const db = () => getDb();
 
@@ -34,7 +64,9 @@ const close = (a: number, b: number, what: string) => {
 /** Every kept row of the sensor against its shots summed here; every group of shots has its row. */
 async function expectKeptEqualsShots(sensorId: string) {
   const kept = await db().all<KeptRow>(sql`SELECT * FROM report_sums WHERE sensor_id = ${sensorId}`);
-  const list = await db().all<ShotRow>(sql`SELECT session_id, excluded, retro, reflectance_pct, illuminance_klux, reference_m, error_mm, reference_uncertainty_mm, air_defaulted FROM shots WHERE sensor_id = ${sensorId}`);
+  const list = await db().all<ShotRow>(
+    sql`SELECT session_id, excluded, retro, reflectance_pct, illuminance_klux, reference_m, error_mm, reference_uncertainty_mm, air_defaulted FROM shots WHERE sensor_id = ${sensorId}`,
+  );
   type Want = { n: number; e: number; e2: number; d: number; d2: number; de: number; u2: number; unknown: number; sun: number; air: number };
   const want = new Map<string, Want>();
   for (const s of list) {
@@ -146,7 +178,9 @@ test("the kept sums follow inserts, exclusions, recomputed columns, moves and de
   await db().run(sql`UPDATE shots SET excluded = 0 WHERE id = ${ids[9]}`);
   await expectKeptEqualsShots(sensorId);
   // a recomputation rewrites the computed columns (new distance, error, u_ref, air flag)
-  await db().run(sql`UPDATE shots SET reference_m = reference_m + 0.75, error_mm = error_mm - 0.125, reference_uncertainty_mm = NULL, air_defaulted = 1 WHERE id IN (${ids[0]}, ${ids[5]}, ${ids[13]})`);
+  await db().run(
+    sql`UPDATE shots SET reference_m = reference_m + 0.75, error_mm = error_mm - 0.125, reference_uncertainty_mm = NULL, air_defaulted = 1 WHERE id IN (${ids[0]}, ${ids[5]}, ${ids[13]})`,
+  );
   await expectKeptEqualsShots(sensorId);
   // an update of nothing summed changes nothing; one to the same values neither
   await db().run(sql`UPDATE shots SET note = 'windy', error_mm = error_mm WHERE sensor_id = ${sensorId}`);
