@@ -25,11 +25,12 @@ export {
   verdictFailures,
   inPeriod,
   sortedAbsDeviations,
+  kthAbsDeviation,
   NSSDA_FACTOR,
   OUTLIER_K,
   MAD_TO_SIGMA,
 } from "./report.ts";
-export type { ReportGroup, ReportAggregates } from "./report.ts";
+export type { ReportGroup, ReportAggregates, OrderStatistics } from "./report.ts";
 export { coverageChecklist, rangeBandOf, rangeBandLabels, rangeBandIndex, reflectanceClass, illuminanceBand, siteCoverageCells, COVERAGE_NEED } from "./coverage.ts";
 export { DARK_BELOW_PCT, BRIGHT_ABOVE_PCT } from "./coverage.ts";
 export type { SiteTarget, SiteCell } from "./coverage.ts";

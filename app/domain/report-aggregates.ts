@@ -84,8 +84,11 @@ export type ReportGroup = {
   airDefaulted: boolean;
 };
 
-/** A selection summed by groups, with the included errors in ascending order (exact order statistics). */
-export type ReportAggregates = { kE: number; kD: number; groups: ReportGroup[]; sortedErrors: Float64Array };
+/**
+ * A selection summed by groups, with the included errors in ascending order (exact order
+ * statistics) or, from the server's report threads, the order statistics already taken from them.
+ */
+export type ReportAggregates = { kE: number; kD: number; groups: ReportGroup[] } & ({ sortedErrors: Float64Array } | { order: OrderStatistics });
 
 export type ReportAggregatesInput = { sensor: SensorSpec; rule: Rule; aggregates: ReportAggregates; lastSignedOffBiasMm?: number | null };
 
@@ -173,13 +176,59 @@ export function aggregateShots(shots: readonly ReportShot[], sensor: SensorSpec,
   return { kE, kD, groups: [...groups.values()], sortedErrors: e.subarray(0, n).sort() };
 }
 
+/**
+ * The k-th smallest (0-based) of |sᵢ − c| for s sorted ascending, without making that list
+ * (issue 16: at a million shots sortedAbsDeviations allocates 8 MB a call). The values below c
+ * and those at or above it are two sorted sequences of distances, c − s[p−1−i] and s[p+j] − c;
+ * the k-th of their merge is found by bisection on how many come from the first. Each distance
+ * is computed as sortedAbsDeviations computes it, so the result is the same number.
+ */
+export function kthAbsDeviation(s: Float64Array, c: number, k: number): number {
+  const n = s.length;
+  let p = 0;
+  let hi0 = n;
+  while (p < hi0) {
+    const mid = (p + hi0) >> 1;
+    if (s[mid] < c) p = mid + 1;
+    else hi0 = mid;
+  }
+  const nA = p;
+  const nB = n - p;
+  const a = (i: number) => c - s[p - 1 - i];
+  const b = (j: number) => s[p + j] - c;
+  // i = how many of the k + 1 smallest come from the part below c
+  let lo = Math.max(0, k + 1 - nB);
+  let hi = Math.min(k + 1, nA);
+  while (lo < hi) {
+    const i = (lo + hi) >> 1;
+    const j = k + 1 - i;
+    if (j > 0 && a(i) < b(j - 1)) lo = i + 1;
+    else hi = i;
+  }
+  const j = k + 1 - lo;
+  return Math.max(lo > 0 ? a(lo - 1) : -Infinity, j > 0 ? b(j - 1) : -Infinity);
+}
+
+/** The type-7 quantile (as quantileType7Sorted) of |sᵢ − c|, from s sorted ascending. */
+function absDeviationQuantile(s: Float64Array, c: number, p: number): number {
+  const n = s.length;
+  const h = (n - 1) * p;
+  const lo = Math.floor(h);
+  const hi = Math.min(lo + 1, n - 1);
+  const x = kthAbsDeviation(s, c, lo);
+  return x + (h - lo) * (kthAbsDeviation(s, c, hi) - x);
+}
+
+/** The outlier rule's median and MAD and the 95th percentile of |e|, of n included errors. */
+export type OrderStatistics = { n: number; median: number; mad: number; p95Abs: number };
+
 /** Median, MAD and the 95th percentile of |e| (type 7) from the included errors in ascending order. */
 export function orderStatistics(sorted: Float64Array): { median: number; mad: number; p95Abs: number } | null {
   if (!sorted.length) return null;
   const median = quantileType7Sorted(sorted, 0.5);
   return {
     median,
-    mad: quantileType7Sorted(sortedAbsDeviations(sorted, median), 0.5),
-    p95Abs: quantileType7Sorted(sortedAbsDeviations(sorted, 0), 0.95),
+    mad: absDeviationQuantile(sorted, median, 0.5),
+    p95Abs: absDeviationQuantile(sorted, 0, 0.95),
   };
 }

@@ -15,6 +15,7 @@ import { unambiguousIntervalM } from "./phase.ts";
 import { combinedRmseMm } from "./uncertainty.ts";
 import { aggregateShots, illuminanceIndex, orderStatistics, reflectanceIndex, sortedAbsDeviations, type ReportAggregates, type ReportAggregatesInput, type ReportGroup } from "./report-aggregates.ts";
 export { aggregateShots, illuminanceIndex, orderStatistics, reflectanceIndex, sortedAbsDeviations, type ReportAggregates, type ReportAggregatesInput, type ReportGroup };
+export { kthAbsDeviation, type OrderStatistics } from "./report-aggregates.ts";
 import type { AcceptanceTest, BandStats, DriftEntry, IlluminanceBand, ReflectanceClass, ReportShot, ReportShotRow, Rule, SensorReport, SensorReportInput, SensorSpec, ShotFlag } from "./types.ts";
 
 /** NSSDA factor: 95 % accuracy = 1.9600 · RMSE. */
@@ -112,7 +113,7 @@ export function reportFromAggregates(input: ReportAggregatesInput): SensorReport
   const { sensor, rule } = input;
   checkSensor(sensor);
   checkRule(rule);
-  const { kE, kD, groups, sortedErrors } = input.aggregates;
+  const { kE, kD, groups } = input.aggregates;
   const a = sensor.toleranceMm;
   const edges = rule.rangeBandEdgesM;
   const labels = rangeBandLabels(edges);
@@ -164,12 +165,14 @@ export function reportFromAggregates(input: ReportAggregatesInput): SensorReport
     ses.s1 += g.s1;
     ses.sumD += g.sumD;
   }
-  if (sortedErrors.length !== n) throw new DomainError("aggregates", "length_mismatch", `the sorted errors (${sortedErrors.length}) are not the included shots (${n})`);
+  const agg = input.aggregates;
+  const counted = "order" in agg ? agg.order.n : agg.sortedErrors.length;
+  if (counted !== n) throw new DomainError("aggregates", "length_mismatch", `the sorted errors (${counted}) are not the included shots (${n})`);
 
   let biasMm: number | null = null;
   let sdMm: number | null = null;
   let rmseMm: number | null = null;
-  const order = orderStatistics(sortedErrors);
+  const order = "order" in agg ? (agg.order.n ? agg.order : null) : orderStatistics(agg.sortedErrors);
   if (n > 0) {
     biasMm = kE + s1 / n;
     rmseMm = Math.sqrt(sq / n);

@@ -7,7 +7,7 @@ import { and, eq, inArray, sql, type SQL } from "drizzle-orm";
 import type { Db } from "~/db/client.server";
 import { checkSessions, reportSums, shots } from "~/db/schema";
 import { BRIGHT_SUN_KLUX } from "~/domain/coverage";
-import type { ReportGroup, Rule } from "~/domain";
+import { orderStatistics, type OrderStatistics, type ReportGroup, type Rule } from "~/domain";
 import { selectionWhere, sessionsQuery, type ProjectFilter, type ReportQuery } from "./report-selection.server";
 
 /** ranging.md §5's bands as SQL, the same comparisons as app/domain's reflectanceIndex, illuminanceIndex, rangeBandIndex. */
@@ -152,7 +152,13 @@ export function groupsOf(rows: GroupRow[], startedAt: Map<string, string>): { gr
 
 /** What readSums needs: plain data, so it crosses to a worker thread by structured clone. */
 export type SumsInput = { sensorId: string; q: ReportQuery; projectIds: ProjectFilter; tolerance: { toleranceMm: number; tolerancePpm: number }; rule: Rule };
-export type Sums = { groupRows: GroupRow[]; sortedErrors: Float64Array; sessions: { id: string; startedAt: string }[]; uses: Use[] };
+/**
+ * The order statistics travel instead of the sorted errors: a few numbers, not 8 bytes a shot
+ * copied from the report thread (and the thread drops its array as soon as it has them).
+ */
+export type Sums = { groupRows: GroupRow[]; order: OrderStatistics; sessions: { id: string; startedAt: string }[]; uses: Use[] };
+
+const orderOf = (sorted: Float64Array): OrderStatistics => ({ n: sorted.length, ...(orderStatistics(sorted) ?? { median: NaN, mad: NaN, p95Abs: NaN }) });
 
 /**
  * Whether the kept sums (report_sums) can answer the selection exactly: its groups are whole
@@ -247,7 +253,7 @@ export async function readSums(db: Db, input: SumsInput): Promise<Sums> {
     ]);
     const sortedErrors = sortedErrorsOf(sortedRows[0]);
     const groupRows = keptGroupRows(kept, outside, sortedErrors);
-    if (groupRows) return { groupRows, sortedErrors, sessions, uses };
+    if (groupRows) return { groupRows, order: orderOf(sortedErrors), sessions, uses };
     console.warn(`report: the kept sums of sensor ${input.sensorId} do not match its shots; summing the shots instead`);
   }
   return scanSums(db, input, where);
@@ -261,5 +267,5 @@ async function scanSums(db: Db, input: SumsInput, where: SQL[]): Promise<Sums> {
     sessionsQuery(db, input.sensorId),
     usesQuery(db, where),
   ]);
-  return { groupRows, sortedErrors: sortedErrorsOf(sortedRows[0]), sessions, uses };
+  return { groupRows, order: orderOf(sortedErrorsOf(sortedRows[0])), sessions, uses };
 }

@@ -119,10 +119,10 @@ async function report(
     return { built: hit.built, kept: hit };
   }
   const sumsInput: SumsInput = { sensorId, q, projectIds, tolerance: { toleranceMm: row.toleranceMm, tolerancePpm: row.tolerancePpm }, rule };
-  const { groupRows, sortedErrors, sessions: ses, uses } = await readSumsOffThread(db, sumsInput);
+  const { groupRows, order, sessions: ses, uses } = await readSumsOffThread(db, sumsInput);
   const startedAt = new Map(ses.map((s) => [s.id, s.startedAt] as const));
   const { groups, kE, kD } = groupsOf(groupRows, startedAt);
-  const { failed: _failed, shots: _rows, outlier: _outlier, ...r } = reportFromAggregates({ sensor: spec, rule, aggregates: { kE, kD, groups, sortedErrors }, lastSignedOffBiasMm: state.lastBias });
+  const { failed: _failed, shots: _rows, outlier: _outlier, ...r } = reportFromAggregates({ sensor: spec, rule, aggregates: { kE, kD, groups, order }, lastSignedOffBiasMm: state.lastBias });
   const inSelection = new Map<string, string>();
   const defaulted = new Set<string>();
   for (const g of groups) {

@@ -10,17 +10,21 @@ import { join } from "node:path";
 import { seed } from "./report.bench.ts";
 
 const n = Number(process.argv[2] ?? 100_000);
-const dir = mkdtempSync(join(tmpdir(), "shotbook-report-profile-"));
+// PROFILE_DIR=<dir>: a database the bench or a previous run seeded there (bench.db), read as it is
+const dir = process.env.PROFILE_DIR ?? mkdtempSync(join(tmpdir(), "shotbook-report-profile-"));
 process.env.DATABASE_URL = `file:${join(dir, "bench.db")}`;
 process.env.SESSION_SECRET ??= "report-profile-" + "x".repeat(40);
 process.env.DATA_DIR = join(dir, "data");
-const out = join(dir, "users.json");
-await new Promise<void>((res, rej) => {
-  const p = spawn(process.execPath, ["--import", "tsx", "tests/bench/report-prepare.ts", out], { stdio: "inherit", env: process.env });
-  p.on("exit", (c) => (c === 0 ? res() : rej(new Error(`prepare exited ${c}`))));
-});
-const { qaId } = JSON.parse(readFileSync(out, "utf8")) as { qaId: string };
-const sensorId = await seed(process.env.DATABASE_URL, n, qaId);
+let sensorId = "bench-sensor";
+if (!process.env.PROFILE_DIR) {
+  const out = join(dir, "users.json");
+  await new Promise<void>((res, rej) => {
+    const p = spawn(process.execPath, ["--import", "tsx", "tests/bench/report-prepare.ts", out], { stdio: "inherit", env: process.env });
+    p.on("exit", (c) => (c === 0 ? res() : rej(new Error(`prepare exited ${c}`))));
+  });
+  const { qaId } = JSON.parse(readFileSync(out, "utf8")) as { qaId: string };
+  sensorId = await seed(process.env.DATABASE_URL, n, qaId);
+}
 
 const { getDb, prepareConnection } = await import("~/db/client.server");
 const { groupsQuery, sortedErrorsQuery, sortedErrorsOf, usesQuery, groupsOf, keptGroupsQuery, outsideQuery, readSums } = await import("~/models/report-sums.server");
@@ -61,5 +65,5 @@ for (const round of [1, 2]) {
   await step("the whole read (readSums, one batch)", () => readSums(db, { sensorId, q: {}, projectIds: null, tolerance: tol, rule: DEFAULT_RULE }));
 }
 db.$client.close();
-if (process.env.KEEP_DB === "1") console.log(`kept ${process.env.DATABASE_URL} (sensor ${sensorId})`);
+if (process.env.KEEP_DB === "1" || process.env.PROFILE_DIR) console.log(`kept ${process.env.DATABASE_URL} (sensor ${sensorId})`);
 else rmSync(dir, { recursive: true, force: true });
