@@ -3,7 +3,9 @@
 // transaction. readSums is the whole read; on the production server it runs on a worker
 // thread with its own connection (report-pool.server.ts), so the request thread never waits
 // for it.
-import { and, eq, inArray, sql, type SQL } from "drizzle-orm";
+import { and, eq, gte, inArray, sql, type SQL } from "drizzle-orm";
+import { SQLiteAsyncDialect } from "drizzle-orm/sqlite-core";
+import type { InArgs, Transaction } from "@libsql/client";
 import type { Db } from "~/db/client.server";
 import { checkSessions, reportSums, shots } from "~/db/schema";
 import { BRIGHT_SUN_KLUX } from "~/domain/coverage";
@@ -191,11 +193,14 @@ type KeptRow = Omit<GroupRow, "within" | "maxAbs">;
  * whole-metre edges: D < edge exactly when floor(D) < edge.
  */
 export function keptGroupsQuery(db: Db, where: SQL[], kept: SQL[], rule: Rule) {
+  return db.all<KeptRow>(keptGroupsSql(where, kept, rule));
+}
+function keptGroupsSql(where: SQL[], kept: SQL[], rule: Rule): SQL {
   const e = shots.errorMm;
   const edges = rule.rangeBandEdgesM;
   const bin = sql.raw("dbin"); // a column of the CTE g below, not of the table
   const rb = sql.join([sql`CASE WHEN ${bin} < ${edges[0]} THEN -1`, ...edges.slice(1).map((edge, i) => sql`WHEN ${bin} < ${edge} THEN ${i}`), sql`ELSE ${edges.length - 1} END`], sql` `);
-  return db.all<KeptRow>(sql`
+  return sql`
     WITH k AS (SELECT ${e} AS ke, ${shots.referenceM} AS kd FROM ${shots} WHERE ${and(...where, eq(shots.excluded, false))} ORDER BY ${e} LIMIT 1),
     g AS (SELECT ${reportSums}.*, k_e - ifnull((SELECT ke FROM k), 0) AS x, k_d - ifnull((SELECT kd FROM k), 0) AS y FROM ${reportSums} WHERE ${and(...kept)})
     SELECT session_id AS sessionId, excl AS excluded, rc, lb, ${rb} AS rb,
@@ -205,7 +210,7 @@ export function keptGroupsQuery(db: Db, where: SQL[], kept: SQL[], rule: Rule) {
       sum(sum_d) AS sumD, sum(sum_u2) AS sumU2, sum(unknown_u) AS unknownU,
       sum(sun) > 0 AS sun, sum(air) > 0 AS air,
       (SELECT ke FROM k) AS kE, (SELECT kd FROM k) AS kD
-    FROM g GROUP BY 1, 2, 3, 4, 5`);
+    FROM g GROUP BY 1, 2, 3, 4, 5`;
 }
 /**
  * The included shots outside their limit, per group: |e| > k·(a + b·D/1000) implies |e| > k·a,
@@ -213,18 +218,22 @@ export function keptGroupsQuery(db: Db, where: SQL[], kept: SQL[], rule: Rule) {
  * passes), each decided by the grouped scan's own expression, bit for bit.
  */
 export function outsideQuery(db: Db, where: SQL[], sensor: { toleranceMm: number; tolerancePpm: number }, rule: Rule) {
+  return db.all<OutsideRow>(outsideSql(where, sensor, rule));
+}
+type OutsideRow = { sessionId: string; rc: number; lb: number; rb: number; n: number };
+function outsideSql(where: SQL[], sensor: { toleranceMm: number; tolerancePpm: number }, rule: Rule): SQL {
   const e = shots.errorMm;
   const { rc, lb, rb } = bandColumns(rule.rangeBandEdgesM);
   const floor = sql`${rule.coverageK} * ${sensor.toleranceMm}`;
   const lim = sql`${rule.coverageK} * (${sensor.toleranceMm} + ${sensor.tolerancePpm} * ${shots.referenceM} / 1000)`;
   const inc = and(...where, eq(shots.excluded, false));
   const part = (range: SQL) => sql`SELECT ${shots.sessionId} AS sessionId, ${rc} AS rc, ${lb} AS lb, ${rb} AS rb FROM ${shots} WHERE ${inc} AND ${range} AND NOT (abs(${e}) <= ${lim})`;
-  return db.all<{ sessionId: string; rc: number; lb: number; rb: number; n: number }>(sql`
-    SELECT sessionId, rc, lb, rb, count(*) AS n FROM (${part(sql`${e} > ${floor}`)} UNION ALL ${part(sql`${e} < -(${floor})`)}) GROUP BY 1, 2, 3, 4`);
+  return sql`
+    SELECT sessionId, rc, lb, rb, count(*) AS n FROM (${part(sql`${e} > ${floor}`)} UNION ALL ${part(sql`${e} < -(${floor})`)}) GROUP BY 1, 2, 3, 4`;
 }
 
 /** The kept groups with their within counts (n less those outside) and the largest |e| (the sorted ends). */
-function keptGroupRows(kept: KeptRow[], outside: { sessionId: string; rc: number; lb: number; rb: number; n: number }[], sorted: Float64Array): GroupRow[] | null {
+function keptGroupRows(kept: KeptRow[], outside: OutsideRow[], sorted: Float64Array): GroupRow[] | null {
   const key = (r: { sessionId: string; rc: number; lb: number; rb: number }) => `${r.sessionId}\u0000${Number(r.rc)}|${Number(r.lb)}|${Number(r.rb)}`;
   const out = new Map(outside.map((o) => [key(o), Number(o.n)] as const));
   // the domain takes the largest of the groups' maxima: every included group may carry the selection's
@@ -240,20 +249,72 @@ function keptGroupRows(kept: KeptRow[], outside: { sessionId: string; rc: number
   return n === sorted.length ? rows : null;
 }
 
+/** Included errors read per statement: about 1.2 MB of text, where one read of all was 18 MB at a million shots. */
+export const ERRORS_CHUNK = 65_536;
+const dialect = new SQLiteAsyncDialect();
+const stmt = (q: SQL | { getSQL(): SQL }) => {
+  const x = dialect.sqlToQuery("getSQL" in q ? q.getSQL() : q);
+  return { sql: x.sql, args: x.params as InArgs };
+};
+
+/**
+ * The included errors in ascending order, ERRORS_CHUNK at a time, into one Float64Array of the
+ * n the kept sums counted (issue 16: at a million shots the one text of all of them, its copy,
+ * JSON.parse's array and the typed array held ~60 MB at once on the report thread). Each
+ * statement resumes at the last value read, skipping the ties of it already taken, so it seeks
+ * the error index instead of counting an OFFSET from the start. All in the caller's read
+ * transaction: the chunks and the sums are one snapshot.
+ */
+export async function sortedErrorsChunked(tx: Transaction, where: SQL[], n: number, chunkSize = ERRORS_CHUNK): Promise<Float64Array | null> {
+  const out = new Float64Array(n);
+  let got = 0;
+  let last: number | null = null;
+  let ties = 0;
+  for (;;) {
+    const inc = [...where, eq(shots.excluded, false), ...(last == null ? [] : [gte(shots.errorMm, last)])];
+    const q = sql`SELECT group_concat(v) AS v, count(*) AS n FROM (
+      SELECT printf('%!.17g', ${shots.errorMm}) AS v FROM ${shots} WHERE ${and(...inc)} ORDER BY ${shots.errorMm} LIMIT ${chunkSize} OFFSET ${ties})`;
+    const row = (await tx.execute(stmt(q))).rows[0] as unknown as { v: string | null; n: number } | undefined;
+    const chunk = sortedErrorsOf(row);
+    if (got + chunk.length > n) return null;
+    out.set(chunk, got);
+    got += chunk.length;
+    if (chunk.length < chunkSize) break;
+    const v = chunk[chunk.length - 1]!;
+    // the next statement starts at v again: skip every v already taken (this chunk's, and the
+    // earlier ones' when a run of ties is longer than a chunk)
+    let t = 0;
+    while (t < chunk.length && chunk[chunk.length - 1 - t] === v) t++;
+    ties = last === v ? ties + t : t;
+    last = v;
+  }
+  return got === n ? out : null;
+}
+
 /** The selection's sums, sorted included errors, sessions and certificate uses: one read transaction. */
 export async function readSums(db: Db, input: SumsInput): Promise<Sums> {
   const where = selectionWhere(db, input.sensorId, input.q, input.projectIds);
   if (keptSumsApply(input.q, input.tolerance, input.rule)) {
-    const [kept, outside, sortedRows, sessions, uses] = await db.batch([
-      keptGroupsQuery(db, where, keptWhere(db, input.sensorId, input.q, input.projectIds), input.rule),
-      outsideQuery(db, where, input.tolerance, input.rule),
-      sortedErrorsQuery(db, where),
-      sessionsQuery(db, input.sensorId),
-      usesQuery(db, where),
-    ]);
-    const sortedErrors = sortedErrorsOf(sortedRows[0]);
-    const groupRows = keptGroupRows(kept, outside, sortedErrors);
-    if (groupRows) return { groupRows, order: orderOf(sortedErrors), sessions, uses };
+    const tx = await db.$client.transaction("read");
+    try {
+      const [kept, outside, sessions, uses] = (
+        await tx.batch([
+          stmt(keptGroupsSql(where, keptWhere(db, input.sensorId, input.q, input.projectIds), input.rule)),
+          stmt(outsideSql(where, input.tolerance, input.rule)),
+          stmt(sessionsQuery(db, input.sensorId)),
+          stmt(usesQuery(db, where)),
+        ])
+      ).map((r) => r.rows as unknown[]) as [KeptRow[], OutsideRow[], ArrayLike<string>[], ArrayLike<string | null>[]];
+      const n = kept.reduce((a, r) => a + (Number(r.excluded) ? 0 : Number(r.n)), 0);
+      const sortedErrors = await sortedErrorsChunked(tx, where, n);
+      const groupRows = sortedErrors && keptGroupRows(kept, outside, sortedErrors);
+      // the builder's statements name their columns as in the table: read by position, in the order selected
+      const ses = sessions.map((x) => ({ id: x[0]!, startedAt: x[1]! }));
+      const used = uses.map((u): Use => ({ sessionId: u[0]!, tapeId: u[1] ?? null, edmId: u[2] ?? null, day: u[3]! }));
+      if (sortedErrors && groupRows) return { groupRows, order: orderOf(sortedErrors), sessions: ses, uses: used };
+    } finally {
+      tx.close();
+    }
     console.warn(`report: the kept sums of sensor ${input.sensorId} do not match its shots; summing the shots instead`);
   }
   return scanSums(db, input, where);

@@ -13,6 +13,8 @@ import { beforeAll, expect, test } from "vitest";
 import { getDb } from "~/db/client.server";
 import { projects } from "~/db/schema";
 import { clearReportCache, sensorReportFor, sensorReportJson } from "~/models/reports.server";
+import { sortedErrorsChunked } from "~/models/report-sums.server";
+import { selectionWhere } from "~/models/report-selection.server";
 import { action as syncAction } from "~/routes/api.sync";
 import { addMemberIds, apiRequest, call, makeProject, makeSensor, makeSite, makeUser } from "../support/registry-fixtures";
 
@@ -248,4 +250,24 @@ test("a rule whose band edges are not whole metres is reported by the grouped sc
   expect(kept.byRange.map((b: { band: string }) => b.band)).toContain("12.5-45.6");
   expectSameFigures(kept, scanned);
   expectSameFigures(kept, fromShots);
+});
+
+test("the included errors read a chunk at a time are the whole sorted list, with runs of ties longer than a chunk", async () => {
+  // first principles: the sensor's included errors sorted here; a run of 7 equal values and
+  // other ties, read in chunks of 1 to 9 (each chunk resumes at its last value past the ties taken)
+  await db().run(sql`UPDATE shots SET error_mm = 2.5 WHERE id IN (${ids[3]}, ${ids[4]}, ${ids[6]}, ${ids[7]}, ${ids[8]}, ${ids[11]}, ${ids[12]})`);
+  const list = await db().all<{ e: number }>(sql`SELECT error_mm AS e FROM shots WHERE sensor_id = ${sensorId} AND excluded = 0`);
+  const want = list.map((r) => r.e).sort((a, b) => a - b);
+  expect(want.filter((e) => e === 2.5).length).toBe(7);
+  const where = selectionWhere(db(), sensorId, {}, null);
+  for (let chunk = 1; chunk <= 9; chunk++) {
+    const tx = await db().$client.transaction("read");
+    try {
+      expect([...(await sortedErrorsChunked(tx, where, want.length, chunk))!], `chunks of ${chunk}`).toEqual(want);
+      // a count that is not the shots' is refused (the caller then scans)
+      expect(await sortedErrorsChunked(tx, where, want.length - 1, chunk)).toBeNull();
+    } finally {
+      tx.close();
+    }
+  }
 });
