@@ -10,6 +10,7 @@ import { renderToPipeableStream } from "react-dom/server";
 import { getEnv } from "~/env.server";
 import { ensureCertificateTimer } from "~/models/certificates.server";
 import { startReportPool } from "~/models/report-pool.server";
+import { warmReports } from "~/models/reports.server";
 import { NonceContext } from "~/components/nonce";
 import { nonceContext } from "~/http/security.server";
 
@@ -21,7 +22,7 @@ getEnv();
 ensureCertificateTimer();
 // issue 16: the report worker threads start with the server, so the first report does not wait for
 // them; app/cli/serve.ts listens once they are warm.
-export const serverReady: Promise<void> = startReportPool();
+export const serverReady: Promise<unknown> = Promise.all([startReportPool(), warmReports().catch((e) => console.error("report: the warm-up of the request thread failed", e))]);
 
 // app/cli/serve.ts sets the socket address under this key (it must be this module graph's key).
 export { clientAddressContext } from "~/http/client-address.server";

@@ -62,7 +62,7 @@ if (process.env.SHOTBOOK_LOOP_STATS === "1") {
 
 // issue 16: listen once the build's worker threads are warm (app/entry.server.tsx serverReady), so
 // no first request shares the CPU with their start; never more than 15 s for it
-const ready = (build.entry.module as unknown as { serverReady?: Promise<void> }).serverReady;
+const ready = (build.entry.module as unknown as { serverReady?: Promise<unknown> }).serverReady;
 if (ready) await Promise.race([ready, new Promise((r) => setTimeout(r, 15_000).unref())]);
 
 const port = Number(process.env.PORT ?? 3000);
