@@ -107,7 +107,8 @@ async function startServer(buildDir: string, env: NodeJS.ProcessEnv) {
   const prof = process.env.BENCH_SERVER_PROF ? ["--cpu-prof", "--cpu-prof-dir", process.env.BENCH_SERVER_PROF] : [];
   const child: ChildProcess = spawn(process.execPath, [...prof, "--import", "tsx", "app/cli/serve.ts", join(buildDir, "server/index.js")], {
     cwd: ROOT,
-    env: { ...env, PORT: String(port), HOST: "127.0.0.1", APP_URL: `http://127.0.0.1:${port}`, SHOTBOOK_LOOP_STATS: "1" },
+    // (and the sync workers, which --cpu-prof does not reach, write theirs every 5 s: sync.worker.ts)
+    env: { ...env, PORT: String(port), HOST: "127.0.0.1", APP_URL: `http://127.0.0.1:${port}`, SHOTBOOK_LOOP_STATS: "1", SHOTBOOK_WORKER_PROF: process.env.BENCH_SERVER_PROF ?? "" },
     stdio: ["ignore", "pipe", "pipe"],
   });
   const loopLines: string[] = [];
