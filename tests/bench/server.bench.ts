@@ -258,8 +258,14 @@ export async function run(): Promise<string[]> {
       rawRuns.push({ ms, cpuMs: (c.user + c.system) / 1000 });
       raw.close();
     }
-    const rawMs = quantile(rawRuns.map((r) => r.ms).sort((a, b) => a - b), 0.5);
-    const rawCpuMs = quantile(rawRuns.map((r) => r.cpuMs).sort((a, b) => a - b), 0.5);
+    const rawMs = quantile(
+      rawRuns.map((r) => r.ms).sort((a, b) => a - b),
+      0.5,
+    );
+    const rawCpuMs = quantile(
+      rawRuns.map((r) => r.cpuMs).sort((a, b) => a - b),
+      0.5,
+    );
     const n1 = accepted;
     const rateOne = n1 / (oneMs / 1000);
     const rateSix = sixAccepted / (sixMs / 1000);
