@@ -50,6 +50,14 @@ export function syncPool(): Tinypool | null {
   return pool;
 }
 
+/**
+ * Called by the sync worker module on load: a worker that runs a whole request
+ * (sync-answer.server.ts) does every stage itself, and never starts a pool of its own.
+ */
+export function noSyncPoolOnThisThread() {
+  pool = null;
+}
+
 /** For tests and shutdown: stop the threads; the next use starts them again. */
 export async function closeSyncPool() {
   const p = pool;

@@ -8,3 +8,4 @@ const worker = await import("./sync.worker.ts");
 export const validate = worker.validate;
 export const shots = worker.shots;
 export const write = worker.write;
+export const ingest = worker.ingest;

@@ -4,6 +4,37 @@
 import { getDb } from "~/db/client.server";
 import { computeShotRecord, shotInsertRow } from "./shot-record";
 import { shotStage, validateRecords, type ShotStageInput } from "./sync-work";
+import { answerSyncBytes } from "./sync-answer.server";
+import { noSyncPoolOnThisThread } from "./sync-pool.server";
+import type { Actor } from "./actor";
+
+noSyncPoolOnThisThread();
+
+// SHOTBOOK_WORKER_PROF=<dir> (set by the server bench's BENCH_SERVER_PROF): a CPU profile of this
+// thread every 5 s, since `node --cpu-prof` profiles only the main thread.
+const profDir = process.env.SHOTBOOK_WORKER_PROF;
+if (profDir) {
+  const [{ Session }, { writeFileSync }, { join }, { threadId }] = await Promise.all([import("node:inspector/promises"), import("node:fs"), import("node:path"), import("node:worker_threads")]);
+  const session = new Session();
+  session.connect();
+  await session.post("Profiler.enable");
+  await session.post("Profiler.start");
+  let n = 0;
+  setInterval(async () => {
+    const { profile } = await session.post("Profiler.stop");
+    writeFileSync(join(profDir, `sync-worker-${threadId}-${String(n++).padStart(3, "0")}.cpuprofile`), JSON.stringify(profile));
+    await session.post("Profiler.start");
+  }, 5000).unref();
+}
+
+/**
+ * A whole POST /api/sync on this thread's own connection (issue 16): the body's bytes in, the
+ * answer's bytes out; only the route's reading of the body and its sending of the answer stay
+ * on the thread that serves every other request.
+ */
+export function ingest(task: { actor: Actor; bytes: Uint8Array; gzip: boolean }) {
+  return answerSyncBytes(task.actor, task.bytes, task.gzip);
+}
 
 export function validate(body: unknown) {
   return validateRecords(body);

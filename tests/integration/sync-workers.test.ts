@@ -7,7 +7,9 @@ import { afterAll, expect, test } from "vitest";
 import { inArray } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { shots } from "~/db/schema";
+import { gunzipSync } from "node:zlib";
 import { closeSyncPool, syncPool, syncWorkerCount } from "~/models/sync-pool.server";
+import { acceptsGzip } from "~/models/sync-answer.server";
 import { action } from "~/routes/api.sync";
 import { apiRequest, call, makeSensor, makeSite, makeTape, makeUser, shareProject, type TestUser } from "../support/registry-fixtures";
 
@@ -96,6 +98,30 @@ test("a batch synced through the worker threads gets the answer and the stored r
   const bad = await sync(w.crew, { deviceId: "tablet-w", sessions: {}, shots: [] });
   expect(bad.status).toBe(400);
   expect(bad.json.errors.map((e: { path: string }) => e.path)).toEqual(["sessions"]);
+  // the body is parsed on the worker: text that is not JSON is refused there, nothing written
+  const notJson = await call(action, apiRequest("/api/sync", { user: w.crew, body: '{"deviceId": "tablet-w", "sessions": [', headers: { "Content-Type": "application/json" } }));
+  expect(notJson.status).toBe(400);
+  expect(notJson.json.error).toMatch(/not JSON/);
+
+  // a client that takes gzip gets the worker's answer gzipped there (the server's compression
+  // middleware leaves an encoded answer alone), and it unpacks to the same answer
+  const zippedBatch = batch(w);
+  const res = (await action({ request: apiRequest("/api/sync", { user: w.crew, json: zippedBatch, headers: { "Accept-Encoding": "gzip, deflate" } }), params: {}, context: {} } as never)) as Response;
+  expect(res.status).toBe(200);
+  expect(res.headers.get("Content-Encoding")).toBe("gzip");
+  expect(res.headers.get("Content-Type")).toBe("application/json");
+  const unpacked = JSON.parse(gunzipSync(Buffer.from(await res.arrayBuffer())).toString("utf8"));
+  expect(shape(zippedBatch, unpacked.results)).toEqual(shapeA);
+});
+
+test("Accept-Encoding is read as RFC 9110 §12.5.3 words it: q=0 refuses a coding, * stands for any not named", () => {
+  expect(acceptsGzip("gzip, deflate")).toBe(true);
+  expect(acceptsGzip("br;q=1.0, gzip;q=0.8")).toBe(true);
+  expect(acceptsGzip("gzip;q=0")).toBe(false);
+  expect(acceptsGzip("gzip;q=0, *")).toBe(false);
+  expect(acceptsGzip("*;q=0.5")).toBe(true);
+  expect(acceptsGzip("identity")).toBe(false);
+  expect(acceptsGzip(null)).toBe(false);
 });
 
 test("SYNC_WORKERS is checked: a count that is not a whole number stops the server with the reason", () => {
