@@ -25,7 +25,7 @@ import {
   type RegistryActor,
   type Retirable,
 } from "~/models/registry-upsert.server";
-import { recomputeShotsForEdm } from "~/models/shots.server";
+import { recomputeShotsForEdm } from "~/models/recompute.server";
 
 export type EdmRow = typeof edms.$inferSelect;
 

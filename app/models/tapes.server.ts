@@ -24,7 +24,7 @@ import {
   type RegistryActor,
   type Retirable,
 } from "~/models/registry-upsert.server";
-import { recomputeShotsForTape } from "~/models/shots.server";
+import { recomputeShotsForTape } from "~/models/recompute.server";
 
 export type TapeRow = typeof tapes.$inferSelect;
 
