@@ -7,6 +7,7 @@ import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
 import { ReadOnlyRecord, RecordTitle } from "~/components/registry-record";
 import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/contract/registry";
+import { readFormCapped } from "~/http/body.server";
 import { registryHistory } from "~/models/sensors.server";
 import { getEdmFor, restoreEdm, retireEdm, updateEdm } from "~/models/edms.server";
 import { invariantResponse } from "~/utils/http";
@@ -26,7 +27,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const formData = await request.formData();
+  const formData = await readFormCapped(request);
   const intent = formData.get("intent");
   const back = async (text: string) => redirect("/admin/edms", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
 
