@@ -1,7 +1,8 @@
-// The parts the admin pages of project-listed records (tapes, reference EDMs) share: the way back
-// to the list with the record's title, and the read-only block a non-admin member sees of one of
-// their projects' records (issue 14; one component since issue 13).
+// The parts the registry's admin pages share (issue 13: one component each): the head of a list
+// page, the way back to the list with a record's title, and the read-only block a non-admin member
+// sees of one of their projects' tapes or reference EDMs (issue 14).
 import { Link } from "react-router";
+import { FlashNotice, RegistryNav } from "~/components/forms";
 
 /** The link back to the list and the record's label, marked when it is retired. */
 export function RecordTitle({ backTo, backLabel, label, retiredAt }: { backTo: string; backLabel: string; label: string; retiredAt: string | null }) {
@@ -50,5 +51,51 @@ export function ReadOnlyRecord({
       </dl>
       <p className="text-muted">Only an admin changes {what} or the projects that use it.</p>
     </div>
+  );
+}
+
+/**
+ * The head of a registry list page: the admin's registry tabs, the title with its "+ New" button
+ * (admins only), the flash notice and the switch that shows or hides the retired records.
+ */
+export function RegistryListHead({
+  title,
+  listTo,
+  newLabel,
+  plural,
+  canEdit,
+  flash,
+  includeRetired,
+  retiredCount,
+}: {
+  title: string;
+  /** the list's path; the form for a new record is at `${listTo}/new` */
+  listTo: string;
+  newLabel: string;
+  /** the records' name in the retired switch ("sensors", "EDMs") */
+  plural: string;
+  canEdit: boolean;
+  flash: React.ComponentProps<typeof FlashNotice>["flash"];
+  includeRetired: boolean;
+  retiredCount: number;
+}) {
+  return (
+    <>
+      {canEdit ? <RegistryNav /> : null}
+      <div className="flex flex-wrap items-center gap-3">
+        <h1 className="text-3xl font-bold">{title}</h1>
+        {canEdit ? (
+          <Link to={`${listTo}/new`} className="btn ml-auto">
+            + {newLabel}
+          </Link>
+        ) : null}
+      </div>
+      <FlashNotice flash={flash} />
+      <p>
+        <Link className="btn-secondary" to={includeRetired ? listTo : `${listTo}?retired=show`}>
+          {includeRetired ? `Hide retired ${plural}` : `Show retired ${plural} (${retiredCount})`}
+        </Link>
+      </p>
+    </>
   );
 }
