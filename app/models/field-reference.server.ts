@@ -3,7 +3,7 @@
 import { and, isNull } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { edms, projectEdms, projectSensors, projectSites, projectTapes, projects, sensors, sites, stations, tapes, targets } from "~/db/schema";
-import { ruleOf, RULE_COLUMNS } from "~/models/shots.server";
+import { ruleOf, RULE_COLUMNS } from "~/models/registry-context.server";
 import type { SessionUser } from "~/auth/guards.server";
 import { edmListedInScope, projectColInScope, scopeOf, sensorListedInScope, siteListedInScope, tapeListedInScope } from "~/models/scope.server";
 import type { FieldReference } from "~/offline/types";

@@ -15,7 +15,7 @@ import { versionedNumber, type ProjectReportContent } from "~/domain";
 import type { Actor } from "./actor";
 import { audit } from "./audit.server";
 import { inScope, scopeOf } from "./scope.server";
-import { isConstraintError } from "./sensors.server";
+import { isConstraintError } from "./registry-upsert.server";
 import { buildProjectReportContent, canonicalText, sha256Hex, who } from "./project-report-content.server";
 
 export type ProjectRow = typeof projects.$inferSelect;

@@ -13,7 +13,8 @@ import { audit } from "./audit.server";
 import { usersByEmail } from "./members.server";
 import { contentOf, getProject, linksGiven, rowContent, unknownTapesEdms, writeTapeEdmLinks, type ProjectWithLinks } from "./projects.server";
 import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type ProjectBody, type RegistryResult } from "~/contract/registry";
-import { isConstraintError, sensorsExist } from "./sensors.server";
+import { isConstraintError } from "./registry-upsert.server";
+import { sensorsExist } from "./sensors.server";
 import { sitesExist } from "./sites.server";
 import { normalizeEmail } from "./users.server";
 

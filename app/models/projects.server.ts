@@ -6,7 +6,8 @@ import { getDb, type Db } from "~/db/client.server";
 import { edms, projectEdms, projectSensors, projectSites, projectTapes, projects, sensors, sites, tapes } from "~/db/schema";
 import { audit } from "~/models/audit.server";
 import { invalid, issuesToErrors, projectSchema, stableStringify, type FieldError, type NotFound, type ProjectBody, type RegistryResult } from "~/contract/registry";
-import { actorId, changedFields, isConstraintError, nowIso, sensorsExist, type RegistryActor } from "~/models/sensors.server";
+import { actorId, changedFields, createRegistryRecord, nowIso, restoreRecord, retireRecord, type CreateRule, type RegistryActor, type Retirable } from "~/models/registry-upsert.server";
+import { sensorsExist } from "~/models/sensors.server";
 import { recomputeShotsForProject } from "~/models/recompute.server";
 import { RULE_COLUMNS, ruleOf } from "~/models/registry-context.server";
 import { sitesExist } from "~/models/sites.server";
@@ -118,42 +119,36 @@ export async function writeTapeEdmLinks(tx: Pick<Db, "insert" | "delete">, proje
   }
 }
 
-export async function createProject(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
-  return createProjectOnce(actor, body, true);
-}
-
-async function createProjectOnce(actor: RegistryActor, body: unknown, retry: boolean): Promise<RegistryResult> {
-  const p = await parseProject(body);
-  if (!p.ok) return p.result;
-  const b = p.value;
-  const db = getDb();
-  if (b.id) {
-    const existing = await getProject(b.id);
-    if (existing) {
-      return sameContent(existing, b) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A project with id "${b.id}" exists with other content.` } };
-    }
-  } else {
-    const twins = await db.select({ id: projects.id }).from(projects).where(eq(projects.name, b.name));
+const PROJECT_CREATE: CreateRule<ProjectBody, ProjectWithLinks> = {
+  noun: "project",
+  parse: parseProject,
+  byId: getProject,
+  async twins(b) {
+    const twins = await getDb().select({ id: projects.id }).from(projects).where(eq(projects.name, b.name));
+    const full: ProjectWithLinks[] = [];
     for (const t of twins) {
-      const full = await getProject(t.id);
-      if (full && sameContent(full, b)) return { status: 200, body: { id: full.id } };
+      const project = await getProject(t.id);
+      if (project) full.push(project);
     }
-  }
-  const id = b.id ?? crypto.randomUUID();
-  const { sensorIds, siteIds, tapeIds, edmIds, ...cols } = contentOf(b, true);
-  try {
-    await db.transaction(async (tx) => {
+    return full;
+  },
+  same: sameContent,
+  answer: (r) => ({ id: r.id }),
+  async insert(actor, id, b) {
+    const { sensorIds, siteIds, tapeIds, edmIds, ...cols } = contentOf(b, true);
+    await getDb().transaction(async (tx) => {
       await tx.insert(projects).values({ id, ...cols });
       if (sensorIds.length) await tx.insert(projectSensors).values(sensorIds.map((sensorId) => ({ projectId: id, sensorId })));
       if (siteIds.length) await tx.insert(projectSites).values(siteIds.map((siteId) => ({ projectId: id, siteId })));
       await writeTapeEdmLinks(tx, id, { tapeIds, edmIds }, false);
       await audit(actorId(actor), "create", "project", id, { id, ...cols, sensorIds, siteIds, tapeIds: tapeIds ?? [], edmIds: edmIds ?? [] }, tx);
     });
-  } catch (e) {
-    if (retry && isConstraintError(e)) return createProjectOnce(actor, body, false);
-    throw e;
-  }
-  return { status: 201, body: { id } };
+    return { status: 201, body: { id } };
+  },
+};
+
+export async function createProject(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
+  return createRegistryRecord(PROJECT_CREATE, actor, body);
 }
 
 /** The whole project again; a changed rule recomputes the shots of every sensor it touches. */
@@ -189,28 +184,15 @@ export async function updateProject(actor: RegistryActor, id: string, body: unkn
   return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
 }
 
-export async function retireProject(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {
-  const [row] = await getDb().select().from(projects).where(eq(projects.id, id)).limit(1);
-  if (!row) return { status: 404, body: { error: `No project with id "${id}".` } };
-  if (row.retiredAt) return { status: 200, body: { id, retiredAt: row.retiredAt } };
-  const at = nowIso();
-  await getDb().transaction(async (tx) => {
-    await tx.update(projects).set({ retiredAt: at, updatedAt: at }).where(eq(projects.id, id));
-    await audit(actorId(actor), "retire", "project", id, { reason }, tx);
-  });
-  return { status: 200, body: { id, retiredAt: at } };
-}
+const PROJECT_RETIRE: Retirable = {
+  entity: "project",
+  noun: "project",
+  retiredAt: async (id) => (await getDb().select({ retiredAt: projects.retiredAt }).from(projects).where(eq(projects.id, id)).limit(1))[0] ?? null,
+  setRetired: (tx, id, retiredAt, at) => tx.update(projects).set({ retiredAt, updatedAt: at }).where(eq(projects.id, id)),
+};
 
-export async function restoreProject(actor: RegistryActor, id: string): Promise<RegistryResult | NotFound> {
-  const [row] = await getDb().select().from(projects).where(eq(projects.id, id)).limit(1);
-  if (!row) return { status: 404, body: { error: `No project with id "${id}".` } };
-  if (!row.retiredAt) return { status: 200, body: { id } };
-  await getDb().transaction(async (tx) => {
-    await tx.update(projects).set({ retiredAt: null, updatedAt: nowIso() }).where(eq(projects.id, id));
-    await audit(actorId(actor), "restore", "project", id, { retiredAt: row.retiredAt }, tx);
-  });
-  return { status: 200, body: { id } };
-}
+export const retireProject = (actor: RegistryActor, id: string, reason = "") => retireRecord(PROJECT_RETIRE, actor, id, reason);
+export const restoreProject = (actor: RegistryActor, id: string) => restoreRecord(PROJECT_RETIRE, actor, id);
 
 export type ProjectListRow = ProjectRow & { sensorLabels: string; siteNames: string };
 

@@ -4,7 +4,7 @@
 import { eq, inArray, sql, type SQL } from "drizzle-orm";
 import type { Db } from "~/db/client.server";
 import { checkSessions, shots } from "~/db/schema";
-import { periodDay, periodWhere, type QueryError } from "./shots.server";
+import { periodDay, periodWhere, type QueryError } from "./shot-query.server";
 import type { RecordError } from "~/contract/sync";
 
 /** `includeShots`: the per-shot rows of api.md v1.1 (`?include=shots`). */

@@ -35,7 +35,7 @@ import type { MatrixCell } from "~/contract/report-matrix";
 import type { Actor } from "./actor";
 import { parseReportQuery, type ReportQuery } from "./reports.server";
 import { canSeeProject, canSeeSensor, projectColInScope, scopeOf, sessionIdInScope, visibleSessionIds, type Scope } from "./scope.server";
-import { periodWhere, type QueryError } from "./shots.server";
+import { periodWhere, type QueryError } from "./shot-query.server";
 
 export type FlaggedRow = { id: string; errorMm: number; limitMm: number; within: boolean; excluded: false; flags: ShotFlag[] };
 

@@ -6,7 +6,9 @@ import type { Db } from "~/db/client.server";
 import { auditLog, checkSessions, edms, exclusions, projects, projectSensors, sensors, shots, signOffs, tapes } from "~/db/schema";
 import { DEFAULT_RULE, type Rule } from "~/domain";
 import type { ProjectFilter } from "./report-selection.server";
-import { RECOMPUTE_ACTION, RULE_COLUMNS, ruleOf, type QueryError } from "./shots.server";
+import { RECOMPUTE_ACTION } from "./recompute.server";
+import { RULE_COLUMNS, ruleOf } from "./registry-context.server";
+import type { QueryError } from "./shot-query.server";
 
 /**
  * What the sensor's shots looked like when read: any insert, exclusion, restore or

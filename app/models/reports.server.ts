@@ -20,7 +20,8 @@ import { DEFAULT_RULE, reportFromAggregates, reportRows, aggregateShots, type Re
 import { appErrorOf } from "~/contract/errors";
 import type { Actor } from "./actor";
 import { scopeOf } from "./scope.server";
-import { sensorSpecOf, type QueryError } from "./shots.server";
+import { sensorSpecOf } from "./registry-context.server";
+import type { QueryError } from "./shot-query.server";
 import { toJson, traceabilityOf, type SensorReportJson, type SensorReportSummaryJson } from "./report-json";
 import { loadReportShots, type LoadedShot } from "./report-rows.server";
 import { checkedQuery, queryKey, selectionWhere, type ProjectFilter, type ReportQuery } from "./report-selection.server";

@@ -1,6 +1,5 @@
 // Sensors: the registry's profile of each range sensor (kind, wavelength, modulation, air
 // handling, tolerance ±(a mm + b ppm)). Never deleted: retiring keeps every shot's history.
-// Also home of the small helpers the other registry models share (actor, audit, recompute).
 import { and, asc, desc, eq, inArray, isNull, sql } from "drizzle-orm";
 import type { SensorSpec } from "~/domain";
 import { getDb } from "~/db/client.server";
@@ -9,32 +8,19 @@ import { audit } from "~/models/audit.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, sensorIdInScope } from "~/models/scope.server";
 import { recomputeShotsForSensor } from "~/models/recompute.server";
-import { certificateColumns, invalid, issuesToErrors, sensorSchema, stableStringify, type NotFound, type RegistryResult, type SensorBody } from "~/contract/registry";
-
-// ---------- shared by the registry models ----------
-/** Who is asking; null or "system" for the seed and command-line tools. */
-export type RegistryActor = { id: string } | null | "system";
-
-export function actorId(actor: RegistryActor): string | null {
-  return actor && typeof actor === "object" ? actor.id : null;
-}
-
-export const nowIso = () => new Date().toISOString();
-
-/** Fields whose values differ between two flat records (for the audit trail). */
-export function changedFields<T extends Record<string, unknown>>(before: T, after: T): Partial<Record<keyof T, { from: unknown; to: unknown }>> {
-  const out: Partial<Record<keyof T, { from: unknown; to: unknown }>> = {};
-  for (const k of Object.keys(after) as (keyof T)[]) {
-    if (stableStringify(before[k]) !== stableStringify(after[k])) out[k] = { from: before[k] ?? null, to: after[k] ?? null };
-  }
-  return out;
-}
-
-/** True when a unique or primary-key constraint refused the insert (a racing twin). */
-export function isConstraintError(e: unknown) {
-  const s = String((e as { code?: string; message?: string })?.code ?? "") + String((e as Error)?.message ?? "");
-  return /SQLITE_CONSTRAINT|UNIQUE constraint|PRIMARY KEY/i.test(s);
-}
+import { certificateColumns, sensorSchema, stableStringify, type NotFound, type RegistryResult, type SensorBody } from "~/contract/registry";
+import {
+  actorId,
+  changedFields,
+  createRegistryRecord,
+  nowIso,
+  parseRegistryBody,
+  restoreRecord,
+  retireRecord,
+  type CreateRule,
+  type RegistryActor,
+  type Retirable,
+} from "~/models/registry-upsert.server";
 
 // ---------- sensors ----------
 export type SensorRow = typeof sensors.$inferSelect;
@@ -91,47 +77,32 @@ function sameContent(r: SensorRow, b: SensorBody) {
   return stableStringify(rowContent(r, withNotes)) === stableStringify(contentOf(b, withNotes));
 }
 
-function parseSensor(body: unknown) {
-  const parsed = sensorSchema.safeParse(body);
-  return parsed.success ? { ok: true as const, value: parsed.data } : { ok: false as const, result: invalid(issuesToErrors(parsed.error.issues)) };
-}
+const parseSensor = (body: unknown) => parseRegistryBody(sensorSchema, body);
 
-/** POST /api/sensors, the admin form and the seed: 201 new, 200 same body again, 400, 409. */
-export async function createSensor(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
-  return createSensorOnce(actor, body, true);
-}
-
-async function createSensorOnce(actor: RegistryActor, body: unknown, retry: boolean): Promise<RegistryResult> {
-  const p = parseSensor(body);
-  if (!p.ok) return p.result;
-  const b = p.value;
-  const db = getDb();
-  if (b.id) {
-    const existing = await getSensor(b.id);
-    if (existing) {
-      return sameContent(existing, b) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A sensor with id "${b.id}" exists with other content.` } };
-    }
-  } else {
-    // No id: the same body again finds the sensor it made the first time.
-    const twins = await db
+const SENSOR_CREATE: CreateRule<SensorBody, SensorRow> = {
+  noun: "sensor",
+  parse: parseSensor,
+  byId: getSensor,
+  twins: (b) =>
+    getDb()
       .select()
       .from(sensors)
-      .where(and(eq(sensors.serial, b.serial), eq(sensors.label, b.label)));
-    const twin = twins.find((r) => sameContent(r, b));
-    if (twin) return { status: 200, body: { id: twin.id } };
-  }
-  const id = b.id ?? crypto.randomUUID();
-  const values = { id, ...contentOf(b, true) };
-  try {
-    await db.transaction(async (tx) => {
+      .where(and(eq(sensors.serial, b.serial), eq(sensors.label, b.label))),
+  same: sameContent,
+  answer: (r) => ({ id: r.id }),
+  async insert(actor, id, b) {
+    const values = { id, ...contentOf(b, true) };
+    await getDb().transaction(async (tx) => {
       await tx.insert(sensors).values(values);
       await audit(actorId(actor), "create", "sensor", id, values, tx);
     });
-  } catch (e) {
-    if (retry && isConstraintError(e)) return createSensorOnce(actor, body, false);
-    throw e;
-  }
-  return { status: 201, body: { id } };
+    return { status: 201, body: { id } };
+  },
+};
+
+/** POST /api/sensors, the admin form and the seed: 201 new, 200 same body again, 400, 409. */
+export async function createSensor(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
+  return createRegistryRecord(SENSOR_CREATE, actor, body);
 }
 
 /** The admin form's edit: the whole profile again. A spec change recomputes the sensor's shots. */
@@ -155,28 +126,15 @@ export async function updateSensor(actor: RegistryActor, id: string, body: unkno
   return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
 }
 
-export async function retireSensor(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {
-  const row = await getSensor(id);
-  if (!row) return { status: 404, body: { error: `No sensor with id "${id}".` } };
-  if (row.retiredAt) return { status: 200, body: { id, retiredAt: row.retiredAt } };
-  const at = nowIso();
-  await getDb().transaction(async (tx) => {
-    await tx.update(sensors).set({ retiredAt: at, updatedAt: at }).where(eq(sensors.id, id));
-    await audit(actorId(actor), "retire", "sensor", id, { reason }, tx);
-  });
-  return { status: 200, body: { id, retiredAt: at } };
-}
+const SENSOR_RETIRE: Retirable = {
+  entity: "sensor",
+  noun: "sensor",
+  retiredAt: getSensor,
+  setRetired: (tx, id, retiredAt, at) => tx.update(sensors).set({ retiredAt, updatedAt: at }).where(eq(sensors.id, id)),
+};
 
-export async function restoreSensor(actor: RegistryActor, id: string): Promise<RegistryResult | NotFound> {
-  const row = await getSensor(id);
-  if (!row) return { status: 404, body: { error: `No sensor with id "${id}".` } };
-  if (!row.retiredAt) return { status: 200, body: { id } };
-  await getDb().transaction(async (tx) => {
-    await tx.update(sensors).set({ retiredAt: null, updatedAt: nowIso() }).where(eq(sensors.id, id));
-    await audit(actorId(actor), "restore", "sensor", id, { retiredAt: row.retiredAt }, tx);
-  });
-  return { status: 200, body: { id } };
-}
+export const retireSensor = (actor: RegistryActor, id: string, reason = "") => retireRecord(SENSOR_RETIRE, actor, id, reason);
+export const restoreSensor = (actor: RegistryActor, id: string) => restoreRecord(SENSOR_RETIRE, actor, id);
 
 /** The registry's sensors the actor may see (issue 14: those of their projects; admins all). */
 export async function listSensors(actor: Actor, { includeRetired = false }: { includeRetired?: boolean } = {}): Promise<SensorRow[]> {

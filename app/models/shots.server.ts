@@ -9,14 +9,6 @@ import type { Actor } from "./actor";
 import { encodeCursor, encodeSortCursor, periodWhere, rangeBandBounds, type QueryError, type ShotQuery, type ShotSortKey } from "./shot-query.server";
 import { canSeeProject, canSeeSensor, scopeOf, sessionIdInScope, visibleSessionIds, type Scope } from "./scope.server";
 
-// Issue 13: these moved to their own modules; this path keeps answering for the importers not
-// yet switched (the sync ingest — its robustness test mocks computeShotRecord here —, the report
-// read path, the tape/EDM/field-reference models).
-export * from "./registry-context.server";
-export * from "./recompute.server";
-export { computeShotRecord, ruleFor, shotInsertRow, type ComputedColumns, type ShotOutcome } from "./shot-record";
-export * from "./shot-query.server";
-
 // ---------------------------------------------------------------------------------------------
 // The shot table (cursor paging) and the map (GeoJSON).
 

@@ -17,12 +17,6 @@ import { AppError, appErrorOf } from "~/contract/errors";
 import { canSeeSensor, projectColInScope, scopeOf } from "~/models/scope.server";
 import { reportFor } from "./review.server";
 
-/** The sign-off screen catches this name (issue 13: the one AppError; kept for that screen until it imports AppError). */
-export { AppError as ReviewError };
-
-/** The sensor page (owned by issue 16 this round) still imports these from here; new code imports review.server. */
-export { listProjectsForFilter, sensorReviewHeader, shotExtras } from "./review.server";
-
 /** Who acts when the server itself asks (the notice after a sync). */
 const SYSTEM: Actor = { id: "system", role: "admin", name: "Shotbook" };
 

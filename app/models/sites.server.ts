@@ -5,8 +5,19 @@ import type { GeoPoint, GridPoint } from "~/domain";
 import { getDb } from "~/db/client.server";
 import { checkSessions, sites, stations, targets } from "~/db/schema";
 import { audit } from "~/models/audit.server";
-import { invalid, issuesToErrors, siteSchema, stableStringify, type FieldError, type NotFound, type RegistryResult, type SiteBody } from "~/contract/registry";
-import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
+import { invalid, siteSchema, stableStringify, type FieldError, type NotFound, type RegistryResult, type SiteBody } from "~/contract/registry";
+import {
+  actorId,
+  changedFields,
+  createRegistryRecord,
+  nowIso,
+  parseRegistryBody,
+  restoreRecord,
+  retireRecord,
+  type CreateRule,
+  type RegistryActor,
+  type Retirable,
+} from "~/models/registry-upsert.server";
 import type { Actor } from "~/models/actor";
 import { scopeOf, siteIdInScope } from "~/models/scope.server";
 import { recomputeShotsForSite } from "~/models/recompute.server";
@@ -93,56 +104,46 @@ function answerOf(site: SiteWithChildren) {
   };
 }
 
-function parseSite(body: unknown) {
-  const parsed = siteSchema.safeParse(body);
-  return parsed.success ? { ok: true as const, value: parsed.data } : { ok: false as const, result: invalid(issuesToErrors(parsed.error.issues)) };
-}
+const parseSite = (body: unknown) => parseRegistryBody(siteSchema, body);
 
-// ---------- create ----------
-export async function createSite(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
-  return createSiteOnce(actor, body, true);
-}
-
-async function createSiteOnce(actor: RegistryActor, body: unknown, retry: boolean): Promise<RegistryResult> {
-  const p = parseSite(body);
-  if (!p.ok) return p.result;
-  const b = p.value;
-  const db = getDb();
-  if (b.id) {
-    const existing = await getSite(b.id);
-    if (existing) {
-      return sameContent(existing, b) ? { status: 200, body: answerOf(existing) } : { status: 409, body: { error: `A site with id "${b.id}" exists with other content.` } };
-    }
-  } else {
-    const twins = await db.select({ id: sites.id }).from(sites).where(eq(sites.name, b.name));
+const SITE_CREATE: CreateRule<SiteBody, SiteWithChildren> = {
+  noun: "site",
+  parse: parseSite,
+  byId: getSite,
+  async twins(b) {
+    const twins = await getDb().select({ id: sites.id }).from(sites).where(eq(sites.name, b.name));
+    const full: SiteWithChildren[] = [];
     for (const t of twins) {
-      const full = await getSite(t.id);
-      if (full && sameContent(full, b)) return { status: 200, body: answerOf(full) };
+      const site = await getSite(t.id);
+      if (site) full.push(site);
     }
-  }
-  const clash = await childIdClash(b, null);
-  if (clash) return { status: 409, body: { error: clash } };
-
-  const id = b.id ?? crypto.randomUUID();
-  const targetRows = b.targets.map((t) => ({ id: t.id ?? crypto.randomUUID(), siteId: id, ...targetColumns(t) }));
-  const stationRows = b.stations.map((s) => ({ id: s.id ?? crypto.randomUUID(), siteId: id, ...stationColumns(s) }));
-  const siteRow = { id, name: b.name, lat: b.lat ?? null, lon: b.lon ?? null, notes: b.notes ?? "" };
-  try {
-    await db.transaction(async (tx) => {
+    return full;
+  },
+  same: sameContent,
+  answer: answerOf,
+  async insert(actor, id, b) {
+    const clash = await childIdClash(b, null);
+    if (clash) return { status: 409, body: { error: clash } };
+    const targetRows = b.targets.map((t) => ({ id: t.id ?? crypto.randomUUID(), siteId: id, ...targetColumns(t) }));
+    const stationRows = b.stations.map((s) => ({ id: s.id ?? crypto.randomUUID(), siteId: id, ...stationColumns(s) }));
+    const siteRow = { id, name: b.name, lat: b.lat ?? null, lon: b.lon ?? null, notes: b.notes ?? "" };
+    await getDb().transaction(async (tx) => {
       await tx.insert(sites).values(siteRow);
       // Inserted in body order: rowid order is the order the admin gave.
       for (const s of stationRows) await tx.insert(stations).values(s);
       for (const t of targetRows) await tx.insert(targets).values(t);
       await audit(actorId(actor), "create", "site", id, { ...siteRow, stations: stationRows, targets: targetRows }, tx);
     });
-  } catch (e) {
-    if (retry && isConstraintError(e)) return createSiteOnce(actor, body, false);
-    throw e;
-  }
-  return {
-    status: 201,
-    body: { id, targets: targetRows.map((t) => ({ id: t.id, label: t.label })), stations: stationRows.map((s) => ({ id: s.id, label: s.label })) },
-  };
+    return {
+      status: 201,
+      body: { id, targets: targetRows.map((t) => ({ id: t.id, label: t.label })), stations: stationRows.map((s) => ({ id: s.id, label: s.label })) },
+    };
+  },
+};
+
+// ---------- create ----------
+export async function createSite(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
+  return createRegistryRecord(SITE_CREATE, actor, body);
 }
 
 /** A client-chosen target or station id already used by another site (ids are global). */
@@ -268,28 +269,15 @@ function diffChildren<R extends { id: string; label: string; retiredAt: string |
 }
 
 // ---------- retire, read ----------
-export async function retireSite(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {
-  const [row] = await getDb().select().from(sites).where(eq(sites.id, id)).limit(1);
-  if (!row) return { status: 404, body: { error: `No site with id "${id}".` } };
-  if (row.retiredAt) return { status: 200, body: { id, retiredAt: row.retiredAt } };
-  const at = nowIso();
-  await getDb().transaction(async (tx) => {
-    await tx.update(sites).set({ retiredAt: at, updatedAt: at }).where(eq(sites.id, id));
-    await audit(actorId(actor), "retire", "site", id, { reason }, tx);
-  });
-  return { status: 200, body: { id, retiredAt: at } };
-}
+const SITE_RETIRE: Retirable = {
+  entity: "site",
+  noun: "site",
+  retiredAt: async (id) => (await getDb().select({ retiredAt: sites.retiredAt }).from(sites).where(eq(sites.id, id)).limit(1))[0] ?? null,
+  setRetired: (tx, id, retiredAt, at) => tx.update(sites).set({ retiredAt, updatedAt: at }).where(eq(sites.id, id)),
+};
 
-export async function restoreSite(actor: RegistryActor, id: string): Promise<RegistryResult | NotFound> {
-  const [row] = await getDb().select().from(sites).where(eq(sites.id, id)).limit(1);
-  if (!row) return { status: 404, body: { error: `No site with id "${id}".` } };
-  if (!row.retiredAt) return { status: 200, body: { id } };
-  await getDb().transaction(async (tx) => {
-    await tx.update(sites).set({ retiredAt: null, updatedAt: nowIso() }).where(eq(sites.id, id));
-    await audit(actorId(actor), "restore", "site", id, { retiredAt: row.retiredAt }, tx);
-  });
-  return { status: 200, body: { id } };
-}
+export const retireSite = (actor: RegistryActor, id: string, reason = "") => retireRecord(SITE_RETIRE, actor, id, reason);
+export const restoreSite = (actor: RegistryActor, id: string) => restoreRecord(SITE_RETIRE, actor, id);
 
 export type SiteListRow = SiteRow & { targetCount: number; stationCount: number; targetLabels: string };
 

@@ -1,15 +1,30 @@
 // Steel tapes used to set reference distances: their standard conditions and certificate
 // correction feed the tape corrections of ranging.md §3. Never deleted, only retired.
-import { and, asc, eq, isNull, sql } from "drizzle-orm";
+import { eq, sql } from "drizzle-orm";
 import type { TapeSpec } from "~/domain";
 import { getDb, type Db } from "~/db/client.server";
-import { auditLog, checkSessions, edms, projectEdms, projectTapes, projects, shots, tapes } from "~/db/schema";
+import { auditLog, checkSessions, edms, projectEdms, projectTapes, shots, tapes } from "~/db/schema";
 import type { Actor } from "~/models/actor";
-import { tapeListedInScope, projectColInScope, scopeOf } from "~/models/scope.server";
+import { tapeListedInScope } from "~/models/scope.server";
 import { audit } from "~/models/audit.server";
-import { certificateColumns, invalid, issuesToErrors, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/contract/registry";
-import { actorId, changedFields, isConstraintError, nowIso, type RegistryActor } from "~/models/sensors.server";
-import { recomputeShotsForTape } from "~/models/shots.server";
+import { certificateColumns, stableStringify, tapeSchema, type NotFound, type RegistryResult, type TapeBody } from "~/contract/registry";
+import {
+  actorId,
+  changedFields,
+  createRegistryRecord,
+  getProjectListedFor,
+  listProjectListed,
+  nowIso,
+  parseRegistryBody,
+  projectListedJson,
+  restoreRecord,
+  retireRecord,
+  type CreateRule,
+  type ProjectListed,
+  type RegistryActor,
+  type Retirable,
+} from "~/models/registry-upsert.server";
+import { recomputeShotsForTape } from "~/models/recompute.server";
 
 export type TapeRow = typeof tapes.$inferSelect;
 
@@ -53,42 +68,27 @@ function sameContent(r: TapeRow, b: TapeBody) {
   return stableStringify(rowContent(r, withNotes)) === stableStringify(contentOf(b, withNotes));
 }
 
-function parseTape(body: unknown) {
-  const parsed = tapeSchema.safeParse(body);
-  return parsed.success ? { ok: true as const, value: parsed.data } : { ok: false as const, result: invalid(issuesToErrors(parsed.error.issues)) };
-}
+const parseTape = (body: unknown) => parseRegistryBody(tapeSchema, body);
 
-export async function createTape(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
-  return createTapeOnce(actor, body, true);
-}
-
-async function createTapeOnce(actor: RegistryActor, body: unknown, retry: boolean): Promise<RegistryResult> {
-  const p = parseTape(body);
-  if (!p.ok) return p.result;
-  const b = p.value;
-  const db = getDb();
-  if (b.id) {
-    const existing = await getTape(b.id);
-    if (existing) {
-      return sameContent(existing, b) ? { status: 200, body: { id: existing.id } } : { status: 409, body: { error: `A tape with id "${b.id}" exists with other content.` } };
-    }
-  } else {
-    const twins = await db.select().from(tapes).where(eq(tapes.label, b.label));
-    const twin = twins.find((r) => sameContent(r, b));
-    if (twin) return { status: 200, body: { id: twin.id } };
-  }
-  const id = b.id ?? crypto.randomUUID();
-  const values = { id, ...contentOf(b, true) };
-  try {
-    await db.transaction(async (tx) => {
+const TAPE_CREATE: CreateRule<TapeBody, TapeRow> = {
+  noun: "tape",
+  parse: parseTape,
+  byId: getTape,
+  twins: (b) => getDb().select().from(tapes).where(eq(tapes.label, b.label)),
+  same: sameContent,
+  answer: (r) => ({ id: r.id }),
+  async insert(actor, id, b) {
+    const values = { id, ...contentOf(b, true) };
+    await getDb().transaction(async (tx) => {
       await tx.insert(tapes).values(values);
       await audit(actorId(actor), "create", "tape", id, values, tx);
     });
-  } catch (e) {
-    if (retry && isConstraintError(e)) return createTapeOnce(actor, body, false);
-    throw e;
-  }
-  return { status: 201, body: { id } };
+    return { status: 201, body: { id } };
+  },
+};
+
+export async function createTape(actor: RegistryActor, body: unknown): Promise<RegistryResult> {
+  return createRegistryRecord(TAPE_CREATE, actor, body);
 }
 
 export async function updateTape(actor: RegistryActor, id: string, body: unknown): Promise<RegistryResult | NotFound> {
@@ -113,66 +113,35 @@ export async function updateTape(actor: RegistryActor, id: string, body: unknown
   return { status: 200, body: { id, changed: Object.keys(changes), recomputed } };
 }
 
-export async function retireTape(actor: RegistryActor, id: string, reason = ""): Promise<RegistryResult | NotFound> {
-  const row = await getTape(id);
-  if (!row) return { status: 404, body: { error: `No tape with id "${id}".` } };
-  if (row.retiredAt) return { status: 200, body: { id, retiredAt: row.retiredAt } };
-  const at = nowIso();
-  await getDb().transaction(async (tx) => {
-    await tx.update(tapes).set({ retiredAt: at, updatedAt: at }).where(eq(tapes.id, id));
-    await audit(actorId(actor), "retire", "tape", id, { reason }, tx);
-  });
-  return { status: 200, body: { id, retiredAt: at } };
-}
+const TAPE_RETIRE: Retirable = {
+  entity: "tape",
+  noun: "tape",
+  retiredAt: getTape,
+  setRetired: (tx, id, retiredAt, at) => tx.update(tapes).set({ retiredAt, updatedAt: at }).where(eq(tapes.id, id)),
+};
 
-export async function restoreTape(actor: RegistryActor, id: string): Promise<RegistryResult | NotFound> {
-  const row = await getTape(id);
-  if (!row) return { status: 404, body: { error: `No tape with id "${id}".` } };
-  if (!row.retiredAt) return { status: 200, body: { id } };
-  await getDb().transaction(async (tx) => {
-    await tx.update(tapes).set({ retiredAt: null, updatedAt: nowIso() }).where(eq(tapes.id, id));
-    await audit(actorId(actor), "restore", "tape", id, { retiredAt: row.retiredAt }, tx);
-  });
-  return { status: 200, body: { id } };
-}
+export const retireTape = (actor: RegistryActor, id: string, reason = "") => retireRecord(TAPE_RETIRE, actor, id, reason);
+export const restoreTape = (actor: RegistryActor, id: string) => restoreRecord(TAPE_RETIRE, actor, id);
 
-/**
- * issue 14: an admin lists every tape; anyone else only those their projects list, each with
- * the ids of those of their projects that list it.
- */
+const TAPES_LISTED: ProjectListed = {
+  table: tapes,
+  id: tapes.id,
+  label: tapes.label,
+  retiredAt: tapes.retiredAt,
+  listedInScope: tapeListedInScope,
+  link: projectTapes,
+  linkProjectId: projectTapes.projectId,
+  linkId: projectTapes.tapeId,
+};
+
+/** issue 14: every tape for an admin; anyone else those their projects list, each with `projectIds`. */
 export async function listTapes(actor: Pick<Actor, "id" | "role">, { includeRetired = false }: { includeRetired?: boolean } = {}): Promise<(TapeRow & { projectIds: string[] })[]> {
-  const db = getDb();
-  const scope = await scopeOf(actor, db);
-  const [rows, links] = await Promise.all([
-    db
-      .select()
-      .from(tapes)
-      .where(and(includeRetired ? undefined : isNull(tapes.retiredAt), tapeListedInScope(scope, tapes.id)))
-      .orderBy(asc(tapes.label)),
-    db.select({ projectId: projectTapes.projectId, id: projectTapes.tapeId }).from(projectTapes).where(projectColInScope(scope, projectTapes.projectId)),
-  ]);
-  const byId = new Map<string, string[]>();
-  for (const l of links) byId.set(l.id, [...(byId.get(l.id) ?? []), l.projectId]);
-  return rows.map((r) => ({ ...r, projectIds: (byId.get(r.id) ?? []).sort() }));
+  return listProjectListed<TapeRow>(TAPES_LISTED, actor, includeRetired);
 }
 
 /** One tape as the actor may see it, with the projects (of theirs) that list it; null answers like "no such tape". */
 export async function getTapeFor(actor: Pick<Actor, "id" | "role">, id: string): Promise<(TapeRow & { projects: { id: string; name: string }[] }) | null> {
-  const db = getDb();
-  const scope = await scopeOf(actor, db);
-  const [row] = await db
-    .select()
-    .from(tapes)
-    .where(and(eq(tapes.id, id), tapeListedInScope(scope, tapes.id)))
-    .limit(1);
-  if (!row) return null;
-  const ps = await db
-    .select({ id: projects.id, name: projects.name })
-    .from(projectTapes)
-    .innerJoin(projects, eq(projects.id, projectTapes.projectId))
-    .where(and(eq(projectTapes.tapeId, id), projectColInScope(scope, projectTapes.projectId)))
-    .orderBy(asc(projects.name));
-  return { ...row, projects: ps };
+  return getProjectListedFor<TapeRow>(TAPES_LISTED, actor, id);
 }
 
 export async function getTape(id: string): Promise<TapeRow | null> {
@@ -217,22 +186,7 @@ export async function backfillProjectTapesEdms(db: Db = getDb()): Promise<{ ran:
   return { ran: true, ...out };
 }
 
-/**
- * GET /api/tapes (issue 14): the live tapes of the actor's projects (admins: all), each with
- * `projectIds` (those of the actor's projects that list it); `?project=` narrows to one project,
- * and a project the actor cannot see answers 404 like an unknown one.
- */
+/** GET /api/tapes (issue 14): the live tapes of the actor's projects (admins: all); `?project=` narrows. */
 export async function tapesJson(actor: Pick<Actor, "id" | "role">, params: URLSearchParams): Promise<{ status: 200 | 404; body: unknown }> {
-  const project = params.get("project");
-  if (project) {
-    const scope = await scopeOf(actor);
-    const [p] = await getDb()
-      .select({ id: projects.id })
-      .from(projects)
-      .where(and(eq(projects.id, project), projectColInScope(scope, projects.id)))
-      .limit(1);
-    if (!p) return { status: 404, body: { error: `No project with id "${project}".` } };
-  }
-  const rows = (await listTapes(actor)).filter((r) => !project || r.projectIds.includes(project));
-  return { status: 200, body: { tapes: rows.map(({ createdAt: _c, updatedAt: _u, retiredAt: _r, ...r }) => r) } };
+  return projectListedJson<TapeRow>(TAPES_LISTED, "tapes", actor, params);
 }

@@ -1,11 +1,13 @@
 // /admin/edms/:edmId (issue 15): edit a reference EDM, retire it or bring it back (admin).
-import { data, Link, redirect } from "react-router";
+import { data, redirect } from "react-router";
 import type { Route } from "./+types/admin.edms.$edmId";
 import { ADMIN, ALL } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
+import { ReadOnlyRecord, RecordTitle } from "~/components/registry-record";
 import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/contract/registry";
+import { readFormCapped } from "~/http/body.server";
 import { registryHistory } from "~/models/sensors.server";
 import { getEdmFor, restoreEdm, retireEdm, updateEdm } from "~/models/edms.server";
 import { invariantResponse } from "~/utils/http";
@@ -25,7 +27,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 
 export async function action({ request, params }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const formData = await request.formData();
+  const formData = await readFormCapped(request);
   const intent = formData.get("intent");
   const back = async (text: string) => redirect("/admin/edms", { headers: { "Set-Cookie": await setFlash(request, { kind: "ok", text }) } });
 
@@ -57,14 +59,7 @@ export default function EditEdm({ loaderData, actionData }: Route.ComponentProps
   return (
     <div className="space-y-4">
       <RegistryNav />
-      <p>
-        <Link to="/admin/edms" className="underline underline-offset-4">
-          ← All reference EDMs
-        </Link>
-      </p>
-      <h1 className="text-3xl font-bold">
-        {edm.label} {edm.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
-      </h1>
+      <RecordTitle backTo="/admin/edms" backLabel="All reference EDMs" label={edm.label} retiredAt={edm.retiredAt} />
       <p className="text-muted">
         Id <code className="num">{edm.id}</code>. Changing its uncertainty recomputes the reference uncertainty of every shot that names it.
       </p>
@@ -83,25 +78,5 @@ function EdmSummary({ edm }: { edm: Route.ComponentProps["loaderData"]["edm"] })
     ["Certificate", edm.certNumber ? `No. ${edm.certNumber}${edm.certLaboratory ? `, ${edm.certLaboratory}` : ""}, due ${edm.certDue ?? "—"}` : "none"],
     ["Your projects that use it", edm.projects.map((p) => p.name).join(", ")],
   ];
-  return (
-    <div className="space-y-4">
-      <p>
-        <Link to="/admin/edms" className="underline underline-offset-4">
-          ← All reference EDMs
-        </Link>
-      </p>
-      <h1 className="text-3xl font-bold">
-        {edm.label} {edm.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
-      </h1>
-      <dl className="card grid gap-x-6 gap-y-2 sm:grid-cols-[max-content_1fr]" data-testid="edm-summary">
-        {rows.map(([k, v]) => (
-          <div key={k} className="contents">
-            <dt className="font-bold">{k}</dt>
-            <dd className="num">{v}</dd>
-          </div>
-        ))}
-      </dl>
-      <p className="text-muted">Only an admin changes a reference EDM or the projects that use it.</p>
-    </div>
-  );
+  return <ReadOnlyRecord backTo="/admin/edms" backLabel="All reference EDMs" label={edm.label} retiredAt={edm.retiredAt} rows={rows} testId="edm-summary" what="a reference EDM" />;
 }

@@ -6,6 +6,7 @@ import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RegistryNav } from "~/components/forms";
 import { parseRegistryForm, edmSchema, toConformFieldErrors } from "~/contract/registry";
+import { readFormCapped } from "~/http/body.server";
 import { createEdm } from "~/models/edms.server";
 import { EdmForm, edmDefaults } from "./admin.edms.form";
 
@@ -18,7 +19,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireRole(request, ADMIN);
-  const submission = parseRegistryForm(await request.formData(), edmSchema);
+  const submission = parseRegistryForm(await readFormCapped(request), edmSchema);
   if (submission.status !== "success") return data({ result: submission.reply() }, { status: submission.status === "error" ? 400 : 200 });
   const r = await createEdm(user, submission.value);
   if (r.status === 400) return data({ result: submission.reply({ fieldErrors: toConformFieldErrors(r.body.errors) }) }, { status: 400 });

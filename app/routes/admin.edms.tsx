@@ -4,7 +4,7 @@ import type { Route } from "./+types/admin.edms";
 import { ALL } from "~/auth/access";
 import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
-import { FlashNotice, RegistryNav } from "~/components/forms";
+import { RegistryListHead } from "~/components/registry-record";
 import { listEdms } from "~/models/edms.server";
 import { calibrationState } from "~/contract/registry";
 
@@ -23,21 +23,16 @@ export default function Edms({ loaderData }: Route.ComponentProps) {
   const { edms, canEdit, includeRetired, retiredCount, flash } = loaderData;
   return (
     <div className="space-y-4">
-      {canEdit ? <RegistryNav /> : null}
-      <div className="flex flex-wrap items-center gap-3">
-        <h1 className="text-3xl font-bold">Reference EDMs</h1>
-        {canEdit ? (
-          <Link to="/admin/edms/new" className="btn ml-auto">
-            + New reference EDM
-          </Link>
-        ) : null}
-      </div>
-      <FlashNotice flash={flash} />
-      <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/edms" : "/admin/edms?retired=show"}>
-          {includeRetired ? "Hide retired EDMs" : `Show retired EDMs (${retiredCount})`}
-        </Link>
-      </p>
+      <RegistryListHead
+        title="Reference EDMs"
+        listTo="/admin/edms"
+        newLabel="New reference EDM"
+        plural="EDMs"
+        canEdit={canEdit}
+        flash={flash}
+        includeRetired={includeRetired}
+        retiredCount={retiredCount}
+      />
       {edms.length === 0 ? (
         <div className="card">
           <p className="text-lg font-bold">No reference EDMs yet.</p>

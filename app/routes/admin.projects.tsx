@@ -4,7 +4,7 @@ import type { Route } from "./+types/admin.projects";
 import { ADMIN } from "~/auth/access";
 import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
-import { FlashNotice, RegistryNav } from "~/components/forms";
+import { RegistryListHead } from "~/components/registry-record";
 import { listProjects } from "~/models/projects.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Projects — Shotbook" }];
@@ -21,19 +21,7 @@ export default function Projects({ loaderData }: Route.ComponentProps) {
   const { projects, includeRetired, retiredCount, flash } = loaderData;
   return (
     <div className="space-y-4">
-      <RegistryNav />
-      <div className="flex flex-wrap items-center gap-3">
-        <h1 className="text-3xl font-bold">Projects</h1>
-        <Link to="/admin/projects/new" className="btn ml-auto">
-          + New project
-        </Link>
-      </div>
-      <FlashNotice flash={flash} />
-      <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/projects" : "/admin/projects?retired=show"}>
-          {includeRetired ? "Hide retired projects" : `Show retired projects (${retiredCount})`}
-        </Link>
-      </p>
+      <RegistryListHead title="Projects" listTo="/admin/projects" newLabel="New project" plural="projects" canEdit={true} flash={flash} includeRetired={includeRetired} retiredCount={retiredCount} />
       {projects.length === 0 ? (
         <div className="card">
           <p className="text-lg font-bold">No projects yet.</p>

@@ -4,7 +4,7 @@ import type { Route } from "./+types/admin.sensors";
 import { ALL } from "~/auth/access";
 import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
-import { FlashNotice, RegistryNav } from "~/components/forms";
+import { RegistryListHead } from "~/components/registry-record";
 import { listSensors } from "~/models/sensors.server";
 import { calibrationState, formatTolerance, SENSOR_KIND_LABEL } from "~/contract/registry";
 
@@ -70,21 +70,7 @@ export default function Sensors({ loaderData }: Route.ComponentProps) {
   const { sensors, canEdit, includeRetired, retiredCount, today, flash } = loaderData;
   return (
     <div className="space-y-4">
-      {canEdit ? <RegistryNav /> : null}
-      <div className="flex flex-wrap items-center gap-3">
-        <h1 className="text-3xl font-bold">Sensors</h1>
-        {canEdit ? (
-          <Link to="/admin/sensors/new" className="btn ml-auto">
-            + New sensor
-          </Link>
-        ) : null}
-      </div>
-      <FlashNotice flash={flash} />
-      <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/sensors" : "/admin/sensors?retired=show"}>
-          {includeRetired ? "Hide retired sensors" : `Show retired sensors (${retiredCount})`}
-        </Link>
-      </p>
+      <RegistryListHead title="Sensors" listTo="/admin/sensors" newLabel="New sensor" plural="sensors" canEdit={canEdit} flash={flash} includeRetired={includeRetired} retiredCount={retiredCount} />
       {sensors.length === 0 ? (
         <div className="card">
           <p className="text-lg font-bold">No sensors yet.</p>

@@ -4,7 +4,7 @@ import type { Route } from "./+types/admin.sites";
 import { ALL } from "~/auth/access";
 import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
-import { FlashNotice, RegistryNav } from "~/components/forms";
+import { RegistryListHead } from "~/components/registry-record";
 import { listSites } from "~/models/sites.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Sites — Shotbook" }];
@@ -39,21 +39,7 @@ export default function Sites({ loaderData }: Route.ComponentProps) {
   const { sites, canEdit, includeRetired, retiredCount, flash } = loaderData;
   return (
     <div className="space-y-4">
-      {canEdit ? <RegistryNav /> : null}
-      <div className="flex flex-wrap items-center gap-3">
-        <h1 className="text-3xl font-bold">Sites</h1>
-        {canEdit ? (
-          <Link to="/admin/sites/new" className="btn ml-auto">
-            + New site
-          </Link>
-        ) : null}
-      </div>
-      <FlashNotice flash={flash} />
-      <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/sites" : "/admin/sites?retired=show"}>
-          {includeRetired ? "Hide retired sites" : `Show retired sites (${retiredCount})`}
-        </Link>
-      </p>
+      <RegistryListHead title="Sites" listTo="/admin/sites" newLabel="New site" plural="sites" canEdit={canEdit} flash={flash} includeRetired={includeRetired} retiredCount={retiredCount} />
       {sites.length === 0 ? (
         <div className="card">
           <p className="text-lg font-bold">No sites yet.</p>

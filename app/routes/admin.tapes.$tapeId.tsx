@@ -1,10 +1,11 @@
 // /admin/tapes/:tapeId: edit a tape's profile, retire it or bring it back (admin).
-import { data, Link, redirect } from "react-router";
+import { data, redirect } from "react-router";
 import type { Route } from "./+types/admin.tapes.$tapeId";
 import { ADMIN, ALL } from "~/auth/access";
 import { setFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
 import { RecordHistory, RegistryNav, RetirePanel } from "~/components/forms";
+import { ReadOnlyRecord, RecordTitle } from "~/components/registry-record";
 import { parseRegistryForm, tapeSchema, toConformFieldErrors } from "~/contract/registry";
 import { registryHistory } from "~/models/sensors.server";
 import { getTapeFor, restoreTape, retireTape, updateTape } from "~/models/tapes.server";
@@ -58,14 +59,7 @@ export default function EditTape({ loaderData, actionData }: Route.ComponentProp
   return (
     <div className="space-y-4">
       <RegistryNav />
-      <p>
-        <Link to="/admin/tapes" className="underline underline-offset-4">
-          ← All tapes
-        </Link>
-      </p>
-      <h1 className="text-3xl font-bold">
-        {tape.label} {tape.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
-      </h1>
+      <RecordTitle backTo="/admin/tapes" backLabel="All tapes" label={tape.label} retiredAt={tape.retiredAt} />
       <p className="text-muted">
         Id <code className="num">{tape.id}</code>. Changing its constants recomputes every shot whose reference distance was taped with it.
       </p>
@@ -88,25 +82,5 @@ function TapeSummary({ tape }: { tape: Route.ComponentProps["loaderData"]["tape"
     ["Certificate", tape.certNumber ? `No. ${tape.certNumber}${tape.certLaboratory ? `, ${tape.certLaboratory}` : ""}, due ${tape.certDue ?? "—"}` : "none"],
     ["Your projects that use it", tape.projects.map((p) => p.name).join(", ")],
   ];
-  return (
-    <div className="space-y-4">
-      <p>
-        <Link to="/admin/tapes" className="underline underline-offset-4">
-          ← All tapes
-        </Link>
-      </p>
-      <h1 className="text-3xl font-bold">
-        {tape.label} {tape.retiredAt ? <span className="rounded border-2 border-line px-1.5 align-middle text-base uppercase">Retired</span> : null}
-      </h1>
-      <dl className="card grid gap-x-6 gap-y-2 sm:grid-cols-[max-content_1fr]" data-testid="tape-summary">
-        {rows.map(([k, v]) => (
-          <div key={k} className="contents">
-            <dt className="font-bold">{k}</dt>
-            <dd className="num">{v}</dd>
-          </div>
-        ))}
-      </dl>
-      <p className="text-muted">Only an admin changes a tape or the projects that use it.</p>
-    </div>
-  );
+  return <ReadOnlyRecord backTo="/admin/tapes" backLabel="All tapes" label={tape.label} retiredAt={tape.retiredAt} rows={rows} testId="tape-summary" what="a tape" />;
 }

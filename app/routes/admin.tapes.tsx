@@ -4,7 +4,7 @@ import type { Route } from "./+types/admin.tapes";
 import { ALL } from "~/auth/access";
 import { takeFlash } from "~/auth/flash.server";
 import { requireRole } from "~/auth/guards.server";
-import { FlashNotice, RegistryNav } from "~/components/forms";
+import { RegistryListHead } from "~/components/registry-record";
 import { listTapes } from "~/models/tapes.server";
 
 export const meta: Route.MetaFunction = () => [{ title: "Tapes — Shotbook" }];
@@ -22,21 +22,7 @@ export default function Tapes({ loaderData }: Route.ComponentProps) {
   const { tapes, canEdit, includeRetired, retiredCount, flash } = loaderData;
   return (
     <div className="space-y-4">
-      {canEdit ? <RegistryNav /> : null}
-      <div className="flex flex-wrap items-center gap-3">
-        <h1 className="text-3xl font-bold">Tapes</h1>
-        {canEdit ? (
-          <Link to="/admin/tapes/new" className="btn ml-auto">
-            + New tape
-          </Link>
-        ) : null}
-      </div>
-      <FlashNotice flash={flash} />
-      <p>
-        <Link className="btn-secondary" to={includeRetired ? "/admin/tapes" : "/admin/tapes?retired=show"}>
-          {includeRetired ? "Hide retired tapes" : `Show retired tapes (${retiredCount})`}
-        </Link>
-      </p>
+      <RegistryListHead title="Tapes" listTo="/admin/tapes" newLabel="New tape" plural="tapes" canEdit={canEdit} flash={flash} includeRetired={includeRetired} retiredCount={retiredCount} />
       {tapes.length === 0 ? (
         <div className="card">
           <p className="text-lg font-bold">No tapes yet.</p>

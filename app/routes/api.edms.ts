@@ -5,6 +5,7 @@ import type { Route } from "./+types/api.edms";
 import { requireApiUser } from "~/auth/guards.server";
 import { ADMIN } from "~/auth/access";
 import { createEdm, edmsJson } from "~/models/edms.server";
+import { registryPost } from "~/http/registry-post.server";
 
 // GET /api/edms (any signed-in role, issue 14): the reference EDMs of the user's projects; see edmsJson.
 export async function loader({ request }: Route.LoaderArgs) {
@@ -15,13 +16,5 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireApiUser(request, ADMIN);
-  if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
-  let body: unknown;
-  try {
-    body = await request.json();
-  } catch {
-    return Response.json({ error: "The body is not JSON.", errors: [{ path: "", message: "Send a JSON object" }] }, { status: 400 });
-  }
-  const result = await createEdm(user, body);
-  return Response.json(result.body, { status: result.status });
+  return registryPost(request, (body) => createEdm(user, body));
 }

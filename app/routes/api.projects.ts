@@ -5,18 +5,9 @@ import type { Route } from "./+types/api.projects";
 import { requireApiUser } from "~/auth/guards.server";
 import { ADMIN } from "~/auth/access";
 import { createProjectFromApi } from "~/models/projects-api.server";
-import { BODY_LIMITS, readJsonCapped } from "~/http/body.server";
+import { registryPost } from "~/http/registry-post.server";
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireApiUser(request, ADMIN);
-  if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
-  let body: unknown;
-  try {
-    body = await readJsonCapped(request, BODY_LIMITS.registryJson);
-  } catch (e) {
-    if (e instanceof Response) return e;
-    return Response.json({ error: "The body is not JSON.", errors: [{ path: "", message: "Send a JSON object" }] }, { status: 400 });
-  }
-  const result = await createProjectFromApi(user, body);
-  return Response.json(result.body, { status: result.status });
+  return registryPost(request, (body) => createProjectFromApi(user, body));
 }

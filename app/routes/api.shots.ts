@@ -1,6 +1,7 @@
 // GET /api/shots (any signed-in role): shots for tables, cursor-paged in time order.
 import { requireApiUser } from "~/auth/guards.server";
-import { listShots, parseShotQuery } from "~/models/shots.server";
+import { listShots } from "~/models/shots.server";
+import { parseShotQuery } from "~/models/shot-query.server";
 import type { Route } from "./+types/api.shots";
 
 export async function loader({ request }: Route.LoaderArgs) {

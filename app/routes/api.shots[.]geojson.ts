@@ -1,6 +1,7 @@
 // GET /api/shots.geojson (any signed-in role): located shots as a FeatureCollection for the map.
 import { requireApiUser } from "~/auth/guards.server";
-import { parseShotQuery, shotsGeoJson } from "~/models/shots.server";
+import { parseShotQuery } from "~/models/shot-query.server";
+import { shotsGeoJson } from "~/models/shots.server";
 import type { Route } from "./+types/api.shots[.]geojson";
 
 export async function loader({ request }: Route.LoaderArgs) {

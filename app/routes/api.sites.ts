@@ -4,18 +4,9 @@ import type { Route } from "./+types/api.sites";
 import { requireApiUser } from "~/auth/guards.server";
 import { ADMIN } from "~/auth/access";
 import { createSite } from "~/models/sites.server";
-import { BODY_LIMITS, readJsonCapped } from "~/http/body.server";
+import { registryPost } from "~/http/registry-post.server";
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireApiUser(request, ADMIN);
-  if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
-  let body: unknown;
-  try {
-    body = await readJsonCapped(request, BODY_LIMITS.registryJson);
-  } catch (e) {
-    if (e instanceof Response) return e;
-    return Response.json({ error: "The body is not JSON.", errors: [{ path: "", message: "Send a JSON object" }] }, { status: 400 });
-  }
-  const result = await createSite(user, body);
-  return Response.json(result.body, { status: result.status });
+  return registryPost(request, (body) => createSite(user, body));
 }

@@ -4,7 +4,7 @@ import type { Route } from "./+types/api.tapes";
 import { requireApiUser } from "~/auth/guards.server";
 import { ADMIN } from "~/auth/access";
 import { createTape, tapesJson } from "~/models/tapes.server";
-import { BODY_LIMITS, readJsonCapped } from "~/http/body.server";
+import { registryPost } from "~/http/registry-post.server";
 
 // GET /api/tapes (any signed-in role, issue 14): the tapes of the user's projects; see tapesJson.
 export async function loader({ request }: Route.LoaderArgs) {
@@ -15,14 +15,5 @@ export async function loader({ request }: Route.LoaderArgs) {
 
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireApiUser(request, ADMIN);
-  if (request.method !== "POST") return Response.json({ error: "Use POST." }, { status: 405, headers: { Allow: "POST" } });
-  let body: unknown;
-  try {
-    body = await readJsonCapped(request, BODY_LIMITS.registryJson);
-  } catch (e) {
-    if (e instanceof Response) return e;
-    return Response.json({ error: "The body is not JSON.", errors: [{ path: "", message: "Send a JSON object" }] }, { status: 400 });
-  }
-  const result = await createTape(user, body);
-  return Response.json(result.body, { status: result.status });
+  return registryPost(request, (body) => createTape(user, body));
 }

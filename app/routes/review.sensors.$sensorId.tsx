@@ -4,7 +4,9 @@ import { parseWithZod } from "@conform-to/zod/v4";
 import type { Route } from "./+types/review.sensors.$sensorId";
 import { ALL, REVIEWERS } from "~/auth/access";
 import { requireRole } from "~/auth/guards.server";
-import { createSignOff, listProjectsForFilter, listSignOffs, ReviewError, sensorReviewHeader } from "~/models/signoffs.server";
+import { createSignOff, listSignOffs } from "~/models/signoffs.server";
+import { listProjectsForFilter, sensorReviewHeader } from "~/models/review.server";
+import { AppError } from "~/contract/errors";
 import { signOffSchema } from "~/components/review/signoff-schema";
 import { VerdictBadge } from "~/components/verdict-badge";
 import { BandTable, CoverageNote, FiguresGrid, TestsTable, VerdictHeadline } from "~/components/review/report-figures";
@@ -75,7 +77,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     const signedOff = await createSignOff(user, params.sensorId, input);
     return { result: submission.reply({ resetForm: true }), signedOff };
   } catch (e) {
-    if (e instanceof ReviewError) {
+    if (e instanceof AppError) {
       if (e.status === 403 || e.status === 404) throw new Response(e.message, { status: e.status });
       return data({ result: submission.reply({ fieldErrors: { [e.field ?? "decision"]: [e.message] } }), signedOff: null }, { status: 400 });
     }

@@ -31,7 +31,7 @@ const { groupsQuery, sortedErrorsQuery, sortedErrorsOf, usesQuery, groupsOf, kep
 const { reportSums } = await import("~/db/schema");
 const { selectionWhere, sessionsQuery } = await import("~/models/report-selection.server");
 const { DEFAULT_RULE, reportFromAggregates } = await import("~/domain");
-const { sensorSpecOf } = await import("~/models/shots.server");
+const { sensorSpecOf } = await import("~/models/registry-context.server");
 const { sensors } = await import("~/db/schema");
 const { eq } = await import("drizzle-orm");
 const db = getDb();

@@ -6,42 +6,27 @@
 import { mkdtempSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
-import { afterAll, beforeAll, beforeEach, expect, test } from "vitest";
-import type { Browser, Page } from "playwright-core";
-import { launchBrowser, launchTablet, newContext, signInAs } from "./helpers";
+import { expect, test } from "vitest";
+import type { Page } from "playwright-core";
+import { launchTablet, newContext, signInAs } from "./helpers";
 import { drained, inViewport, openReady, queuedShotCount, serverHasSession, smallTargets, watch } from "./field-tablet-helpers";
-import { fieldWorld, serverShotCount, type FieldWorld } from "./field-fixtures";
-import { startNetProxy, type NetProxy } from "../support/net-proxy";
+import { serverShotCount } from "./field-fixtures";
+import { fieldSuite } from "../support/field-online";
 
-let browser: Browser;
-let world: FieldWorld;
-let net: NetProxy;
-
-beforeAll(async () => {
-  net = await startNetProxy();
-  browser = await launchBrowser({ proxy: net });
-  world = await fieldWorld("Tablet");
-});
-beforeEach(() => {
-  net.setOnline(true);
-});
-afterAll(async () => {
-  await browser?.close();
-  await net?.close();
-});
+const suite = fieldSuite("Tablet");
 
 const LANDSCAPE = { width: 1280, height: 800 };
 
 /** The repeated start of these tests: a crew member signed in on a new tablet, /field open and ready offline. */
 async function crewTablet(viewport?: { width: number; height: number }) {
-  const context = await newContext(browser, viewport ? { viewport } : undefined);
+  const context = await newContext(suite.browser, viewport ? { viewport } : undefined);
   await signInAs(context, "crew@e2e.test");
   return { context, page: await openReady(context) };
 }
 
 /** One shot on an EDM reference: the site's target n, one sensor range, saved on the tablet. */
 async function saveEdmShot(page: Page, target: number, rangeM: string) {
-  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[target]!.id);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(suite.world.site.targets[target]!.id);
   await page.getByLabel("EDM", { exact: true }).check();
   await page.getByLabel("Sensor range (m)").fill(rangeM);
   await page.getByRole("button", { name: "Save shot" }).click();
@@ -49,8 +34,8 @@ async function saveEdmShot(page: Page, target: number, rangeM: string) {
 }
 
 async function startSessionUi(page: Page) {
-  await page.getByLabel("Sensor", { exact: true }).selectOption(world.sensor.id);
-  await page.getByLabel("Site", { exact: true }).selectOption(world.site.id);
+  await page.getByLabel("Sensor", { exact: true }).selectOption(suite.world.sensor.id);
+  await page.getByLabel("Site", { exact: true }).selectOption(suite.world.site.id);
   await page.getByLabel("Air temperature (°C)").fill("16");
   await page.getByRole("button", { name: "Start session" }).click();
   await page.waitForURL(/\/field\/session\/[0-9a-f-]{36}$/);
@@ -60,7 +45,7 @@ async function startSessionUi(page: Page) {
 test("a quick first visit is enough: signed in, Field open a few seconds, browser closed, network cut, reopened — the field screens work", async () => {
   const dir = mkdtempSync(join(tmpdir(), "shotbook-tablet-"));
   try {
-    let tablet = await launchTablet(dir, net);
+    let tablet = await launchTablet(dir, suite.net);
     const first = tablet.pages()[0] ?? (await tablet.newPage());
     watch(first);
     // The first page a new crew member sees is the sign-in page: the worker starts installing
@@ -74,8 +59,8 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
     expect(await ready.textContent()).toMatch(/Ready to work offline · reference data copied \d{1,2} \w{3}, \d{2}:\d{2} UTC[+−]\d{2}:\d{2}/);
     await tablet.close();
 
-    net.setOnline(false);
-    tablet = await launchTablet(dir, net);
+    suite.net.setOnline(false);
+    tablet = await launchTablet(dir, suite.net);
     const page = tablet.pages()[0] ?? (await tablet.newPage());
     watch(page);
     await page.goto("/field");
@@ -99,7 +84,7 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
       });
     // The reference data is there: the sensor can be chosen, a session started, a shot saved.
     const sessionId = await startSessionUi(page);
-    await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+    await page.getByRole("combobox", { name: /^Target/ }).selectOption(suite.world.site.targets[1]!.id);
     await page.getByLabel("EDM", { exact: true }).check();
     await page.getByLabel("Sensor range (m)").fill("25.004");
     await page.getByRole("button", { name: "Save shot" }).click();
@@ -110,7 +95,7 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
     expect(await serverHasSession(sessionId)).toBe(false);
 
     // The network returns: the outbox drains by itself.
-    net.setOnline(true);
+    suite.net.setOnline(true);
     await page.waitForFunction(() => document.querySelector('[data-testid="outbox-summary"]')?.textContent?.startsWith("Nothing waiting"), undefined, { timeout: 30_000 });
     expect(await serverShotCount(sessionId)).toBe(1);
     await tablet.close();
@@ -121,17 +106,17 @@ test("a quick first visit is enough: signed in, Field open a few seconds, browse
 
 test("editing a queued shot keeps the half-typed new shot, and saving the edit goes back to the session", async () => {
   const { context, page } = await crewTablet(LANDSCAPE);
-  net.setOnline(false);
+  suite.net.setOnline(false);
   const sessionId = await startSessionUi(page);
   const target = page.getByRole("combobox", { name: /^Target/ });
-  await target.selectOption(world.site.targets[0]!.id);
+  await target.selectOption(suite.world.site.targets[0]!.id);
   await page.getByLabel("EDM", { exact: true }).check();
   await page.getByLabel("Sensor range (m)").fill("12.503");
   await page.getByRole("button", { name: "Save shot" }).click();
   await page.getByText("Saved on this tablet").waitFor();
 
   // Half of the next shot typed…
-  await target.selectOption(world.site.targets[2]!.id);
+  await target.selectOption(suite.world.site.targets[2]!.id);
   await page.getByLabel("EDM", { exact: true }).check();
   await page.getByLabel("Sensor range (m)").fill("40.0");
   await page.getByLabel("Note").fill("white board, second try");
@@ -147,7 +132,7 @@ test("editing a queued shot keeps the half-typed new shot, and saving the edit g
 
   // The new shot's fields are as the crew left them, and the edit is saved.
   await expect.poll(() => page.getByLabel("Note").inputValue()).toBe("white board, second try");
-  expect(await page.getByRole("combobox", { name: /^Target/ }).inputValue()).toBe(world.site.targets[2]!.id);
+  expect(await page.getByRole("combobox", { name: /^Target/ }).inputValue()).toBe(suite.world.site.targets[2]!.id);
   expect(await page.getByLabel("Sensor range (m)").inputValue()).toBe("40.0");
   const ranges = await page.evaluate(async (id) => {
     const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { toArray(): Promise<{ record: { readings: { rangesM: number[] } } }[]> } } } } }).db;
@@ -163,7 +148,7 @@ test("editing a queued shot keeps the half-typed new shot, and saving the edit g
 test("at 1280×800 landscape the instant check and Save stay in view while typing the reading; portrait stays one column", async () => {
   const { context, page } = await crewTablet(LANDSCAPE);
   await startSessionUi(page);
-  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(suite.world.site.targets[1]!.id);
   // The steel tape method (the longest reference section) pushes the readings furthest down.
   await page.getByLabel("Steel tape", { exact: true }).check();
   await page.getByLabel("Tape temperature (°C)").fill("16");
@@ -205,7 +190,7 @@ test("at 1280×800 landscape the instant check and Save stay in view while typin
 
 test("a session started with the wrong sensor is discarded with its shots and never reaches the server", async () => {
   const { context, page } = await crewTablet();
-  net.setOnline(false);
+  suite.net.setOnline(false);
   const wrong = await startSessionUi(page);
   await saveEdmShot(page, 1, "25.002");
   expect(await queuedShotCount(page, wrong)).toBe(1);
@@ -232,7 +217,7 @@ test("a session started with the wrong sensor is discarded with its shots and ne
 
   // The right session, kept: it goes out; the discarded one never does.
   const right = await startSessionUi(page);
-  net.setOnline(true);
+  suite.net.setOnline(true);
   await page.getByRole("link", { name: "Outbox", exact: true }).click();
   await drained(page);
   expect(await serverHasSession(right)).toBe(true);
@@ -243,7 +228,7 @@ test("a session started with the wrong sensor is discarded with its shots and ne
 
 test("a queued session is corrected from its own page, and 'End session' sums it up", async () => {
   const { context, page } = await crewTablet();
-  net.setOnline(false);
+  suite.net.setOnline(false);
   const id = await startSessionUi(page);
   await saveEdmShot(page, 0, "12.503");
   await page.getByRole("link", { name: "Correct session details" }).click();
@@ -264,7 +249,7 @@ test("a queued session is corrected from its own page, and 'End session' sums it
 
 test("2.0016 typed for 20.016 is caught before saving: confirm or correct", async () => {
   const { context, page } = await crewTablet(LANDSCAPE);
-  net.setOnline(false);
+  suite.net.setOnline(false);
   const id = await startSessionUi(page);
   await page.getByLabel("EDM", { exact: true }).check();
   await page.getByLabel("Reflectance (%)").fill("50");
@@ -312,7 +297,7 @@ test("every field screen, landscape and portrait, daylight and dark: screenshots
     const db = (window.shotbookField as { db: { shots: { where(k: string): { equals(v: string): { first(): Promise<{ id: string }> } } } } }).db;
     return (await db.shots.where("sessionId").equals(sid).first()).id;
   }, id);
-  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(suite.world.site.targets[1]!.id);
   await page.getByLabel("Sensor range (m)").fill("25.031");
 
   const screens: [string, string, string][] = [
@@ -358,7 +343,7 @@ test("coordinates: the computed distance stands beside the surveyed one, and hei
   const { context, page } = await crewTablet(LANDSCAPE);
   await startSessionUi(page);
   await page.getByLabel("Coordinates", { exact: true }).check();
-  await page.getByRole("combobox", { name: /^Target/ }).selectOption(world.site.targets[1]!.id);
+  await page.getByRole("combobox", { name: /^Target/ }).selectOption(suite.world.site.targets[1]!.id);
   await page.getByLabel("Instrument height (m)").fill("0");
   await page.getByLabel("Target height (m)").fill("0");
   await page.getByLabel("Reflectance (%)").fill("50");

@@ -9,45 +9,22 @@ import { launchBrowser, newContext, seriousA11yViolations, signInAs, useServerEn
 let browser: Browser;
 let sensorId: string;
 const SHOT_DIR = process.env.SHOT_DIR ?? "/tmp";
-const biases = [0.2, 0.5, 0.9, 1.2, 1.6, 2.1, 2.3];
-const dates = ["2026-03-02", "2026-04-01", "2026-05-04", "2026-06-01", "2026-07-01", "2026-08-03", "2026-09-01"];
 
 beforeAll(async () => {
   browser = await launchBrowser();
   useServerEnv();
-  const { makeSensor, makeSite, makeUser, apiRequest, call } = await import("../support/registry-fixtures");
-  const { action: syncAction } = await import("~/routes/api.sync");
-  const crew = await makeUser("crew");
-  const sensor = await makeSensor({
-    label: "Handheld rangefinder HR-3 (drifting)",
-    toleranceMm: 5,
-    tolerancePpm: 10,
-    certNumber: "EML-S-2025-0788",
-    certLaboratory: "Eastbank Metrology Lab (invented)",
-    certIssued: "2025-07-01",
-    certDue: "2026-07-01",
-  });
-  sensorId = sensor.id;
-  const site = await makeSite({ name: "Fernhollow quarry baseline (history)" });
-  // api.md v1.1: the syncing crew and the reading QA lead are members of a project holding both
-  const { e2eProject } = await import("./field-fixtures");
-  const project = await e2eProject("history", [sensor.id], [site.id]);
+  const { historyWorld } = await import("../support/history-world");
   const { addMemberIds } = await import("../support/registry-fixtures");
-  await addMemberIds(project.id, crew.id);
-  const sessions = dates.map((d) => ({ id: crypto.randomUUID(), sensorId, siteId: site.id, startedAt: `${d}T08:00:00+02:00`, airTempC: 15, pressureHpa: 1010, humidityPct: 60 }));
-  const shots = sessions.flatMap((s, i) =>
-    [-0.4, 0, 0.4].map((d, k) => ({
-      id: crypto.randomUUID(),
-      sessionId: s.id,
-      takenAt: `${dates[i]}T09:0${k}:00+02:00`,
-      reference: { method: "edm", distanceM: 40 + 10 * k },
-      readings: { rangesM: [40 + 10 * k + (biases[i] + d) / 1000] },
-      reflectancePct: 50,
-      illuminanceKlux: 20,
-    })),
-  );
-  const r = await call(syncAction, apiRequest("/api/sync", { user: crew, json: { deviceId: "tablet-e2e-h", sessions, shots } }));
-  expect(r.status).toBe(200);
+  const { e2eProject } = await import("./field-fixtures");
+  const world = await historyWorld({
+    sensor: { label: "Handheld rangefinder HR-3 (drifting)", certNumber: "EML-S-2025-0788", certLaboratory: "Eastbank Metrology Lab (invented)" },
+    siteName: "Fernhollow quarry baseline (history)",
+    deviceId: "tablet-e2e-h",
+    // api.md v1.1: the syncing crew and the reading QA lead are members of a project holding both
+    share: async (crew, sensor, site) => addMemberIds((await e2eProject("history", [sensor.id], [site.id])).id, crew.id),
+  });
+  sensorId = world.sensor.id;
+  expect(world.sync.status).toBe(200);
 });
 afterAll(async () => {
   await browser?.close();

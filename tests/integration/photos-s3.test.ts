@@ -10,10 +10,10 @@ import { GetObjectCommand, ListObjectsV2Command, S3Client } from "@aws-sdk/clien
 import S3rver from "s3rver";
 import { action as photoAction } from "~/routes/api.photos";
 import { loader as photoLoader } from "~/routes/api.photos.$photoId";
-import { action as syncAction } from "~/routes/api.sync";
 import { getEnv, resetEnvCache } from "~/env.server";
 import { parseStorageUrl } from "~/storage/url";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
+import { apiRequest, call, makeUser, type TestUser } from "../support/registry-fixtures";
+import { syncedShot } from "../support/synced-shot";
 import { freePort } from "../support/ports";
 
 // a 1×1 PNG (written by Chromium's canvas encoder)
@@ -38,21 +38,9 @@ beforeAll(async () => {
   process.env.STORAGE_SECRET_ACCESS_KEY = "S3RVER";
   resetEnvCache();
   crew = await makeUser("crew");
-  const [sensor, site] = await Promise.all([makeSensor(), makeSite()]);
-  await shareProject([sensor], [site], [crew]); // issue 14
-  const sessionId = crypto.randomUUID();
-  shotId = crypto.randomUUID();
-  const a = await call(
-    syncAction,
-    apiRequest("/api/sync", {
-      user: crew,
-      json: {
-        deviceId: "t",
-        sessions: [{ id: sessionId, sensorId: sensor.id, siteId: site.id, startedAt: "2026-05-08T08:00:00+02:00" }],
-        shots: [{ id: shotId, sessionId, takenAt: "2026-05-08T08:05:00+02:00", reference: { method: "edm", distanceM: 10 }, readings: { rangesM: [10.001] }, reflectancePct: 50, illuminanceKlux: 20 }],
-      },
-    }),
-  );
+  const one = await syncedShot(crew);
+  shotId = one.shotId;
+  const a = one.sync;
   expect(a.json.results.map((r: { status: string }) => r.status)).toEqual(["accepted", "accepted"]);
 });
 

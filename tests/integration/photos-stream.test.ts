@@ -10,9 +10,9 @@ import { join } from "node:path";
 import { MULTIPART_OVERHEAD } from "~/http/body.server";
 import { photoMaxBytes } from "~/models/photos.server";
 import { action as photoAction } from "~/routes/api.photos";
-import { action as syncAction } from "~/routes/api.sync";
 import { getEnv } from "~/env.server";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
+import { apiRequest, call, makeUser, type TestUser } from "../support/registry-fixtures";
+import { syncedShot } from "../support/synced-shot";
 
 const CHUNK = 4096;
 const HUGE = 300 * 1024 * 1024;
@@ -30,21 +30,9 @@ beforeAll(async () => {
   tmp = mkdtempSync(join(tmpdir(), "shotbook-photos-stream-"));
   process.env.TMPDIR = tmp;
   crew = await makeUser("crew");
-  const [sensor, site] = await Promise.all([makeSensor(), makeSite()]);
-  await shareProject([sensor], [site], [crew]); // issue 14
-  const sessionId = crypto.randomUUID();
-  shotId = crypto.randomUUID();
-  const a = await call(
-    syncAction,
-    apiRequest("/api/sync", {
-      user: crew,
-      json: {
-        deviceId: "t",
-        sessions: [{ id: sessionId, sensorId: sensor.id, siteId: site.id, startedAt: "2026-05-08T08:00:00+02:00" }],
-        shots: [{ id: shotId, sessionId, takenAt: "2026-05-08T08:05:00+02:00", reference: { method: "edm", distanceM: 10 }, readings: { rangesM: [10.001] }, reflectancePct: 50, illuminanceKlux: 20 }],
-      },
-    }),
-  );
+  const one = await syncedShot(crew);
+  shotId = one.shotId;
+  const a = one.sync;
   expect(a.json.results.map((r: { status: string }) => r.status)).toEqual(["accepted", "accepted"]);
 });
 

@@ -6,10 +6,10 @@ import { existsSync } from "node:fs";
 import { join } from "node:path";
 import { action as photoAction, loader as photoList } from "~/routes/api.photos";
 import { loader as photoLoader } from "~/routes/api.photos.$photoId";
-import { action as syncAction } from "~/routes/api.sync";
 import { loader as shotsLoader } from "~/routes/api.shots";
 import { getEnv, resetEnvCache } from "~/env.server";
-import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
+import { apiRequest, call, makeUser, type TestUser } from "../support/registry-fixtures";
+import { syncedShot } from "../support/synced-shot";
 
 const JPEG = Buffer.from(
   "/9j/4AAQSkZJRgABAQAAAQABAAD/4gHYSUNDX1BST0ZJTEUAAQEAAAHIAAAAAAQwAABtbnRyUkdCIFhZWiAH4AABAAEAAAAAAABhY3NwAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAQAA9tYAAQAAAADTLQAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAAlkZXNjAAAA8AAAACRyWFlaAAABFAAAABRnWFlaAAABKAAAABRiWFlaAAABPAAAABR3dHB0AAABUAAAABRyVFJDAAABZAAAAChnVFJDAAABZAAAAChiVFJDAAABZAAAAChjcHJ0AAABjAAAADxtbHVjAAAAAAAAAAEAAAAMZW5VUwAAAAgAAAAcAHMAUgBHAEJYWVogAAAAAAAAb6IAADj1AAADkFhZWiAAAAAAAABimQAAt4UAABjaWFlaIAAAAAAAACSgAAAPhAAAts9YWVogAAAAAAAA9tYAAQAAAADTLXBhcmEAAAAAAAQAAAACZmYAAPKnAAANWQAAE9AAAApbAAAAAAAAAABtbHVjAAAAAAAAAAEAAAAMZW5VUwAAACAAAAAcAEcAbwBvAGcAbABlACAASQBuAGMALgAgADIAMAAxADb/2wBDAAYEBQYFBAYGBQYHBwYIChAKCgkJChQODwwQFxQYGBcUFhYaHSUfGhsjHBYWICwgIyYnKSopGR8tMC0oMCUoKSj/2wBDAQcHBwoIChMKChMoGhYaKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCgoKCj/wAARCAACAAIDASIAAhEBAxEB/8QAFQABAQAAAAAAAAAAAAAAAAAAAAH/xAAUEAEAAAAAAAAAAAAAAAAAAAAA/8QAFQEBAQAAAAAAAAAAAAAAAAAAAwb/xAAUEQEAAAAAAAAAAAAAAAAAAAAA/9oADAMBAAIRAxEAPwCgBQD/2Q==",
@@ -23,23 +23,10 @@ let shotId: string;
 
 beforeAll(async () => {
   [crew, viewer] = await Promise.all([makeUser("crew"), makeUser("viewer")]);
-  const sensor = await makeSensor();
-  const site = await makeSite();
   // issue 14: the readers are members of the project the shots belong to
-  await shareProject([sensor], [site], [crew, viewer]);
-  const sessionId = crypto.randomUUID();
-  shotId = crypto.randomUUID();
-  const a = await call(
-    syncAction,
-    apiRequest("/api/sync", {
-      user: crew,
-      json: {
-        deviceId: "t",
-        sessions: [{ id: sessionId, sensorId: sensor.id, siteId: site.id, startedAt: "2026-05-08T08:00:00+02:00" }],
-        shots: [{ id: shotId, sessionId, takenAt: "2026-05-08T08:05:00+02:00", reference: { method: "edm", distanceM: 10 }, readings: { rangesM: [10.001] }, reflectancePct: 50, illuminanceKlux: 20 }],
-      },
-    }),
-  );
+  const one = await syncedShot(crew, [viewer]);
+  shotId = one.shotId;
+  const a = one.sync;
   expect(a.json.results.map((r: { status: string }) => r.status)).toEqual(["accepted", "accepted"]);
 });
 

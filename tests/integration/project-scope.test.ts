@@ -12,6 +12,7 @@ import { loader as shotsLoader } from "~/routes/api.shots";
 import { loader as referenceLoader } from "~/routes/api.field.reference";
 import { createSignOff } from "~/models/signoffs.server";
 import { apiRequest, call, makeProject, makeSensor, makeSite, makeTape, makeUser, type TestUser } from "../support/registry-fixtures";
+import { syncSession } from "../support/sync-records";
 
 const uid = () => crypto.randomUUID();
 
@@ -22,16 +23,7 @@ let pA: { id: string }, pB: { id: string }, pC: { id: string };
 /** The errors (mm) of the shots stored per project. */
 const errorsOf: Record<string, number[]> = {};
 
-const session = (sensorId: string, siteId: string, over: Record<string, unknown> = {}) => ({
-  id: uid(),
-  sensorId,
-  siteId,
-  startedAt: "2026-05-04T08:00:00+02:00",
-  airTempC: 18,
-  pressureHpa: 1004,
-  humidityPct: 60,
-  ...over,
-});
+const session = syncSession;
 const shot = (sessionId: string, distanceM: number, errorMm: number) => ({
   id: uid(),
   sessionId,

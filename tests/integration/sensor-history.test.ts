@@ -4,45 +4,27 @@
 // figures worked out here from the synced offsets; the t quantile from jStat (outside library).
 import { beforeAll, expect, test } from "vitest";
 import jStat from "jstat";
-import { action as syncAction } from "~/routes/api.sync";
 import { sensorHistory } from "~/models/history.server";
-import { apiRequest, call, makeSensor, makeSite, makeUser, shareProject, type TestUser } from "../support/registry-fixtures";
+import { makeUser, shareProject, type TestUser } from "../support/registry-fixtures";
+import { HISTORY_BIASES, HISTORY_DATES, historyWorld } from "../support/history-world";
 
 const J = jStat as { studentt: { inv(p: number, df: number): number } };
 let qa: TestUser;
 let sensorId: string;
 // session bias (mm): each session's three shots have errors bias − 0.4, bias, bias + 0.4
-const biases = [0.2, 0.5, 0.9, 1.2, 1.6, 2.1, 2.3];
-const dates = ["2026-03-02", "2026-04-01", "2026-05-04", "2026-06-01", "2026-07-01", "2026-08-03", "2026-09-01"];
+const biases = HISTORY_BIASES;
+const dates = HISTORY_DATES;
 
 beforeAll(async () => {
-  const crew = await makeUser("crew");
   qa = await makeUser("qa");
-  const sensor = await makeSensor({
-    label: "Drifting rangefinder",
-    toleranceMm: 5,
-    tolerancePpm: 10,
-    certNumber: "FG-CAL-0777",
-    certLaboratory: "Fernhollow calibration bench",
-    certIssued: "2025-07-01",
-    certDue: "2026-07-01",
+  const world = await historyWorld({
+    sensor: { label: "Drifting rangefinder", certNumber: "FG-CAL-0777", certLaboratory: "Fernhollow calibration bench" },
+    siteName: "Fernhollow quarry baseline",
+    deviceId: "tablet-h",
+    share: (crew, sensor, site) => shareProject([sensor], [site], [crew, qa]), // api.md v1.1: the crew syncs into, and QA reads, their project
   });
-  sensorId = sensor.id;
-  const site = await makeSite({ name: "Fernhollow quarry baseline" });
-  await shareProject([sensor], [site], [crew, qa]); // api.md v1.1: the crew syncs into, and QA reads, their project
-  const sessions = dates.map((d) => ({ id: crypto.randomUUID(), sensorId, siteId: site.id, startedAt: `${d}T08:00:00+02:00`, airTempC: 15, pressureHpa: 1010, humidityPct: 60 }));
-  const shots = sessions.flatMap((s, i) =>
-    [-0.4, 0, 0.4].map((d, k) => ({
-      id: crypto.randomUUID(),
-      sessionId: s.id,
-      takenAt: `${dates[i]}T09:0${k}:00+02:00`,
-      reference: { method: "edm", distanceM: 40 + 10 * k },
-      readings: { rangesM: [40 + 10 * k + (biases[i] + d) / 1000] },
-      reflectancePct: 50,
-      illuminanceKlux: 20,
-    })),
-  );
-  const r = await call(syncAction, apiRequest("/api/sync", { user: crew, json: { deviceId: "tablet-h", sessions, shots } }));
+  sensorId = world.sensor.id;
+  const r = world.sync;
   expect(r.status).toBe(200);
   expect(new Set(r.json.results.map((x: { status: string }) => x.status))).toEqual(new Set(["accepted"]));
 });

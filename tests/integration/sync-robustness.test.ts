@@ -9,14 +9,14 @@ import { checkSessions, sensors, shots } from "~/db/schema";
 import { eq } from "drizzle-orm";
 import { action } from "~/routes/api.sync";
 import * as chunkRoute from "~/routes/review.import.chunk";
-import { computeShotRecord, shotInsertRow } from "~/models/shots.server";
+import { computeShotRecord, shotInsertRow } from "~/models/shot-record";
 import type { ImportMapping } from "~/components/review/import-rows";
 import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 import { airState, C0 } from "~/domain";
 
 // computeShotRecord stays real unless a test makes it throw for one shot
-vi.mock("~/models/shots.server", async (original) => {
-  const mod = await original<typeof import("~/models/shots.server")>();
+vi.mock("~/models/shot-record", async (original) => {
+  const mod = await original<typeof import("~/models/shot-record")>();
   return { ...mod, computeShotRecord: vi.fn(mod.computeShotRecord), shotInsertRow: vi.fn(mod.shotInsertRow) };
 });
 

@@ -22,6 +22,7 @@ import * as edmPage from "~/routes/admin.edms.$edmId";
 import * as projectEdit from "~/routes/admin.projects.$projectId";
 import { answerOf } from "./auth-helpers";
 import { apiRequest, call, makeProject, makeSensor, makeSite, makeTape, makeUser, type TestUser } from "../support/registry-fixtures";
+import { syncSession } from "../support/sync-records";
 
 const uid = () => crypto.randomUUID();
 let admin: TestUser, crewA: TestUser, viewerA: TestUser, loner: TestUser;
@@ -54,16 +55,7 @@ beforeAll(async () => {
 
 const ids = (xs: { id: string }[]) => xs.map((x) => x.id).sort();
 const sorted = (...xs: string[]) => [...xs].sort();
-const session = (sensorId: string, siteId: string, over: Record<string, unknown> = {}) => ({
-  id: uid(),
-  sensorId,
-  siteId,
-  startedAt: "2026-05-04T08:00:00+02:00",
-  airTempC: 18,
-  pressureHpa: 1004,
-  humidityPct: 60,
-  ...over,
-});
+const session = syncSession;
 const tapeRef = (tapeId: string) => ({ method: "tape", distanceM: 20, tape: { tapeId, tempC: 20, tensionN: 50, support: "ground", spans: 1 } });
 const shot = (sessionId: string, reference: Record<string, unknown>, over: Record<string, unknown> = {}) => ({
   id: uid(),
