@@ -1,4 +1,4 @@
-import { useMemo, useState } from "react";
+import { useEffect, useMemo, useState } from "react";
 import { data, Link, useSearchParams, type ShouldRevalidateFunctionArgs } from "react-router";
 import { parseWithZod } from "@conform-to/zod/v4";
 import type { Route } from "./+types/review.sensors.$sensorId";
@@ -13,7 +13,8 @@ import { DriftChart, MatrixChart } from "~/components/review/charts";
 import { ErrorSeriesChart } from "~/components/review/error-series-chart";
 import { ShotTable } from "~/components/review/shot-table";
 import { worstCell } from "~/components/review/matrix";
-import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
+import { reportQuery, reportUrls, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
+import { preloadPlot } from "~/components/review/charts";
 import { bandWord, dateOnly, mmSigned } from "~/components/review/format";
 import { readFormCapped } from "~/http/body.server";
 import { LocalTime } from "~/components/review/local-time";
@@ -99,6 +100,8 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
   const f = filtersFrom(sp);
   const effective = f;
   const { report, series, error, loading, reload, version } = useSensorReport(sensor.id, effective);
+  // issue 16 (v16): the chart library loads while the report and series are computed, not after
+  useEffect(preloadPlot, []);
   const [busy, setBusy] = useState<string | null>(null);
   const [notice, setNotice] = useState<string | null>(null);
 
@@ -128,8 +131,13 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
   const printHref = `/review/sensors/${sensor.id}/print?${sp}`;
   const biasLimit = report?.tests.find((t) => t.name === "bias")?.limit ?? sensor.toleranceMm;
 
+  // the reads of the filters the page opened with (later ones are fetched as they change)
+  const [first] = useState(() => reportUrls(sensor.id, effective));
   return (
     <div className="space-y-6">
+      {/* issue 16 (v16): the browser asks the report and its series while it loads the scripts (use-report.ts reads them) */}
+      <link rel="preload" as="fetch" href={first.report} crossOrigin="anonymous" />
+      <link rel="preload" as="fetch" href={first.series} crossOrigin="anonymous" />
       <nav aria-label="Breadcrumb" className="text-base">
         <Link
           to={`/review${f.project || f.from || f.to ? `?${new URLSearchParams({ ...(f.project ? { project: f.project } : {}), ...(f.from ? { from: f.from } : {}), ...(f.to ? { to: f.to } : {}) })}` : ""}`}

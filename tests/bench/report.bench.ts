@@ -165,6 +165,24 @@ async function prepare(dir: string, env: NodeJS.ProcessEnv): Promise<{ adminToke
   return JSON.parse(readFileSync(out, "utf8"));
 }
 
+/** Where one navigation's time went, in the page's clock (ms from navigation start): the document, each script and API request, the moment drawn. */
+async function pageWaterfall(page: import("playwright-core").Page): Promise<string> {
+  const w = await page.evaluate(() => {
+    const nav = performance.getEntriesByType("navigation")[0] as PerformanceNavigationTiming;
+    const res = (performance.getEntriesByType("resource") as PerformanceResourceTiming[]).map((r) => ({
+      name: r.name.replace(location.origin, ""),
+      start: r.startTime,
+      end: r.responseEnd,
+      size: r.transferSize,
+    }));
+    return { now: performance.now(), doc: { ttfb: nav.responseStart, end: nav.responseEnd, dcl: nav.domContentLoadedEventEnd, load: nav.loadEventEnd }, res };
+  });
+  const r0 = (x: number) => x.toFixed(0).padStart(6);
+  const out = [`    document: first byte ${r0(w.doc.ttfb)}, last ${r0(w.doc.end)}, DOMContentLoaded ${r0(w.doc.dcl)}, load ${r0(w.doc.load)}; drawn at ${r0(w.now)} ms`];
+  for (const r of w.res.sort((a, b) => a.start - b.start)) out.push(`    ${r0(r.start)} → ${r0(r.end)}  ${r.name.slice(0, 110)} (${r.size} B)`);
+  return out.join("\n");
+}
+
 async function pageTiming(base: string, cookie: string, sensorId: string): Promise<{ ms: number[]; marks: number }> {
   const { chromium } = await import("playwright-core");
   const { CHROMIUM_PATH } = await import("../e2e/chromium.ts");
@@ -195,6 +213,7 @@ async function pageTiming(base: string, cookie: string, sensorId: string): Promi
         );
       ms.push(drawn ? performance.now() - t : Infinity);
       if (!drawn) break;
+      if (process.env.BENCH_PAGE_TRACE === "1") console.log(await pageWaterfall(page));
       marks = await page.evaluate(() => document.querySelectorAll("figure svg circle, figure svg path[d], figure svg rect").length);
     }
     return { ms, marks };
