@@ -1,4 +1,4 @@
-import { useEffect, useMemo, useState } from "react";
+import { useMemo, useState } from "react";
 import { data, Link, useSearchParams, type ShouldRevalidateFunctionArgs } from "react-router";
 import { parseWithZod } from "@conform-to/zod/v4";
 import type { Route } from "./+types/review.sensors.$sensorId";
@@ -22,6 +22,10 @@ import { reshootSchema, reshootStateSchema } from "~/contract/reshoot";
 import { createReshoot, listReshoots, reshootChoices, ReshootError, setReshootState } from "~/models/reshoots.server";
 import { ReshootPanel } from "~/components/review/reshoot-panel";
 import { SignOffForm } from "~/components/review/signoff-form";
+
+// issue 16 (v16): in the browser the chart library starts loading as soon as this module runs
+// (before hydration), while the report and its series are fetched, not after they arrive
+if (typeof document !== "undefined") preloadPlot();
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.sensor.label ?? "Sensor"} — report · Shotbook` }];
 
@@ -100,8 +104,6 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
   const f = filtersFrom(sp);
   const effective = f;
   const { report, series, error, loading, reload, version } = useSensorReport(sensor.id, effective);
-  // issue 16 (v16): the chart library loads while the report and series are computed, not after
-  useEffect(preloadPlot, []);
   const [busy, setBusy] = useState<string | null>(null);
   const [notice, setNotice] = useState<string | null>(null);
 
