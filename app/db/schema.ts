@@ -361,6 +361,10 @@ export const shots = sqliteTable(
     index("shots_sensor_wrap")
       .on(t.sensorId)
       .where(sql`wrap = 1`),
+    // issue 16 (v16): the shot table's default order (largest |error| first) pages from this index
+    // instead of sorting every row of the sensor (0.5 s of server CPU per page at 100,000 shots);
+    // ties by id are sorted within one |error| value only
+    index("shots_sensor_abs_error").on(t.sensorId, sql`abs(error_mm)`),
   ],
 );
 

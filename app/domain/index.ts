@@ -56,6 +56,8 @@ export type { ExplainInput, FlaggedGroup, FlaggedShot, IncludedTotals, VerdictEx
 // issue 16: the report charts' series at any n
 export { binIndex, compareNotable, compareSample, errorSeries, includedTotals, isNotable, sampleKey, seriesCells, SERIES_BINS, SERIES_MAX_NOTABLE, SERIES_PER_BIN } from "./series.ts";
 export type { CellRow, ErrorSeries, SeriesBin, SeriesCell, SeriesRow } from "./series.ts";
+// issue 16 (v16): the same over columns, for the server at 100,000 shots
+export { rowId, seriesOfColumns, type ColumnsSeries, type SeriesColumns } from "./series-columns.ts";
 // issue 18: check-shots from scans and depth frames (ranging.md §8)
 export { symmetricEigen3 } from "./eigen3.ts";
 export type { Vec3, Sym3, Eigen3 } from "./eigen3.ts";

@@ -11,29 +11,26 @@
 // so every number here agrees with the report's figures.
 import { and, eq, inArray, isNull, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
-import { projects, projectSensors, sensors, shots } from "~/db/schema";
+import { projects, projectSensors, shots } from "~/db/schema";
 import {
-  compareNotable,
-  sampleKey,
   DEFAULT_RULE,
-  errorSeries,
-  includedTotals,
   OUTLIER_K,
   MAD_TO_SIGMA,
   orderStatistics,
-  seriesCells,
+  rowId,
+  seriesOfColumns,
   SERIES_BINS,
   SERIES_MAX_NOTABLE,
   SERIES_PER_BIN,
-  type CellRow,
   type ErrorSeries,
   type IncludedTotals,
-  type SeriesRow,
   type ShotFlag,
 } from "~/domain";
 import type { MatrixCell } from "~/contract/report-matrix";
 import type { Actor } from "./actor";
 import { parseReportQuery, type ReportQuery } from "./reports.server";
+import { queryKey } from "./report-selection.server";
+import { readState } from "./report-state.server";
 import { canSeeProject, canSeeSensor, projectColInScope, scopeOf, sessionIdInScope, visibleSessionIds, type Scope } from "./scope.server";
 import { periodWhere, type QueryError } from "./shot-query.server";
 
@@ -118,9 +115,42 @@ export async function reportSeries(actor: Actor, sensorId: string, params: URLSe
   }
   const rule = await ruleFor(db, scope, sensorId, q.projectId);
   if ("status" in rule) return rule;
-  const [sensor] = await db.select({ a: sensors.toleranceMm, b: sensors.tolerancePpm }).from(sensors).where(eq(sensors.id, sensorId));
+  // the report's own fingerprint (report-state.server): the series is kept while it holds
+  const projectIds = scope.all ? null : scope.projectIds;
+  const state = await readState(db, sensorId, q.projectId, projectIds);
+  const sensor = state.sensor ? { a: state.sensor.toleranceMm, b: state.sensor.tolerancePpm } : null;
   if (!sensor) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
-  return { status: 200, body: await seriesOf(db, scope, sensorId, q, rule, sensor, sizes) };
+  const kept = keptOf(db);
+  const key = JSON.stringify([queryKey(sensorId, q, projectIds), rule, sizes.bins ?? null, sizes.perBin ?? null, sizes.maxNotable ?? null]);
+  const hit = kept.get(key);
+  if (hit && hit.fingerprint === state.fingerprint) {
+    kept.delete(key);
+    kept.set(key, hit);
+    return { status: 200, body: hit.body };
+  }
+  const body = await seriesOf(db, scope, sensorId, q, rule, sensor, sizes);
+  kept.delete(key);
+  kept.set(key, { fingerprint: state.fingerprint, body });
+  if (kept.size > KEPT_MAX) kept.delete(kept.keys().next().value!);
+  return { status: 200, body };
+}
+
+// issue 16 (v16): series kept per query and reader's projects while the report's fingerprint
+// holds (any insert, exclusion, restore, recomputation, rule or sensor edit changes it); about
+// 40 KB each, the oldest dropped first.
+type Kept = { fingerprint: string; body: ReportSeriesJson };
+const KEPT_MAX = 100;
+const keptByDb = new WeakMap<Db, Map<string, Kept>>();
+
+function keptOf(db: Db): Map<string, Kept> {
+  let m = keptByDb.get(db);
+  if (!m) keptByDb.set(db, (m = new Map()));
+  return m;
+}
+
+/** Forgets the series this process keeps for the database (tests and the bench; never needed for correctness). */
+export function clearSeriesCache(db: Db = getDb()) {
+  keptByDb.delete(db);
 }
 
 async function seriesOf(
@@ -137,60 +167,44 @@ async function seriesOf(
   const n = Number(p?.n ?? 0);
   const ids = list(p?.rn) as number[];
   const wraps = new Set(wrapped.map((r) => Number(r.rn)));
-  const d = list(p?.d);
-  const e = list(p?.e);
-  const bits = list(p?.bits);
+  const d = list(p?.d) as number[];
+  const e = list(p?.e) as number[];
+  const bits = list(p?.bits) as number[];
   const rp = list(p?.rp);
   const lux = list(p?.lux);
   if (ids.length !== n || d.length !== n || e.length !== n || bits.length !== n || rp.length !== n || lux.length !== n) throw new Error("report series: the columns did not read back");
   const k = rule.k;
   // the report's limit, in the same order of operations as app/domain and the report's SQL
   const limitAt = (x: number) => k * (sensor.a + (sensor.b * x) / 1000);
-  const included: number[] = [];
-  for (let i = 0; i < n; i++) if (!((bits[i] as number) & 1)) included.push(e[i] as number);
-  const order = orderStatistics(Float64Array.from(included).sort());
-  const outlier = order ? { medianMm: order.median, cutMm: OUTLIER_K * MAD_TO_SIGMA * order.mad } : null;
-  const rows: (SeriesRow & CellRow & { rn: number; wrap: boolean; outlier: boolean })[] = new Array(n);
+  const excluded = new Uint8Array(n);
+  const retro = new Uint8Array(n);
+  const wrap = new Uint8Array(n);
+  let nIncluded = 0;
   for (let i = 0; i < n; i++) {
-    const di = d[i] as number;
-    const ei = e[i] as number;
-    const b = bits[i] as number;
-    const lim = limitAt(di);
-    const rn = ids[i]!;
-    const wrap = wraps.has(rn);
-    const isOutlier = outlier != null && Math.abs(ei - outlier.medianMm) > outlier.cutMm;
-    // the id is the row number until the drawn ones are named below
-    rows[i] = {
-      rn,
-      id: String(rn).padStart(16, "0"),
-      key: sampleKey(rn),
-      d: di,
-      e: ei,
-      lim,
-      within: Math.abs(ei) <= lim,
-      excluded: (b & 1) !== 0,
-      flagged: wrap || isOutlier,
-      wrap,
-      outlier: isOutlier,
-      retro: (b & 4) !== 0,
-      reflectancePct: rp[i] ?? null,
-      illuminanceKlux: lux[i] ?? null,
-    };
+    excluded[i] = bits[i]! & 1;
+    retro[i] = (bits[i]! & 4) >> 2;
+    if (wraps.size && wraps.has(ids[i]!)) wrap[i] = 1;
+    if (!excluded[i]) nIncluded++;
   }
-  const series = errorSeries(rows, { bins: sizes.bins ?? SERIES_BINS, perBin: sizes.perBin ?? SERIES_PER_BIN, maxNotable: sizes.maxNotable ?? SERIES_MAX_NOTABLE });
-  const flagged = rows.filter((r) => !r.excluded && r.flagged).sort(compareNotable);
+  const included = new Float64Array(nIncluded);
+  for (let i = 0, j = 0; i < n; i++) if (!excluded[i]) included[j++] = e[i]!;
+  const order = orderStatistics(included.sort());
+  const outlier = order ? { medianMm: order.median, cutMm: OUTLIER_K * MAD_TO_SIGMA * order.mad } : null;
+  const got = seriesOfColumns(
+    { rowNumber: ids, d, e, excluded, retro, wrap, reflectancePct: rp, illuminanceKlux: lux },
+    { coverageK: k, limitAt, outlier, bins: sizes.bins ?? SERIES_BINS, perBin: sizes.perBin ?? SERIES_PER_BIN, maxNotable: sizes.maxNotable ?? SERIES_MAX_NOTABLE },
+  );
+  const series = got.series;
   // the ids of the shots sent, by row number (a few thousand lookups by the primary key)
   const named = new Map<number, string>();
-  const rnOf = (r: SeriesRow) => (r as (typeof rows)[number]).rn;
-  const wanted = [...new Set([...series.points, ...flagged].map(rnOf))];
+  const wanted = [...new Set([...got.pointIndex, ...got.flagged.map((f) => f.i)].map((i) => ids[i]!))];
   for (let at = 0; at < wanted.length; at += 5000) {
-    const got = await db.all<{ rn: number; id: string }>(
+    const rows = await db.all<{ rn: number; id: string }>(
       sql`SELECT rowid AS rn, ${shots.id} AS id FROM ${shots} WHERE rowid IN (SELECT value FROM json_each(${JSON.stringify(wanted.slice(at, at + 5000))}))`,
     );
-    for (const g of got) named.set(Number(g.rn), g.id);
+    for (const g of rows) named.set(Number(g.rn), g.id);
   }
-  const idOf = (r: SeriesRow) => named.get(rnOf(r)) ?? r.id;
-  const slim = (r: SeriesRow): SeriesRow => ({ id: idOf(r), key: r.key, d: r.d, e: r.e, lim: r.lim, within: r.within, excluded: r.excluded, flagged: r.flagged });
+  const idOf = (i: number) => named.get(ids[i]!) ?? rowId(ids[i]!);
   return {
     sensorId,
     ruleProjectId: rule.projectId,
@@ -198,19 +212,19 @@ async function seriesOf(
     outlier,
     errorSeries: {
       ...series,
-      points: series.points.map(slim),
+      points: series.points.map((r, at) => ({ id: idOf(got.pointIndex[at]!), key: r.key, d: r.d, e: r.e, lim: r.lim, within: r.within, excluded: r.excluded, flagged: r.flagged })),
       limitLine: series.total ? [...new Set([series.dMin, series.dMax])].map((x) => ({ d: x, lim: limitAt(x) })) : [],
     },
-    cells: seriesCells(rows),
+    cells: got.cells,
     explain: {
-      included: includedTotals(rows, k),
-      flagged: flagged.map((r) => ({
-        id: idOf(r),
-        errorMm: r.e,
-        limitMm: r.lim,
-        within: r.within,
+      included: got.included,
+      flagged: got.flagged.map((f) => ({
+        id: idOf(f.i),
+        errorMm: e[f.i]!,
+        limitMm: got.lim[f.i]!,
+        within: got.within[f.i] === 1,
         excluded: false as const,
-        flags: [...(r.outlier ? (["outlier"] as const) : []), ...(r.wrap ? (["wrap"] as const) : [])],
+        flags: [...(f.outlier ? (["outlier"] as const) : []), ...(f.wrap ? (["wrap"] as const) : [])],
       })),
     },
   };

@@ -15,7 +15,8 @@ import { DriftChart, MatrixChart } from "~/components/review/charts";
 import { ErrorSeriesChart } from "~/components/review/error-series-chart";
 import { ShotTable } from "~/components/review/shot-table";
 import { worstCell } from "~/components/review/matrix";
-import { reportQuery, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
+import { reportQuery, reportUrls, setExclusion, useSensorReport, type ReportFilters } from "~/components/review/use-report";
+import { preloadPlot } from "~/components/review/charts";
 import { bandWord, dateOnly, mmSigned } from "~/components/review/format";
 import { readFormCapped } from "~/http/body.server";
 import { LocalTime } from "~/components/review/local-time";
@@ -23,6 +24,10 @@ import { reshootSchema, reshootStateSchema } from "~/contract/reshoot";
 import { createReshoot, listReshoots, reshootChoices, ReshootError, setReshootState } from "~/models/reshoots.server";
 import { ReshootPanel } from "~/components/review/reshoot-panel";
 import { SignOffForm } from "~/components/review/signoff-form";
+
+// issue 16 (v16): in the browser the chart library starts loading as soon as this module runs
+// (before hydration), while the report and its series are fetched, not after they arrive
+if (typeof document !== "undefined") preloadPlot();
 
 export const meta: Route.MetaFunction = ({ data }) => [{ title: `${data?.sensor.label ?? "Sensor"} — report · Shotbook` }];
 
@@ -130,8 +135,13 @@ export default function SensorReport({ loaderData, actionData }: Route.Component
   const printHref = `/review/sensors/${sensor.id}/print?${sp}`;
   const biasLimit = report?.tests.find((t) => t.name === "bias")?.limit ?? sensor.toleranceMm;
 
+  // the reads of the filters the page opened with (later ones are fetched as they change)
+  const [first] = useState(() => reportUrls(sensor.id, effective));
   return (
     <div className="space-y-6">
+      {/* issue 16 (v16): the browser asks the report and its series while it loads the scripts (use-report.ts reads them) */}
+      <link rel="preload" as="fetch" href={first.report} crossOrigin="anonymous" />
+      <link rel="preload" as="fetch" href={first.series} crossOrigin="anonymous" />
       <nav aria-label="Breadcrumb" className="text-base">
         <Link
           to={`/review${f.project || f.from || f.to ? `?${new URLSearchParams({ ...(f.project ? { project: f.project } : {}), ...(f.from ? { from: f.from } : {}), ...(f.to ? { to: f.to } : {}) })}` : ""}`}

@@ -165,7 +165,38 @@ async function prepare(dir: string, env: NodeJS.ProcessEnv): Promise<{ adminToke
   return JSON.parse(readFileSync(out, "utf8"));
 }
 
-async function pageTiming(base: string, cookie: string, sensorId: string): Promise<{ ms: number[]; marks: number }> {
+/** Where one navigation's time went, in the page's clock (ms from navigation start): the document, each script and API request, the moment drawn. */
+async function pageWaterfall(page: import("playwright-core").Page): Promise<string> {
+  const w = await page.evaluate(() => {
+    const nav = performance.getEntriesByType("navigation")[0] as PerformanceNavigationTiming;
+    const res = (performance.getEntriesByType("resource") as PerformanceResourceTiming[]).map((r) => ({
+      name: r.name.replace(location.origin, ""),
+      start: r.startTime,
+      end: r.responseEnd,
+      size: r.transferSize,
+    }));
+    return { now: performance.now(), doc: { ttfb: nav.responseStart, end: nav.responseEnd, dcl: nav.domContentLoadedEventEnd, load: nav.loadEventEnd }, res };
+  });
+  const r0 = (x: number) => x.toFixed(0).padStart(6);
+  const out = [`    document: first byte ${r0(w.doc.ttfb)}, last ${r0(w.doc.end)}, DOMContentLoaded ${r0(w.doc.dcl)}, load ${r0(w.doc.load)}; drawn at ${r0(w.now)} ms`];
+  for (const r of w.res.sort((a, b) => a.start - b.start)) out.push(`    ${r0(r.start)} → ${r0(r.end)}  ${r.name.slice(0, 110)} (${r.size} B)`);
+  return out.join("\n");
+}
+
+/** Navigations of the QA page timed: the first, then these more (the median of all is judged). */
+const PAGE_NAVIGATIONS = 5;
+
+/**
+ * The QA page in Chromium, PAGE_NAVIGATIONS navigations to it: from the start of each until the
+ * figures grid shows the bias and each of the three chart boxes (error against distance, the
+ * reflectance × illuminance matrix, bias per session) holds its drawn SVG with marks in it.
+ * The first navigation meets the series computed afresh (the report itself is kept by then from
+ * the API runs above); the later ones meet it kept, as every reader after the first does until
+ * the next sync or exclusion. Between navigations the shot table's first page is let finish (a
+ * reader looks at the page), so one navigation does not queue behind the last one's requests.
+ * The server's CPU time during each navigation is kept beside its wall time.
+ */
+async function pageTiming(base: string, cookie: string, sensorId: string): Promise<{ ms: number[]; cpu: number[]; marks: number }> {
   const { chromium } = await import("playwright-core");
   const { CHROMIUM_PATH } = await import("../e2e/chromium.ts");
   const browser = await chromium.launch({ executablePath: CHROMIUM_PATH, headless: true, args: ["--no-sandbox", "--disable-gpu", "--no-first-run", "--disable-background-networking"] });
@@ -174,33 +205,72 @@ async function pageTiming(base: string, cookie: string, sensorId: string): Promi
     const [name, ...rest] = cookie.split(";")[0]!.split("=");
     await context.addCookies([{ name: name!, value: rest.join("="), domain: "127.0.0.1", path: "/", httpOnly: true, sameSite: "Lax" }]);
     const page = await context.newPage();
+    // the API requests of the navigation under way, for the note when a page is not drawn
+    const api: string[] = [];
+    const at0 = { t: 0 };
+    const note = (what: string) => (r: import("playwright-core").Request) => {
+      if (r.url().includes("/api/")) api.push(`${what} ${r.url().replace(base, "").slice(0, 60)} at ${(performance.now() - at0.t).toFixed(0)} ms`);
+    };
+    page.on("request", note("asked"));
+    page.on("requestfinished", note("answered"));
+    page.on("requestfailed", note("failed"));
     const ms: number[] = [];
+    const cpu: number[] = [];
     let marks = 0;
-    for (let i = 0; i < 3; i++) {
+    for (let i = 0; i < PAGE_NAVIGATIONS; i++) {
+      const c = cpuMsOf(serverPid);
       const t = performance.now();
+      at0.t = t;
+      api.length = 0;
       await page.goto(`${base}/review/sensors/${sensorId}`, { waitUntil: "commit" });
-      // drawn: the figures grid holds the bias, and every chart box holds its SVG
       const drawn = await page
         .waitForFunction(
           () => {
-            const boxes = [...document.querySelectorAll('[role="img"]')].filter((b) => b.closest("figure"));
-            return !!document.querySelector('[data-testid="figures"]') && boxes.length >= 2 && boxes.every((b) => b.querySelector("svg"));
+            const figures = document.querySelector('[data-testid="figures"]');
+            const boxes = [...document.querySelectorAll('figure [role="img"]')];
+            // (no named inner function: tsx would wrap it in a helper the page does not have)
+            return !!figures && /\d/.test(figures.textContent ?? "") && boxes.length >= 3 && boxes.every((b) => !!b.querySelector("svg circle, svg path[d], svg rect"));
           },
           null,
           { timeout: PAGE_TIMEOUT_MS, polling: "raf" },
         )
         .then(
           () => true,
-          () => false,
+          (e: Error) => (/Timeout/i.test(e.message) ? false : Promise.reject(e)),
         );
       ms.push(drawn ? performance.now() - t : Infinity);
-      if (!drawn) break;
-      marks = await page.evaluate(() => document.querySelectorAll("figure svg circle, figure svg path[d], figure svg rect").length);
+      cpu.push(cpuMsOf(serverPid) - c);
+      if (!drawn) {
+        // what was there instead, to see why
+        const seen = await page.evaluate(() => ({
+          figures: document.querySelector('[data-testid="figures"]')?.textContent?.slice(0, 80) ?? null,
+          boxes: [...document.querySelectorAll('figure [role="img"]')].map((b) => b.innerHTML.length),
+          alert: document.querySelector('[role="alert"]')?.textContent ?? null,
+        }));
+        console.log(`report:   the QA page was not drawn: ${JSON.stringify(seen)}; ${api.join("; ")}`);
+        if (process.env.BENCH_PAGE_SHOT) await page.screenshot({ path: process.env.BENCH_PAGE_SHOT, fullPage: true });
+        break;
+      }
+      if (process.env.BENCH_PAGE_TRACE === "1") console.log(await pageWaterfall(page));
+      if (process.env.BENCH_PAGE_SHOT && i === 0) await page.screenshot({ path: process.env.BENCH_PAGE_SHOT, fullPage: true });
+      marks = await page.evaluate(() => document.querySelectorAll('figure [role="img"] svg :is(circle, path[d], rect)').length);
+      await page.waitForSelector('[data-testid="shot-table"][data-loading="false"]', { timeout: PAGE_TIMEOUT_MS }).catch(() => {});
     }
-    return { ms, marks };
+    return { ms, cpu, marks };
   } finally {
     await browser.close();
   }
+}
+
+/** GET …/report/series: its server CPU computed afresh (a selection not asked before) and kept. */
+async function seriesTiming(base: string, token: string, sensorId: string) {
+  // the same shots under a query not kept yet: the project's rule named (a period filter would
+  // also change SQLite's plan: it reads the wide rows then, see decision 0009)
+  const url = `${base}/api/sensors/${sensorId}/report/series?project=bench-project`;
+  const computed = await timedGet(url, token);
+  const kept: { ms: number; cpu: number }[] = [];
+  for (let i = 0; i < 5; i++) kept.push(await timedGet(url, token));
+  return { computed, keptMs: median(kept.map((k) => k.ms)), keptCpu: median(kept.map((k) => k.cpu)) };
 }
 
 export async function run(): Promise<string[]> {
@@ -275,13 +345,17 @@ export async function run(): Promise<string[]> {
         if (process.env.BENCH_PAGE === "0") lines.push("report:   QA page in Chromium: skipped (BENCH_PAGE=0)");
         else {
           const page = await pageTiming(server.base, creds.qaCookie, sensorId);
-          const best = Math.min(...page.ms);
+          const shown = (x: number) => (Number.isFinite(x) ? fmt(x, 0) : `not drawn within ${PAGE_TIMEOUT_MS / 1000} s`);
           lines.push(
             target(
               `QA page over 100,000 shots: figures and charts drawn < ${TARGETS.pageMs} ms after navigation`,
-              `median ${page.ms.map((x) => (Number.isFinite(x) ? fmt(x, 0) : `not drawn within ${PAGE_TIMEOUT_MS / 1000} s`)).join(", ")} ms (best ${fmt(best, 0)}); ${fmt(page.marks)} SVG marks in the charts`,
+              `median of ${page.ms.length} navigations ${shown(median(page.ms))} ms (each: ${page.ms.map(shown).join(", ")} ms; server CPU ${page.cpu.map((c) => fmt(c, 0)).join(", ")} ms; the first meets the series computed, the others kept); ${fmt(page.marks)} SVG marks in the charts`,
               median(page.ms) < TARGETS.pageMs,
             ),
+          );
+          const st = await seriesTiming(server.base, creds.adminToken, sensorId);
+          lines.push(
+            `report:   series of the page (GET …/report/series) computed ${fmt(st.computed.ms, 0)} ms wall, server CPU ${fmt(st.computed.cpu, 0)} ms; kept (median of 5) ${fmt(st.keptMs, 1)} ms, CPU ${fmt(st.keptCpu, 0)} ms (information)`,
           );
         }
         lines.push(`report:   server peak RSS ${fmt(rssOf(pid).peakMb, 0)} MB (information at 100,000)`);

@@ -19,6 +19,11 @@ function palette(el: Element): Palette {
   return { fg: v("--fg"), muted: v("--muted"), pass: v("--pass"), fail: v("--fail"), warn: v("--warn"), accent: v("--accent"), bg: v("--bg"), line: v("--border") };
 }
 
+/** issue 16 (v16): starts loading the chart library (a page calls it on mount, so the charts do not wait for it after their data). */
+export function preloadPlot() {
+  void import("@observablehq/plot");
+}
+
 /** Renders `build(Plot, width, palette)` into a div, again whenever deps or the width change. */
 export function PlotBox({ build, deps, label, height }: { build: (P: PlotModule, width: number, c: Palette) => Element; deps: unknown[]; label: string; height: number }) {
   const ref = useRef<HTMLDivElement>(null);

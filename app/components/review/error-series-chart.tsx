@@ -39,7 +39,6 @@ export function ErrorSeriesChart({ series, zeroOffsetMm, scalePpm, legendBeside 
               P.line(env, { x: "d", y: (r: { lim: number }) => -r.lim, stroke: c.accent, strokeDasharray: "6,4", strokeWidth: 2 }),
               sampled ? P.rect(series.bins, { x1: "d0", x2: "d1", y1: "minE", y2: "maxE", fill: c.pass, fillOpacity: 0.22 }) : null,
               P.ruleY([0], { stroke: c.muted }),
-              fit.length ? P.line(fit, { x: "d", y: "e", stroke: c.warn, strokeWidth: 3 }) : null,
               P.dot(
                 pts.filter((r) => r.excluded),
                 { x: "d", y: "e", symbol: "square", stroke: c.muted, fill: "none", r: 5, strokeWidth: 2 },
@@ -56,6 +55,8 @@ export function ErrorSeriesChart({ series, zeroOffsetMm, scalePpm, legendBeside 
                 inc.filter((r) => !r.within),
                 { x: "d", y: "e", symbol: "triangle", fill: c.fail, r: 6 },
               ),
+              // the fit over the dots (under a sample of 1,800 of them it could not be seen)
+              fit.length ? P.line(fit, { x: "d", y: "e", stroke: c.warn, strokeWidth: 3 }) : null,
               P.tip(pts, P.pointer({ x: "d", y: "e", title: (r: SeriesRow) => `${r.d.toFixed(3)} m\nerror ${r.e.toFixed(2)} mm\nlimit ±${r.lim.toFixed(2)} mm` })),
             ],
           });
@@ -64,7 +65,7 @@ export function ErrorSeriesChart({ series, zeroOffsetMm, scalePpm, legendBeside 
       <figcaption className={captionClass(legendBeside)}>
         <span className="w-full font-bold" data-testid="drawn-note">
           {sampled
-            ? `${drawn.toLocaleString("en-US")} of ${series.total.toLocaleString("en-US")} shots drawn: ${notableDrawn === series.notableTotal ? "every" : `the ${notableDrawn.toLocaleString("en-US")} largest of ${series.notableTotal.toLocaleString("en-US")}`} excluded, outside-limit or flagged shot${series.notableTotal === 1 ? "" : "s"}, and a fixed sample of the others (the same on every view).`
+            ? `${drawn.toLocaleString("en-US")} of ${series.total.toLocaleString("en-US")} shots drawn: ${notableDrawn === series.notableTotal ? (series.notableTotal === 1 ? "the one" : `all ${series.notableTotal.toLocaleString("en-US")}`) : `the ${notableDrawn.toLocaleString("en-US")} largest of ${series.notableTotal.toLocaleString("en-US")}`} excluded, outside-limit or flagged shot${series.notableTotal === 1 ? "" : "s"}, and a fixed sample of the others (the same on every view).`
             : `All ${series.total.toLocaleString("en-US")} shots drawn.`}
         </span>
         <span>

@@ -83,8 +83,21 @@ export type ReportSeries = {
 /** The report without its rows (api.md v1.1) as the page reads it. */
 export type ReportSummary = Omit<ReportJson, "shots">;
 
+/**
+ * issue 16 (v16): the two reads the page starts with. The route names them in `<link rel="preload">`
+ * in its HTML, so the browser asks for them while it still loads the scripts; the fetches below
+ * are then answered from that preload (the same URL, mode and credentials, and no extra header:
+ * a request with its own headers would not match it).
+ */
+export function reportUrls(sensorId: string, filters: ReportFilters | string) {
+  const id = encodeURIComponent(sensorId);
+  const key = typeof filters === "string" ? filters : reportQuery(filters).toString();
+  const qs = key ? `?${key}` : "";
+  return { report: `/api/sensors/${id}/report${qs}`, series: `/api/sensors/${id}/report/series${qs}` };
+}
+
 async function getJson<T>(url: string, signal: AbortSignal): Promise<T> {
-  const r = await fetch(url, { signal, headers: { Accept: "application/json" } });
+  const r = await fetch(url, { signal });
   if (!r.ok) throw new Error(await errorOf(r));
   return (await r.json()) as T;
 }
@@ -107,9 +120,8 @@ export function useSensorReport(sensorId: string, filters: ReportFilters) {
     const ac = new AbortController();
     abortRef.current = ac;
     setLoading(true);
-    const id = encodeURIComponent(sensorId);
-    const qs = key ? `?${key}` : "";
-    Promise.all([getJson<ReportSummary>(`/api/sensors/${id}/report${qs}`, ac.signal), getJson<ReportSeries>(`/api/sensors/${id}/report/series${qs}`, ac.signal)])
+    const urls = reportUrls(sensorId, key);
+    Promise.all([getJson<ReportSummary>(urls.report, ac.signal), getJson<ReportSeries>(urls.series, ac.signal)])
       .then(([r, s]) => {
         if (ac.signal.aborted) return;
         setReport(r);

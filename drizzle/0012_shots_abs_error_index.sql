@@ -1,0 +1,1 @@
+CREATE INDEX `shots_sensor_abs_error` ON `shots` (`sensor_id`,abs(error_mm));
