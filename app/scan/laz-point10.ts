@@ -178,49 +178,58 @@ const FULL = Float64Array.from({ length: 33 }, (_, k) => 2 ** k - 1);
  * reads past the chunk's end give zeros (the caller checks the position at the end).
  */
 class FastDecoder {
-  value = 0;
-  length = AC_MAX_LENGTH;
+  /**
+   * value, length: the coder's two unsigned 32-bit registers, in a typed array so V8 keeps them
+   * as machine words (as object fields above 2³⁰ they become boxed doubles).
+   */
+  readonly st = new Uint32Array(2);
   constructor(
     readonly b: Uint8Array,
     public pos: number,
   ) {
-    this.value = (((b[pos] | 0) << 24) | ((b[pos + 1] | 0) << 16) | ((b[pos + 2] | 0) << 8) | (b[pos + 3] | 0)) >>> 0;
+    this.st[0] = (b[pos] << 24) | (b[pos + 1] << 16) | (b[pos + 2] << 8) | b[pos + 3];
+    this.st[1] = AC_MAX_LENGTH;
     this.pos = pos + 4;
   }
   renorm() {
     const b = this.b;
-    let v = this.value;
-    let l = this.length;
+    const st = this.st;
+    let v = st[0];
+    let l = st[1];
+    let pos = this.pos;
     do {
-      v = ((v << 8) | (b[this.pos++] | 0)) >>> 0;
-      l = (l << 8) >>> 0;
-    } while (l < AC_MIN_LENGTH);
-    this.value = v;
-    this.length = l;
+      v = (v << 8) | b[pos++];
+      l = l << 8;
+    } while (l >>> 0 < AC_MIN_LENGTH);
+    this.pos = pos;
+    st[0] = v;
+    st[1] = l;
   }
   bit(m: BitModel): number {
-    const x = Math.imul(m.bit0Prob, this.length >>> BM_LENGTH_SHIFT) >>> 0;
+    const st = this.st;
+    const x = Math.imul(m.bit0Prob, st[1] >>> BM_LENGTH_SHIFT) >>> 0;
     let sym: number;
-    if (this.value < x) {
+    if (st[0] < x) {
       sym = 0;
-      this.length = x;
+      st[1] = x;
       ++m.bit0Count;
     } else {
       sym = 1;
-      this.value = (this.value - x) >>> 0;
-      this.length = (this.length - x) >>> 0;
+      st[0] = st[0] - x;
+      st[1] = st[1] - x;
     }
-    if (this.length < AC_MIN_LENGTH) this.renorm();
+    if (st[1] < AC_MIN_LENGTH) this.renorm();
     if (--m.bitsUntilUpdate === 0) m.update();
     return sym;
   }
   symbol(m: Model): number {
+    const st = this.st;
     const dist = m.distribution;
-    const value = this.value;
+    const value = st[0];
     let sym: number;
     let x: number;
-    let y = this.length;
-    const len = (this.length = this.length >>> DM_LENGTH_SHIFT);
+    let y = st[1];
+    const len = y >>> DM_LENGTH_SHIFT;
     const table = m.table;
     if (table) {
       const dv = (value / len) >>> 0;
@@ -250,9 +259,9 @@ class FastDecoder {
         }
       } while ((k = (sym + n) >>> 1) !== sym);
     }
-    this.value = (value - x) >>> 0;
-    this.length = (y - x) >>> 0;
-    if (this.length < AC_MIN_LENGTH) this.renorm();
+    st[0] = value - x;
+    const l = (st[1] = y - x);
+    if (l < AC_MIN_LENGTH) this.renorm();
     ++m.symbolCount[sym];
     if (--m.symbolsUntilUpdate === 0) m.update();
     return sym;
@@ -263,10 +272,13 @@ class FastDecoder {
       const hi = this.bits(n - 16);
       return ((hi << 16) | lo) >>> 0;
     }
-    this.length = this.length >>> n;
-    const sym = (this.value / this.length) >>> 0;
-    this.value = (this.value - Math.imul(this.length, sym)) >>> 0;
-    if (this.length < AC_MIN_LENGTH) this.renorm();
+    const st = this.st;
+    const len = st[1] >>> n;
+    const value = st[0];
+    const sym = (value / len) >>> 0;
+    st[0] = value - Math.imul(len, sym);
+    st[1] = len;
+    if (len < AC_MIN_LENGTH) this.renorm();
     return sym;
   }
   /** compressor.hpp decompress: pred + corrector, wrapped to the compressor's range. */
