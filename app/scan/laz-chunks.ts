@@ -9,7 +9,6 @@
 // test in ScanExtractor.add (widened by whole units), so the targets come out identical.
 // No file I/O here: the caller puts each chunk's bytes into the wasm heap.
 import { LasFormatError, type LasHeader } from "./las";
-import { decodePoint10Chunk } from "./laz-point10";
 
 type LazPerfModule = Awaited<ReturnType<typeof import("laz-perf").createLazPerf>>;
 let lazPerf: Promise<LazPerfModule> | null = null;
@@ -47,11 +46,9 @@ export function integerBoxes(lo: ArrayLike<number>, hi: ArrayLike<number>, heade
 export type ChunkNear = { points: number; near: Int32Array; count: number };
 
 /**
- * One thread's chunk decoder: an input buffer the size of the largest chunk, a block of decoded
- * records, and a growable buffer of the near points. Memory is bounded by one chunk whatever
- * the file's size. Files of POINT10 (+ GPSTIME11) version 2 items — LAS formats 0 and 1, as
- * point10Decodable() says — are decoded by the TypeScript port in laz-point10.ts (`js`), the
- * input then in a JavaScript buffer; all others by laz-perf's ChunkDecoder in its wasm heap.
+ * One laz-perf ChunkDecoder's worth of state on one thread: an input buffer the size of the
+ * largest chunk and a block of decoded records in the wasm heap, and a growable buffer of the
+ * near points. Memory is bounded by one chunk whatever the file's size.
  */
 export class LazChunkDecoder {
   static readonly BLOCK = 4096;
@@ -61,8 +58,6 @@ export class LazChunkDecoder {
   #inPtr = 0;
   readonly #outPtr: number;
   #near = new Int32Array(3 * 1024);
-  #jsIn = new Uint8Array(0);
-  #jsXyz = new Int32Array(0);
   // an X-bucket index of the boxes: a point is tested against the few boxes of its bucket
   readonly #x0: number;
   readonly #x1: number;
@@ -78,8 +73,6 @@ export class LazChunkDecoder {
     readonly recordLength: number,
     /** integerBoxes(); null keeps every point */
     readonly boxes: Float64Array | null,
-    /** decode with laz-point10.ts (only when point10Decodable() is true for the file) */
-    readonly js = false,
   ) {
     // records 4-byte aligned in the heap, so X, Y, Z read through one Int32Array
     this.stride = (recordLength + 3) & ~3;
@@ -116,15 +109,8 @@ export class LazChunkDecoder {
     this.#bItems = items;
   }
 
-  /**
-   * Where to put a chunk of `bytes` compressed bytes: at this offset of inputArray() (valid
-   * until the next call; take inputArray() after this, a malloc may grow the wasm heap).
-   */
+  /** Where to put a chunk of `bytes` compressed bytes (valid until the next call). */
   input(bytes: number): number {
-    if (this.js) {
-      if (this.#jsIn.length < bytes + LazChunkDecoder.PAD) this.#jsIn = new Uint8Array(bytes + LazChunkDecoder.PAD);
-      return 0;
-    }
     if (bytes + LazChunkDecoder.PAD > this.#inCap) {
       if (this.#inPtr) this.m._free(this.#inPtr);
       this.#inCap = bytes + LazChunkDecoder.PAD;
@@ -133,22 +119,11 @@ export class LazChunkDecoder {
     return this.#inPtr;
   }
 
-  inputArray(): Uint8Array {
-    return this.js ? this.#jsIn : this.m.HEAPU8;
-  }
-
   /**
-   * Decodes the chunk already put at input(bytes) (`ci` numbers it for errors). The answer's
-   * `near` is this decoder's buffer: read it before the next call.
+   * Decodes the chunk already in the heap at input(bytes) (`ci` numbers it for errors). The
+   * answer's `near` is this decoder's buffer: read it before the next call.
    */
   decode(points: number, bytes: number, ci: number): ChunkNear {
-    if (this.js) {
-      this.#jsIn.fill(0, bytes, bytes + LazChunkDecoder.PAD);
-      if (this.#jsXyz.length < 3 * points) this.#jsXyz = new Int32Array(3 * points);
-      decodePoint10Chunk(this.#jsIn, 0, bytes, points, this.pointFormat === 1, this.#jsXyz, ci);
-      const count = this.#keep(this.#jsXyz, 0, 3, points, 0); // before taking #near: it may grow
-      return { points, near: this.#near, count };
-    }
     const m = this.m;
     m.HEAPU8.fill(0, this.#inPtr + bytes, this.#inPtr + bytes + LazChunkDecoder.PAD);
     const dec = new m.ChunkDecoder();
@@ -160,63 +135,57 @@ export class LazChunkDecoder {
         throw new LasFormatError(`LAZ chunk ${ci + 1} cannot be decoded: ${e instanceof Error ? e.message : String(e)}`);
       }
       const stride = this.stride;
+      const w = stride >> 2;
+      const boxes = this.boxes;
       const { BLOCK } = LazChunkDecoder;
       for (let done = 0; done < points;) {
         const n = Math.min(BLOCK, points - done);
         for (let i = 0, p = this.#outPtr; i < n; i++, p += stride) dec.getPoint(p);
         // HEAP32 is replaced when the heap grows: take it after the decoding
-        count = this.#keep(m.HEAP32, this.#outPtr >> 2, this.stride >> 2, n, count);
+        const h = m.HEAP32;
+        let at = this.#outPtr >> 2;
+        if (!boxes) {
+          count = this.#ensure(count, n);
+          const near = this.#near;
+          for (let i = 0; i < n; i++, at += w) {
+            near[3 * count] = h[at];
+            near[3 * count + 1] = h[at + 1];
+            near[3 * count + 2] = h[at + 2];
+            count++;
+          }
+        } else {
+          const x0 = this.#x0,
+            x1 = this.#x1,
+            y0 = this.#y0,
+            y1 = this.#y1,
+            bw = this.#bucketW,
+            start = this.#bStart,
+            items = this.#bItems;
+          for (let i = 0; i < n; i++, at += w) {
+            const X = h[at];
+            const Y = h[at + 1];
+            if (X < x0 || X > x1 || Y < y0 || Y > y1) continue;
+            const b = Math.floor((X - x0) / bw);
+            const Z = h[at + 2];
+            for (let j = start[b], end = start[b + 1]; j < end; j++) {
+              const o = 6 * items[j];
+              if (X < boxes[o] || X > boxes[o + 1] || Y < boxes[o + 2] || Y > boxes[o + 3] || Z < boxes[o + 4] || Z > boxes[o + 5]) continue;
+              count = this.#ensure(count, 1);
+              const near = this.#near;
+              near[3 * count] = X;
+              near[3 * count + 1] = Y;
+              near[3 * count + 2] = Z;
+              count++;
+              break;
+            }
+          }
+        }
         done += n;
       }
     } finally {
       dec.delete();
     }
     return { points, near: this.#near, count };
-  }
-
-  /**
-   * Appends to the near buffer (from `count` on) the X, Y, Z of those of `n` records — each
-   * `w` int32 long from `h[at]`, X, Y, Z first — that lie in a box; answers the new count.
-   */
-  #keep(h: Int32Array, at: number, w: number, n: number, count: number): number {
-    const boxes = this.boxes;
-    if (!boxes) {
-      count = this.#ensure(count, n);
-      const near = this.#near;
-      for (let i = 0; i < n; i++, at += w) {
-        near[3 * count] = h[at];
-        near[3 * count + 1] = h[at + 1];
-        near[3 * count + 2] = h[at + 2];
-        count++;
-      }
-      return count;
-    }
-    const x0 = this.#x0,
-      x1 = this.#x1,
-      y0 = this.#y0,
-      y1 = this.#y1,
-      bw = this.#bucketW,
-      start = this.#bStart,
-      items = this.#bItems;
-    for (let i = 0; i < n; i++, at += w) {
-      const X = h[at];
-      const Y = h[at + 1];
-      if (X < x0 || X > x1 || Y < y0 || Y > y1) continue;
-      const b = Math.floor((X - x0) / bw);
-      const Z = h[at + 2];
-      for (let j = start[b], end = start[b + 1]; j < end; j++) {
-        const o = 6 * items[j];
-        if (X < boxes[o] || X > boxes[o + 1] || Y < boxes[o + 2] || Y > boxes[o + 3] || Z < boxes[o + 4] || Z > boxes[o + 5]) continue;
-        count = this.#ensure(count, 1);
-        const near = this.#near;
-        near[3 * count] = X;
-        near[3 * count + 1] = Y;
-        near[3 * count + 2] = Z;
-        count++;
-        break;
-      }
-    }
-    return count;
   }
 
   #ensure(count: number, more: number): number {

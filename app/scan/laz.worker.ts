@@ -8,16 +8,7 @@ import { LasFormatError } from "./las";
 import { LazChunkDecoder, lazPerfModule } from "./laz-chunks";
 import type { LazChunk } from "./laszip";
 
-export type LazTask = {
-  path: string;
-  pointFormat: number;
-  recordLength: number;
-  /** decode with the TypeScript POINT10 decoder (point10Decodable) */
-  point10: boolean;
-  boxes: Float64Array | null;
-  chunks: LazChunk[];
-  first: number;
-};
+export type LazTask = { path: string; pointFormat: number; recordLength: number; boxes: Float64Array | null; chunks: LazChunk[]; first: number };
 export type LazTaskAnswer = { chunks: { points: number; near: Int32Array }[] } | { error: string; format: boolean };
 
 export async function decodeChunks(task: LazTask): Promise<LazTaskAnswer> {
@@ -25,16 +16,15 @@ export async function decodeChunks(task: LazTask): Promise<LazTaskAnswer> {
     const m = await lazPerfModule();
     // an empty task only starts the thread and its module (warmScanPool)
     if (!task.chunks.length) return { chunks: [] };
-    const dec = new LazChunkDecoder(m, task.pointFormat, task.recordLength, task.boxes, task.point10);
+    const dec = new LazChunkDecoder(m, task.pointFormat, task.recordLength, task.boxes);
     const fd = openSync(task.path, "r");
     try {
       const out: { points: number; near: Int32Array }[] = [];
       for (const [i, c] of task.chunks.entries()) {
         const at = dec.input(c.bytes);
-        const into = dec.inputArray();
         for (let got = 0; got < c.bytes;) {
-          // straight into the decoder's input (nothing allocates there while the read runs)
-          const n = readSync(fd, into, at + got, c.bytes - got, c.offset + got);
+          // straight into the wasm heap (nothing allocates there while the read runs)
+          const n = readSync(fd, m.HEAPU8, at + got, c.bytes - got, c.offset + got);
           if (n === 0) throw new LasFormatError("the LAZ file ended early");
           got += n;
         }

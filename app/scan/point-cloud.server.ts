@@ -16,7 +16,6 @@ import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
 import { decodeXyz, HEADER_BYTES, LasFormatError, parseLasHeader, type LasHeader } from "./las";
 import { integerBoxes, LazChunkDecoder, lazPerfModule, scaleXyz } from "./laz-chunks";
-import { point10Decodable } from "./laz-point10";
 import { decodeChunkTable, findLaszipVlr, type LazChunk } from "./laszip";
 import type { LazTask, LazTaskAnswer } from "./laz.worker";
 import { lazWorkerUrl } from "./laz-worker-url.server";
@@ -38,11 +37,6 @@ export type ReadOptions = {
   near?: { lo: ArrayLike<number>; hi: ArrayLike<number> };
   /** LAZ worker threads; default SCAN_WORKERS or the machine's cores. 0 or 1: this thread. */
   threads?: number;
-  /**
-   * "laz-perf" decodes every LAZ with laz-perf (tests and the bench compare it with the
-   * default, which decodes formats 0 and 1 with app/scan/laz-point10.ts).
-   */
-  decoder?: "laz-perf";
 };
 
 export async function readPointCloud(path: string, origin: readonly [number, number, number], onBlock: OnBlock, opts: ReadOptions = {}): Promise<LasHeader> {
@@ -111,22 +105,20 @@ async function readLaz(path: string, fh: FileHandle, size: number, header: LasHe
   const chunks = decodeChunkTable(table, header, vlr, size);
 
   const boxes = opts.near ? integerBoxes(opts.near.lo, opts.near.hi, header, origin) : null;
-  const point10 = opts.decoder !== "laz-perf" && point10Decodable(vlr, header.pointFormat, header.recordLength);
   const threads = opts.threads ?? scanWorkerCount();
   const pool = boxes && threads > 1 && chunks.length >= MIN_CHUNKS_FOR_POOL ? lazPool(threads) : null;
   if (pool && boxes) {
-    await readLazPooled(pool, threads, path, header, point10, chunks, boxes, origin, onBlock);
+    await readLazPooled(pool, threads, path, header, chunks, boxes, origin, onBlock);
     return;
   }
   const m = await lazPerfModule();
-  const dec = new LazChunkDecoder(m, header.pointFormat, header.recordLength, boxes, point10);
+  const dec = new LazChunkDecoder(m, header.pointFormat, header.recordLength, boxes);
   let xyz = new Float64Array(3 * 4096);
   try {
     for (const [ci, chunk] of chunks.entries()) {
-      // straight into the decoder's input (the wasm heap for laz-perf; nothing allocates there
-      // while the read runs)
-      const at = dec.input(chunk.bytes); // before inputArray(): a malloc may grow the heap
-      await readAt(chunk.offset, chunk.bytes, dec.inputArray(), at);
+      // straight into the wasm heap (nothing allocates there while the read runs)
+      const at = dec.input(chunk.bytes); // before taking HEAPU8: a malloc may grow the heap
+      await readAt(chunk.offset, chunk.bytes, m.HEAPU8, at);
       const r = dec.decode(chunk.points, chunk.bytes, ci);
       if (xyz.length < 3 * r.count) xyz = new Float64Array(3 * r.count);
       scaleXyz(r.near, r.count, header, origin, xyz);
@@ -185,7 +177,7 @@ function lazPool(threads: number): Tinypool | null {
 export async function warmScanPool(threads = scanWorkerCount()): Promise<void> {
   const tp = threads > 1 ? lazPool(threads) : null;
   if (!tp) return;
-  const empty: LazTask = { path: "", pointFormat: 0, recordLength: 20, point10: false, boxes: null, chunks: [], first: 0 };
+  const empty: LazTask = { path: "", pointFormat: 0, recordLength: 20, boxes: null, chunks: [], first: 0 };
   await Promise.all(Array.from({ length: threads }, () => tp.run(empty, { name: "decodeChunks" })));
 }
 
@@ -203,10 +195,10 @@ export async function closeScanPool() {
   await Promise.all(all.map((tp) => tp.destroy()));
 }
 
-async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, point10: boolean, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
+async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
   const tasks: LazTask[] = [];
   for (let first = 0; first < chunks.length; first += CHUNKS_PER_TASK) {
-    tasks.push({ path, pointFormat: header.pointFormat, recordLength: header.recordLength, point10, boxes, chunks: chunks.slice(first, first + CHUNKS_PER_TASK), first });
+    tasks.push({ path, pointFormat: header.pointFormat, recordLength: header.recordLength, boxes, chunks: chunks.slice(first, first + CHUNKS_PER_TASK), first });
   }
   // a window of tasks in flight (two per thread keeps every thread busy); answers are taken in
   // task order, so the points reach onBlock in the file's order whichever thread ends first
