@@ -195,11 +195,32 @@ export async function closeScanPool() {
   await Promise.all(all.map((tp) => tp.destroy()));
 }
 
-async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
-  const tasks: LazTask[] = [];
-  for (let first = 0; first < chunks.length; first += CHUNKS_PER_TASK) {
-    tasks.push({ path, pointFormat: header.pointFormat, recordLength: header.recordLength, boxes, chunks: chunks.slice(first, first + CHUNKS_PER_TASK), first });
+/**
+ * The pool's tasks as [first chunk, chunk count] runs in file order: CHUNKS_PER_TASK chunks
+ * each, and, in a file long enough for it to matter (8 tasks a thread or more), one chunk each
+ * over the last two tasks a thread, so no thread sits idle while another ends a long task.
+ */
+export function lazTaskRuns(chunks: number, threads: number): [number, number][] {
+  const tail = chunks >= 8 * threads * CHUNKS_PER_TASK ? 2 * threads * CHUNKS_PER_TASK : 0;
+  const body = chunks - tail;
+  const runs: [number, number][] = [];
+  for (let first = 0; first < chunks;) {
+    const n = first < body ? Math.min(CHUNKS_PER_TASK, body - first) : 1;
+    runs.push([first, n]);
+    first += n;
   }
+  return runs;
+}
+
+async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
+  const tasks: LazTask[] = lazTaskRuns(chunks.length, threads).map(([first, n]) => ({
+    path,
+    pointFormat: header.pointFormat,
+    recordLength: header.recordLength,
+    boxes,
+    chunks: chunks.slice(first, first + n),
+    first,
+  }));
   // a window of tasks in flight (two per thread keeps every thread busy); answers are taken in
   // task order, so the points reach onBlock in the file's order whichever thread ends first
   const window = 2 * threads;

@@ -3,7 +3,7 @@ import { resolve } from "node:path";
 import { afterAll, expect, test } from "vitest";
 import { ScanExtractor } from "~/domain";
 import { integerBoxes } from "~/scan/laz-chunks";
-import { closeScanPool, readPointCloud, scanPoolCompleted } from "~/scan/point-cloud.server";
+import { closeScanPool, lazTaskRuns, readPointCloud, scanPoolCompleted } from "~/scan/point-cloud.server";
 import { lazFile } from "../support/laz-writer";
 import { boardPoints, boardTruth, clutter, rng, type Board, type V3 } from "../support/scan-fixtures";
 
@@ -110,5 +110,32 @@ test("integer boxes hold every point the exact test in metres keeps, at the edge
     }
     // and it is tight: a whole unit or two of slack, not metres
     expect(b[2 * j + 1] - b[2 * j]).toBeLessThanOrEqual(Math.round(0.6 / s) + 6);
+  }
+});
+
+test("the pool's tasks cover every chunk once, in order: four chunks a task, one a task at the end of a long file", () => {
+  for (const [chunks, threads] of [
+    [25, 2],
+    [63, 2],
+    [64, 2],
+    [549, 2],
+    [549, 8],
+    [1, 2],
+  ]) {
+    const runs = lazTaskRuns(chunks, threads);
+    let next = 0;
+    for (const [first, n] of runs) {
+      expect(first).toBe(next);
+      expect(n).toBeGreaterThanOrEqual(1);
+      expect(n).toBeLessThanOrEqual(4);
+      next += n;
+    }
+    expect(next).toBe(chunks);
+    if (chunks >= 8 * threads * 4) {
+      // the last 2 × threads × 4 chunks one a task, the chunks before them four a task
+      const tail = 2 * threads * 4;
+      expect(runs.slice(-tail).every(([, n]) => n === 1)).toBe(true);
+      expect(runs.length).toBe(Math.ceil((chunks - tail) / 4) + tail);
+    } else expect(runs.length).toBe(Math.ceil(chunks / 4));
   }
 });
