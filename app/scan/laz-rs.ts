@@ -32,19 +32,32 @@ export function lazRsModule(): Promise<LazRs | null> {
   return lazRs;
 }
 
+// one run file and one records buffer per thread, grown as needed (a task is ~1.5 MB of LAZ and
+// ~4 MB of records: new ones for every task only fed the garbage collector)
+let runBuf = new Uint8Array(0);
+let recBuf = new Uint8Array(0);
+
 /**
  * The small LAZ file of a run of consecutive chunks: `head` = the file's bytes up to its point
- * data (header and VLRs), `body` = the chunks' bytes. Answers the buffer to fill: its tail from
- * bodyAt on takes the chunks' bytes.
+ * data (header and VLRs). Answers the file (valid until the next call) and where in it the
+ * chunks' bytes go.
  */
 export function runFile(head: Uint8Array, points: number, bodyBytes: number): { file: Uint8Array; bodyAt: number } {
-  const file = new Uint8Array(head.length + 8 + bodyBytes);
+  const size = head.length + 8 + bodyBytes;
+  if (runBuf.length < size) runBuf = new Uint8Array(Math.ceil(size * 1.25));
+  const file = runBuf.subarray(0, size);
   file.set(head);
-  const dv = new DataView(file.buffer);
+  const dv = new DataView(file.buffer, file.byteOffset, file.byteLength);
   dv.setUint32(107, points, true); // legacy point count (LAS 1.2–1.3; 1.4 when it fits)
   if (head[25] >= 4 && head.length >= 255) dv.setBigUint64(247, BigInt(points), true);
   dv.setBigInt64(head.length, -1n, true); // no chunk table: read in order
   return { file, bodyAt: head.length + 8 };
+}
+
+/** A buffer for `bytes` of decoded records (valid until the next call). */
+export function recordsBuffer(bytes: number): Uint8Array {
+  if (recBuf.length < bytes) recBuf = new Uint8Array(Math.ceil(bytes * 1.25));
+  return recBuf.subarray(0, bytes);
 }
 
 /** Decodes every point of a run file into `out` (points × record length bytes). */

@@ -6,7 +6,7 @@
 import { closeSync, openSync, readSync } from "node:fs";
 import { LasFormatError } from "./las";
 import { LazChunkDecoder, lazPerfModule } from "./laz-chunks";
-import { decodeRun, lazRsModule, runFile } from "./laz-rs";
+import { decodeRun, lazRsModule, recordsBuffer, runFile } from "./laz-rs";
 import type { LazChunk } from "./laszip";
 
 export type LazTask = {
@@ -46,14 +46,14 @@ export async function decodeChunks(task: LazTask): Promise<LazTaskAnswer> {
           if (n === 0) throw new LasFormatError("the LAZ file ended early");
           got += n;
         }
-        const records = new Uint8Array(points * task.recordLength);
+        const records = recordsBuffer(points * task.recordLength);
         try {
           decodeRun(rs, file, records);
         } catch (e) {
           const which = task.chunks.length > 1 ? `chunks ${task.first + 1}–${task.first + task.chunks.length}` : `chunk ${task.first + 1}`;
           throw new LasFormatError(`LAZ ${which} cannot be decoded: ${e instanceof Error ? e.message : String(e)}`);
         }
-        const h = new Int32Array(records.buffer);
+        const h = new Int32Array(records.buffer, records.byteOffset, records.length >> 2);
         const w = task.recordLength >> 2;
         let at = 0;
         for (const c of task.chunks) {
