@@ -1,5 +1,5 @@
-// The batch LAZ decoder (issue 18): laz-rs (the LASzip format in Rust, T. Montaigu; MIT or
-// Apache-2.0) compiled to WebAssembly, as @loaders.gl/las ships it (dist/libs/laz-rs-wasm, a
+// The batch LAZ decoder (issue 18): laz-rs (the LASzip format in Rust, T. Montaigu and others)
+// compiled to WebAssembly, as @loaders.gl/las (MIT) ships it (dist/libs/laz-rs-wasm, a
 // file outside that package's exports, so it is found from the package's own path). Its
 // decompress_many decodes a run of points in one call, ~20 % more points per CPU-second than
 // laz-perf's one call per point on the bench's LAZ (docs/decisions/0008). It reads whole
