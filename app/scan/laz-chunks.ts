@@ -135,57 +135,69 @@ export class LazChunkDecoder {
         throw new LasFormatError(`LAZ chunk ${ci + 1} cannot be decoded: ${e instanceof Error ? e.message : String(e)}`);
       }
       const stride = this.stride;
-      const w = stride >> 2;
-      const boxes = this.boxes;
       const { BLOCK } = LazChunkDecoder;
       for (let done = 0; done < points;) {
         const n = Math.min(BLOCK, points - done);
         for (let i = 0, p = this.#outPtr; i < n; i++, p += stride) dec.getPoint(p);
         // HEAP32 is replaced when the heap grows: take it after the decoding
-        const h = m.HEAP32;
-        let at = this.#outPtr >> 2;
-        if (!boxes) {
-          count = this.#ensure(count, n);
-          const near = this.#near;
-          for (let i = 0; i < n; i++, at += w) {
-            near[3 * count] = h[at];
-            near[3 * count + 1] = h[at + 1];
-            near[3 * count + 2] = h[at + 2];
-            count++;
-          }
-        } else {
-          const x0 = this.#x0,
-            x1 = this.#x1,
-            y0 = this.#y0,
-            y1 = this.#y1,
-            bw = this.#bucketW,
-            start = this.#bStart,
-            items = this.#bItems;
-          for (let i = 0; i < n; i++, at += w) {
-            const X = h[at];
-            const Y = h[at + 1];
-            if (X < x0 || X > x1 || Y < y0 || Y > y1) continue;
-            const b = Math.floor((X - x0) / bw);
-            const Z = h[at + 2];
-            for (let j = start[b], end = start[b + 1]; j < end; j++) {
-              const o = 6 * items[j];
-              if (X < boxes[o] || X > boxes[o + 1] || Y < boxes[o + 2] || Y > boxes[o + 3] || Z < boxes[o + 4] || Z > boxes[o + 5]) continue;
-              count = this.#ensure(count, 1);
-              const near = this.#near;
-              near[3 * count] = X;
-              near[3 * count + 1] = Y;
-              near[3 * count + 2] = Z;
-              count++;
-              break;
-            }
-          }
-        }
+        count = this.#keep(m.HEAP32, this.#outPtr >> 2, this.stride >> 2, n, count);
         done += n;
       }
     } finally {
       dec.delete();
     }
     return { points, near: this.#near, count };
+  }
+
+  /**
+   * The near points of `n` records already decoded elsewhere (laz-rs): each `w` int32 long
+   * from `h[at]`, X, Y, Z first. The answer's `near` is this decoder's buffer, as decode's.
+   */
+  filter(h: Int32Array, at: number, w: number, n: number): ChunkNear {
+    const count = this.#keep(h, at, w, n, 0); // before taking #near: it may grow
+    return { points: n, near: this.#near, count };
+  }
+
+  /** Appends to the near buffer (from `count` on) the X, Y, Z of the records in a box. */
+  #keep(h: Int32Array, at: number, w: number, n: number, count: number): number {
+    const boxes = this.boxes;
+    if (!boxes) {
+      count = this.#ensure(count, n);
+      const near = this.#near;
+      for (let i = 0; i < n; i++, at += w) {
+        near[3 * count] = h[at];
+        near[3 * count + 1] = h[at + 1];
+        near[3 * count + 2] = h[at + 2];
+        count++;
+      }
+      return count;
+    }
+    const x0 = this.#x0,
+      x1 = this.#x1,
+      y0 = this.#y0,
+      y1 = this.#y1,
+      bw = this.#bucketW,
+      start = this.#bStart,
+      items = this.#bItems;
+    for (let i = 0; i < n; i++, at += w) {
+      const X = h[at];
+      const Y = h[at + 1];
+      if (X < x0 || X > x1 || Y < y0 || Y > y1) continue;
+      const b = Math.floor((X - x0) / bw);
+      const Z = h[at + 2];
+      for (let j = start[b], end = start[b + 1]; j < end; j++) {
+        const o = 6 * items[j];
+        if (X < boxes[o] || X > boxes[o + 1] || Y < boxes[o + 2] || Y > boxes[o + 3] || Z < boxes[o + 4] || Z > boxes[o + 5]) continue;
+        count = this.#ensure(count, 1);
+        const near = this.#near;
+        near[3 * count] = X;
+        near[3 * count + 1] = Y;
+        near[3 * count + 2] = Z;
+        count++;
+        break;
+      }
+    }
+    return count;
   }
 
   #ensure(count: number, more: number): number {

@@ -16,7 +16,7 @@ import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
 import { decodeXyz, HEADER_BYTES, LasFormatError, parseLasHeader, type LasHeader } from "./las";
 import { integerBoxes, LazChunkDecoder, lazPerfModule, scaleXyz } from "./laz-chunks";
-import { decodeChunkTable, findLaszipVlr, type LazChunk } from "./laszip";
+import { decodeChunkTable, findLaszipVlr, VARIABLE_CHUNK_SIZE, type LazChunk } from "./laszip";
 import type { LazTask, LazTaskAnswer } from "./laz.worker";
 import { lazWorkerUrl } from "./laz-worker-url.server";
 
@@ -37,6 +37,11 @@ export type ReadOptions = {
   near?: { lo: ArrayLike<number>; hi: ArrayLike<number> };
   /** LAZ worker threads; default SCAN_WORKERS or the machine's cores. 0 or 1: this thread. */
   threads?: number;
+  /**
+   * "laz-perf": the worker threads decode with laz-perf only, not laz-rs (app/scan/laz-rs.ts):
+   * for the bench's and tests' comparisons.
+   */
+  decoder?: "laz-perf";
 };
 
 export async function readPointCloud(path: string, origin: readonly [number, number, number], onBlock: OnBlock, opts: ReadOptions = {}): Promise<LasHeader> {
@@ -108,7 +113,9 @@ async function readLaz(path: string, fh: FileHandle, size: number, header: LasHe
   const threads = opts.threads ?? scanWorkerCount();
   const pool = boxes && threads > 1 && chunks.length >= MIN_CHUNKS_FOR_POOL ? lazPool(threads) : null;
   if (pool && boxes) {
-    await readLazPooled(pool, threads, path, header, chunks, boxes, origin, onBlock);
+    // fixed-size chunks can go to laz-rs as small files of their own: it needs the header
+    const head = vlr.chunkSize !== VARIABLE_CHUNK_SIZE && opts.decoder !== "laz-perf" ? await readAt(0, header.pointsOffset) : undefined;
+    await readLazPooled(pool, threads, path, header, head, chunks, boxes, origin, onBlock);
     return;
   }
   const m = await lazPerfModule();
@@ -181,6 +188,13 @@ export async function warmScanPool(threads = scanWorkerCount()): Promise<void> {
   await Promise.all(Array.from({ length: threads }, () => tp.run(empty, { name: "decodeChunks" })));
 }
 
+// tasks decoded by each decoder (tests check which one ran)
+const decodedBy = { "laz-rs": 0, "laz-perf": 0 };
+/** Tasks the LAZ threads decoded with laz-rs and with laz-perf since the process started. */
+export function scanPoolDecoders(): { "laz-rs": number; "laz-perf": number } {
+  return { ...decodedBy };
+}
+
 /** Tasks the LAZ threads have finished since the pool started (tests check the pool ran). */
 export function scanPoolCompleted(): number {
   let n = 0;
@@ -195,11 +209,33 @@ export async function closeScanPool() {
   await Promise.all(all.map((tp) => tp.destroy()));
 }
 
-async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
-  const tasks: LazTask[] = [];
-  for (let first = 0; first < chunks.length; first += CHUNKS_PER_TASK) {
-    tasks.push({ path, pointFormat: header.pointFormat, recordLength: header.recordLength, boxes, chunks: chunks.slice(first, first + CHUNKS_PER_TASK), first });
+/**
+ * The pool's tasks as [first chunk, chunk count] runs in file order: CHUNKS_PER_TASK chunks
+ * each, and, in a file long enough for it to matter (8 tasks a thread or more), one chunk each
+ * over the last two tasks a thread, so no thread sits idle while another ends a long task.
+ */
+export function lazTaskRuns(chunks: number, threads: number): [number, number][] {
+  const tail = chunks >= 8 * threads * CHUNKS_PER_TASK ? 2 * threads * CHUNKS_PER_TASK : 0;
+  const body = chunks - tail;
+  const runs: [number, number][] = [];
+  for (let first = 0; first < chunks;) {
+    const n = first < body ? Math.min(CHUNKS_PER_TASK, body - first) : 1;
+    runs.push([first, n]);
+    first += n;
   }
+  return runs;
+}
+
+async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, head: Uint8Array | undefined, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
+  const tasks: LazTask[] = lazTaskRuns(chunks.length, threads).map(([first, n]) => ({
+    path,
+    pointFormat: header.pointFormat,
+    recordLength: header.recordLength,
+    boxes,
+    chunks: chunks.slice(first, first + n),
+    first,
+    head,
+  }));
   // a window of tasks in flight (two per thread keeps every thread busy); answers are taken in
   // task order, so the points reach onBlock in the file's order whichever thread ends first
   const window = 2 * threads;
@@ -215,6 +251,7 @@ async function readLazPooled(tp: Tinypool, threads: number, path: string, header
       const answer = await inFlight.shift()!;
       submit();
       if ("error" in answer) throw answer.format ? new LasFormatError(answer.error) : new Error(answer.error);
+      if (answer.by) decodedBy[answer.by]++;
       for (const c of answer.chunks) {
         const count = c.near.length / 3;
         if (xyz.length < c.near.length) xyz = new Float64Array(c.near.length);

@@ -7,7 +7,7 @@ import { ScanExtractor } from "~/domain";
 import { closeScanPool, readPointCloud, scanWorkerCount, warmScanPool } from "~/scan/point-cloud.server";
 import { discard, receiveMultipart } from "~/utils/multipart.server";
 
-const [path, oText, centresText, fileName = "bench.las"] = process.argv.slice(2);
+const [path, oText, centresText, fileName = "bench.las", decoder] = process.argv.slice(2);
 const O = JSON.parse(oText) as [number, number, number];
 const centres = JSON.parse(centresText) as [number, number, number][];
 
@@ -44,7 +44,7 @@ const load0 = loadavg()[0];
 t = performance.now();
 // CPU time too: on a shared machine the wall time also counts other processes' turns
 const cpu0 = process.cpuUsage();
-await readPointCloud(form.files[0].path, O, (xyz, n, seen) => ex.add(xyz, n, seen), { near: ex.boxes() });
+await readPointCloud(form.files[0].path, O, (xyz, n, seen) => ex.add(xyz, n, seen), { near: ex.boxes(), decoder: decoder === "laz-perf" ? "laz-perf" : undefined });
 const extractS = (performance.now() - t) / 1000;
 const cpu = process.cpuUsage(cpu0);
 const extractCpuS = (cpu.user + cpu.system) / 1e6;

@@ -3,7 +3,7 @@ import { resolve } from "node:path";
 import { afterAll, expect, test } from "vitest";
 import { ScanExtractor } from "~/domain";
 import { integerBoxes } from "~/scan/laz-chunks";
-import { closeScanPool, readPointCloud, scanPoolCompleted } from "~/scan/point-cloud.server";
+import { closeScanPool, lazTaskRuns, readPointCloud, scanPoolCompleted, scanPoolDecoders } from "~/scan/point-cloud.server";
 import { lazFile } from "../support/laz-writer";
 import { boardPoints, boardTruth, clutter, rng, type Board, type V3 } from "../support/scan-fixtures";
 
@@ -111,4 +111,70 @@ test("integer boxes hold every point the exact test in metres keeps, at the edge
     // and it is tight: a whole unit or two of slack, not metres
     expect(b[2 * j + 1] - b[2 * j]).toBeLessThanOrEqual(Math.round(0.6 / s) + 6);
   }
+});
+
+test("the pool's tasks cover every chunk once, in order: four chunks a task, one a task at the end of a long file", () => {
+  for (const [chunks, threads] of [
+    [25, 2],
+    [63, 2],
+    [64, 2],
+    [549, 2],
+    [549, 8],
+    [1, 2],
+  ]) {
+    const runs = lazTaskRuns(chunks, threads);
+    let next = 0;
+    for (const [first, n] of runs) {
+      expect(first).toBe(next);
+      expect(n).toBeGreaterThanOrEqual(1);
+      expect(n).toBeLessThanOrEqual(4);
+      next += n;
+    }
+    expect(next).toBe(chunks);
+    if (chunks >= 8 * threads * 4) {
+      // the last 2 × threads × 4 chunks one a task, the chunks before them four a task
+      const tail = 2 * threads * 4;
+      expect(runs.slice(-tail).every(([, n]) => n === 1)).toBe(true);
+      expect(runs.length).toBe(Math.ceil((chunks - tail) / 4) + tail);
+    } else expect(runs.length).toBe(Math.ceil(chunks / 4));
+  }
+});
+
+test.each([0, 1] as const)("laz-rs on the worker threads (runs of chunks as small LAZ files) keeps exactly the points laz-perf keeps, in the same order (format %i)", async (pointFormat) => {
+  const pts: V3[] = [...clutter(O, [], 30_000, rng(9 + pointFormat)), ...boards.flatMap((b, i) => boardPoints(O, b, rng(60 + i)))];
+  const path = resolve(dir, `rs-${pointFormat}.laz`);
+  // 3 000-point chunks, the last one short
+  const tasks = Math.ceil(Math.ceil(pts.length / 3000) / 4);
+  expect(pts.length % 3000).not.toBe(0);
+  writeFileSync(path, lazFile(pts, { offset: [512_000, 6_350_000, 100], chunkSize: 3000, pointFormat }));
+  const read = async (decoder?: "laz-perf") => {
+    const ex = extractor();
+    const kept: number[] = [];
+    const seen: number[] = [];
+    const before = scanPoolDecoders();
+    await readPointCloud(
+      path,
+      O,
+      (xyz, n, s) => {
+        for (let i = 0; i < 3 * n; i++) kept.push(xyz[i]);
+        seen.push(s);
+        ex.add(xyz, n, s);
+      },
+      { near: ex.boxes(), threads: 2, decoder },
+    );
+    const after = scanPoolDecoders();
+    return { kept, seen, results: ex.results(), rs: after["laz-rs"] - before["laz-rs"], perf: after["laz-perf"] - before["laz-perf"] };
+  };
+  const perf = await read("laz-perf");
+  const rs = await read();
+  // each decoder did the tasks it was meant to
+  expect(perf.rs).toBe(0);
+  expect(perf.perf).toBe(tasks);
+  expect(rs.rs).toBe(tasks);
+  expect(rs.perf).toBe(0);
+  expect(rs.seen).toEqual(perf.seen);
+  expect(rs.seen.reduce((a, b) => a + b, 0)).toBe(pts.length);
+  expect(rs.kept.length).toBeGreaterThanOrEqual(3 * boards.length * 30 * 30);
+  expect(rs.kept).toEqual(perf.kept);
+  expect(rs.results).toEqual(perf.results);
 });

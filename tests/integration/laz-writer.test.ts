@@ -4,7 +4,8 @@ import { expect, test } from "vitest";
 import { createLazPerf } from "laz-perf";
 import { readPointCloud } from "~/scan/point-cloud.server";
 import { parseLasHeader } from "~/scan/las";
-import { lazFileFromRecords, point10Records, writeLazFile } from "../support/laz-writer";
+import { compressChunk } from "../support/laz-items";
+import { lazFileFromRecords, point10Records, shiftChunk, writeLazChunks, writeLazFile } from "../support/laz-writer";
 import { rng, type V3 } from "../support/scan-fixtures";
 
 // The test-only LAZ writer (tests/support/laz-writer.ts, ported from the LASzip encoder) proved
@@ -167,4 +168,39 @@ test("LAZ faults get specific errors: no LASzip record, no chunks, a chunk table
   const cut = good.subarray(0, Math.floor(good.length / 2));
   writeFileSync(resolve(dir, "cut.laz"), cut);
   await expect(readPointCloud(resolve(dir, "cut.laz"), [0, 0, 0], () => {})).rejects.toThrow(/chunk table offset points outside the file/);
+});
+
+test("shifted copies of compressed chunks (how the scan bench fills its file) decode, by laz-perf, to the records moved by the shifts", async () => {
+  const per = 1500;
+  const distinct = [busyRecords(per, 11), busyRecords(per, 12), busyRecords(per, 13)];
+  const compressed = distinct.map((r) => compressChunk(r, per, 0));
+  const r = rng(21);
+  const shifts: [number, number][] = Array.from({ length: 10 }, () => [Math.round((r.uniform() - 0.5) * 1e5), Math.round((r.uniform() - 0.5) * 1e5)]);
+  const path = resolve(dir, "copies.laz");
+  let copy = 0;
+  const info = writeLazChunks(
+    path,
+    { min: [0, 0, 0], max: [1, 1, 1] },
+    () => (copy < shifts.length ? { bytes: shiftChunk(compressed[copy % 3], ...shifts[copy++]), points: per } : null),
+    { offset: [512_000, 6_350_000, 100], chunkSize: per },
+  );
+  expect(info.points).toBe(10 * per);
+  const theirs = await lazPerfDecode(new Uint8Array(readFileSync(path)));
+  expect(theirs.count).toBe(10 * per);
+  const got = new DataView(theirs.out.buffer);
+  let bad = 0;
+  let moved = 0;
+  for (let c = 0; c < shifts.length; c++) {
+    const want = new DataView(distinct[c % 3].buffer);
+    for (let i = 0; i < per; i++) {
+      const at = 20 * (c * per + i);
+      // X and Y moved by the copy's shift, every other byte as written
+      if (got.getInt32(at, true) !== want.getInt32(20 * i, true) + shifts[c][0]) bad++;
+      if (got.getInt32(at + 4, true) !== want.getInt32(20 * i + 4, true) + shifts[c][1]) bad++;
+      for (let b = 8; b < 20; b++) if (got.getUint8(at + b) !== want.getUint8(20 * i + b)) bad++;
+      if (shifts[c][0] !== 0 && got.getInt32(at, true) !== want.getInt32(20 * i, true)) moved++;
+    }
+  }
+  expect(bad).toBe(0);
+  expect(moved).toBeGreaterThan(9 * per);
 });
