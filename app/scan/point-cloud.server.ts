@@ -226,7 +226,17 @@ export function lazTaskRuns(chunks: number, threads: number): [number, number][]
   return runs;
 }
 
-async function readLazPooled(tp: Tinypool, threads: number, path: string, header: LasHeader, head: Uint8Array | undefined, chunks: LazChunk[], boxes: Float64Array, origin: readonly [number, number, number], onBlock: OnBlock) {
+async function readLazPooled(
+  tp: Tinypool,
+  threads: number,
+  path: string,
+  header: LasHeader,
+  head: Uint8Array | undefined,
+  chunks: LazChunk[],
+  boxes: Float64Array,
+  origin: readonly [number, number, number],
+  onBlock: OnBlock,
+) {
   const tasks: LazTask[] = lazTaskRuns(chunks.length, threads).map(([first, n]) => ({
     path,
     pointFormat: header.pointFormat,

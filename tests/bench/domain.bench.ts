@@ -1,24 +1,15 @@
 // Bench of the ranging core: sensorReport over 100 000 synthetic shots (deterministic PRNG).
 // Run: npx tsx tests/bench/domain.bench.ts — or import { run } from a top-level bench runner.
 import { DEFAULT_RULE, sensorReport, type ReportShot, type SensorSpec } from "../../app/domain/index.ts";
+import { createRng } from "../../app/seed/builders.ts";
+
+const seededUniform = (seed: number) => createRng(seed).next;
 
 const SHOTS = 100_000;
 const RUNS = 7;
 
-/** mulberry32: small deterministic PRNG. */
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 export function buildShots(n = SHOTS, seed = 42): ReportShot[] {
-  const rnd = prng(seed);
+  const rnd = seededUniform(seed);
   const gauss = () => Math.sqrt(-2 * Math.log(1 - rnd())) * Math.cos(2 * Math.PI * rnd());
   const shots: ReportShot[] = new Array(n);
   const sessions = 200;

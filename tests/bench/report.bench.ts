@@ -12,11 +12,11 @@
 import { spawn, type ChildProcess } from "node:child_process";
 import { randomBytes } from "node:crypto";
 import { existsSync, mkdtempSync, readFileSync, rmSync } from "node:fs";
-import { createServer } from "node:net";
 import { loadavg, tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 import { pathToFileURL } from "node:url";
 import { target } from "./targets.ts";
+import { freePort } from "../support/ports.ts";
 
 const SHOTS = 100_000;
 const MILLION = 1_000_000;
@@ -28,17 +28,6 @@ const TARGETS = { firstMs: 300, repeatMs: 50, bytes: 50 * 1024, pageMs: 1500, mi
 
 const fmt = (n: number, d = 0) => n.toLocaleString("en-GB", { maximumFractionDigits: d, minimumFractionDigits: d });
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[xs.length >> 1]!;
-
-function freePort(): Promise<number> {
-  return new Promise((res, rej) => {
-    const s = createServer();
-    s.listen(0, "127.0.0.1", () => {
-      const p = (s.address() as { port: number }).port;
-      s.close(() => res(p));
-    });
-    s.on("error", rej);
-  });
-}
 
 /** Peak and current resident set of a process (Linux /proc), MB. */
 function rssOf(pid: number): { peakMb: number; nowMb: number } {

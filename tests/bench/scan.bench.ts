@@ -140,10 +140,10 @@ function measure(path: string, name: string, total: number, MB: number, O: V3, b
     ...(scanWorkers === "1" && name.endsWith(".laz")
       ? [`    (comparison with SCAN_WORKERS=1, not a target: the server decodes a LAZ on its worker pool by default)`]
       : decoder
-      ? [`    (comparison, not a target: the worker threads decode fixed-size chunks with laz-rs by default)`]
-      : [
-          target(`${kind} extraction ≥ 5 M points per wall-second (judged on wall time at load ${m.load.toFixed(1)})`, `${wall.toFixed(1)} M points/s`, wall >= 5),
-          target(`${kind} extraction peak RSS < 400 MB`, `${(m.maxRssKb / 1024).toFixed(0)} MB`, m.maxRssKb / 1024 < 400),
-        ]),
+        ? [`    (comparison, not a target: the worker threads decode fixed-size chunks with laz-rs by default)`]
+        : [
+            target(`${kind} extraction ≥ 5 M points per wall-second (judged on wall time at load ${m.load.toFixed(1)})`, `${wall.toFixed(1)} M points/s`, wall >= 5),
+            target(`${kind} extraction peak RSS < 400 MB`, `${(m.maxRssKb / 1024).toFixed(0)} MB`, m.maxRssKb / 1024 < 400),
+          ]),
   ];
 }

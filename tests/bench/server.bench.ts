@@ -15,11 +15,14 @@
 import { spawn, type ChildProcess } from "node:child_process";
 import { randomBytes } from "node:crypto";
 import { copyFileSync, existsSync, mkdtempSync, readFileSync, rmSync } from "node:fs";
-import { createServer } from "node:net";
 import { loadavg, tmpdir } from "node:os";
 import { join, resolve } from "node:path";
 import { pathToFileURL } from "node:url";
 import { fmt, quantile, target } from "./targets.ts";
+import { freePort } from "../support/ports.ts";
+import { createRng } from "../../app/seed/builders.ts";
+
+const seededUniform = (seed: number) => createRng(seed).next;
 
 const ROOT = resolve(import.meta.dirname, "../..");
 const PER_REQUEST = 500;
@@ -27,29 +30,6 @@ const INGEST_BATCHES = 10;
 const CLIENTS = 6;
 const LOAD_BASE = Number(process.env.BENCH_LOAD_BASE ?? 20_000);
 const LOAD_SECONDS = Number(process.env.BENCH_LOAD_SECONDS ?? 15);
-
-/** mulberry32: small deterministic PRNG. */
-function prng(seed: number) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
-async function freePort(): Promise<number> {
-  return new Promise((res, rej) => {
-    const s = createServer();
-    s.once("error", rej);
-    s.listen(0, "127.0.0.1", () => {
-      const a = s.address();
-      s.close(() => res(typeof a === "object" && a ? a.port : 0));
-    });
-  });
-}
 
 type World = { sensorId: string; siteId: string; targetIds: string[]; tapeId: string };
 
@@ -194,7 +174,7 @@ export async function run(): Promise<string[]> {
     const tape = await fx.makeTape();
     await fx.shareProject([sensor, loadSensor], [site], [crew], { tapeIds: [tape.id] }); // issue 14 (its tape too, or taped shots are refused)
     const w: World = { sensorId: sensor.id, siteId: site.id, targetIds: site.targets.map((t: { id: string }) => t.id), tapeId: tape.id };
-    const rnd = prng(7);
+    const rnd = seededUniform(7);
     await db.$client.execute("PRAGMA wal_checkpoint(TRUNCATE)");
     copyFileSync(join(dir, "bench.db"), join(dir, "start.db"));
     resetDb();
@@ -314,7 +294,7 @@ export async function run(): Promise<string[]> {
     let loadBatches = 0;
     const syncMs: number[] = [];
     const syncers = Array.from({ length: CLIENTS }, async (_, c) => {
-      const r = prng(100 + c);
+      const r = seededUniform(100 + c);
       while (!stop) {
         const body = makeBatch(lw, r, `bench-load-${c}`);
         const t0 = performance.now();

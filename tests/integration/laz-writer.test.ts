@@ -178,12 +178,10 @@ test("shifted copies of compressed chunks (how the scan bench fills its file) de
   const shifts: [number, number][] = Array.from({ length: 10 }, () => [Math.round((r.uniform() - 0.5) * 1e5), Math.round((r.uniform() - 0.5) * 1e5)]);
   const path = resolve(dir, "copies.laz");
   let copy = 0;
-  const info = writeLazChunks(
-    path,
-    { min: [0, 0, 0], max: [1, 1, 1] },
-    () => (copy < shifts.length ? { bytes: shiftChunk(compressed[copy % 3], ...shifts[copy++]), points: per } : null),
-    { offset: [512_000, 6_350_000, 100], chunkSize: per },
-  );
+  const info = writeLazChunks(path, { min: [0, 0, 0], max: [1, 1, 1] }, () => (copy < shifts.length ? { bytes: shiftChunk(compressed[copy % 3], ...shifts[copy++]), points: per } : null), {
+    offset: [512_000, 6_350_000, 100],
+    chunkSize: per,
+  });
   expect(info.points).toBe(10 * per);
   const theirs = await lazPerfDecode(new Uint8Array(readFileSync(path)));
   expect(theirs.count).toBe(10 * per);

@@ -5,6 +5,10 @@
 // left out, array holes and nulls written as null, every scalar as JSON.stringify writes it.
 import { expect, test } from "vitest";
 import { canonicalJson, validateShot } from "~/contract/sync";
+import { createRng } from "~/seed/builders";
+
+/** mulberry32, the seed builders' PRNG */
+const seededUniform = (seed: number) => createRng(seed).next;
 
 function reference(v: unknown): string | undefined {
   if (v === null || v === undefined) return undefined;
@@ -26,18 +30,6 @@ function reference(v: unknown): string | undefined {
   return out + "}";
 }
 const expected = (v: unknown) => reference(v) ?? "null";
-
-/** mulberry32: small deterministic PRNG. */
-function prng(seed: number) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 const KEYS = ["id", "b", "a", "Z", "é", "10", "9", "0", "01", "__proto__", "constructor", "", "readings", "rangesM", "x y", '"q"'];
 const STRINGS = ["", "plain", 'with "quotes"', "back\\slash", "line\nbreak", "tab\t", "\u2028\u2029", "ünïcödé", "😀", "\ud800", "</script>"];
@@ -72,7 +64,7 @@ function randomValue(rnd: () => number, depth: number): unknown {
 }
 
 test("canonicalJson writes the same text as the plain definition for 20 000 random values", () => {
-  const rnd = prng(42);
+  const rnd = seededUniform(42);
   for (let i = 0; i < 20_000; i++) {
     const v = randomValue(rnd, 0);
     expect(canonicalJson(v), JSON.stringify(v)).toBe(expected(v));

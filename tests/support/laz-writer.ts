@@ -109,7 +109,12 @@ export function writeLazFile(path: string, bounds: { min: V3; max: V3 }, next: (
  * yields until it returns null (it is told the bytes written so far), then the chunk table and
  * the header's counts. Memory: one chunk at a time.
  */
-export function writeLazChunks(path: string, bounds: { min: V3; max: V3 }, next: (bytesSoFar: number) => { bytes: Uint8Array; points: number } | null, o: LazOptions = {}): { points: number; bytes: number } {
+export function writeLazChunks(
+  path: string,
+  bounds: { min: V3; max: V3 },
+  next: (bytesSoFar: number) => { bytes: Uint8Array; points: number } | null,
+  o: LazOptions = {},
+): { points: number; bytes: number } {
   const fd = openSync(path, "w");
   try {
     const head = lazHeader(0, bounds, o);
