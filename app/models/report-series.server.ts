@@ -33,6 +33,7 @@ import { queryKey } from "./report-selection.server";
 import { readState } from "./report-state.server";
 import { canSeeProject, canSeeSensor, projectColInScope, scopeOf, sessionIdInScope, visibleSessionIds, type Scope } from "./scope.server";
 import { periodWhere, type QueryError } from "./shot-query.server";
+import { keptByFingerprint } from "./kept-by-fingerprint.server";
 
 export type FlaggedRow = { id: string; errorMm: number; limitMm: number; within: boolean; excluded: false; flags: ShotFlag[] };
 
@@ -120,37 +121,22 @@ export async function reportSeries(actor: Actor, sensorId: string, params: URLSe
   const state = await readState(db, sensorId, q.projectId, projectIds);
   const sensor = state.sensor ? { a: state.sensor.toleranceMm, b: state.sensor.tolerancePpm } : null;
   if (!sensor) return { status: 404, body: { error: `No sensor ${sensorId}.` } };
-  const kept = keptOf(db);
   const key = JSON.stringify([queryKey(sensorId, q, projectIds), rule, sizes.bins ?? null, sizes.perBin ?? null, sizes.maxNotable ?? null]);
-  const hit = kept.get(key);
-  if (hit && hit.fingerprint === state.fingerprint) {
-    kept.delete(key);
-    kept.set(key, hit);
-    return { status: 200, body: hit.body };
-  }
+  const hit = kept.get(db, key, state.fingerprint);
+  if (hit) return { status: 200, body: hit };
   const body = await seriesOf(db, scope, sensorId, q, rule, sensor, sizes);
-  kept.delete(key);
-  kept.set(key, { fingerprint: state.fingerprint, body });
-  if (kept.size > KEPT_MAX) kept.delete(kept.keys().next().value!);
+  kept.set(db, key, state.fingerprint, body);
   return { status: 200, body };
 }
 
 // issue 16 (v16): series kept per query and reader's projects while the report's fingerprint
 // holds (any insert, exclusion, restore, recomputation, rule or sensor edit changes it); about
 // 40 KB each, the oldest dropped first.
-type Kept = { fingerprint: string; body: ReportSeriesJson };
-const KEPT_MAX = 100;
-const keptByDb = new WeakMap<Db, Map<string, Kept>>();
-
-function keptOf(db: Db): Map<string, Kept> {
-  let m = keptByDb.get(db);
-  if (!m) keptByDb.set(db, (m = new Map()));
-  return m;
-}
+const kept = keptByFingerprint<ReportSeriesJson>(100);
 
 /** Forgets the series this process keeps for the database (tests and the bench; never needed for correctness). */
 export function clearSeriesCache(db: Db = getDb()) {
-  keptByDb.delete(db);
+  kept.clear(db);
 }
 
 async function seriesOf(

@@ -28,6 +28,7 @@ import { checkedQuery, queryKey, selectionWhere, type ProjectFilter, type Report
 import { readState } from "./report-state.server";
 import { groupsOf, usesQuery, type SumsInput } from "./report-sums.server";
 import { readSumsOffThread } from "./report-pool.server";
+import { keptByFingerprint } from "./kept-by-fingerprint.server";
 
 export type { ReportQuery, ProjectFilter } from "./report-selection.server";
 export { parseReportQuery } from "./report-selection.server";
@@ -48,19 +49,12 @@ export type SensorSummary = {
 // ---------------------------------------------------------------------------------------------
 // Computed reports without rows, kept per query while their fingerprint holds (a few KB each).
 
-type Kept = { fingerprint: string; built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
-const KEPT_MAX = 500;
-const keptByDb = new WeakMap<Db, Map<string, Kept>>();
-
-function keptOf(db: Db): Map<string, Kept> {
-  let m = keptByDb.get(db);
-  if (!m) keptByDb.set(db, (m = new Map()));
-  return m;
-}
+type Kept = { built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
+const kept = keptByFingerprint<Kept>(500);
 
 /** Forgets the reports this process keeps for the database (tests and the bench; never needed for correctness). */
 export function clearReportCache(db: Db = getDb()) {
-  keptByDb.delete(db);
+  kept.clear(db);
 }
 
 type Built = {
@@ -111,14 +105,9 @@ async function report(
     return { built: { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, defaulted, trace, rows), sensor, rule, details: list }, kept: null };
   }
 
-  const kept = keptOf(db);
   const key = queryKey(sensorId, q, projectIds);
-  const hit = kept.get(key);
-  if (hit && hit.fingerprint === state.fingerprint) {
-    kept.delete(key);
-    kept.set(key, hit);
-    return { built: hit.built, kept: hit };
-  }
+  const hit = kept.get(db, key, state.fingerprint);
+  if (hit) return { built: hit.built, kept: hit };
   const sumsInput: SumsInput = { sensorId, q, projectIds, tolerance: { toleranceMm: row.toleranceMm, tolerancePpm: row.tolerancePpm }, rule };
   const { groupRows, order, sessions: ses, uses } = await readSumsOffThread(db, sumsInput);
   const startedAt = new Map(ses.map((s) => [s.id, s.startedAt] as const));
@@ -132,10 +121,8 @@ async function report(
   }
   const trace = traceabilityOf(row, inSelection, uses, state.tapeCerts, state.edmCerts);
   const built: Built = { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, defaulted, trace, null), sensor, rule, details: [] };
-  const entry: Kept = { fingerprint: state.fingerprint, built, json: null };
-  kept.delete(key);
-  kept.set(key, entry);
-  if (kept.size > KEPT_MAX) kept.delete(kept.keys().next().value!);
+  const entry: Kept = { built, json: null };
+  kept.set(db, key, state.fingerprint, entry);
   return { built, kept: entry };
 }
 

@@ -8,6 +8,7 @@ import { mkdtempSync, readFileSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { seed } from "./report.bench.ts";
+import { step } from "./targets.ts";
 
 const n = Number(process.argv[2] ?? 100_000);
 // PROFILE_DIR=<dir>: a database the bench or a previous run seeded there (bench.db), read as it is
@@ -37,14 +38,6 @@ const { eq } = await import("drizzle-orm");
 const db = getDb();
 await prepareConnection(db);
 
-async function step<T>(what: string, f: () => Promise<T> | T): Promise<T> {
-  const c = process.cpuUsage();
-  const t = performance.now();
-  const v = await f();
-  const cpu = process.cpuUsage(c);
-  console.log(`${what.padEnd(44)} ${(performance.now() - t).toFixed(1).padStart(8)} ms wall ${((cpu.user + cpu.system) / 1000).toFixed(1).padStart(8)} ms CPU`);
-  return v;
-}
 const where = selectionWhere(db, sensorId, {}, null);
 const [sensorRow] = await db.select().from(sensors).where(eq(sensors.id, sensorId));
 const spec = sensorSpecOf(sensorRow!);

@@ -10,6 +10,7 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { Session } from "node:inspector/promises";
 import { seed } from "./report.bench.ts";
+import { step } from "./targets.ts";
 
 const n = Number(process.argv[2] ?? 100_000);
 const dir = mkdtempSync(join(tmpdir(), "shotbook-series-profile-"));
@@ -29,14 +30,6 @@ const series = await import("~/models/report-series.server");
 const db = getDb();
 await prepareConnection(db);
 
-async function step<T>(what: string, f: () => Promise<T> | T): Promise<T> {
-  const c = process.cpuUsage();
-  const t = performance.now();
-  const v = await f();
-  const cpu = process.cpuUsage(c);
-  console.log(`${what.padEnd(44)} ${(performance.now() - t).toFixed(1).padStart(8)} ms wall ${((cpu.user + cpu.system) / 1000).toFixed(1).padStart(8)} ms CPU`);
-  return v;
-}
 const admin = { id: adminId, role: "admin" as const };
 const qa = { id: qaId, role: "qa" as const };
 const none = new URLSearchParams();

@@ -19,3 +19,13 @@ export function quantile(sorted: number[], p: number): number {
   const lo = Math.floor(h);
   return sorted[lo]! + (h - lo) * ((sorted[Math.min(lo + 1, sorted.length - 1)] ?? sorted[lo]!) - sorted[lo]!);
 }
+
+/** Runs one step of a profile script and prints its wall and CPU time. */
+export async function step<T>(what: string, f: () => Promise<T> | T): Promise<T> {
+  const c = process.cpuUsage();
+  const t = performance.now();
+  const v = await f();
+  const cpu = process.cpuUsage(c);
+  console.log(`${what.padEnd(44)} ${(performance.now() - t).toFixed(1).padStart(8)} ms wall ${((cpu.user + cpu.system) / 1000).toFixed(1).padStart(8)} ms CPU`);
+  return v;
+}
