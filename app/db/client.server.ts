@@ -29,6 +29,16 @@ export function openDb(url: string, authToken?: string): Db {
   return drizzle(client, { schema }) as Db;
 }
 
+/**
+ * WAL checkpoints off the request path (issue 16, docs/decisions/0011). SQLite's automatic
+ * checkpoint runs inside the COMMIT of whichever connection passes 1,000 WAL pages: on the
+ * sync worker that is a sync's answer waiting for it. On the production server a report worker
+ * thread checkpoints instead, after syncs and every few seconds (report-pool.server.ts); the
+ * sync workers' write transactions keep an automatic checkpoint only as a safety net at this
+ * many pages (about 40 MB of WAL), should that thread not run (sync-write.server.ts).
+ */
+export const DEFERRED_AUTOCHECKPOINT_PAGES = 10_000;
+
 export async function prepareConnection(d: Db) {
   // WAL lets readers go on while the sync action writes; busy_timeout waits out short locks.
   const url = getEnv().DATABASE_URL;

@@ -15,7 +15,7 @@ import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
 import { getDb, isSharedFile, type Db } from "~/db/client.server";
 import { getEnv } from "~/env.server";
-import { readSums, type Sums, type SumsInput } from "./report-sums.server";
+import { buildReportJson, type BuildInput } from "./report-build.server";
 import { reportWorkerUrl } from "./report-worker-url.server";
 
 let pool: Tinypool | null | undefined;
@@ -52,6 +52,9 @@ export function reportPool(): Tinypool | null {
     // start-up); the built chunk is JavaScript, and from the sources the .mjs above registers tsx
     execArgv: [],
   });
+  // decision 0011: this pool checkpoints the WAL (the sync workers learn it from checkpointsOnReportPool when they start)
+  checkpointTimer = setInterval(checkpointSoon, CHECKPOINT_EVERY_MS);
+  checkpointTimer.unref();
   // the first report after a start should not also pay for the thread's modules, connection and
   // first statements; the server entry waits for this before it listens (startReportPool)
   const p = pool;
@@ -59,17 +62,73 @@ export function reportPool(): Tinypool | null {
   return pool;
 }
 
-/** The report's sums: on the pool for the server's own database, else here. */
-export async function readSumsOffThread(db: Db, input: SumsInput): Promise<Sums> {
+/** The report without rows as JSON bytes (report-build.server.ts): on the pool for the server's own database, else here. */
+export async function buildReportJsonOffThread(db: Db, input: BuildInput): Promise<Uint8Array<ArrayBuffer>> {
   const p = db === getDb() ? reportPool() : null;
-  if (!p) return readSums(db, input);
-  return (await p.run(input, { name: "reportSums" })) as Sums;
+  if (!p) return buildReportJson(db, input);
+  return (await p.run(input, { name: "reportJson" })) as Uint8Array<ArrayBuffer>;
+}
+
+/** Whether this process's report threads checkpoint the WAL (decision 0011): then the sync workers' commits leave it to them. */
+export function checkpointsOnReportPool(): boolean {
+  return !!reportPool();
+}
+
+/** Between two checkpoints at least this long: a tablet's outbox arriving batch after batch is checkpointed every few batches. */
+export const CHECKPOINT_GAP_MS = 200;
+/** And at least this often, for the writes of the request thread (forms, sign-ins, audit; its connections keep SQLite's own checkpoint too). */
+export const CHECKPOINT_EVERY_MS = 5_000;
+let checkpointTimer: ReturnType<typeof setInterval> | undefined;
+let checkpointing: Promise<void> | null = null;
+let checkpointAgain = false;
+let lastCheckpointAt = 0;
+/** What the checkpoints of this process did so far (tests, the bench): how many ran, and the WAL as the last one left it. */
+const checkpoints = { runs: 0, failed: 0, last: null as null | { busy: number; walPages: number; checkpointed: number } };
+export const checkpointStats = () => ({ ...checkpoints });
+/** Settles when no checkpoint is running or queued. */
+export const checkpointsSettled = async () => {
+  while (checkpointing) await checkpointing;
+};
+
+/**
+ * A checkpoint of the WAL on a report thread, soon (decision 0011): called after each sync the
+ * sync workers wrote. One runs at a time, at most one more is queued behind it, and two are at
+ * least CHECKPOINT_GAP_MS apart; a failure is logged (the next one copies what this one left).
+ */
+export function checkpointSoon(): void {
+  const p = pool;
+  if (!p) return;
+  if (checkpointing) {
+    checkpointAgain = true;
+    return;
+  }
+  checkpointing = (async () => {
+    do {
+      checkpointAgain = false;
+      const wait = lastCheckpointAt + CHECKPOINT_GAP_MS - Date.now();
+      if (wait > 0) await new Promise((r) => setTimeout(r, wait));
+      if (pool !== p) break;
+      try {
+        checkpoints.last = (await p.run(null, { name: "checkpoint" })) as typeof checkpoints.last;
+        checkpoints.runs++;
+      } catch (e) {
+        checkpoints.failed++;
+        console.error("report: a WAL checkpoint failed", e);
+      }
+      lastCheckpointAt = Date.now();
+    } while (checkpointAgain);
+  })().finally(() => {
+    checkpointing = null;
+  });
 }
 
 /** For tests and shutdown: stop the threads; the next use starts them again. */
 export async function closeReportPool() {
   const p = pool;
   pool = undefined;
+  clearInterval(checkpointTimer);
+  checkpointTimer = undefined;
+  await checkpointing;
   await p?.destroy();
 }
 

@@ -4,5 +4,6 @@ import { register } from "tsx/esm/api";
 
 register();
 const worker = await import("./report.worker.ts");
-export const reportSums = worker.reportSums;
+export const reportJson = worker.reportJson;
 export const warm = worker.warm;
+export const checkpoint = worker.checkpoint;

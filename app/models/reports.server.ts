@@ -16,7 +16,7 @@
 import { and, asc, desc, eq, isNull, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { projects, projectSensors, sensors, shots } from "~/db/schema";
-import { DEFAULT_RULE, reportFromAggregates, reportRows, aggregateShots, type ReportShot, type ReportShotRow, type Rule, type SensorReport } from "~/domain";
+import { reportFromAggregates, reportRows, aggregateShots, type ReportShot, type ReportShotRow, type Rule, type SensorReport } from "~/domain";
 import { appErrorOf } from "~/contract/errors";
 import type { Actor } from "./actor";
 import { scopeOf } from "./scope.server";
@@ -26,8 +26,9 @@ import { toJson, traceabilityOf, type SensorReportJson, type SensorReportSummary
 import { loadReportShots, type LoadedShot } from "./report-rows.server";
 import { checkedQuery, queryKey, selectionWhere, type ProjectFilter, type ReportQuery } from "./report-selection.server";
 import { readState } from "./report-state.server";
-import { groupsOf, usesQuery, type SumsInput } from "./report-sums.server";
-import { readSumsOffThread } from "./report-pool.server";
+import { usesQuery } from "./report-sums.server";
+import { buildReportJsonOffThread } from "./report-pool.server";
+import { warmDomain } from "./report-build.server";
 import { keptByFingerprint } from "./kept-by-fingerprint.server";
 
 export type { ReportQuery, ProjectFilter } from "./report-selection.server";
@@ -108,20 +109,17 @@ async function report(
   const key = queryKey(sensorId, q, projectIds);
   const hit = kept.get(db, key, state.fingerprint);
   if (hit) return { built: hit.built, kept: hit };
-  const sumsInput: SumsInput = { sensorId, q, projectIds, tolerance: { toleranceMm: row.toleranceMm, tolerancePpm: row.tolerancePpm }, rule };
-  const { groupRows, order, sessions: ses, uses } = await readSumsOffThread(db, sumsInput);
-  const startedAt = new Map(ses.map((s) => [s.id, s.startedAt] as const));
-  const { groups, kE, kD } = groupsOf(groupRows, startedAt);
-  const { failed: _failed, shots: _rows, outlier: _outlier, ...r } = reportFromAggregates({ sensor: spec, rule, aggregates: { kE, kD, groups, order }, lastSignedOffBiasMm: state.lastBias });
-  const inSelection = new Map<string, string>();
-  const defaulted = new Set<string>();
-  for (const g of groups) {
-    inSelection.set(g.sessionId, g.sessionStartedAt);
-    if (g.airDefaulted && !g.excluded) defaulted.add(g.sessionId);
-  }
-  const trace = traceabilityOf(row, inSelection, uses, state.tapeCerts, state.edmCerts);
-  const built: Built = { status: 200, body: toJson(sensorId, rule, ruleProjectId, r, defaulted, trace, null), sensor, rule, details: [] };
-  const entry: Kept = { built, json: null };
+  // decision 0011: read, computed and written as JSON on a report thread; parsed here (a few KB)
+  const json = await buildReportJsonOffThread(db, {
+    sums: { sensorId, q, projectIds, tolerance: { toleranceMm: row.toleranceMm, tolerancePpm: row.tolerancePpm }, rule },
+    sensor: row,
+    ruleProjectId,
+    lastBias: state.lastBias,
+    tapeCerts: state.tapeCerts,
+    edmCerts: state.edmCerts,
+  });
+  const built: Built = { status: 200, body: JSON.parse(decoder.decode(json)) as Built["body"], sensor, rule, details: [] };
+  const entry: Kept = { built, json };
   kept.set(db, key, state.fingerprint, entry);
   return { built, kept: entry };
 }
@@ -139,11 +137,7 @@ function sensorReportOf(spec: ReturnType<typeof sensorSpecOf>, rule: Rule, list:
  */
 export async function warmReports(db: Db = getDb()): Promise<void> {
   await readState(db, "", undefined, null);
-  const spec = { id: "warm", kind: "pulsed" as const, wavelengthNm: 905, modulationHz: [], appliesAirCorrection: true, assumedRefractivity: 0, toleranceMm: 5, tolerancePpm: 10, outdoor: true };
-  const group = { sessionId: "warm", sessionStartedAt: "2026-01-01T00:00:00Z", excluded: false, reflectance: 1, illuminance: 1, rangeBand: 1 };
-  const sums = { n: 3, within: 3, s1: 0, s2: 2, sq: 5, d1: 0, d2: 8, de: 1, sumD: 60, sumU2: 3, unknownU: 0, maxAbs: 2, sun: false, airDefaulted: false };
-  const r = reportFromAggregates({ sensor: spec, rule: DEFAULT_RULE, aggregates: { kE: 1, kD: 20, groups: [{ ...group, ...sums }], order: { n: 3, median: 1, mad: 1, p95Abs: 2 } } });
-  JSON.stringify(toJson("warm", DEFAULT_RULE, null, r, new Set(), [], null));
+  warmDomain();
 }
 
 const filterOf = async (actor: Actor, db: Db): Promise<ProjectFilter> => {
@@ -182,6 +176,7 @@ export async function computeSensorReport(
 }
 
 const encoder = new TextEncoder();
+const decoder = new TextDecoder();
 
 /**
  * GET /api/sensors/:sensorId/report: the report as JSON bytes; the per-shot rows only with

@@ -12,6 +12,7 @@ import { DatabaseUnavailable } from "~/db/transient.server";
 import { getEnv } from "~/env.server";
 import type { Actor } from "./actor";
 import { syncPool } from "./sync-pool.server";
+import { checkpointSoon } from "./report-pool.server";
 import { ingestSync } from "./sync.server";
 
 /** The answer as it goes out: its body already serialised (and compressed when `Content-Encoding` says so). */
@@ -79,9 +80,12 @@ export async function answerSync(actor: Actor, bytes: Uint8Array<ArrayBuffer>, a
   const pool = syncPool();
   if (!pool || !isSharedFile(getEnv().DATABASE_URL)) return answerSyncBytes(actor, bytes, false);
   const whole = bytes.byteOffset === 0 && bytes.byteLength === bytes.buffer.byteLength;
-  return (await pool.run(
+  const answer = (await pool.run(
     { actor: { id: actor.id, role: actor.role }, bytes, gzip: acceptsGzip(acceptEncoding) },
     // the body's buffer moves to the worker instead of being copied
     { name: "ingest", transferList: whole ? [bytes.buffer] : [] },
   )) as SyncAnswer;
+  // decision 0011: what this sync committed is copied into the database file on a report thread
+  if (answer.status === 200) checkpointSoon();
+  return answer;
 }

@@ -12,6 +12,10 @@ import { availableParallelism } from "node:os";
 import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
 import { syncWorkerUrl } from "./sync-worker-url.server";
+import { checkpointsOnReportPool } from "./report-pool.server";
+
+/** Set in a sync worker's environment when the report threads checkpoint the WAL (decision 0011). */
+export const DEFER_CHECKPOINTS_ENV = "SHOTBOOK_DEFER_CHECKPOINTS";
 
 let pool: Tinypool | null | undefined;
 
@@ -46,6 +50,8 @@ export function syncPool(): Tinypool | null {
     // every module the thread loads through its hooks thread (measured: most of a thread's
     // start-up); the built chunk is JavaScript, and from the sources the .mjs above registers tsx
     execArgv: [],
+    // decision 0011: the WAL is checkpointed on a report thread, not inside this pool's commits
+    env: { ...(process.env as Record<string, string>), [DEFER_CHECKPOINTS_ENV]: checkpointsOnReportPool() ? "1" : "" },
   });
   return pool;
 }

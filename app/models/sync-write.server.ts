@@ -5,7 +5,7 @@
 import { getTableColumns, getTableName, type InferInsertModel } from "drizzle-orm";
 import type { SQLiteTable } from "drizzle-orm/sqlite-core";
 import type { ResultSet } from "@libsql/client";
-import { getDb, isSharedFile, type Db } from "~/db/client.server";
+import { DEFERRED_AUTOCHECKPOINT_PAGES, getDb, isSharedFile, type Db } from "~/db/client.server";
 import { getEnv } from "~/env.server";
 import { isTransientDbError } from "~/db/transient.server";
 import { checkSessions, shots } from "~/db/schema";
@@ -120,7 +120,26 @@ export async function writeBatch(db: Db, stmts: Stmt[]): Promise<WriteResult[]> 
       throw e instanceof Error ? e : new Error(String(e));
     }
   }
-  return db.$client.batch(stmts, "write");
+  return commitStatements(db, stmts);
+}
+
+let deferCheckpointsHere = false;
+/** Whether this thread's write transactions leave WAL checkpoints to a report thread (decision 0011; the sync worker sets it). */
+export function deferCheckpointsOnThisThread(on: boolean) {
+  deferCheckpointsHere = on;
+}
+const DEFER: Stmt = { sql: `PRAGMA wal_autocheckpoint = ${DEFERRED_AUTOCHECKPOINT_PAGES}`, args: [] };
+
+/**
+ * One write transaction of the statements on this thread's connection. With checkpoints deferred
+ * (decision 0011) its first statement raises the connection's automatic-checkpoint threshold:
+ * in the transaction itself, because the client keeps a small pool of connections and a
+ * setting made once reaches only the one it ran on; SQLite reads it at this COMMIT.
+ */
+export async function commitStatements(db: Db, stmts: Stmt[]): Promise<ResultSet[]> {
+  if (!deferCheckpointsHere) return db.$client.batch(stmts, "write");
+  const [, ...results] = await db.$client.batch([DEFER, ...stmts], "write");
+  return results;
 }
 
 /** Lets the requests that waited run between two slices of a batch on this thread. */

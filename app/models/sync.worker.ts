@@ -5,10 +5,13 @@ import { getDb } from "~/db/client.server";
 import { computeShotRecord, shotInsertRow } from "./shot-record";
 import { shotStage, validateRecords, type ShotStageInput } from "./sync-work";
 import { answerSyncBytes } from "./sync-answer.server";
-import { noSyncPoolOnThisThread } from "./sync-pool.server";
+import { commitStatements, deferCheckpointsOnThisThread } from "./sync-write.server";
+import { DEFER_CHECKPOINTS_ENV, noSyncPoolOnThisThread } from "./sync-pool.server";
 import type { Actor } from "./actor";
 
 noSyncPoolOnThisThread();
+// decision 0011: a report thread checkpoints the WAL, so no sync's answer waits for a checkpoint
+deferCheckpointsOnThisThread(process.env[DEFER_CHECKPOINTS_ENV] === "1");
 
 // SHOTBOOK_WORKER_PROF=<dir> (set by the server bench's BENCH_SERVER_PROF): a CPU profile of this
 // thread every 5 s, since `node --cpu-prof` profiles only the main thread.
@@ -49,6 +52,6 @@ export function shots(input: ShotStageInput) {
  * sync.server.ts built them; the answer is each statement's RETURNING rows as plain arrays.
  */
 export async function write(stmts: { sql: string; args: (string | number | null)[] }[]) {
-  const results = await getDb().$client.batch(stmts, "write");
+  const results = await commitStatements(getDb(), stmts);
   return results.map((r) => ({ rows: r.rows.map((row) => Array.from(row as ArrayLike<unknown>)) }));
 }

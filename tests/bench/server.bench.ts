@@ -31,10 +31,10 @@ const CLIENTS = 6;
 const LOAD_BASE = Number(process.env.BENCH_LOAD_BASE ?? 20_000);
 const LOAD_SECONDS = Number(process.env.BENCH_LOAD_SECONDS ?? 15);
 
-type World = { sensorId: string; siteId: string; targetIds: string[]; tapeId: string };
+export type World = { sensorId: string; siteId: string; targetIds: string[]; tapeId: string };
 
 /** One tablet's batch: a new session and 499 shots of mixed references and readings, as the field sends them. */
-function makeBatch(w: World, rnd: () => number, device: string) {
+export function makeBatch(w: World, rnd: () => number, device: string) {
   const gauss = () => Math.sqrt(-2 * Math.log(1 - rnd())) * Math.cos(2 * Math.PI * rnd());
   const session = { id: crypto.randomUUID(), sensorId: w.sensorId, siteId: w.siteId, startedAt: "2026-05-04T08:00:00+02:00", airTempC: 14, pressureHpa: 1004, humidityPct: 60 };
   const shots = Array.from({ length: PER_REQUEST - 1 }, (_, i) => {
