@@ -4,7 +4,7 @@
 import { and, asc, desc, eq, inArray, sql } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { auditLog, checkSessions, projectMembers, projects, projectSensors, sensors, shots, signOffs, users } from "~/db/schema";
-import { audit } from "~/models/audit.server";
+import { audit, auditOffThread } from "~/models/audit.server";
 import { sendTemplateMail } from "~/mail/mailer.server";
 import { listUserEmailsByRole } from "~/models/users.server";
 import { computeSensorReport, sensorReportSummary } from "~/models/reports.server";
@@ -247,7 +247,8 @@ export async function notifyFailedVerdicts(sensorIds: string[]): Promise<{ notif
       .limit(1);
     const before = (seen?.detail as { verdict?: string } | null)?.verdict ?? null;
     if (before === summary.verdict) continue;
-    await audit(null, VERDICT_SEEN, "sensor", sensorId, { verdict: summary.verdict, from: before });
+    // after a sync, while others may be writing: not on the request thread (issue 16)
+    await auditOffThread(null, VERDICT_SEEN, "sensor", sensorId, { verdict: summary.verdict, from: before });
     if (summary.verdict !== "fail") continue;
     const report = await reportFor(SYSTEM, sensorId, {});
     if (!report) continue;

@@ -53,7 +53,8 @@ if (process.env.TIME_BATCHES) {
     }
   };
 }
-if (process.env.NO_AUTOCHECKPOINT) await db.$client.execute("PRAGMA wal_autocheckpoint = 0");
+if (process.env.NO_AUTOCHECKPOINT) (await import("~/models/sync-write.server")).deferCheckpointsOnThisThread(true);
+if (process.env.SYNCHRONOUS) await db.$client.execute(`PRAGMA synchronous = ${process.env.SYNCHRONOUS}`);
 const c0 = process.cpuUsage();
 const t0 = performance.now();
 for (const b of bodies) {

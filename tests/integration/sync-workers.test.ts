@@ -4,6 +4,7 @@
 // expected figure is worked out here from ranging.md §3 (e = mean of the readings − D, in mm;
 // the sensor applies its own air correction, so the readings are taken as they are, ranging.md §2).
 import { afterAll, expect, test } from "vitest";
+import { verdictNoticesSettled } from "~/models/verdict-notice.server";
 import { inArray } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { shots } from "~/db/schema";
@@ -18,6 +19,7 @@ const sync = (user: TestUser, body: unknown) => call(action, apiRequest("/api/sy
 const saved = process.env.SYNC_WORKERS;
 
 afterAll(async () => {
+  await verdictNoticesSettled(); // its verdict check writes through the pool
   await closeSyncPool();
   if (saved === undefined) delete process.env.SYNC_WORKERS;
   else process.env.SYNC_WORKERS = saved;
@@ -70,12 +72,14 @@ test("a batch synced through the worker threads gets the answer and the stored r
   const w = await world();
 
   process.env.SYNC_WORKERS = "0";
+  await verdictNoticesSettled(); // its verdict check writes through the pool
   await closeSyncPool();
   expect(syncPool()).toBeNull();
   const inThread = batch(w);
   const a = await sync(w.crew, inThread);
 
   process.env.SYNC_WORKERS = "1";
+  await verdictNoticesSettled(); // its verdict check writes through the pool
   await closeSyncPool();
   expect(syncPool()).not.toBeNull();
   const onWorker = batch(w);

@@ -9,6 +9,7 @@ import { mkdtempSync, rmSync, statSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { afterAll, expect, test } from "vitest";
+import { verdictNoticesSettled } from "~/models/verdict-notice.server";
 import { DEFERRED_AUTOCHECKPOINT_PAGES, openDb } from "~/db/client.server";
 import { checkpointsSettled, checkpointStats, closeReportPool, reportPool } from "~/models/report-pool.server";
 import { closeSyncPool, DEFER_CHECKPOINTS_ENV, syncPool } from "~/models/sync-pool.server";
@@ -20,6 +21,7 @@ const saved = { sync: process.env.SYNC_WORKERS, report: process.env.REPORT_WORKE
 const dir = mkdtempSync(join(tmpdir(), "shotbook-wal-"));
 afterAll(async () => {
   deferCheckpointsOnThisThread(false);
+  await verdictNoticesSettled(); // its verdict check writes through the pool
   await closeSyncPool();
   await closeReportPool();
   for (const [k, v] of [
@@ -94,8 +96,9 @@ async function syncOneSession() {
 test("with report threads, the sync workers defer their checkpoints and a sync through them is checkpointed on a report thread", async () => {
   process.env.REPORT_WORKERS = "1";
   process.env.SYNC_WORKERS = "1";
-  await closeReportPool();
+  await verdictNoticesSettled(); // the verdict check after a sync reads and writes through the pools
   await closeSyncPool();
+  await closeReportPool();
   expect(reportPool()).not.toBeNull();
   expect(syncPool()!.options.env?.[DEFER_CHECKPOINTS_ENV]).toBe("1");
 
@@ -112,8 +115,9 @@ test("with report threads, the sync workers defer their checkpoints and a sync t
 });
 
 test("without report threads, the sync workers keep SQLite's own checkpoint and nothing else checkpoints", async () => {
-  await closeReportPool();
+  await verdictNoticesSettled(); // the verdict check after a sync reads and writes through the pools
   await closeSyncPool();
+  await closeReportPool();
   process.env.REPORT_WORKERS = "0";
   process.env.SYNC_WORKERS = "1";
   expect(reportPool()).toBeNull();
