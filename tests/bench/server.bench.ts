@@ -101,6 +101,7 @@ async function startServer(buildDir: string, env: NodeJS.ProcessEnv) {
   const port = await freePort();
   // BENCH_SERVER_PROF=<dir>: the server writes a CPU profile of each of its threads there on exit (node --cpu-prof)
   const prof = process.env.BENCH_SERVER_PROF ? ["--cpu-prof", "--cpu-prof-dir", process.env.BENCH_SERVER_PROF] : [];
+  // BENCH_NODE_FLAGS="--flag …": Node flags for the server, for trials (decision 0011 lists some tried)
   const extra = (process.env.BENCH_NODE_FLAGS ?? "").split(" ").filter(Boolean);
   const child: ChildProcess = spawn(process.execPath, [...extra, ...prof, "--import", "tsx", "app/cli/serve.ts", join(buildDir, "server/index.js")], {
     cwd: ROOT,
