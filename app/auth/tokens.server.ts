@@ -4,7 +4,7 @@ import { apiTokens, users } from "~/db/schema";
 import type { SessionUser } from "./session.server";
 import { writeBatch } from "~/models/sync-write.server";
 import { isTransientDbError } from "~/db/transient.server";
-import { syncPool } from "~/models/sync-pool.server";
+import { startedSyncPool } from "~/models/sync-pool.server";
 
 export async function sha256Hex(text: string) {
   const digest = await crypto.subtle.digest("SHA-256", new TextEncoder().encode(text));
@@ -50,13 +50,19 @@ export async function userFromBearer(request: Request): Promise<SessionUser | nu
       .set({ lastUsedAt: new Date(now).toISOString() })
       .where(eq(apiTokens.id, row.tokenId))
       .toSQL();
-    // issue 16: where the syncs write (a sync worker on the production server), so this request
-    // thread never sleeps on SQLite's write lock while tablets sync; there, not waited for
-    // (a note to the minute: a busy database skips it, the next use in a minute notes it)
-    const touch = writeBatch(db, [{ sql: q.sql, args: q.params as (string | number | null)[] }]).catch((e) => {
-      if (!isTransientDbError(e)) console.error("auth: could not note a token's last use", e);
-    });
-    if (!syncPool()) await touch;
+    // issue 16: while syncs run (their worker started), where they write, so this request thread
+    // never sleeps on SQLite's write lock, and not waited for; a note to the minute, so a busy
+    // database skips it (the next use in a minute notes it). Without syncs, here as any write.
+    const stmt = { sql: q.sql, args: q.params as (string | number | null)[] };
+    if (startedSyncPool()) {
+      void writeBatch(db, [stmt]).catch((e) => {
+        if (!isTransientDbError(e)) console.error("auth: could not note a token's last use", e);
+      });
+    } else {
+      await db.$client.execute(stmt).catch((e) => {
+        if (!isTransientDbError(e)) throw e;
+      });
+    }
   }
   return { id: row.id, email: row.email, name: row.name, role: row.role, sessionId: null, via: "token" };
 }
