@@ -2,7 +2,7 @@ import { and, eq, isNull } from "drizzle-orm";
 import { getDb } from "~/db/client.server";
 import { apiTokens, users } from "~/db/schema";
 import type { SessionUser } from "./session.server";
-import { writeBatch } from "~/models/sync-write.server";
+import { stmtOf, writeBatch } from "~/models/sync-write.server";
 import { isTransientDbError } from "~/db/transient.server";
 import { startedSyncPool } from "~/models/sync-pool.server";
 
@@ -45,24 +45,21 @@ export async function userFromBearer(request: Request): Promise<SessionUser | nu
   // "Last used" to the minute is enough, and spares a write on every request of a busy pipeline.
   const now = Date.now();
   if (!row.lastUsedAt || now - Date.parse(row.lastUsedAt) > LAST_USED_RESOLUTION_MS) {
-    const q = db
-      .update(apiTokens)
-      .set({ lastUsedAt: new Date(now).toISOString() })
-      .where(eq(apiTokens.id, row.tokenId))
-      .toSQL();
+    const touch = stmtOf(
+      db
+        .update(apiTokens)
+        .set({ lastUsedAt: new Date(now).toISOString() })
+        .where(eq(apiTokens.id, row.tokenId))
+        .toSQL(),
+    );
     // issue 16: while syncs run (their worker started), where they write, so this request thread
-    // never sleeps on SQLite's write lock, and not waited for; a note to the minute, so a busy
-    // database skips it (the next use in a minute notes it). Without syncs, here as any write.
-    const stmt = { sql: q.sql, args: q.params as (string | number | null)[] };
-    if (startedSyncPool()) {
-      void writeBatch(db, [stmt]).catch((e) => {
-        if (!isTransientDbError(e)) console.error("auth: could not note a token's last use", e);
-      });
-    } else {
-      await db.$client.execute(stmt).catch((e) => {
-        if (!isTransientDbError(e)) throw e;
-      });
-    }
+    // never sleeps on SQLite's write lock, and not waited for; without syncs, here. A note to the
+    // minute: a busy database skips it (the next use in a minute notes it).
+    const offThread = startedSyncPool() !== null;
+    const written = (offThread ? writeBatch(db, [touch]) : db.$client.execute(touch)).catch((e) => {
+      if (!isTransientDbError(e)) console.error("auth: could not note a token's last use", e);
+    });
+    if (!offThread) await written;
   }
   return { id: row.id, email: row.email, name: row.name, role: row.role, sessionId: null, via: "token" };
 }

@@ -3,7 +3,7 @@
 import { and, desc, eq } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { auditLog } from "~/db/schema";
-import { writeBatch } from "./sync-write.server";
+import { stmtOf, writeBatch } from "./sync-write.server";
 
 type Tx = Pick<Db, "insert">;
 
@@ -19,11 +19,14 @@ export async function audit(actorUserId: string | null, action: string, entity: 
  */
 export async function auditOffThread(actorUserId: string | null, action: string, entity: string, entityId: string | null, detail?: unknown) {
   const db = getDb();
-  const q = db
-    .insert(auditLog)
-    .values({ actorUserId, action, entity, entityId, detail: detail ?? null })
-    .toSQL();
-  await writeBatch(db, [{ sql: q.sql, args: q.params as (string | number | null)[] }]);
+  await writeBatch(db, [
+    stmtOf(
+      db
+        .insert(auditLog)
+        .values({ actorUserId, action, entity, entityId, detail: detail ?? null })
+        .toSQL(),
+    ),
+  ]);
 }
 
 export async function auditFor(entity: string, entityId: string, limit = 100) {

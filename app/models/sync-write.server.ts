@@ -21,6 +21,9 @@ export const HIDDEN_RAW = "\u0000not yours";
 export const INSERT_CHUNK = 250;
 
 export type Stmt = { sql: string; args: (string | number | null)[] };
+/** A query drizzle built (its `.toSQL()`) as a statement for writeBatch / commitStatements. */
+export const stmtOf = (q: { sql: string; params: unknown[] }): Stmt => ({ sql: q.sql, args: q.params as Stmt["args"] });
+
 /** What the write answers: the RETURNING rows of each statement (a ResultSet, or its rows from a worker). */
 export type WriteResult = { rows: ArrayLike<unknown>[] };
 

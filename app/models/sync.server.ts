@@ -14,7 +14,7 @@ import { syncPool } from "./sync-pool.server";
 import { conflict, internalErrors, shotStage, validateRecords, type Rec, type ShotRow, type ShotStageInput, type Validated } from "./sync-work";
 
 import type { Actor } from "./actor";
-import { insertStatements, reclassify, writeBatch, writeOneAtATime, writtenIds, yieldToLoop, type Stmt, type WriteResult, HIDDEN_RAW } from "./sync-write.server";
+import { insertStatements, stmtOf, reclassify, writeBatch, writeOneAtATime, writtenIds, yieldToLoop, type Stmt, type WriteResult, HIDDEN_RAW } from "./sync-write.server";
 import { inScope, scopeOf, type Scope } from "./scope.server";
 
 /**
@@ -311,7 +311,7 @@ export async function ingestSync(actor: Actor, body: unknown, db: Db = getDb()):
         .toSQL();
       const sessionStmts = insertStatements(checkSessions, sessionRows);
       const shotStmts = insertStatements(shots, shotRows);
-      const stmts: Stmt[] = [...sessionStmts, ...shotStmts, { sql: audit.sql, args: audit.params as Stmt["args"] }];
+      const stmts: Stmt[] = [...sessionStmts, ...shotStmts, stmtOf(audit)];
       let done: WriteResult[];
       try {
         done = await writeBatch(db, stmts);

@@ -207,9 +207,8 @@ export async function run(): Promise<string[]> {
       oneRuns.map((r) => r.cpuMs).sort((a, b) => a - b),
       0.5,
     );
-    let t = performance.now();
     const six = Array.from({ length: CLIENTS }, (_, c) => Array.from({ length: 2 }, () => makeBatch(w, rnd, `bench-six-${c}`)));
-    t = performance.now();
+    let t = performance.now();
     const sixAccepted = (
       await Promise.all(
         six.map(async (list) => {
