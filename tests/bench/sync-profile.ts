@@ -66,5 +66,6 @@ const c = process.cpuUsage(c0);
 if (process.env.PROFILE_OUT) writeFileSync(process.env.PROFILE_OUT, JSON.stringify((await session.post("Profiler.stop")).profile));
 console.log(`${batches} batches: ${(ms / batches).toFixed(1)} ms wall, ${((c.user + c.system) / 1000 / batches).toFixed(1)} ms CPU per batch`);
 for (const [k, v] of timings) console.log(`${(v.reduce((a, b) => a + b, 0) / batches).toFixed(1).padStart(7)} ms per batch  ${v.length} × ${k}`);
+if (process.env.SERIES) for (const [k, v] of timings) console.log(k.slice(0, 20), v.map((x) => x.toFixed(0)).join(" "));
 db.$client.close();
 rmSync(dir, { recursive: true, force: true });
