@@ -26,15 +26,18 @@ export type BuildInput = {
 
 const encoder = new TextEncoder();
 
+/** What a report without rows comes back as: its JSON, and the outlier rule's median and cut the streamed rows flag by. */
+export type BuiltJson = { json: Uint8Array<ArrayBuffer>; outlier: { median: number; cut: number } | null };
+
 /** The report without rows as api.md's JSON, encoded. */
-export async function buildReportJson(db: Db, input: BuildInput): Promise<Uint8Array<ArrayBuffer>> {
+export async function buildReportJson(db: Db, input: BuildInput): Promise<BuiltJson> {
   const { sums, sensor: row } = input;
   const { groupRows, order, sessions, uses } = await readSums(db, sums);
   const { groups, kE, kD } = groupsOf(groupRows, new Map(sessions.map((s) => [s.id, s.startedAt] as const)));
   const {
     failed: _failed,
     shots: _rows,
-    outlier: _outlier,
+    outlier,
     ...r
   } = reportFromAggregates({ sensor: sensorSpecOf(row), rule: sums.rule, aggregates: { kE, kD, groups, order }, lastSignedOffBiasMm: input.lastBias });
   const inSelection = new Map<string, string>();
@@ -44,7 +47,7 @@ export async function buildReportJson(db: Db, input: BuildInput): Promise<Uint8A
     if (g.airDefaulted && !g.excluded) defaulted.add(g.sessionId);
   }
   const trace = traceabilityOf(row, inSelection, uses, input.tapeCerts, input.edmCerts);
-  return encoder.encode(JSON.stringify(toJson(sums.sensorId, sums.rule, input.ruleProjectId, r, defaulted, trace, null)));
+  return { json: encoder.encode(JSON.stringify(toJson(sums.sensorId, sums.rule, input.ruleProjectId, r, defaulted, trace, null))), outlier };
 }
 
 /**

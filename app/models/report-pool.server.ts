@@ -15,7 +15,7 @@ import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
 import { getDb, isSharedFile, type Db } from "~/db/client.server";
 import { getEnv } from "~/env.server";
-import { buildReportJson, type BuildInput } from "./report-build.server";
+import { buildReportJson, type BuildInput, type BuiltJson } from "./report-build.server";
 import { reportWorkerUrl } from "./report-worker-url.server";
 
 let pool: Tinypool | null | undefined;
@@ -63,10 +63,10 @@ export function reportPool(): Tinypool | null {
 }
 
 /** The report without rows as JSON bytes (report-build.server.ts): on the pool for the server's own database, else here. */
-export async function buildReportJsonOffThread(db: Db, input: BuildInput): Promise<Uint8Array<ArrayBuffer>> {
+export async function buildReportJsonOffThread(db: Db, input: BuildInput): Promise<BuiltJson> {
   const p = db === getDb() ? reportPool() : null;
   if (!p) return buildReportJson(db, input);
-  return (await p.run(input, { name: "reportJson" })) as Uint8Array<ArrayBuffer>;
+  return (await p.run(input, { name: "reportJson" })) as BuiltJson;
 }
 
 /** Whether this process's report threads checkpoint the WAL (decision 0011): then the sync workers' commits leave it to them. */

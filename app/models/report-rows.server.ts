@@ -1,5 +1,6 @@
 // The per-shot rows of a sensor report, read only when asked for (`?include=shots`, the CSV
 // export, the screens that list shots): one query, one text value per column (issue 16).
+import type { InArgs, Transaction } from "@libsql/client";
 import { and, asc, eq, sql, type SQL } from "drizzle-orm";
 import { getDb, type Db } from "~/db/client.server";
 import { checkSessions, shots, targets } from "~/db/schema";
@@ -41,8 +42,8 @@ const exactOrNull = (col: unknown) => sql`CASE WHEN ${col} IS NULL THEN 'null' E
  * a subquery's order through group_concat in practice, though it does not promise it, so
  * inTimeOrder checks it. Session start times come from their own small query.
  */
-function packedQuery(db: Db, where: SQL[]) {
-  const o = db
+function packedQuery(db: Db, where: SQL[], limit?: number) {
+  const selection = db
     .select({
       id: shots.id,
       takenAt: shots.takenAt,
@@ -58,8 +59,8 @@ function packedQuery(db: Db, where: SQL[]) {
     })
     .from(shots)
     .where(and(...where))
-    .orderBy(asc(shots.takenAt))
-    .as("o");
+    .orderBy(asc(shots.takenAt), asc(shots.id));
+  const o = (limit ? selection.limit(limit) : selection).as("o");
   const gc = (c: unknown) => sql<string | null>`group_concat(${c})`;
   return db
     .select({
@@ -185,4 +186,67 @@ export async function loadReportShots(sensorId: string, q: ReportQuery, opts: { 
     // a value needed escaping (not possible for synced records): the plain query
   }
   return plainQuery(db, where);
+}
+
+/** Shots per page of the streamed rows (~230 bytes of JSON each). */
+export const ROWS_PAGE = 4000;
+
+/** The sensor's sessions and their start times, through `tx` (the streamed rows' snapshot). */
+export async function sessionsIn(tx: Pick<Transaction, "execute">, db: Db, sensorId: string): Promise<{ id: string; startedAt: string }[]> {
+  const { sql: text, params } = sessionsQuery(db, sensorId).toSQL();
+  const rs = await tx.execute({ sql: text, args: params as InArgs });
+  return rs.rows.map((r) => ({ id: String(r[0]), startedAt: String(r[1]) }));
+}
+
+/**
+ * The selection's shots in (takenAt, id) order, one page at a time after `after`, read through
+ * `tx` (a read transaction of the libSQL client: one snapshot for every page). The API's
+ * `include=shots` streams these (issue 16): a million rows never sit in memory at once.
+ */
+export async function reportShotsPage(
+  tx: Pick<Transaction, "execute">,
+  db: Db,
+  where: SQL[],
+  sessions: { id: string; startedAt: string }[],
+  after: { takenAt: string; id: string } | null,
+  limit = ROWS_PAGE,
+): Promise<ReportShot[]> {
+  // a row value: SQLite seeks the index (sensor_id, taken_at, id) to it
+  const keyset = after ? sql`(${shots.takenAt}, ${shots.id}) > (${after.takenAt}, ${after.id})` : undefined;
+  // packed, as loadReportShots reads them (one value per column: no object per row and column)
+  const packed = packedQuery(db, [...where, ...(keyset ? [keyset] : [])], limit).toSQL();
+  const prs = await tx.execute({ sql: packed.sql, args: packed.params as InArgs });
+  const p = prs.rows[0];
+  const keys = ["ids", "takenAt", "sessionIds", "referenceM", "rangeM", "errorMm", "repeatabilityMm", "reflectancePct", "illuminanceKlux", "referenceUncertaintyMm", "bits"] as const;
+  const list = p ? unpack(Object.fromEntries(keys.map((k, i) => [k, p[i] as string | null])) as Packed, sessions) : [];
+  if (list) return inTimeOrder(list);
+  // a value needed escaping (not possible for synced records): the plain query
+  const { sql: text, params } = db
+    .select(reportColumns)
+    .from(shots)
+    .innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId))
+    .where(and(...where, keyset))
+    .orderBy(asc(shots.takenAt), asc(shots.id))
+    .limit(limit)
+    .toSQL();
+  const rs = await tx.execute({ sql: text, args: params as InArgs });
+  // the columns come back in reportColumns' order
+  const num = (v: unknown) => (v == null ? null : Number(v));
+  return rs.rows.map((r) => ({
+    id: String(r[0]),
+    takenAt: String(r[1]),
+    sessionId: String(r[2]),
+    sessionStartedAt: String(r[3]),
+    referenceM: Number(r[4]),
+    rangeM: Number(r[5]),
+    errorMm: Number(r[6]),
+    repeatabilityMm: num(r[7]),
+    reflectancePct: Number(r[8]),
+    retro: Number(r[9]) !== 0,
+    illuminanceKlux: num(r[10]),
+    excluded: Number(r[11]) !== 0,
+    wrap: Number(r[12]) !== 0,
+    airDefaulted: Number(r[13]) !== 0,
+    referenceUncertaintyMm: num(r[14]),
+  }));
 }

@@ -2,6 +2,7 @@
 // sign-off's bias, the certificates and a fingerprint of the shots — a few index seeks. A kept
 // report (reports.server.ts) is served while the fingerprint is unchanged.
 import { and, desc, eq, exists, inArray, isNull, or, sql } from "drizzle-orm";
+import type { InArgs, Transaction } from "@libsql/client";
 import type { Db } from "~/db/client.server";
 import { auditLog, checkSessions, edms, exclusions, projects, projectSensors, sensors, shots, signOffs, tapes } from "~/db/schema";
 import { DEFAULT_RULE, type Rule } from "~/domain";
@@ -46,6 +47,21 @@ function stampOf([a, b, c]: StampRows): ShotsStamp {
     recomputes: Number(c[0]?.n ?? 0),
     lastRecompute: Number(c[0]?.last ?? 0),
   };
+}
+
+/**
+ * The shots' stamp as `tx` sees it: a read transaction of the libSQL client (its own
+ * connection and snapshot), where the streamed per-shot rows are read (reports.server.ts).
+ */
+export async function shotsStampIn(tx: Pick<Transaction, "execute">, db: Db, sensorId: string): Promise<string> {
+  const rows = [] as unknown[][];
+  for (const q of stampQueries(db, sensorId)) {
+    const { sql, params } = q.toSQL();
+    const rs = await tx.execute({ sql, args: params as InArgs });
+    rows.push(rs.rows.map((r) => Array.from({ length: rs.columns.length }, (_, i) => r[i])));
+  }
+  const [[a], [b], [c]] = rows as [unknown[][], unknown[][], unknown[][]];
+  return JSON.stringify(stampOf([[{ maxRowid: a?.[0] as number | null }], [{ n: b?.[0] as number, restored: b?.[1] as number }], [{ n: c?.[0] as number, last: c?.[1] as number }]]));
 }
 
 const ruleCols = { id: projects.id, ...RULE_COLUMNS };

@@ -4,15 +4,14 @@
 // the thread that serves every other request. The local libSQL client runs a query
 // synchronously on its caller's thread, so on the request thread a read over a million shots
 // would hold every other request for its whole length. Started by report-pool.server.ts.
-import Tinypool from "tinypool";
 import { getDb } from "~/db/client.server";
 import { DEFAULT_RULE } from "~/domain";
 import { readSums } from "./report-sums.server";
 import { buildReportJson, warmDomain, type BuildInput } from "./report-build.server";
 
-/** A report without rows, read, computed and encoded here (decision 0011); the bytes move to the request thread. */
+/** A report without rows, read, computed and encoded here (decision 0011); its few KB are copied to the request thread. */
 export async function reportJson(input: BuildInput) {
-  return Tinypool.move(await buildReportJson(getDb(), input));
+  return buildReportJson(getDb(), input);
 }
 
 /**

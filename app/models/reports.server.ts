@@ -23,12 +23,12 @@ import { scopeOf } from "./scope.server";
 import { sensorSpecOf } from "./registry-context.server";
 import type { QueryError } from "./shot-query.server";
 import { toJson, traceabilityOf, type SensorReportJson, type SensorReportSummaryJson } from "./report-json";
-import { loadReportShots, type LoadedShot } from "./report-rows.server";
+import { loadReportShots, reportShotsPage, ROWS_PAGE, sessionsIn, type LoadedShot } from "./report-rows.server";
 import { checkedQuery, queryKey, selectionWhere, type ProjectFilter, type ReportQuery } from "./report-selection.server";
-import { readState } from "./report-state.server";
+import { readState, shotsStampIn } from "./report-state.server";
 import { usesQuery } from "./report-sums.server";
 import { buildReportJsonOffThread } from "./report-pool.server";
-import { warmDomain } from "./report-build.server";
+import { warmDomain, type BuiltJson } from "./report-build.server";
 import { keptByFingerprint } from "./kept-by-fingerprint.server";
 
 export type { ReportQuery, ProjectFilter } from "./report-selection.server";
@@ -50,7 +50,7 @@ export type SensorSummary = {
 // ---------------------------------------------------------------------------------------------
 // Computed reports without rows, kept per query while their fingerprint holds (a few KB each).
 
-type Kept = { built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null };
+type Kept = { built: Built; json: Uint8Array<ArrayBuffer> | null; lastShotAt?: string | null; outlier?: BuiltJson["outlier"] };
 const kept = keptByFingerprint<Kept>(500);
 
 /** Forgets the reports this process keeps for the database (tests and the bench; never needed for correctness). */
@@ -80,7 +80,7 @@ async function report(
   projectIds: ProjectFilter,
   opts: { rows?: boolean; details?: boolean },
   db: Db,
-): Promise<{ built: Built; kept: Kept | null } | QueryError> {
+): Promise<{ built: Built; kept: Kept | null; rowsFrom?: RowsFrom } | QueryError> {
   const q = checkedQuery(query);
   if ("status" in q) return q;
   const state = await readState(db, sensorId, q.projectId, projectIds);
@@ -93,7 +93,7 @@ async function report(
   const sensor = { id: row.id, label: row.label, serial: row.serial, kind: row.kind };
   const where = selectionWhere(db, sensorId, q, projectIds);
 
-  if (opts.rows || opts.details || q.includeShots) {
+  if (opts.rows || opts.details) {
     const [list, uses] = await Promise.all([loadReportShots(sensorId, q, { details: opts.details }, db, projectIds), usesQuery(db, where)]);
     const { failed: _failed, shots: rows, ...r } = sensorReportOf(spec, rule, list, state.lastBias);
     const startedAt = new Map<string, string>();
@@ -107,10 +107,12 @@ async function report(
   }
 
   const key = queryKey(sensorId, q, projectIds);
+  // include=shots: the figures as kept, the rows streamed after them from the shots as they were then
+  const rowsFrom = (outlier: BuiltJson["outlier"]): RowsFrom | undefined => (q.includeShots ? { stamp: JSON.stringify(state.stamp), spec, rule, where, outlier, sensorId } : undefined);
   const hit = kept.get(db, key, state.fingerprint);
-  if (hit) return { built: hit.built, kept: hit };
+  if (hit) return { built: hit.built, kept: hit, rowsFrom: rowsFrom(hit.outlier ?? null) };
   // decision 0011: read, computed and written as JSON on a report thread; parsed here (a few KB)
-  const json = await buildReportJsonOffThread(db, {
+  const { json, outlier } = await buildReportJsonOffThread(db, {
     sums: { sensorId, q, projectIds, tolerance: { toleranceMm: row.toleranceMm, tolerancePpm: row.tolerancePpm }, rule },
     sensor: row,
     ruleProjectId,
@@ -119,10 +121,13 @@ async function report(
     edmCerts: state.edmCerts,
   });
   const built: Built = { status: 200, body: JSON.parse(decoder.decode(json)) as Built["body"], sensor, rule, details: [] };
-  const entry: Kept = { built, json };
+  const entry: Kept = { built, json, outlier };
   kept.set(db, key, state.fingerprint, entry);
-  return { built, kept: entry };
+  return { built, kept: entry, rowsFrom: rowsFrom(outlier) };
 }
+
+/** What streaming a report's rows needs: the shots' stamp its figures were made from, and how a row is judged. */
+type RowsFrom = { stamp: string; spec: ReturnType<typeof sensorSpecOf>; rule: Rule; where: SQL[]; outlier: BuiltJson["outlier"]; sensorId: string };
 
 /** The domain's report over the shots themselves (the rows path). */
 function sensorReportOf(spec: ReturnType<typeof sensorSpecOf>, rule: Rule, list: readonly ReportShot[], lastBias: number | null): SensorReport {
@@ -182,14 +187,100 @@ const decoder = new TextDecoder();
  * GET /api/sensors/:sensorId/report: the report as JSON bytes; the per-shot rows only with
  * `include=shots` (api.md v1.1). Without them the bytes are kept with the kept report.
  */
-export async function sensorReportJson(actor: Actor, sensorId: string, query: ReportQuery | URLSearchParams, db: Db = getDb()): Promise<{ status: 200; json: Uint8Array<ArrayBuffer> } | QueryError> {
-  const r = await report(sensorId, query, await filterOf(actor, db), {}, db);
+export async function sensorReportJson(
+  actor: Actor,
+  sensorId: string,
+  query: ReportQuery | URLSearchParams,
+  db: Db = getDb(),
+): Promise<{ status: 200; json: Uint8Array<ArrayBuffer> } | { status: 200; stream: ReadableStream<Uint8Array> } | QueryError> {
+  const projectIds = await filterOf(actor, db);
+  const r = await report(sensorId, query, projectIds, {}, db);
   if (!("built" in r)) return r;
+  if (r.rowsFrom) {
+    const json = r.kept?.json && r.kept.json.byteLength > 0 ? r.kept.json : encoder.encode(JSON.stringify(r.built.body));
+    const stream = await rowsStream(json, r.rowsFrom, db);
+    if (stream) return { status: 200, stream };
+    // the shots changed between the figures and the rows' snapshot: the whole report from the shots in memory
+    const whole = await report(sensorId, query, projectIds, { rows: true }, db);
+    if (!("built" in whole)) return whole;
+    return { status: 200, json: encoder.encode(JSON.stringify(whole.built.body)) };
+  }
   // (a consumer that transferred a chunk's buffer would leave it empty: then it is written again)
   if (r.kept?.json && r.kept.json.byteLength > 0) return { status: 200, json: r.kept.json };
   const json = encoder.encode(JSON.stringify(r.built.body));
   if (r.kept) r.kept.json = json;
   return { status: 200, json };
+}
+
+/**
+ * The report's JSON with its per-shot rows streamed after the figures (issue 16): read page by
+ * page (ROWS_PAGE shots) inside one read transaction of the libSQL client, so every page comes
+ * from one snapshot, and only after checking that the snapshot's shots are the ones the figures
+ * were made from (their stamp); null when they are not. Memory stays one page, at any n; the
+ * transaction (its own connection) ends with the stream, or when the reader goes away.
+ */
+let rowsPage = ROWS_PAGE;
+/** Tests: a small page, so a handful of shots cross page boundaries (null: ROWS_PAGE again). */
+export function setRowsPageForTests(n: number | null) {
+  rowsPage = n ?? ROWS_PAGE;
+}
+
+async function rowsStream(figures: Uint8Array<ArrayBuffer>, from: RowsFrom, db: Db): Promise<ReadableStream<Uint8Array> | null> {
+  const tx = await db.$client.transaction("read");
+  let open = true;
+  let sessions: { id: string; startedAt: string }[] = [];
+  const close = () => {
+    if (open) tx.close();
+    open = false;
+  };
+  try {
+    if ((await shotsStampIn(tx, db, from.sensorId)) !== from.stamp) {
+      close();
+      return null;
+    }
+    sessions = await sessionsIn(tx, db, from.sensorId);
+  } catch (error) {
+    close();
+    throw error;
+  }
+  // the figures' JSON ends with "}": the rows go in before it, as the last key (where toJson puts them)
+  const head = figures.subarray(0, figures.byteLength - 1);
+  let after: { takenAt: string; id: string } | null = null;
+  let first = true;
+  let done = false;
+  return new ReadableStream<Uint8Array>({
+    start(c) {
+      c.enqueue(head);
+      c.enqueue(encoder.encode(`,"shots":[`));
+    },
+    async pull(c) {
+      if (done) return;
+      try {
+        const page = await reportShotsPage(tx, db, from.where, sessions, after, rowsPage);
+        if (page.length > 0) {
+          const rows = reportRows(page, from.spec, from.rule, from.outlier);
+          let text = JSON.stringify(rows).slice(1, -1);
+          if (!first) text = "," + text;
+          first = false;
+          c.enqueue(encoder.encode(text));
+          const last = page[page.length - 1]!;
+          after = { takenAt: last.takenAt, id: last.id };
+        }
+        if (page.length < rowsPage) {
+          done = true;
+          close();
+          c.enqueue(encoder.encode("]}"));
+          c.close();
+        }
+      } catch (error) {
+        close();
+        c.error(error);
+      }
+    },
+    cancel() {
+      close();
+    },
+  });
 }
 
 /** Chunks of the bytes, sent as they are (views, not copies: a Uint8Array body would be copied whole). */

@@ -9,7 +9,7 @@ import { afterAll, beforeAll, expect, test } from "vitest";
 import { getDb, openDb, type Db } from "~/db/client.server";
 import { resetEnvCache } from "~/env.server";
 import { startFakeSmtp, type FakeSmtp } from "~/mail/fake-smtp.server";
-import { computeSensorReport, clearReportCache, sensorReportJson } from "~/models/reports.server";
+import { computeSensorReport, clearReportCache, sensorReportJson, setRowsPageForTests } from "~/models/reports.server";
 import { excludeShot } from "~/models/exclusions.server";
 import { ingestSync } from "~/models/sync.server";
 import { updateSensor } from "~/models/sensors.server";
@@ -84,7 +84,9 @@ function expectClose(a: unknown, b: unknown, tol = 1e-9, path = "report"): void 
 
 /**
  * The kept report (its figures from the sums and the error index) with the rows of the same
- * query asked with include=shots; both paths must give the same figures.
+ * query asked with include=shots (the same figures, the rows streamed after them), checked
+ * against the rows path, which reads every shot and sums in JS (computeSensorReport): the same
+ * figures to far below 0.01 mm, the same rows exactly.
  */
 const report = async (query = "") => {
   const get = (q: string) => call(reportLoader, apiRequest(`/api/sensors/${sensorId}/report${q}`, { user: qa }), { sensorId });
@@ -94,7 +96,12 @@ const report = async (query = "") => {
   const w = await get(`${query}${query ? "&" : "?"}include=shots`);
   expect(w.status).toBe(200);
   const { shots, ...figures } = w.json;
-  expectClose(figures, r.json);
+  expect(figures).toEqual(r.json);
+  const fromShots = await computeSensorReport(qa, sensorId, new URLSearchParams(query));
+  if (fromShots.status !== 200) throw new Error(JSON.stringify(fromShots.body));
+  const { shots: rows, ...rowFigures } = fromShots.body;
+  expectClose(rowFigures, r.json);
+  expect(shots).toEqual(JSON.parse(JSON.stringify(rows)));
   return { ...r.json, shots };
 };
 
@@ -159,6 +166,21 @@ test("a repeated view gives the same bytes; a new sync shows up in the next one"
   expect(after.n).toBe(10);
   expectFigures(after);
   expect(after.shots.map((s: { takenAt: string }) => s.takenAt)).toEqual([...known].sort((a, b) => (a.takenAt < b.takenAt ? -1 : 1)).map((k) => k.takenAt));
+});
+
+test("include=shots streams its rows page by page: across page edges they are the rows path's, in time order", async () => {
+  setRowsPageForTests(3);
+  try {
+    const r = await report(); // compares the streamed rows with the rows path's, exactly
+    expect(r.shots.length).toBe(known.length);
+    expect(r.shots.length).toBeGreaterThan(6);
+    expect(r.shots.map((s: { id: string }) => s.id)).toEqual([...known].sort((a, b) => (a.takenAt < b.takenAt ? -1 : a.takenAt > b.takenAt ? 1 : a.id < b.id ? -1 : 1)).map((k) => k.id));
+    const w = await call(reportLoader, apiRequest(`/api/sensors/${sensorId}/report?include=shots`, { user: qa }), { sensorId });
+    expect(w.headers.get("Content-Type")).toBe("application/json");
+    expect(w.headers.get("Content-Length")).toBeNull(); // streamed
+  } finally {
+    setRowsPageForTests(null);
+  }
 });
 
 test("an exclusion and its restore each show in the next report", async () => {
@@ -345,16 +367,18 @@ test("a kept report equals one computed from nothing on another handle, and the 
   const fresh = openDb(process.env.DATABASE_URL!);
   try {
     const cold = await sensorReportJson(qa, sensorId, {}, fresh);
-    if (cold.status !== 200) throw new Error("no cold report");
+    if (cold.status !== 200 || !("json" in cold)) throw new Error("no cold report");
     expect(JSON.parse(new TextDecoder().decode(cold.json))).toEqual(kept);
   } finally {
     fresh.$client.close();
   }
   clearReportCache(getDb());
   expect(await keptOnly()).toEqual(kept);
-  // the rows path (include=shots) sums in JS: the same figures to far below 0.01 mm
-  const { shots, ...withRows } = await report("?include=shots");
-  expectFigures({ ...withRows, shots });
+  // the rows path (every shot read, summed in JS): the same figures to far below 0.01 mm
+  const fromShots = await computeSensorReport(qa, sensorId, {});
+  if (fromShots.status !== 200) throw new Error(JSON.stringify(fromShots.body));
+  const { shots, ...withRows } = fromShots.body;
+  expectFigures({ ...withRows, biasMm: withRows.biasMm ?? Number.NaN, shots });
   for (const k of ["biasMm", "sdMm", "rmseMm", "p95AbsMm", "zeroOffsetMm", "scalePpm", "zeroOffsetSeMm"] as const) expect(withRows[k]).toBeCloseTo(kept[k], 9);
   expect(withRows.n).toBe(kept.n);
 });

@@ -216,6 +216,7 @@ async function threeWays(q: { sessionIds?: string[] } = {}) {
   const get = async (query: Parameters<typeof sensorReportFor>[1], rows: boolean) => {
     const r = rows ? await sensorReportFor(sensorId, query, null) : await sensorReportJson({ id: admin.id, role: admin.role }, sensorId, query);
     if (r.status !== 200) throw new Error(JSON.stringify(r.body));
+    if ("stream" in r) throw new Error("a report without rows is bytes, not a stream");
     return "json" in r ? JSON.parse(new TextDecoder().decode(r.json)) : r.body;
   };
   const kept = await get(q, false);
