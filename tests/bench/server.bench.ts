@@ -206,7 +206,7 @@ export async function run(): Promise<string[]> {
       oneRuns.push({ ms: performance.now() - t0, cpuMs: serverCpuMs(server.child.pid) - cpu0, accepted: n });
     }
     const six = Array.from({ length: CLIENTS }, (_, c) => Array.from({ length: 2 }, () => makeBatch(w, rnd, `bench-six-${c}`)));
-    let t = performance.now();
+    const t = performance.now();
     const sixAccepted = (
       await Promise.all(
         six.map(async (list) => {
