@@ -210,21 +210,25 @@ export async function reportShotsPage(
   sessions: { id: string; startedAt: string }[],
   after: { takenAt: string; id: string } | null,
   limit = ROWS_PAGE,
-): Promise<ReportShot[]> {
+  details = false,
+): Promise<LoadedShot[]> {
   // a row value: SQLite seeks the index (sensor_id, taken_at, id) to it
   const keyset = after ? sql`(${shots.takenAt}, ${shots.id}) > (${after.takenAt}, ${after.id})` : undefined;
   // packed, as loadReportShots reads them (one value per column: no object per row and column)
-  const packed = packedQuery(db, [...where, ...(keyset ? [keyset] : [])], limit).toSQL();
-  const prs = await tx.execute({ sql: packed.sql, args: packed.params as InArgs });
-  const p = prs.rows[0];
-  const keys = ["ids", "takenAt", "sessionIds", "referenceM", "rangeM", "errorMm", "repeatabilityMm", "reflectancePct", "illuminanceKlux", "referenceUncertaintyMm", "bits"] as const;
-  const list = p ? unpack(Object.fromEntries(keys.map((k, i) => [k, p[i] as string | null])) as Packed, sessions) : [];
-  if (list) return inTimeOrder(list);
-  // a value needed escaping (not possible for synced records): the plain query
+  if (!details) {
+    const packed = packedQuery(db, [...where, ...(keyset ? [keyset] : [])], limit).toSQL();
+    const prs = await tx.execute({ sql: packed.sql, args: packed.params as InArgs });
+    const p = prs.rows[0];
+    const keys = ["ids", "takenAt", "sessionIds", "referenceM", "rangeM", "errorMm", "repeatabilityMm", "reflectancePct", "illuminanceKlux", "referenceUncertaintyMm", "bits"] as const;
+    const list = p ? unpack(Object.fromEntries(keys.map((k, i) => [k, p[i] as string | null])) as Packed, sessions) : [];
+    if (list) return inTimeOrder(list);
+  }
+  // with each shot's note and target label (the CSV), or a value needed escaping (not possible for synced records): the plain query
   const { sql: text, params } = db
-    .select(reportColumns)
+    .select({ ...reportColumns, note: shots.note, targetLabel: targets.label })
     .from(shots)
     .innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId))
+    .leftJoin(targets, eq(targets.id, shots.targetId))
     .where(and(...where, keyset))
     .orderBy(asc(shots.takenAt), asc(shots.id))
     .limit(limit)
@@ -248,5 +252,7 @@ export async function reportShotsPage(
     wrap: Number(r[12]) !== 0,
     airDefaulted: Number(r[13]) !== 0,
     referenceUncertaintyMm: num(r[14]),
+    note: r[15] == null ? null : String(r[15]),
+    targetLabel: r[16] == null ? null : String(r[16]),
   }));
 }

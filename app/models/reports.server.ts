@@ -78,7 +78,7 @@ async function report(
   sensorId: string,
   query: ReportQuery | URLSearchParams,
   projectIds: ProjectFilter,
-  opts: { rows?: boolean; details?: boolean },
+  opts: { rows?: boolean; details?: boolean; streamRows?: boolean },
   db: Db,
 ): Promise<{ built: Built; kept: Kept | null; rowsFrom?: RowsFrom } | QueryError> {
   const q = checkedQuery(query);
@@ -108,7 +108,8 @@ async function report(
 
   const key = queryKey(sensorId, q, projectIds);
   // include=shots: the figures as kept, the rows streamed after them from the shots as they were then
-  const rowsFrom = (outlier: BuiltJson["outlier"]): RowsFrom | undefined => (q.includeShots ? { stamp: JSON.stringify(state.stamp), spec, rule, where, outlier, sensorId } : undefined);
+  const rowsFrom = (outlier: BuiltJson["outlier"]): RowsFrom | undefined =>
+    q.includeShots || opts.streamRows ? { stamp: JSON.stringify(state.stamp), spec, rule, where, outlier, sensorId } : undefined;
   const hit = kept.get(db, key, state.fingerprint);
   if (hit) return { built: hit.built, kept: hit, rowsFrom: rowsFrom(hit.outlier ?? null) };
   // decision 0011: read, computed and written as JSON on a report thread; parsed here (a few KB)
@@ -198,7 +199,7 @@ export async function sensorReportJson(
   if (!("built" in r)) return r;
   if (r.rowsFrom) {
     const json = r.kept?.json && r.kept.json.byteLength > 0 ? r.kept.json : encoder.encode(JSON.stringify(r.built.body));
-    const stream = await rowsStream(json, r.rowsFrom, db);
+    const stream = await rowsStream(r.rowsFrom, db, jsonRows(json));
     if (stream) return { status: 200, stream };
     // the shots changed between the figures and the rows' snapshot: the whole report from the shots in memory
     const whole = await report(sensorId, query, projectIds, { rows: true }, db);
@@ -225,7 +226,10 @@ export function setRowsPageForTests(n: number | null) {
   rowsPage = n ?? ROWS_PAGE;
 }
 
-async function rowsStream(figures: Uint8Array<ArrayBuffer>, from: RowsFrom, db: Db): Promise<ReadableStream<Uint8Array> | null> {
+/** How a stream of rows is written: what comes first, each page's text, what closes it. */
+type RowsFormat = { head: Uint8Array; page: (rows: ReportShotRow[], shots: LoadedShot[], first: boolean) => string; tail: string; details?: boolean };
+
+async function rowsStream(from: RowsFrom, db: Db, format: RowsFormat): Promise<ReadableStream<Uint8Array> | null> {
   const tx = await db.$client.transaction("read");
   let open = true;
   let sessions: { id: string; startedAt: string }[] = [];
@@ -243,33 +247,27 @@ async function rowsStream(figures: Uint8Array<ArrayBuffer>, from: RowsFrom, db: 
     close();
     throw error;
   }
-  // the figures' JSON ends with "}": the rows go in before it, as the last key (where toJson puts them)
-  const head = figures.subarray(0, figures.byteLength - 1);
   let after: { takenAt: string; id: string } | null = null;
   let first = true;
   let done = false;
   return new ReadableStream<Uint8Array>({
     start(c) {
-      c.enqueue(head);
-      c.enqueue(encoder.encode(`,"shots":[`));
+      c.enqueue(format.head);
     },
     async pull(c) {
       if (done) return;
       try {
-        const page = await reportShotsPage(tx, db, from.where, sessions, after, rowsPage);
+        const page = await reportShotsPage(tx, db, from.where, sessions, after, rowsPage, format.details);
         if (page.length > 0) {
-          const rows = reportRows(page, from.spec, from.rule, from.outlier);
-          let text = JSON.stringify(rows).slice(1, -1);
-          if (!first) text = "," + text;
+          c.enqueue(encoder.encode(format.page(reportRows(page, from.spec, from.rule, from.outlier), page, first)));
           first = false;
-          c.enqueue(encoder.encode(text));
           const last = page[page.length - 1]!;
           after = { takenAt: last.takenAt, id: last.id };
         }
         if (page.length < rowsPage) {
           done = true;
           close();
-          c.enqueue(encoder.encode("]}"));
+          if (format.tail) c.enqueue(encoder.encode(format.tail));
           c.close();
         }
       } catch (error) {
@@ -281,6 +279,31 @@ async function rowsStream(figures: Uint8Array<ArrayBuffer>, from: RowsFrom, db: 
       close();
     },
   });
+}
+
+/** The report's JSON with its rows: the figures' JSON ends with "}", the rows go in before it, as the last key (where toJson puts them). */
+const jsonRows = (figures: Uint8Array<ArrayBuffer>): RowsFormat => ({
+  head: Uint8Array.from([...figures.subarray(0, figures.byteLength - 1), ...encoder.encode(`,"shots":[`)]),
+  page: (rows, _shots, first) => (first ? "" : ",") + JSON.stringify(rows).slice(1, -1),
+  tail: "]}",
+});
+
+/**
+ * A sensor's per-shot rows as text, streamed (the CSV export): `head` first, then each page of
+ * rows (with each shot's note and target label) as `page` writes it. Null when the shots changed
+ * between the figures and the rows' snapshot: the caller builds it from the shots in memory.
+ */
+export async function sensorRowsStream(
+  actor: Actor,
+  sensorId: string,
+  query: ReportQuery | URLSearchParams,
+  format: { head: string; page: (rows: ReportShotRow[], shots: LoadedShot[]) => string },
+  db: Db = getDb(),
+): Promise<{ status: 200; stream: ReadableStream<Uint8Array> | null; sensor: Built["sensor"] } | QueryError> {
+  const r = await report(sensorId, query, await filterOf(actor, db), { streamRows: true }, db);
+  if (!("built" in r)) return r;
+  const stream = r.rowsFrom ? await rowsStream(r.rowsFrom, db, { head: encoder.encode(format.head), page: (rows, shots) => format.page(rows, shots), tail: "", details: true }) : null;
+  return { status: 200, stream, sensor: r.built.sensor };
 }
 
 /** Chunks of the bytes, sent as they are (views, not copies: a Uint8Array body would be copied whole). */

@@ -3,7 +3,9 @@
 // as the JSON report.
 import Papa from "papaparse";
 import { requireApiUser } from "~/auth/guards.server";
-import { computeSensorReport } from "~/models/reports.server";
+import { computeSensorReport, sensorRowsStream } from "~/models/reports.server";
+import type { LoadedShot } from "~/models/report-rows.server";
+import type { ReportShotRow } from "~/domain";
 import type { Route } from "./+types/api.sensors.$sensorId.report[.]csv";
 
 type Cell = string | number | boolean | null;
@@ -35,9 +37,45 @@ function csv(rows: Cell[][]) {
   return Papa.unparse(rows, { escapeFormulae: true, newline: "\r\n" });
 }
 
+/** A shot's CSV row. */
+const shotRow = (s: ReportShotRow, d: LoadedShot): Cell[] => [
+  s.id,
+  s.takenAt,
+  s.sessionId,
+  d.targetLabel ?? "",
+  s.referenceM,
+  s.rangeM,
+  s.errorMm,
+  s.limitMm,
+  yesNo(s.within),
+  s.repeatabilityMm,
+  d.reflectancePct,
+  d.illuminanceKlux,
+  yesNo(s.excluded),
+  s.flags.join(" "),
+  d.note ?? "",
+];
+
+const fileName = (sensor: { id: string; label: string }, part: string) => `report-${sensor.label.replace(/[^A-Za-z0-9._-]+/g, "-").replace(/^-+|-+$/g, "") || sensor.id}-${part}.csv`;
+const headersOf = (name: string) => ({
+  "Content-Type": "text/csv; charset=utf-8",
+  "Content-Disposition": `attachment; filename="${name}"`,
+  "Cache-Control": "private, no-store",
+});
+
 export async function loader({ request, params }: Route.LoaderArgs) {
   const user = await requireApiUser(request);
   const url = new URL(request.url);
+  if (url.searchParams.get("part") !== "summary") {
+    // the shot table streamed page by page (issue 16, decision 0013): the same bytes at any n, one page in memory
+    const streamed = await sensorRowsStream(user, params.sensorId, url.searchParams, {
+      head: csv([SHOT_COLUMNS.map((c) => c[0]), SHOT_COLUMNS.map((c) => c[1])]) + "\r\n",
+      page: (rows, shots) => csv(rows.map((s, i) => shotRow(s, shots[i]!))) + "\r\n",
+    });
+    if (streamed.status !== 200) return Response.json(streamed.body, { status: streamed.status });
+    if (streamed.stream) return new Response(streamed.stream, { headers: headersOf(fileName(streamed.sensor, "shots")) });
+    // the shots changed between the figures and the rows' snapshot: built from the shots in memory below
+  }
   const result = await computeSensorReport(user, params.sensorId, url.searchParams, { details: true });
   if (result.status !== 200) return Response.json(result.body, { status: result.status });
   const r = result.body;
@@ -75,34 +113,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     ];
   } else {
     rows = [SHOT_COLUMNS.map((c) => c[0]), SHOT_COLUMNS.map((c) => c[1])];
-    r.shots.forEach((s, i) => {
-      const d = result.details[i]!;
-      rows.push([
-        s.id,
-        s.takenAt,
-        s.sessionId,
-        d.targetLabel ?? "",
-        s.referenceM,
-        s.rangeM,
-        s.errorMm,
-        s.limitMm,
-        yesNo(s.within),
-        s.repeatabilityMm,
-        d.reflectancePct,
-        d.illuminanceKlux,
-        yesNo(s.excluded),
-        s.flags.join(" "),
-        d.note ?? "",
-      ]);
-    });
+    r.shots.forEach((s, i) => rows.push(shotRow(s, result.details[i]!)));
   }
-  const safeLabel = result.sensor.label.replace(/[^A-Za-z0-9._-]+/g, "-").replace(/^-+|-+$/g, "") || result.sensor.id;
   const part = url.searchParams.get("part") === "summary" ? "summary" : "shots";
-  return new Response(csv(rows) + "\r\n", {
-    headers: {
-      "Content-Type": "text/csv; charset=utf-8",
-      "Content-Disposition": `attachment; filename="report-${safeLabel}-${part}.csv"`,
-      "Cache-Control": "private, no-store",
-    },
-  });
+  return new Response(csv(rows) + "\r\n", { headers: headersOf(fileName(result.sensor, part)) });
 }

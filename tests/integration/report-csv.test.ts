@@ -5,6 +5,7 @@ import { beforeAll, expect, test } from "vitest";
 import Papa from "papaparse";
 import { action as syncAction } from "~/routes/api.sync";
 import { loader as csvLoader } from "~/routes/api.sensors.$sensorId.report[.]csv";
+import { setRowsPageForTests } from "~/models/reports.server";
 import { apiRequest, call, makeSensor, makeSite, makeUser, type TestUser, shareProject } from "../support/registry-fixtures";
 
 let viewer: TestUser;
@@ -67,6 +68,19 @@ test("the CSV has a names row, a units row and one row per shot", async () => {
   expect(rows[1]).toEqual(["", "ISO 8601", "", "", "m", "m", "mm", "mm", "yes/no", "mm", "%", "klux", "yes/no", "", ""]);
   expect(rows).toHaveLength(2 + 5);
   expect(rows.slice(2).map((r) => r[0])).toEqual(shotIds);
+});
+
+test("the shot table is streamed page by page: pages of 2 give the bytes of one page", async () => {
+  const get = async () => (await call(csvLoader, apiRequest(`/api/sensors/${sensorId}/report.csv`, { user: viewer }), { sensorId })).text;
+  const whole = await get();
+  setRowsPageForTests(2);
+  try {
+    const paged = await get();
+    expect(paged).toBe(whole);
+    expect(paged.split("\r\n")).toHaveLength(2 + 5 + 1); // the last line ends with CRLF too
+  } finally {
+    setRowsPageForTests(null);
+  }
 });
 
 test("formula-like text is neutralised, negative numbers stay plain numbers", async () => {
