@@ -5,7 +5,7 @@
 //    GET /api/sensors/:id/report: the first view after the start, repeated views, the answer's
 //    size without per-shot rows, the same as a project member (scoped), the server's peak RSS;
 // 2. the QA report page in Chromium: navigation until the figures and the charts are drawn;
-// 3. with BENCH_MILLION=1, the same report over 1,000,000 shots (first view, peak RSS).
+// 3. with BENCH_MILLION=1, the same report over 1,000,000 shots (first view, then the rows with include=shots, peak RSS over both).
 // Targets (issue 16): first view < 300 ms, repeated < 50 ms, answer < 50 KB, page < 1.5 s;
 // at 1,000,000: first view < 2 s, RSS < 400 MB throughout. Prints, never asserts.
 // Run alone: npx tsx tests/bench/report.bench.ts
@@ -317,7 +317,7 @@ export async function run(): Promise<string[]> {
       const body = (await (await fetch(url, { headers: { Authorization: `Bearer ${creds.adminToken}` } })).json()) as { n: number; excluded: number; shots?: unknown };
       if (body.n + body.excluded !== n || body.shots !== undefined) throw new Error(`bench: the report covers ${body.n + body.excluded} shots, not ${n}, or carries rows`);
       const peakBeforeRows = rssOf(pid).peakMb;
-      // the rows streamed page by page (decision 0013), at a million too: after the views the RSS target judges
+      // the rows streamed page by page (decision 0013), at a million too: the RSS target covers them
       const withRows = await timedGet(`${url}?include=shots`, creds.adminToken);
       const peakAfterRows = rssOf(pid).peakMb;
       lines.push(`report: ${fmt(n)} shots of one sensor seeded by SQL in ${fmt(seedMs / 1000, 1)} s; the built server started fresh on them (pid ${pid})`);
@@ -360,10 +360,12 @@ export async function run(): Promise<string[]> {
         lines.push(`report:   repeated view, median of ${REPEATS}    ${fmt(median(again), 1)} ms; answer ${fmt(bytes / 1024, 1)} KB`);
         lines.push(`report:   as a project member (scoped)   first ${fmt(memberFirst.ms, 1)} ms, repeated median ${fmt(memberAgain, 1)} ms`);
         lines.push(
-          `report:   with include=shots             ${fmt(withRows.ms, 1)} ms, ${fmt(withRows.bytes / 1024 / 1024, 1)} MB; server peak RSS ${fmt(peakBeforeRows, 0)} MB before it, ${fmt(peakAfterRows, 0)} MB after (information: the rows streamed; not yet flat at a million, decision 0013)`,
+          `report:   with include=shots             ${fmt(withRows.ms, 1)} ms, ${fmt(withRows.bytes / 1024 / 1024, 1)} MB; server peak RSS ${fmt(peakBeforeRows, 0)} MB before it, ${fmt(peakAfterRows, 0)} MB after`,
         );
-        // the target judges the report's views (the issue's measure), read before the rows were asked for
-        lines.push(target(`1,000,000 shots: server RSS < ${TARGETS.millionRssMb} MB throughout`, `peak (VmHWM) ${fmt(peakBeforeRows, 0)} MB over the views`, peakBeforeRows < TARGETS.millionRssMb));
+        // the views, then the 226 MB of rows streamed (decision 0013)
+        lines.push(
+          target(`1,000,000 shots: server RSS < ${TARGETS.millionRssMb} MB throughout`, `peak (VmHWM) ${fmt(peakAfterRows, 0)} MB (the views and include=shots)`, peakAfterRows < TARGETS.millionRssMb),
+        );
       }
     } finally {
       serverPid = undefined;
