@@ -61,20 +61,21 @@ function packedQuery(db: Db, where: SQL[], limit?: number) {
     .where(and(...where))
     .orderBy(asc(shots.takenAt), asc(shots.id));
   const o = (limit ? selection.limit(limit) : selection).as("o");
-  const gc = (c: unknown) => sql<string | null>`group_concat(${c})`;
+  // each column named as its key: a read transaction's raw row (reportShotsPage) reads as Packed
+  const gc = <K extends string>(c: unknown, name: K) => sql<string | null>`group_concat(${c})`.as(name);
   return db
     .select({
-      ids: gc(o.id),
-      takenAt: gc(o.takenAt),
-      sessionIds: gc(o.sessionId),
-      referenceM: gc(o.referenceM),
-      rangeM: gc(o.rangeM),
-      errorMm: gc(o.errorMm),
-      repeatabilityMm: gc(o.repeatabilityMm),
-      reflectancePct: gc(o.reflectancePct),
-      illuminanceKlux: gc(o.illuminanceKlux),
-      referenceUncertaintyMm: gc(o.referenceUncertaintyMm),
-      bits: gc(o.bits),
+      ids: gc(o.id, "ids"),
+      takenAt: gc(o.takenAt, "takenAt"),
+      sessionIds: gc(o.sessionId, "sessionIds"),
+      referenceM: gc(o.referenceM, "referenceM"),
+      rangeM: gc(o.rangeM, "rangeM"),
+      errorMm: gc(o.errorMm, "errorMm"),
+      repeatabilityMm: gc(o.repeatabilityMm, "repeatabilityMm"),
+      reflectancePct: gc(o.reflectancePct, "reflectancePct"),
+      illuminanceKlux: gc(o.illuminanceKlux, "illuminanceKlux"),
+      referenceUncertaintyMm: gc(o.referenceUncertaintyMm, "referenceUncertaintyMm"),
+      bits: gc(o.bits, "bits"),
     })
     .from(o);
 }
@@ -217,24 +218,16 @@ export async function reportShotsPage(
   // packed, as loadReportShots reads them (one value per column: no object per row and column)
   if (!details) {
     const packed = packedQuery(db, [...where, ...(keyset ? [keyset] : [])], limit).toSQL();
-    const prs = await tx.execute({ sql: packed.sql, args: packed.params as InArgs });
-    const p = prs.rows[0];
-    const keys = ["ids", "takenAt", "sessionIds", "referenceM", "rangeM", "errorMm", "repeatabilityMm", "reflectancePct", "illuminanceKlux", "referenceUncertaintyMm", "bits"] as const;
-    const list = p ? unpack(Object.fromEntries(keys.map((k, i) => [k, p[i] as string | null])) as Packed, sessions) : [];
+    const p = (await tx.execute({ sql: packed.sql, args: packed.params as InArgs })).rows[0] as unknown as Packed | undefined;
+    const list = unpack(p, sessions);
     if (list) return inTimeOrder(list);
   }
   // with each shot's note and target label (the CSV), or a value needed escaping (not possible for synced records): the plain query
-  const { sql: text, params } = db
-    .select({ ...reportColumns, note: shots.note, targetLabel: targets.label })
-    .from(shots)
-    .innerJoin(checkSessions, eq(checkSessions.id, shots.sessionId))
-    .leftJoin(targets, eq(targets.id, shots.targetId))
-    .where(and(...where, keyset))
-    .orderBy(asc(shots.takenAt), asc(shots.id))
+  const { sql: text, params } = plainQuery(db, keyset ? [...where, keyset] : where)
     .limit(limit)
     .toSQL();
   const rs = await tx.execute({ sql: text, args: params as InArgs });
-  // the columns come back in reportColumns' order
+  // the raw columns come back in plainQuery's order (reportColumns, note, target label)
   const num = (v: unknown) => (v == null ? null : Number(v));
   return rs.rows.map((r) => ({
     id: String(r[0]),

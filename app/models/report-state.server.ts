@@ -25,14 +25,15 @@ type ShotsStamp = { maxRowid: number; exclusions: number; restored: number; reco
 function stampQueries(db: Db, sensorId: string) {
   return [
     // a bare max(rowid) is one step down the table's b-tree; wrapped in anything it is a scan
-    db.select({ maxRowid: sql<number | null>`max(${shots}.rowid)` }).from(shots),
+    // (each figure is named: a read transaction's raw rows, shotsStampIn, come back by these names)
+    db.select({ maxRowid: sql<number | null>`max(${shots}.rowid)`.as("maxRowid") }).from(shots),
     db
-      .select({ n: sql<number>`count(*)`, restored: sql<number>`count(${exclusions.restoredAt})` })
+      .select({ n: sql<number>`count(*)`.as("n"), restored: sql<number>`count(${exclusions.restoredAt})`.as("restored") })
       .from(exclusions)
       .crossJoin(shots) // CROSS JOIN keeps exclusions as the outer loop
       .where(and(eq(shots.id, exclusions.shotId), eq(shots.sensorId, sensorId))),
     db
-      .select({ n: sql<number>`count(*)`, last: sql<number>`ifnull(max(${auditLog}.rowid), 0)` })
+      .select({ n: sql<number>`count(*)`.as("n"), last: sql<number>`ifnull(max(${auditLog}.rowid), 0)`.as("last") })
       .from(auditLog)
       .where(and(eq(auditLog.entity, "sensor"), eq(auditLog.entityId, sensorId), eq(auditLog.action, RECOMPUTE_ACTION))),
   ] as const;
@@ -54,14 +55,12 @@ function stampOf([a, b, c]: StampRows): ShotsStamp {
  * connection and snapshot), where the streamed per-shot rows are read (reports.server.ts).
  */
 export async function shotsStampIn(tx: Pick<Transaction, "execute">, db: Db, sensorId: string): Promise<string> {
-  const rows = [] as unknown[][];
+  const rows: unknown[] = [];
   for (const q of stampQueries(db, sensorId)) {
     const { sql, params } = q.toSQL();
-    const rs = await tx.execute({ sql, args: params as InArgs });
-    rows.push(rs.rows.map((r) => Array.from({ length: rs.columns.length }, (_, i) => r[i])));
+    rows.push((await tx.execute({ sql, args: params as InArgs })).rows);
   }
-  const [[a], [b], [c]] = rows as [unknown[][], unknown[][], unknown[][]];
-  return JSON.stringify(stampOf([[{ maxRowid: a?.[0] as number | null }], [{ n: b?.[0] as number, restored: b?.[1] as number }], [{ n: c?.[0] as number, last: c?.[1] as number }]]));
+  return JSON.stringify(stampOf(rows as StampRows));
 }
 
 const ruleCols = { id: projects.id, ...RULE_COLUMNS };

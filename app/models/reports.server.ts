@@ -213,13 +213,6 @@ export async function sensorReportJson(
   return { status: 200, json };
 }
 
-/**
- * The report's JSON with its per-shot rows streamed after the figures (issue 16): read page by
- * page (ROWS_PAGE shots) inside one read transaction of the libSQL client, so every page comes
- * from one snapshot, and only after checking that the snapshot's shots are the ones the figures
- * were made from (their stamp); null when they are not. Memory stays one page, at any n; the
- * transaction (its own connection) ends with the stream, or when the reader goes away.
- */
 let rowsPage = ROWS_PAGE;
 /** Tests: a small page, so a handful of shots cross page boundaries (null: ROWS_PAGE again). */
 export function setRowsPageForTests(n: number | null) {
@@ -229,6 +222,13 @@ export function setRowsPageForTests(n: number | null) {
 /** How a stream of rows is written: what comes first, each page's text, what closes it. */
 type RowsFormat = { head: Uint8Array; page: (rows: ReportShotRow[], shots: LoadedShot[], first: boolean) => string; tail: string; details?: boolean };
 
+/**
+ * A selection's per-shot rows streamed as `format` writes them (issue 16, decision 0013): read
+ * page by page inside one read transaction of the libSQL client, so every page comes from one
+ * snapshot, and only after checking that the snapshot's shots are the ones the figures were made
+ * from (their stamp); null when they are not. Memory stays one page, at any n; the transaction
+ * (its own connection) ends with the stream, or when the reader goes away.
+ */
 async function rowsStream(from: RowsFrom, db: Db, format: RowsFormat): Promise<ReadableStream<Uint8Array> | null> {
   const tx = await db.$client.transaction("read");
   let open = true;
@@ -302,7 +302,7 @@ export async function sensorRowsStream(
 ): Promise<{ status: 200; stream: ReadableStream<Uint8Array> | null; sensor: Built["sensor"] } | QueryError> {
   const r = await report(sensorId, query, await filterOf(actor, db), { streamRows: true }, db);
   if (!("built" in r)) return r;
-  const stream = r.rowsFrom ? await rowsStream(r.rowsFrom, db, { head: encoder.encode(format.head), page: (rows, shots) => format.page(rows, shots), tail: "", details: true }) : null;
+  const stream = r.rowsFrom ? await rowsStream(r.rowsFrom, db, { head: encoder.encode(format.head), page: format.page, tail: "", details: true }) : null;
   return { status: 200, stream, sensor: r.built.sensor };
 }
 
